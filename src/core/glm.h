@@ -1,0 +1,74 @@
+/* glm.h - per-voxel first-level fits in one streaming pass: OLS and AR(1) (METHODS.md 3-5). */
+#ifndef SR_GLM_H
+#define SR_GLM_H
+
+#include <stddef.h>
+
+#include "err.h"
+
+/*
+ * The per-run part of the fit that does not depend on the data: X, its SVD,
+ * pinv(X), rank, df, estimability, the lagged Gram matrices. Immutable once
+ * made; may be shared between threads.
+ */
+typedef struct glm_model glm_model;
+
+/* Makes the model for X (T x p, column-major). Errors: T <= p, non-finite X. */
+sr_status glm_model_make(const double *X, int T, int p, glm_model **out, sr_err *e);
+void glm_model_free(glm_model *m);
+int glm_model_T(const glm_model *m);
+int glm_model_p(const glm_model *m);
+int glm_model_rank(const glm_model *m);
+/* Residual degrees of freedom T - rank. */
+int glm_model_df(const glm_model *m);
+/* 1 when weight vector c (p values) lies in the row space of X (METHODS.md section 11). */
+int glm_estimable(const glm_model *m, const double *c);
+/* beta = pinv(X) y for one series y of T values (no scaling): the plain OLS solver. */
+void glm_ols_solve(const glm_model *m, const double *y, double *beta);
+
+/*
+ * Streaming accumulators for nvox voxels of one run: volumes are added in
+ * order, and the accumulators hold what the OLS and AR(1) fits need (pinv(X) y,
+ * the lag-one cross-products, sums), so the run is never held in memory.
+ * One per run; not thread safe.
+ */
+typedef struct glm_acc glm_acc;
+glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox);
+/* Adds the next volume (nvox values; NaN or inf makes that voxel unanalyzable). */
+sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e);
+void glm_acc_free(glm_acc *a);
+
+/* What a finished fit gives per voxel. Arrays owned (glm_out_release). */
+typedef struct glm_out {
+	size_t nvox;
+	int ncon;
+	int df;                  /* residual df of the run (unwhitened X) */
+	unsigned char *ok;       /* nvox: analyzable (METHODS.md section 3) */
+	unsigned char *estimable;/* ncon */
+	double *effect;          /* ncon * nvox, contrast-major; NaN where not ok or not estimable */
+	double *var;             /* ncon * nvox, likewise */
+	double *rho;             /* nvox: AR(1) coefficient used (0 for OLS), NaN where not ok */
+	double *mean;            /* nvox: temporal mean of the raw series, NaN where not finite */
+} glm_out;
+
+/*
+ * Finishes the fit after all T volumes: scaling to percent of the voxel mean,
+ * OLS, then (ar1 = 1) Prais-Winsten whitening with the per-voxel rho and the
+ * refit. C is ncon x p, row-major (contrast weights over all columns).
+ * mask (nvox, may be NULL) restricts the voxels fitted. nthreads >= 1 splits
+ * the voxels; results are identical for any nthreads.
+ */
+sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
+			 const unsigned char *mask, int nthreads, glm_out *out, sr_err *e);
+void glm_out_release(glm_out *o);
+
+/*
+ * Fixed effects over runs (METHODS.md section 5), per voxel: over the runs
+ * whose effect and var are finite, E = mean effect, V = sum var / n^2,
+ * t = E / sqrt(V), df = sum df. Voxels with no such run get NaN and df 0.
+ * effect[r], var[r] point to nvox values of run r. Outputs may be NULL.
+ */
+void glm_ffx(size_t nvox, int nruns, const double *const *effect, const double *const *var,
+	     const int *df, double *E, double *V, double *t, int *dfsum);
+
+#endif

@@ -1,0 +1,105 @@
+/* nii.h - NIfTI-1/NIfTI-2 images through nifticlib: headers, streamed volumes, maps. */
+#ifndef SR_NII_H
+#define SR_NII_H
+
+#include <stdint.h>
+#include <stddef.h>
+
+#include "../core/err.h"
+
+/*
+ * The grid of an image: what two images must share to be compared voxel by
+ * voxel, and what a written map copies so that it lands in the same place.
+ * Plain data; copy freely.
+ */
+typedef struct nii_grid {
+	int64_t nx, ny, nz;       /* spatial dims (missing dims are 1) */
+	double dx, dy, dz;        /* voxel size, in mm (converted from xyzt_units) */
+	int qform_code, sform_code;
+	double quatern_b, quatern_c, quatern_d, qoffset_x, qoffset_y, qoffset_z, qfac;
+	double srow[3][4];        /* sform rows (valid when sform_code > 0) */
+	double affine[3][4];      /* voxel to world: sform if set, else qform, else scaling */
+	int xyz_units;            /* NIFTI_UNITS_* of the input (written back unchanged) */
+} nii_grid;
+
+/* What a header says, beyond the grid. */
+typedef struct nii_info {
+	nii_grid grid;
+	int ndim;                 /* dim[0] after dropping trailing 1s, at least 3 */
+	int64_t nt;               /* volumes (1 for a 3-D image) */
+	double tr;                /* pixdim[4] in seconds; 0 when absent or <= 0 */
+	int datatype;             /* NIFTI_TYPE_* as stored */
+	double slope, inter;      /* scaling actually applied (1, 0 when none) */
+	int nifti_version;        /* 1 or 2 */
+} nii_info;
+
+/* Voxels per volume (nx*ny*nz); the caller knows it fits in memory once opened. */
+size_t nii_nvox(const nii_grid *g);
+
+/*
+ * Reads and checks a header: magic, sizeof_hdr, dims (positive, at most 4 used
+ * dimensions, nx*ny*nz*nt*bytes not overflowing and not beyond the file for an
+ * uncompressed .nii), datatype supported. Errors name the file.
+ */
+sr_status nii_read_info(const char *path, nii_info *info, sr_err *e);
+
+/*
+ * Streaming reader: volumes in order, each read once from one open handle, so
+ * a .nii.gz is inflated once from start to end. Not thread safe per stream;
+ * separate streams may be used from separate threads.
+ */
+typedef struct nii_stream nii_stream;
+
+/* Opens path; fills info. On failure *out is NULL. */
+sr_status nii_stream_open(const char *path, nii_stream **out, nii_info *info, sr_err *e);
+/* Reads the next volume into vol (nvox doubles, scaling applied). A short file is an error naming the volume. */
+sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e);
+/* Closes; NULL does nothing. */
+void nii_stream_close(nii_stream *s);
+
+/* Reads a whole 3-D image (nt must be 1) as doubles with scaling; *data is xmalloc'ed, caller frees. */
+sr_status nii_read_3d(const char *path, nii_info *info, double **data, sr_err *e);
+
+/*
+ * Writes float32 maps on grid g: nt volumes of nvox values each, one after the
+ * other in data. Compressed when path ends in .gz. Written to a temporary file
+ * in the same folder and renamed, so a failed write leaves no file behind.
+ * `description` goes into the header's descrip (truncated to 79 bytes).
+ * tr > 0 is stored as pixdim[4] in seconds.
+ */
+sr_status nii_write_float(const char *path, const nii_grid *g, const float *data, int64_t nt,
+			  double tr, const char *description, sr_err *e);
+
+/* Writes an int32 label image (3-D) on grid g, atomically as above. */
+sr_status nii_write_labels(const char *path, const nii_grid *g, const int32_t *labels,
+			   const char *description, sr_err *e);
+
+/*
+ * Streaming writer for 4-D series too large to hold (the simulator's).
+ * datatype NIFTI_TYPE_FLOAT32 or NIFTI_TYPE_INT16 (then values are stored as
+ * round((v - inter) / slope) with the given slope and inter, clamped to range).
+ */
+typedef struct nii_writer nii_writer;
+sr_status nii_writer_open(const char *path, const nii_grid *g, int64_t nt, double tr,
+			  int datatype, double slope, double inter, nii_writer **out, sr_err *e);
+sr_status nii_writer_put(nii_writer *w, const double *vol, sr_err *e);
+/* Checks that nt volumes were written, flushes, closes and renames into place. */
+sr_status nii_writer_commit(nii_writer *w, sr_err *e);
+/* Abandons the file (temporary removed); NULL does nothing. */
+void nii_writer_abort(nii_writer *w);
+
+/*
+ * Compares grids: same nx, ny, nz and affines equal within tol_mm (1e-3 in
+ * METHODS.md). Returns 1 when they match; otherwise 0 and a description of
+ * both grids in why (may be NULL).
+ */
+int nii_same_grid(const nii_grid *a, const nii_grid *b, double tol_mm, char *why, size_t whylen);
+
+/* A grid with the given dims and voxel size, axes aligned, world origin at voxel (ox, oy, oz). */
+void nii_grid_make(nii_grid *g, int64_t nx, int64_t ny, int64_t nz, double dx, double dy,
+		   double dz, double ox, double oy, double oz);
+
+/* World coordinates (mm) of voxel (i, j, k) through g->affine. */
+void nii_voxel_to_world(const nii_grid *g, double i, double j, double k, double xyz[3]);
+
+#endif

@@ -1,0 +1,121 @@
+/* main.c - the command table, top-level help and dispatch. */
+#include <stdio.h>
+#include <string.h>
+
+#include "cmd/cmd.h"
+#include "cmd/cmdline.h"
+#include "core/text.h"
+#include "version.h"
+
+enum { CMD_NEEDS_ARGS = 1 };
+
+/* The single list of commands: help and dispatch are generated from it. */
+static const struct command {
+	const char *name;
+	int (*run)(int argc, char **argv);
+	int flags;
+	const char *summary;
+} commands[] = {
+	{ NULL, NULL, 0, NULL }
+};
+
+static size_t ncommands(void)
+{
+	return sizeof commands / sizeof commands[0] - 1;
+}
+
+static void top_help(FILE *f)
+{
+	size_t i;
+
+	fprintf(f,
+		"splitroi %s - subject-specific functional ROIs for fMRI studies\n\n"
+		"usage: splitroi COMMAND [arguments]\n"
+		"       splitroi help COMMAND\n"
+		"       splitroi --version\n\n"
+		"commands:\n",
+		SPLITROI_VERSION);
+	for (i = 0; i < ncommands(); i++)
+		fprintf(f, "  %-10s %s\n", commands[i].name, commands[i].summary);
+	fprintf(f, "\nEach command takes --help.\n\n%s", cmdline_caution);
+}
+
+static const struct command *lookup(const char *name)
+{
+	size_t i;
+
+	for (i = 0; i < ncommands(); i++)
+		if (strcmp(commands[i].name, name) == 0)
+			return &commands[i];
+	return NULL;
+}
+
+static int unknown(const char *name)
+{
+	const char *names[64];
+	const char *near;
+	size_t i, n = 0;
+
+	for (i = 0; i < ncommands() && n < 64; i++)
+		names[n++] = commands[i].name;
+	near = text_nearest(name, names, n);
+	if (near)
+		fprintf(stderr, "splitroi: unknown command '%s'; did you mean '%s'?\n", name, near);
+	else
+		fprintf(stderr, "splitroi: unknown command '%s' (see 'splitroi --help')\n", name);
+	return 2;
+}
+
+static int check_stdout(int status)
+{
+	if (fflush(stdout) != 0 || ferror(stdout)) {
+		fprintf(stderr, "splitroi: could not write to standard output\n");
+		return status ? status : 1;
+	}
+	return status;
+}
+
+int main(int argc, char **argv)
+{
+	const struct command *c;
+
+	if (argc < 2) {
+		top_help(stderr);
+		return 2;
+	}
+	if (strcmp(argv[1], "--help") == 0 || strcmp(argv[1], "-h") == 0) {
+		top_help(stdout);
+		return check_stdout(0);
+	}
+	if (strcmp(argv[1], "--version") == 0) {
+		printf("splitroi %s\n", SPLITROI_VERSION);
+		return check_stdout(0);
+	}
+	if (strcmp(argv[1], "help") == 0) {
+		char *sub[] = { NULL, "--help", NULL };
+
+		if (argc < 3) {
+			top_help(stdout);
+			return check_stdout(0);
+		}
+		c = lookup(argv[2]);
+		if (!c)
+			return unknown(argv[2]);
+		sub[0] = argv[2];
+		return check_stdout(c->run(2, sub));
+	}
+	if (argv[1][0] == '-') {
+		fprintf(stderr, "splitroi: unknown option '%s' (see 'splitroi --help')\n", argv[1]);
+		return 2;
+	}
+	c = lookup(argv[1]);
+	if (!c)
+		return unknown(argv[1]);
+	if ((c->flags & CMD_NEEDS_ARGS) && argc < 3) {
+		char *sub[] = { argv[1], "--help", NULL };
+
+		c->run(2, sub);
+		return 2;
+	}
+	return check_stdout(c->run(argc - 1, argv + 1));
+}

@@ -1,0 +1,1 @@
+#define SPLITROI_VERSION "0.1.0"
