@@ -1,0 +1,57 @@
+/* runfit.h - fitting BOLD runs from their files: events, confounds, design, one streamed pass.
+ *
+ * Glue between io (nii, events, table) and core (design, glm); it prints
+ * nothing: warnings go through the sr_err callback.
+ */
+#ifndef SR_RUNFIT_H
+#define SR_RUNFIT_H
+
+#include "../core/design.h"
+#include "../core/err.h"
+#include "../core/glm.h"
+#include "../io/nii.h"
+
+typedef struct runfit_spec {
+	const char *bold;              /* _bold.nii[.gz] */
+	const char *events;            /* _events.tsv */
+	const char *condition_column;  /* NULL = trial_type */
+	const char *const *conditions; /* the task's conditions for this subject, sorted (byte order) */
+	int ncond;
+	const char *confounds;         /* confounds TSV, or NULL when nconf = 0 */
+	const char *const *confound_names;
+	int nconf;
+	double tr;                     /* seconds, already resolved (bids_run_tr) */
+	double slice_ref;              /* METHODS.md section 2 */
+	double drift_cutoff;           /* seconds; 0 = no drift basis */
+	int ar1;                       /* 1 = AR(1) Prais-Winsten, 0 = OLS */
+	const double *C;               /* ncon x ncond, row-major: contrast weights over conditions */
+	int ncon;
+	const unsigned char *mask;     /* nvox, optional brain mask on the data grid */
+} runfit_spec;
+
+typedef struct runfit_result {
+	nii_info info;                 /* header of the BOLD run */
+	design d;                      /* the design used (for CSV export and the report) */
+	glm_out out;                   /* per-voxel effects, variances, analyzable flags */
+} runfit_result;
+
+/*
+ * Fits one run: reads events (warning for events past the end of the run),
+ * confounds, builds the design, streams the volumes through the fit. Events
+ * of conditions not in spec->conditions are an error. A condition with no
+ * event in this run gives a warning and NaN for every contrast that needs it.
+ */
+sr_status runfit_run(const runfit_spec *spec, runfit_result *res, sr_err *e);
+
+/*
+ * Fits n runs with up to nthreads threads (runs in parallel); res[i], errs[i]
+ * belong to run i. Returns SR_OK when all succeeded, else the first failure's
+ * status (each errs[i] says what happened to run i). Results do not depend on
+ * nthreads.
+ */
+sr_status runfit_many(const runfit_spec *specs, int n, int nthreads, runfit_result *res,
+		      sr_err *errs);
+
+void runfit_result_release(runfit_result *r);
+
+#endif
