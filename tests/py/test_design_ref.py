@@ -175,6 +175,21 @@ def main():
         X = compare(tool, name, spec)
         if X is not None and name.startswith("drift boundary"):
             report(X.shape[1] == 1 + 8 + 1, "T=256, TR=2, cutoff 128 has 8 cosine columns (REFERENCES.md)")
+            D = scipy.fft.dct(np.eye(256), type=2, norm="ortho", axis=0)[1:9].T
+            dd = np.max(np.abs(X[:, 1:9] - D)) if X.shape[1] == 10 else np.inf
+            report(dd <= 1e-12, "cosine block = scipy.fft.dct orthonormal DCT-II to 1e-12 (%.2g)" % dd)
+            G = X[:, 1:9].T @ X[:, 1:9]
+            report(np.max(np.abs(G - np.eye(8))) <= 1e-12, "cosine block C'C = I to 1e-12")
+
+    # The kernel itself: an impulse at 0 s read every 0.05 s from 0 s is the scaled kernel.
+    X = c_design(tool, dict(T=640, tr="0.05", slice_ref="0", ncond=1, cutoff="none",
+                            events=[(0, "0", "0")]))
+    tk = np.arange(640) * 0.05
+    g = scipy.stats.gamma.pdf(tk, 6) - scipy.stats.gamma.pdf(tk, 16) / 6
+    scaled = g / (g.sum() * 0.05)
+    dk = np.max(np.abs(X[:, 0] - scaled))
+    report(dk <= 1e-12, "impulse response = scipy.stats.gamma two-gamma kernel, unit area (%.2g)" % dk)
+    report(np.argmax(X[:, 0]) == 100, "impulse response peaks at 5.00 s on the 0.05 s grid")
 
     # Fact of the trade (Huettel & McCarthy 2000): a brief event peaks 5-6 s after onset.
     X = c_design(tool, dict(T=400, tr="0.1", slice_ref="0", ncond=1, cutoff="none",
