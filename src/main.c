@@ -16,6 +16,7 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "slurm", cmd_slurm, CMD_NEEDS_ARGS, "write (and submit) SLURM jobs: one per subject, then the group step" },
 	{ NULL, NULL, 0, NULL }
 };
 
