@@ -389,13 +389,16 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFi
 		info->slope = 1.0;
 		info->inter = 0.0;
 	}
-	/* METHODS.md 11: pixdim[4] <= 0 is absent; time code 0 is seconds; Hz/ppm/rad are not a TR. */
+	/*
+	 * METHODS.md 11: pixdim[4] <= 0 is absent; time code 0 is seconds.
+	 * Hz/ppm/rad units describe a 4th axis that is not time: no TR.
+	 */
 	{
 		double t = rh.pixdim[4];
 		int tu = XYZT_TO_TIME(rh.xyzt_units);
 
-		if (!isfinite(t) || t <= 0)
-			t = 0;
+		if (!isfinite(t) || t <= 0 || rh.dim[0] < 4)
+			t = 0; /* a 3-D image has no time axis, whatever pixdim[4] holds */
 		else if (tu == NIFTI_UNITS_MSEC)
 			t /= 1000.0;
 		else if (tu == NIFTI_UNITS_USEC)
