@@ -22,14 +22,14 @@ static inline char *tf_tmpdir(void)
 	return strdup(tmpl);
 }
 
-/* Writes text (len bytes, or strlen when len is 0) to dir/rel, creating the folders in rel. */
+/* Writes text (len bytes, or strlen when len is 0) to dir/rel, creating missing folders. */
 static inline char *tf_write(const char *dir, const char *rel, const char *text, size_t len)
 {
 	char *path = malloc(strlen(dir) + strlen(rel) + 2);
 	FILE *f;
 
 	sprintf(path, "%s/%s", dir, rel);
-	for (char *p = path + strlen(dir) + 1; *p; p++)
+	for (char *p = path + 1; *p; p++)
 		if (*p == '/') {
 			*p = '\0';
 			mkdir(path, 0755);
