@@ -23,8 +23,20 @@ int glm_model_rank(const glm_model *m);
 int glm_model_df(const glm_model *m);
 /* 1 when weight vector c (p values) lies in the row space of X (METHODS.md section 11). */
 int glm_estimable(const glm_model *m, const double *c);
-/* beta = pinv(X) y for one series y of T values (no scaling): the plain OLS solver. */
+/*
+ * beta = pinv(X) y for one series y of T values (no scaling): the plain OLS
+ * solver. Coefficients that are not estimable (METHODS.md section 4) are NaN;
+ * the others equal pinv(X) y.
+ */
 void glm_ols_solve(const glm_model *m, const double *y, double *beta);
+
+/*
+ * Prais-Winsten fit of one series with a given rho (|rho| < 1), computed the
+ * way the stream does (lagged sums, no whitened copy of X): beta (p values,
+ * NaN where not estimable) and, when rss_w is not NULL, the whitened RSS.
+ */
+sr_status glm_ar1_solve(const glm_model *m, const double *y, double rho, double *beta, double *rss_w,
+			sr_err *e);
 
 /*
  * Streaming accumulators for nvox voxels of one run: volumes are added in
