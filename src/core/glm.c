@@ -36,6 +36,9 @@
 #define GLM_ESTIM_TOL 1e-8
 #define GLM_RHO_MAX 0.99
 #define GLM_BATCH 16
+/* grid of the adjusted-rho table: -0.99, -0.98, ..., 0.99 */
+#define GLM_NRHO 199
+#define GLM_RHO_STEP 0.01
 
 struct glm_model {
 	int T, p, r;
@@ -48,11 +51,94 @@ struct glm_model {
 	double *Lq;     /* r x r: sum_k>=1 u_k u_k-1' (column-major) */
 	double *u0, *ul;/* r: first and last rows of U_r */
 	double *g1;     /* r: U_r' 1 (coefficients of the constant series) */
+	double *ftab;   /* GLM_NRHO: expected residual lag-one ratio for rho on the grid (adjusted AR(1)) */
+	int ftab_ok;    /* ftab strictly increasing, so it can be inverted */
 };
 
 static double *dup_zero(size_t n)
 {
 	return xcalloc(n ? n : 1, sizeof(double));
+}
+
+/*
+ * The residual lag-one ratio expected under AR(1) noise with coefficient rho,
+ * E[e'D1 e] / E[e'e] = tr(R D1 R V) / tr(R V), R = I - U_r U_r', V the AR(1)
+ * correlation matrix, on the rho grid. Inverting it removes the bias of the
+ * residual-based estimate (the fit, drifts above all, absorbs part of the
+ * autocorrelation); the same idea as the bias reduction of Worsley et al.
+ * 2002, NeuroImage 15:1-15, carried to all lags of AR(1). V U is applied in
+ * O(T r) by two first-order recursions, so the table costs O(199 T r).
+ */
+static void make_ftab(glm_model *m)
+{
+	int T = m->T, r = m->r, i, k, a, b;
+	double *W = dup_zero((size_t)T * r), *f = dup_zero((size_t)T), *B = dup_zero((size_t)r * r);
+
+	m->ftab = dup_zero(GLM_NRHO);
+	m->ftab_ok = 1;
+	for (i = 0; i < GLM_NRHO; i++) {
+		double rho = -GLM_RHO_MAX + GLM_RHO_STEP * i, trRV, trD1RVR, t1, t2, t3;
+
+		/* W = V U: (Vx)_k = fwd_k + bwd_k - x_k */
+		for (a = 0; a < r; a++) {
+			const double *u = m->U + (size_t)a * T;
+			double *w = W + (size_t)a * T, acc = 0.0;
+
+			for (k = 0; k < T; k++)
+				f[k] = acc = u[k] + rho * acc;
+			acc = 0.0;
+			for (k = T - 1; k >= 0; k--) {
+				acc = u[k] + rho * acc;
+				w[k] = f[k] + acc - u[k];
+			}
+		}
+		trRV = T;
+		t1 = t2 = 0.0;
+		for (a = 0; a < r; a++) {
+			const double *u = m->U + (size_t)a * T, *w = W + (size_t)a * T;
+
+			for (k = 0; k < T; k++)
+				trRV -= u[k] * w[k];
+			for (k = 0; k + 1 < T; k++) {
+				t1 += u[k + 1] * w[k];   /* tr(D1 H V) */
+				t2 += w[k + 1] * u[k];   /* tr(D1 V H) */
+			}
+		}
+		/* B = U'W; tr(D1 H V H) = tr(A B), A = U'D1U = Lq' */
+		cblas_dgemm(CblasColMajor, CblasTrans, CblasNoTrans, r, r, T, 1.0, m->U, T, W, T, 0.0, B, r);
+		t3 = 0.0;
+		for (a = 0; a < r; a++)
+			for (b = 0; b < r; b++)
+				t3 += m->Lq[(size_t)a * r + b] * B[(size_t)a * r + b];
+		trD1RVR = (T - 1) * rho - t1 - t2 + t3;
+		m->ftab[i] = trD1RVR / trRV;
+		if (!(trRV > 0.0) || (i > 0 && !(m->ftab[i] > m->ftab[i - 1])))
+			m->ftab_ok = 0;
+	}
+	free(W);
+	free(f);
+	free(B);
+}
+
+/* rho whose expected residual ratio is q (linear between grid points), clipped to the grid. */
+static double adjusted_rho(const glm_model *m, double q)
+{
+	const double *f = m->ftab;
+	int lo = 0, hi = GLM_NRHO - 1;
+
+	if (!(q > f[0]))
+		return -GLM_RHO_MAX;
+	if (!(q < f[hi]))
+		return GLM_RHO_MAX;
+	while (hi - lo > 1) {
+		int mid = (lo + hi) / 2;
+
+		if (f[mid] <= q)
+			lo = mid;
+		else
+			hi = mid;
+	}
+	return -GLM_RHO_MAX + GLM_RHO_STEP * (lo + (q - f[lo]) / (f[hi] - f[lo]));
 }
 
 sr_status glm_model_make(const double *X, int T, int p, glm_model **out, sr_err *e)
@@ -170,6 +256,7 @@ sr_status glm_model_make(const double *X, int T, int p, glm_model **out, sr_err 
 		}
 		m->has_const = sqrt(res) <= GLM_ESTIM_TOL * sqrt((double)T);
 	}
+	make_ftab(m);
 	*out = m;
 	return SR_OK;
 }
@@ -187,6 +274,7 @@ void glm_model_free(glm_model *m)
 	free(m->u0);
 	free(m->ul);
 	free(m->g1);
+	free(m->ftab);
 	free(m);
 }
 
@@ -539,6 +627,8 @@ static void *finish_range(void *arg)
 			lag += u[q] * (lu - l[q]);
 		}
 		rho = rss > 0.0 ? lag / rss : 0.0;
+		if (j->ar1 == GLM_AR1_ADJUSTED && m->ftab_ok && rss > 0.0)
+			rho = adjusted_rho(m, rho);
 		if (rho > GLM_RHO_MAX)
 			rho = GLM_RHO_MAX;
 		if (rho < -GLM_RHO_MAX)

@@ -63,10 +63,18 @@ typedef struct glm_out {
 	double *mean;            /* nvox: temporal mean of the raw series, NaN where not finite */
 } glm_out;
 
+/* Values of glm_acc_finish's ar1 argument. */
+enum {
+	GLM_OLS = 0,
+	GLM_AR1 = 1,          /* rho from the OLS residuals (METHODS.md section 4) */
+	GLM_AR1_ADJUSTED = 2  /* rho corrected for the bias the fit puts in the residuals (optional, off by default) */
+};
+
 /*
  * Finishes the fit after all T volumes: scaling to percent of the voxel mean,
- * OLS, then (ar1 = 1) Prais-Winsten whitening with the per-voxel rho and the
- * refit. C is ncon x p, row-major (contrast weights over all columns).
+ * OLS, then (ar1 = GLM_AR1) Prais-Winsten whitening with the per-voxel rho
+ * and the refit. GLM_AR1_ADJUSTED maps the residual ratio rho through the
+ * design's table of expected ratios under AR(1) noise before whitening. C is ncon x p, row-major (contrast weights over all columns).
  * mask (nvox, may be NULL) restricts the voxels fitted. nthreads >= 1 splits
  * the voxels; results are identical for any nthreads.
  */
