@@ -27,8 +27,9 @@ LIB_SRC := $(sort $(wildcard src/core/*.c src/io/*.c src/cmd/*.c))
 LIB_OBJ := $(LIB_SRC:%.c=$(BUILD)/%.o)
 TEST_SRC := $(sort $(wildcard tests/unit/test_*.c))
 TEST_BIN := $(TEST_SRC:tests/unit/%.c=$(BUILD)/tests/%)
+# Helper programs the Python and command-line tests drive (tests/tools/*.c).
 TOOL_SRC := $(sort $(wildcard tests/tools/*.c))
-TOOL_BIN := $(TOOL_SRC:tests/tools/%.c=$(BUILD)/tools/%)
+TOOL_BIN := $(TOOL_SRC:tests/tools/%.c=$(BUILD)/tests/tools/%)
 
 .PHONY: all deps check check-asan check-valgrind test demo bench install uninstall clean
 all: $(BUILD)/splitroi
@@ -48,8 +49,7 @@ $(BUILD)/tests/%: tests/unit/%.c tests/unit/testlib.h $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
 
-# Small drivers of library functions for the Python reference tests.
-$(BUILD)/tools/%: tests/tools/%.c $(BUILD)/libsplitroi.a
+$(BUILD)/tests/tools/%: tests/tools/%.c $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
 

@@ -10,7 +10,7 @@ import scipy.stats
 import statsmodels.api as sm
 
 BUILD = os.environ.get("BUILD", "build")
-TOOL = os.path.join(BUILD, "tools", "glmtool")
+TOOL = os.path.join(BUILD, "tests", "tools", "glmtool")
 failed = 0
 worst = {"ols": 0.0, "ar1": 0.0}
 
