@@ -8,7 +8,7 @@
 #include "../core/expr.h"
 #include "../core/mem.h"
 #include "../io/bids.h"
-#include "../io/csvout.h"
+#include "../io/afile.h"
 #include "../io/events.h"
 #include "../io/jdoc.h"
 #include "../io/nii.h"
@@ -206,53 +206,64 @@ static int write_map(const char *dir, const char *base, const char *label, const
 	return rc;
 }
 
+/* A CSV field, quoted when it holds a comma, quote, CR or LF (RFC 4180). */
+static void csv_field(FILE *f, const char *s)
+{
+	if (!strpbrk(s, ",\"\r\n")) {
+		fputs(s, f);
+		return;
+	}
+	fputc('"', f);
+	for (; *s; s++) {
+		if (*s == '"')
+			fputc('"', f);
+		fputc(*s, f);
+	}
+	fputc('"', f);
+}
+
+/* The design matrix with named columns; full precision so that it can be refitted exactly. */
 static int write_design(const char *dir, const char *base, const design *d, char **conds,
 			const runfit_spec *s, jdoc *files)
 {
-	char *path = xmalloc(strlen(dir) + strlen(base) + 32), **hdr;
-	csvout c;
+	char *path = xmalloc(strlen(dir) + strlen(base) + 32);
+	afile a;
 	sr_err e;
-	int j, k, rc = 0;
+	int j, k;
 
 	sr_err_init(&e, NULL, NULL);
 	sprintf(path, "%s/%s_design.csv", dir, base);
-	hdr = xcalloc((size_t)d->p, sizeof *hdr);
-	for (j = 0; j < d->p; j++) {
-		char tmp[64];
-
-		if (j < d->ncond) {
-			hdr[j] = xstrdup(conds[j]);
-		} else if (j < d->ncond + d->nconf) {
-			hdr[j] = xstrdup(s->confound_names[j - d->ncond]);
-		} else if (j < d->ncond + d->nconf + d->ndrift) {
-			snprintf(tmp, sizeof tmp, "drift_%d", j - d->ncond - d->nconf + 1);
-			hdr[j] = xstrdup(tmp);
-		} else {
-			hdr[j] = xstrdup("constant");
-		}
-	}
-	if (csvout_open(&c, path, (const char *const *)hdr, (size_t)d->p, &e) != SR_OK) {
+	if (afile_open(&a, path, &e) != SR_OK) {
 		cmdline_error("fit", "%s", e.msg);
-		rc = 1;
-		goto out;
+		free(path);
+		return 1;
 	}
+	for (j = 0; j < d->p; j++) {
+		if (j)
+			fputc(',', a.f);
+		if (j < d->ncond)
+			csv_field(a.f, conds[j]);
+		else if (j < d->ncond + d->nconf)
+			csv_field(a.f, s->confound_names[j - d->ncond]);
+		else if (j < d->ncond + d->nconf + d->ndrift)
+			fprintf(a.f, "drift_%d", j - d->ncond - d->nconf + 1);
+		else
+			fputs("constant", a.f);
+	}
+	fputs("\r\n", a.f);
 	for (k = 0; k < d->T; k++) {
 		for (j = 0; j < d->p; j++)
-			csvout_num(&c, d->X[(size_t)j * d->T + k]);
-		csvout_endrow(&c);
+			fprintf(a.f, "%s%.17g", j ? "," : "", d->X[(size_t)j * d->T + k]);
+		fputs("\r\n", a.f);
 	}
-	if (csvout_commit(&c, &e) != SR_OK) {
+	if (afile_commit(&a, &e) != SR_OK) {
 		cmdline_error("fit", "%s", e.msg);
-		rc = 1;
-	} else {
-		jdoc_push_str(files, path);
+		free(path);
+		return 1;
 	}
-out:
-	for (j = 0; j < d->p; j++)
-		free(hdr[j]);
-	free(hdr);
+	jdoc_push_str(files, path);
 	free(path);
-	return rc;
+	return 0;
 }
 
 /* The run's TR: --tr, else the sidecar beside it / the header (bids_run_tr rules). */
