@@ -16,6 +16,7 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ NULL, NULL, 0, NULL }
 };
 
