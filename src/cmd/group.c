@@ -15,6 +15,7 @@
 #include "../core/text.h"
 #include "../io/csvout.h"
 #include "../io/table.h"
+#include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
 
@@ -918,15 +919,21 @@ static void summary(const group_ctx *g)
 
 	snprintf(marker, sizeof marker, "<- q<%g", g->alpha);
 	/* The split column only when one task comes with more than one split kind. */
-	for (r = 0; r < g->nrows && !show_split; r++)
-		for (k = r + 1; k < g->nrows; k++) {
-			const cell *a = &g->cells[g->rows[r].cell], *b = &g->cells[g->rows[k].cell];
+	{
+		size_t *first = xmalloc_array(g->tasks.n ? g->tasks.n : 1, sizeof *first);
 
-			if (a->task == b->task && a->split != b->split) {
+		for (i = 0; i < g->tasks.n; i++)
+			first[i] = (size_t)-1;
+		for (r = 0; r < g->nrows; r++) {
+			const cell *a = &g->cells[g->rows[r].cell];
+
+			if (first[a->task] == (size_t)-1)
+				first[a->task] = a->split;
+			else if (first[a->task] != a->split)
 				show_split = 1;
-				break;
-			}
 		}
+		free(first);
+	}
 	for (k = 0; k < SC_NCOL; k++)
 		width[k] = (int)strlen(head[k]);
 	for (r = 0; r < g->nrows; r++) {
@@ -1100,4 +1107,18 @@ out:
 	group_release(&g);
 	free(pos);
 	return rc;
+}
+
+/* analyze's last step: the same command on the study's out folder (quiet: no summary). */
+int analyze_group_step(const char *out, int quiet)
+{
+	char *argv[4];
+	int argc = 0;
+
+	argv[argc++] = "group";
+	argv[argc++] = (char *)out;
+	if (quiet)
+		argv[argc++] = "--quiet";
+	argv[argc] = NULL;
+	return cmd_group(argc, argv);
 }

@@ -296,6 +296,24 @@ def main():
         ok(res.returncode == 0 and close(float(r["t"]), 10.0, 1e-9) and close(float(r["p"]), ref),
            "far tail: p(t = 10, df = 30) = %s vs scipy t.sf*2 %r" % (r.get("p"), ref))
         ok(close(float(r["p"]), float(stats.ttest_1samp(x, 0).pvalue)), "far tail p matches ttest_1samp")
+
+        # One task under two split kinds: the wide names and the summary say which split.
+        both = os.path.join(tmp, "both")
+        for s in ("01", "02", "03"):
+            d = os.path.join(both, "sub-" + s)
+            os.makedirs(d)
+            with open(os.path.join(d, "responses.csv"), "w", newline="") as f:
+                w = csv.writer(f)
+                w.writerow(HEADER)
+                for split in ("odd-even:mean", "leave-one-out:mean"):
+                    w.writerow([s, "A1", split, "1+2+3+4", "tones", "1+2+3+4", "melody",
+                                repr(float(rng.normal())), 12])
+        res = run([both])
+        wide = pd.read_csv(os.path.join(both, "responses_wide.csv"))
+        ok(res.returncode == 0 and list(wide.columns) == ["subject", "A1.tones.melody.oddeven", "A1.tones.melody.loo"],
+           "a task under two split kinds gets .oddeven / .loo wide names (%s)" % list(wide.columns))
+        ok(re.search(r"^parcel\s+split\s+task", res.stdout, re.M) is not None,
+           "the summary shows the split column when a task has two split kinds")
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
     return 1 if failures else 0
