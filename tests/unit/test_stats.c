@@ -113,10 +113,11 @@ static void t_distribution(void)
 
 	/* The far tail against nifticdf (an independent implementation of the t cdf). */
 	{
-		const double tt[] = { 10, 25, 4, 40, 8 };
-		const double dd[] = { 30, 30, 7, 5, 200 };
+		/* the last three lie where the complement I_x = 1 - I_(1-x) is used */
+		const double tt[] = { 10, 25, 4, 40, 8, 0.3, 1.0, 0.05 };
+		const double dd[] = { 30, 30, 7, 5, 200, 2.5, 30, 1000 };
 
-		for (i = 0; i < 5; i++) {
+		for (i = 0; i < 8; i++) {
 			double ref = 2.0 * nifti_stat2rcdf(tt[i], NIFTI_INTENT_TTEST, dd[i], 0, 0);
 
 			snprintf(name, sizeof name, "p2(t = %g, df = %g) against nifticdf", tt[i], dd[i]);
