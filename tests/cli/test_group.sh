@@ -112,3 +112,11 @@ grep -q ',incomplete' "$TMP/res/group.csv" && ok "group.csv rows carry the incom
 	|| notok "group.csv rows carry the incomplete marker"
 grep -q '^02,missing,' "$TMP/res/group_subjects.csv" && ok "group_subjects.csv lists 02 as missing" \
 	|| notok "group_subjects.csv lists 02 as missing"
+
+# An unreadable table (here a folder where the file should be): listed, left out, exit 0.
+mkdir -p "$TMP/res/sub-04/responses.csv"
+run "$SPLITROI" group "$TMP/res"
+expect_status 0 "an unreadable table does not stop the group step"
+grep -q '^04,unreadable,' "$TMP/res/group_subjects.csv" && ok "group_subjects.csv lists 04 as unreadable" \
+	|| notok "group_subjects.csv lists 04 as unreadable: $(cat "$TMP/res/group_subjects.csv")"
+expect_out "INCOMPLETE, 2 missing: 02 04" "the summary counts the unreadable subject as missing"
