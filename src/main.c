@@ -17,6 +17,7 @@ static const struct command {
 	const char *summary;
 } commands[] = {
 	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
+	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ "slurm", cmd_slurm, CMD_NEEDS_ARGS, "write (and submit) SLURM jobs: one per subject, then the group step" },
 	{ NULL, NULL, 0, NULL }
 };
