@@ -16,6 +16,7 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
 	{ NULL, NULL, 0, NULL }
 };
 
