@@ -367,7 +367,7 @@ size_t sim_event_events(sim_rng *r, int T, double tr, double dur, double isi_lo,
 
 void sim_motion(sim_rng *r, int T, double *m)
 {
-	static const double step[6] = { 0.010, 0.012, 0.015, 0.0002, 0.00015, 0.0002 };
+	static const double step[6] = { 0.006, 0.007, 0.009, 0.00015, 0.0001, 0.00015 };
 	int j, k;
 
 	for (j = 0; j < 6; j++) {
