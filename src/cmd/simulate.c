@@ -30,6 +30,7 @@
 #include "../core/err.h"
 #include "../core/mem.h"
 #include "../core/sim.h"
+#include "../core/text.h"
 #include "../io/afile.h"
 #include "../io/csvout.h"
 #include "../io/jsonout.h"
@@ -52,16 +53,16 @@ struct scenario {
 };
 
 static const struct scenario scenarios[] = {
-	{ "auditory", "invented auditory study: melodies, scrambled tones and a memory task",
+	{ "auditory", "Invented auditory study: melodies, scrambled tones and a memory task",
 	  "tones", { "melody", "scrambled" }, "memory", { "familiar", "novel" },
 	  { "left_auditory", "right_auditory", "frontal_pitch", "occipital_control" } },
-	{ "visual", "invented visual study: scenes versus objects",
+	{ "visual", "Invented visual study: scenes versus objects",
 	  "viewing", { "scenes", "objects" }, NULL, { NULL, NULL },
 	  { "left_scene", "right_scene", "frontal_object", "motor_control" } },
-	{ "reading", "invented reading study: words versus consonant strings, with a sentence task",
+	{ "reading", "Invented reading study: words versus consonant strings, with a sentence task",
 	  "reading", { "words", "consonants" }, "sentences", { "sentence", "wordlist" },
 	  { "left_temporal", "right_temporal", "frontal_language", "occipital_control" } },
-	{ "motor", "invented motor study: hand versus foot movements, with imagined movements",
+	{ "motor", "Invented motor study: hand versus foot movements, with imagined movements",
 	  "movement", { "hand", "foot" }, "imagery", { "imagined_hand", "imagined_foot" },
 	  { "left_hand", "right_hand", "premotor", "occipital_control" } },
 };
@@ -74,7 +75,7 @@ static const cmdline_opt opts[] = {
 	{ "grid", "NAME", "small (24x28x20, 3 mm; default) or standard (91x109x91, 2 mm)" },
 	{ "volumes", "N", "volumes per run (default 120)" },
 	{ "tr", "S", "repetition time in seconds (default 2)" },
-	{ "noise", "SD", "noise standard deviation, percent of baseline (default 1.5)" },
+	{ "noise", "SD", "noise standard deviation, percent of baseline (default 1)" },
 	{ "ar1", "RHO", "lag-1 autocorrelation of the noise (default 0.3)" },
 	{ "runs", "N", "localizer runs per subject (default 4; measured task: 2)" },
 	{ "null", NULL, "no true effects anywhere" },
@@ -128,14 +129,19 @@ enum { P_PHANTOM = 1, P_REGION, P_FACTOR, P_EVENTS, P_MOTION, P_DRIFT, P_NOISE }
 
 static int bad_name(const char *what, const char *given, const char *const *names, size_t n)
 {
-	size_t i;
+	const char *near = text_nearest(given, names, n);
 	char list[256] = "";
+	size_t i;
 
 	for (i = 0; i < n; i++) {
 		strncat(list, i ? ", " : "", sizeof list - strlen(list) - 1);
 		strncat(list, names[i], sizeof list - strlen(list) - 1);
 	}
-	cmdline_error("simulate", "--%s '%s' is not one of: %s", what, given, list);
+	if (near)
+		cmdline_error("simulate", "--%s '%s' is not one of: %s; did you mean '%s'?", what, given,
+			      list, near);
+	else
+		cmdline_error("simulate", "--%s '%s' is not one of: %s", what, given, list);
 	return 2;
 }
 
@@ -163,7 +169,7 @@ static int parse(int argc, char **argv, struct opts *o)
 	o->volumes = 120;
 	o->runs = 4;
 	o->tr = 2.0;
-	o->noise = 1.5;
+	o->noise = 1.0;
 	o->rho = 0.3;
 	o->sc = &scenarios[0];
 	if (!v[O_OUT] || !*v[O_OUT]) {

@@ -108,8 +108,8 @@ void sim_parcel_center(int p, double c[3]);
 void sim_parcels(const sim_space *sp, const sim_head *h, int32_t *labels);
 
 /* Plateau radius and edge width of an active region, normalized brain units. */
-#define SIM_REGION_PLATEAU 0.25
-#define SIM_REGION_EDGE 0.07
+#define SIM_REGION_PLATEAU 0.30
+#define SIM_REGION_EDGE 0.05
 /* Largest displacement of a subject's region from its parcel's centre. */
 #define SIM_REGION_SHIFT 0.08
 
