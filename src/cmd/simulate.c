@@ -32,8 +32,7 @@
 #include "../core/sim.h"
 #include "../core/text.h"
 #include "../io/afile.h"
-#include "../io/csvout.h"
-#include "../io/jsonout.h"
+#include "../io/jdoc.h"
 #include "../io/nii.h"
 
 #define CONFOUNDS_SUFFIX "_desc-confounds_timeseries.tsv"
@@ -319,29 +318,30 @@ static sr_status write_top(const struct opts *o, const char *data, sr_err *e)
 	int t;
 
 	{
-		jsonout_field f[] = {
-			{ "Name", sc->title, 0 },
-			{ "BIDSVersion", "1.8.0", 0 },
-			{ "DatasetType", "raw", 0 },
-		};
+		jdoc *d = jdoc_object();
 
+		jdoc_set_str(d, "Name", sc->title);
+		jdoc_set_str(d, "BIDSVersion", "1.8.0");
+		jdoc_set_str(d, "DatasetType", "raw");
 		p = path_join(data, "dataset_description.json");
-		st = jsonout_write_flat(p, f, 3, e);
+		st = jdoc_write(d, p, e);
+		jdoc_free(d);
 		free(p);
 		if (st != SR_OK)
 			return st;
 	}
 	for (t = 0; t < 2; t++) {
-		jsonout_field f[] = {
-			{ "TaskName", tasks[t], 0 },
-			{ "RepetitionTime", NULL, o->tr },
-		};
+		jdoc *d;
 
 		if (!tasks[t])
 			continue;
+		d = jdoc_object();
+		jdoc_set_str(d, "TaskName", tasks[t]);
+		jdoc_set_num(d, "RepetitionTime", o->tr);
 		snprintf(name, sizeof name, "task-%s_bold.json", tasks[t]);
 		p = path_join(data, name);
-		st = jsonout_write_flat(p, f, 2, e);
+		st = jdoc_write(d, p, e);
+		jdoc_free(d);
 		free(p);
 		if (st != SR_OK)
 			return st;
@@ -465,7 +465,7 @@ static void subject_release(struct subject *s)
 }
 
 /* Rows of truth.csv for one subject and task (kind 0 localizer, 1 measured). */
-static void truth_rows(csvout *c, const struct opts *o, const struct subject *s, const char *sub,
+static void truth_rows(FILE *f, const struct opts *o, const struct subject *s, const char *sub,
 		       int kind, double *topmean, size_t *ntop, size_t *npar)
 {
 	const char *task = kind ? o->sc->meas_task : o->sc->loc_task;
@@ -488,15 +488,9 @@ static void truth_rows(csvout *c, const struct opts *o, const struct subject *s,
 				pv = peak[0] - peak[1];
 				snprintf(name, sizeof name, "%s-%s", cond[0], cond[1]);
 			}
-			csvout_str(c, sub);
-			csvout_str(c, o->sc->parcel[p - 1]);
-			csvout_str(c, task);
-			csvout_str(c, name);
-			csvout_num(c, pv * topmean[p - 1]);
-			csvout_num(c, pv);
-			csvout_int(c, (long long)ntop[p - 1]);
-			csvout_int(c, (long long)npar[p - 1]);
-			csvout_endrow(c);
+			/* names are identifiers (no comma or quote), so no field needs quoting */
+			fprintf(f, "%s,%s,%s,%s,%.9g,%.9g,%zu,%zu\n", sub, o->sc->parcel[p - 1], task, name,
+				pv * topmean[p - 1] + 0.0, pv + 0.0, ntop[p - 1], npar[p - 1]);
 		}
 	}
 }
@@ -652,7 +646,7 @@ out:
 }
 
 static sr_status simulate_subject(const struct opts *o, struct subject *s, const nii_grid *g,
-				  const sim_space *sp, const sim_head *h, long subj, csvout *truth,
+				  const sim_space *sp, const sim_head *h, long subj, FILE *truth,
 				  sr_err *e)
 {
 	char sub[32], dir[512];
@@ -704,14 +698,12 @@ static sr_status simulate_subject(const struct opts *o, struct subject *s, const
 
 int cmd_simulate(int argc, char **argv)
 {
-	static const char *const truth_cols[] = { "subject", "parcel", "task", "effect", "value",
-						  "peak_value", "n_top", "n_parcel" };
 	struct opts o;
 	struct subject s;
 	nii_grid g;
 	sim_space sp;
 	sim_head h;
-	csvout truth;
+	afile truth;
 	sr_err e;
 	sr_status st;
 	char *data, *p;
@@ -743,22 +735,24 @@ int cmd_simulate(int argc, char **argv)
 		return 1;
 	}
 	p = path_join(o.out, "truth.csv");
-	st = csvout_open(&truth, p, truth_cols, 8, &e);
+	st = afile_open(&truth, p, &e);
 	free(p);
+	if (st == SR_OK)
+		fprintf(truth.f, "subject,parcel,task,effect,value,peak_value,n_top,n_parcel\n");
 	if (st != SR_OK) {
 		cmdline_error("simulate", "%s", e.msg);
 		return 1;
 	}
 	subject_alloc(&s, nii_nvox(&g));
 	for (subj = 1; subj <= o.subjects && st == SR_OK; subj++)
-		st = simulate_subject(&o, &s, &g, &sp, &h, subj, &truth, &e);
+		st = simulate_subject(&o, &s, &g, &sp, &h, subj, truth.f, &e);
 	subject_release(&s);
 	if (st != SR_OK) {
-		csvout_abort(&truth);
+		afile_abort(&truth);
 		cmdline_error("simulate", "%s", e.msg);
 		return 1;
 	}
-	st = csvout_commit(&truth, &e);
+	st = afile_commit(&truth, &e);
 	if (st == SR_OK)
 		st = write_study(&o, &e);
 	if (st != SR_OK) {
