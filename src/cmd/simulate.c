@@ -424,6 +424,9 @@ static sr_status write_study(const struct opts *o, sr_err *e)
 	ADD("confounds =");
 	for (j = 0; j < 6; j++)
 		ADD(" %s", motion_names[j]);
+	ADD("\nmotion =");
+	for (j = 0; j < 6; j++)
+		ADD(" %s", motion_names[j]);
 	ADD("\nconfounds_suffix = %s\n", CONFOUNDS_SUFFIX);
 	if (sc->meas_task) {
 		ADD("\n[measure %s]\ntask = %s\n", sc->meas_task, sc->meas_task);
