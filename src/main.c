@@ -16,7 +16,9 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
 	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
+	{ "analyze", cmd_analyze, CMD_NEEDS_ARGS, "the whole job: fits, fROIs, responses and group tables for a study" },
 	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ "slurm", cmd_slurm, CMD_NEEDS_ARGS, "write (and submit) SLURM jobs: one per subject, then the group step" },
 	{ NULL, NULL, 0, NULL }
