@@ -49,25 +49,35 @@ static const cmdline_spec spec = {
 };
 
 /*
- * Memory and time per subject task, measured with `/usr/bin/time -v` on
- * `splitroi analyze STUDY --subjects 01 --threads T --no-group --quiet` for
- * studies from `splitroi simulate` (4 localizer runs, 2 measured runs, 120
- * volumes each), on a 2-core x86-64 virtual machine (24 GiB, Debian 12):
+ * Memory and time per subject task, measured with GNU time (`/usr/bin/time -f %M`)
+ * on `splitroi analyze STUDY --subjects 01 --threads T --no-group --quiet` for
+ * studies from `splitroi simulate` (float32 .nii.gz, 120 volumes a run; runs =
+ * localizer plus measured task), on a 2-core x86-64 virtual machine (24 GiB,
+ * Debian 12), 2026-12-01:
  *
- *   grid                     voxels   runs   threads   peak RSS   wall
- *   small    24x28x20          13440     6        2       ... MiB   ... s
- *   standard 91x109x91        902629     6        2       ... MiB   ... s
+ *   grid                       voxels   runs  threads  peak RSS    wall
+ *   small    24x28x20           13440     6      1      21.1 MiB   0.27 s
+ *   small    24x28x20           13440     6      2      27.5 MiB   0.41 s
+ *   standard 91x109x91         902629     4      1     591.0 MiB  11.4 s
+ *   standard 91x109x91         902629     4      2     893.5 MiB  15.9 s
+ *   standard 91x109x91         902629     6      1     730.4 MiB  21.8 s
+ *   standard 91x109x91         902629     6      2    1038.7 MiB  33.1 s
  *
- * (filled in below from the measurements). The model is
- *   bytes = MEM_BASE + MEM_PER_VOXEL_RUN * voxels * runs
- * with the two coefficients fitted through those points; the suggestion adds
- * 50% headroom and rounds up to a whole 256 MiB.
+ * Each run kept adds ~81 bytes a voxel ((730.4 - 591.0) MiB / 2 runs / 902629),
+ * each run being fitted at once (one per thread) ~350 bytes a voxel (the 2- vs
+ * 1-thread rows: +303 and +308 MiB), on ~10 MiB of program, so
+ *   bytes = 10 MiB + voxels * (81 * runs + 350 * min(threads, runs))
+ * which gives 25.5, 593, 1031 MiB for the rows above (within 2 MiB but for the
+ * small 2-thread row, 2 MiB under). The suggestion adds 50% headroom and rounds up
+ * to a whole 256 MiB. Time: ~3.3e-8 s a voxel-volume of wall time at one thread
+ * (21.8 s / (902629 * 6 * 120)); a second thread did not help on this machine, so
+ * the suggestion does not divide by the CPUs, takes 4x headroom (shared nodes and
+ * file systems are slower) and never asks for less than 30 minutes.
  */
-#define MEM_BASE (64.0 * 1024 * 1024)
-#define MEM_PER_VOXEL_RUN 200.0
-/* Seconds per voxel-volume at one thread, plus a fixed start-up, from the same runs. */
-#define TIME_BASE_S 5.0
-#define TIME_PER_VOXEL_VOLUME_S 2e-6
+#define MEM_BASE (10.0 * 1024 * 1024)
+#define MEM_PER_VOXEL_RUN 81.0
+#define MEM_PER_VOXEL_THREAD 350.0
+#define TIME_PER_VOXEL_VOLUME_S 3.3e-8
 
 /* What one subject's runs weigh: the inputs of the suggestion. */
 typedef struct sizes {
@@ -180,21 +190,22 @@ static sr_status subject_sizes(const study *st, const char *label, sizes *z, sr_
 }
 
 /* The memory model above, 50% headroom, in whole 256 MiB steps; returned in MiB. */
-static long suggest_mem_mib(const sizes *z)
+static long suggest_mem_mib(const sizes *z, long cpus)
 {
-	double bytes = (MEM_BASE + MEM_PER_VOXEL_RUN * z->voxels * z->runs) * 1.5;
+	double inflight = (double)cpus < z->runs ? (double)cpus : z->runs;
+	double bytes = (MEM_BASE + z->voxels * (MEM_PER_VOXEL_RUN * z->runs +
+						MEM_PER_VOXEL_THREAD * inflight)) * 1.5;
 	double mib = ceil(bytes / (256.0 * 1024 * 1024)) * 256.0;
 
 	return (long)mib;
 }
 
-/* The time model with 3x headroom (shared nodes are slower), at least 10 minutes; in minutes. */
-static long suggest_time_min(const sizes *z, long cpus)
+/* The time model above with 4x headroom, at least 30 minutes; in minutes. */
+static long suggest_time_min(const sizes *z)
 {
-	double s = TIME_BASE_S + TIME_PER_VOXEL_VOLUME_S * z->volumes / (double)cpus;
-	long min = (long)ceil(3.0 * s / 60.0);
+	long min = (long)ceil(4.0 * TIME_PER_VOXEL_VOLUME_S * z->volumes / 60.0);
 
-	return min < 10 ? 10 : min;
+	return min < 30 ? 30 : min;
 }
 
 /* SLURM's memory syntax: digits with an optional K, M, G or T. */
@@ -445,8 +456,11 @@ int cmd_slurm(int argc, char **argv)
 		if (analyze_subject_complete(&st, subs[i]))
 			continue;
 		if (subject_sizes(&st, subs[i], &z, &e)) {
-			fprintf(stderr, "splitroi slurm: sub-%s: %s\n", subs[i], e.msg);
-			goto out_study;
+			/* one bad subject must not hold back the others: its task reports the error */
+			fprintf(stderr, "splitroi slurm: warning: sub-%s: %s (left in the array; not used for --mem)\n",
+				subs[i], e.msg);
+			todo[ntodo++] = subs[i];
+			continue;
 		}
 		if (z.voxels * z.runs > worst.voxels * worst.runs) {
 			worst = z;
@@ -484,13 +498,13 @@ int cmd_slurm(int argc, char **argv)
 	if (val[O_MEM])
 		snprintf(memtxt, sizeof memtxt, "%s", val[O_MEM]);
 	else {
-		mem_mib = suggest_mem_mib(&worst);
+		mem_mib = suggest_mem_mib(&worst, cpus);
 		snprintf(memtxt, sizeof memtxt, "%ldM", mem_mib);
 	}
 	if (val[O_TIME])
 		snprintf(timetxt, sizeof timetxt, "%s", val[O_TIME]);
 	else {
-		time_min = suggest_time_min(&worst, cpus);
+		time_min = suggest_time_min(&worst);
 		snprintf(timetxt, sizeof timetxt, "%ld:%02ld:00", time_min / 60, time_min % 60);
 	}
 
