@@ -16,6 +16,7 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
 	{ NULL, NULL, 0, NULL }
 };
 
