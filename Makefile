@@ -27,6 +27,7 @@ LIB_SRC := $(sort $(wildcard src/core/*.c src/io/*.c src/cmd/*.c))
 LIB_OBJ := $(LIB_SRC:%.c=$(BUILD)/%.o)
 TEST_SRC := $(sort $(wildcard tests/unit/test_*.c))
 TEST_BIN := $(TEST_SRC:tests/unit/%.c=$(BUILD)/tests/%)
+# Helper programs the Python and command-line tests drive (tests/tools/*.c).
 TOOL_SRC := $(sort $(wildcard tests/tools/*.c))
 TOOL_BIN := $(TOOL_SRC:tests/tools/%.c=$(BUILD)/tests/tools/%)
 
@@ -48,7 +49,6 @@ $(BUILD)/tests/%: tests/unit/%.c tests/unit/testlib.h $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
 
-# Helper programs that the Python and command-line tests drive.
 $(BUILD)/tests/tools/%: tests/tools/%.c $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
@@ -70,7 +70,7 @@ check-asan: deps
 		SAN="-fsanitize=address,undefined -fno-sanitize-recover=undefined" \
 		SPLITROI_TEST_LEVEL=quick test
 
-check-valgrind: deps all $(TEST_BIN) $(TOOL_BIN)
+check-valgrind: deps all $(TEST_BIN)
 	@BUILD=$(BUILD) PYTHON=$(PYTHON) SPLITROI_VALGRIND=1 bash tests/run.sh unit
 
 demo: deps all
