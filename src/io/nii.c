@@ -970,6 +970,8 @@ int nii_same_grid(const nii_grid *a, const nii_grid *b, double tol_mm, char *why
 			if (!(d <= worst))
 				worst = d; /* NaN counts as a mismatch */
 		}
+	if (why && whylen)
+		why[0] = '\0';
 	if (dims_ok && worst <= tol_mm)
 		return 1;
 	if (why && whylen) {

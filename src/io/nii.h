@@ -103,7 +103,7 @@ void nii_writer_abort(nii_writer *w);
 /*
  * Compares grids: same nx, ny, nz and affines equal within tol_mm (1e-3 in
  * METHODS.md). Returns 1 when they match; otherwise 0 and a description of
- * both grids in why (may be NULL).
+ * both grids in why (may be NULL; set to "" on a match).
  */
 int nii_same_grid(const nii_grid *a, const nii_grid *b, double tol_mm, char *why, size_t whylen);
 
