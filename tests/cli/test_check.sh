@@ -170,6 +170,25 @@ run "$SPLITROI" check "$V/study.ini"
 expect_status 1 "a listed subject missing from the dataset"
 expect_err "study.ini: line 6: subject '05' is not in .*data" "the missing subject is named with the study line"
 
+fresh
+sed -i 's/^drift_cutoff = 128/drift_cutoff = 128\nconfounds = csf/' "$V/study.ini"
+for b in "$V"/data/sub-0*/func/*_bold.nii.gz; do
+	c=${b%_bold.nii.gz}_confounds.tsv
+	{ echo csf; for i in $(seq 20); do echo "0.$i"; done; } >"$c"
+done
+run "$SPLITROI" check "$V/study.ini"
+expect_status 0 "confounds with one row per volume pass"
+sed -i '$d' "$V/data/$F/sub-01_task-tones_run-2_confounds.tsv"
+sed -i '1s/csf/white_matter/' "$V/data/$F/sub-01_task-memory_run-1_confounds.tsv"
+rm "$V/data/sub-02/func/sub-02_task-tones_run-1_confounds.tsv"
+run "$SPLITROI" check "$V/study.ini"
+expect_status 1 "bad confounds files"
+expect_err "sub-01_task-tones_run-2_confounds.tsv: 19 rows, but the run sub-01_task-tones_run-2_bold.nii.gz has 20 volumes" \
+	"a confounds table with a row missing"
+expect_err "sub-01_task-memory_run-1_confounds.tsv: line 1: no column 'csf' \(named in \[model\] confounds\)" \
+	"a confounds table without the named column"
+expect_err "sub-02_task-tones_run-1_confounds.tsv" "a missing confounds file is named"
+
 # ---- several problems are all listed at once ----
 fresh
 rm "$V/data/$F/sub-01_task-tones_run-2_events.tsv"
