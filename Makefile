@@ -27,6 +27,9 @@ LIB_SRC := $(sort $(wildcard src/core/*.c src/io/*.c src/cmd/*.c))
 LIB_OBJ := $(LIB_SRC:%.c=$(BUILD)/%.o)
 TEST_SRC := $(sort $(wildcard tests/unit/test_*.c))
 TEST_BIN := $(TEST_SRC:tests/unit/%.c=$(BUILD)/tests/%)
+# Helper programs the Python and command-line tests drive (tests/tools/*.c).
+TOOL_SRC := $(sort $(wildcard tests/tools/*.c))
+TOOL_BIN := $(TOOL_SRC:tests/tools/%.c=$(BUILD)/tests/tools/%)
 
 .PHONY: all deps check check-asan check-valgrind test demo bench install uninstall clean
 all: $(BUILD)/splitroi
@@ -42,7 +45,11 @@ $(BUILD)/libsplitroi.a: $(LIB_OBJ)
 $(BUILD)/splitroi: $(BUILD)/src/main.o $(BUILD)/libsplitroi.a
 	$(CC) $(OPT) $(SAN) -o $@ $^ $(LIBS)
 
-$(BUILD)/tests/%: tests/unit/%.c tests/unit/testlib.h $(BUILD)/libsplitroi.a
+$(BUILD)/tests/%: tests/unit/%.c $(wildcard tests/unit/*.h) $(BUILD)/libsplitroi.a
+	@mkdir -p $(dir $@)
+	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
+
+$(BUILD)/tests/tools/%: tests/tools/%.c $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
 
@@ -51,7 +58,7 @@ deps:
 	@bash tools/deps.sh
 
 # Every test: unit binaries, command-line scripts, Python reference checks.
-test: all $(TEST_BIN)
+test: all $(TEST_BIN) $(TOOL_BIN)
 	@BUILD=$(BUILD) PYTHON=$(PYTHON) bash tests/run.sh
 
 check: deps
@@ -63,7 +70,7 @@ check-asan: deps
 		SAN="-fsanitize=address,undefined -fno-sanitize-recover=undefined" \
 		SPLITROI_TEST_LEVEL=quick test
 
-check-valgrind: deps all $(TEST_BIN)
+check-valgrind: deps all $(TEST_BIN) $(TOOL_BIN)
 	@BUILD=$(BUILD) PYTHON=$(PYTHON) SPLITROI_VALGRIND=1 bash tests/run.sh unit
 
 demo: deps all

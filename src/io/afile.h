@@ -19,6 +19,16 @@ sr_status afile_commit(afile *a, sr_err *e);
 /* Closes and removes the temporary file; safe after a failed open or commit. */
 void afile_abort(afile *a);
 
+/*
+ * For writers that cannot use a FILE (gzip through znz): creates missing
+ * parent folders and an empty temporary file beside path, returns its open
+ * descriptor (-1 on error, e filled) and its name in *tmp (xmalloc'ed, caller
+ * frees and unlinks it on failure).
+ */
+int afile_reserve(const char *path, char **tmp, sr_err *e);
+/* Fsyncs the closed temporary file tmp and renames it onto path; removes tmp on failure. */
+sr_status afile_publish(const char *tmp, const char *path, sr_err *e);
+
 /* mkdir -p; an existing folder is fine. */
 sr_status afile_mkdirs(const char *dir, sr_err *e);
 

@@ -13,13 +13,18 @@ typedef struct table {
 	char **header;      /* ncols names */
 	char **cells;       /* nrows * ncols, row-major; a short row's missing cells are "" */
 	size_t *line;       /* 1-based file line of each row (for messages) */
+	size_t header_line; /* 1-based file line of the header (1 unless blank lines precede it) */
 } table;
 
 /*
- * Reads path. delim: '\t', ',' or 0 to choose by extension (.tsv tab, .csv
- * comma). Strips a UTF-8 byte-order mark, accepts LF and CRLF, quoted fields.
- * A row with more fields than the header is an error naming line; a file with
- * no header is an error. Blank lines are skipped.
+ * Reads path. delim: '\t', ',' or 0 to choose by extension (.csv comma,
+ * anything else tab). Strips a UTF-8 byte-order mark, accepts LF and CRLF,
+ * quoted fields (which may span lines; line numbers stay those of the file).
+ * Spaces around unquoted cells are trimmed. A row with more non-empty fields
+ * than the header is an error naming line (extra empty fields, as left by a
+ * trailing delimiter, are dropped); a file with no header, a quote that is
+ * never closed and a column name given twice are errors. Blank lines are
+ * skipped. On error *t is left empty (safe to release).
  */
 sr_status table_read(const char *path, char delim, table *t, sr_err *e);
 void table_release(table *t);

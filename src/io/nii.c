@@ -1,0 +1,970 @@
+/* nii.c - NIfTI-1/NIfTI-2 headers, streamed volumes and atomically written maps via nifticlib and znz. */
+
+/* The installed znzlib is built with zlib; its struct must match (gives access to the gzFile). */
+#define HAVE_ZLIB 1
+
+#include "nii.h"
+
+#include <errno.h>
+#include <math.h>
+#include <pthread.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include <zlib.h>
+#include <nifti2_io.h>
+
+#include "../core/mem.h"
+#include "afile.h"
+
+/* Bigger than zlib's 8 KiB default: inflating a run is the slow part of reading it. */
+#define NII_GZBUF (256u * 1024u)
+
+/* Quiets nifticlib once per process, thread safely (its debug level is a library global). */
+static pthread_once_t quiet_once = PTHREAD_ONCE_INIT;
+static void quiet_nifti(void)
+{
+	nifti_set_debug_level(0);
+}
+
+/* The header fields we use, the same for both NIfTI versions, in native byte order. */
+typedef struct raw_hdr {
+	int version, swapped, hdr_size;
+	int64_t dim[8];
+	int datatype;
+	double pixdim[8];
+	double vox_offset;
+	double slope, inter;
+	int xyzt_units, qform_code, sform_code;
+	double qb, qc, qd, qx, qy, qz;
+	double srow[3][4];
+} raw_hdr;
+
+/* Bytes per voxel of the datatypes we read, 0 for the others. */
+static int dtype_bytes(int dt)
+{
+	switch (dt) {
+	case NIFTI_TYPE_UINT8:
+	case NIFTI_TYPE_INT8: return 1;
+	case NIFTI_TYPE_INT16:
+	case NIFTI_TYPE_UINT16: return 2;
+	case NIFTI_TYPE_INT32:
+	case NIFTI_TYPE_UINT32:
+	case NIFTI_TYPE_FLOAT32: return 4;
+	case NIFTI_TYPE_INT64:
+	case NIFTI_TYPE_UINT64:
+	case NIFTI_TYPE_FLOAT64: return 8;
+	}
+	return 0;
+}
+
+/* Millimetres per stored spatial unit (unknown is read as mm, common practice). */
+static double space_factor(int xyzt_units)
+{
+	switch (XYZT_TO_SPACE(xyzt_units)) {
+	case NIFTI_UNITS_METER: return 1000.0;
+	case NIFTI_UNITS_MICRON: return 0.001;
+	}
+	return 1.0;
+}
+
+static int ends_with(const char *s, const char *suffix)
+{
+	size_t n = strlen(s), m = strlen(suffix);
+
+	return n >= m && strcmp(s + n - m, suffix) == 0;
+}
+
+static uint32_t bswap32(uint32_t v)
+{
+	return (v >> 24) | ((v >> 8) & 0xff00u) | ((v << 8) & 0xff0000u) | (v << 24);
+}
+
+/* Copies a NIfTI-1 header (already in native order) into the common form. */
+static void from_n1(const nifti_1_header *h, raw_hdr *r)
+{
+	for (int i = 0; i < 8; i++) {
+		r->dim[i] = h->dim[i];
+		r->pixdim[i] = h->pixdim[i];
+	}
+	r->datatype = h->datatype;
+	r->vox_offset = h->vox_offset;
+	r->slope = h->scl_slope;
+	r->inter = h->scl_inter;
+	r->xyzt_units = h->xyzt_units;
+	r->qform_code = h->qform_code;
+	r->sform_code = h->sform_code;
+	r->qb = h->quatern_b, r->qc = h->quatern_c, r->qd = h->quatern_d;
+	r->qx = h->qoffset_x, r->qy = h->qoffset_y, r->qz = h->qoffset_z;
+	for (int j = 0; j < 4; j++) {
+		r->srow[0][j] = h->srow_x[j];
+		r->srow[1][j] = h->srow_y[j];
+		r->srow[2][j] = h->srow_z[j];
+	}
+}
+
+static void from_n2(const nifti_2_header *h, raw_hdr *r)
+{
+	for (int i = 0; i < 8; i++) {
+		r->dim[i] = h->dim[i];
+		r->pixdim[i] = h->pixdim[i];
+	}
+	r->datatype = h->datatype;
+	r->vox_offset = (double)h->vox_offset;
+	r->slope = h->scl_slope;
+	r->inter = h->scl_inter;
+	r->xyzt_units = h->xyzt_units;
+	r->qform_code = h->qform_code;
+	r->sform_code = h->sform_code;
+	r->qb = h->quatern_b, r->qc = h->quatern_c, r->qd = h->quatern_d;
+	r->qx = h->qoffset_x, r->qy = h->qoffset_y, r->qz = h->qoffset_z;
+	for (int j = 0; j < 4; j++) {
+		r->srow[0][j] = h->srow_x[j];
+		r->srow[1][j] = h->srow_y[j];
+		r->srow[2][j] = h->srow_z[j];
+	}
+}
+
+/*
+ * After a read through znz: a zlib error as a message, or NULL when zlib is
+ * content (plain files, or a clean end of stream).
+ */
+static const char *gz_problem(znzFile zf, int *errnum)
+{
+	const char *m;
+
+	*errnum = Z_OK;
+	if (!zf->withz || !zf->zfptr)
+		return NULL;
+	m = gzerror(zf->zfptr, errnum);
+	if (*errnum == Z_OK)
+		return NULL;
+	return m && *m ? m : "unknown zlib error";
+}
+
+/* Reads exactly n bytes at the current position; describes a failure in what. */
+static int read_exact(znzFile zf, void *buf, size_t n, char *what, size_t whatlen)
+{
+	size_t got = znzread(buf, 1, n, zf);
+	int errnum;
+	const char *m = gz_problem(zf, &errnum);
+
+	if (got == n && (!m || errnum == Z_BUF_ERROR))
+		return 0;
+	if (got > n)
+		got = 0; /* znz returns (size_t)-1 on a zlib error */
+	if (m && errnum != Z_BUF_ERROR)
+		snprintf(what, whatlen, "corrupt gzip data (zlib: %s)", m);
+	else if (!zf->withz && zf->nzfptr && ferror(zf->nzfptr))
+		snprintf(what, whatlen, "read error: %s", strerror(errno));
+	else
+		snprintf(what, whatlen, "truncated: got %zu of %zu bytes", got, n);
+	return -1;
+}
+
+/*
+ * Opens path, reads and checks the header, fills info and (optionally) r.
+ * On success *zfp is positioned at vox_offset when want_data, else closed.
+ */
+static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFile *zfp,
+			     int want_data, int *is_gz, sr_err *e)
+{
+	unsigned char raw[sizeof(nifti_2_header)];
+	unsigned char magic2[2] = {0, 0};
+	char what[512];
+	struct stat st;
+	FILE *f;
+	znzFile zf = NULL;
+	raw_hdr rh;
+	int gz;
+	int bytes;
+	uint32_t s0;
+	size_t nvox, nbytes;
+	sr_status rc = SR_OK;
+
+	pthread_once(&quiet_once, quiet_nifti);
+	memset(&rh, 0, sizeof rh);
+	memset(info, 0, sizeof *info);
+	*zfp = NULL;
+	/* Open plainly first: errno gives the reason, and two bytes tell gzip from plain. */
+	f = fopen(path, "rb");
+	if (!f)
+		return sr_fail(e, SR_EIO, "%s: cannot open: %s", path, strerror(errno));
+	if (fstat(fileno(f), &st) != 0 || !S_ISREG(st.st_mode)) {
+		fclose(f);
+		return sr_fail(e, SR_EIO, "%s: cannot open: not a regular file", path);
+	}
+	if (fread(magic2, 1, 2, f) != 2) {
+		fclose(f);
+		return sr_fail(e, SR_EFORMAT, "%s: not a NIfTI file: %lld bytes, too short for a header",
+			       path, (long long)st.st_size);
+	}
+	fclose(f);
+	gz = magic2[0] == 0x1f && magic2[1] == 0x8b;
+	*is_gz = gz;
+	zf = znzopen(path, "rb", gz);
+	if (znz_isnull(zf))
+		return sr_fail(e, SR_EIO, "%s: cannot open: %s", path, strerror(errno ? errno : EIO));
+	if (gz)
+		gzbuffer(zf->zfptr, NII_GZBUF);
+
+	if (read_exact(zf, raw, 348, what, sizeof what) != 0) {
+		rc = sr_fail(e, SR_EFORMAT, "%s: not a NIfTI file: header %s", path, what);
+		goto fail;
+	}
+	memcpy(&s0, raw, 4);
+	if (s0 == 348 || bswap32(s0) == 348) {
+		nifti_1_header h1;
+
+		rh.version = 1;
+		rh.swapped = s0 != 348;
+		rh.hdr_size = 348;
+		if (memcmp(raw + 344, "ni1", 4) == 0) {
+			rc = sr_fail(e, SR_EFORMAT,
+				     "%s: a NIfTI-1 header/image pair (.hdr/.img) is not supported; "
+				     "use a single .nii or .nii.gz file", path);
+			goto fail;
+		}
+		if (memcmp(raw + 344, "n+1", 4) != 0) {
+			rc = sr_fail(e, SR_EFORMAT, "%s: not a NIfTI-1 file: bad magic (expected \"n+1\")",
+				     path);
+			goto fail;
+		}
+		memcpy(&h1, raw, sizeof h1);
+		if (rh.swapped)
+			swap_nifti_header(&h1, 1);
+		from_n1(&h1, &rh);
+	} else if (s0 == 540 || bswap32(s0) == 540) {
+		nifti_2_header h2;
+
+		rh.version = 2;
+		rh.swapped = s0 != 540;
+		rh.hdr_size = 540;
+		if (read_exact(zf, raw + 348, 540 - 348, what, sizeof what) != 0) {
+			rc = sr_fail(e, SR_EFORMAT, "%s: not a NIfTI-2 file: header %s", path, what);
+			goto fail;
+		}
+		if (memcmp(raw + 4, "ni2", 4) == 0) {
+			rc = sr_fail(e, SR_EFORMAT,
+				     "%s: a NIfTI-2 header/image pair is not supported; "
+				     "use a single .nii or .nii.gz file", path);
+			goto fail;
+		}
+		if (memcmp(raw + 4, "n+2", 4) != 0) {
+			rc = sr_fail(e, SR_EFORMAT, "%s: not a NIfTI-2 file: bad magic (expected \"n+2\")",
+				     path);
+			goto fail;
+		}
+		memcpy(&h2, raw, sizeof h2);
+		if (rh.swapped)
+			swap_nifti_header(&h2, 2);
+		from_n2(&h2, &rh);
+	} else {
+		rc = sr_fail(e, SR_EFORMAT,
+			     "%s: not a NIfTI file: sizeof_hdr is %u (expected 348 or 540)", path,
+			     (unsigned)s0);
+		goto fail;
+	}
+
+	/* Dimensions: dim[0] counts them; each used one at least 1; beyond the 4th all 1. */
+	if (rh.dim[0] < 1 || rh.dim[0] > 7) {
+		rc = sr_fail(e, SR_EFORMAT, "%s: bad header: dim[0] is %lld (expected 1 to 7)", path,
+			     (long long)rh.dim[0]);
+		goto fail;
+	}
+	for (int i = 1; i <= rh.dim[0]; i++) {
+		if (rh.dim[i] < 1) {
+			rc = sr_fail(e, SR_EFORMAT, "%s: bad header: dim[%d] is %lld (must be positive)",
+				     path, i, (long long)rh.dim[i]);
+			goto fail;
+		}
+	}
+	for (int i = (int)rh.dim[0] + 1; i < 8; i++)
+		rh.dim[i] = 1;
+	for (int i = 5; i <= rh.dim[0]; i++) {
+		if (rh.dim[i] > 1) {
+			rc = sr_fail(e, SR_EDIM,
+				     "%s: a %d-D image (dim[%d] = %lld); only 3-D and 4-D images are "
+				     "supported", path, i, i, (long long)rh.dim[i]);
+			goto fail;
+		}
+	}
+	bytes = dtype_bytes(rh.datatype);
+	if (!bytes) {
+		const char *name = nifti_datatype_string(rh.datatype);
+
+		rc = sr_fail(e, SR_EFORMAT,
+			     "%s: unsupported datatype %d (%s); supported: uint8, int8, int16, uint16, "
+			     "int32, uint32, int64, uint64, float32, float64",
+			     path, rh.datatype, name ? name : "unknown");
+		goto fail;
+	}
+	if (sr_mul_size((size_t)rh.dim[1], (size_t)rh.dim[2], &nvox) ||
+	    sr_mul_size(nvox, (size_t)rh.dim[3], &nvox) ||
+	    sr_mul_size(nvox, (size_t)rh.dim[4], &nbytes) ||
+	    sr_mul_size(nbytes, (size_t)bytes, &nbytes) || nbytes > (size_t)INT64_MAX / 2) {
+		rc = sr_fail(e, SR_EDIM,
+			     "%s: image too large: %lld x %lld x %lld x %lld voxels of %d bytes overflows",
+			     path, (long long)rh.dim[1], (long long)rh.dim[2], (long long)rh.dim[3],
+			     (long long)rh.dim[4], bytes);
+		goto fail;
+	}
+	if (!isfinite(rh.vox_offset) || rh.vox_offset < rh.hdr_size ||
+	    rh.vox_offset != floor(rh.vox_offset) || rh.vox_offset > 1e15) {
+		rc = sr_fail(e, SR_EFORMAT, "%s: bad header: vox_offset %g (must be a whole number >= %d)",
+			     path, rh.vox_offset, rh.hdr_size);
+		goto fail;
+	}
+	if (!gz && (double)st.st_size < rh.vox_offset + (double)nbytes) {
+		rc = sr_fail(e, SR_EIO,
+			     "%s: truncated: expected %.0f bytes (%.0f of header and %zu of image data) "
+			     "but the file has %lld",
+			     path, rh.vox_offset + (double)nbytes, rh.vox_offset, nbytes,
+			     (long long)st.st_size);
+		goto fail;
+	}
+
+	/* The grid. */
+	{
+		nii_grid *g = &info->grid;
+		double f_mm = space_factor(rh.xyzt_units);
+		double qfac = rh.pixdim[0] < 0 ? -1.0 : 1.0;
+
+		g->nx = rh.dim[1], g->ny = rh.dim[2], g->nz = rh.dim[3];
+		g->dx = fabs(rh.pixdim[1]) * f_mm;
+		g->dy = fabs(rh.pixdim[2]) * f_mm;
+		g->dz = fabs(rh.pixdim[3]) * f_mm;
+		g->qform_code = rh.qform_code;
+		g->sform_code = rh.sform_code;
+		g->quatern_b = rh.qb, g->quatern_c = rh.qc, g->quatern_d = rh.qd;
+		g->qoffset_x = rh.qx, g->qoffset_y = rh.qy, g->qoffset_z = rh.qz;
+		g->qfac = qfac;
+		memcpy(g->srow, rh.srow, sizeof g->srow);
+		g->xyz_units = XYZT_TO_SPACE(rh.xyzt_units);
+		if (rh.sform_code > 0) {
+			for (int i = 0; i < 3; i++)
+				for (int j = 0; j < 4; j++)
+					g->affine[i][j] = rh.srow[i][j] * f_mm;
+		} else if (rh.qform_code > 0) {
+			nifti_dmat44 m = nifti_quatern_to_dmat44(rh.qb, rh.qc, rh.qd, rh.qx, rh.qy,
+								 rh.qz, fabs(rh.pixdim[1]),
+								 fabs(rh.pixdim[2]),
+								 fabs(rh.pixdim[3]), qfac);
+			for (int i = 0; i < 3; i++)
+				for (int j = 0; j < 4; j++)
+					g->affine[i][j] = m.m[i][j] * f_mm;
+		} else {
+			/* NIfTI "method 1": plain scaling, no offset. */
+			memset(g->affine, 0, sizeof g->affine);
+			g->affine[0][0] = g->dx;
+			g->affine[1][1] = g->dy;
+			g->affine[2][2] = g->dz;
+		}
+		for (int i = 0; i < 3; i++)
+			for (int j = 0; j < 4; j++)
+				if (!isfinite(g->affine[i][j])) {
+					rc = sr_fail(e, SR_EFORMAT, "%s: bad header: non-finite %s",
+						     path, rh.sform_code > 0 ? "sform" : "qform");
+					goto fail;
+				}
+	}
+	{
+		int nd = (int)rh.dim[0];
+
+		while (nd > 3 && rh.dim[nd] == 1)
+			nd--;
+		info->ndim = nd < 3 ? 3 : nd;
+	}
+	info->nt = rh.dim[4];
+	info->datatype = rh.datatype;
+	info->nifti_version = rh.version;
+	/* METHODS.md 1 and 11: slope 0 or non-finite is no scaling; bad inter is 0. */
+	if (isfinite(rh.slope) && rh.slope != 0) {
+		info->slope = rh.slope;
+		info->inter = isfinite(rh.inter) ? rh.inter : 0.0;
+	} else {
+		info->slope = 1.0;
+		info->inter = 0.0;
+	}
+	/* METHODS.md 11: pixdim[4] <= 0 is absent; time code 0 is seconds; Hz/ppm/rad are not a TR. */
+	{
+		double t = rh.pixdim[4];
+		int tu = XYZT_TO_TIME(rh.xyzt_units);
+
+		if (!isfinite(t) || t <= 0)
+			t = 0;
+		else if (tu == NIFTI_UNITS_MSEC)
+			t /= 1000.0;
+		else if (tu == NIFTI_UNITS_USEC)
+			t /= 1e6;
+		else if (tu != 0 && tu != NIFTI_UNITS_SEC)
+			t = 0;
+		info->tr = t;
+	}
+	if (r)
+		*r = rh;
+	if (!want_data) {
+		znzclose(zf);
+		return SR_OK;
+	}
+	if (znzseek(zf, (znz_off_t)rh.vox_offset, SEEK_SET) < 0 ||
+	    znztell(zf) != (znz_off_t)rh.vox_offset) {
+		int errnum;
+		const char *m = gz_problem(zf, &errnum);
+
+		if (m && errnum != Z_BUF_ERROR)
+			rc = sr_fail(e, SR_EIO, "%s: corrupt gzip data before the image (zlib: %s)",
+				     path, m);
+		else
+			rc = sr_fail(e, SR_EIO, "%s: truncated: image data at offset %.0f not reached",
+				     path, rh.vox_offset);
+		goto fail;
+	}
+	*zfp = zf;
+	return SR_OK;
+fail:
+	znzclose(zf);
+	return rc;
+}
+
+size_t nii_nvox(const nii_grid *g)
+{
+	return (size_t)g->nx * (size_t)g->ny * (size_t)g->nz;
+}
+
+sr_status nii_read_info(const char *path, nii_info *info, sr_err *e)
+{
+	znzFile zf;
+	int gz;
+
+	return open_header(path, info, NULL, &zf, 0, &gz, e);
+}
+
+struct nii_stream {
+	znzFile zf;
+	char *path;
+	nii_info info;
+	int swapped, bytes, gz;
+	size_t nvox, volbytes;
+	unsigned char *buf;
+	int64_t next;      /* index of the next volume to read */
+	int failed;        /* after an error the stream position is unknown */
+};
+
+sr_status nii_stream_open(const char *path, nii_stream **out, nii_info *info, sr_err *e)
+{
+	raw_hdr rh;
+	znzFile zf;
+	int gz;
+	sr_status rc;
+	nii_stream *s;
+
+	*out = NULL;
+	rc = open_header(path, info, &rh, &zf, 1, &gz, e);
+	if (rc != SR_OK)
+		return rc;
+	s = xcalloc(1, sizeof *s);
+	s->zf = zf;
+	s->path = xstrdup(path);
+	s->info = *info;
+	s->swapped = rh.swapped;
+	s->bytes = dtype_bytes(rh.datatype);
+	s->gz = gz;
+	s->nvox = nii_nvox(&info->grid);
+	s->volbytes = s->nvox * (size_t)s->bytes; /* checked in open_header */
+	s->buf = xmalloc(s->volbytes);
+	*out = s;
+	return SR_OK;
+}
+
+/* Widens one volume of stored values to doubles; x86 reads unaligned-safe through memcpy. */
+static void convert(const unsigned char *b, int dt, size_t n, double *v)
+{
+	size_t i;
+
+#define CONV(T)                                       \
+	for (i = 0; i < n; i++) {                     \
+		T t;                                  \
+		memcpy(&t, b + i * sizeof(T), sizeof t); \
+		v[i] = (double)t;                     \
+	}                                             \
+	break
+	switch (dt) {
+	case NIFTI_TYPE_UINT8: CONV(uint8_t);
+	case NIFTI_TYPE_INT8: CONV(int8_t);
+	case NIFTI_TYPE_INT16: CONV(int16_t);
+	case NIFTI_TYPE_UINT16: CONV(uint16_t);
+	case NIFTI_TYPE_INT32: CONV(int32_t);
+	case NIFTI_TYPE_UINT32: CONV(uint32_t);
+	case NIFTI_TYPE_INT64: CONV(int64_t);
+	case NIFTI_TYPE_UINT64: CONV(uint64_t);
+	case NIFTI_TYPE_FLOAT32: CONV(float);
+	case NIFTI_TYPE_FLOAT64: CONV(double);
+	}
+#undef CONV
+}
+
+sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e)
+{
+	char what[512];
+	int64_t k;
+
+	if (s->failed)
+		return sr_fail(e, SR_EIO, "%s: stream already failed", s->path);
+	if (s->next >= s->info.nt)
+		return sr_fail(e, SR_EINVAL, "%s: all %lld volumes already read", s->path,
+			       (long long)s->info.nt);
+	k = s->next + 1;
+	if (read_exact(s->zf, s->buf, s->volbytes, what, sizeof what) != 0) {
+		s->failed = 1;
+		if (strncmp(what, "truncated", 9) == 0)
+			return sr_fail(e, SR_EIO, "%s: truncated: volume %lld of %lld could not be read (%s)",
+				       s->path, (long long)k, (long long)s->info.nt, what + 11);
+		return sr_fail(e, SR_EIO, "%s: volume %lld of %lld could not be read: %s", s->path,
+			       (long long)k, (long long)s->info.nt, what);
+	}
+	s->next++;
+	/*
+	 * After the last volume of a gzip stream, read on to the trailer so that
+	 * zlib checks the CRC: damage that still inflates would otherwise pass.
+	 */
+	if (s->gz && s->next == s->info.nt) {
+		unsigned char extra;
+		int errnum;
+		const char *m;
+
+		(void)znzread(&extra, 1, 1, s->zf);
+		m = gz_problem(s->zf, &errnum);
+		if (m) {
+			s->failed = 1;
+			if (errnum == Z_BUF_ERROR)
+				return sr_fail(e, SR_EIO, "%s: truncated: gzip stream ends early after "
+					       "volume %lld of %lld (zlib: %s)", s->path,
+					       (long long)k, (long long)s->info.nt, m);
+			return sr_fail(e, SR_EIO, "%s: corrupt gzip data (zlib: %s), found at the end "
+				       "of volume %lld of %lld", s->path, m, (long long)k,
+				       (long long)s->info.nt);
+		}
+	}
+	if (s->swapped && s->bytes > 1)
+		nifti_swap_Nbytes((int64_t)s->nvox, s->bytes, s->buf);
+	convert(s->buf, s->info.datatype, s->nvox, vol);
+	if (s->info.slope != 1.0 || s->info.inter != 0.0) {
+		double a = s->info.slope, b = s->info.inter;
+
+		for (size_t i = 0; i < s->nvox; i++)
+			vol[i] = vol[i] * a + b;
+	}
+	return SR_OK;
+}
+
+void nii_stream_close(nii_stream *s)
+{
+	if (!s)
+		return;
+	znzclose(s->zf);
+	free(s->buf);
+	free(s->path);
+	free(s);
+}
+
+sr_status nii_read_3d(const char *path, nii_info *info, double **data, sr_err *e)
+{
+	nii_stream *s;
+	sr_status rc;
+
+	*data = NULL;
+	rc = nii_stream_open(path, &s, info, e);
+	if (rc != SR_OK)
+		return rc;
+	if (info->nt != 1) {
+		nii_stream_close(s);
+		return sr_fail(e, SR_EDIM, "%s: expected a 3-D image, found a 4-D image with %lld volumes",
+			       path, (long long)info->nt);
+	}
+	*data = xmalloc_array(s->nvox, sizeof **data);
+	rc = nii_stream_next(s, *data, e);
+	nii_stream_close(s);
+	if (rc != SR_OK) {
+		free(*data);
+		*data = NULL;
+	}
+	return rc;
+}
+
+/* ---- writing ---- */
+
+/* An output image on its way: header written, volumes follow, then rename. */
+typedef struct nii_out {
+	znzFile zf;
+	char *path, *tmp;
+	int failed;
+} nii_out;
+
+/* The NIfTI-1 header for grid g; pixdim, srow and qoffset go back in the grid's stored units. */
+static sr_status make_header(nifti_1_header *h, const char *path, const nii_grid *g, int64_t nt,
+			     double tr, int datatype, int bitpix, double slope, double inter,
+			     int intent, const char *description, sr_err *e)
+{
+	double f_mm;
+
+	if (g->nx < 1 || g->ny < 1 || g->nz < 1 || nt < 1 || g->nx > 32767 || g->ny > 32767 ||
+	    g->nz > 32767 || nt > 32767)
+		return sr_fail(e, SR_EDIM,
+			       "%s: cannot write %lld x %lld x %lld x %lld voxels as NIfTI-1 (each "
+			       "dimension 1 to 32767)", path, (long long)g->nx, (long long)g->ny,
+			       (long long)g->nz, (long long)nt);
+	f_mm = space_factor(g->xyz_units);
+	memset(h, 0, sizeof *h);
+	h->sizeof_hdr = 348;
+	h->dim[0] = nt > 1 ? 4 : 3;
+	h->dim[1] = (short)g->nx;
+	h->dim[2] = (short)g->ny;
+	h->dim[3] = (short)g->nz;
+	h->dim[4] = (short)nt;
+	h->dim[5] = h->dim[6] = h->dim[7] = 1;
+	h->datatype = (short)datatype;
+	h->bitpix = (short)bitpix;
+	h->intent_code = (short)intent;
+	h->pixdim[0] = g->qfac < 0 ? -1.0f : 1.0f;
+	h->pixdim[1] = (float)(g->dx / f_mm);
+	h->pixdim[2] = (float)(g->dy / f_mm);
+	h->pixdim[3] = (float)(g->dz / f_mm);
+	h->pixdim[4] = tr > 0 ? (float)tr : 0.0f;
+	h->vox_offset = 352;
+	h->scl_slope = (float)slope;
+	h->scl_inter = (float)inter;
+	h->xyzt_units = (char)(XYZT_TO_SPACE(g->xyz_units) | (tr > 0 ? NIFTI_UNITS_SEC : 0));
+	if (description)
+		snprintf(h->descrip, sizeof h->descrip, "%s", description);
+	h->qform_code = (short)g->qform_code;
+	h->sform_code = (short)g->sform_code;
+	h->quatern_b = (float)g->quatern_b;
+	h->quatern_c = (float)g->quatern_c;
+	h->quatern_d = (float)g->quatern_d;
+	h->qoffset_x = (float)g->qoffset_x;
+	h->qoffset_y = (float)g->qoffset_y;
+	h->qoffset_z = (float)g->qoffset_z;
+	for (int j = 0; j < 4; j++) {
+		h->srow_x[j] = (float)g->srow[0][j];
+		h->srow_y[j] = (float)g->srow[1][j];
+		h->srow_z[j] = (float)g->srow[2][j];
+	}
+	memcpy(h->magic, "n+1", 4);
+	return SR_OK;
+}
+
+static void out_abort(nii_out *o)
+{
+	if (o->zf)
+		znzclose(o->zf);
+	if (o->tmp)
+		unlink(o->tmp);
+	free(o->tmp);
+	free(o->path);
+	memset(o, 0, sizeof *o);
+}
+
+static sr_status out_write(nii_out *o, const void *buf, size_t n, sr_err *e)
+{
+	if (o->failed)
+		return sr_fail(e, SR_EIO, "%s: write failed earlier", o->path);
+	if (n && znzwrite(buf, 1, n, o->zf) != n) {
+		o->failed = 1;
+		return sr_fail(e, SR_EIO, "%s: write failed: %s", o->path,
+			       errno ? strerror(errno) : "short write");
+	}
+	return SR_OK;
+}
+
+/* Creates the temporary file and writes the header and the 4 empty extension bytes. */
+static sr_status out_open(nii_out *o, const char *path, const nifti_1_header *h, sr_err *e)
+{
+	static const unsigned char ext[4] = {0, 0, 0, 0};
+	int gz = ends_with(path, ".gz");
+	int fd;
+
+	pthread_once(&quiet_once, quiet_nifti);
+	memset(o, 0, sizeof *o);
+	fd = afile_reserve(path, &o->tmp, e);
+	if (fd < 0)
+		return e ? e->code : SR_EIO;
+	close(fd);
+	o->path = xstrdup(path);
+	/* Level 6 is zlib's default balance; the gz flag comes from the final name, not the temporary one. */
+	o->zf = znzopen(o->tmp, gz ? "wb6" : "wb", gz);
+	if (znz_isnull(o->zf)) {
+		int err = errno;
+
+		out_abort(o);
+		return sr_fail(e, SR_EIO, "%s: cannot write: %s", path, strerror(err ? err : EIO));
+	}
+	if (gz)
+		gzbuffer(o->zf->zfptr, NII_GZBUF);
+	if (out_write(o, h, sizeof *h, e) != SR_OK || out_write(o, ext, 4, e) != SR_OK) {
+		out_abort(o);
+		return e ? e->code : SR_EIO;
+	}
+	return SR_OK;
+}
+
+static sr_status out_commit(nii_out *o, sr_err *e)
+{
+	sr_status rc;
+	int zrc;
+
+	if (o->failed) {
+		rc = sr_fail(e, SR_EIO, "%s: not written (an earlier write failed)", o->path);
+		out_abort(o);
+		return rc;
+	}
+	zrc = znzclose(o->zf);
+	o->zf = NULL;
+	if (zrc != 0) {
+		rc = sr_fail(e, SR_EIO, "%s: write failed on close: %s", o->path,
+			     errno ? strerror(errno) : "error");
+		out_abort(o);
+		return rc;
+	}
+	rc = afile_publish(o->tmp, o->path, e);
+	free(o->tmp);
+	o->tmp = NULL; /* published or already removed */
+	out_abort(o);
+	return rc;
+}
+
+sr_status nii_write_float(const char *path, const nii_grid *g, const float *data, int64_t nt,
+			  double tr, const char *description, sr_err *e)
+{
+	nifti_1_header h;
+	nii_out o;
+	size_t n;
+	sr_status rc;
+
+	rc = make_header(&h, path, g, nt, tr, NIFTI_TYPE_FLOAT32, 32, 0.0, 0.0, NIFTI_INTENT_NONE,
+			 description, e);
+	if (rc != SR_OK)
+		return rc;
+	if (sr_mul_size(nii_nvox(g), (size_t)nt, &n) || sr_mul_size(n, sizeof *data, &n))
+		return sr_fail(e, SR_EDIM, "%s: image too large", path);
+	rc = out_open(&o, path, &h, e);
+	if (rc != SR_OK)
+		return rc;
+	rc = out_write(&o, data, n, e);
+	if (rc != SR_OK) {
+		out_abort(&o);
+		return rc;
+	}
+	return out_commit(&o, e);
+}
+
+sr_status nii_write_labels(const char *path, const nii_grid *g, const int32_t *labels,
+			   const char *description, sr_err *e)
+{
+	nifti_1_header h;
+	nii_out o;
+	size_t n;
+	sr_status rc;
+
+	rc = make_header(&h, path, g, 1, 0.0, NIFTI_TYPE_INT32, 32, 0.0, 0.0, NIFTI_INTENT_LABEL,
+			 description, e);
+	if (rc != SR_OK)
+		return rc;
+	if (sr_mul_size(nii_nvox(g), sizeof *labels, &n))
+		return sr_fail(e, SR_EDIM, "%s: image too large", path);
+	rc = out_open(&o, path, &h, e);
+	if (rc != SR_OK)
+		return rc;
+	rc = out_write(&o, labels, n, e);
+	if (rc != SR_OK) {
+		out_abort(&o);
+		return rc;
+	}
+	return out_commit(&o, e);
+}
+
+struct nii_writer {
+	nii_out o;
+	int datatype;
+	double slope, inter;
+	int64_t nt, done;
+	size_t nvox;
+	void *buf;
+};
+
+sr_status nii_writer_open(const char *path, const nii_grid *g, int64_t nt, double tr,
+			  int datatype, double slope, double inter, nii_writer **out, sr_err *e)
+{
+	nifti_1_header h;
+	nii_writer *w;
+	size_t bytes = datatype == NIFTI_TYPE_INT16 ? 2 : 4;
+	size_t n;
+	sr_status rc;
+
+	*out = NULL;
+	if (datatype != NIFTI_TYPE_FLOAT32 && datatype != NIFTI_TYPE_INT16)
+		return sr_fail(e, SR_EINVAL, "%s: the series writer stores float32 or int16, not datatype %d",
+			       path, datatype);
+	if (datatype == NIFTI_TYPE_INT16 && (!isfinite(slope) || slope == 0 || !isfinite(inter)))
+		return sr_fail(e, SR_EINVAL, "%s: int16 needs a finite non-zero slope and a finite "
+			       "intercept (got %g, %g)", path, slope, inter);
+	if (datatype == NIFTI_TYPE_FLOAT32)
+		slope = 0.0, inter = 0.0; /* slope 0: the stored values are the values */
+	rc = make_header(&h, path, g, nt, tr, datatype, (int)bytes * 8, slope, inter,
+			 NIFTI_INTENT_NONE, NULL, e);
+	if (rc != SR_OK)
+		return rc;
+	if (sr_mul_size(nii_nvox(g), bytes, &n))
+		return sr_fail(e, SR_EDIM, "%s: image too large", path);
+	w = xcalloc(1, sizeof *w);
+	rc = out_open(&w->o, path, &h, e);
+	if (rc != SR_OK) {
+		free(w);
+		return rc;
+	}
+	w->datatype = datatype;
+	/* What the header holds (float32 rounding), so stored values decode as the reader will. */
+	w->slope = h.scl_slope;
+	w->inter = h.scl_inter;
+	w->nt = nt;
+	w->nvox = nii_nvox(g);
+	w->buf = xmalloc(n);
+	*out = w;
+	return SR_OK;
+}
+
+sr_status nii_writer_put(nii_writer *w, const double *vol, sr_err *e)
+{
+	size_t i;
+
+	if (w->done >= w->nt)
+		return sr_fail(e, SR_EINVAL, "%s: all %lld volumes already written", w->o.path,
+			       (long long)w->nt);
+	if (w->datatype == NIFTI_TYPE_FLOAT32) {
+		float *f = w->buf;
+
+		for (i = 0; i < w->nvox; i++)
+			f[i] = (float)vol[i];
+	} else {
+		int16_t *s = w->buf;
+
+		for (i = 0; i < w->nvox; i++) {
+			double q = (vol[i] - w->inter) / w->slope;
+
+			if (isnan(q))
+				return sr_fail(e, SR_EINVAL,
+					       "%s: volume %lld: NaN cannot be stored as int16",
+					       w->o.path, (long long)w->done + 1);
+			q = nearbyint(q);
+			if (q < INT16_MIN)
+				q = INT16_MIN;
+			if (q > INT16_MAX)
+				q = INT16_MAX;
+			s[i] = (int16_t)q;
+		}
+	}
+	if (out_write(&w->o, w->buf, w->nvox * (w->datatype == NIFTI_TYPE_INT16 ? 2 : 4), e) !=
+	    SR_OK)
+		return e ? e->code : SR_EIO;
+	w->done++;
+	return SR_OK;
+}
+
+sr_status nii_writer_commit(nii_writer *w, sr_err *e)
+{
+	sr_status rc;
+
+	if (w->done != w->nt) {
+		rc = sr_fail(e, SR_EINVAL, "%s: %lld of %lld volumes written; file not created",
+			     w->o.path, (long long)w->done, (long long)w->nt);
+		nii_writer_abort(w);
+		return rc;
+	}
+	rc = out_commit(&w->o, e);
+	free(w->buf);
+	free(w);
+	return rc;
+}
+
+void nii_writer_abort(nii_writer *w)
+{
+	if (!w)
+		return;
+	out_abort(&w->o);
+	free(w->buf);
+	free(w);
+}
+
+/* ---- grids ---- */
+
+/* "NXxNYxNZ [a b c d; e f g h; i j k l]" for messages. */
+static int describe_grid(char *buf, size_t n, const nii_grid *g)
+{
+	const double (*A)[4] = g->affine;
+
+	return snprintf(buf, n,
+			"%lldx%lldx%lld, affine [%g %g %g %g; %g %g %g %g; %g %g %g %g]",
+			(long long)g->nx, (long long)g->ny, (long long)g->nz, A[0][0], A[0][1],
+			A[0][2], A[0][3], A[1][0], A[1][1], A[1][2], A[1][3], A[2][0], A[2][1],
+			A[2][2], A[2][3]);
+}
+
+int nii_same_grid(const nii_grid *a, const nii_grid *b, double tol_mm, char *why, size_t whylen)
+{
+	double worst = 0;
+	int dims_ok = a->nx == b->nx && a->ny == b->ny && a->nz == b->nz;
+
+	for (int i = 0; i < 3; i++)
+		for (int j = 0; j < 4; j++) {
+			double d = fabs(a->affine[i][j] - b->affine[i][j]);
+
+			if (!(d <= worst))
+				worst = d; /* NaN counts as a mismatch */
+		}
+	if (dims_ok && worst <= tol_mm)
+		return 1;
+	if (why && whylen) {
+		char ga[512], gb[512];
+
+		describe_grid(ga, sizeof ga, a);
+		describe_grid(gb, sizeof gb, b);
+		if (!dims_ok)
+			snprintf(why, whylen, "dimensions differ: %s vs %s", ga, gb);
+		else
+			snprintf(why, whylen, "affines differ by up to %g mm (tolerance %g): %s vs %s",
+				 worst, tol_mm, ga, gb);
+	}
+	return 0;
+}
+
+void nii_grid_make(nii_grid *g, int64_t nx, int64_t ny, int64_t nz, double dx, double dy,
+		   double dz, double ox, double oy, double oz)
+{
+	memset(g, 0, sizeof *g);
+	g->nx = nx, g->ny = ny, g->nz = nz;
+	g->dx = fabs(dx), g->dy = fabs(dy), g->dz = fabs(dz);
+	/* Invented data have no other space to claim than the scanner's. */
+	g->qform_code = NIFTI_XFORM_SCANNER_ANAT;
+	g->sform_code = NIFTI_XFORM_SCANNER_ANAT;
+	g->qfac = 1.0;
+	g->qoffset_x = -ox * g->dx;
+	g->qoffset_y = -oy * g->dy;
+	g->qoffset_z = -oz * g->dz;
+	g->srow[0][0] = g->affine[0][0] = g->dx;
+	g->srow[1][1] = g->affine[1][1] = g->dy;
+	g->srow[2][2] = g->affine[2][2] = g->dz;
+	g->srow[0][3] = g->affine[0][3] = g->qoffset_x;
+	g->srow[1][3] = g->affine[1][3] = g->qoffset_y;
+	g->srow[2][3] = g->affine[2][3] = g->qoffset_z;
+	g->xyz_units = NIFTI_UNITS_MM;
+}
+
+void nii_voxel_to_world(const nii_grid *g, double i, double j, double k, double xyz[3])
+{
+	for (int r = 0; r < 3; r++)
+		xyz[r] = g->affine[r][0] * i + g->affine[r][1] * j + g->affine[r][2] * k +
+			 g->affine[r][3];
+}

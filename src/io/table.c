@@ -1,0 +1,331 @@
+/* table.c - reading TSV/CSV files through libcsv, keeping the file line of every row. */
+#include "table.h"
+
+#include <csv.h>
+#include <errno.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <strings.h>
+
+#include "../core/mem.h"
+
+/*
+ * Parser state. The file is fed to libcsv one physical line at a time, so a
+ * row-end callback knows the line it happened on; subtracting the newlines
+ * held inside the row's quoted fields gives the line the row started on.
+ */
+typedef struct parse_state {
+	const char *path;
+	sr_err *e;
+	int failed;                /* the message is in e; the status is always SR_EFORMAT */
+	size_t cur_line;           /* line being fed */
+	char **row;                /* fields of the row in progress */
+	size_t nrow, caprow;
+	size_t row_newlines;       /* '\n' inside the fields of the row in progress */
+	int have_header;
+	table *t;
+	size_t caprows;            /* rows allocated in t->cells / t->line */
+} parse_state;
+
+static void row_clear(parse_state *s)
+{
+	for (size_t i = 0; i < s->nrow; i++)
+		free(s->row[i]);
+	s->nrow = 0;
+	s->row_newlines = 0;
+}
+
+static void on_field(void *data, size_t len, void *ctx)
+{
+	parse_state *s = ctx;
+	char *f;
+
+	if (s->failed)
+		return;
+	f = xmalloc(len + 1);
+	if (len)
+		memcpy(f, data, len);
+	f[len] = '\0';
+	for (size_t i = 0; i < len; i++)
+		if (f[i] == '\n')
+			s->row_newlines++;
+	if (s->nrow == s->caprow) {
+		s->caprow = s->caprow ? 2 * s->caprow : 16;
+		s->row = xrealloc(s->row, s->caprow * sizeof *s->row);
+	}
+	s->row[s->nrow++] = f;
+}
+
+static int row_is_blank(const parse_state *s)
+{
+	for (size_t i = 0; i < s->nrow; i++)
+		if (s->row[i][0])
+			return 0;
+	return 1;
+}
+
+static void take_header(parse_state *s, size_t line)
+{
+	table *t = s->t;
+
+	/* A trailing delimiter on the header line leaves empty names at the end. */
+	while (s->nrow > 1 && s->row[s->nrow - 1][0] == '\0') {
+		free(s->row[s->nrow - 1]);
+		s->nrow--;
+	}
+	for (size_t i = 0; i < s->nrow; i++)
+		for (size_t j = 0; j < i; j++)
+			if (s->row[i][0] && strcmp(s->row[i], s->row[j]) == 0) {
+				s->failed = 1;
+				sr_fail(s->e, SR_EFORMAT,
+					"%s: line %zu: column '%s' appears twice (columns %zu and %zu)",
+					s->path, line, s->row[i], j + 1, i + 1);
+				return;
+			}
+	t->ncols = s->nrow;
+	t->header = s->row;
+	t->header_line = line;
+	s->row = NULL;
+	s->nrow = s->caprow = 0;
+	s->row_newlines = 0;
+	s->have_header = 1;
+}
+
+static void take_row(parse_state *s, size_t line)
+{
+	table *t = s->t;
+	size_t base;
+
+	for (size_t i = t->ncols; i < s->nrow; i++)
+		if (s->row[i][0]) {
+			s->failed = 1;
+			sr_fail(s->e, SR_EFORMAT,
+				"%s: line %zu: %zu fields but the header (line %zu) has %zu columns",
+				s->path, line, s->nrow, t->header_line, t->ncols);
+			return;
+		}
+	if (t->nrows == s->caprows) {
+		size_t bytes;
+
+		s->caprows = s->caprows ? 2 * s->caprows : 64;
+		if (sr_mul_size(s->caprows, t->ncols * sizeof(char *), &bytes))
+			bytes = (size_t)-1;
+		t->cells = xrealloc(t->cells, bytes);
+		t->line = xrealloc(t->line, s->caprows * sizeof *t->line);
+	}
+	base = t->nrows * t->ncols;
+	for (size_t i = 0; i < t->ncols; i++) {
+		if (i < s->nrow) {
+			t->cells[base + i] = s->row[i];
+			s->row[i] = NULL;
+		} else {
+			t->cells[base + i] = xstrdup("");
+		}
+	}
+	t->line[t->nrows++] = line;
+}
+
+static void on_row(int c, void *ctx)
+{
+	parse_state *s = ctx;
+	size_t line;
+
+	(void)c;
+	if (s->failed)
+		return;
+	line = s->cur_line - s->row_newlines;
+	if (row_is_blank(s)) {
+		row_clear(s);
+		return;
+	}
+	if (!s->have_header)
+		take_header(s, line);
+	else
+		take_row(s, line);
+	if (!s->failed)
+		row_clear(s);
+}
+
+static sr_status slurp(const char *path, char **buf, size_t *len, sr_err *e)
+{
+	FILE *f = fopen(path, "rb");
+	size_t cap = 65536, n = 0, got;
+	char *b;
+
+	if (!f)
+		return sr_fail(e, SR_EIO, "cannot open %s: %s", path, strerror(errno));
+	b = xmalloc(cap);
+	for (;;) {
+		got = fread(b + n, 1, cap - n, f);
+		n += got;
+		if (n < cap)
+			break;
+		cap *= 2;
+		b = xrealloc(b, cap);
+	}
+	if (ferror(f)) {
+		int err = errno;
+
+		fclose(f);
+		free(b);
+		return sr_fail(e, SR_EIO, "cannot read %s: %s", path, strerror(err));
+	}
+	fclose(f);
+	*buf = b;
+	*len = n;
+	return SR_OK;
+}
+
+static char choose_delim(const char *path, char delim)
+{
+	size_t n = strlen(path);
+
+	if (delim)
+		return delim;
+	if (n >= 4 && strcasecmp(path + n - 4, ".csv") == 0)
+		return ',';
+	return '\t';
+}
+
+/* Line on which the unclosed quoted field began: the parser still holds its text. */
+static size_t open_quote_line(const parse_state *s, const struct csv_parser *p)
+{
+	size_t nl = 0, n = p->entry_pos;
+
+	if (n && p->entry_buf[n - 1] == '\n')
+		n--;
+	for (size_t i = 0; i < n; i++)
+		if (p->entry_buf[i] == '\n')
+			nl++;
+	return s->cur_line > nl ? s->cur_line - nl : 1;
+}
+
+sr_status table_read(const char *path, char delim, table *t, sr_err *e)
+{
+	struct csv_parser p;
+	parse_state s;
+	char *buf = NULL;
+	size_t len = 0, pos = 0;
+	sr_status st;
+
+	memset(t, 0, sizeof *t);
+	st = slurp(path, &buf, &len, e);
+	if (st)
+		return st;
+	if (csv_init(&p, CSV_APPEND_NULL) != 0) {
+		free(buf);
+		return sr_fail(e, SR_ENOMEM, "cannot start the table parser for %s", path);
+	}
+	csv_set_delim(&p, (unsigned char)choose_delim(path, delim));
+	memset(&s, 0, sizeof s);
+	s.path = path;
+	s.e = e;
+	s.t = t;
+	t->path = xstrdup(path);
+	if (len >= 3 && memcmp(buf, "\xEF\xBB\xBF", 3) == 0)
+		pos = 3;
+	while (pos < len && !s.failed) {
+		const char *nl = memchr(buf + pos, '\n', len - pos);
+		size_t seg = nl ? (size_t)(nl - (buf + pos)) + 1 : len - pos;
+
+		s.cur_line++;
+		if (csv_parse(&p, buf + pos, seg, on_field, on_row, &s) != seg && !s.failed) {
+			s.failed = 1;
+			sr_fail(e, SR_EFORMAT, "%s: line %zu: %s", path, s.cur_line,
+				csv_strerror(csv_error(&p)));
+		}
+		pos += seg;
+	}
+	/*
+	 * libcsv reports an unclosed quote only in strict mode, which also rejects
+	 * a stray quote inside an unquoted cell; check its state here instead
+	 * (2 is its "field begun" state), or the rest of the file would silently
+	 * become one cell.
+	 */
+	if (!s.failed && p.quoted && p.pstate == 2) {
+		s.failed = 1;
+		sr_fail(e, SR_EFORMAT, "%s: line %zu: a quoted field is never closed", path,
+			open_quote_line(&s, &p));
+	}
+	if (!s.failed && csv_fini(&p, on_field, on_row, &s) != 0 && !s.failed) {
+		s.failed = 1;
+		sr_fail(e, SR_EFORMAT, "%s: %s", path, csv_strerror(csv_error(&p)));
+	}
+	if (!s.failed && !s.have_header) {
+		s.failed = 1;
+		sr_fail(e, SR_EFORMAT, "%s: no header row (the file is empty)", path);
+	}
+	csv_free(&p);
+	row_clear(&s);
+	free(s.row);
+	free(buf);
+	if (s.failed) {
+		table_release(t);
+		return SR_EFORMAT;
+	}
+	return SR_OK;
+}
+
+void table_release(table *t)
+{
+	if (!t)
+		return;
+	if (t->cells)
+		for (size_t i = 0; i < t->nrows * t->ncols; i++)
+			free(t->cells[i]);
+	if (t->header)
+		for (size_t i = 0; i < t->ncols; i++)
+			free(t->header[i]);
+	free(t->cells);
+	free(t->header);
+	free(t->line);
+	free(t->path);
+	memset(t, 0, sizeof *t);
+}
+
+int table_col(const table *t, const char *name)
+{
+	for (size_t i = 0; i < t->ncols; i++)
+		if (strcmp(t->header[i], name) == 0)
+			return (int)i;
+	return -1;
+}
+
+const char *table_cell(const table *t, size_t row, size_t col)
+{
+	if (row >= t->nrows || col >= t->ncols)
+		return "";
+	return t->cells[row * t->ncols + col];
+}
+
+sr_status table_number(const table *t, size_t row, size_t col, double *v, int *is_na,
+		       int allow_empty, sr_err *e)
+{
+	const char *s = table_cell(t, row, col);
+	const char *name = col < t->ncols ? t->header[col] : "?";
+	size_t line = row < t->nrows ? t->line[row] : 0;
+	char *end;
+	double x;
+
+	*is_na = 0;
+	*v = NAN;
+	if (strcmp(s, "n/a") == 0 || (allow_empty && s[0] == '\0')) {
+		*is_na = 1;
+		return SR_OK;
+	}
+	if (s[0] == '\0')
+		return sr_fail(e, SR_EFORMAT, "%s: line %zu, column %zu (%s): empty cell, expected a number",
+			       t->path, line, col + 1, name);
+	/* strtod also takes hexadecimal and "inf"/"nan": only finite decimals are numbers here. */
+	errno = 0;
+	x = strtod(s, &end);
+	while (end != s && (*end == ' ' || *end == '\t'))
+		end++;
+	if (end == s || *end != '\0' || !isfinite(x) || strpbrk(s, "xX"))
+		return sr_fail(e, SR_EFORMAT, "%s: line %zu, column %zu (%s): '%.80s' is not a number",
+			       t->path, line, col + 1, name, s);
+	*v = x;
+	return SR_OK;
+}
