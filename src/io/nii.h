@@ -18,6 +18,7 @@ typedef struct nii_grid {
 	int qform_code, sform_code;
 	double quatern_b, quatern_c, quatern_d, qoffset_x, qoffset_y, qoffset_z, qfac;
 	double srow[3][4];        /* sform rows (valid when sform_code > 0) */
+	/* quatern_*, qoffset_* and srow are as stored, in xyz_units; dx..dz and affine are in mm. */
 	double affine[3][4];      /* voxel to world: sform if set, else qform, else scaling */
 	int xyz_units;            /* NIFTI_UNITS_* of the input (written back unchanged) */
 } nii_grid;
@@ -27,7 +28,7 @@ typedef struct nii_info {
 	nii_grid grid;
 	int ndim;                 /* dim[0] after dropping trailing 1s, at least 3 */
 	int64_t nt;               /* volumes (1 for a 3-D image) */
-	double tr;                /* pixdim[4] in seconds; 0 when absent or <= 0 */
+	double tr;                /* pixdim[4] in seconds; 0 when absent, <= 0, not a time unit, or dim[0] < 4 */
 	int datatype;             /* NIFTI_TYPE_* as stored */
 	double slope, inter;      /* scaling actually applied (1, 0 when none) */
 	int nifti_version;        /* 1 or 2 */
@@ -50,9 +51,17 @@ sr_status nii_read_info(const char *path, nii_info *info, sr_err *e);
  */
 typedef struct nii_stream nii_stream;
 
-/* Opens path; fills info. On failure *out is NULL. */
+/*
+ * Opens path (gzip recognised by its first bytes, not the name); fills info.
+ * On failure *out is NULL. Checks as nii_read_info.
+ */
 sr_status nii_stream_open(const char *path, nii_stream **out, nii_info *info, sr_err *e);
-/* Reads the next volume into vol (nvox doubles, scaling applied). A short file is an error naming the volume. */
+/*
+ * Reads the next volume into vol (nvox doubles, scaling applied). A short file
+ * is an error naming the volume (counted from 1); a damaged gzip stream is an
+ * error too, including a CRC mismatch, which is checked after the last volume.
+ * After an error the stream only closes.
+ */
 sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e);
 /* Closes; NULL does nothing. */
 void nii_stream_close(nii_stream *s);
@@ -77,7 +86,10 @@ sr_status nii_write_labels(const char *path, const nii_grid *g, const int32_t *l
 /*
  * Streaming writer for 4-D series too large to hold (the simulator's).
  * datatype NIFTI_TYPE_FLOAT32 or NIFTI_TYPE_INT16 (then values are stored as
- * round((v - inter) / slope) with the given slope and inter, clamped to range).
+ * round((v - inter) / slope) with the given slope and inter, half to even,
+ * clamped to the int16 range; NaN is an error). slope and inter are ignored
+ * for float32. A .gz series is compressed at zlib level 1 (maps at 6): series
+ * are large and noisy, so speed matters more than the last few percent.
  */
 typedef struct nii_writer nii_writer;
 sr_status nii_writer_open(const char *path, const nii_grid *g, int64_t nt, double tr,
@@ -91,11 +103,15 @@ void nii_writer_abort(nii_writer *w);
 /*
  * Compares grids: same nx, ny, nz and affines equal within tol_mm (1e-3 in
  * METHODS.md). Returns 1 when they match; otherwise 0 and a description of
- * both grids in why (may be NULL).
+ * both grids in why (may be NULL; set to "" on a match).
  */
 int nii_same_grid(const nii_grid *a, const nii_grid *b, double tol_mm, char *why, size_t whylen);
 
-/* A grid with the given dims and voxel size, axes aligned, world origin at voxel (ox, oy, oz). */
+/*
+ * A grid with the given dims and voxel size (absolute values), axes aligned,
+ * world origin at voxel (ox, oy, oz); units mm. qform and sform both carry it
+ * with code NIFTI_XFORM_SCANNER_ANAT (1): invented data claim no template space.
+ */
 void nii_grid_make(nii_grid *g, int64_t nx, int64_t ny, int64_t nz, double dx, double dy,
 		   double dz, double ox, double oy, double oz);
 
