@@ -17,6 +17,7 @@ static const struct command {
 	const char *summary;
 } commands[] = {
 	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
+	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ NULL, NULL, 0, NULL }
 };
 
