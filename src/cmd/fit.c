@@ -46,9 +46,12 @@ static const cmdline_spec spec = {
 	"convolved with a two-gamma response), the named confounds, cosine drifts and\n"
 	"a constant; each voxel's series is scaled to percent of its mean, then fitted\n"
 	"by OLS or AR(1) Prais-Winsten in one streamed pass over the volumes. Writes,\n"
-	"per run and combined over runs (fixed effects), an effect map (percent signal\n"
-	"change) and a t map for every condition and effect, each run's design matrix\n"
-	"as CSV, and fit.json recording inputs, options, rank and df.",
+	"per run and, with several runs, combined over them (fixed effects), an effect\n"
+	"map (percent signal change) and a t map for every condition and effect:\n"
+	"  DIR/<run>_<effect>_effect.nii.gz, DIR/<run>_<effect>_t.nii.gz,\n"
+	"  DIR/combined_<effect>_effect.nii.gz, DIR/combined_<effect>_t.nii.gz,\n"
+	"each run's design matrix as DIR/<run>_design.csv, and DIR/fit.json recording\n"
+	"inputs, options, rank and df. <run> is the file name without _bold.nii[.gz].",
 	opts,
 };
 
@@ -622,9 +625,10 @@ int cmd_fit(int argc, char **argv)
 	doc = jdoc_object();
 	files = jdoc_array();
 	runs = jdoc_array();
-	njobs = 2 * neff * (nrun + 1);
+	/* with one run the combination is that run: its maps are not written twice */
+	njobs = 2 * neff * (nrun > 1 ? nrun + 1 : 1);
 	jobs = xcalloc((size_t)njobs, sizeof *jobs);
-	for (r = 0; r <= nrun; r++) {
+	for (r = 0; r < (nrun > 1 ? nrun + 1 : 1); r++) {
 		char *base = r < nrun ? run_base(pos[r]) : xstrdup("combined");
 
 		for (c = 0; c < neff; c++) {
