@@ -205,4 +205,33 @@ with tempfile.TemporaryDirectory() as d:
     p = fit([runs[0][0], "--out", os.path.join(d, "o_tr"), "--tr", "2.5", "--quiet"])
     report(p.returncode == 0, "--tr overrides the header")
 
+    # a truncated compressed run: an error naming the file, no outputs
+    cut = os.path.join(d, "cut", "sub-03_task-tones_run-1_bold.nii.gz")
+    os.makedirs(os.path.dirname(cut))
+    blob = open(runs[0][0], "rb").read()
+    open(cut, "wb").write(blob[: len(blob) * 2 // 3])
+    open(cut.replace("_bold.nii.gz", "_events.tsv"), "w").write(open(runs[0][0].replace("_bold.nii.gz", "_events.tsv")).read())
+    oc = os.path.join(d, "o_cut")
+    p = fit([cut, "--out", oc, "--quiet"])
+    report(p.returncode == 1 and "sub-03_task-tones_run-1_bold.nii.gz" in p.stderr,
+           f"a truncated run is an error naming the file ({p.stderr.strip()[:150]})")
+    report(not os.path.exists(oc) or not os.listdir(oc), "a failed run leaves no maps")
+
+    # a condition absent from one run: warning, not estimable there, combined from the other run
+    ev2 = os.path.join(d, "melody_only_events.tsv")
+    open(ev2, "w").write("onset\tduration\ttrial_type\n32\t16\tmelody\n96\t16\tmelody\n")
+    ev1 = runs[0][0].replace("_bold.nii.gz", "_events.tsv")
+    om = os.path.join(d, "o_missing")
+    p = fit([runs[0][0], runs[1][0], "--out", om, "--events", f"{ev1},{ev2}", "--effect", "melody - scrambled"])
+    meta = json.load(open(os.path.join(om, "fit.json"))) if p.returncode == 0 else {"runs": [{}, {"estimable": {}}]}
+    report(p.returncode == 0 and "'scrambled' has no event" in p.stderr and
+           meta["runs"][1]["estimable"].get("scrambled") is False and
+           meta["runs"][1]["estimable"].get("melody") is True,
+           "a condition with no event in a run warns and is not estimable there")
+    one = load_map(os.path.join(om, "sub-01_task-tones_run-1_scrambled_effect.nii.gz"))
+    comb = load_map(os.path.join(om, "combined_scrambled_effect.nii.gz"))
+    nanrun = load_map(os.path.join(om, "sub-01_task-tones_run-2_melody-scrambled_t.nii.gz"))
+    report(np.array_equal(one, comb, equal_nan=True) and np.all(np.isnan(nanrun)),
+           "the combined map of a condition missing in one run is the other run's; its contrast is NaN there")
+
 sys.exit(1 if failed else 0)
