@@ -1,0 +1,607 @@
+/* analyze.c - `splitroi analyze`: the whole job for every subject of a study. */
+#include <math.h>
+#include <pthread.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include "../core/mem.h"
+#include "../io/afile.h"
+#include "../io/bids.h"
+#include "../io/events.h"
+#include "../io/nii.h"
+#include "../io/study.h"
+#include "../io/table.h"
+#include "analyze.h"
+#include "cmd.h"
+#include "cmdline.h"
+#include "progress.h"
+#include "subject.h"
+
+static const cmdline_opt opts[] = {
+	{ "out", "DIR", "write results under DIR instead of the study's 'out'" },
+	{ "subjects", "LIST", "analyze only these subjects (labels, comma or space separated)" },
+	{ "jobs", "N", "analyze N subjects at a time (default 1); tables do not depend on N" },
+	{ "threads", "N", "threads for fitting one subject's runs (default: the CPU count / jobs)" },
+	{ "force", NULL, "redo subjects whose outputs are complete and up to date" },
+	{ "no-group", NULL, "skip the group step (per-subject tables only)" },
+	{ "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
+	{ NULL, NULL, NULL },
+};
+enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET };
+
+static const cmdline_spec spec = {
+	"analyze", "STUDY.ini [options]",
+	"Runs the whole job on a study: fits every run of every subject, defines each\n"
+	"subject's fROIs inside the parcels on one half of the localizer runs, measures\n"
+	"the responses on the other half (and in the measured tasks), and writes\n"
+	"OUT/sub-<label>/responses.csv, the combined OUT/responses.csv, maps per split,\n"
+	"and the group table. Subjects whose outputs are complete and newer than their\n"
+	"inputs are skipped (see --force).",
+	opts,
+};
+
+/* ---- the subject list ---- */
+
+static int has_label(char **v, size_t n, const char *s)
+{
+	size_t i;
+
+	for (i = 0; i < n; i++)
+		if (strcmp(v[i], s) == 0)
+			return 1;
+	return 0;
+}
+
+/* Splits "01, 02 07" into labels (without "sub-"). */
+static char **split_labels(const char *text, size_t *n)
+{
+	char *copy = xstrdup(text), *tok, *save = NULL;
+	char **v = NULL;
+	size_t cap = 0;
+
+	*n = 0;
+	for (tok = strtok_r(copy, ", \t", &save); tok; tok = strtok_r(NULL, ", \t", &save)) {
+		if (strncmp(tok, "sub-", 4) == 0)
+			tok += 4;
+		if (!*tok || has_label(v, *n, tok))
+			continue;
+		if (*n == cap) {
+			cap = cap ? 2 * cap : 8;
+			v = xrealloc(v, cap * sizeof *v);
+		}
+		v[(*n)++] = xstrdup(tok);
+	}
+	free(copy);
+	return v;
+}
+
+static int cmp_str(const void *a, const void *b)
+{
+	return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+/* The study's subjects: its list or every sub-* folder. */
+static sr_status study_subjects(const study *st, char ***out, size_t *n, sr_err *e)
+{
+	char **found;
+	size_t nfound, i;
+	sr_status rc;
+
+	rc = bids_subjects(st->bids, &found, &nfound, e);
+	if (rc)
+		return rc;
+	if (!st->subjects) {
+		*out = found;
+		*n = nfound;
+		return SR_OK;
+	}
+	for (i = 0; i < st->nsubjects; i++)
+		if (!has_label(found, nfound, st->subjects[i])) {
+			sr_fail(e, SR_ESTUDY, "%s: subject '%s' is not in %s", st->path, st->subjects[i],
+				st->bids);
+			bids_strings_free(found, nfound);
+			return SR_ESTUDY;
+		}
+	bids_strings_free(found, nfound);
+	*out = xcalloc(st->nsubjects ? st->nsubjects : 1, sizeof **out);
+	for (i = 0; i < st->nsubjects; i++)
+		(*out)[i] = xstrdup(st->subjects[i]);
+	*n = st->nsubjects;
+	qsort(*out, *n, sizeof **out, cmp_str);
+	return SR_OK;
+}
+
+/* ---- conditions named in effects must exist for some subject (METHODS.md section 11) ---- */
+
+static sr_status task_conditions(const study *st, char **subs, size_t nsub, const char *task,
+				 char ***conds, size_t *ncond, sr_err *e)
+{
+	size_t s, cap = 0;
+
+	*conds = NULL;
+	*ncond = 0;
+	for (s = 0; s < nsub; s++) {
+		bids_run *runs;
+		size_t nr, r;
+		sr_status rc = bids_runs(st->bids, subs[s], task, &runs, &nr, e);
+
+		if (rc)
+			return rc;
+		for (r = 0; r < nr; r++) {
+			event_list ev;
+			size_t k;
+
+			if (!runs[r].events_exist)
+				continue;   /* reported with the subject */
+			if (events_read(runs[r].events, st->condition_column, &ev, NULL))
+				continue;   /* likewise */
+			for (k = 0; k < ev.n; k++) {
+				if (has_label(*conds, *ncond, ev.ev[k].condition))
+					continue;
+				if (*ncond == cap) {
+					cap = cap ? 2 * cap : 8;
+					*conds = xrealloc(*conds, cap * sizeof **conds);
+				}
+				(*conds)[(*ncond)++] = xstrdup(ev.ev[k].condition);
+			}
+			events_release(&ev);
+		}
+		bids_runs_release(runs, nr);
+	}
+	if (*ncond)
+		qsort(*conds, *ncond, sizeof **conds, cmp_str);
+	return SR_OK;
+}
+
+static int check_effects(const study *st, const char *task, const expr *fx, size_t nfx,
+			 char **conds, size_t ncond)
+{
+	size_t i, k, c, bad = 0;
+
+	for (i = 0; i < nfx; i++)
+		for (k = 0; k < fx[i].nterms; k++) {
+			if (has_label(conds, ncond, fx[i].terms[k].name))
+				continue;
+			fprintf(stderr, "splitroi analyze: %s: effect %s names condition '%s', which no subject has in task '%s'; known conditions:",
+				st->path, fx[i].text, fx[i].terms[k].name, task);
+			for (c = 0; c < ncond; c++)
+				fprintf(stderr, "%s %s", c ? "," : "", conds[c]);
+			fprintf(stderr, "%s\n", ncond ? "" : " none");
+			bad++;
+		}
+	return (int)bad;
+}
+
+static int check_all_effects(const study *st, char **subs, size_t nsub)
+{
+	size_t t, ntasks = 1 + st->nmeasures;
+	int bad = 0;
+
+	for (t = 0; t < ntasks; t++) {
+		const char *task = t ? st->measures[t - 1].task : st->loc_task;
+		char **conds;
+		size_t ncond, c;
+		sr_err e;
+
+		sr_err_init(&e, NULL, NULL);
+		if (task_conditions(st, subs, nsub, task, &conds, &ncond, &e)) {
+			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+			return 1;
+		}
+		if (t == 0) {
+			bad += check_effects(st, task, &st->contrast, 1, conds, ncond);
+			bad += check_effects(st, task, st->loc_effects, st->nloc_effects, conds, ncond);
+		} else {
+			bad += check_effects(st, task, st->measures[t - 1].effects,
+					     st->measures[t - 1].neffects, conds, ncond);
+		}
+		for (c = 0; c < ncond; c++)
+			free(conds[c]);
+		free(conds);
+	}
+	return bad;
+}
+
+/* ---- skipping complete subjects ---- */
+
+static double mtime_of(const char *path)
+{
+	struct stat sb;
+
+	if (!path || stat(path, &sb) != 0)
+		return -1;
+	return (double)sb.st_mtim.tv_sec + 1e-9 * (double)sb.st_mtim.tv_nsec;
+}
+
+static double newest_input(const study *st, const char *label)
+{
+	double t = mtime_of(st->path), x;
+	size_t k, ntasks = 1 + st->nmeasures;
+
+	if ((x = mtime_of(st->parcels)) > t)
+		t = x;
+	if ((x = mtime_of(st->parcel_names)) > t)
+		t = x;
+	if ((x = mtime_of(st->mask)) > t)
+		t = x;
+	for (k = 0; k < ntasks; k++) {
+		const char *task = k ? st->measures[k - 1].task : st->loc_task;
+		bids_run *runs;
+		size_t nr, r;
+
+		if (bids_runs(st->bids, label, task, &runs, &nr, NULL))
+			return 1e300;
+		for (r = 0; r < nr; r++) {
+			char *conf = st->nconfounds ? bids_confounds_path(&runs[r], st->confounds_suffix) : NULL;
+
+			if ((x = mtime_of(runs[r].bold)) > t)
+				t = x;
+			if ((x = mtime_of(runs[r].events)) > t)
+				t = x;
+			if ((x = mtime_of(runs[r].sidecar)) > t)
+				t = x;
+			if ((x = mtime_of(conf)) > t)
+				t = x;
+			free(conf);
+		}
+		bids_runs_release(runs, nr);
+	}
+	return t;
+}
+
+int analyze_subject_complete(const study *st, const char *label)
+{
+	char path[4096];
+	double done;
+
+	snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, label);
+	done = mtime_of(path);
+	if (done < 0)
+		return 0;
+	snprintf(path, sizeof path, "%s/sub-%s/responses.csv", st->out, label);
+	if (mtime_of(path) < 0)
+		return 0;
+	return done >= newest_input(st, label);
+}
+
+/* ---- the combined table ---- */
+
+sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *ncomplete,
+			  sr_err *e)
+{
+	afile a;
+	size_t s;
+	sr_status rc;
+	char path[4096];
+	int header_done = 0;
+
+	*ncomplete = 0;
+	snprintf(path, sizeof path, "%s/responses.csv", st->out);
+	rc = afile_open(&a, path, e);
+	if (rc)
+		return rc;
+	for (s = 0; s < nsub; s++) {
+		FILE *f;
+		char line[8192];
+		int first = 1;
+
+		if (!analyze_subject_complete(st, subs[s]))
+			continue;
+		snprintf(path, sizeof path, "%s/sub-%s/responses.csv", st->out, subs[s]);
+		f = fopen(path, "r");
+		if (!f)
+			continue;
+		while (fgets(line, sizeof line, f)) {
+			if (first && header_done) {
+				first = 0;
+				continue;
+			}
+			first = 0;
+			header_done = 1;
+			fputs(line, a.f);
+		}
+		if (ferror(f)) {
+			fclose(f);
+			afile_abort(&a);
+			return sr_fail(e, SR_EIO, "%s: read error", path);
+		}
+		fclose(f);
+		(*ncomplete)++;
+	}
+	if (!header_done) {
+		size_t i;
+
+		for (i = 0; i < subject_ncolumns; i++)
+			fprintf(a.f, "%s%s", i ? "," : "", subject_columns[i]);
+		fputs("\r\n", a.f);
+	}
+	return afile_commit(&a, e);
+}
+
+/* ---- running subjects, possibly several at a time ---- */
+
+typedef struct work {
+	const subject_ctx *ctx;
+	char **labels;
+	size_t n, next;
+	int *status;           /* per subject: 0 ok, 1 failed */
+	subject_result *res;
+	progress *prog;
+	pthread_mutex_t lock;
+} work;
+
+static void *worker(void *arg)
+{
+	work *w = arg;
+
+	for (;;) {
+		size_t i;
+		sr_err e;
+
+		pthread_mutex_lock(&w->lock);
+		i = w->next++;
+		pthread_mutex_unlock(&w->lock);
+		if (i >= w->n)
+			break;
+		sr_err_init(&e, progress_warn, w->prog);
+		if (subject_analyze(w->ctx, w->labels[i], &w->res[i], &e)) {
+			progress_clear(w->prog);
+			pthread_mutex_lock(&w->prog->lock);
+			fprintf(stderr, "splitroi analyze: sub-%s failed: %s\n", w->labels[i], e.msg);
+			pthread_mutex_unlock(&w->prog->lock);
+			w->status[i] = 1;
+		}
+		progress_step(w->prog);
+	}
+	return NULL;
+}
+
+/* The aligned summary on stdout: per parcel, mean fROI size and the cross-validated effects. */
+static void print_summary(const study *st, const subject_result *res, const int *ran, size_t n)
+{
+	const char *kind = st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean";
+	size_t i, k;
+	char **parcels = NULL;
+	size_t np = 0;
+
+	for (i = 0; i < n; i++)
+		for (k = 0; ran[i] && k < res[i].nrows; k++)
+			if (!has_label(parcels, np, res[i].rows[k].parcel)) {
+				parcels = xrealloc(parcels, (np + 1) * sizeof *parcels);
+				parcels[np++] = res[i].rows[k].parcel;
+			}
+	if (!np)
+		return;
+	printf("\ncross-validated responses (%s), mean over subjects analyzed now:\n", kind);
+	printf("  %-22s %10s  %-28s %10s %4s\n", "parcel", "fROI size", "effect", "mean", "n");
+	for (k = 0; k < np; k++) {
+		size_t j, ne = st->nloc_effects;
+
+		for (j = 0; j < ne; j++) {
+			double sv = 0, sn = 0;
+			size_t cnt = 0, cntv = 0;
+
+			for (i = 0; i < n; i++) {
+				size_t r;
+
+				for (r = 0; ran[i] && r < res[i].nrows; r++) {
+					const response_row *w = &res[i].rows[r];
+
+					if (strcmp(w->parcel, parcels[k]) || strcmp(w->split, kind) ||
+					    strcmp(w->effect, st->loc_effects[j].text))
+						continue;
+					sn += w->n_voxels;
+					cntv++;
+					if (isfinite(w->value)) {
+						sv += w->value;
+						cnt++;
+					}
+				}
+			}
+			if (!cntv)
+				continue;
+			if (cnt)
+				printf("  %-22s %10.1f  %-28s %9.3f%% %4zu\n", j ? "" : parcels[k],
+				       sn / (double)cntv, st->loc_effects[j].text, sv / (double)cnt, cnt);
+			else
+				printf("  %-22s %10.1f  %-28s %10s %4zu\n", j ? "" : parcels[k],
+				       sn / (double)cntv, st->loc_effects[j].text, "-", cnt);
+		}
+	}
+	free(parcels);
+}
+
+int cmd_analyze(int argc, char **argv)
+{
+	const char *val[8], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	int npos, rc, quiet, nfail = 0;
+	long jobs = 1, threads = 0;
+	study st;
+	study_problems probs = { 0 };
+	parcel_set ps;
+	char **subs = NULL, **todo = NULL;
+	size_t nsub = 0, ntodo = 0, i, ncomplete = 0;
+	unsigned char *mask = NULL;
+	nii_grid mask_grid;
+	sr_err e;
+	progress prog;
+	subject_ctx ctx;
+	work w;
+	int *ran = NULL;
+
+	rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
+	if (rc) {
+		free(pos);
+		return rc == 1 ? 0 : 2;
+	}
+	if (npos != 1) {
+		cmdline_error("analyze", npos ? "give one study file" : "which study? usage: splitroi analyze STUDY.ini");
+		free(pos);
+		return 2;
+	}
+	if ((val[O_JOBS] && cmdline_int("analyze", "jobs", val[O_JOBS], 1, 256, &jobs)) ||
+	    (val[O_THREADS] && cmdline_int("analyze", "threads", val[O_THREADS], 1, 256, &threads))) {
+		free(pos);
+		return 2;
+	}
+	quiet = val[O_QUIET] != NULL;
+	if (study_load(pos[0], &st, &probs) != SR_OK) {
+		for (i = 0; i < probs.n; i++)
+			fprintf(stderr, "splitroi analyze: %s\n", probs.msg[i]);
+		study_problems_release(&probs);
+		free(pos);
+		return 1;
+	}
+	study_problems_release(&probs);
+	free(pos);
+	if (val[O_OUT]) {
+		free(st.out);
+		st.out = xstrdup(val[O_OUT]);
+	}
+	if (!threads) {
+		long ncpu = sysconf(_SC_NPROCESSORS_ONLN);
+
+		threads = ncpu > jobs ? ncpu / jobs : 1;
+	}
+	sr_err_init(&e, NULL, NULL);
+	rc = 1;
+	if (study_subjects(&st, &subs, &nsub, &e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+		goto out_study;
+	}
+	if (nsub == 0) {
+		fprintf(stderr, "splitroi analyze: %s: no subjects (sub-*) found\n", st.bids);
+		goto out_subs;
+	}
+	if (check_all_effects(&st, subs, nsub))
+		goto out_subs;
+	if (val[O_SUBJECTS]) {
+		todo = split_labels(val[O_SUBJECTS], &ntodo);
+		for (i = 0; i < ntodo; i++)
+			if (!has_label(subs, nsub, todo[i])) {
+				fprintf(stderr, "splitroi analyze: subject '%s' is not in the study (%zu subjects: %s%s)\n",
+					todo[i], nsub, subs[0], nsub > 1 ? " ..." : "");
+				rc = 2;
+				goto out_subs;
+			}
+	} else {
+		ntodo = nsub;
+		todo = xcalloc(nsub, sizeof *todo);
+		for (i = 0; i < nsub; i++)
+			todo[i] = xstrdup(subs[i]);
+	}
+	progress_init(&prog, "analyze", 0, quiet);
+	sr_err_init(&e, progress_warn, &prog);
+	if (parcel_set_load(&st, &ps, &e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+		goto out_prog;
+	}
+	if (st.mask) {
+		nii_info mi;
+		double *md;
+		size_t v, nv;
+
+		if (nii_read_3d(st.mask, &mi, &md, &e)) {
+			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+			goto out_parcels;
+		}
+		nv = nii_nvox(&mi.grid);
+		mask = xmalloc(nv);
+		for (v = 0; v < nv; v++)
+			mask[v] = isfinite(md[v]) && md[v] != 0;
+		free(md);
+		mask_grid = mi.grid;
+	}
+	if (afile_mkdirs(st.out, &e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+		goto out_parcels;
+	}
+	/* skip what is complete and up to date */
+	{
+		size_t kept = 0;
+
+		for (i = 0; i < ntodo; i++) {
+			if (!val[O_FORCE] && analyze_subject_complete(&st, todo[i])) {
+				if (!quiet)
+					fprintf(stderr, "splitroi analyze: sub-%s: up to date, skipped (--force redoes it)\n",
+						todo[i]);
+				free(todo[i]);
+				continue;
+			}
+			todo[kept++] = todo[i];
+		}
+		ntodo = kept;
+	}
+	prog.total = (int)ntodo;
+	memset(&ctx, 0, sizeof ctx);
+	ctx.st = &st;
+	ctx.parcels = &ps;
+	ctx.mask = mask;
+	ctx.mask_grid = mask ? &mask_grid : NULL;
+	ctx.nthreads = (int)threads;
+	ctx.progress = progress_stage;
+	ctx.progress_ctx = &prog;
+	memset(&w, 0, sizeof w);
+	w.ctx = &ctx;
+	w.labels = todo;
+	w.n = ntodo;
+	w.status = xcalloc(ntodo ? ntodo : 1, sizeof *w.status);
+	w.res = xcalloc(ntodo ? ntodo : 1, sizeof *w.res);
+	w.prog = &prog;
+	pthread_mutex_init(&w.lock, NULL);
+	if (ntodo) {
+		long nj = jobs < (long)ntodo ? jobs : (long)ntodo, j;
+		pthread_t *tid = xcalloc((size_t)nj, sizeof *tid);
+
+		for (j = 0; j < nj; j++)
+			if (pthread_create(&tid[j], NULL, worker, &w) != 0) {
+				tid[j] = 0;
+				worker(&w);
+			}
+		for (j = 0; j < nj; j++)
+			if (tid[j])
+				pthread_join(tid[j], NULL);
+		free(tid);
+	}
+	pthread_mutex_destroy(&w.lock);
+	progress_clear(&prog);
+	ran = xcalloc(ntodo ? ntodo : 1, sizeof *ran);
+	for (i = 0; i < ntodo; i++) {
+		ran[i] = !w.status[i];
+		nfail += w.status[i];
+	}
+	if (analyze_combine(&st, subs, nsub, &ncomplete, &e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+		nfail++;
+	}
+	if (!val[O_NOGROUP])
+		if (analyze_group_step(st.out, quiet))
+			nfail++;
+	if (!quiet) {
+		print_summary(&st, w.res, ran, ntodo);
+		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",
+		       ncomplete, nsub, ntodo - (size_t)(nfail > (int)ntodo ? (int)ntodo : nfail), nfail, prog.warnings);
+		printf("tables: %s/responses.csv (all subjects), %s/sub-<label>/responses.csv\n", st.out,
+		       st.out);
+	}
+	rc = nfail ? 1 : 0;
+	for (i = 0; i < ntodo; i++)
+		subject_result_release(&w.res[i]);
+	free(w.res);
+	free(w.status);
+	free(ran);
+out_parcels:
+	free(mask);
+	parcel_set_release(&ps);
+out_prog:
+	progress_release(&prog);
+out_subs:
+	bids_strings_free(todo, ntodo);
+	bids_strings_free(subs, nsub);
+out_study:
+	study_release(&st);
+	return rc;
+}

@@ -1,0 +1,20 @@
+/* analyze.h - pieces of `analyze` that other commands reuse (skip rule, combined table). */
+#ifndef SR_ANALYZE_H
+#define SR_ANALYZE_H
+
+#include <stddef.h>
+
+#include "../core/err.h"
+#include "../io/study.h"
+
+/* 1 when OUT/sub-<label>/ holds complete outputs newer than every input and the study file. */
+int analyze_subject_complete(const study *st, const char *label);
+
+/* Rewrites OUT/responses.csv from every complete subject's table, in label order. */
+sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *ncomplete,
+			  sr_err *e);
+
+/* Runs the group step on OUT (group.c); 0 = ok. */
+int analyze_group_step(const char *out, int quiet);
+
+#endif

@@ -1,0 +1,956 @@
+/* subject.c - one subject's analysis: fit every run once, form the splits, define fROIs, measure. */
+#include "subject.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <time.h>
+
+#include "../core/mem.h"
+#include "../core/resample.h"
+#include "../core/roi.h"
+#include "../io/afile.h"
+#include "../io/bids.h"
+#include "../io/csvout.h"
+#include "../io/events.h"
+#include "../io/jdoc.h"
+#include "../io/table.h"
+#include "../version.h"
+#include "runfit.h"
+
+const char *const subject_columns[] = {
+	"subject", "parcel", "split", "define_runs", "measure_task", "measure_runs",
+	"effect", "value", "n_voxels", "n_candidates",
+};
+const size_t subject_ncolumns = sizeof subject_columns / sizeof subject_columns[0];
+
+/* ---- parcels ---- */
+
+void parcel_set_release(parcel_set *p)
+{
+	int i;
+
+	if (!p)
+		return;
+	free(p->labels);
+	for (i = 0; i < p->n; i++)
+		free(p->name[i]);
+	free(p->name);
+	free(p->index);
+	memset(p, 0, sizeof *p);
+}
+
+static int cmp_i32(const void *a, const void *b)
+{
+	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
+
+	return (x > y) - (x < y);
+}
+
+sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
+{
+	nii_info info;
+	double *data = NULL;
+	table names;
+	int32_t *seen = NULL;
+	size_t v, nseen = 0, cap = 0;
+	int have_names = 0, i;
+	sr_status rc;
+
+	memset(p, 0, sizeof *p);
+	rc = nii_read_3d(st->parcels, &info, &data, e);
+	if (rc)
+		return rc;
+	p->grid = info.grid;
+	p->nvox = nii_nvox(&info.grid);
+	p->labels = xmalloc_array(p->nvox, sizeof *p->labels);
+	for (v = 0; v < p->nvox; v++) {
+		double x = data[v];
+
+		if (!isfinite(x) || x < 0 || x != floor(x) || x > 2147483647.0) {
+			size_t i0 = v % (size_t)info.grid.nx, j0 = v / (size_t)info.grid.nx % (size_t)info.grid.ny;
+			size_t k0 = v / ((size_t)info.grid.nx * (size_t)info.grid.ny);
+
+			free(data);
+			parcel_set_release(p);
+			return sr_fail(e, SR_EFORMAT,
+				       "%s: voxel (%zu, %zu, %zu) holds %g; parcel labels must be whole numbers >= 0",
+				       st->parcels, i0, j0, k0, x);
+		}
+		p->labels[v] = (int32_t)x;
+	}
+	free(data);
+	/* the distinct labels present in the image */
+	for (v = 0; v < p->nvox; v++) {
+		int32_t l = p->labels[v];
+		size_t k;
+
+		if (l == 0)
+			continue;
+		for (k = 0; k < nseen; k++)
+			if (seen[k] == l)
+				break;
+		if (k < nseen)
+			continue;
+		if (nseen == cap) {
+			cap = cap ? 2 * cap : 16;
+			seen = xrealloc(seen, cap * sizeof *seen);
+		}
+		seen[nseen++] = l;
+	}
+	if (st->parcel_names) {
+		int ci, cn;
+		size_t r;
+
+		rc = table_read(st->parcel_names, 0, &names, e);
+		if (rc) {
+			free(seen);
+			parcel_set_release(p);
+			return rc;
+		}
+		have_names = 1;
+		ci = table_col(&names, "index");
+		cn = table_col(&names, "name");
+		if (ci < 0 || cn < 0) {
+			sr_fail(e, SR_EFORMAT, "%s: line 1: the parcel names table needs columns 'index' and 'name'",
+				st->parcel_names);
+			goto fail;
+		}
+		/* table entries absent from the image still get (empty) rows */
+		for (r = 0; r < names.nrows; r++) {
+			double x;
+			int na;
+			size_t k;
+
+			if (table_number(&names, r, (size_t)ci, &x, &na, 0, e))
+				goto fail;
+			if (na || x != floor(x) || x < 1 || x > 2147483647.0) {
+				sr_fail(e, SR_EFORMAT, "%s: line %zu, column %d (index): '%s' is not a parcel label (a whole number >= 1)",
+					st->parcel_names, names.line[r], ci + 1, table_cell(&names, r, (size_t)ci));
+				goto fail;
+			}
+			for (k = 0; k < nseen; k++)
+				if (seen[k] == (int32_t)x)
+					break;
+			if (k == nseen) {
+				sr_warnf(e, "%s: parcel %s (index %d) has no voxels in %s", st->parcel_names,
+					 table_cell(&names, r, (size_t)cn), (int)x, st->parcels);
+				if (nseen == cap) {
+					cap = cap ? 2 * cap : 16;
+					seen = xrealloc(seen, cap * sizeof *seen);
+				}
+				seen[nseen++] = (int32_t)x;
+			}
+		}
+	}
+	qsort(seen, nseen, sizeof *seen, cmp_i32);
+	p->n = (int)nseen;
+	p->index = seen;
+	p->name = xcalloc(nseen ? nseen : 1, sizeof *p->name);
+	for (i = 0; i < p->n; i++) {
+		char buf[32];
+		const char *nm = NULL;
+
+		if (have_names) {
+			size_t r;
+			int ci = table_col(&names, "index"), cn = table_col(&names, "name");
+
+			for (r = 0; r < names.nrows; r++)
+				if (atol(table_cell(&names, r, (size_t)ci)) == p->index[i] &&
+				    table_cell(&names, r, (size_t)cn)[0])
+					nm = table_cell(&names, r, (size_t)cn);
+		}
+		snprintf(buf, sizeof buf, "%d", (int)p->index[i]);
+		p->name[i] = xstrdup(nm ? nm : buf);
+	}
+	if (have_names)
+		table_release(&names);
+	if (p->n == 0)
+		sr_warnf(e, "%s: the parcel image has no labelled voxel", st->parcels);
+	return SR_OK;
+fail:
+	table_release(&names);
+	free(seen);
+	parcel_set_release(p);
+	return e->code;
+}
+
+/* ---- rows ---- */
+
+static void add_row(subject_result *r, const char *parcel, const char *split, const char *def,
+		    const char *task, const char *meas, const char *effect, double value,
+		    double nvox, double ncand)
+{
+	response_row *w;
+
+	if (r->nrows == r->cap) {
+		r->cap = r->cap ? 2 * r->cap : 64;
+		r->rows = xrealloc(r->rows, r->cap * sizeof *r->rows);
+	}
+	w = &r->rows[r->nrows++];
+	w->parcel = xstrdup(parcel);
+	w->split = xstrdup(split);
+	w->define_runs = xstrdup(def);
+	w->measure_task = xstrdup(task);
+	w->measure_runs = xstrdup(meas);
+	w->effect = xstrdup(effect);
+	w->value = value;
+	w->n_voxels = nvox;
+	w->n_candidates = ncand;
+}
+
+void subject_result_release(subject_result *r)
+{
+	size_t i;
+
+	if (!r)
+		return;
+	for (i = 0; i < r->nrows; i++) {
+		free(r->rows[i].parcel);
+		free(r->rows[i].split);
+		free(r->rows[i].define_runs);
+		free(r->rows[i].measure_task);
+		free(r->rows[i].measure_runs);
+		free(r->rows[i].effect);
+	}
+	free(r->rows);
+	memset(r, 0, sizeof *r);
+}
+
+sr_status subject_write_rows(const char *path, const char *subject, const response_row *rows,
+			     size_t n, sr_err *e)
+{
+	csvout c;
+	sr_status rc;
+	size_t i;
+
+	rc = csvout_open(&c, path, subject_columns, subject_ncolumns, e);
+	if (rc)
+		return rc;
+	for (i = 0; i < n; i++) {
+		const response_row *w = &rows[i];
+
+		csvout_str(&c, subject);
+		csvout_str(&c, w->parcel);
+		csvout_str(&c, w->split);
+		csvout_str(&c, w->define_runs);
+		csvout_str(&c, w->measure_task);
+		csvout_str(&c, w->measure_runs);
+		csvout_str(&c, w->effect);
+		csvout_num(&c, w->value);
+		csvout_num(&c, w->n_voxels);
+		csvout_num(&c, w->n_candidates);
+		csvout_endrow(&c);
+	}
+	return csvout_commit(&c, e);
+}
+
+/* ---- one task's runs, conditions and contrasts ---- */
+
+typedef struct task_fit {
+	const char *task;
+	bids_run *runs;
+	size_t nruns;
+	char **conds;               /* sorted distinct conditions over the subject's runs */
+	int ncond;
+	const expr *effects;        /* ne effects */
+	int ne;
+	double *C;                  /* ne x ncond weights */
+	unsigned char *missing;     /* ne: names a condition this subject lacks */
+	runfit_result *res;         /* nruns, after fitting */
+	double *tr;
+	char **confpath;
+} task_fit;
+
+static int cmp_str(const void *a, const void *b)
+{
+	return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+static void task_release(task_fit *t)
+{
+	size_t i;
+	int c;
+
+	if (t->res)
+		for (i = 0; i < t->nruns; i++)
+			runfit_result_release(&t->res[i]);
+	free(t->res);
+	for (c = 0; c < t->ncond; c++)
+		free(t->conds[c]);
+	free(t->conds);
+	if (t->confpath)
+		for (i = 0; i < t->nruns; i++)
+			free(t->confpath[i]);
+	free(t->confpath);
+	free(t->C);
+	free(t->missing);
+	free(t->tr);
+	bids_runs_release(t->runs, t->nruns);
+	memset(t, 0, sizeof *t);
+}
+
+/* Finds runs, reads every events file for the condition list, resolves TR, builds contrasts. */
+static sr_status task_prepare(const study *st, const char *label, task_fit *t, sr_err *e)
+{
+	size_t i, cap = 0;
+	int j, ncap = 0;
+	sr_status rc;
+
+	rc = bids_runs(st->bids, label, t->task, &t->runs, &t->nruns, e);
+	if (rc)
+		return rc;
+	if (t->nruns == 0)
+		return sr_fail(e, SR_ESTUDY, "%s: subject %s has no runs of task '%s' under %s",
+			       st->path, label, t->task, st->bids);
+	t->tr = xcalloc(t->nruns, sizeof *t->tr);
+	t->confpath = xcalloc(t->nruns, sizeof *t->confpath);
+	(void)cap;
+	for (i = 0; i < t->nruns; i++) {
+		event_list ev;
+		nii_info info;
+		size_t k;
+
+		if (!t->runs[i].events_exist)
+			return sr_fail(e, SR_EIO, "%s: missing events file for run %s", t->runs[i].events,
+				       t->runs[i].bold);
+		rc = events_read(t->runs[i].events, st->condition_column, &ev, e);
+		if (rc)
+			return rc;
+		for (k = 0; k < ev.n; k++) {
+			int c;
+
+			for (c = 0; c < t->ncond; c++)
+				if (strcmp(t->conds[c], ev.ev[k].condition) == 0)
+					break;
+			if (c < t->ncond)
+				continue;
+			if (t->ncond == ncap) {
+				ncap = ncap ? 2 * ncap : 8;
+				t->conds = xrealloc(t->conds, (size_t)ncap * sizeof *t->conds);
+			}
+			t->conds[t->ncond++] = xstrdup(ev.ev[k].condition);
+		}
+		events_release(&ev);
+		rc = nii_read_info(t->runs[i].bold, &info, e);
+		if (rc)
+			return rc;
+		rc = bids_run_tr(st->bids, &t->runs[i], info.tr, &t->tr[i], e);
+		if (rc)
+			return rc;
+		if (st->nconfounds)
+			t->confpath[i] = bids_confounds_path(&t->runs[i], st->confounds_suffix);
+	}
+	if (t->ncond)
+		qsort(t->conds, (size_t)t->ncond, sizeof *t->conds, cmp_str);
+	t->C = xcalloc((size_t)t->ne * (size_t)(t->ncond ? t->ncond : 1), sizeof *t->C);
+	t->missing = xcalloc((size_t)(t->ne ? t->ne : 1), 1);
+	for (j = 0; j < t->ne; j++) {
+		size_t k;
+
+		for (k = 0; k < t->effects[j].nterms; k++) {
+			int c;
+
+			for (c = 0; c < t->ncond; c++)
+				if (strcmp(t->conds[c], t->effects[j].terms[k].name) == 0)
+					break;
+			if (c == t->ncond) {
+				if (!t->missing[j])
+					sr_warnf(e, "subject %s has no condition '%s' in task '%s'; effect %s is left empty",
+						 label, t->effects[j].terms[k].name, t->task, t->effects[j].text);
+				t->missing[j] = 1;
+				continue;
+			}
+			t->C[(size_t)j * (size_t)t->ncond + (size_t)c] += t->effects[j].terms[k].weight;
+		}
+	}
+	return SR_OK;
+}
+
+static void task_specs(const study *st, const task_fit *t, const unsigned char *mask,
+		       runfit_spec *specs)
+{
+	size_t i;
+
+	for (i = 0; i < t->nruns; i++) {
+		runfit_spec *s = &specs[i];
+
+		memset(s, 0, sizeof *s);
+		s->bold = t->runs[i].bold;
+		s->events = t->runs[i].events;
+		s->condition_column = st->condition_column;
+		s->conditions = (const char *const *)t->conds;
+		s->ncond = t->ncond;
+		s->confounds = t->confpath[i];
+		s->confound_names = (const char *const *)st->confounds;
+		s->nconf = (int)st->nconfounds;
+		s->tr = t->tr[i];
+		s->slice_ref = st->slice_reference;
+		s->drift_cutoff = st->drift_cutoff;
+		s->ar1 = st->ar1;
+		s->C = t->C;
+		s->ncon = t->ne;
+		s->mask = mask;
+	}
+}
+
+/* ---- splits ---- */
+
+typedef struct split {
+	char name[96];     /* table label, e.g. "odd-even:A" */
+	char token[96];    /* file name part, e.g. "odd-even-A" */
+	int ndef, nmeas;
+	int *def, *meas;   /* run positions */
+} split;
+
+static void run_list(const task_fit *t, const int *pos, int n, char *buf, size_t len)
+{
+	size_t used = 0;
+	int i;
+
+	buf[0] = '\0';
+	for (i = 0; i < n && used < len; i++)
+		used += (size_t)snprintf(buf + used, len - used, "%s%s", i ? "+" : "",
+					 t->runs[pos[i]].label);
+}
+
+static void all_runs_list(const task_fit *t, char *buf, size_t len)
+{
+	int *pos = xmalloc_array(t->nruns ? t->nruns : 1, sizeof *pos);
+	size_t i;
+
+	for (i = 0; i < t->nruns; i++)
+		pos[i] = (int)i;
+	run_list(t, pos, (int)t->nruns, buf, len);
+	free(pos);
+}
+
+/* Fixed-effects map of contrast c over the given runs of t. */
+static void ffx_map(const task_fit *t, const int *pos, int n, int c, size_t nvox, double *E,
+		    double *tmap)
+{
+	const double **ef = xmalloc_array((size_t)(n ? n : 1), sizeof *ef);
+	const double **va = xmalloc_array((size_t)(n ? n : 1), sizeof *va);
+	int *df = xmalloc_array((size_t)(n ? n : 1), sizeof *df);
+	int i;
+
+	for (i = 0; i < n; i++) {
+		const glm_out *o = &t->res[pos[i]].out;
+
+		ef[i] = o->effect + (size_t)c * nvox;
+		va[i] = o->var + (size_t)c * nvox;
+		df[i] = o->df;
+	}
+	glm_ffx(nvox, n, ef, va, df, E, NULL, tmap, NULL);
+	free(ef);
+	free(va);
+	free(df);
+}
+
+/* Everything one definition needs: define t, candidates analyzable in all runs used. */
+typedef struct froi_set {
+	double *t;            /* nvox define t */
+	int32_t *froi;        /* nvox: parcel label of chosen voxels, 0 elsewhere */
+	size_t *chosen;       /* concatenated chosen voxels, parcel by parcel */
+	size_t *start, *count, *ncand;   /* per parcel */
+} froi_set;
+
+static void froi_release(froi_set *f)
+{
+	free(f->t);
+	free(f->froi);
+	free(f->chosen);
+	free(f->start);
+	free(f->count);
+	free(f->ncand);
+	memset(f, 0, sizeof *f);
+}
+
+/*
+ * Defines the fROIs of every parcel for one split: candidates are parcel
+ * voxels analyzable in every run used (loc runs dpos/mpos, plus all runs of
+ * an optional measured task), with finite define t; then the selection rule.
+ */
+static void define_frois(const study *st, const task_fit *loc, const int *dpos, int nd,
+			 const int *mpos, int nm, const task_fit *meas, const int32_t *labels,
+			 const parcel_set *ps, size_t nvox, froi_set *f)
+{
+	unsigned char *okall = xmalloc(nvox);
+	size_t *cand = xmalloc_array(nvox ? nvox : 1, sizeof *cand);
+	double *ct = xmalloc_array(nvox ? nvox : 1, sizeof *ct);
+	double *E = xmalloc_array(nvox ? nvox : 1, sizeof *E);
+	size_t v, used = 0;
+	int i, p;
+	enum roi_rule rule = st->select == SELECT_TOP_VOXELS ? ROI_TOP_VOXELS :
+			     st->select == SELECT_MIN_T ? ROI_MIN_T : ROI_TOP_PERCENT;
+
+	memset(f, 0, sizeof *f);
+	f->t = xmalloc_array(nvox, sizeof *f->t);
+	f->froi = xcalloc(nvox, sizeof *f->froi);
+	f->chosen = xmalloc_array(nvox ? nvox : 1, sizeof *f->chosen);
+	f->start = xcalloc((size_t)ps->n + 1, sizeof *f->start);
+	f->count = xcalloc((size_t)ps->n + 1, sizeof *f->count);
+	f->ncand = xcalloc((size_t)ps->n + 1, sizeof *f->ncand);
+	ffx_map(loc, dpos, nd, 0, nvox, E, f->t);
+	if (loc->missing[0])   /* the selection contrast needs a condition this subject lacks */
+		for (v = 0; v < nvox; v++)
+			f->t[v] = NAN;
+	for (v = 0; v < nvox; v++)
+		okall[v] = 1;
+	for (i = 0; i < nd; i++)
+		for (v = 0; v < nvox; v++)
+			okall[v] &= loc->res[dpos[i]].out.ok[v];
+	for (i = 0; i < nm; i++)
+		for (v = 0; v < nvox; v++)
+			okall[v] &= loc->res[mpos[i]].out.ok[v];
+	if (meas)
+		for (i = 0; i < (int)meas->nruns; i++)
+			for (v = 0; v < nvox; v++)
+				okall[v] &= meas->res[i].out.ok[v];
+	for (p = 0; p < ps->n; p++) {
+		size_t n = 0, k;
+
+		for (v = 0; v < nvox; v++) {
+			if (labels[v] != ps->index[p] || !okall[v] || !isfinite(f->t[v]))
+				continue;
+			cand[n] = v;
+			ct[n] = f->t[v];
+			n++;
+		}
+		f->ncand[p] = n;
+		f->start[p] = used;
+		k = roi_select(cand, ct, n, rule, st->select_value, st->top_percent_text, f->chosen + used);
+		f->count[p] = k;
+		for (v = 0; v < k; v++)
+			f->froi[f->chosen[used + v]] = ps->index[p];
+		used += k;
+	}
+	free(okall);
+	free(cand);
+	free(ct);
+	free(E);
+}
+
+/* Mean over the fROI's voxels with a finite value. */
+static double froi_mean(const froi_set *f, int p, const double *E)
+{
+	double s = 0;
+	size_t k, n = 0;
+
+	for (k = 0; k < f->count[p]; k++) {
+		double x = E[f->chosen[f->start[p] + k]];
+
+		if (isfinite(x)) {
+			s += x;
+			n++;
+		}
+	}
+	return n ? s / (double)n : NAN;
+}
+
+/* Writes the define t map and fROI labels of one split under dir/maps/. */
+static sr_status write_maps(const char *dir, const char *token, const nii_grid *g, size_t nvox,
+			    const froi_set *f, sr_err *e)
+{
+	char path[4096 + 256];
+	float *tf = xmalloc_array(nvox, sizeof *tf);
+	size_t v;
+	sr_status rc;
+
+	for (v = 0; v < nvox; v++)
+		tf[v] = isfinite(f->t[v]) ? (float)f->t[v] : NAN;
+	snprintf(path, sizeof path, "%s/maps/localizer-t_%s.nii.gz", dir, token);
+	rc = nii_write_float(path, g, tf, 1, 0, "splitroi localizer t", e);
+	free(tf);
+	if (rc)
+		return rc;
+	snprintf(path, sizeof path, "%s/maps/froi_%s.nii.gz", dir, token);
+	return nii_write_labels(path, g, f->froi, "splitroi fROI labels", e);
+}
+
+static double now_seconds(void)
+{
+	struct timespec ts;
+
+	clock_gettime(CLOCK_MONOTONIC, &ts);
+	return (double)ts.tv_sec + 1e-9 * (double)ts.tv_nsec;
+}
+
+static void progress(const subject_ctx *ctx, const char *label, const char *stage)
+{
+	if (ctx->progress)
+		ctx->progress(ctx->progress_ctx, label, stage);
+}
+
+/* Warns once per run and effect that is not estimable there. */
+static void warn_estimability(const task_fit *t, sr_err *e)
+{
+	size_t r;
+	int j;
+
+	for (r = 0; r < t->nruns; r++)
+		for (j = 0; j < t->ne; j++)
+			if (!t->missing[j] && !t->res[r].out.estimable[j])
+				sr_warnf(e, "%s: effect %s is not estimable in this run (a condition it needs has no events, or the design is collinear); the run is left out of it",
+					 t->runs[r].bold, t->effects[j].text);
+}
+
+static jdoc *inputs_record(const task_fit *t)
+{
+	jdoc *a = jdoc_array();
+	size_t r;
+
+	for (r = 0; r < t->nruns; r++) {
+		jdoc *o = jdoc_object();
+		struct stat sb;
+		const nii_info *in = &t->res[r].info;
+		jdoc *dims = jdoc_array();
+
+		jdoc_set_str(o, "bold", t->runs[r].bold);
+		jdoc_set_int(o, "bytes", stat(t->runs[r].bold, &sb) == 0 ? (long long)sb.st_size : -1);
+		jdoc_push_num(dims, (double)in->grid.nx);
+		jdoc_push_num(dims, (double)in->grid.ny);
+		jdoc_push_num(dims, (double)in->grid.nz);
+		jdoc_push_num(dims, (double)in->nt);
+		jdoc_set(o, "dims", dims);
+		jdoc_set_num(o, "tr", t->tr[r]);
+		jdoc_set_str(o, "events", t->runs[r].events);
+		jdoc_set_str(o, "confounds", t->confpath[r]);
+		jdoc_set_str(o, "run", t->runs[r].label);
+		jdoc_set_int(o, "rank", t->res[r].d.p ? t->res[r].d.p : 0);
+		jdoc_set_int(o, "df", t->res[r].out.df);
+		jdoc_push(a, o);
+	}
+	return a;
+}
+
+sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
+			  sr_err *e)
+{
+	const study *st = ctx->st;
+	const parcel_set *ps = ctx->parcels;
+	task_fit *tasks;
+	size_t ntasks = 1 + st->nmeasures, i, nvox = 0, nruns_all = 0;
+	expr *loc_effects;
+	runfit_spec *specs = NULL;
+	runfit_result *results = NULL;
+	sr_err *errs = NULL;
+	int32_t *labels = NULL, *labels_owned = NULL;
+	nii_grid grid;
+	char dir[2048], path[4096], buf[1024];
+	double t0 = now_seconds();
+	sr_status rc = SR_OK;
+	split *splits = NULL;
+	int nsplits = 0, s, p, j;
+	jdoc *rec = NULL;
+
+	memset(res, 0, sizeof *res);
+	if (strlen(st->out) + strlen(label) + 8 > sizeof dir)
+		return sr_fail(e, SR_EINVAL, "%s: the output folder name is too long", st->out);
+	snprintf(dir, sizeof dir, "%s/sub-%s", st->out, label);
+	/* the localizer's effect list: the selection contrast first, then the effects */
+	loc_effects = xcalloc(st->nloc_effects + 1, sizeof *loc_effects);
+	loc_effects[0] = st->contrast;
+	for (i = 0; i < st->nloc_effects; i++)
+		loc_effects[i + 1] = st->loc_effects[i];
+	tasks = xcalloc(ntasks, sizeof *tasks);
+	tasks[0].task = st->loc_task;
+	tasks[0].effects = loc_effects;
+	tasks[0].ne = (int)st->nloc_effects + 1;
+	for (i = 0; i < st->nmeasures; i++) {
+		tasks[i + 1].task = st->measures[i].task;
+		tasks[i + 1].effects = st->measures[i].effects;
+		tasks[i + 1].ne = (int)st->measures[i].neffects;
+	}
+	progress(ctx, label, "finding runs");
+	for (i = 0; i < ntasks; i++) {
+		rc = task_prepare(st, label, &tasks[i], e);
+		if (rc)
+			goto out;
+		nruns_all += tasks[i].nruns;
+	}
+	/* fit every run of every task once, in parallel */
+	specs = xcalloc(nruns_all, sizeof *specs);
+	results = xcalloc(nruns_all, sizeof *results);
+	errs = xcalloc(nruns_all, sizeof *errs);
+	{
+		size_t at = 0;
+
+		for (i = 0; i < ntasks; i++) {
+			task_specs(st, &tasks[i], ctx->mask, specs + at);
+			at += tasks[i].nruns;
+		}
+	}
+	for (i = 0; i < nruns_all; i++)
+		sr_err_init(&errs[i], e->warn, e->warn_ctx);
+	snprintf(buf, sizeof buf, "fitting %zu runs", nruns_all);
+	progress(ctx, label, buf);
+	rc = runfit_many(specs, (int)nruns_all, ctx->nthreads, results, errs);
+	if (rc) {
+		for (i = 0; i < nruns_all; i++)
+			if (errs[i].code) {
+				sr_fail(e, errs[i].code, "%s", errs[i].msg);
+				break;
+			}
+		goto out;
+	}
+	{
+		size_t at = 0;
+
+		for (i = 0; i < ntasks; i++) {
+			tasks[i].res = xcalloc(tasks[i].nruns, sizeof *tasks[i].res);
+			memcpy(tasks[i].res, results + at, tasks[i].nruns * sizeof *results);
+			at += tasks[i].nruns;
+		}
+		free(results);
+		results = NULL;
+	}
+	/* one grid for all of the subject's runs */
+	grid = tasks[0].res[0].info.grid;
+	nvox = nii_nvox(&grid);
+	for (i = 0; i < ntasks; i++) {
+		size_t r;
+
+		for (r = 0; r < tasks[i].nruns; r++)
+			if (!nii_same_grid(&grid, &tasks[i].res[r].info.grid, 1e-3, buf, sizeof buf)) {
+				rc = sr_fail(e, SR_EDIM, "%s: not on the grid of %s: %s", tasks[i].runs[r].bold,
+					     tasks[0].runs[0].bold, buf);
+				goto out;
+			}
+		warn_estimability(&tasks[i], e);
+	}
+	if (ctx->mask_grid && !nii_same_grid(&grid, ctx->mask_grid, 1e-3, buf, sizeof buf)) {
+		rc = sr_fail(e, SR_EDIM, "%s: the mask is not on the data grid of %s: %s", st->mask,
+			     tasks[0].runs[0].bold, buf);
+		goto out;
+	}
+	if (nii_same_grid(&grid, &ps->grid, 1e-3, buf, sizeof buf)) {
+		labels = ps->labels;
+	} else if (st->resample_parcels) {
+		int64_t sn[3] = { ps->grid.nx, ps->grid.ny, ps->grid.nz };
+		int64_t tn[3] = { grid.nx, grid.ny, grid.nz };
+
+		labels_owned = xmalloc_array(nvox, sizeof *labels_owned);
+		if (resample_nearest(ps->labels, sn, ps->grid.affine, labels_owned, tn, grid.affine)) {
+			rc = sr_fail(e, SR_EDIM, "%s: the parcel grid's affine is singular", st->parcels);
+			goto out;
+		}
+		labels = labels_owned;
+	} else {
+		rc = sr_fail(e, SR_EDIM,
+			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
+			     st->parcels, tasks[0].runs[0].bold, buf);
+		goto out;
+	}
+
+	/* the splits of the localizer runs (METHODS.md section 6) */
+	{
+		int nl = (int)tasks[0].nruns;
+
+		res->nloc_runs = nl;
+		if (nl < 2) {
+			sr_warnf(e, "subject %s has %d run of task '%s': no cross-validated rows; measured-task rows are still made",
+				 label, nl, st->loc_task);
+		} else if (st->split == SPLIT_ODD_EVEN) {
+			nsplits = 2;
+			splits = xcalloc(2, sizeof *splits);
+			for (s = 0; s < 2; s++) {
+				int r, nodd = (nl + 1) / 2, neven = nl / 2;
+
+				snprintf(splits[s].name, sizeof splits[s].name, "odd-even:%c", 'A' + s);
+				snprintf(splits[s].token, sizeof splits[s].token, "odd-even-%c", 'A' + s);
+				splits[s].def = xcalloc((size_t)nl, sizeof(int));
+				splits[s].meas = xcalloc((size_t)nl, sizeof(int));
+				for (r = 0; r < nl; r++) {
+					int odd = (r % 2) == 0;   /* 1st, 3rd, ... in run order */
+
+					if (odd == (s == 0))
+						splits[s].def[splits[s].ndef++] = r;
+					else
+						splits[s].meas[splits[s].nmeas++] = r;
+				}
+				(void)nodd;
+				(void)neven;
+			}
+		} else {
+			nsplits = nl;
+			splits = xcalloc((size_t)nl, sizeof *splits);
+			for (s = 0; s < nl; s++) {
+				int r;
+
+				snprintf(splits[s].name, sizeof splits[s].name, "leave-one-out:%s",
+					 tasks[0].runs[s].label);
+				snprintf(splits[s].token, sizeof splits[s].token, "leave-one-out-%s",
+					 tasks[0].runs[s].label);
+				splits[s].def = xcalloc((size_t)nl, sizeof(int));
+				splits[s].meas = xcalloc(1, sizeof(int));
+				for (r = 0; r < nl; r++)
+					if (r != s)
+						splits[s].def[splits[s].ndef++] = r;
+				splits[s].meas[splits[s].nmeas++] = s;
+			}
+		}
+	}
+	progress(ctx, label, "defining fROIs");
+	{
+		const task_fit *loc = &tasks[0];
+		int ne = loc->ne;
+		/* per split, parcel and effect: value, n_voxels, n_candidates for the :mean rows */
+		size_t cells = (size_t)(nsplits ? nsplits : 1) * (size_t)(ps->n ? ps->n : 1) * (size_t)ne;
+		double *val = xcalloc(cells, sizeof *val);
+		double *nv = xcalloc(cells, sizeof *nv);
+		double *nc = xcalloc(cells, sizeof *nc);
+		double *E = xmalloc_array(nvox, sizeof *E);
+		char def[1024], meas[1024], all[1024];
+
+		all_runs_list(loc, all, sizeof all);
+		for (s = 0; s < nsplits; s++) {
+			froi_set f;
+
+			define_frois(st, loc, splits[s].def, splits[s].ndef, splits[s].meas, splits[s].nmeas,
+				     NULL, labels, ps, nvox, &f);
+			run_list(loc, splits[s].def, splits[s].ndef, def, sizeof def);
+			run_list(loc, splits[s].meas, splits[s].nmeas, meas, sizeof meas);
+			/* effect 0 is the selection contrast; report effects 1..ne-1 */
+			for (j = 1; j < ne; j++) {
+				ffx_map(loc, splits[s].meas, splits[s].nmeas, j, nvox, E, NULL);
+				for (p = 0; p < ps->n; p++) {
+					size_t cell = ((size_t)s * (size_t)ps->n + (size_t)p) * (size_t)ne + (size_t)j;
+					double x = loc->missing[j] ? NAN : froi_mean(&f, p, E);
+
+					val[cell] = x;
+					nv[cell] = (double)f.count[p];
+					nc[cell] = (double)f.ncand[p];
+				}
+			}
+			for (p = 0; p < ps->n; p++) {
+				if (f.ncand[p] == 0)
+					sr_warnf(e, "subject %s, parcel %s, split %s: no candidate voxels; the fROI is empty",
+						 label, ps->name[p], splits[s].name);
+				else if (f.count[p] == 0)
+					sr_warnf(e, "subject %s, parcel %s, split %s: no voxel passes the selection; the fROI is empty",
+						 label, ps->name[p], splits[s].name);
+				for (j = 1; j < ne; j++) {
+					size_t cell = ((size_t)s * (size_t)ps->n + (size_t)p) * (size_t)ne + (size_t)j;
+
+					add_row(res, ps->name[p], splits[s].name, def, loc->task, meas,
+						loc->effects[j].text, val[cell], nv[cell], nc[cell]);
+				}
+			}
+			rc = write_maps(dir, splits[s].token, &grid, nvox, &f, e);
+			froi_release(&f);
+			if (rc)
+				break;
+		}
+		if (!rc && nsplits > 0) {
+			const char *kind = st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean";
+
+			for (p = 0; p < ps->n; p++) {
+				for (j = 1; j < ne; j++) {
+					double sv = 0, sn = 0, sc = 0;
+					int bad = 0;
+
+					for (s = 0; s < nsplits; s++) {
+						size_t cell = ((size_t)s * (size_t)ps->n + (size_t)p) * (size_t)ne + (size_t)j;
+
+						if (!isfinite(val[cell]))
+							bad = 1;
+						sv += val[cell];
+						sn += nv[cell];
+						sc += nc[cell];
+					}
+					add_row(res, ps->name[p], kind, all, loc->task, all, loc->effects[j].text,
+						bad ? NAN : sv / nsplits, sn / nsplits, sc / nsplits);
+				}
+			}
+		}
+		/* measured tasks: fROIs from all localizer runs (and a map of that definition) */
+		for (i = 1; !rc && i < ntasks; i++) {
+			const task_fit *mt = &tasks[i];
+			int *lpos = xmalloc_array(loc->nruns, sizeof *lpos);
+			int *mpos = xmalloc_array(mt->nruns, sizeof *mpos);
+			froi_set f;
+			size_t r;
+
+			for (r = 0; r < loc->nruns; r++)
+				lpos[r] = (int)r;
+			for (r = 0; r < mt->nruns; r++)
+				mpos[r] = (int)r;
+			define_frois(st, loc, lpos, (int)loc->nruns, NULL, 0, mt, labels, ps, nvox, &f);
+			all_runs_list(mt, meas, sizeof meas);
+			for (p = 0; p < ps->n; p++) {
+				if (f.count[p] == 0)
+					sr_warnf(e, "subject %s, parcel %s, task %s: the fROI defined on all localizer runs is empty",
+						 label, ps->name[p], mt->task);
+			}
+			for (j = 0; j < mt->ne; j++) {
+				ffx_map(mt, mpos, (int)mt->nruns, j, nvox, E, NULL);
+				for (p = 0; p < ps->n; p++)
+					add_row(res, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
+						mt->missing[j] ? NAN : froi_mean(&f, p, E), (double)f.count[p],
+						(double)f.ncand[p]);
+			}
+			snprintf(buf, sizeof buf, "all-%s", mt->task);
+			rc = write_maps(dir, buf, &grid, nvox, &f, e);
+			froi_release(&f);
+			free(lpos);
+			free(mpos);
+		}
+		free(val);
+		free(nv);
+		free(nc);
+		free(E);
+		if (rc)
+			goto out;
+	}
+	progress(ctx, label, "writing tables");
+	snprintf(path, sizeof path, "%s/responses.csv", dir);
+	rc = subject_write_rows(path, label, res->rows, res->nrows, e);
+	if (rc)
+		goto out;
+	res->seconds = now_seconds() - t0;
+	rec = jdoc_object();
+	jdoc_set_str(rec, "subject", label);
+	jdoc_set_str(rec, "splitroi_version", SPLITROI_VERSION);
+	jdoc_library_versions(buf, sizeof buf);
+	jdoc_set_str(rec, "libraries", buf);
+	jdoc_set_str(rec, "study_file", st->path);
+	jdoc_set_str(rec, "study_text", st->text);
+	{
+		jdoc *in = jdoc_object();
+
+		for (i = 0; i < ntasks; i++)
+			jdoc_set(in, tasks[i].task, inputs_record(&tasks[i]));
+		jdoc_set(rec, "inputs", in);
+	}
+	jdoc_set_str(rec, "parcels", st->parcels);
+	jdoc_set_int(rec, "rows", (long long)res->nrows);
+	jdoc_set_num(rec, "seconds", res->seconds);
+	snprintf(path, sizeof path, "%s/run.json", dir);
+	rc = jdoc_write(rec, path, e);
+out:
+	jdoc_free(rec);
+	if (results)
+		for (i = 0; i < nruns_all; i++)
+			runfit_result_release(&results[i]);
+	free(results);
+	free(specs);
+	free(errs);
+	for (s = 0; s < nsplits; s++) {
+		free(splits[s].def);
+		free(splits[s].meas);
+	}
+	free(splits);
+	for (i = 0; i < ntasks; i++)
+		task_release(&tasks[i]);
+	free(tasks);
+	free(loc_effects);
+	free(labels_owned);
+	if (rc) {
+		snprintf(path, sizeof path, "%s/run.json", dir);
+		remove(path);
+	}
+	return rc;
+}

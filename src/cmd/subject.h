@@ -1,0 +1,73 @@
+/* subject.h - one subject's analysis: fits, splits, fROIs, responses and maps (METHODS.md 6-8, 10). */
+#ifndef SR_SUBJECT_H
+#define SR_SUBJECT_H
+
+#include <stddef.h>
+#include <stdint.h>
+
+#include "../core/err.h"
+#include "../io/nii.h"
+#include "../io/study.h"
+
+/* The study's parcels as read from file, with their names. Read once, shared read-only. */
+typedef struct parcel_set {
+	nii_grid grid;        /* the parcel image's own grid */
+	int32_t *labels;      /* nvox labels on that grid */
+	size_t nvox;
+	int n;                /* parcels, ascending index */
+	int32_t *index;
+	char **name;          /* table name, else the integer label */
+} parcel_set;
+
+/* One row of responses.csv (METHODS.md section 10). */
+typedef struct response_row {
+	char *parcel, *split, *define_runs, *measure_task, *measure_runs, *effect;
+	double value;         /* NaN = empty */
+	double n_voxels;      /* whole for single splits, a mean for ":mean" rows */
+	double n_candidates;
+} response_row;
+
+/* What a subject produced (rows in table order) and a few facts for the summary. */
+typedef struct subject_result {
+	response_row *rows;
+	size_t nrows, cap;
+	int nloc_runs;
+	double seconds;
+} subject_result;
+
+/* Progress callback: stage text such as "fitting 3 runs". */
+typedef void (*subject_progress_fn)(void *ctx, const char *subject, const char *stage);
+
+typedef struct subject_ctx {
+	const study *st;
+	const parcel_set *parcels;
+	const unsigned char *mask;     /* on the data grid, or NULL */
+	const nii_grid *mask_grid;
+	int nthreads;                  /* threads for fitting this subject's runs */
+	subject_progress_fn progress;
+	void *progress_ctx;
+} subject_ctx;
+
+/*
+ * Runs the whole analysis of one subject and writes OUT/sub-<label>/:
+ * responses.csv, maps/ (localizer t and fROI labels per split) and run.json
+ * (written last: its presence marks the subject complete). Warnings go
+ * through e->warn. On failure nothing that looks complete is left.
+ */
+sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
+			  sr_err *e);
+void subject_result_release(subject_result *r);
+
+/* Writes rows as a responses table (header + rows) atomically. */
+sr_status subject_write_rows(const char *path, const char *subject, const response_row *rows,
+			     size_t n, sr_err *e);
+
+/* The columns of responses.csv, in order. */
+extern const char *const subject_columns[];
+extern const size_t subject_ncolumns;
+
+/* Reads the parcels image and its names table (study [parcels]). */
+sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e);
+void parcel_set_release(parcel_set *p);
+
+#endif

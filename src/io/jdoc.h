@@ -1,0 +1,30 @@
+/* jdoc.h - a small JSON document builder over jansson, for run records and sidecars. */
+#ifndef SR_JDOC_H
+#define SR_JDOC_H
+
+#include <stddef.h>
+
+#include "../core/err.h"
+
+/* An opaque JSON value (object or array). Owned by whoever created it unless handed to a parent. */
+typedef struct jdoc jdoc;
+
+jdoc *jdoc_object(void);
+jdoc *jdoc_array(void);
+/* Setters on an object; the child passed to jdoc_set is owned by the parent afterwards. */
+void jdoc_set_str(jdoc *o, const char *key, const char *v);   /* NULL writes null */
+void jdoc_set_num(jdoc *o, const char *key, double v);        /* non-finite writes null */
+void jdoc_set_int(jdoc *o, const char *key, long long v);
+void jdoc_set_bool(jdoc *o, const char *key, int v);
+void jdoc_set(jdoc *o, const char *key, jdoc *child);
+/* Appenders on an array. */
+void jdoc_push_str(jdoc *a, const char *v);
+void jdoc_push_num(jdoc *a, double v);
+void jdoc_push(jdoc *a, jdoc *child);
+/* Writes the document, indented, atomically. */
+sr_status jdoc_write(const jdoc *d, const char *path, sr_err *e);
+void jdoc_free(jdoc *d);
+/* Versions of the libraries behind the io layer, as "name version; ..." text, into buf. */
+void jdoc_library_versions(char *buf, size_t n);
+
+#endif
