@@ -22,7 +22,7 @@ DEFAULTS = dict(
     one_run_subject=None, absent_condition=None, int16_subjects=(), no_sidecar_subjects=(),
     inherit_subjects=(), sessions=False, resample=False, mask=False, impulses=False,
     condition_column=None, loc_effects='melody, scrambled, melody - scrambled',
-    mem_effects='familiar, novel, familiar - novel', measure=True, names=True, gz=True)
+    mem_effects='familiar, novel, familiar - novel', measure=True, names=True, gz=True, signal=True)
 
 PRESETS = {
     # odd-even with ties, an empty parcel, confounds with n/a, int16 storage, a measured task
@@ -181,10 +181,12 @@ def make_study(outdir, **opts):
         p2 = np.flatnonzero(labf == 2)
         sel[rng.choice(p1, size=p1.size // 5, replace=False)] = 1.5
         sel[rng.choice(p2, size=p2.size // 3, replace=False)] = 0.4
+        if not o['signal']:
+            sel[:] = 0.0                # pure noise: any response found is circularity
         dup_src = p1[7]
         if o['ties']:
             sel[dup_src] = 5.0          # the copied voxel has the top t, so its 15 copies straddle k
-        amp_loc = {'melody': 0.4 + sel + 0.2 * rng.standard_normal(V), 'scrambled': 0.4 + 0.1 * sel}
+        amp_loc = {'melody': 0.4 + sel + 0.2 * rng.standard_normal(V) * o['signal'], 'scrambled': 0.4 + 0.1 * sel}
         amp_mem = {'familiar': 0.2 + 0.8 * sel, 'novel': 0.2 + 0.3 * sel}
         nloc = 1 if o['one_run_subject'] == sub else o['loc_runs']
         runs = [('tones', r + 1) for r in range(nloc)] + [('memory', r + 1) for r in range(o['mem_runs'] if o['measure'] else 0)]

@@ -161,4 +161,37 @@ rows = [{'subject': '1', 'parcel': 'p', 'split': 'all', 'measure_task': 't', 'ef
 g = srref.group(rows)[0]
 check(g['n'] == 1 and math.isnan(g['sd']) and math.isnan(g['p']), 'group with n = 1 leaves sd and p empty')
 
+
+# Circular analysis (Kriegeskorte et al. 2009; Vul et al. 2009): on pure noise, selecting and measuring
+# on the same runs gives a clearly positive value, measuring on the held-out runs a value near 0.
+import tempfile  # noqa: E402
+import make_study  # noqa: E402
+with tempfile.TemporaryDirectory() as tmp:
+    ini = make_study.make_study(tmp, seed=21, signal=False, subjects=('01', '02', '03'), measure=False)
+    st = srref.read_study(ini)
+    cn, cw = srref.parse_effect(st['contrast'])
+    same, held = [], []
+    for sub in ('01', '02', '03'):
+        runs, conds = srref.load_task(st, sub, 'tones', 'trial_type', None)
+        srref.fit_task(st, runs, conds, [(cn, cw)])
+        lab, _ = srref.load_parcels(st, runs[0]['img'])
+        for d, m in ((runs[0::2], runs[1::2]), (runs[1::2], runs[0::2])):
+            _, t = srref.fixed(d, cn)
+            for p in (1, 2, 3):
+                roi = srref.select(st, np.flatnonzero(lab == p), t)
+                same.append(srref.roi_value(d, cn, roi))
+                held.append(srref.roi_value(m, cn, roi))
+    ms, mh, se = np.mean(same), np.mean(held), np.std(held, ddof=1) / math.sqrt(len(held))
+    check(ms > 0.1 and ms > 5 * se, 'circular: same-runs value on noise clearly positive (%.3f)' % ms)
+    check(abs(mh) < 3 * se + 1e-3, 'held-out value on noise near 0 (%.3f, sem %.3f)' % (mh, se))
+    # and with signal the selective parcel stands out in held-out runs
+    ini = make_study.make_study(os.path.join(tmp, 's'), seed=22, measure=False)
+    rows = [r for r in srref.analyze(ini) if r['split'] == 'odd-even:mean' and r['effect'] == 'melody-scrambled']
+    v = {(r['subject'], r['parcel']): r['value'] for r in rows}
+    check(all(v[(s, 'left_core')] > v[(s, '3')] + 0.3 for s in ('01', '02')),
+          'held-out melody-scrambled larger in the selective parcel than in the flat one')
+    check(all(math.isnan(v[(s, 'top_slab')]) for s in ('01', '02')) and
+          all(r['n_voxels'] == 0 for r in rows if r['parcel'] == 'top_slab'),
+          'a parcel in zero background has no candidates: empty value, n_voxels 0')
+
 sys.exit(1 if failed else 0)
