@@ -51,14 +51,10 @@ def _affine(vox=3.0, origin=(-15.0, -15.0, -12.0)):
 
 def _save(data, path, TR, int16=False, tr_in_header=True, tr_ms=False):
     A = _affine()
+    img = nib.Nifti1Image(data.astype(np.float32), A)
     if int16:
-        slope, inter = 0.05, 100.0
-        raw = np.rint((data - inter) / slope)
-        assert raw.min() > -32768 and raw.max() < 32767
-        img = nib.Nifti1Image(raw.astype(np.int16), A)
-        img.header.set_slope_inter(slope, inter)
-    else:
-        img = nib.Nifti1Image(data.astype(np.float32), A)
+        # nibabel picks scl_slope/scl_inter for the int16 range; readers must apply them
+        img.set_data_dtype(np.int16)
     img.header.set_qform(A, code=1)
     img.header.set_sform(A, code=1)
     if data.ndim == 4:
@@ -91,7 +87,10 @@ def _loc_events(rng, run, impulses, T, TR):
         cond = 'melody' if k % 2 == 0 else 'scrambled'
         if impulses:
             for j in range(4):
-                ev.append((round(t + j * 3.3 + rng.uniform(0, 0.5), 3), 0.0, cond))
+                on = round(t + j * 3.3 + rng.uniform(0, 0.5), 3)
+                if abs(on / 0.05 - round(on / 0.05)) < 1e-6:
+                    on += 0.013     # keep impulses off bin edges, where floor(onset/dt) rounds either way
+                ev.append((on, 0.0, cond))
         else:
             ev.append((round(t, 3), 16.0, cond))
         t += 24.0
@@ -168,12 +167,13 @@ def make_study(outdir, **opts):
     if o['empty_parcel']:
         brain &= np.repeat(np.arange(nz), nx * ny) != nz - 1   # top slice is zero background
     ext = '.nii.gz' if o['gz'] else '.nii'
-    if o['inherit_subjects']:
-        with open(os.path.join(bids, 'task-tones_bold.json'), 'w') as f:
-            json.dump({'RepetitionTime': TR, 'TaskName': 'tones'}, f)
-        with open(os.path.join(bids, 'task-memory_bold.json'), 'w') as f:
-            json.dump({'RepetitionTime': mTR, 'TaskName': 'memory'}, f)
     for sub in o['subjects']:
+        if sub in o['inherit_subjects']:
+            # subject-level sidecars without run entities: inherited by every run of the task
+            os.makedirs(os.path.join(bids, 'sub-' + sub), exist_ok=True)
+            for task, tr in (('tones', TR), ('memory', mTR)):
+                with open(os.path.join(bids, 'sub-' + sub, 'sub-%s_task-%s_bold.json' % (sub, task)), 'w') as f:
+                    json.dump({'RepetitionTime': tr, 'TaskName': task}, f)
         # voxel response profile: a selective core in parcel 1, weak selectivity in parcel 2
         base = 800 + 400 * rng.uniform(size=V)
         sel = np.zeros(V)

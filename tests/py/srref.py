@@ -218,7 +218,9 @@ def header_tr(img):
 def load_bold(path):
     img = nib.load(path)
     raw = np.asanyarray(img.dataobj.get_unscaled()).astype(np.float64)
-    h = img.header
+    # nibabel blanks scl_slope/scl_inter in the loaded header; read the stored fields
+    with nib.openers.ImageOpener(path) as f:
+        h = img.header_class.from_fileobj(f)
     slope = float(h['scl_slope'])
     inter = float(h['scl_inter'])
     if slope != 0 and np.isfinite(slope):

@@ -193,5 +193,35 @@ with tempfile.TemporaryDirectory() as tmp:
     check(all(math.isnan(v[(s, 'top_slab')]) for s in ('01', '02')) and
           all(r['n_voxels'] == 0 for r in rows if r['parcel'] == 'top_slab'),
           'a parcel in zero background has no candidates: empty value, n_voxels 0')
+    # readers: int16 with scl_slope/scl_inter equals nibabel's scaled read; TR from header units and
+    # from an inherited sidecar (BIDS inheritance rule)
+    import nibabel as nib  # noqa: E402
+    ini = make_study.make_study(os.path.join(tmp, 'e'), **make_study.PRESETS['edge'])
+    ini2 = make_study.make_study(os.path.join(tmp, 'b'), **make_study.PRESETS['basic'])
+    f = os.path.join(tmp, 'b', 'data', 'sub-02', 'func', 'sub-02_task-tones_run-01_bold.nii.gz')
+    img, d = srref.load_bold(f)
+    ref = nib.load(f).get_fdata()
+    check(img.get_data_dtype() == np.int16 and np.array_equal(d, ref.reshape(-1, ref.shape[3], order='F'))
+          and not np.array_equal(d, np.asanyarray(img.dataobj.get_unscaled()).reshape(d.shape, order='F')),
+          'int16 data with scl_slope/scl_inter read as nibabel scales them')
+    st = srref.read_study(ini)
+    r1 = srref.find_runs(st, '01', 'tones')
+    r2 = srref.find_runs(st, '02', 'memory')
+    check(srref.sidecar_tr(st, r1[0]) is None and abs(srref.header_tr(nib.load(r1[0]['path'])) - 2.0) < 1e-12,
+          'TR from pixdim[4] in ms when there is no sidecar')
+    check(srref.header_tr(nib.load(r2[0]['path'])) is None and srref.sidecar_tr(st, r2[0]) == 1.5,
+          'TR from the inherited task-memory_bold.json when pixdim[4] is 0')
+    check([r['label'] for r in r1] == ['1', '2', '3'], 'run labels are the run indices')
+    # nearest-neighbour parcels: the 1.5 mm grid (shifted 0.3 mm) maps back onto the 3 mm labels
+    ini = make_study.make_study(os.path.join(tmp, 's'), **make_study.PRESETS['sessions'])
+    st = srref.read_study(ini)
+    runs = srref.find_runs(st, '02', 'tones')
+    lab, names = srref.load_parcels(st, nib.load(runs[0]['path']))
+    want = make_study._parcels((10, 10, 8), True).reshape(-1, order='F')
+    check(np.array_equal(lab, want), 'nearest-neighbour resampling recovers the parcels on the data grid')
+    check([os.path.basename(r['path'])[:19] for r in runs] == ['sub-02_ses-1_task-t'] * 2 + ['sub-02_ses-2_task-t'] * 2
+          and [r['label'] for r in runs] == ['1', '2', '3', '4'], 'runs across sessions ordered by run index')
+    m = srref.find_runs(st, '02', 'memory')
+    check([r['label'] for r in m] == ['1', '2'], 'runs without an index labelled by position')
 
 sys.exit(1 if failed else 0)
