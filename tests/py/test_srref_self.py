@@ -213,7 +213,7 @@ with tempfile.TemporaryDirectory() as tmp:
           'TR from the inherited task-memory_bold.json when pixdim[4] is 0')
     check([r['label'] for r in r1] == ['1', '2', '3'], 'run labels are the run indices')
     # nearest-neighbour parcels: the 1.5 mm grid (shifted 0.3 mm) maps back onto the 3 mm labels
-    ini = make_study.make_study(os.path.join(tmp, 's'), **make_study.PRESETS['sessions'])
+    ini = make_study.make_study(os.path.join(tmp, 'ses'), **make_study.PRESETS['sessions'])
     st = srref.read_study(ini)
     runs = srref.find_runs(st, '02', 'tones')
     lab, names = srref.load_parcels(st, nib.load(runs[0]['path']))
