@@ -656,3 +656,18 @@ def group(rows):
         for g, q in zip(gs, bh([g['p'] for g in gs])):
             g['q_fdr'] = float(q)
     return out
+
+
+if __name__ == '__main__':
+    # srref.py STUDY.ini [group]: the reference table on stdout, for debugging by hand
+    import csv
+    import sys
+    rows = analyze(sys.argv[1])
+    if len(sys.argv) > 2 and sys.argv[2] == 'group':
+        rows = group(rows)
+    w = csv.writer(sys.stdout, lineterminator='\n')
+    cols = list(rows[0].keys()) if rows else []
+    w.writerow(cols)
+    for r in rows:
+        w.writerow(['' if isinstance(r[c], float) and math.isnan(r[c]) else
+                    ('%.9g' % r[c] if isinstance(r[c], float) else r[c]) for c in cols])

@@ -77,7 +77,8 @@ def compare_rows(tag, got, ref):
             g = float('inf')
         w = float(rk[k]['value'])
         if math.isnan(w) or math.isnan(g):
-            bad = math.isnan(w) != math.isnan(g)
+            # missing values are empty fields (METHODS.md section 10), never "nan"
+            bad = gk[k]['value'] != '' if math.isnan(w) else True
             err = float('inf') if bad else 0.0
         else:
             err = abs(g - w) / max(abs(w), ABS / REL)
@@ -109,7 +110,7 @@ def compare_group(tag, path, ref_rows):
             except ValueError:
                 g = float('inf')
             if math.isnan(w) or math.isnan(g):
-                err = float('inf') if math.isnan(w) != math.isnan(g) else 0.0
+                err = float('inf') if (gk[k].get(col) != '' if math.isnan(w) else True) else 0.0
             else:
                 err = abs(g - w) / max(abs(w), ABS / REL)
             if err > REL:
