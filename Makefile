@@ -27,6 +27,9 @@ LIB_SRC := $(sort $(wildcard src/core/*.c src/io/*.c src/cmd/*.c))
 LIB_OBJ := $(LIB_SRC:%.c=$(BUILD)/%.o)
 TEST_SRC := $(sort $(wildcard tests/unit/test_*.c))
 TEST_BIN := $(TEST_SRC:tests/unit/%.c=$(BUILD)/tests/%)
+# Helper programs the Python and command-line tests drive (tests/tools/*.c).
+TOOL_SRC := $(sort $(wildcard tests/tools/*.c))
+TOOL_BIN := $(TOOL_SRC:tests/tools/%.c=$(BUILD)/tests/tools/%)
 
 .PHONY: all deps check check-asan check-valgrind test demo bench install uninstall clean
 all: $(BUILD)/splitroi
@@ -46,12 +49,16 @@ $(BUILD)/tests/%: tests/unit/%.c tests/unit/testlib.h $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
 
+$(BUILD)/tests/tools/%: tests/tools/%.c $(BUILD)/libsplitroi.a
+	@mkdir -p $(dir $@)
+	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
+
 # Installs the Debian packages the build and tests need (only those missing).
 deps:
 	@bash tools/deps.sh
 
 # Every test: unit binaries, command-line scripts, Python reference checks.
-test: all $(TEST_BIN)
+test: all $(TEST_BIN) $(TOOL_BIN)
 	@BUILD=$(BUILD) PYTHON=$(PYTHON) bash tests/run.sh
 
 check: deps

@@ -52,7 +52,7 @@ static const struct command *lookup(const char *name)
 
 static int unknown(const char *name)
 {
-	const char *names[64];
+	const char *names[64] = { NULL };
 	const char *near;
 	size_t i, n = 0;
 

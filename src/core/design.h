@@ -26,7 +26,12 @@ double design_hrf_raw(double t);
  */
 size_t design_hrf(double dt, double *h);
 
-/* Number of cosine drift columns Q = floor(2 T tr / cutoff); 0 when cutoff <= 0. */
+/*
+ * Number of cosine drift columns Q = floor(2 T tr / cutoff + 1e-9) (the guard
+ * keeps a period of exactly the cutoff, e.g. T = 256, TR = 2, cutoff 128 -> 8).
+ * 0 when cutoff <= 0 or not finite, or T < 2; at most T - 1 (the DCT has no
+ * more non-constant columns; higher ones would alias).
+ */
 int design_drift_count(int T, double tr, double cutoff);
 /* Cosine basis c_q(k) = sqrt(2/T) cos(pi q (2k+1) / (2T)), q = 1..Q, into C (T x Q, column-major). */
 void design_drift(int T, int Q, double *C);
@@ -35,7 +40,13 @@ void design_drift(int T, int Q, double *C);
  * Condition regressors: stimulus on the fine grid (exact partial-bin cover for
  * d > 0, unit-area impulse for d = 0; parts before 0 s dropped), convolved with
  * the kernel, read at frame times (k + slice_ref) tr by linear interpolation.
- * out is T x ncond, column-major. Errors: bad sizes, cond out of range.
+ * out is T x ncond, column-major. The grid runs from 0 to T tr + 32 s (+2
+ * bins); events beyond it contribute nothing. An impulse onset within 1e-9
+ * bins below a bin edge counts as on the edge (0.15 s lands in bin 3, not 2,
+ * despite 0.15 / 0.05 = 2.9999999999999996 in binary).
+ * Errors: T < 1, tr <= 0, slice_ref outside [0, 1], ncond < 0, non-finite
+ * onset, negative or non-finite duration, cond out of range (event numbers
+ * in messages are 1-based). Allocates scratch; thread safe.
  */
 sr_status design_regressors(int T, double tr, double slice_ref, const design_event *ev,
 			    size_t nev, int ncond, double *out, sr_err *e);
@@ -43,7 +54,8 @@ sr_status design_regressors(int T, double tr, double slice_ref, const design_eve
 /*
  * Confound columns in place (T x ncol, column-major, NaN = n/a): n/a cells
  * become the column's mean over numeric cells, then each column is demeaned.
- * A column with no numeric cell is an error (col index in the message).
+ * A column with no numeric cell, or an infinite cell, is an error; the
+ * message names the 1-based column (and row) and the caller adds the file name.
  */
 sr_status design_confounds(int T, int ncol, double *conf, sr_err *e);
 
@@ -54,10 +66,16 @@ typedef struct design {
 	double *X;                 /* T x p, column-major; owned */
 } design;
 
-/* Builds the design; conf (T x nconf, column-major, already fixed by design_confounds) may be NULL when nconf = 0. */
+/*
+ * Builds the design; conf (T x nconf, column-major, already fixed by
+ * design_confounds) may be NULL when nconf = 0; it is copied. drift_cutoff
+ * <= 0 means no drift columns. On success d->X is owned by d: free it with
+ * design_release. On error d is left empty (X = NULL).
+ */
 sr_status design_build(int T, double tr, double slice_ref, const design_event *ev, size_t nev,
 		       int ncond, const double *conf, int nconf, double drift_cutoff, design *d,
 		       sr_err *e);
+/* Frees d->X and empties d; NULL or an empty design is fine. */
 void design_release(design *d);
 
 #endif
