@@ -289,8 +289,6 @@ def make_study(outdir, **opts):
             f.write('confounds = motion_x motion_y\n')
         if o['measure']:
             f.write('\n[measure memory]\ntask = memory\neffects = %s\n' % o['mem_effects'])
-            if o['condition_column']:
-                f.write('condition_column = %s\n' % o['condition_column'])
     return ini
 
 

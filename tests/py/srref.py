@@ -83,7 +83,8 @@ def read_study(path):
         if sec.startswith('measure '):
             task = get(sec, 'task', sec[len('measure '):].strip())
             effs = [e.strip() for e in (get(sec, 'effects', '') or '').split(',') if e.strip()]
-            col = get(sec, 'condition_column', 'trial_type') or 'trial_type'
+            # a measured task reads the localizer's condition column unless its section names one
+            col = get(sec, 'condition_column', st['loc_column']) or st['loc_column']
             st['measures'].append({'task': task, 'effects': effs, 'column': col})
     return st
 

@@ -223,5 +223,23 @@ with tempfile.TemporaryDirectory() as tmp:
           and [r['label'] for r in runs] == ['1', '2', '3', '4'], 'runs across sessions ordered by run index')
     m = srref.find_runs(st, '02', 'memory')
     check([r['label'] for r in m] == ['1', '2'], 'runs without an index labelled by position')
+    # a real run with an absent condition: its column is zero, so the design is rank deficient; the
+    # other condition is still estimable and its AR(1) effect equals statsmodels GLS (which uses pinv)
+    st = srref.read_study(os.path.join(tmp, 'e', 'study.ini'))
+    runs, conds = srref.load_task(st, '02', 'tones', 'trial_type', None)
+    X = runs[0]['X']
+    check(conds == ['melody', 'scrambled'] and not np.any(X[:, 1]), 'absent condition gives a zero column')
+    cm, cs_ = np.eye(X.shape[1])[0], np.eye(X.shape[1])[1]
+    res, df = srref.fit_run(X, runs[0]['Y'][:3], True, [cm, cs_, cm - cs_])
+    check(res[0][0] and not res[1][0] and not res[2][0] and df == X.shape[0] - (X.shape[1] - 1),
+          'zero column: melody estimable, scrambled and melody-scrambled not, df from the rank')
+    worst = 0.0
+    for v in range(3):
+        y = runs[0]['Y'][v]
+        e = y - X @ np.linalg.pinv(X) @ y
+        r = np.clip(np.sum(e[1:] * e[:-1]) / np.sum(e * e), -0.99, 0.99)
+        g = sm.GLS(y, X, sigma=scipy.linalg.toeplitz(r ** np.arange(X.shape[0]))).fit()
+        worst = max(worst, abs(res[0][1][v] - g.params[0]) / abs(g.params[0]))
+    check(worst < 1e-9, 'rank-deficient AR(1) fit equals statsmodels GLS (worst rel %.2g)' % worst)
 
 sys.exit(1 if failed else 0)
