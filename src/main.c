@@ -16,10 +16,11 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
-	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
+	{ "analyze", cmd_analyze, CMD_NEEDS_ARGS, "the whole job: fROIs from one half, responses from the other" },
+	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
 	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
-	{ "analyze", cmd_analyze, CMD_NEEDS_ARGS, "the whole job: fits, fROIs, responses and group tables for a study" },
 	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
+	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
 	{ "slurm", cmd_slurm, CMD_NEEDS_ARGS, "write (and submit) SLURM jobs: one per subject, then the group step" },
 	{ NULL, NULL, 0, NULL }
 };

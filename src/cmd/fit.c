@@ -1,5 +1,6 @@
 /* fit.c - `splitroi fit`: first-level GLM maps for BOLD runs given on the command line. */
 #include <math.h>
+#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -45,9 +46,12 @@ static const cmdline_spec spec = {
 	"convolved with a two-gamma response), the named confounds, cosine drifts and\n"
 	"a constant; each voxel's series is scaled to percent of its mean, then fitted\n"
 	"by OLS or AR(1) Prais-Winsten in one streamed pass over the volumes. Writes,\n"
-	"per run and combined over runs (fixed effects), an effect map (percent signal\n"
-	"change) and a t map for every condition and effect, each run's design matrix\n"
-	"as CSV, and fit.json recording inputs, options, rank and df.",
+	"per run and, with several runs, combined over them (fixed effects), an effect\n"
+	"map (percent signal change) and a t map for every condition and effect:\n"
+	"  DIR/<run>_<effect>_effect.nii.gz, DIR/<run>_<effect>_t.nii.gz,\n"
+	"  DIR/combined_<effect>_effect.nii.gz, DIR/combined_<effect>_t.nii.gz,\n"
+	"each run's design matrix as DIR/<run>_design.csv, and DIR/fit.json recording\n"
+	"inputs, options, rank and df. <run> is the file name without _bold.nii[.gz].",
 	opts,
 };
 
@@ -175,35 +179,130 @@ static int gather_conditions(char **events, int nrun, const char *column, char *
 	return 0;
 }
 
-static void to_float(const double *x, size_t n, float *f)
-{
-	size_t i;
+/* One map to write: run r (or -1 for the fixed-effects combination), effect c, effect or t. */
+typedef struct map_job {
+	int run, c, is_t;
+	char *path;
+	sr_err err;
+	int failed;
+} map_job;
 
-	for (i = 0; i < n; i++)
-		f[i] = isfinite(x[i]) ? (float)x[i] : NAN;
+typedef struct map_ctx {
+	map_job *jobs;
+	int njobs, next, nrun;
+	const runfit_result *res;
+	size_t nvox;
+	pthread_mutex_t mu;
+} map_ctx;
+
+/* The map of one job into x (nvox doubles); tmp is scratch for the combination. */
+static void map_values(const map_ctx *m, const map_job *j, double *x, double *tmp)
+{
+	size_t v, nvox = m->nvox;
+	int r;
+
+	if (j->run >= 0) {
+		const glm_out *o = &m->res[j->run].out;
+		const double *ef = o->effect + (size_t)j->c * nvox, *vr = o->var + (size_t)j->c * nvox;
+
+		for (v = 0; v < nvox; v++)
+			x[v] = j->is_t ? ef[v] / sqrt(vr[v]) : ef[v];
+		return;
+	}
+	{
+		const double **ef = xcalloc((size_t)m->nrun, sizeof *ef), **vr = xcalloc((size_t)m->nrun, sizeof *vr);
+		int *df = xcalloc((size_t)m->nrun, sizeof *df);
+
+		for (r = 0; r < m->nrun; r++) {
+			ef[r] = m->res[r].out.effect + (size_t)j->c * nvox;
+			vr[r] = m->res[r].out.var + (size_t)j->c * nvox;
+			df[r] = m->res[r].out.df;
+		}
+		/* METHODS.md section 5 */
+		glm_ffx(nvox, m->nrun, ef, vr, df, j->is_t ? tmp : x, NULL, j->is_t ? x : NULL, NULL);
+		free(ef);
+		free(vr);
+		free(df);
+	}
 }
 
-static int write_map(const char *dir, const char *base, const char *label, const char *kind,
-		     const nii_info *info, const double *x, float *buf, size_t nvox, double tr,
-		     jdoc *files)
+/* Writes maps until none is left; maps are independent, so the order does not matter. */
+static void *map_worker(void *arg)
 {
-	char *path = xmalloc(strlen(dir) + strlen(base) + strlen(label) + strlen(kind) + 32);
-	char desc[80];
-	sr_err e;
-	int rc = 0;
+	map_ctx *m = arg;
+	size_t n = m->nvox ? m->nvox : 1, v;
+	double *x = xmalloc_array(n, sizeof(double)), *tmp = xmalloc_array(n, sizeof(double));
+	float *f = xmalloc_array(n, sizeof(float));
 
-	sr_err_init(&e, NULL, NULL);
-	sprintf(path, "%s/%s_%s_%s.nii.gz", dir, base, label, kind);
-	snprintf(desc, sizeof desc, "splitroi %s %s", kind, label);
-	to_float(x, nvox, buf);
-	if (nii_write_float(path, &info->grid, buf, 1, tr, desc, &e) != SR_OK) {
-		cmdline_error("fit", "%s", e.msg);
-		rc = 1;
-	} else {
-		jdoc_push_str(files, path);
+	for (;;) {
+		map_job *j;
+		char desc[80];
+
+		pthread_mutex_lock(&m->mu);
+		j = m->next < m->njobs ? &m->jobs[m->next++] : NULL;
+		pthread_mutex_unlock(&m->mu);
+		if (!j)
+			break;
+		map_values(m, j, x, tmp);
+		for (v = 0; v < m->nvox; v++)
+			f[v] = isfinite(x[v]) ? (float)x[v] : NAN;
+		snprintf(desc, sizeof desc, "splitroi %s", j->is_t ? "t" : "effect (percent signal change)");
+		sr_err_init(&j->err, NULL, NULL);
+		j->failed = nii_write_float(j->path, &m->res[0].info.grid, f, 1, 0.0, desc, &j->err) != SR_OK;
 	}
-	free(path);
+	free(x);
+	free(tmp);
+	free(f);
+	return NULL;
+}
+
+/* Writes every map with up to nthreads threads; returns 0, or 1 after printing the failures. */
+static int write_maps(map_job *jobs, int njobs, const runfit_result *res, int nrun, size_t nvox,
+		      int nthreads, jdoc *files)
+{
+	map_ctx m;
+	pthread_t *th;
+	unsigned char *started;
+	int i, nw = nthreads < njobs ? nthreads : njobs, rc = 0;
+
+	memset(&m, 0, sizeof m);
+	m.jobs = jobs;
+	m.njobs = njobs;
+	m.nrun = nrun;
+	m.res = res;
+	m.nvox = nvox;
+	pthread_mutex_init(&m.mu, NULL);
+	if (nw < 1)
+		nw = 1;
+	th = xcalloc((size_t)nw, sizeof *th);
+	started = xcalloc((size_t)nw, 1);
+	for (i = 1; i < nw; i++)
+		started[i] = pthread_create(&th[i], NULL, map_worker, &m) == 0;
+	map_worker(&m);
+	for (i = 1; i < nw; i++)
+		if (started[i])
+			pthread_join(th[i], NULL);
+	pthread_mutex_destroy(&m.mu);
+	free(th);
+	free(started);
+	for (i = 0; i < njobs; i++) {
+		if (jobs[i].failed) {
+			cmdline_error("fit", "%s", jobs[i].err.msg);
+			rc = 1;
+		} else {
+			jdoc_push_str(files, jobs[i].path);
+		}
+	}
 	return rc;
+}
+
+/* DIR/BASE_LABEL_KIND.nii.gz */
+static char *map_path(const char *dir, const char *base, const char *label, const char *kind)
+{
+	char *path = xmalloc(strlen(dir) + strlen(base) + strlen(label) + strlen(kind) + 16);
+
+	sprintf(path, "%s/%s_%s_%s.nii.gz", dir, base, label, kind);
+	return path;
 }
 
 /* A CSV field, quoted when it holds a comma, quote, CR or LF (RFC 4180). */
@@ -318,9 +417,8 @@ int cmd_fit(int argc, char **argv)
 	runfit_result *res = NULL;
 	sr_err *errs = NULL, e;
 	jdoc *doc = NULL, *files = NULL, *runs = NULL;
-	float *fbuf = NULL;
-	double **eff = NULL, **var = NULL;
-	int *dfs = NULL;
+	map_job *jobs = NULL;
+	int njobs = 0;
 
 	rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
 	if (rc) {
@@ -527,91 +625,64 @@ int cmd_fit(int argc, char **argv)
 	doc = jdoc_object();
 	files = jdoc_array();
 	runs = jdoc_array();
-	fbuf = xmalloc_array(nvox ? nvox : 1, sizeof(float));
-	{
-		double *t = xmalloc_array(nvox ? nvox : 1, sizeof(double));
+	/* with one run the combination is that run: its maps are not written twice */
+	njobs = 2 * neff * (nrun > 1 ? nrun + 1 : 1);
+	jobs = xcalloc((size_t)njobs, sizeof *jobs);
+	for (r = 0; r < (nrun > 1 ? nrun + 1 : 1); r++) {
+		char *base = r < nrun ? run_base(pos[r]) : xstrdup("combined");
 
-		for (r = 0; r < nrun; r++) {
-			char *base = run_base(pos[r]);
-			jdoc *rj = jdoc_object(), *est = jdoc_object();
-			size_t nok = 0;
+		for (c = 0; c < neff; c++) {
+			char *lab = file_label(labels[c]);
+			int k;
 
-			for (v = 0; v < nvox; v++)
-				nok += res[r].out.ok[v];
-			jdoc_set_str(rj, "bold", pos[r]);
-			jdoc_set_str(rj, "events", events[r]);
-			jdoc_set_str(rj, "confounds", confs ? confs[r] : NULL);
-			jdoc_set_num(rj, "tr", tr[r]);
-			jdoc_set_int(rj, "volumes", res[r].d.T);
-			jdoc_set_int(rj, "columns", res[r].d.p);
-			jdoc_set_int(rj, "drift_columns", res[r].d.ndrift);
-			{
-				glm_model *m;
+			for (k = 0; k < 2; k++) {
+				map_job *jb = &jobs[(r * neff + c) * 2 + k];
 
-				if (glm_model_make(res[r].d.X, res[r].d.T, res[r].d.p, &m, &e) == SR_OK) {
-					jdoc_set_int(rj, "rank", glm_model_rank(m));
-					glm_model_free(m);
-				}
+				jb->run = r < nrun ? r : -1;
+				jb->c = c;
+				jb->is_t = k;
+				jb->path = map_path(val[O_OUT], base, lab, k ? "t" : "effect");
 			}
-			jdoc_set_int(rj, "df", res[r].out.df);
-			jdoc_set_int(rj, "analyzable_voxels", (long long)nok);
-			for (c = 0; c < neff; c++)
-				jdoc_set_bool(est, labels[c], res[r].out.estimable[c]);
-			jdoc_set(rj, "estimable", est);
-			jdoc_push(runs, rj);
-			if (write_design(val[O_OUT], base, &res[r].d, conds, &specs[r], files)) {
-				free(base);
-				free(t);
-				goto out;
-			}
-			for (c = 0; c < neff; c++) {
-				char *lab = file_label(labels[c]);
-				const double *ef = res[r].out.effect + (size_t)c * nvox, *vr = res[r].out.var + (size_t)c * nvox;
-				int bad;
-
-				for (v = 0; v < nvox; v++)
-					t[v] = ef[v] / sqrt(vr[v]);
-				bad = write_map(val[O_OUT], base, lab, "effect", &res[r].info, ef, fbuf, nvox, 0, files) ||
-				      write_map(val[O_OUT], base, lab, "t", &res[r].info, t, fbuf, nvox, 0, files);
-				free(lab);
-				if (bad) {
-					free(base);
-					free(t);
-					goto out;
-				}
-			}
-			free(base);
+			free(lab);
 		}
-		/* fixed effects over the runs */
-		eff = xcalloc((size_t)nrun, sizeof *eff);
-		var = xcalloc((size_t)nrun, sizeof *var);
-		dfs = xcalloc((size_t)nrun, sizeof *dfs);
-		{
-			double *E = xmalloc_array(nvox ? nvox : 1, sizeof(double));
-			int bad = 0;
-
-			for (c = 0; c < neff && !bad; c++) {
-				char *lab = file_label(labels[c]);
-
-				for (r = 0; r < nrun; r++) {
-					eff[r] = res[r].out.effect + (size_t)c * nvox;
-					var[r] = res[r].out.var + (size_t)c * nvox;
-					dfs[r] = res[r].out.df;
-					if (!res[r].out.estimable[c])
-						fprintf(stderr, "splitroi fit: warning: %s: effect '%s' is not estimable in this run: left out of the combined maps\n",
-							pos[r], labels[c]);
-				}
-				glm_ffx(nvox, nrun, (const double *const *)eff, (const double *const *)var, dfs, E, NULL, t, NULL);
-				bad = write_map(val[O_OUT], "combined", lab, "effect", &res[0].info, E, fbuf, nvox, 0, files) ||
-				      write_map(val[O_OUT], "combined", lab, "t", &res[0].info, t, fbuf, nvox, 0, files);
-				free(lab);
-			}
-			free(E);
-			free(t);
-			if (bad)
-				goto out;
-		}
+		free(base);
 	}
+	for (r = 0; r < nrun; r++) {
+		char *base = run_base(pos[r]);
+		jdoc *rj = jdoc_object(), *est = jdoc_object();
+		size_t nok = 0;
+		glm_model *m;
+
+		for (v = 0; v < nvox; v++)
+			nok += res[r].out.ok[v];
+		jdoc_set_str(rj, "bold", pos[r]);
+		jdoc_set_str(rj, "events", events[r]);
+		jdoc_set_str(rj, "confounds", confs ? confs[r] : NULL);
+		jdoc_set_num(rj, "tr", tr[r]);
+		jdoc_set_int(rj, "volumes", res[r].d.T);
+		jdoc_set_int(rj, "columns", res[r].d.p);
+		jdoc_set_int(rj, "drift_columns", res[r].d.ndrift);
+		if (glm_model_make(res[r].d.X, res[r].d.T, res[r].d.p, &m, &e) == SR_OK) {
+			jdoc_set_int(rj, "rank", glm_model_rank(m));
+			glm_model_free(m);
+		}
+		jdoc_set_int(rj, "df", res[r].out.df);
+		jdoc_set_int(rj, "analyzable_voxels", (long long)nok);
+		for (c = 0; c < neff; c++) {
+			jdoc_set_bool(est, labels[c], res[r].out.estimable[c]);
+			if (!res[r].out.estimable[c])
+				fprintf(stderr, "splitroi fit: warning: %s: effect '%s' is not estimable in this run%s\n",
+					pos[r], labels[c], nrun > 1 ? ": left out of the combined maps" : "");
+		}
+		jdoc_set(rj, "estimable", est);
+		jdoc_push(runs, rj);
+		c = write_design(val[O_OUT], base, &res[r].d, conds, &specs[r], files);
+		free(base);
+		if (c)
+			goto out;
+	}
+	if (write_maps(jobs, njobs, res, nrun, nvox, (int)threads, files))
+		goto out;
 	{
 		jdoc *opt = jdoc_object(), *cl = jdoc_array(), *el = jdoc_array(), *cc = jdoc_array();
 		char libs[512], *path = xmalloc(strlen(val[O_OUT]) + 16);
@@ -665,10 +736,9 @@ out:
 	free(res);
 	free(specs);
 	free(errs);
-	free(eff);
-	free(var);
-	free(dfs);
-	free(fbuf);
+	for (r = 0; r < njobs; r++)
+		free(jobs[r].path);
+	free(jobs);
 	jdoc_free(doc);
 	jdoc_free(files);
 	jdoc_free(runs);

@@ -452,8 +452,10 @@ static int load_subjects(group_ctx *g)
 		}
 		if (stat(path, &st) != 0) {
 			s->status = SUBJ_MISSING;
-			s->reason = xmalloc(strlen(path) + 32);
-			sprintf(s->reason, "%s: no such file", path);
+			size_t len = strlen(path) + 32;
+
+			s->reason = xmalloc(len);
+			snprintf(s->reason, len, "%s: no such file", path);
 			warnf("%s", s->reason);
 		} else if (load_table(g, i, path) != 0) {
 			free(path);

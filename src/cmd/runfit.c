@@ -16,7 +16,7 @@
 #include "../io/events.h"
 #include "../io/table.h"
 
-#define QUEUE_SLOTS 3
+#define QUEUE_SLOTS 2
 
 typedef struct vol_queue {
 	nii_stream *s;

@@ -29,13 +29,17 @@
 #include <pthread.h>
 #include <stdint.h>
 #include <string.h>
+#include <sys/mman.h>
+#include <unistd.h>
 
 #include "mem.h"
 
 #define GLM_RANK_TOL 1e-10
 #define GLM_ESTIM_TOL 1e-8
 #define GLM_RHO_MAX 0.99
-#define GLM_BATCH 16
+/* volumes per dgemm: each batch reads and writes the accumulators once; more
+ * volumes mean less memory traffic but a larger buffer (batch x nvox doubles) */
+#define GLM_BATCH 4
 /* grid of the adjusted-rho table: -0.99, -0.98, ..., 0.99 */
 #define GLM_NRHO 199
 #define GLM_RHO_STEP 0.01
@@ -350,8 +354,12 @@ struct glm_acc {
 	int k;          /* volumes added */
 	int nb;         /* volumes in the pending batch */
 	double *acc;    /* 2r x nvox: U_r' z and l per voxel */
+	size_t acc_bytes;
+	int finished;   /* the sums are consumed by the finish */
+	int acc_mapped; /* acc comes from mmap: finished voxels' pages can be handed back early */
 	double *zbuf;   /* GLM_BATCH x nvox: pending shifted volumes */
-	double *y0, *zz, *zlag, *zsum, *zprev;
+	double *y0, *zz, *zlag, *zprev;
+	double *zsum;   /* only without a constant column: else 1'z = g1'U_r'z */
 	unsigned char *flag;
 };
 
@@ -362,12 +370,21 @@ glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
 
 	a->m = m;
 	a->nvox = nvox;
-	a->acc = xcalloc(n, (size_t)2 * m->r * sizeof(double));
+	if (sr_mul_size(n, (size_t)2 * m->r * sizeof(double), &a->acc_bytes) != 0)
+		a->acc_bytes = SIZE_MAX;
+	/* mapped zero pages cost nothing until touched, and can be released part by part */
+	a->acc = a->acc_bytes == SIZE_MAX ? MAP_FAILED :
+		mmap(NULL, a->acc_bytes, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+	if (a->acc == MAP_FAILED) {
+		a->acc = xcalloc(n, (size_t)2 * m->r * sizeof(double));
+	} else {
+		a->acc_mapped = 1;
+	}
 	a->zbuf = xmalloc_array(n, GLM_BATCH * sizeof(double));
 	a->y0 = xcalloc(n, sizeof(double));
 	a->zz = xcalloc(n, sizeof(double));
 	a->zlag = xcalloc(n, sizeof(double));
-	a->zsum = xcalloc(n, sizeof(double));
+	a->zsum = m->has_const ? NULL : xcalloc(n, sizeof(double));
 	a->zprev = xcalloc(n, sizeof(double));
 	a->flag = xcalloc(n, 1);
 	return a;
@@ -377,7 +394,10 @@ void glm_acc_free(glm_acc *a)
 {
 	if (!a)
 		return;
-	free(a->acc);
+	if (a->acc_mapped)
+		munmap(a->acc, a->acc_bytes);
+	else
+		free(a->acc);
 	free(a->zbuf);
 	free(a->y0);
 	free(a->zz);
@@ -423,7 +443,8 @@ sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
 			}
 			zb[v] = z;
 			a->zz[v] = z * z;
-			a->zsum[v] = z;
+			if (a->zsum)
+				a->zsum[v] = z;
 			a->zprev[v] = z;
 		}
 	} else {
@@ -443,9 +464,11 @@ sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
 			zb[v] = z;
 			zz[v] += z * z;
 			zlag[v] += z * zp[v];
-			zsum[v] += z;
 			zp[v] = z;
 		}
+		if (zsum)
+			for (v = 0; v < nvox; v++)
+				zsum[v] += zb[v];
 	}
 	a->k++;
 	a->nb++;
@@ -552,6 +575,24 @@ static double pw_solve(const glm_model *m, const double *Ls, const double *Q0, c
 	return rssw < 0.0 ? 0.0 : rssw;
 }
 
+/*
+ * Hands back the accumulator pages that lie wholly inside voxels [v0, v1),
+ * already finished: the output maps grow while the sums shrink, so the
+ * finish does not raise the peak memory of the fit.
+ */
+static void acc_release(const glm_acc *a, size_t v0, size_t v1)
+{
+	size_t pg = (size_t)sysconf(_SC_PAGESIZE), per = (size_t)2 * a->m->r * sizeof(double);
+	uintptr_t base = (uintptr_t)a->acc, lo = base + v0 * per, hi = base + v1 * per;
+
+	if (!a->acc_mapped || pg == 0 || (size_t)-1 == pg)
+		return;
+	lo = (lo + pg - 1) / pg * pg;
+	hi = hi / pg * pg;
+	if (hi > lo)
+		madvise((void *)lo, hi - lo, MADV_DONTNEED);
+}
+
 /* Lq + Lq' and u_0 u_0' + u_T-1 u_T-1', shared by every voxel. */
 static void lag_grams(const glm_model *m, double *Ls, double *Q0)
 {
@@ -575,6 +616,8 @@ static void *finish_range(void *arg)
 	double *G = dup_zero((size_t)r * r), *h = dup_zero((size_t)r), *w = dup_zero((size_t)r);
 	double *dw = dup_zero((size_t)r), *t = dup_zero((size_t)r);
 
+	size_t done = j->v0;
+
 	for (v = j->v0; v < j->v1; v++) {
 		const double *u = a->acc + (size_t)2 * r * v, *l = u + r;
 		double y0 = a->y0[v], shift = m->has_const ? y0 : 0.0, z0 = m->has_const ? 0.0 : y0;
@@ -582,7 +625,22 @@ static void *finish_range(void *arg)
 		const double *delta = u;
 		int bad = (a->flag[v] & ACC_BAD) != 0;
 
-		mean = bad ? NAN : shift + a->zsum[v] / T;
+		if (v - done >= 4096) {
+			acc_release(a, done, v);
+			done = v;
+		}
+
+		if (a->zsum) {
+			mean = a->zsum[v] / T;
+		} else {
+			double s1 = 0.0;
+
+			for (q = 0; q < r; q++)
+				s1 += m->g1[q] * u[q];
+			mean = shift + s1 / T;
+		}
+		if (bad)
+			mean = NAN;
 		o->mean[v] = mean;
 		o->ok[v] = !bad && mean > 0.0 && (a->flag[v] & ACC_VARIES) && (!j->mask || j->mask[v]);
 		for (c = 0; c < j->ncon; c++) {
@@ -654,6 +712,7 @@ static void *finish_range(void *arg)
 			o->var[(size_t)c * nvox + v] = sc * sc * sig2 * vv;
 		}
 	}
+	acc_release(a, done, j->v1);
 	free(G);
 	free(h);
 	free(w);
@@ -665,6 +724,8 @@ static void *finish_range(void *arg)
 sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 			 const unsigned char *mask, int nthreads, glm_out *out, sr_err *e)
 {
+	if (a->finished)
+		return sr_fail(e, SR_EINVAL, "the fit was already finished");
 	const glm_model *m = a->m;
 	int r = m->r, c, q, i;
 	size_t nvox = a->nvox, chunk;
@@ -682,6 +743,8 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 	if (nthreads < 1)
 		nthreads = 1;
 	acc_flush(a);
+	free(a->zbuf);   /* not needed any more: lowers the peak while the outputs exist */
+	a->zbuf = NULL;
 
 	out->nvox = nvox;
 	out->ncon = ncon;
@@ -710,6 +773,7 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 
 	if ((size_t)nthreads > nvox / 256 + 1)
 		nthreads = (int)(nvox / 256 + 1);
+	a->finished = 1;
 	jobs = xcalloc((size_t)nthreads, sizeof *jobs);
 	th = xcalloc((size_t)nthreads, sizeof *th);
 	started = xcalloc((size_t)nthreads, 1);

@@ -76,7 +76,8 @@ enum {
  * and the refit. GLM_AR1_ADJUSTED maps the residual ratio rho through the
  * design's table of expected ratios under AR(1) noise before whitening. C is ncon x p, row-major (contrast weights over all columns).
  * mask (nvox, may be NULL) restricts the voxels fitted. nthreads >= 1 splits
- * the voxels; results are identical for any nthreads.
+ * the voxels; results are identical for any nthreads. Once per accumulator:
+ * the sums are released as the voxels are finished.
  */
 sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 			 const unsigned char *mask, int nthreads, glm_out *out, sr_err *e);
