@@ -531,6 +531,8 @@ int cmd_slurm(int argc, char **argv)
 	if (!val[O_MEM])
 		sb_printf(&b, "# --mem suggested for sub-%s (%.0f voxels x %.0f runs): peak measured model plus 50%%\n",
 			  largest ? largest : "?", worst.voxels, worst.runs);
+	if (!ntodo)
+		sb_printf(&b, "# every subject was complete and up to date when this was written: submit.sh skips this array\n");
 	sb_printf(&b,
 		  "set -u\n"
 		  "label=$(sed -n \"${SLURM_ARRAY_TASK_ID}p\" %s)\n"

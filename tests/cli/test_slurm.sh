@@ -39,6 +39,8 @@ if grep -q -- "analyze '$TMP/mini/study.ini' --out '$TMP/mini/res' --collect" "$
 # suggested memory for the small grid, 6 runs of 13440 voxels, 2 CPUs: the model in slurm.c
 # gives 1.5 * (10 MiB + 13440 * (81 * 6 + 350 * 2) bytes) = 38 MiB -> one 256 MiB step
 if grep -q '^#SBATCH --mem=256M$' "$S/subjects.sbatch"; then ok "memory suggestion rounds up to 256M"; else notok "mem: $(grep mem "$S/subjects.sbatch")"; fi
+# the time model (3.3e-8 s a voxel-volume, times 4) asks for seconds here: the 30-minute floor holds
+if grep -q '^#SBATCH --time=0:30:00$' "$S/subjects.sbatch"; then ok "time suggestion keeps its 30-minute floor"; else notok "time: $(grep time "$S/subjects.sbatch")"; fi
 run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/mini/study.ini" --out "$TMP/mini/res" --submit
 expect_status 1 "--submit without sbatch fails"
 expect_err "sh $TMP/mini/res/slurm/submit.sh" "and names the script to run on the cluster"
