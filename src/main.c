@@ -16,7 +16,10 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "analyze", cmd_analyze, CMD_NEEDS_ARGS, "the whole job: fROIs from one half, responses from the other" },
+	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
 	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
+	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ NULL, NULL, 0, NULL }
 };
 
