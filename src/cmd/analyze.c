@@ -321,6 +321,28 @@ sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *nco
 	return afile_commit(&a, e);
 }
 
+/* The combined table exists and is newer than every subject's completion record. */
+static int combined_up_to_date(const study *st, char **subs, size_t nsub)
+{
+	char path[4096];
+	double combined;
+	size_t s;
+
+	snprintf(path, sizeof path, "%s/responses.csv", st->out);
+	combined = mtime_of(path);
+	if (combined < 0)
+		return 0;
+	snprintf(path, sizeof path, "%s/group.csv", st->out);
+	if (mtime_of(path) < combined)
+		return 0;
+	for (s = 0; s < nsub; s++) {
+		snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, subs[s]);
+		if (mtime_of(path) > combined)
+			return 0;
+	}
+	return 1;
+}
+
 /* ---- running subjects, possibly several at a time ---- */
 
 typedef struct work {
@@ -573,13 +595,20 @@ int cmd_analyze(int argc, char **argv)
 		ran[i] = !w.status[i];
 		nfail += w.status[i];
 	}
-	if (analyze_combine(&st, subs, nsub, &ncomplete, &e)) {
-		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-		nfail++;
-	}
-	if (!val[O_NOGROUP])
-		if (analyze_group_step(st.out, quiet))
+	if (ntodo == 0 && combined_up_to_date(&st, subs, nsub)) {
+		if (!quiet)
+			fprintf(stderr, "splitroi analyze: every subject is up to date; tables left as they are\n");
+		for (i = 0; i < nsub; i++)
+			ncomplete += (size_t)analyze_subject_complete(&st, subs[i]);
+	} else {
+		if (analyze_combine(&st, subs, nsub, &ncomplete, &e)) {
+			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 			nfail++;
+		}
+		if (!val[O_NOGROUP])
+			if (analyze_group_step(st.out, quiet))
+				nfail++;
+	}
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);
 		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",
