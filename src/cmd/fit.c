@@ -19,9 +19,6 @@
 #include "cmdline.h"
 #include "runfit.h"
 
-/* OpenBLAS: one BLAS thread, so products never depend on thread scheduling. */
-extern void openblas_set_num_threads(int num_threads);
-
 static const cmdline_opt opts[] = {
 	{ "out", "DIR", "write the maps, design tables and fit.json into DIR (required)" },
 	{ "events", "LIST", "events files, comma separated, one per run (default: _events.tsv beside each run)" },
@@ -785,7 +782,6 @@ int cmd_fit(int argc, char **argv)
 		s->mask = mask;
 		sr_err_init(&errs[r], warn_print, NULL);
 	}
-	openblas_set_num_threads(1);
 	if (runfit_many(specs, nrun, (int)threads, res, errs) != SR_OK) {
 		for (r = 0; r < nrun; r++)
 			if (errs[r].code != SR_OK)
