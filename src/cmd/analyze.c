@@ -117,12 +117,13 @@ static sr_status study_subjects(const study *st, char ***out, size_t *n, sr_err 
 /* ---- conditions named in effects must exist for some subject (METHODS.md section 11) ---- */
 
 static sr_status task_conditions(const study *st, char **subs, size_t nsub, const char *task,
-				 char ***conds, size_t *ncond, sr_err *e)
+				 char ***conds, size_t *ncond, size_t *nruns, sr_err *e)
 {
 	size_t s, cap = 0;
 
 	*conds = NULL;
 	*ncond = 0;
+	*nruns = 0;
 	for (s = 0; s < nsub; s++) {
 		bids_run *runs;
 		size_t nr, r;
@@ -130,6 +131,7 @@ static sr_status task_conditions(const study *st, char **subs, size_t nsub, cons
 
 		if (rc)
 			return rc;
+		*nruns += nr;
 		for (r = 0; r < nr; r++) {
 			event_list ev;
 			size_t k;
@@ -183,13 +185,19 @@ static int check_all_effects(const study *st, char **subs, size_t nsub)
 	for (t = 0; t < ntasks; t++) {
 		const char *task = t ? st->measures[t - 1].task : st->loc_task;
 		char **conds;
-		size_t ncond, c;
+		size_t ncond, c, nruns;
 		sr_err e;
 
 		sr_err_init(&e, NULL, NULL);
-		if (task_conditions(st, subs, nsub, task, &conds, &ncond, &e)) {
+		if (task_conditions(st, subs, nsub, task, &conds, &ncond, &nruns, &e)) {
 			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 			return 1;
+		}
+		if (nruns == 0) {
+			fprintf(stderr, "splitroi analyze: %s: no subject has runs of task '%s' under %s (files named sub-<label>_task-%s_..._bold.nii[.gz])\n",
+				st->path, task, st->bids, task);
+			bad++;
+			continue;
 		}
 		if (t == 0) {
 			bad += check_effects(st, task, &st->contrast, 1, conds, ncond);

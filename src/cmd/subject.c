@@ -311,9 +311,15 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 		if (!t->runs[i].events_exist)
 			return sr_fail(e, SR_EIO, "%s: missing events file for run %s", t->runs[i].events,
 				       t->runs[i].bold);
-		rc = events_read(t->runs[i].events, st->condition_column, &ev, e);
-		if (rc)
-			return rc;
+		/* warnings about rows come once, from the fit that reads the file again */
+		{
+			sr_err quiet;
+
+			sr_err_init(&quiet, NULL, NULL);
+			rc = events_read(t->runs[i].events, st->condition_column, &ev, &quiet);
+			if (rc)
+				return sr_fail(e, rc, "%s", quiet.msg);
+		}
 		for (k = 0; k < ev.n; k++) {
 			int c;
 
