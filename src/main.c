@@ -9,6 +9,10 @@
 
 enum { CMD_NEEDS_ARGS = 1 };
 
+/* OpenBLAS (no header of its own here): one BLAS thread, so that products
+ * never depend on thread scheduling; the commands run their own threads. */
+extern void openblas_set_num_threads(int num_threads);
+
 /* The single list of commands: help and dispatch are generated from it. */
 static const struct command {
 	const char *name;
@@ -85,6 +89,7 @@ int main(int argc, char **argv)
 {
 	const struct command *c;
 
+	openblas_set_num_threads(1);
 	if (argc < 2) {
 		top_help(stderr);
 		return 2;
