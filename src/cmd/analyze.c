@@ -472,33 +472,8 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 			}
 		fprintf(stderr, "%s\n", nsub - ncomplete > nmiss ? " ..." : "");
 	}
-	if (group) {
-		/* the study's list, not the sub-* folders: a subject whose job failed before
-		   writing anything is then listed as missing instead of passing unnoticed */
-		size_t len = 1;
-		char *list, *gargv[6];
-		int gargc = 0;
-
-		for (i = 0; i < nsub; i++)
-			len += strlen(subs[i]) + 1;
-		list = xmalloc(len);
-		list[0] = 0;
-		for (i = 0; i < nsub; i++) {
-			if (i)
-				strcat(list, ",");
-			strcat(list, subs[i]);
-		}
-		gargv[gargc++] = "group";
-		gargv[gargc++] = st->out;
-		gargv[gargc++] = "--subjects";
-		gargv[gargc++] = list;
-		if (quiet)
-			gargv[gargc++] = "--quiet";
-		gargv[gargc] = NULL;
-		if (cmd_group(gargc, gargv))
-			rc = 1;
-		free(list);
-	}
+	if (group && analyze_group_step(st->out, subs, nsub, quiet))
+		rc = 1;
 	if (!quiet)
 		printf("%zu of %zu subjects complete; tables: %s/responses.csv%s\n", ncomplete, nsub,
 		       st->out, group ? ", group tables" : "");
@@ -684,7 +659,7 @@ int cmd_analyze(int argc, char **argv)
 			nfail++;
 		}
 		if (!val[O_NOGROUP])
-			if (analyze_group_step(st.out, quiet))
+			if (analyze_group_step(st.out, subs, nsub, quiet))
 				nfail++;
 	}
 	if (!quiet) {
