@@ -230,8 +230,13 @@ static double newest_input(const study *st, const char *label)
 	double t = mtime_of(st->path), x;
 	size_t k, ntasks = 1 + st->nmeasures;
 
-	if ((x = mtime_of(st->parcels)) > t)
-		t = x;
+	{
+		char *img = study_subject_path(st->parcels, label);
+
+		if ((x = mtime_of(img)) > t)
+			t = x;
+		free(img);
+	}
 	if ((x = mtime_of(st->parcel_names)) > t)
 		t = x;
 	if ((x = mtime_of(st->mask)) > t)
@@ -570,7 +575,8 @@ int cmd_analyze(int argc, char **argv)
 	}
 	progress_init(&prog, "analyze", 0, quiet);
 	sr_err_init(&e, progress_warn, &prog);
-	if (parcel_set_load(&st, &ps, &e)) {
+	memset(&ps, 0, sizeof ps);
+	if (!study_per_subject(st.parcels) && parcel_set_load(&st, st.parcels, &ps, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_prog;
 	}
@@ -613,7 +619,7 @@ int cmd_analyze(int argc, char **argv)
 	prog.total = (int)ntodo;
 	memset(&ctx, 0, sizeof ctx);
 	ctx.st = &st;
-	ctx.parcels = &ps;
+	ctx.parcels = study_per_subject(st.parcels) ? NULL : &ps;
 	ctx.mask = mask;
 	ctx.mask_grid = mask ? &mask_grid : NULL;
 	ctx.nthreads = (int)threads;

@@ -49,7 +49,7 @@ static int cmp_i32(const void *a, const void *b)
 	return (x > y) - (x < y);
 }
 
-sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
+sr_status parcel_set_load(const study *st, const char *image, parcel_set *p, sr_err *e)
 {
 	nii_info info;
 	double *data = NULL;
@@ -60,7 +60,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 	sr_status rc;
 
 	memset(p, 0, sizeof *p);
-	rc = nii_read_3d(st->parcels, &info, &data, e);
+	rc = nii_read_3d(image, &info, &data, e);
 	if (rc)
 		return rc;
 	p->grid = info.grid;
@@ -77,7 +77,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 			parcel_set_release(p);
 			return sr_fail(e, SR_EFORMAT,
 				       "%s: voxel (%zu, %zu, %zu) holds %g; parcel labels must be whole numbers >= 0",
-				       st->parcels, i0, j0, k0, x);
+				       image, i0, j0, k0, x);
 		}
 		p->labels[v] = (int32_t)x;
 	}
@@ -137,7 +137,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 			if (k == nseen)
 				sr_warnf(e, "%s: line %zu: parcel %s (index %d) has no voxels in %s; it gets no rows",
 					 st->parcel_names, names.line[r], table_cell(&names, r, (size_t)cn), (int)x,
-					 st->parcels);
+					 image);
 		}
 	}
 	qsort(seen, nseen, sizeof *seen, cmp_i32);
@@ -163,7 +163,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 	if (have_names)
 		table_release(&names);
 	if (p->n == 0)
-		sr_warnf(e, "%s: the parcel image has no labelled voxel", st->parcels);
+		sr_warnf(e, "%s: the parcel image has no labelled voxel", image);
 	return SR_OK;
 fail:
 	table_release(&names);
@@ -699,6 +699,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 {
 	const study *st = ctx->st;
 	const parcel_set *ps = ctx->parcels;
+	parcel_set own_ps;
+	char *own_image = NULL;
 	task_fit *tasks;
 	size_t ntasks = 1 + st->nmeasures, i, nvox = 0, nruns_all = 0;
 	expr *loc_effects;
@@ -738,6 +740,17 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	remove(path);
 	snprintf(path, sizeof path, "%s/responses.csv", dir);
 	remove(path);
+	memset(&own_ps, 0, sizeof own_ps);
+	if (!ps) {
+		/* parcels made for each subject, e.g. without that subject's own data */
+		own_image = study_subject_path(st->parcels, label);
+		rc = parcel_set_load(st, own_image, &own_ps, e);
+		if (rc) {
+			free(own_image);
+			return rc;
+		}
+		ps = &own_ps;
+	}
 	progress(ctx, label, "finding runs");
 	for (i = 0; i < ntasks; i++) {
 		rc = task_prepare(st, label, &tasks[i], e);
@@ -808,14 +821,15 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 
 		labels_owned = xmalloc_array(nvox, sizeof *labels_owned);
 		if (resample_nearest(ps->labels, sn, ps->grid.affine, labels_owned, tn, grid.affine)) {
-			rc = sr_fail(e, SR_EDIM, "%s: the parcel grid's affine is singular", st->parcels);
+			rc = sr_fail(e, SR_EDIM, "%s: the parcel grid's affine is singular",
+				     own_image ? own_image : st->parcels);
 			goto out;
 		}
 		labels = labels_owned;
 	} else {
 		rc = sr_fail(e, SR_EDIM,
 			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
-			     st->parcels, tasks[0].runs[0].bold, buf);
+			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
 		goto out;
 	}
 
@@ -1002,7 +1016,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			jdoc_set(in, tasks[i].task, inputs_record(&tasks[i]));
 		jdoc_set(rec, "inputs", in);
 	}
-	jdoc_set_str(rec, "parcels", st->parcels);
+	jdoc_set_str(rec, "parcels", own_image ? own_image : st->parcels);
 	jdoc_set_int(rec, "rows", (long long)res->nrows);
 	jdoc_set_num(rec, "seconds", res->seconds);
 	snprintf(path, sizeof path, "%s/run.json", dir);
@@ -1025,6 +1039,8 @@ out:
 	free(tasks);
 	free(loc_effects);
 	free(labels_owned);
+	parcel_set_release(&own_ps);
+	free(own_image);
 	if (rc) {
 		snprintf(path, sizeof path, "%s/run.json", dir);
 		remove(path);

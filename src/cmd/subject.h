@@ -40,7 +40,7 @@ typedef void (*subject_progress_fn)(void *ctx, const char *subject, const char *
 
 typedef struct subject_ctx {
 	const study *st;
-	const parcel_set *parcels;
+	const parcel_set *parcels;     /* NULL: each subject loads its own (image has {subject}) */
 	const unsigned char *mask;     /* on the data grid, or NULL */
 	const nii_grid *mask_grid;
 	int nthreads;                  /* threads for fitting this subject's runs */
@@ -66,8 +66,8 @@ sr_status subject_write_rows(const char *path, const char *subject, const respon
 extern const char *const subject_columns[];
 extern const size_t subject_ncolumns;
 
-/* Reads the parcels image and its names table (study [parcels]). */
-sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e);
+/* Reads a parcels image (the study's, or a subject's own) and the study's names table. */
+sr_status parcel_set_load(const study *st, const char *image, parcel_set *p, sr_err *e);
 void parcel_set_release(parcel_set *p);
 
 #endif
