@@ -16,6 +16,7 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
 	{ NULL, NULL, 0, NULL }
 };
 
