@@ -45,7 +45,7 @@ $(BUILD)/libsplitroi.a: $(LIB_OBJ)
 $(BUILD)/splitroi: $(BUILD)/src/main.o $(BUILD)/libsplitroi.a
 	$(CC) $(OPT) $(SAN) -o $@ $^ $(LIBS)
 
-$(BUILD)/tests/%: tests/unit/%.c tests/unit/testlib.h $(BUILD)/libsplitroi.a
+$(BUILD)/tests/%: tests/unit/%.c $(wildcard tests/unit/*.h) $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
 

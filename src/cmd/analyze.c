@@ -316,7 +316,7 @@ sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *nco
 
 		for (i = 0; i < subject_ncolumns; i++)
 			fprintf(a.f, "%s%s", i ? "," : "", subject_columns[i]);
-		fputs("\r\n", a.f);
+		fputc('\n', a.f);
 	}
 	return afile_commit(&a, e);
 }

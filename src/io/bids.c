@@ -204,10 +204,22 @@ static sr_status scan_func(const char *func, const char *subject, const char *se
 		size_t stem = bold_stem(name);
 		long rlen;
 		int index = -1;
+		struct stat sb;
 		char *path = str_printf("%s/%s", func, name);
 		bids_run *r;
 
-		if (!entity_is(name, stem, "task", task) || !is_file(path)) {
+		if (!entity_is(name, stem, "task", task)) {
+			free(path);
+			continue;
+		}
+		/* A run that cannot be read (say, a link to data not fetched) must not vanish from the splits. */
+		if (stat(path, &sb) != 0) {
+			st = sr_fail(e, SR_EIO, "cannot access %s: %s", path, strerror(errno));
+			free(path);
+			break;
+		}
+		if (!S_ISREG(sb.st_mode)) {
+			sr_warnf(e, "ignoring %s: not a regular file", path);
 			free(path);
 			continue;
 		}

@@ -26,7 +26,13 @@ void bids_strings_free(char **s, size_t n);
 /*
  * The runs of one subject and task across sessions, ordered by run index, then
  * file name (METHODS.md section 6); runs without an index come after, labelled
- * by position. Zero runs is not an error (n = 0).
+ * by position. Zero runs is not an error (n = 0). The task entity matches
+ * exactly; entities may come in any order. Errors: no sub-<label> folder, a
+ * BOLD file that cannot be accessed (a dangling link), the same run as both
+ * .nii and .nii.gz, a run entity that is not a number. Warnings: a file whose
+ * sub-/ses- entities disagree with its folder (ignored); two runs that would
+ * share a label (for example run-1 in two sessions), in which case every run
+ * is labelled by its position instead.
  */
 sr_status bids_runs(const char *root, const char *subject, const char *task, bids_run **runs,
 		    size_t *n, sr_err *e);
@@ -35,10 +41,14 @@ void bids_runs_release(bids_run *runs, size_t n);
 /*
  * The repetition time of a run (METHODS.md sections 1 and 11): RepetitionTime
  * from the JSON sidecars by the BIDS inheritance rule (dataset-level
- * task-<label>_bold.json, then subject, session and run level, the closer
- * overriding), else header_tr (pixdim[4] in s, 0 = absent). Both present and
- * differing by more than 1e-3 s is an error naming both values and files.
- * Neither present is an error.
+ * task-<label>_bold.json, then subject, session, func/ folder
+ * (sub-X[_ses-Y]_task-<label>_bold.json) and run level, the closer one that
+ * has the key overriding), else header_tr (pixdim[4] in s; <= 0 or NaN =
+ * absent). Both present and differing by more than 1e-3 s is an error naming
+ * both values and files; when they agree the sidecar value is used. Neither
+ * present is an error. Every existing sidecar on the way is parsed: malformed
+ * JSON (file, line, column), a non-object, or a RepetitionTime that is not a
+ * positive number is an error. *tr is NaN on error.
  */
 sr_status bids_run_tr(const char *root, const bids_run *run, double header_tr, double *tr,
 		      sr_err *e);

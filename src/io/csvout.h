@@ -1,4 +1,9 @@
 /* csvout.h - RFC 4180 CSV writer for result tables, atomic (temporary file then rename). */
+/*
+ * Rows end in LF rather than RFC 4180's CRLF, so that line tools (grep, cut,
+ * awk) see clean last fields; every CSV reader accepts both. A writer is used
+ * by one thread at a time.
+ */
 #ifndef SR_CSVOUT_H
 #define SR_CSVOUT_H
 
@@ -11,9 +16,11 @@ typedef struct csvout {
 	afile file;
 	size_t ncols, col;  /* fields per row, fields written in the current row */
 	int failed;
+	size_t rows;        /* rows ended so far, header included */
+	size_t bad_row, bad_fields;  /* first row with a wrong field count (1-based), its count */
 } csvout;
 
-/* Opens path and writes the header row. */
+/* Opens path (a temporary file beside it) and writes the header row. On error nothing is left behind. */
 sr_status csvout_open(csvout *c, const char *path, const char *const *header, size_t ncols,
 		      sr_err *e);
 /* A text field (quoted when it holds a comma, quote, CR or LF). */
@@ -26,8 +33,13 @@ void csvout_int(csvout *c, long long v);
 void csvout_empty(csvout *c);
 /* Ends the row; a row with the wrong number of fields marks the writer failed. */
 void csvout_endrow(csvout *c);
-/* Checks, closes and renames into place. */
+/*
+ * Checks, closes and renames into place. A row with the wrong field count, an
+ * unfinished row or a failed write is an error and leaves no file (nor the
+ * temporary one). The writer is released either way.
+ */
 sr_status csvout_commit(csvout *c, sr_err *e);
+/* Drops the temporary file; safe after a failed open or commit. */
 void csvout_abort(csvout *c);
 
 #endif

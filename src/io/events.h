@@ -20,9 +20,13 @@ typedef struct event_list {
 /*
  * Reads an events file (METHODS.md sections 1 and 11). column names the
  * condition column (NULL means "trial_type"). Rows with n/a or empty onset or
- * condition are skipped with a warning naming file and line. Errors name file,
- * line and column: missing required column, non-numeric onset, non-numeric or
- * n/a duration, negative duration.
+ * condition are skipped with a warning (sr_warnf) naming file and line. Errors
+ * name file, line and column: missing required column (header line, with the
+ * columns present), non-numeric onset (checked even on rows that are then
+ * skipped), non-numeric, empty or n/a duration, negative duration. Negative
+ * onsets are kept (the design drops what falls before 0 s); onsets past the
+ * end of the run are the caller's to check. On error *out is empty. Rows keep
+ * file order.
  */
 sr_status events_read(const char *path, const char *column, event_list *out, sr_err *e);
 void events_release(event_list *l);

@@ -19,7 +19,7 @@
 typedef struct parse_state {
 	const char *path;
 	sr_err *e;
-	int failed;
+	int failed;                /* the message is in e; the status is always SR_EFORMAT */
 	size_t cur_line;           /* line being fed */
 	char **row;                /* fields of the row in progress */
 	size_t nrow, caprow;
@@ -262,10 +262,8 @@ sr_status table_read(const char *path, char delim, table *t, sr_err *e)
 	free(s.row);
 	free(buf);
 	if (s.failed) {
-		sr_status code = e ? e->code : SR_EFORMAT;
-
 		table_release(t);
-		return code;
+		return SR_EFORMAT;
 	}
 	return SR_OK;
 }

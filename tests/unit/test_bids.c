@@ -231,6 +231,14 @@ static void test_tr_edge(const char *dir)
 	touch(root, "sub-01/func/sub-01_task-tones_run-1_bold.nii.gz");
 	CHECK(bids_runs(root, "01", "tones", &r, &n, &e) == SR_EFORMAT && strstr(e.msg, "both") && n == 0,
 	      ".nii and .nii.gz of one run is an error (%s)", e.msg);
+	{
+		char *link = join(root, "sub-01/func/sub-01_task-rest_run-1_bold.nii.gz");
+
+		CHECK(symlink("/nonexistent/annex/object", link) == 0, "dangling link made");
+		CHECK(bids_runs(root, "01", "rest", &r, &n, &e) == SR_EIO && strstr(e.msg, "task-rest_run-1_bold.nii.gz"),
+		      "a run that cannot be read is an error, not a silently missing run (%s)", e.msg);
+		free(link);
+	}
 	touch(root, "sub-01/func/sub-01_task-memory_run-x_bold.nii");
 	CHECK(bids_runs(root, "01", "memory", &r, &n, &e) == SR_EFORMAT && strstr(e.msg, "run-x"),
 	      "a run entity that is not a number is an error (%s)", e.msg);
