@@ -70,7 +70,7 @@ check-asan: deps
 		SAN="-fsanitize=address,undefined -fno-sanitize-recover=undefined" \
 		SPLITROI_TEST_LEVEL=quick test
 
-check-valgrind: deps all $(TEST_BIN) $(TOOL_BIN)
+check-valgrind: deps all $(TEST_BIN)
 	@BUILD=$(BUILD) PYTHON=$(PYTHON) SPLITROI_VALGRIND=1 bash tests/run.sh unit
 
 demo: deps all

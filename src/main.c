@@ -16,6 +16,7 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
 	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
 	{ NULL, NULL, 0, NULL }
 };
