@@ -16,7 +16,9 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
 	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
+	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
 	{ NULL, NULL, 0, NULL }
 };
 

@@ -1,0 +1,65 @@
+#!/usr/bin/env bash
+# demo.sh - makes the demo study (invented auditory data, 8 subjects, small grid) and runs the whole job on it.
+# Usage: tools/demo.sh [BINARY]   (make demo passes build/splitroi); DEMO_DIR overrides the folder (demo).
+set -u
+BIN=${1:-build/splitroi}
+OUT=${DEMO_DIR:-demo}
+start=$(date +%s)
+
+if [ ! -x "$BIN" ]; then
+	echo "demo: no binary at $BIN (run make first)" >&2
+	exit 1
+fi
+# replace only an earlier demo, never a folder of someone else's
+if [ -e "$OUT" ]; then
+	if [ -f "$OUT/truth.csv" ] && [ -f "$OUT/study.ini" ] && [ -d "$OUT/data" ]; then
+		rm -rf "$OUT"
+	else
+		echo "demo: $OUT exists and is not an earlier demo; move it away or set DEMO_DIR" >&2
+		exit 1
+	fi
+fi
+
+echo "== simulating the demo study into $OUT/"
+"$BIN" simulate --out "$OUT" --subjects 8 --grid small --seed 1 --quiet || exit 1
+
+has() { "$BIN" help "$1" >/dev/null 2>&1; }
+if has check; then
+	echo "== checking $OUT/study.ini"
+	"$BIN" check "$OUT/study.ini" || exit 1
+else
+	echo "== (this build has no check command; skipped)"
+fi
+ran_analyze=0
+if has analyze; then
+	echo "== analyzing"
+	"$BIN" analyze "$OUT/study.ini" || exit 1
+	ran_analyze=1
+else
+	echo "== (this build has no analyze command; skipped)"
+fi
+if [ "$ran_analyze" -eq 1 ] && has group; then
+	echo "== group statistics"
+	"$BIN" group "$OUT/results" || exit 1
+fi
+
+echo
+echo "== true effects (mean over subjects, percent signal change; truth.csv)"
+awk -F, 'NR > 1 { k = $3 " " $2 " " $4; s[k] += $5; n[k]++ }
+	END { for (k in s) printf "  %-45s %7.3f\n", k, s[k] / n[k] }' "$OUT/truth.csv" | sort
+if [ -f "$OUT/results/group.csv" ]; then
+	echo
+	echo "== estimated (group.csv: parcel, split, task, effect, n, mean)"
+	awk -F, 'NR == 1 { for (i = 1; i <= NF; i++) c[$i] = i; next }
+		$c["split"] != "odd-even:A" && $c["split"] != "odd-even:B" {
+			printf "  %-18s %-15s %-8s %-18s %3s %8.3f\n", $c["parcel"], $c["split"],
+				$c["measure_task"], $c["effect"], $c["n"], $c["mean"] }' "$OUT/results/group.csv"
+fi
+echo
+echo "files:"
+echo "  dataset      $OUT/data"
+echo "  parcels      $OUT/parcels.nii.gz, $OUT/parcels.tsv"
+echo "  study file   $OUT/study.ini"
+echo "  truth        $OUT/truth.csv"
+[ -d "$OUT/results" ] && echo "  results      $OUT/results"
+echo "demo took $(($(date +%s) - start)) s"
