@@ -18,6 +18,7 @@ static const struct command {
 } commands[] = {
 	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
 	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
+	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
 	{ NULL, NULL, 0, NULL }
 };
