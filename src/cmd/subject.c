@@ -1024,3 +1024,89 @@ out:
 	}
 	return rc;
 }
+
+sr_status subject_localizer_t(const study *st, const char *label, const unsigned char *mask,
+			      int nthreads, nii_grid *grid, double **t, int **df, int *nruns,
+			      sr_err *e)
+{
+	task_fit loc;
+	runfit_spec *specs = NULL;
+	runfit_result *results = NULL;
+	sr_err *errs = NULL;
+	int *pos = NULL;
+	size_t i, nvox;
+	char buf[1024];
+	sr_status rc;
+
+	*t = NULL;
+	*df = NULL;
+	*nruns = 0;
+	memset(&loc, 0, sizeof loc);
+	loc.task = st->loc_task;
+	loc.effects = &st->contrast;
+	loc.ne = 1;
+	rc = task_prepare(st, label, &loc, e);
+	if (rc)
+		goto out;
+	specs = xcalloc(loc.nruns, sizeof *specs);
+	results = xcalloc(loc.nruns, sizeof *results);
+	errs = xcalloc(loc.nruns, sizeof *errs);
+	task_specs(st, &loc, mask, specs);
+	for (i = 0; i < loc.nruns; i++)
+		sr_err_init(&errs[i], e->warn, e->warn_ctx);
+	rc = runfit_many(specs, (int)loc.nruns, nthreads, results, errs);
+	loc.res = results;   /* released with loc, fitted or not */
+	results = NULL;
+	if (rc) {
+		for (i = 0; i < loc.nruns; i++)
+			if (errs[i].code) {
+				sr_fail(e, errs[i].code, "%s", errs[i].msg);
+				break;
+			}
+		goto out;
+	}
+	*grid = loc.res[0].info.grid;
+	nvox = nii_nvox(grid);
+	for (i = 1; i < loc.nruns; i++)
+		if (!nii_same_grid(grid, &loc.res[i].info.grid, 1e-3, buf, sizeof buf)) {
+			rc = sr_fail(e, SR_EDIM, "%s: not on the grid of %s: %s", loc.runs[i].bold,
+				     loc.runs[0].bold, buf);
+			goto out;
+		}
+	warn_estimability(&loc, e);
+	pos = xmalloc_array(loc.nruns, sizeof *pos);
+	for (i = 0; i < loc.nruns; i++)
+		pos[i] = (int)i;
+	*t = xmalloc_array(nvox, sizeof **t);
+	*df = xmalloc_array(nvox, sizeof **df);
+	{
+		const double **ef = xmalloc_array(loc.nruns, sizeof *ef);
+		const double **va = xmalloc_array(loc.nruns, sizeof *va);
+		int *rdf = xmalloc_array(loc.nruns, sizeof *rdf);
+		double *E = xmalloc_array(nvox, sizeof *E);
+
+		for (i = 0; i < loc.nruns; i++) {
+			ef[i] = loc.res[i].out.effect;
+			va[i] = loc.res[i].out.var;
+			rdf[i] = loc.res[i].out.df;
+		}
+		glm_ffx(nvox, (int)loc.nruns, ef, va, rdf, E, NULL, *t, *df);
+		free(ef);
+		free(va);
+		free(rdf);
+		free(E);
+	}
+	if (loc.missing[0])
+		for (i = 0; i < nvox; i++) {
+			(*t)[i] = NAN;
+			(*df)[i] = 0;
+		}
+	*nruns = (int)loc.nruns;
+out:
+	free(pos);
+	free(specs);
+	free(results);
+	free(errs);
+	task_release(&loc);
+	return rc;
+}
