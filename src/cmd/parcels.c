@@ -226,7 +226,7 @@ static sr_status group_parcels(unsigned char *const *sig, size_t nsub, const nii
 	double sigma[3];
 	int32_t *lab = xmalloc_array(nvox, sizeof *lab), nlab = 0, l, *map = NULL, nkeep = 0;
 	unsigned char *hit = NULL;
-	size_t *size = NULL;
+	size_t *size = NULL, *nhave = NULL;
 	double *com = NULL, *peak = NULL;
 	sr_status rc;
 
@@ -260,21 +260,24 @@ static sr_status group_parcels(unsigned char *const *sig, size_t nsub, const nii
 	for (v = 0; v < nvox; v++)
 		if (lab[v] && ov[v] > peak[lab[v] - 1])
 			peak[lab[v] - 1] = ov[v];
+	/* per region, the subjects with at least one suprathreshold voxel in it */
+	nhave = xcalloc((size_t)nlab + 1, sizeof *nhave);
+	for (s = 0; s < nsub; s++) {
+		if (!sig[s])
+			continue;
+		memset(hit, 0, (size_t)nlab + 1);
+		for (v = 0; v < nvox; v++)
+			if (lab[v] && sig[s][v])
+				hit[lab[v] - 1] = 1;
+		for (l = 0; l < nlab; l++)
+			nhave[l] += hit[l];
+	}
 	pset_alloc_rows(p, nlab);
 	for (l = 0; l < nlab; l++) {
-		size_t have = 0;
+		size_t have = nhave[l];
 
 		if ((long)size[l] < gp->min_size)
 			continue;
-		/* subjects with at least one suprathreshold voxel in the region */
-		for (s = 0; s < nsub; s++) {
-			if (!sig[s])
-				continue;
-			for (v = 0; v < nvox; v++)
-				if (lab[v] == l + 1 && sig[s][v])
-					break;
-			have += v < nvox;
-		}
 		if ((double)have / (double)nused < gp->min_share - 1e-12)
 			continue;
 		map[l] = ++nkeep;
@@ -308,6 +311,7 @@ out:
 	free(com);
 	free(peak);
 	free(hit);
+	free(nhave);
 	free(map);
 	if (rc)
 		pset_release(p);
