@@ -189,7 +189,8 @@ sr_status watershed_label(const double *f, int64_t nx, int64_t ny, int64_t nz, d
 		nmk++;
 	}
 	/* number the basins by peak, highest first */
-	qsort(mk, nmk, sizeof *mk, cmp_marker);
+	if (nmk)
+		qsort(mk, nmk, sizeof *mk, cmp_marker);
 	remap = xmalloc_array(nmk + 1, sizeof *remap);
 	remap[0] = 0;
 	for (m = 0; m < nmk; m++)
