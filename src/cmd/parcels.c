@@ -21,7 +21,7 @@
 enum {
 	OPT_OUT, OPT_P, OPT_T, OPT_FWHM, OPT_MINSIZE, OPT_MINSHARE, OPT_CONN, OPT_FLOOR, OPT_LOO,
 	OPT_THREADS, OPT_SPHERES, OPT_GRID, OPT_RADIUS, OPT_FROM, OPT_KEEP, OPT_NAMES, OPT_QUIET,
-	OPT_HELP, NOPT
+	NOPT
 };
 
 static const cmdline_opt parcels_opts[] = {
@@ -42,7 +42,6 @@ static const cmdline_opt parcels_opts[] = {
 	{ "keep", "L1,L2,...", "labels of --from to keep" },
 	{ "names", "NAMES.tsv", "names of the --from labels (columns index, name)" },
 	{ "quiet", NULL, "print nothing but errors" },
-	{ "help", NULL, "show this help" },
 	{ NULL, NULL, NULL },
 };
 
@@ -61,7 +60,8 @@ static const cmdline_spec parcels_spec = {
 	"subject, labelled like the matching parcels of the whole group; point the study "
 	"at them with image = DIR/without-sub-{subject}/parcels.nii.gz so that no "
 	"subject's fROI comes from parcels its own data shaped. "
-	"The study's subjects must share one grid.",
+	"The study's subjects must share one grid, and the study file must load as for "
+	"analyze (its [parcels] image must exist; any label image will do the first time).",
 	parcels_opts,
 };
 
