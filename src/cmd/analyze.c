@@ -28,9 +28,10 @@ static const cmdline_opt opts[] = {
 	{ "force", NULL, "redo subjects whose outputs are complete and up to date" },
 	{ "no-group", NULL, "skip the group step (per-subject tables only)" },
 	{ "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
+	{ "collect", NULL, "fit nothing: rebuild OUT/responses.csv from the complete subjects, then the group step" },
 	{ NULL, NULL, NULL },
 };
-enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET };
+enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT };
 
 static const cmdline_spec spec = {
 	"analyze", "STUDY.ini [options]",
@@ -39,7 +40,8 @@ static const cmdline_spec spec = {
 	"the responses on the other half (and in the measured tasks), and writes\n"
 	"OUT/sub-<label>/responses.csv, the combined OUT/responses.csv, maps per split,\n"
 	"and the group table. Subjects whose outputs are complete and newer than their\n"
-	"inputs are skipped (see --force).",
+	"inputs are skipped (see --force). --collect is the last step of a run split\n"
+	"into one job per subject (see 'splitroi slurm').",
 	opts,
 };
 
@@ -83,8 +85,7 @@ static int cmp_str(const void *a, const void *b)
 	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
-/* The study's subjects: its list or every sub-* folder. */
-static sr_status study_subjects(const study *st, char ***out, size_t *n, sr_err *e)
+sr_status analyze_study_subjects(const study *st, char ***out, size_t *n, sr_err *e)
 {
 	char **found;
 	size_t nfound, i;
@@ -117,12 +118,13 @@ static sr_status study_subjects(const study *st, char ***out, size_t *n, sr_err 
 /* ---- conditions named in effects must exist for some subject (METHODS.md section 11) ---- */
 
 static sr_status task_conditions(const study *st, char **subs, size_t nsub, const char *task,
-				 char ***conds, size_t *ncond, sr_err *e)
+				 char ***conds, size_t *ncond, size_t *nruns, sr_err *e)
 {
 	size_t s, cap = 0;
 
 	*conds = NULL;
 	*ncond = 0;
+	*nruns = 0;
 	for (s = 0; s < nsub; s++) {
 		bids_run *runs;
 		size_t nr, r;
@@ -130,6 +132,7 @@ static sr_status task_conditions(const study *st, char **subs, size_t nsub, cons
 
 		if (rc)
 			return rc;
+		*nruns += nr;
 		for (r = 0; r < nr; r++) {
 			event_list ev;
 			size_t k;
@@ -183,13 +186,19 @@ static int check_all_effects(const study *st, char **subs, size_t nsub)
 	for (t = 0; t < ntasks; t++) {
 		const char *task = t ? st->measures[t - 1].task : st->loc_task;
 		char **conds;
-		size_t ncond, c;
+		size_t ncond, c, nruns;
 		sr_err e;
 
 		sr_err_init(&e, NULL, NULL);
-		if (task_conditions(st, subs, nsub, task, &conds, &ncond, &e)) {
+		if (task_conditions(st, subs, nsub, task, &conds, &ncond, &nruns, &e)) {
 			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 			return 1;
+		}
+		if (nruns == 0) {
+			fprintf(stderr, "splitroi analyze: %s: no subject has runs of task '%s' under %s (files named sub-<label>_task-%s_..._bold.nii[.gz])\n",
+				st->path, task, st->bids, task);
+			bad++;
+			continue;
 		}
 		if (t == 0) {
 			bad += check_effects(st, task, &st->contrast, 1, conds, ncond);
@@ -321,6 +330,28 @@ sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *nco
 	return afile_commit(&a, e);
 }
 
+/* The combined table exists and is newer than every subject's completion record. */
+static int combined_up_to_date(const study *st, char **subs, size_t nsub)
+{
+	char path[4096];
+	double combined;
+	size_t s;
+
+	snprintf(path, sizeof path, "%s/responses.csv", st->out);
+	combined = mtime_of(path);
+	if (combined < 0)
+		return 0;
+	snprintf(path, sizeof path, "%s/group.csv", st->out);
+	if (mtime_of(path) < combined)
+		return 0;
+	for (s = 0; s < nsub; s++) {
+		snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, subs[s]);
+		if (mtime_of(path) > combined)
+			return 0;
+	}
+	return 1;
+}
+
 /* ---- running subjects, possibly several at a time ---- */
 
 typedef struct work {
@@ -414,9 +445,69 @@ static void print_summary(const study *st, const subject_result *res, const int 
 	free(parcels);
 }
 
+/*
+ * --collect: the combined table and the group step from what the per-subject jobs
+ * left. Incomplete subjects are named here and the group step marks its table
+ * incomplete; neither makes this fail, so one failed subject cannot hold back
+ * the table of the others.
+ */
+static int collect(const study *st, char **subs, size_t nsub, int group, int quiet)
+{
+	size_t i, ncomplete = 0, nmiss = 0;
+	sr_err e;
+	int rc = 0;
+
+	sr_err_init(&e, NULL, NULL);
+	if (afile_mkdirs(st->out, &e) || analyze_combine(st, subs, nsub, &ncomplete, &e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+		return 1;
+	}
+	if (ncomplete < nsub) {
+		fprintf(stderr, "splitroi analyze: %zu of %zu subjects have no complete, up-to-date outputs:",
+			nsub - ncomplete, nsub);
+		for (i = 0; i < nsub && nmiss < 20; i++)
+			if (!analyze_subject_complete(st, subs[i])) {
+				fprintf(stderr, " sub-%s", subs[i]);
+				nmiss++;
+			}
+		fprintf(stderr, "%s\n", nsub - ncomplete > nmiss ? " ..." : "");
+	}
+	if (group) {
+		/* the study's list, not the sub-* folders: a subject whose job failed before
+		   writing anything is then listed as missing instead of passing unnoticed */
+		size_t len = 1;
+		char *list, *gargv[6];
+		int gargc = 0;
+
+		for (i = 0; i < nsub; i++)
+			len += strlen(subs[i]) + 1;
+		list = xmalloc(len);
+		list[0] = 0;
+		for (i = 0; i < nsub; i++) {
+			if (i)
+				strcat(list, ",");
+			strcat(list, subs[i]);
+		}
+		gargv[gargc++] = "group";
+		gargv[gargc++] = st->out;
+		gargv[gargc++] = "--subjects";
+		gargv[gargc++] = list;
+		if (quiet)
+			gargv[gargc++] = "--quiet";
+		gargv[gargc] = NULL;
+		if (cmd_group(gargc, gargv))
+			rc = 1;
+		free(list);
+	}
+	if (!quiet)
+		printf("%zu of %zu subjects complete; tables: %s/responses.csv%s\n", ncomplete, nsub,
+		       st->out, group ? ", group tables" : "");
+	return rc;
+}
+
 int cmd_analyze(int argc, char **argv)
 {
-	const char *val[8], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	const char *val[9], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	int npos, rc, quiet, nfail = 0;
 	long jobs = 1, threads = 0;
 	study st;
@@ -448,6 +539,11 @@ int cmd_analyze(int argc, char **argv)
 		return 2;
 	}
 	quiet = val[O_QUIET] != NULL;
+	if (val[O_COLLECT] && (val[O_SUBJECTS] || val[O_FORCE] || val[O_JOBS] || val[O_THREADS])) {
+		cmdline_error("analyze", "--collect fits nothing: it takes no --subjects, --force, --jobs or --threads");
+		free(pos);
+		return 2;
+	}
 	if (study_load(pos[0], &st, &probs) != SR_OK) {
 		for (i = 0; i < probs.n; i++)
 			fprintf(stderr, "splitroi analyze: %s\n", probs.msg[i]);
@@ -468,7 +564,7 @@ int cmd_analyze(int argc, char **argv)
 	}
 	sr_err_init(&e, NULL, NULL);
 	rc = 1;
-	if (study_subjects(&st, &subs, &nsub, &e)) {
+	if (analyze_study_subjects(&st, &subs, &nsub, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_study;
 	}
@@ -478,6 +574,10 @@ int cmd_analyze(int argc, char **argv)
 	}
 	if (check_all_effects(&st, subs, nsub))
 		goto out_subs;
+	if (val[O_COLLECT]) {
+		rc = collect(&st, subs, nsub, !val[O_NOGROUP], quiet);
+		goto out_subs;
+	}
 	if (val[O_SUBJECTS]) {
 		todo = split_labels(val[O_SUBJECTS], &ntodo);
 		for (i = 0; i < ntodo; i++)
@@ -573,13 +673,20 @@ int cmd_analyze(int argc, char **argv)
 		ran[i] = !w.status[i];
 		nfail += w.status[i];
 	}
-	if (analyze_combine(&st, subs, nsub, &ncomplete, &e)) {
-		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-		nfail++;
-	}
-	if (!val[O_NOGROUP])
-		if (analyze_group_step(st.out, quiet))
+	if (ntodo == 0 && combined_up_to_date(&st, subs, nsub)) {
+		if (!quiet)
+			fprintf(stderr, "splitroi analyze: every subject is up to date; tables left as they are\n");
+		for (i = 0; i < nsub; i++)
+			ncomplete += (size_t)analyze_subject_complete(&st, subs[i]);
+	} else {
+		if (analyze_combine(&st, subs, nsub, &ncomplete, &e)) {
+			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 			nfail++;
+		}
+		if (!val[O_NOGROUP])
+			if (analyze_group_step(st.out, quiet))
+				nfail++;
+	}
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);
 		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",
