@@ -170,6 +170,16 @@ def main():
                 ok &= any(lr["name"] == row["name"] and int(lr["index"]) == i for lr in lrows)
                 ok &= dice(lo == i, lab == i) > 0.5
         report(ok, "leave-one-out parcels carry the group's index and name for the same region")
+        # each set's overlap is the group's minus exactly one subject's binary map
+        full_ov = np.asanyarray(nib.load(os.path.join(out, "overlap.nii.gz")).dataobj).astype(float)
+        ok = True
+        for s in range(6):
+            d = os.path.join(out, "without-sub-%02d" % (s + 1))
+            lo_ov = np.asanyarray(nib.load(os.path.join(d, "overlap.nii.gz")).dataobj).astype(float)
+            diff = 6 * full_ov - 5 * lo_ov
+            ok &= bool(np.all(np.isclose(diff, 0, atol=1e-5) | np.isclose(diff, 1, atol=1e-5)))
+            ok &= bool(np.isclose(diff, 1, atol=1e-5).sum() > 20)
+        report(ok, "without-sub-X overlap = (6 x group overlap - X's suprathreshold map) / 5")
     return 1 if failed else 0
 
 
