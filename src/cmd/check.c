@@ -761,7 +761,7 @@ static int run_check(checker *c, char **subs, size_t nsub)
 		sl_free(&known);
 		sl_free(&reported);
 	}
-	if (study_per_subject(st->parcels)) {
+	if (study_per_subject(st->parcels) || study_per_subject(st->parcel_names)) {
 		/* each subject's own parcels (made without its data): check every one */
 		const study *whole = c->st;
 
@@ -769,10 +769,12 @@ static int run_check(checker *c, char **subs, size_t nsub)
 			study one = *whole;
 
 			one.parcels = study_subject_path(whole->parcels, subs[s]);
+			one.parcel_names = study_subject_path(whole->parcel_names, subs[s]);
 			c->st = &one;
 			check_parcels(c, grids, ngrids);
 			c->st = whole;
 			free(one.parcels);
+			free(one.parcel_names);
 		}
 	} else {
 		check_parcels(c, grids, ngrids);

@@ -32,6 +32,7 @@
 #include "../core/sim.h"
 #include "../core/text.h"
 #include "../io/afile.h"
+#include "../io/csvout.h"
 #include "../io/jdoc.h"
 #include "../io/nii.h"
 
@@ -468,7 +469,7 @@ static void subject_release(struct subject *s)
 }
 
 /* Rows of truth.csv for one subject and task (kind 0 localizer, 1 measured). */
-static void truth_rows(FILE *f, const struct opts *o, const struct subject *s, const char *sub,
+static void truth_rows(csvout *c, const struct opts *o, const struct subject *s, const char *sub,
 		       int kind, double *topmean, size_t *ntop, size_t *npar)
 {
 	const char *task = kind ? o->sc->meas_task : o->sc->loc_task;
@@ -491,9 +492,15 @@ static void truth_rows(FILE *f, const struct opts *o, const struct subject *s, c
 				pv = peak[0] - peak[1];
 				snprintf(name, sizeof name, "%s-%s", cond[0], cond[1]);
 			}
-			/* names are identifiers (no comma or quote), so no field needs quoting */
-			fprintf(f, "%s,%s,%s,%s,%.9g,%.9g,%zu,%zu\n", sub, o->sc->parcel[p - 1], task, name,
-				pv * topmean[p - 1] + 0.0, pv + 0.0, ntop[p - 1], npar[p - 1]);
+			csvout_str(c, sub);
+			csvout_str(c, o->sc->parcel[p - 1]);
+			csvout_str(c, task);
+			csvout_str(c, name);
+			csvout_num(c, pv * topmean[p - 1] + 0.0);
+			csvout_num(c, pv + 0.0);
+			csvout_int(c, (long long)ntop[p - 1]);
+			csvout_int(c, (long long)npar[p - 1]);
+			csvout_endrow(c);
 		}
 	}
 }
@@ -649,7 +656,7 @@ out:
 }
 
 static sr_status simulate_subject(const struct opts *o, struct subject *s, const nii_grid *g,
-				  const sim_space *sp, const sim_head *h, long subj, FILE *truth,
+				  const sim_space *sp, const sim_head *h, long subj, csvout *truth,
 				  sr_err *e)
 {
 	char sub[32], dir[512];
@@ -701,12 +708,14 @@ static sr_status simulate_subject(const struct opts *o, struct subject *s, const
 
 int cmd_simulate(int argc, char **argv)
 {
+	static const char *const truth_cols[] = { "subject", "parcel", "task", "effect", "value",
+						  "peak_value", "n_top", "n_parcel" };
 	struct opts o;
 	struct subject s;
 	nii_grid g;
 	sim_space sp;
 	sim_head h;
-	afile truth;
+	csvout truth;
 	sr_err e;
 	sr_status st;
 	char *data, *p;
@@ -738,24 +747,22 @@ int cmd_simulate(int argc, char **argv)
 		return 1;
 	}
 	p = path_join(o.out, "truth.csv");
-	st = afile_open(&truth, p, &e);
+	st = csvout_open(&truth, p, truth_cols, 8, &e);
 	free(p);
-	if (st == SR_OK)
-		fprintf(truth.f, "subject,parcel,task,effect,value,peak_value,n_top,n_parcel\n");
 	if (st != SR_OK) {
 		cmdline_error("simulate", "%s", e.msg);
 		return 1;
 	}
 	subject_alloc(&s, nii_nvox(&g));
 	for (subj = 1; subj <= o.subjects && st == SR_OK; subj++)
-		st = simulate_subject(&o, &s, &g, &sp, &h, subj, truth.f, &e);
+		st = simulate_subject(&o, &s, &g, &sp, &h, subj, &truth, &e);
 	subject_release(&s);
 	if (st != SR_OK) {
-		afile_abort(&truth);
+		csvout_abort(&truth);
 		cmdline_error("simulate", "%s", e.msg);
 		return 1;
 	}
-	st = afile_commit(&truth, &e);
+	st = csvout_commit(&truth, &e);
 	if (st == SR_OK)
 		st = write_study(&o, &e);
 	if (st != SR_OK) {

@@ -876,7 +876,8 @@ static void load_parcels(struct loader *ld, study *s)
 	else
 		/* with {subject}, each subject's file is checked when it is read */
 		s->parcels = path_key(ld, e, study_per_subject(e->value) ? 0 : 1);
-	s->parcel_names = path_key(ld, get(ld, "parcels", "names"), 1);
+	e = get(ld, "parcels", "names");
+	s->parcel_names = path_key(ld, e, e && study_per_subject(e->value) ? 0 : 1);
 	s->resample_parcels = choice(ld, get(ld, "parcels", "resample"), resample, 2, 0);
 	for (i = 0; i < 3; i++) {
 		sel[i] = get(ld, "parcels", selkey[i]);

@@ -185,3 +185,12 @@ expect_err "not empty" "refusal says why"
 run "$SPLITROI" help simulate
 expect_status 0 "help simulate"
 expect_out "truth.csv" "help explains truth.csv"
+
+# the study file it writes is one the study checker accepts
+if "$SPLITROI" help check >/dev/null 2>&1; then
+	run "$SPLITROI" check "$TMP/a/study.ini"
+	expect_status 0 "splitroi check accepts the simulated study.ini"
+	expect_out "no problems found" "check finds no problem in the simulated study"
+else
+	echo "skip - splitroi check not in this build"
+fi
