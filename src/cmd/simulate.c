@@ -312,7 +312,7 @@ static sr_status write_top(const struct opts *o, const char *data, sr_err *e)
 {
 	const struct scenario *sc = o->sc;
 	const char *tasks[2] = { sc->loc_task, sc->meas_task };
-	char name[256], *p, *text;
+	char name[256], meas[256], *p, *text;
 	size_t cap, len = 0;
 	sr_status st;
 	long s;
@@ -324,6 +324,12 @@ static sr_status write_top(const struct opts *o, const char *data, sr_err *e)
 		jdoc_set_str(d, "Name", sc->title);
 		jdoc_set_str(d, "BIDSVersion", "1.8.0");
 		jdoc_set_str(d, "DatasetType", "raw");
+		{
+			jdoc *au = jdoc_array();
+
+			jdoc_push_str(au, "splitroi simulate (invented data, no participants)");
+			jdoc_set(d, "Authors", au);
+		}
 		p = path_join(data, "dataset_description.json");
 		st = jdoc_write(d, p, e);
 		jdoc_free(d);
@@ -359,8 +365,22 @@ static sr_status write_top(const struct opts *o, const char *data, sr_err *e)
 	if (st != SR_OK)
 		return st;
 	p = path_join(data, "README");
-	snprintf(name, sizeof name, "Simulated data (%s), made by splitroi simulate.\n", sc->title);
-	st = write_text(p, name, e);
+	text = xmalloc(2048);
+	meas[0] = '\0';
+	if (sc->meas_task)
+		snprintf(meas, sizeof meas, "Measured task '%s' (events %s, %s) in %d runs.\n",
+			 sc->meas_task, sc->meas_cond[0], sc->meas_cond[1], MEASURE_RUNS);
+	snprintf(text, 2048,
+		 "%s\n\n"
+		 "Simulated data made by splitroi simulate (seed %llu); no person was scanned.\n"
+		 "Localizer task '%s' (blocks %s, %s) in %ld runs.\n%s"
+		 "Each run has %ld volumes at a repetition time of %g s. The true effects\n"
+		 "are in truth.csv beside this folder. Motion confounds are in\n"
+		 "*%s beside each run (listed in .bidsignore).\n",
+		 sc->title, (unsigned long long)o->seed, sc->loc_task, sc->loc_cond[0],
+		 sc->loc_cond[1], o->runs, meas, o->volumes, o->tr, CONFOUNDS_SUFFIX);
+	st = write_text(p, text, e);
+	free(text);
 	free(p);
 	if (st != SR_OK)
 		return st;
