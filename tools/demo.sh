@@ -44,16 +44,21 @@ if [ "$ran_analyze" -eq 1 ] && has group; then
 fi
 
 echo
-echo "== true effects (mean over subjects, percent signal change; truth.csv)"
-awk -F, 'NR > 1 { k = $3 " " $2 " " $4; s[k] += $5; n[k]++ }
-	END { for (k in s) printf "  %-45s %7.3f\n", k, s[k] / n[k] }' "$OUT/truth.csv" | sort
 if [ -f "$OUT/results/group.csv" ]; then
-	echo
-	echo "== estimated (group.csv: parcel, split, task, effect, n, mean)"
-	awk -F, 'NR == 1 { for (i = 1; i <= NF; i++) c[$i] = i; next }
-		$c["split"] != "odd-even:A" && $c["split"] != "odd-even:B" {
-			printf "  %-18s %-15s %-8s %-18s %3s %8.3f\n", $c["parcel"], $c["split"],
-				$c["measure_task"], $c["effect"], $c["n"], $c["mean"] }' "$OUT/results/group.csv"
+	echo "== estimated group means next to the truth (percent signal change, mean over subjects)"
+	awk -F, 'FNR == NR { if (FNR > 1) { k = $3 "|" $2 "|" $4; s[k] += $5; n[k]++ } next }
+		FNR == 1 { for (i = 1; i <= NF; i++) c[$i] = i
+			printf "  %-18s %-8s %-18s %-15s %3s %8s %8s\n", "parcel", "task", "effect", "split", "n", "mean", "truth"
+			next }
+		$c["split"] ~ /:mean$|^all$/ {
+			k = $c["measure_task"] "|" $c["parcel"] "|" $c["effect"]
+			printf "  %-18s %-8s %-18s %-15s %3s %8.3f %8.3f\n", $c["parcel"], $c["measure_task"],
+				$c["effect"], $c["split"], $c["n"], $c["mean"], (k in n) ? s[k] / n[k] : 0 }' \
+		"$OUT/truth.csv" "$OUT/results/group.csv"
+else
+	echo "== true effects (mean over subjects, percent signal change; truth.csv)"
+	awk -F, 'NR > 1 { k = $3 " " $2 " " $4; s[k] += $5; n[k]++ }
+		END { for (k in s) printf "  %-45s %7.3f\n", k, s[k] / n[k] }' "$OUT/truth.csv" | sort
 fi
 echo
 echo "files:"
