@@ -17,6 +17,7 @@ static const struct command {
 	const char *summary;
 } commands[] = {
 	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
+	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
 	{ NULL, NULL, 0, NULL }
 };

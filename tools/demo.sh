@@ -26,7 +26,13 @@ echo "== simulating the demo study into $OUT/"
 has() { "$BIN" help "$1" >/dev/null 2>&1; }
 if has check; then
 	echo "== checking $OUT/study.ini"
-	"$BIN" check "$OUT/study.ini" || exit 1
+	# the full listing goes to a file; only its verdict is shown unless it fails
+	if "$BIN" check "$OUT/study.ini" >"$OUT/check.txt" 2>&1; then
+		tail -1 "$OUT/check.txt" | sed 's/^/   /'
+	else
+		cat "$OUT/check.txt"
+		exit 1
+	fi
 else
 	echo "== (this build has no check command; skipped)"
 fi
@@ -66,5 +72,6 @@ echo "  dataset      $OUT/data"
 echo "  parcels      $OUT/parcels.nii.gz, $OUT/parcels.tsv"
 echo "  study file   $OUT/study.ini"
 echo "  truth        $OUT/truth.csv"
+[ -f "$OUT/check.txt" ] && echo "  check        $OUT/check.txt"
 [ -d "$OUT/results" ] && echo "  results      $OUT/results"
 echo "demo took $(($(date +%s) - start)) s"

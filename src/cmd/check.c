@@ -322,6 +322,10 @@ static void print_splits(checker *c, const char *label, const task_seen *ts)
 {
 	size_t n = ts->nruns, i, j, *a, *b, na = 0, nb = 0;
 
+	if (n == 0) {
+		printf("    sub-%s: no localizer runs\n", label);
+		return;  /* already a problem */
+	}
 	if (n < 2) {
 		char msg[512];
 
@@ -415,6 +419,12 @@ static void check_names(checker *c, const char *section, const char *key, const 
 }
 
 /* ---- parcels and mask ---- */
+
+/* A distinct data grid and the first run found on it. */
+typedef struct data_grid {
+	nii_grid g;
+	char path[1024];
+} data_grid;
 
 /* The parcel image and its names, read the way a fit reads them but listing every bad row. */
 typedef struct parcels {
@@ -511,7 +521,7 @@ static const char *parcel_name(const table *t, int ci, int cn, int32_t label)
 	return NULL;
 }
 
-static void check_parcels(checker *c, const nii_grid *data, int have_data, const char *data_path)
+static void check_parcels(checker *c, const data_grid *grids, size_t ngrids)
 {
 	const study *st = c->st;
 	parcels ps;
@@ -520,7 +530,7 @@ static void check_parcels(checker *c, const nii_grid *data, int have_data, const
 	sr_err e;
 	char why[1024], msg[2048];
 	int32_t *on_data = NULL;
-	size_t nv = 0, i, r;
+	size_t nv = 0, i, r, g;
 
 	if (load_parcels(c, &ps))
 		return;
@@ -566,8 +576,18 @@ static void check_parcels(checker *c, const nii_grid *data, int have_data, const
 	}
 	printf("parcels: %s (%lld x %lld x %lld), %zu parcel%s\n", st->parcels, (long long)ps.grid.nx,
 	       (long long)ps.grid.ny, (long long)ps.grid.nz, ps.n, ps.n == 1 ? "" : "s");
-	if (have_data && !nii_same_grid(data, &ps.grid, 1e-3, why, sizeof why)) {
-		if (st->resample_parcels) {
+	for (g = 0; g < ngrids; g++) {
+		const nii_grid *data = &grids[g].g;
+
+		if (nii_same_grid(data, &ps.grid, 1e-3, why, sizeof why))
+			continue;
+		if (!st->resample_parcels) {
+			snprintf(msg, sizeof msg,
+				 "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
+				 st->parcels, grids[g].path, why);
+			problem(c, msg);
+		} else if (!on_data) {
+			/* voxel counts are shown on the first grid that needs resampling */
 			int64_t sn[3] = { ps.grid.nx, ps.grid.ny, ps.grid.nz };
 			int64_t tn[3] = { data->nx, data->ny, data->nz };
 
@@ -578,15 +598,10 @@ static void check_parcels(checker *c, const nii_grid *data, int have_data, const
 				problem(c, msg);
 				free(on_data);
 				on_data = NULL;
-			} else {
-				printf("  resampled (nearest neighbour) onto the data grid of %s\n",
-				       base(data_path));
+				break;
 			}
-		} else {
-			snprintf(msg, sizeof msg,
-				 "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
-				 st->parcels, data_path, why);
-			problem(c, msg);
+			printf("  resampled (nearest neighbour) onto the data grid of %s\n",
+			       base(grids[g].path));
 		}
 	}
 	printf("  %6s  %-24s %8s%s\n", "index", "name", "voxels", on_data ? "  on data grid" : "");
@@ -625,13 +640,13 @@ static void check_parcels(checker *c, const nii_grid *data, int have_data, const
 	free(ps.count);
 }
 
-static void check_mask(checker *c, const nii_grid *data, int have_data, const char *data_path)
+static void check_mask(checker *c, const data_grid *grids, size_t ngrids)
 {
 	const study *st = c->st;
 	nii_info info;
 	double *d;
 	sr_err e;
-	size_t v, n, count = 0;
+	size_t v, n, g, count = 0;
 	char why[1024], msg[2048];
 
 	if (!st->mask)
@@ -650,10 +665,12 @@ static void check_mask(checker *c, const nii_grid *data, int have_data, const ch
 		snprintf(msg, sizeof msg, "%s: the mask is empty", st->mask);
 		problem(c, msg);
 	}
-	if (have_data && !nii_same_grid(data, &info.grid, 1e-3, why, sizeof why)) {
-		snprintf(msg, sizeof msg, "%s: the mask is not on the data grid of %s: %s", st->mask,
-			 data_path, why);
-		problem(c, msg);
+	for (g = 0; g < ngrids; g++) {
+		if (!nii_same_grid(&grids[g].g, &info.grid, 1e-3, why, sizeof why)) {
+			snprintf(msg, sizeof msg, "%s: the mask is not on the data grid of %s: %s",
+				 st->mask, grids[g].path, why);
+			problem(c, msg);
+		}
 	}
 }
 
@@ -664,9 +681,8 @@ static int run_check(checker *c, char **subs, size_t nsub)
 	const study *st = c->st;
 	size_t ntasks = 1 + st->nmeasures, s, t;
 	task_seen *seen = xcalloc(nsub > 0 ? nsub * ntasks : 1, sizeof *seen);
-	nii_grid first_grid;
-	int have_first = 0;
-	char first_path[1024] = "";
+	data_grid *grids = xcalloc(nsub ? nsub : 1, sizeof *grids);
+	size_t ngrids = 0;
 
 	for (s = 0; s < nsub; s++) {
 		nii_grid ref;
@@ -699,22 +715,17 @@ static int run_check(checker *c, char **subs, size_t nsub)
 			for (r = 0; r < ts->nruns; r++)
 				check_run(c, &ts->runs[r], ts, &ref, &have_ref, ref_path, sizeof ref_path);
 		}
-		if (have_ref && !have_first) {
-			first_grid = ref;
-			have_first = 1;
-			snprintf(first_path, sizeof first_path, "%s", ref_path);
-		} else if (have_ref && have_first) {
-			char why[1024];
+		if (have_ref) {
+			size_t g;
+			char why[8];
 
-			/* parcels and mask are checked against the first subject's grid only */
-			if (!nii_same_grid(&first_grid, &ref, 1e-3, why, sizeof why) &&
-			    !st->resample_parcels) {
-				char msg[2048];
-
-				snprintf(msg, sizeof msg,
-					 "%s: sub-%s's data are on another grid than %s (%s); one parcel image cannot fit both without 'resample = nearest'",
-					 ref_path, subs[s], first_path, why);
-				problem(c, msg);
+			for (g = 0; g < ngrids; g++)
+				if (nii_same_grid(&grids[g].g, &ref, 1e-3, why, sizeof why))
+					break;
+			if (g == ngrids) {
+				grids[ngrids].g = ref;
+				snprintf(grids[ngrids].path, sizeof grids[ngrids].path, "%s", ref_path);
+				ngrids++;
 			}
 		}
 	}
@@ -750,8 +761,9 @@ static int run_check(checker *c, char **subs, size_t nsub)
 		sl_free(&known);
 		sl_free(&reported);
 	}
-	check_parcels(c, &first_grid, have_first, first_path);
-	check_mask(c, &first_grid, have_first, first_path);
+	check_parcels(c, grids, ngrids);
+	check_mask(c, grids, ngrids);
+	free(grids);
 	for (s = 0; s < nsub * ntasks; s++) {
 		bids_runs_release(seen[s].runs, seen[s].nruns);
 		sl_free(&seen[s].conds);

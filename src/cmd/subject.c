@@ -619,11 +619,78 @@ static jdoc *inputs_record(const task_fit *t)
 		jdoc_set_str(o, "events", t->runs[r].events);
 		jdoc_set_str(o, "confounds", t->confpath[r]);
 		jdoc_set_str(o, "run", t->runs[r].label);
-		jdoc_set_int(o, "rank", t->res[r].d.p ? t->res[r].d.p : 0);
+		jdoc_set_int(o, "rank", (long long)in->nt - t->res[r].out.df);
 		jdoc_set_int(o, "df", t->res[r].out.df);
 		jdoc_push(a, o);
 	}
 	return a;
+}
+
+/* Writes a run's design matrix as CSV, columns named (conditions, confounds, drift_q, constant). */
+static sr_status write_design(const char *path, const task_fit *t, size_t r,
+			      const study *st, sr_err *e)
+{
+	const design *d = &t->res[r].d;
+	const char **hdr = xcalloc((size_t)d->p + 1, sizeof *hdr);
+	char **own = xcalloc((size_t)d->p + 1, sizeof *own);
+	csvout c;
+	sr_status rc;
+	int j, k;
+
+	for (j = 0; j < d->p; j++) {
+		char buf[64];
+
+		if (j < d->ncond) {
+			hdr[j] = t->conds[j];
+		} else if (j < d->ncond + d->nconf) {
+			hdr[j] = st->confounds[j - d->ncond];
+		} else if (j < d->ncond + d->nconf + d->ndrift) {
+			snprintf(buf, sizeof buf, "drift_%d", j - d->ncond - d->nconf + 1);
+			hdr[j] = own[j] = xstrdup(buf);
+		} else {
+			hdr[j] = "constant";
+		}
+	}
+	rc = csvout_open(&c, path, hdr, (size_t)d->p, e);
+	if (!rc) {
+		for (k = 0; k < d->T; k++) {
+			for (j = 0; j < d->p; j++)
+				csvout_num(&c, d->X[(size_t)j * (size_t)d->T + (size_t)k]);
+			csvout_endrow(&c);
+		}
+		rc = csvout_commit(&c, e);
+	}
+	for (j = 0; j < d->p; j++)
+		free(own[j]);
+	free(own);
+	free(hdr);
+	return rc;
+}
+
+/* The first localizer run's temporal mean (the report's background) and every run's design. */
+static sr_status write_run_files(const char *dir, const task_fit *tasks, size_t ntasks,
+				 const study *st, const nii_grid *g, size_t nvox, sr_err *e)
+{
+	char path[4096 + 256];
+	float *m = xmalloc_array(nvox, sizeof *m);
+	size_t i, v;
+	sr_status rc;
+
+	for (v = 0; v < nvox; v++)
+		m[v] = isfinite(tasks[0].res[0].out.mean[v]) ? (float)tasks[0].res[0].out.mean[v] : 0.0f;
+	snprintf(path, sizeof path, "%s/maps/mean-bold.nii.gz", dir);
+	rc = nii_write_float(path, g, m, 1, 0, "splitroi temporal mean, first localizer run", e);
+	free(m);
+	for (i = 0; !rc && i < ntasks; i++) {
+		size_t r;
+
+		for (r = 0; !rc && r < tasks[i].nruns; r++) {
+			snprintf(path, sizeof path, "%s/design/task-%s_run-%s.csv", dir, tasks[i].task,
+				 tasks[i].runs[r].label);
+			rc = write_design(path, &tasks[i], r, st, e);
+		}
+	}
+	return rc;
 }
 
 sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
@@ -906,6 +973,9 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 	}
 	progress(ctx, label, "writing tables");
+	rc = write_run_files(dir, tasks, ntasks, st, &grid, nvox, e);
+	if (rc)
+		goto out;
 	snprintf(path, sizeof path, "%s/responses.csv", dir);
 	rc = subject_write_rows(path, label, res->rows, res->nrows, e);
 	if (rc)

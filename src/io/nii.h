@@ -86,7 +86,10 @@ sr_status nii_write_labels(const char *path, const nii_grid *g, const int32_t *l
 /*
  * Streaming writer for 4-D series too large to hold (the simulator's).
  * datatype NIFTI_TYPE_FLOAT32 or NIFTI_TYPE_INT16 (then values are stored as
- * round((v - inter) / slope) with the given slope and inter, clamped to range).
+ * round((v - inter) / slope) with the given slope and inter, half to even,
+ * clamped to the int16 range; NaN is an error). slope and inter are ignored
+ * for float32. A .gz series is compressed at zlib level 1 (maps at 6): series
+ * are large and noisy, so speed matters more than the last few percent.
  */
 typedef struct nii_writer nii_writer;
 sr_status nii_writer_open(const char *path, const nii_grid *g, int64_t nt, double tr,
@@ -100,7 +103,7 @@ void nii_writer_abort(nii_writer *w);
 /*
  * Compares grids: same nx, ny, nz and affines equal within tol_mm (1e-3 in
  * METHODS.md). Returns 1 when they match; otherwise 0 and a description of
- * both grids in why (may be NULL).
+ * both grids in why (may be NULL; set to "" on a match).
  */
 int nii_same_grid(const nii_grid *a, const nii_grid *b, double tol_mm, char *why, size_t whylen);
 

@@ -112,7 +112,7 @@ fresh
 py "a = np.diag([3.0, 3.0, 3.0, 1.0]); a[:3, 3] = [-9, -6, -3]; nib.save(nib.Nifti1Image(np.ones((7, 5, 4), np.int16), a), 'parcels.nii.gz')"
 run "$SPLITROI" check "$V/study.ini"
 expect_status 1 "parcels on another grid"
-expect_err "parcels.nii.gz: the parcels are not on the data grid of .*sub-01_task-tones_run-1_bold.nii.gz \(.*7.*6.*|.*6.*7.*\)" \
+expect_err "parcels.nii.gz: the parcels are not on the data grid of .*sub-01_task-tones_run-1_bold.nii.gz \(.*6x5x4.* vs 7x5x4" \
 	"grid mismatch names both files and shows both grids"
 cp "$TMP/err" "$TMP/grid_err"
 sed -i 's/^names = parcels.tsv/names = parcels.tsv\nresample = nearest/' "$V/study.ini"
@@ -157,6 +157,37 @@ py "p = 'data/$F/sub-01_task-memory_run-2_bold'; img = nib.load(p + '.nii.gz'); 
 run "$SPLITROI" check "$V/study.ini"
 expect_status 1 "dims overflowing"
 expect_err "sub-01_task-memory_run-2_bold.nii: .*(overflow|too large|beyond|exceed)" "overflowing dims are named"
+
+fresh
+rm "$V"/data/sub-02/func/sub-02_task-memory_*
+run "$SPLITROI" check "$V/study.ini"
+expect_status 1 "a task with no runs for a subject"
+expect_err "sub-02 has no runs of task memory" "the subject without runs of the task is named"
+
+fresh
+sed -i 's/^mask = mask.nii.gz/mask = mask.nii.gz\nsubjects = 01 sub-05/' "$V/study.ini"
+run "$SPLITROI" check "$V/study.ini"
+expect_status 1 "a listed subject missing from the dataset"
+expect_err "study.ini: line 6: subject '05' is not in .*data" "the missing subject is named with the study line"
+
+fresh
+sed -i 's/^drift_cutoff = 128/drift_cutoff = 128\nconfounds = csf/' "$V/study.ini"
+for b in "$V"/data/sub-0*/func/*_bold.nii.gz; do
+	c=${b%_bold.nii.gz}_confounds.tsv
+	{ echo csf; for i in $(seq 20); do echo "0.$i"; done; } >"$c"
+done
+run "$SPLITROI" check "$V/study.ini"
+expect_status 0 "confounds with one row per volume pass"
+sed -i '$d' "$V/data/$F/sub-01_task-tones_run-2_confounds.tsv"
+sed -i '1s/csf/white_matter/' "$V/data/$F/sub-01_task-memory_run-1_confounds.tsv"
+rm "$V/data/sub-02/func/sub-02_task-tones_run-1_confounds.tsv"
+run "$SPLITROI" check "$V/study.ini"
+expect_status 1 "bad confounds files"
+expect_err "sub-01_task-tones_run-2_confounds.tsv: 19 rows, but the run sub-01_task-tones_run-2_bold.nii.gz has 20 volumes" \
+	"a confounds table with a row missing"
+expect_err "sub-01_task-memory_run-1_confounds.tsv: line 1: no column 'csf' \(named in \[model\] confounds\)" \
+	"a confounds table without the named column"
+expect_err "sub-02_task-tones_run-1_confounds.tsv" "a missing confounds file is named"
 
 # ---- several problems are all listed at once ----
 fresh
