@@ -7,8 +7,11 @@
  *                parcel's voxels ranked by true weight: k = ceil(10 n / 100) of
  *                the parcel's n voxels. This is what a correct top-10% fROI
  *                analysis should recover, within noise. The region is
- *                flat-topped (weight 1 on a plateau holding about a fifth of
- *                the parcel), so value is normally the peak value itself.
+ *                flat-topped (weight 1 on a plateau holding about a third of
+ *                the parcel), so value is normally the peak value itself. At
+ *                the default noise, noisy selection admits some edge voxels
+ *                of lower weight: an independent analysis lands about 4%
+ *                below value on average (tests/py/test_sim_recovery.py).
  *   peak_value = the effect at a voxel of weight 1.
  *   n_top, n_parcel = k and n above.
  * Contrasts (a - b) are differences of the condition rows.
@@ -19,10 +22,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 #include <dirent.h>
-
-#include <nifti1.h>
 
 #include "cmd.h"
 #include "cmdline.h"
@@ -39,6 +39,8 @@
 #define CONFOUNDS_SUFFIX "_desc-confounds_timeseries.tsv"
 #define MEASURE_RUNS 2
 #define MAX_EVENTS 4096
+/* NIfTI-1 datatype codes (the standard's numbers; the io layer owns the library) */
+enum { DT_INT16 = 4, DT_FLOAT32 = 16 };
 
 static const char *const motion_names[6] = {
 	"motion_tx", "motion_ty", "motion_tz", "motion_rx", "motion_ry", "motion_rz"
@@ -643,7 +645,7 @@ static sr_status simulate_run(const struct opts *o, struct subject *s, const nii
 					maxb = s->baseline[v];
 			slope = maxb * (1.2 + 6.0 * o->noise / 100.0) / 32000.0;
 		}
-		st = nii_writer_open(path, g, T, o->tr, o->int16 ? NIFTI_TYPE_INT16 : NIFTI_TYPE_FLOAT32,
+		st = nii_writer_open(path, g, T, o->tr, o->int16 ? DT_INT16 : DT_FLOAT32,
 				     slope, 0.0, &w, e);
 	}
 	free(path);
