@@ -16,7 +16,9 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "analyze", cmd_analyze, CMD_NEEDS_ARGS, "the whole job: fROIs from one half, responses from the other" },
 	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
+	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
 	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
 	{ NULL, NULL, 0, NULL }
