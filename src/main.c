@@ -9,6 +9,10 @@
 
 enum { CMD_NEEDS_ARGS = 1 };
 
+/* OpenBLAS (no header of its own here): one BLAS thread, so that products
+ * never depend on thread scheduling; the commands run their own threads. */
+extern void openblas_set_num_threads(int num_threads);
+
 /* The single list of commands: help and dispatch are generated from it. */
 static const struct command {
 	const char *name;
@@ -21,6 +25,7 @@ static const struct command {
 	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
 	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
+	{ "slurm", cmd_slurm, CMD_NEEDS_ARGS, "write (and submit) SLURM jobs: one per subject, then the group step" },
 	{ NULL, NULL, 0, NULL }
 };
 
@@ -84,6 +89,7 @@ int main(int argc, char **argv)
 {
 	const struct command *c;
 
+	openblas_set_num_threads(1);
 	if (argc < 2) {
 		top_help(stderr);
 		return 2;

@@ -13,13 +13,11 @@
 #include "../io/events.h"
 #include "../io/jdoc.h"
 #include "../io/nii.h"
+#include "../io/study.h"
 #include "../version.h"
 #include "cmd.h"
 #include "cmdline.h"
 #include "runfit.h"
-
-/* OpenBLAS: one BLAS thread, so products never depend on thread scheduling. */
-extern void openblas_set_num_threads(int num_threads);
 
 static const cmdline_opt opts[] = {
 	{ "out", "DIR", "write the maps, design tables and fit.json into DIR (required)" },
@@ -35,13 +33,17 @@ static const cmdline_opt opts[] = {
 	{ "mask", "FILE", "optional 3-D brain mask on the data grid (non-zero = inside)" },
 	{ "threads", "N", "threads (default: the CPU count); results do not depend on N" },
 	{ "quiet", NULL, "no summary line (warnings still shown)" },
+	{ "study", "STUDY.ini", "take runs, events, TR, confounds, model and effects from a study file" },
+	{ "subject", "LABEL", "with --study: the subject (label without sub-)" },
+	{ "task", "TASK", "with --study: the task (default: the localizer task)" },
 	{ NULL, NULL, NULL },
 };
 enum { O_OUT, O_EVENTS, O_CONDCOL, O_EFFECT, O_TR, O_CONF, O_CONFCOLS, O_MODEL, O_DRIFT, O_SLICE,
-       O_MASK, O_THREADS, O_QUIET, O_N };
+       O_MASK, O_THREADS, O_QUIET, O_STUDY, O_SUBJECT, O_TASK, O_N };
 
 static const cmdline_spec spec = {
-	"fit", "RUN_bold.nii[.gz]... --out DIR [options]",
+	"fit", "RUN_bold.nii[.gz]... --out DIR [options]\n"
+	"       splitroi fit --study STUDY.ini --subject LABEL [--task TASK] --out DIR [options]",
 	"Fits a first-level GLM to each BOLD run: one column per condition (events\n"
 	"convolved with a two-gamma response), the named confounds, cosine drifts and\n"
 	"a constant; each voxel's series is scaled to percent of its mean, then fitted\n"
@@ -51,7 +53,10 @@ static const cmdline_spec spec = {
 	"  DIR/<run>_<effect>_effect.nii.gz, DIR/<run>_<effect>_t.nii.gz,\n"
 	"  DIR/combined_<effect>_effect.nii.gz, DIR/combined_<effect>_t.nii.gz,\n"
 	"each run's design matrix as DIR/<run>_design.csv, and DIR/fit.json recording\n"
-	"inputs, options, rank and df. <run> is the file name without _bold.nii[.gz].",
+	"inputs, options, rank and df. <run> is the file name without _bold.nii[.gz].\n"
+	"With --study the subject's runs of the task are found in the study's BIDS\n"
+	"dataset, with the study's model keys and effects (options given on the\n"
+	"command line override the model keys).",
 	opts,
 };
 
@@ -401,6 +406,126 @@ static int resolve_tr(const char *bold, const char *opt, double *tr)
 	return rc;
 }
 
+/* What --study supplies: runs and their files, TR, model keys and effects. Owned arrays. */
+typedef struct study_inputs {
+	char **bold, **events, **confs, **ccols;
+	int nrun, nccol;
+	double *tr;
+	int ar1;
+	double drift, sref;
+	char *condcol, *mask;
+	expr *fx;
+	size_t nfx;
+} study_inputs;
+
+static int load_study_inputs(const char *path, const char *subject, const char *task_opt,
+			     study_inputs *in)
+{
+	study st;
+	study_problems pr = { 0 };
+	bids_run *runs = NULL;
+	size_t n = 0, i, k;
+	const char *task;
+	const expr *fx = NULL;
+	size_t nfx = 0;
+	sr_err e;
+	int rc = 1;
+
+	memset(in, 0, sizeof *in);
+	if (study_load(path, &st, &pr) != SR_OK) {
+		for (i = 0; i < pr.n; i++)
+			fprintf(stderr, "splitroi fit: %s\n", pr.msg[i]);
+		study_problems_release(&pr);
+		return 1;
+	}
+	study_problems_release(&pr);
+	task = task_opt ? task_opt : st.loc_task;
+	if (strcmp(task, st.loc_task) == 0) {
+		fx = st.loc_effects;
+		nfx = st.nloc_effects;
+	} else {
+		for (i = 0; i < st.nmeasures; i++)
+			if (strcmp(st.measures[i].task, task) == 0) {
+				fx = st.measures[i].effects;
+				nfx = st.measures[i].neffects;
+			}
+	}
+	if (strncmp(subject, "sub-", 4) == 0)
+		subject += 4;
+	sr_err_init(&e, NULL, NULL);
+	if (bids_runs(st.bids, subject, task, &runs, &n, &e) != SR_OK) {
+		cmdline_error("fit", "%s", e.msg);
+		goto out;
+	}
+	if (n == 0) {
+		cmdline_error("fit", "%s: no runs of task '%s' for subject '%s' under %s", path, task, subject, st.bids);
+		goto out;
+	}
+	in->nrun = (int)n;
+	in->bold = xcalloc(n, sizeof *in->bold);
+	in->events = xcalloc(n, sizeof *in->events);
+	in->tr = xcalloc(n, sizeof *in->tr);
+	if (st.nconfounds)
+		in->confs = xcalloc(n, sizeof *in->confs);
+	for (i = 0; i < n; i++) {
+		nii_info info;
+
+		in->bold[i] = xstrdup(runs[i].bold);
+		in->events[i] = xstrdup(runs[i].events);
+		if (!runs[i].events_exist) {
+			cmdline_error("fit", "%s: no events file beside the run (%s)", runs[i].bold, runs[i].events);
+			goto out;
+		}
+		if (nii_read_info(runs[i].bold, &info, &e) != SR_OK ||
+		    bids_run_tr(st.bids, &runs[i], info.tr, &in->tr[i], &e) != SR_OK) {
+			cmdline_error("fit", "%s", e.msg);
+			goto out;
+		}
+		if (in->confs)
+			in->confs[i] = bids_confounds_path(&runs[i], st.confounds_suffix);
+	}
+	in->nccol = (int)st.nconfounds;
+	in->ccols = xcalloc(st.nconfounds ? st.nconfounds : 1, sizeof *in->ccols);
+	for (i = 0; i < st.nconfounds; i++)
+		in->ccols[i] = xstrdup(st.confounds[i]);
+	in->ar1 = st.ar1;
+	in->drift = st.drift_cutoff;
+	in->sref = st.slice_reference;
+	in->condcol = xstrdup(st.condition_column ? st.condition_column : "trial_type");
+	in->mask = st.mask ? xstrdup(st.mask) : NULL;
+	/* conditions are always fitted: keep the effects that are combinations */
+	in->fx = xcalloc(nfx ? nfx : 1, sizeof *in->fx);
+	for (i = 0; i < nfx; i++) {
+		char msg[256];
+
+		if (fx[i].nterms == 1 && fx[i].terms[0].weight == 1.0)
+			continue;
+		for (k = 0; k < in->nfx; k++)
+			if (strcmp(in->fx[k].text, fx[i].text) == 0)
+				break;
+		if (k == in->nfx && expr_parse(fx[i].text, &in->fx[in->nfx], msg, sizeof msg) == 0)
+			in->nfx++;
+	}
+	rc = 0;
+out:
+	bids_runs_release(runs, n);
+	study_release(&st);
+	return rc;
+}
+
+static void study_inputs_release(study_inputs *in)
+{
+	free_list(in->bold, in->nrun);
+	free_list(in->events, in->nrun);
+	free_list(in->confs, in->confs ? in->nrun : 0);
+	free_list(in->ccols, in->nccol);
+	free(in->tr);
+	free(in->condcol);
+	free(in->mask);
+	expr_list_free(in->fx, in->nfx);
+	memset(in, 0, sizeof *in);
+}
+
 int cmd_fit(int argc, char **argv)
 {
 	const char *val[O_N + 1], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
@@ -419,13 +544,47 @@ int cmd_fit(int argc, char **argv)
 	jdoc *doc = NULL, *files = NULL, *runs = NULL;
 	map_job *jobs = NULL;
 	int njobs = 0;
+	study_inputs si;
+	const char *condcol, *maskpath;
 
+	memset(&si, 0, sizeof si);
 	rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
 	if (rc) {
 		free(pos);
 		return rc == 1 ? 0 : 2;
 	}
 	rc = 2;
+	condcol = val[O_CONDCOL];
+	maskpath = val[O_MASK];
+	if (val[O_STUDY]) {
+		if (npos || val[O_EVENTS] || val[O_CONF] || val[O_CONFCOLS]) {
+			cmdline_error("fit", "--study finds the runs, events and confounds itself: give no runs, --events or --confounds");
+			goto out;
+		}
+		if (!val[O_SUBJECT]) {
+			cmdline_error("fit", "--study needs --subject");
+			goto out;
+		}
+		if (load_study_inputs(val[O_STUDY], val[O_SUBJECT], val[O_TASK], &si)) {
+			rc = 1;
+			goto out;
+		}
+		free(pos);
+		pos = xcalloc((size_t)si.nrun + 1, sizeof *pos);
+		for (r = 0; r < si.nrun; r++)
+			pos[r] = si.bold[r];
+		npos = si.nrun;
+		model = si.ar1 ? GLM_AR1 : GLM_OLS;
+		drift = si.drift;
+		sref = si.sref;
+		if (!condcol)
+			condcol = si.condcol;
+		if (!maskpath)
+			maskpath = si.mask;
+	} else if (val[O_SUBJECT] || val[O_TASK]) {
+		cmdline_error("fit", "--subject and --task go with --study");
+		goto out;
+	}
 	nrun = npos;
 	if (nrun == 0) {
 		cmdline_error("fit", "give at least one BOLD run");
@@ -460,7 +619,22 @@ int cmd_fit(int argc, char **argv)
 		threads = 1;
 	if (val[O_THREADS] && cmdline_int("fit", "--threads", val[O_THREADS], 1, 1024, &threads))
 		goto out;
-	if (val[O_EVENTS]) {
+	if (si.nrun) {
+		events = xcalloc((size_t)nrun, sizeof *events);
+		nev = nrun;
+		for (r = 0; r < nrun; r++)
+			events[r] = xstrdup(si.events[r]);
+		if (si.confs) {
+			confs = xcalloc((size_t)nrun, sizeof *confs);
+			nconf = nrun;
+			for (r = 0; r < nrun; r++)
+				confs[r] = xstrdup(si.confs[r]);
+			ccols = xcalloc((size_t)si.nccol, sizeof *ccols);
+			nccol = si.nccol;
+			for (j = 0; j < nccol; j++)
+				ccols[j] = xstrdup(si.ccols[j]);
+		}
+	} else if (val[O_EVENTS]) {
 		events = split_list(val[O_EVENTS], 0, &nev);
 		if (nev != nrun) {
 			cmdline_error("fit", "--events names %d files for %d runs", nev, nrun);
@@ -479,7 +653,9 @@ int cmd_fit(int argc, char **argv)
 	}
 	if (val[O_CONFCOLS])
 		ccols = split_list(val[O_CONFCOLS], 1, &nccol);
-	if (val[O_CONF]) {
+	if (si.nrun) {
+		/* set above */
+	} else if (val[O_CONF]) {
 		confs = split_list(val[O_CONF], 0, &nconf);
 		if (nconf != nrun) {
 			cmdline_error("fit", "--confounds names %d files for %d runs", nconf, nrun);
@@ -496,14 +672,18 @@ int cmd_fit(int argc, char **argv)
 	rc = 1;
 	tr = xcalloc((size_t)nrun, sizeof *tr);
 	for (r = 0; r < nrun; r++) {
-		int t = resolve_tr(pos[r], val[O_TR], &tr[r]);
+		int t = 0;
 
+		if (si.nrun && !val[O_TR])
+			tr[r] = si.tr[r];
+		else
+			t = resolve_tr(pos[r], val[O_TR], &tr[r]);
 		if (t) {
 			rc = t;
 			goto out;
 		}
 	}
-	if (gather_conditions(events, nrun, val[O_CONDCOL], &conds, &ncond))
+	if (gather_conditions(events, nrun, condcol, &conds, &ncond))
 		goto out;
 	if (ncond == 0) {
 		cmdline_error("fit", "the events files hold no events");
@@ -513,6 +693,13 @@ int cmd_fit(int argc, char **argv)
 		cmdline_error("fit", "--effect: %s", msg);
 		rc = 2;
 		goto out;
+	}
+	if (!val[O_EFFECT] && si.nfx) {
+		/* the study's effects (hand the list over) */
+		fx = si.fx;
+		nfx = si.nfx;
+		si.fx = NULL;
+		si.nfx = 0;
 	}
 	/* contrasts: every condition, then the extra effects */
 	neff = ncond + (int)nfx;
@@ -543,12 +730,12 @@ int cmd_fit(int argc, char **argv)
 		}
 		labels[ncond + c] = xstrdup(fx[c].text);
 	}
-	if (val[O_MASK]) {
+	if (maskpath) {
 		nii_info mi;
 		double *md;
 
 		sr_err_init(&e, NULL, NULL);
-		if (nii_read_3d(val[O_MASK], &mi, &md, &e) != SR_OK) {
+		if (nii_read_3d(maskpath, &mi, &md, &e) != SR_OK) {
 			cmdline_error("fit", "%s", e.msg);
 			goto out;
 		}
@@ -566,7 +753,7 @@ int cmd_fit(int argc, char **argv)
 				goto out;
 			}
 			if (!nii_same_grid(&mi.grid, &bi.grid, 1e-3, why, sizeof why)) {
-				cmdline_error("fit", "%s and %s are not on the same grid: %s", val[O_MASK], pos[r], why);
+				cmdline_error("fit", "%s and %s are not on the same grid: %s", maskpath, pos[r], why);
 				goto out;
 			}
 		}
@@ -580,7 +767,7 @@ int cmd_fit(int argc, char **argv)
 
 		s->bold = pos[r];
 		s->events = events[r];
-		s->condition_column = val[O_CONDCOL];
+		s->condition_column = condcol;
 		s->conditions = (const char *const *)conds;
 		s->ncond = ncond;
 		s->confounds = confs ? confs[r] : NULL;
@@ -595,7 +782,6 @@ int cmd_fit(int argc, char **argv)
 		s->mask = mask;
 		sr_err_init(&errs[r], warn_print, NULL);
 	}
-	openblas_set_num_threads(1);
 	if (runfit_many(specs, nrun, (int)threads, res, errs) != SR_OK) {
 		for (r = 0; r < nrun; r++)
 			if (errs[r].code != SR_OK)
@@ -698,8 +884,10 @@ int cmd_fit(int argc, char **argv)
 		else
 			jdoc_set_str(opt, "drift_cutoff", "none");
 		jdoc_set_num(opt, "slice_reference", sref);
-		jdoc_set_str(opt, "condition_column", val[O_CONDCOL] ? val[O_CONDCOL] : "trial_type");
-		jdoc_set_str(opt, "mask", val[O_MASK]);
+		jdoc_set_str(opt, "condition_column", condcol ? condcol : "trial_type");
+		jdoc_set_str(opt, "mask", maskpath);
+		jdoc_set_str(opt, "study", val[O_STUDY]);
+		jdoc_set_str(opt, "subject", val[O_SUBJECT]);
 		for (j = 0; j < nccol; j++)
 			jdoc_push_str(cc, ccols[j]);
 		jdoc_set(opt, "confound_columns", cc);
@@ -753,5 +941,6 @@ out:
 	free_list(ccols, nccol);
 	free(tr);
 	free(pos);
+	study_inputs_release(&si);
 	return rc;
 }

@@ -311,9 +311,15 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 		if (!t->runs[i].events_exist)
 			return sr_fail(e, SR_EIO, "%s: missing events file for run %s", t->runs[i].events,
 				       t->runs[i].bold);
-		rc = events_read(t->runs[i].events, st->condition_column, &ev, e);
-		if (rc)
-			return rc;
+		/* warnings about rows come once, from the fit that reads the file again */
+		{
+			sr_err quiet;
+
+			sr_err_init(&quiet, NULL, NULL);
+			rc = events_read(t->runs[i].events, st->condition_column, &ev, &quiet);
+			if (rc)
+				return sr_fail(e, rc, "%s", quiet.msg);
+		}
 		for (k = 0; k < ev.n; k++) {
 			int c;
 
@@ -726,6 +732,12 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		tasks[i + 1].effects = st->measures[i].effects;
 		tasks[i + 1].ne = (int)st->measures[i].neffects;
 	}
+	/* a redo starts by withdrawing the old completion record and table, so that an
+	   interrupted or failed redo never leaves results that look current */
+	snprintf(path, sizeof path, "%s/run.json", dir);
+	remove(path);
+	snprintf(path, sizeof path, "%s/responses.csv", dir);
+	remove(path);
 	progress(ctx, label, "finding runs");
 	for (i = 0; i < ntasks; i++) {
 		rc = task_prepare(st, label, &tasks[i], e);

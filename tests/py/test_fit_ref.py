@@ -234,4 +234,34 @@ with tempfile.TemporaryDirectory() as d:
     report(np.array_equal(one, comb, equal_nan=True) and np.all(np.isnan(nanrun)),
            "the combined map of a condition missing in one run is the other run's; its contrast is NaN there")
 
+    # --study finds the same runs and settings as the explicit command line
+    root = os.path.join(d, "study")
+    func = os.path.join(root, "data", "sub-01", "func")
+    os.makedirs(func)
+    open(os.path.join(root, "data", "dataset_description.json"), "w").write('{"Name": "tones", "BIDSVersion": "1.8.0"}')
+    bolds = []
+    for i, seed in ((1, 31), (2, 32)):
+        b, dd = make_run(func, f"sub-01_task-tones_run-{i}", seed)
+        save(b, dd, 2.0)
+        json.dump({"RepetitionTime": 2.0}, open(b.replace(".nii.gz", ".json"), "w"))
+        bolds.append(b)
+    nib.save(nib.Nifti1Image(np.ones((6, 5, 4), np.int16), np.diag([2.5, 2.5, 3.0, 1])), os.path.join(root, "parcels.nii.gz"))
+    open(os.path.join(root, "study.ini"), "w").write(
+        "[study]\nbids = data\nout = results\n\n[localizer]\ntask = tones\ncontrast = melody - scrambled\n\n"
+        "[parcels]\nimage = parcels.nii.gz\n\n[model]\nautocorrelation = none\ndrift_cutoff = 100\n"
+        "confounds = trans_x rot_z\n")
+    os1, os2 = os.path.join(d, "o_study"), os.path.join(d, "o_explicit")
+    p = fit(["--study", os.path.join(root, "study.ini"), "--subject", "01", "--out", os1, "--quiet"])
+    report(p.returncode == 0, f"fit --study succeeds ({p.stderr.strip()[:200]})")
+    p = fit(bolds + ["--out", os2, "--quiet", "--model", "ols", "--drift-cutoff", "100", "--effect", "melody - scrambled",
+                     "--confounds", ",".join(b.replace("_bold.nii.gz", "_confounds.tsv") for b in bolds),
+                     "--confound-columns", "trans_x rot_z"])
+    same = p.returncode == 0
+    for f in ("combined_melody-scrambled_t.nii.gz", "sub-01_task-tones_run-2_melody_effect.nii.gz"):
+        same = same and os.path.exists(os.path.join(os1, f)) and np.array_equal(
+            load_map(os.path.join(os1, f)), load_map(os.path.join(os2, f)), equal_nan=True)
+    report(same, "fit --study gives the maps of the explicit command (runs, confounds, OLS, drift cutoff, effects)")
+    p = fit(["--study", os.path.join(root, "study.ini"), "--subject", "07", "--out", os1])
+    report(p.returncode == 1 and "07" in p.stderr, "a subject without runs is an error naming it")
+
 sys.exit(1 if failed else 0)
