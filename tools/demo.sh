@@ -26,34 +26,51 @@ echo "== simulating the demo study into $OUT/"
 has() { "$BIN" help "$1" >/dev/null 2>&1; }
 if has check; then
 	echo "== checking $OUT/study.ini"
-	"$BIN" check "$OUT/study.ini" || exit 1
+	# the full listing goes to a file; only its verdict is shown unless it fails
+	if "$BIN" check "$OUT/study.ini" >"$OUT/check.txt" 2>&1; then
+		tail -1 "$OUT/check.txt" | sed 's/^/   /'
+	else
+		cat "$OUT/check.txt"
+		exit 1
+	fi
 else
 	echo "== (this build has no check command; skipped)"
 fi
 ran_analyze=0
 if has analyze; then
-	echo "== analyzing"
-	"$BIN" analyze "$OUT/study.ini" || exit 1
+	echo "== analyzing (log: $OUT/analyze.log)"
+	if ! "$BIN" analyze "$OUT/study.ini" >"$OUT/analyze.log" 2>&1; then
+		tail -20 "$OUT/analyze.log"
+		exit 1
+	fi
 	ran_analyze=1
 else
 	echo "== (this build has no analyze command; skipped)"
 fi
 if [ "$ran_analyze" -eq 1 ] && has group; then
-	echo "== group statistics"
-	"$BIN" group "$OUT/results" || exit 1
+	echo "== group statistics (log: $OUT/group.log)"
+	if ! "$BIN" group "$OUT/results" >"$OUT/group.log" 2>&1; then
+		tail -20 "$OUT/group.log"
+		exit 1
+	fi
 fi
 
 echo
-echo "== true effects (mean over subjects, percent signal change; truth.csv)"
-awk -F, 'NR > 1 { k = $3 " " $2 " " $4; s[k] += $5; n[k]++ }
-	END { for (k in s) printf "  %-45s %7.3f\n", k, s[k] / n[k] }' "$OUT/truth.csv" | sort
 if [ -f "$OUT/results/group.csv" ]; then
-	echo
-	echo "== estimated (group.csv: parcel, split, task, effect, n, mean)"
-	awk -F, 'NR == 1 { for (i = 1; i <= NF; i++) c[$i] = i; next }
-		$c["split"] != "odd-even:A" && $c["split"] != "odd-even:B" {
-			printf "  %-18s %-15s %-8s %-18s %3s %8.3f\n", $c["parcel"], $c["split"],
-				$c["measure_task"], $c["effect"], $c["n"], $c["mean"] }' "$OUT/results/group.csv"
+	echo "== estimated group means next to the truth (percent signal change, mean over subjects)"
+	awk -F, 'FNR == NR { if (FNR > 1) { k = $3 "|" $2 "|" $4; s[k] += $5; n[k]++ } next }
+		FNR == 1 { for (i = 1; i <= NF; i++) c[$i] = i
+			printf "  %-18s %-8s %-18s %-15s %3s %8s %8s\n", "parcel", "task", "effect", "split", "n", "mean", "truth"
+			next }
+		$c["split"] ~ /:mean$|^all$/ {
+			k = $c["measure_task"] "|" $c["parcel"] "|" $c["effect"]
+			printf "  %-18s %-8s %-18s %-15s %3s %8.3f %8.3f\n", $c["parcel"], $c["measure_task"],
+				$c["effect"], $c["split"], $c["n"], $c["mean"], (k in n) ? s[k] / n[k] : 0 }' \
+		"$OUT/truth.csv" "$OUT/results/group.csv"
+else
+	echo "== true effects (mean over subjects, percent signal change; truth.csv)"
+	awk -F, 'NR > 1 { k = $3 " " $2 " " $4; s[k] += $5; n[k]++ }
+		END { for (k in s) printf "  %-45s %7.3f\n", k, s[k] / n[k] }' "$OUT/truth.csv" | sort
 fi
 echo
 echo "files:"
@@ -61,5 +78,6 @@ echo "  dataset      $OUT/data"
 echo "  parcels      $OUT/parcels.nii.gz, $OUT/parcels.tsv"
 echo "  study file   $OUT/study.ini"
 echo "  truth        $OUT/truth.csv"
+[ -f "$OUT/check.txt" ] && echo "  check        $OUT/check.txt"
 [ -d "$OUT/results" ] && echo "  results      $OUT/results"
 echo "demo took $(($(date +%s) - start)) s"

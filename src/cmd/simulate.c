@@ -7,8 +7,12 @@
  *                parcel's voxels ranked by true weight: k = ceil(10 n / 100) of
  *                the parcel's n voxels. This is what a correct top-10% fROI
  *                analysis should recover, within noise. The region is
- *                flat-topped (weight 1 on a plateau holding about a fifth of
- *                the parcel), so value is normally the peak value itself.
+ *                flat-topped (weight 1 on a plateau holding about a third of
+ *                the parcel), so value is normally the peak value itself. At
+ *                the default noise, noisy selection admits a few voxels of
+ *                lower weight: over 32 subjects, analyze landed 2.7% below
+ *                value on average for the localizer's odd-even rows and 1%
+ *                below for the measured task (fROIs from all four runs).
  *   peak_value = the effect at a voxel of weight 1.
  *   n_top, n_parcel = k and n above.
  * Contrasts (a - b) are differences of the condition rows.
@@ -19,10 +23,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <sys/stat.h>
 #include <dirent.h>
-
-#include <nifti1.h>
 
 #include "cmd.h"
 #include "cmdline.h"
@@ -39,6 +40,8 @@
 #define CONFOUNDS_SUFFIX "_desc-confounds_timeseries.tsv"
 #define MEASURE_RUNS 2
 #define MAX_EVENTS 4096
+/* NIfTI-1 datatype codes (the standard's numbers; the io layer owns the library) */
+enum { DT_INT16 = 4, DT_FLOAT32 = 16 };
 
 static const char *const motion_names[6] = {
 	"motion_tx", "motion_ty", "motion_tz", "motion_rx", "motion_ry", "motion_rz"
@@ -75,7 +78,7 @@ static const cmdline_opt opts[] = {
 	{ "grid", "NAME", "small (24x28x20, 3 mm; default) or standard (91x109x91, 2 mm)" },
 	{ "volumes", "N", "volumes per run (default 120)" },
 	{ "tr", "S", "repetition time in seconds (default 2)" },
-	{ "noise", "SD", "noise standard deviation, percent of baseline (default 1)" },
+	{ "noise", "SD", "noise standard deviation, percent of baseline (default 0.7)" },
 	{ "ar1", "RHO", "lag-1 autocorrelation of the noise (default 0.3)" },
 	{ "runs", "N", "localizer runs per subject (default 4; measured task: 2)" },
 	{ "null", NULL, "no true effects anywhere" },
@@ -169,7 +172,7 @@ static int parse(int argc, char **argv, struct opts *o)
 	o->volumes = 120;
 	o->runs = 4;
 	o->tr = 2.0;
-	o->noise = 1.0;
+	o->noise = 0.7;
 	o->rho = 0.3;
 	o->sc = &scenarios[0];
 	if (!v[O_OUT] || !*v[O_OUT]) {
@@ -312,7 +315,7 @@ static sr_status write_top(const struct opts *o, const char *data, sr_err *e)
 {
 	const struct scenario *sc = o->sc;
 	const char *tasks[2] = { sc->loc_task, sc->meas_task };
-	char name[256], *p, *text;
+	char name[256], meas[256], *p, *text;
 	size_t cap, len = 0;
 	sr_status st;
 	long s;
@@ -324,6 +327,12 @@ static sr_status write_top(const struct opts *o, const char *data, sr_err *e)
 		jdoc_set_str(d, "Name", sc->title);
 		jdoc_set_str(d, "BIDSVersion", "1.8.0");
 		jdoc_set_str(d, "DatasetType", "raw");
+		{
+			jdoc *au = jdoc_array();
+
+			jdoc_push_str(au, "splitroi simulate (invented data, no participants)");
+			jdoc_set(d, "Authors", au);
+		}
 		p = path_join(data, "dataset_description.json");
 		st = jdoc_write(d, p, e);
 		jdoc_free(d);
@@ -359,8 +368,22 @@ static sr_status write_top(const struct opts *o, const char *data, sr_err *e)
 	if (st != SR_OK)
 		return st;
 	p = path_join(data, "README");
-	snprintf(name, sizeof name, "Simulated data (%s), made by splitroi simulate.\n", sc->title);
-	st = write_text(p, name, e);
+	text = xmalloc(2048);
+	meas[0] = '\0';
+	if (sc->meas_task)
+		snprintf(meas, sizeof meas, "Measured task '%s' (events %s, %s) in %d runs.\n",
+			 sc->meas_task, sc->meas_cond[0], sc->meas_cond[1], MEASURE_RUNS);
+	snprintf(text, 2048,
+		 "%s\n\n"
+		 "Simulated data made by splitroi simulate (seed %llu); no person was scanned.\n"
+		 "Localizer task '%s' (blocks %s, %s) in %ld runs.\n%s"
+		 "Each run has %ld volumes at a repetition time of %g s. The true effects\n"
+		 "are in truth.csv beside this folder. Motion confounds are in\n"
+		 "*%s beside each run (listed in .bidsignore).\n",
+		 sc->title, (unsigned long long)o->seed, sc->loc_task, sc->loc_cond[0],
+		 sc->loc_cond[1], o->runs, meas, o->volumes, o->tr, CONFOUNDS_SUFFIX);
+	st = write_text(p, text, e);
+	free(text);
 	free(p);
 	if (st != SR_OK)
 		return st;
@@ -623,7 +646,7 @@ static sr_status simulate_run(const struct opts *o, struct subject *s, const nii
 					maxb = s->baseline[v];
 			slope = maxb * (1.2 + 6.0 * o->noise / 100.0) / 32000.0;
 		}
-		st = nii_writer_open(path, g, T, o->tr, o->int16 ? NIFTI_TYPE_INT16 : NIFTI_TYPE_FLOAT32,
+		st = nii_writer_open(path, g, T, o->tr, o->int16 ? DT_INT16 : DT_FLOAT32,
 				     slope, 0.0, &w, e);
 	}
 	free(path);

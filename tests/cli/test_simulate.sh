@@ -186,6 +186,23 @@ run "$SPLITROI" help simulate
 expect_status 0 "help simulate"
 expect_out "truth.csv" "help explains truth.csv"
 
+# --runs, --tr, --volumes and --scenario shape what is written
+run "$SPLITROI" simulate --out "$TMP/o" --subjects 1 --runs 2 --tr 2.5 --volumes 44 --scenario visual --quiet
+expect_status 0 "simulate with --runs 2 --tr 2.5 --volumes 44 --scenario visual"
+n=$(ls "$TMP/o/data/sub-01/func/" | grep -c '_task-viewing_run-0[0-9]_bold.nii.gz')
+[ "$n" -eq 2 ] && ok "--runs 2 writes two localizer runs" || notok "--runs 2 wrote $n runs"
+ls "$TMP/o/data/sub-01/func/" | grep -q memory && notok "the visual scenario has no measured task" || ok "the visual scenario has no measured task"
+"$PY" - "$TMP/o" <<'PYEOF'
+import json, sys, nibabel as nib
+d = sys.argv[1]
+ok = lambda c, n: print(("ok - " if c else "not ok - ") + n)
+j = json.load(open(d + "/data/task-viewing_bold.json"))
+ok(j["RepetitionTime"] == 2.5 and j["TaskName"] == "viewing", "sidecar has TR 2.5 and task viewing")
+im = nib.load(d + "/data/sub-01/func/sub-01_task-viewing_run-01_bold.nii.gz")
+ok(im.shape[3] == 44 and abs(im.header["pixdim"][4] - 2.5) < 1e-6, "44 volumes, pixdim[4] 2.5")
+PYEOF
+grep -q '^contrast = scenes - objects' "$TMP/o/study.ini" && ok "study.ini has the scenario's contrast" || notok "study.ini contrast"
+
 # the study file it writes is one the study checker accepts
 if "$SPLITROI" help check >/dev/null 2>&1; then
 	run "$SPLITROI" check "$TMP/a/study.ini"
