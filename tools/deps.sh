@@ -10,6 +10,33 @@ python3-numpy python3-scipy python3-statsmodels python3-nibabel python3-pandas"
 if [ "${SPLITROI_DEPS_SLURM:-0}" = 1 ]; then
 	pkgs="$pkgs slurm-wlm munge"
 fi
+
+# Optional: the BIDS standard's own validator (an npm package), which
+# tests/cli/test_bids_validator.sh runs on a simulated dataset. Installed into the
+# project (build/node), not globally, at a pinned version; when npm is missing or
+# the registry does not answer, deps still succeeds and that test skips.
+BIDS_VALIDATOR_VERSION=1.15.0
+install_bids_validator() {
+	local dir
+	dir="$(cd "$(dirname "$0")/.." && pwd)/build/node"
+	if grep -qs "\"version\": \"$BIDS_VALIDATOR_VERSION\"" "$dir/node_modules/bids-validator/package.json" &&
+		[ -x "$dir/node_modules/.bin/bids-validator" ]; then
+		return 0
+	fi
+	if ! command -v npm >/dev/null 2>&1; then
+		echo "note: npm not found; bids-validator not installed (its test will skip)" >&2
+		return 0
+	fi
+	mkdir -p "$dir"
+	echo "installing bids-validator $BIDS_VALIDATOR_VERSION into build/node"
+	if ! timeout 600 npm install --prefix "$dir" --no-audit --no-fund --no-save --loglevel=error \
+		"bids-validator@$BIDS_VALIDATOR_VERSION" >"$dir/install.log" 2>&1; then
+		echo "note: could not install bids-validator (see $dir/install.log); its test will skip" >&2
+	fi
+	return 0
+}
+install_bids_validator || true
+
 missing=""
 for p in $pkgs; do
 	if ! dpkg-query -W -f='${Status}' "$p" 2>/dev/null | grep -q "install ok installed"; then
