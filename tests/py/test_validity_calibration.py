@@ -99,6 +99,22 @@ def main():
         ks = stats.kstest(x, "uniform")
         ck.check(ks.pvalue > 0.001 / len(ROWS),
                  "%s: p values uniform (KS D = %.3f, p = %.3f, n = %d)" % (e, ks.statistic, ks.pvalue, len(x)))
+    # (4) The null parcel of a study with true effects elsewhere (occipital_control, which the demo
+    # shows) is exactly a null study's: no effect is ever placed in it, the noise, drift and motion
+    # of each voxel come from the same seeded streams, and the GLM fits each voxel alone. So its
+    # rows are the ones whose calibration was just checked (a demo row at p < 0.05 there is chance).
+    same = []
+    for null in ("--null", None):
+        out = os.path.join(root, "twin-%s" % ("null" if null else "active"))
+        args = ["simulate", "--out", out, "--quiet", "--seed", "7", "--subjects", "3", "--volumes", str(VOLUMES),
+                "--runs", "2"] + ([null] if null else [])
+        if not (vl.run(args, "simulate twin", ck) and vl.run(["analyze", os.path.join(out, "study.ini"), "--jobs", vl.JOBS],
+                                                            "analyze twin", ck)):
+            ck.finish()
+        same.append([r for r in vl.read_csv(os.path.join(out, "results", "responses.csv"))
+                     if r["parcel"] == "occipital_control"])
+    ck.check(len(same[0]) > 0 and same[0] == same[1],
+             "the null parcel's %d rows are identical in a null study and in one with true effects" % len(same[0]))
     ck.finish()
 
 
