@@ -16,6 +16,7 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "report", cmd_report, CMD_NEEDS_ARGS, "write an HTML report of a study's results" },
 	{ NULL, NULL, 0, NULL }
 };
 
