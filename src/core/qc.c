@@ -118,7 +118,7 @@ static double nicenum(double x, int round_it)
 
 size_t qc_ticks(double lo, double hi, int target, double *ticks, size_t max, double *step)
 {
-	double range, d, t0, t;
+	double range, d, t0, t1, t;
 	size_t n = 0;
 
 	if (!isfinite(lo) || !isfinite(hi)) {
@@ -138,9 +138,11 @@ size_t qc_ticks(double lo, double hi, int target, double *ticks, size_t max, dou
 		target = 2;
 	range = nicenum(hi - lo, 0);
 	d = nicenum(range / (target - 1), 1);
+	/* Heckbert's graph range: floor(lo / d) * d to ceil(hi / d) * d */
 	t0 = floor(lo / d) * d;
+	t1 = ceil(hi / d) * d;
 	*step = d;
-	for (t = t0; t <= hi + 0.5 * d && n < max; t = t0 + (double)n * d) {
+	for (t = t0; t <= t1 + 1e-9 * d && n < max; t = t0 + (double)n * d) {
 		/* snap -0 and rounding dust to the tick grid */
 		double v = round(t / d) * d;
 
