@@ -18,6 +18,7 @@
 #include "cmd.h"
 #include "cmdline.h"
 #include "progress.h"
+#include "report.h"
 #include "subject.h"
 
 static const cmdline_opt opts[] = {
@@ -28,9 +29,10 @@ static const cmdline_opt opts[] = {
 	{ "force", NULL, "redo subjects whose outputs are complete and up to date" },
 	{ "no-group", NULL, "skip the group step (per-subject tables only)" },
 	{ "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
+	{ "no-report", NULL, "do not write OUT/report.html and the subject pages" },
 	{ NULL, NULL, NULL },
 };
-enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET };
+enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_NOREPORT };
 
 static const cmdline_spec spec = {
 	"analyze", "STUDY.ini [options]",
@@ -416,7 +418,7 @@ static void print_summary(const study *st, const subject_result *res, const int 
 
 int cmd_analyze(int argc, char **argv)
 {
-	const char *val[8], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	const char *val[9], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	int npos, rc, quiet, nfail = 0;
 	long jobs = 1, threads = 0;
 	study st;
@@ -580,6 +582,8 @@ int cmd_analyze(int argc, char **argv)
 	if (!val[O_NOGROUP])
 		if (analyze_group_step(st.out, quiet))
 			nfail++;
+	if (!val[O_NOREPORT] && report_write(st.out, quiet))
+		nfail++;
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);
 		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",
