@@ -9,6 +9,10 @@
 
 enum { CMD_NEEDS_ARGS = 1 };
 
+/* OpenBLAS (no header of its own here): one BLAS thread, so that products
+ * never depend on thread scheduling; the commands run their own threads. */
+extern void openblas_set_num_threads(int num_threads);
+
 /* The single list of commands: help and dispatch are generated from it. */
 static const struct command {
 	const char *name;
@@ -16,6 +20,10 @@ static const struct command {
 	int flags;
 	const char *summary;
 } commands[] = {
+	{ "analyze", cmd_analyze, CMD_NEEDS_ARGS, "the whole job: fROIs from one half, responses from the other" },
+	{ "check", cmd_check, CMD_NEEDS_ARGS, "validate a study without fitting" },
+	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
+	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ "report", cmd_report, CMD_NEEDS_ARGS, "write an HTML report of a study's results" },
 	{ NULL, NULL, 0, NULL }
 };
@@ -80,6 +88,7 @@ int main(int argc, char **argv)
 {
 	const struct command *c;
 
+	openblas_set_num_threads(1);
 	if (argc < 2) {
 		top_help(stderr);
 		return 2;

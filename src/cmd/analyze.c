@@ -119,12 +119,13 @@ static sr_status study_subjects(const study *st, char ***out, size_t *n, sr_err 
 /* ---- conditions named in effects must exist for some subject (METHODS.md section 11) ---- */
 
 static sr_status task_conditions(const study *st, char **subs, size_t nsub, const char *task,
-				 char ***conds, size_t *ncond, sr_err *e)
+				 char ***conds, size_t *ncond, size_t *nruns, sr_err *e)
 {
 	size_t s, cap = 0;
 
 	*conds = NULL;
 	*ncond = 0;
+	*nruns = 0;
 	for (s = 0; s < nsub; s++) {
 		bids_run *runs;
 		size_t nr, r;
@@ -132,6 +133,7 @@ static sr_status task_conditions(const study *st, char **subs, size_t nsub, cons
 
 		if (rc)
 			return rc;
+		*nruns += nr;
 		for (r = 0; r < nr; r++) {
 			event_list ev;
 			size_t k;
@@ -185,13 +187,19 @@ static int check_all_effects(const study *st, char **subs, size_t nsub)
 	for (t = 0; t < ntasks; t++) {
 		const char *task = t ? st->measures[t - 1].task : st->loc_task;
 		char **conds;
-		size_t ncond, c;
+		size_t ncond, c, nruns;
 		sr_err e;
 
 		sr_err_init(&e, NULL, NULL);
-		if (task_conditions(st, subs, nsub, task, &conds, &ncond, &e)) {
+		if (task_conditions(st, subs, nsub, task, &conds, &ncond, &nruns, &e)) {
 			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 			return 1;
+		}
+		if (nruns == 0) {
+			fprintf(stderr, "splitroi analyze: %s: no subject has runs of task '%s' under %s (files named sub-<label>_task-%s_..._bold.nii[.gz])\n",
+				st->path, task, st->bids, task);
+			bad++;
+			continue;
 		}
 		if (t == 0) {
 			bad += check_effects(st, task, &st->contrast, 1, conds, ncond);
@@ -321,6 +329,28 @@ sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *nco
 		fputc('\n', a.f);
 	}
 	return afile_commit(&a, e);
+}
+
+/* The combined table exists and is newer than every subject's completion record. */
+static int combined_up_to_date(const study *st, char **subs, size_t nsub)
+{
+	char path[4096];
+	double combined;
+	size_t s;
+
+	snprintf(path, sizeof path, "%s/responses.csv", st->out);
+	combined = mtime_of(path);
+	if (combined < 0)
+		return 0;
+	snprintf(path, sizeof path, "%s/group.csv", st->out);
+	if (mtime_of(path) < combined)
+		return 0;
+	for (s = 0; s < nsub; s++) {
+		snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, subs[s]);
+		if (mtime_of(path) > combined)
+			return 0;
+	}
+	return 1;
 }
 
 /* ---- running subjects, possibly several at a time ---- */
@@ -575,13 +605,20 @@ int cmd_analyze(int argc, char **argv)
 		ran[i] = !w.status[i];
 		nfail += w.status[i];
 	}
-	if (analyze_combine(&st, subs, nsub, &ncomplete, &e)) {
-		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-		nfail++;
-	}
-	if (!val[O_NOGROUP])
-		if (analyze_group_step(st.out, quiet))
+	if (ntodo == 0 && combined_up_to_date(&st, subs, nsub)) {
+		if (!quiet)
+			fprintf(stderr, "splitroi analyze: every subject is up to date; tables left as they are\n");
+		for (i = 0; i < nsub; i++)
+			ncomplete += (size_t)analyze_subject_complete(&st, subs[i]);
+	} else {
+		if (analyze_combine(&st, subs, nsub, &ncomplete, &e)) {
+			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 			nfail++;
+		}
+		if (!val[O_NOGROUP])
+			if (analyze_group_step(st.out, quiet))
+				nfail++;
+	}
 	if (!val[O_NOREPORT] && report_write(st.out, quiet))
 		nfail++;
 	if (!quiet) {

@@ -23,7 +23,7 @@ typedef struct runfit_spec {
 	double tr;                     /* seconds, already resolved (bids_run_tr) */
 	double slice_ref;              /* METHODS.md section 2 */
 	double drift_cutoff;           /* seconds; 0 = no drift basis */
-	int ar1;                       /* 1 = AR(1) Prais-Winsten, 0 = OLS */
+	int ar1;                       /* GLM_AR1 (1) = AR(1) Prais-Winsten, GLM_OLS (0), GLM_AR1_ADJUSTED (2) */
 	const double *C;               /* ncon x ncond, row-major: contrast weights over conditions */
 	int ncon;
 	const unsigned char *mask;     /* nvox, optional brain mask on the data grid */
@@ -42,6 +42,9 @@ typedef struct runfit_result {
  * event in this run gives a warning and NaN for every contrast that needs it.
  */
 sr_status runfit_run(const runfit_spec *spec, runfit_result *res, sr_err *e);
+
+/* runfit_run with the per-voxel finish split over nthreads (same results for any count). */
+sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e);
 
 /*
  * Fits n runs with up to nthreads threads (runs in parallel); res[i], errs[i]

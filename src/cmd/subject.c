@@ -118,7 +118,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 				st->parcel_names);
 			goto fail;
 		}
-		/* table entries absent from the image still get (empty) rows */
+		/* the image decides which parcels exist; names only label them */
 		for (r = 0; r < names.nrows; r++) {
 			double x;
 			int na;
@@ -134,15 +134,10 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 			for (k = 0; k < nseen; k++)
 				if (seen[k] == (int32_t)x)
 					break;
-			if (k == nseen) {
-				sr_warnf(e, "%s: parcel %s (index %d) has no voxels in %s", st->parcel_names,
-					 table_cell(&names, r, (size_t)cn), (int)x, st->parcels);
-				if (nseen == cap) {
-					cap = cap ? 2 * cap : 16;
-					seen = xrealloc(seen, cap * sizeof *seen);
-				}
-				seen[nseen++] = (int32_t)x;
-			}
+			if (k == nseen)
+				sr_warnf(e, "%s: line %zu: parcel %s (index %d) has no voxels in %s; it gets no rows",
+					 st->parcel_names, names.line[r], table_cell(&names, r, (size_t)cn), (int)x,
+					 st->parcels);
 		}
 	}
 	qsort(seen, nseen, sizeof *seen, cmp_i32);
@@ -316,9 +311,15 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 		if (!t->runs[i].events_exist)
 			return sr_fail(e, SR_EIO, "%s: missing events file for run %s", t->runs[i].events,
 				       t->runs[i].bold);
-		rc = events_read(t->runs[i].events, st->condition_column, &ev, e);
-		if (rc)
-			return rc;
+		/* warnings about rows come once, from the fit that reads the file again */
+		{
+			sr_err quiet;
+
+			sr_err_init(&quiet, NULL, NULL);
+			rc = events_read(t->runs[i].events, st->condition_column, &ev, &quiet);
+			if (rc)
+				return sr_fail(e, rc, "%s", quiet.msg);
+		}
 		for (k = 0; k < ev.n; k++) {
 			int c;
 

@@ -23,8 +23,20 @@ int glm_model_rank(const glm_model *m);
 int glm_model_df(const glm_model *m);
 /* 1 when weight vector c (p values) lies in the row space of X (METHODS.md section 11). */
 int glm_estimable(const glm_model *m, const double *c);
-/* beta = pinv(X) y for one series y of T values (no scaling): the plain OLS solver. */
+/*
+ * beta = pinv(X) y for one series y of T values (no scaling): the plain OLS
+ * solver. Coefficients that are not estimable (METHODS.md section 4) are NaN;
+ * the others equal pinv(X) y.
+ */
 void glm_ols_solve(const glm_model *m, const double *y, double *beta);
+
+/*
+ * Prais-Winsten fit of one series with a given rho (|rho| < 1), computed the
+ * way the stream does (lagged sums, no whitened copy of X): beta (p values,
+ * NaN where not estimable) and, when rss_w is not NULL, the whitened RSS.
+ */
+sr_status glm_ar1_solve(const glm_model *m, const double *y, double rho, double *beta, double *rss_w,
+			sr_err *e);
 
 /*
  * Streaming accumulators for nvox voxels of one run: volumes are added in
@@ -51,12 +63,21 @@ typedef struct glm_out {
 	double *mean;            /* nvox: temporal mean of the raw series, NaN where not finite */
 } glm_out;
 
+/* Values of glm_acc_finish's ar1 argument. */
+enum {
+	GLM_OLS = 0,
+	GLM_AR1 = 1,          /* rho from the OLS residuals (METHODS.md section 4) */
+	GLM_AR1_ADJUSTED = 2  /* rho corrected for the bias the fit puts in the residuals (optional, off by default) */
+};
+
 /*
  * Finishes the fit after all T volumes: scaling to percent of the voxel mean,
- * OLS, then (ar1 = 1) Prais-Winsten whitening with the per-voxel rho and the
- * refit. C is ncon x p, row-major (contrast weights over all columns).
+ * OLS, then (ar1 = GLM_AR1) Prais-Winsten whitening with the per-voxel rho
+ * and the refit. GLM_AR1_ADJUSTED maps the residual ratio rho through the
+ * design's table of expected ratios under AR(1) noise before whitening. C is ncon x p, row-major (contrast weights over all columns).
  * mask (nvox, may be NULL) restricts the voxels fitted. nthreads >= 1 splits
- * the voxels; results are identical for any nthreads.
+ * the voxels; results are identical for any nthreads. Once per accumulator:
+ * the sums are released as the voxels are finished.
  */
 sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 			 const unsigned char *mask, int nthreads, glm_out *out, sr_err *e);

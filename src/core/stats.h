@@ -9,13 +9,25 @@ typedef struct stats_one {
 	double mean, sd, sem, t, df, p, d;   /* NaN where undefined (n < 2 for all but mean) */
 } stats_one;
 
-/* One-sample t test of the finite values of x against 0. */
+/*
+ * One-sample t test of the finite values of x against 0 (NaN and infinities
+ * are left out; x may be NULL when n is 0). n = 0: every field NaN; n = 1:
+ * only the mean. All values equal: sd = sem = 0 and t, p, d NaN (undefined,
+ * not infinite). Pure; thread safe.
+ */
 void stats_one_sample(const double *x, size_t n, stats_one *out);
-/* Two-sided p = P(|T_df| >= |t|), accurate in the far tail. */
+/*
+ * Two-sided p = P(|T_df| >= |t|), accurate in relative terms far into the
+ * tail (computed from the upper tail, never as 1 - cdf). df may be any
+ * positive real; df >= 1e10 is taken as the normal. NaN for NaN t or df <= 0.
+ */
 double stats_t_p2(double t, double df);
-/* Quantile: the t with P(T_df <= t) = prob. */
+/* Quantile: the t with P(T_df <= t) = prob; -inf at 0, inf at 1, NaN outside [0, 1]. */
 double stats_t_quantile(double prob, double df);
-/* Benjamini-Hochberg adjusted q for the finite p (NaN stays NaN). */
+/*
+ * Benjamini-Hochberg adjusted q for the finite p (NaN stays NaN and is not
+ * counted); q may be the same array as p. Allocates a scratch copy.
+ */
 void stats_bh(const double *p, size_t n, double *q);
 
 #endif

@@ -45,10 +45,24 @@ typedef struct study {
 	char **confounds;
 	size_t nconfounds;
 	char *confounds_suffix;
+	char **motion;                    /* six rigid-body columns for QC, NULL when not given */
+	size_t nmotion;
+	int motion_deg;                   /* rotations in degrees (motion_units = mm_deg), else radians */
+	double fd_threshold;              /* framewise displacement limit, mm */
 	/* [measure ...] */
 	study_measure *measures;
 	size_t nmeasures;
+	/* where each key was set, for messages about values (study_line) */
+	struct study_key *keys;
+	size_t nkeys;
 } study;
+
+/* One key as found in the file. */
+typedef struct study_key {
+	char *section;     /* "study", "measure memory", ... */
+	char *key;
+	size_t line;
+} study_key;
 
 /* A list of problems, each a full message naming file and line. */
 typedef struct study_problems {
@@ -57,10 +71,31 @@ typedef struct study_problems {
 } study_problems;
 
 /*
+ * Appends one message to p; when line > 0 it reads "FILE: line N: ...",
+ * else "FILE: ...". file may be NULL for a message of its own.
+ */
+void study_problems_add(study_problems *p, const char *file, size_t line, const char *fmt, ...)
+	__attribute__((format(printf, 4, 5)));
+
+/* The line where section/key was set, or 0 when the file does not set it (a default). */
+size_t study_line(const study *s, const char *section, const char *key);
+
+/*
  * Loads and checks the study file: unknown sections and keys (with the nearest
  * valid one), types and ranges, files that must exist. Every problem found is
- * appended to probs (all of them, not only the first); returns SR_OK only when
- * there are none. On SR_OK the caller owns s (study_release).
+ * appended to probs (all of them, not only the first, in line order; probs
+ * starts zeroed or holding earlier problems); returns SR_OK only when there
+ * are none (SR_EIO when the file cannot be read, else SR_ESTUDY). On SR_OK
+ * the caller owns s (study_release); otherwise s is left empty.
+ *
+ * Syntax beyond INTERFACE.md: `;` or `#` at the start of a line, or after
+ * whitespace outside double quotes, starts a comment; a long value may go on
+ * indented continuation lines (joined with one space); a key may be set once.
+ * Defaults: subjects all, split odd-even, effects = the contrast's conditions
+ * then the contrast, condition_column trial_type, top_percent 10, resample
+ * no, autocorrelation ar1, drift_cutoff 128, slice_reference 0.5,
+ * confounds_suffix _confounds.tsv, motion_units mm_rad, fd_threshold 0.5.
+ * top_percent_text is NULL unless the selection is top_percent.
  */
 sr_status study_load(const char *path, study *s, study_problems *probs);
 void study_release(study *s);

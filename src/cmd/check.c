@@ -1,0 +1,913 @@
+/* check.c - the `check` command: validates a study and its data without fitting, listing every problem. */
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../core/mem.h"
+#include "../core/resample.h"
+#include "../io/bids.h"
+#include "../io/events.h"
+#include "../io/nii.h"
+#include "../io/study.h"
+#include "../io/table.h"
+#include "cmd.h"
+#include "cmdline.h"
+
+enum { O_SUBJECTS, O_HEADERS_ONLY, O_NOPTS };
+
+static const cmdline_opt opts[] = {
+	{ "subjects", "LIST", "check only these subjects (labels, space or comma separated)" },
+	{ "headers-only", NULL, "read image headers only (faster; damaged image data goes unnoticed)" },
+	{ NULL, NULL, NULL },
+};
+
+static const cmdline_spec spec = {
+	"check",
+	"STUDY.ini [--subjects LIST]",
+	"Loads the study file and everything it points to without fitting anything: "
+	"subjects, runs (volumes, TR, conditions in the events), how the localizer runs "
+	"will be split, the parcels with their voxel counts and the mask. Every image is "
+	"read to its end so that damaged files show up now rather than during a fit. "
+	"Every problem found is listed on standard error, each naming its file (and line "
+	"and column where they apply); the exit status is then 1.",
+	opts,
+};
+
+/* A growing list of strings (problems, warnings, condition names). */
+typedef struct strlist {
+	char **s;
+	size_t n;
+} strlist;
+
+static void sl_push(strlist *l, const char *s)
+{
+	l->s = xrealloc(l->s, (l->n + 1) * sizeof *l->s);
+	l->s[l->n++] = xstrdup(s);
+}
+
+static int sl_has(const strlist *l, const char *s)
+{
+	size_t i;
+
+	for (i = 0; i < l->n; i++)
+		if (strcmp(l->s[i], s) == 0)
+			return 1;
+	return 0;
+}
+
+static void sl_add_unique(strlist *l, const char *s)
+{
+	if (!sl_has(l, s))
+		sl_push(l, s);
+}
+
+static void sl_free(strlist *l)
+{
+	size_t i;
+
+	for (i = 0; i < l->n; i++)
+		free(l->s[i]);
+	free(l->s);
+	l->s = NULL;
+	l->n = 0;
+}
+
+static int cmp_str(const void *a, const void *b)
+{
+	return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+/* The state of one check: what is wrong, what deserves a warning. */
+typedef struct checker {
+	const study *st;
+	study_problems probs;
+	strlist warns;
+	int headers_only;
+} checker;
+
+static void on_warn(void *ctx, const char *msg)
+{
+	checker *c = ctx;
+
+	sl_push(&c->warns, msg);
+}
+
+static void problem(checker *c, const char *msg)
+{
+	study_problems_add(&c->probs, NULL, 0, "%s", msg);
+}
+
+static const char *base(const char *path)
+{
+	const char *s = strrchr(path, '/');
+
+	return s ? s + 1 : path;
+}
+
+/* Splits a --subjects value into labels without "sub-". */
+static char **split_labels(const char *text, size_t *n)
+{
+	char **v = NULL;
+	size_t k = 0;
+
+	while (*text) {
+		size_t len;
+
+		text += strspn(text, " ,\t");
+		len = strcspn(text, " ,\t");
+		if (!len)
+			break;
+		if (len > 4 && strncmp(text, "sub-", 4) == 0) {
+			text += 4;
+			len -= 4;
+		}
+		v = xrealloc(v, (k + 1) * sizeof *v);
+		v[k] = xmalloc(len + 1);
+		memcpy(v[k], text, len);
+		v[k][len] = '\0';
+		k++;
+		text += len;
+	}
+	*n = k;
+	return v;
+}
+
+/* ---- one run ---- */
+
+/* Reads every volume so that a damaged file fails here; returns 0 when fine. */
+static int read_through(checker *c, const char *path, nii_info *info)
+{
+	nii_stream *s;
+	double *vol;
+	sr_err e;
+	int64_t t;
+	int bad = 0;
+
+	sr_err_init(&e, on_warn, c);
+	if (nii_stream_open(path, &s, info, &e)) {
+		problem(c, e.msg);
+		return 1;
+	}
+	vol = xmalloc_array(nii_nvox(&info->grid), sizeof *vol);
+	for (t = 0; t < info->nt; t++) {
+		if (nii_stream_next(s, vol, &e)) {
+			problem(c, e.msg);
+			bad = 1;
+			break;
+		}
+	}
+	free(vol);
+	nii_stream_close(s);
+	return bad;
+}
+
+/* Confound and motion columns exist in the run's confounds table, with one row per volume. */
+static void check_confounds(checker *c, const bids_run *run, int64_t nt)
+{
+	const study *st = c->st;
+	char *path;
+	table t;
+	sr_err e;
+	size_t i;
+
+	if (!st->nconfounds && !st->nmotion)
+		return;
+	path = bids_confounds_path(run, st->confounds_suffix);
+	sr_err_init(&e, on_warn, c);
+	if (table_read(path, 0, &t, &e)) {
+		problem(c, e.msg);
+		free(path);
+		return;
+	}
+	for (i = 0; i < st->nconfounds + st->nmotion; i++) {
+		const char *col = i < st->nconfounds ? st->confounds[i] : st->motion[i - st->nconfounds];
+
+		if (table_col(&t, col) < 0) {
+			char msg[1024];
+
+			snprintf(msg, sizeof msg, "%s: line %zu: no column '%s' (named in [model] %s)", path,
+				 t.header_line, col, i < st->nconfounds ? "confounds" : "motion");
+			problem(c, msg);
+		}
+	}
+	if ((int64_t)t.nrows != nt) {
+		char msg[1024];
+
+		snprintf(msg, sizeof msg, "%s: %zu rows, but the run %s has %lld volumes", path, t.nrows,
+			 base(run->bold), (long long)nt);
+		problem(c, msg);
+	}
+	table_release(&t);
+	free(path);
+}
+
+/* What the runs of one subject and task hold. */
+typedef struct task_seen {
+	bids_run *runs;
+	size_t nruns;
+	strlist conds;        /* conditions found in this subject's events */
+} task_seen;
+
+/* Checks one run and prints its line; ref is the subject's data grid (set by the first run). */
+static void check_run(checker *c, const bids_run *run, task_seen *ts, nii_grid *ref, int *have_ref,
+		      char *ref_path, size_t ref_len)
+{
+	const study *st = c->st;
+	nii_info info;
+	sr_err e;
+	double tr = 0;
+	int tr_ok = 0;
+	char why[1024];
+
+	sr_err_init(&e, on_warn, c);
+	printf("    run %s: %s", run->label, base(run->bold));
+	if (c->headers_only ? nii_read_info(run->bold, &info, &e) != SR_OK
+			    : read_through(c, run->bold, &info) != 0) {
+		if (c->headers_only)
+			problem(c, e.msg);
+		printf("  (unreadable)\n");
+		goto events;
+	}
+	if (info.ndim != 4) {
+		snprintf(why, sizeof why, "%s: a BOLD run must be a 4-D image; this one is %d-D", run->bold,
+			 info.ndim);
+		problem(c, why);
+	}
+	if (bids_run_tr(st->bids, run, info.tr, &tr, &e) != SR_OK)
+		problem(c, e.msg);
+	else
+		tr_ok = 1;
+	printf("  %lld volumes", (long long)info.nt);
+	if (tr_ok)
+		printf(", TR %g s", tr);
+	printf(", %lld x %lld x %lld voxels of %g x %g x %g mm\n", (long long)info.grid.nx,
+	       (long long)info.grid.ny, (long long)info.grid.nz, info.grid.dx, info.grid.dy,
+	       info.grid.dz);
+	if (!*have_ref) {
+		*ref = info.grid;
+		*have_ref = 1;
+		snprintf(ref_path, ref_len, "%s", run->bold);
+	} else if (!nii_same_grid(ref, &info.grid, 1e-3, why, sizeof why)) {
+		char msg[2048];
+
+		snprintf(msg, sizeof msg, "%s: not on the grid of %s: %s", run->bold, ref_path, why);
+		problem(c, msg);
+	}
+	check_confounds(c, run, info.nt);
+events:
+	if (!run->events_exist) {
+		snprintf(why, sizeof why, "%s: events file missing (needed beside %s)", run->events,
+			 base(run->bold));
+		problem(c, why);
+		return;
+	}
+	{
+		event_list ev;
+		strlist names = { 0 };
+		size_t k, i;
+		int late = 0;
+
+		if (events_read(run->events, st->condition_column, &ev, &e) != SR_OK) {
+			problem(c, e.msg);
+			return;
+		}
+		printf("      conditions:");
+		for (k = 0; k < ev.n; k++)
+			sl_add_unique(&names, ev.ev[k].condition);
+		if (names.n)
+			qsort(names.s, names.n, sizeof *names.s, cmp_str);
+		for (i = 0; i < names.n; i++) {
+			size_t count = 0;
+
+			for (k = 0; k < ev.n; k++)
+				count += strcmp(ev.ev[k].condition, names.s[i]) == 0;
+			printf("%s %s (%zu)", i ? "," : "", names.s[i], count);
+			sl_add_unique(&ts->conds, names.s[i]);
+		}
+		printf("%s\n", names.n ? "" : " none");
+		if (tr_ok) {
+			double end = (double)info.nt * tr;
+
+			/* the first such event only: one warning per run is enough to act on */
+			for (k = 0; k < ev.n && !late; k++) {
+				if (ev.ev[k].onset >= end) {
+					char msg[1024];
+
+					snprintf(msg, sizeof msg,
+						 "%s: line %zu: onset %g s is at or after the end of the run (%lld volumes x %g s = %g s)",
+						 run->events, ev.ev[k].line, ev.ev[k].onset,
+						 (long long)info.nt, tr, end);
+					sl_push(&c->warns, msg);
+					late = 1;
+				}
+			}
+		}
+		sl_free(&names);
+		events_release(&ev);
+	}
+}
+
+/* ---- splits ---- */
+
+static void print_runs(const bids_run *runs, const size_t *idx, size_t n)
+{
+	size_t i;
+
+	for (i = 0; i < n; i++)
+		printf("%s%s", i ? "+" : "", runs[idx[i]].label);
+}
+
+static void print_splits(checker *c, const char *label, const task_seen *ts)
+{
+	size_t n = ts->nruns, i, j, *a, *b, na = 0, nb = 0;
+
+	if (n == 0) {
+		printf("    sub-%s: no localizer runs\n", label);
+		return;  /* already a problem */
+	}
+	if (n < 2) {
+		char msg[512];
+
+		snprintf(msg, sizeof msg,
+			 "sub-%s has %zu run%s of the localizer task %s: no cross-validated rows (measured tasks still get rows)",
+			 label, n, n == 1 ? "" : "s", c->st->loc_task);
+		sl_push(&c->warns, msg);
+		printf("    sub-%s: fewer than 2 localizer runs, no cross-validated splits\n", label);
+		return;
+	}
+	a = xmalloc_array(n, sizeof *a);
+	b = xmalloc_array(n, sizeof *b);
+	if (c->st->split == SPLIT_ODD_EVEN) {
+		for (i = 0; i < n; i++) {
+			if (i % 2 == 0)
+				a[na++] = i;
+			else
+				b[nb++] = i;
+		}
+		printf("    sub-%s odd-even:A: define on runs ", label);
+		print_runs(ts->runs, a, na);
+		printf(", measure on ");
+		print_runs(ts->runs, b, nb);
+		printf("\n    sub-%s odd-even:B: define on runs ", label);
+		print_runs(ts->runs, b, nb);
+		printf(", measure on ");
+		print_runs(ts->runs, a, na);
+		printf("\n");
+	} else {
+		for (i = 0; i < n; i++) {
+			na = 0;
+			for (j = 0; j < n; j++)
+				if (j != i)
+					a[na++] = j;
+			printf("    sub-%s leave-one-out:%s: define on runs ", label, ts->runs[i].label);
+			print_runs(ts->runs, a, na);
+			printf(", measure on %s\n", ts->runs[i].label);
+		}
+	}
+	free(a);
+	free(b);
+}
+
+/* ---- conditions named by effects ---- */
+
+static void check_names(checker *c, const char *section, const char *key, const char *task,
+			const expr *fx, size_t nfx, const strlist *known, char **subs, size_t nsub,
+			task_seen *seen, size_t stride, strlist *reported)
+{
+	size_t i, k, j, s;
+
+	for (i = 0; i < nfx; i++) {
+		for (k = 0; k < fx[i].nterms; k++) {
+			const char *name = fx[i].terms[k].name;
+			char msg[2048];
+			size_t used;
+
+			size_t line = study_line(c->st, section, key);
+			char where[64] = "";
+
+			if (sl_has(reported, name))
+				continue;  /* one message per condition and task */
+			sl_push(reported, name);
+			if (line)
+				snprintf(where, sizeof where, " line %zu:", line);
+			if (!sl_has(known, name)) {
+				used = (size_t)snprintf(msg, sizeof msg,
+							"%s:%s %s '%s' names condition '%s', unknown to every subject of task %s (known:",
+							c->st->path, where, line ? key : "default effect",
+							fx[i].text, name, task);
+				for (j = 0; j < known->n && used < sizeof msg; j++)
+					used += (size_t)snprintf(msg + used, sizeof msg - used, "%s %s",
+								 j ? "," : "", known->s[j]);
+				if (used < sizeof msg)
+					snprintf(msg + used, sizeof msg - used, "%s)", known->n ? "" : " none");
+				problem(c, msg);
+				continue;
+			}
+			for (s = 0; s < nsub; s++) {
+				const task_seen *ts = &seen[s * stride];
+
+				if (ts->nruns && !sl_has(&ts->conds, name)) {
+					snprintf(msg, sizeof msg,
+						 "sub-%s has no '%s' events in task %s: %s is not estimable for this subject",
+						 subs[s], name, task, fx[i].text);
+					sl_push(&c->warns, msg);
+				}
+			}
+		}
+	}
+}
+
+/* ---- parcels and mask ---- */
+
+/* A distinct data grid and the first run found on it. */
+typedef struct data_grid {
+	nii_grid g;
+	char path[1024];
+} data_grid;
+
+/* The parcel image and its names, read the way a fit reads them but listing every bad row. */
+typedef struct parcels {
+	nii_grid grid;
+	int32_t *labels;
+	size_t nvox;
+	int32_t *index;      /* distinct labels present, ascending */
+	size_t *count;       /* voxels of each */
+	size_t n;
+} parcels;
+
+static int cmp_i32(const void *a, const void *b)
+{
+	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
+
+	return x < y ? -1 : x > y;
+}
+
+static int load_parcels(checker *c, parcels *p)
+{
+	const study *st = c->st;
+	nii_info info;
+	double *d;
+	sr_err e;
+	size_t v, k;
+	char msg[1024];
+
+	memset(p, 0, sizeof *p);
+	sr_err_init(&e, on_warn, c);
+	if (nii_read_3d(st->parcels, &info, &d, &e) != SR_OK) {
+		problem(c, e.msg);
+		return 1;
+	}
+	p->grid = info.grid;
+	p->nvox = nii_nvox(&info.grid);
+	p->labels = xmalloc_array(p->nvox ? p->nvox : 1, sizeof *p->labels);
+	for (v = 0; v < p->nvox; v++) {
+		double x = d[v];
+
+		if (!isfinite(x) || x < 0 || x != floor(x) || x > 2147483647.0) {
+			size_t nx = (size_t)info.grid.nx, ny = (size_t)info.grid.ny;
+
+			snprintf(msg, sizeof msg,
+				 "%s: voxel (%zu, %zu, %zu) holds %g; parcel labels must be whole numbers >= 0",
+				 st->parcels, v % nx, v / nx % ny, v / (nx * ny), x);
+			problem(c, msg);
+			free(d);
+			free(p->labels);
+			p->labels = NULL;
+			return 1;
+		}
+		p->labels[v] = (int32_t)x;
+	}
+	free(d);
+	for (v = 0; v < p->nvox; v++) {
+		if (p->labels[v] == 0)
+			continue;
+		for (k = 0; k < p->n; k++)
+			if (p->index[k] == p->labels[v])
+				break;
+		if (k == p->n) {
+			p->index = xrealloc(p->index, (p->n + 1) * sizeof *p->index);
+			p->index[p->n++] = p->labels[v];
+		}
+	}
+	if (p->n)
+		qsort(p->index, p->n, sizeof *p->index, cmp_i32);
+	p->count = xcalloc(p->n ? p->n : 1, sizeof *p->count);
+	for (v = 0; v < p->nvox; v++) {
+		int32_t *hit;
+
+		if (p->labels[v] == 0)
+			continue;
+		hit = bsearch(&p->labels[v], p->index, p->n, sizeof *p->index, cmp_i32);
+		p->count[hit - p->index]++;
+	}
+	return 0;
+}
+
+/* The name of label from the names table (row of its index), or NULL. */
+static const char *parcel_name(const table *t, int ci, int cn, int32_t label)
+{
+	size_t r;
+	char buf[32];
+
+	snprintf(buf, sizeof buf, "%d", (int)label);
+	for (r = 0; r < t->nrows; r++) {
+		double x;
+		int na;
+
+		if (table_number(t, r, (size_t)ci, &x, &na, 0, NULL) == SR_OK && !na && x == label)
+			return table_cell(t, r, (size_t)cn);
+	}
+	return NULL;
+}
+
+static void check_parcels(checker *c, const data_grid *grids, size_t ngrids)
+{
+	const study *st = c->st;
+	parcels ps;
+	table names;
+	int have_names = 0, ci = -1, cn = -1;
+	sr_err e;
+	char why[1024], msg[2048];
+	int32_t *on_data = NULL;
+	size_t nv = 0, i, r, g;
+
+	if (load_parcels(c, &ps))
+		return;
+	sr_err_init(&e, on_warn, c);
+	if (st->parcel_names) {
+		if (table_read(st->parcel_names, 0, &names, &e) != SR_OK) {
+			problem(c, e.msg);
+		} else {
+			have_names = 1;
+			ci = table_col(&names, "index");
+			cn = table_col(&names, "name");
+			if (ci < 0 || cn < 0) {
+				snprintf(msg, sizeof msg,
+					 "%s: line %zu: the parcel names table needs columns 'index' and 'name'",
+					 st->parcel_names, names.header_line);
+				problem(c, msg);
+				have_names = 0;
+			}
+			for (r = 0; have_names && r < names.nrows; r++) {
+				double x;
+				int na;
+
+				if (table_number(&names, r, (size_t)ci, &x, &na, 0, &e) != SR_OK) {
+					problem(c, e.msg);
+				} else if (na || x != floor(x) || x < 1 || x > 2147483647.0) {
+					snprintf(msg, sizeof msg,
+						 "%s: line %zu, column %d (index): '%s' is not a parcel label (a whole number >= 1)",
+						 st->parcel_names, names.line[r], ci + 1,
+						 table_cell(&names, r, (size_t)ci));
+					problem(c, msg);
+				} else {
+					int32_t l = (int32_t)x;
+
+					if (!bsearch(&l, ps.index, ps.n, sizeof *ps.index, cmp_i32)) {
+						snprintf(msg, sizeof msg, "%s: line %zu: parcel %s (index %d) has no voxels in %s",
+							 st->parcel_names, names.line[r],
+							 table_cell(&names, r, (size_t)cn), (int)l, st->parcels);
+						sl_push(&c->warns, msg);
+					}
+				}
+			}
+		}
+	}
+	printf("parcels: %s (%lld x %lld x %lld), %zu parcel%s\n", st->parcels, (long long)ps.grid.nx,
+	       (long long)ps.grid.ny, (long long)ps.grid.nz, ps.n, ps.n == 1 ? "" : "s");
+	for (g = 0; g < ngrids; g++) {
+		const nii_grid *data = &grids[g].g;
+
+		if (nii_same_grid(data, &ps.grid, 1e-3, why, sizeof why))
+			continue;
+		if (!st->resample_parcels) {
+			snprintf(msg, sizeof msg,
+				 "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
+				 st->parcels, grids[g].path, why);
+			problem(c, msg);
+		} else if (!on_data) {
+			/* voxel counts are shown on the first grid that needs resampling */
+			int64_t sn[3] = { ps.grid.nx, ps.grid.ny, ps.grid.nz };
+			int64_t tn[3] = { data->nx, data->ny, data->nz };
+
+			nv = nii_nvox(data);
+			on_data = xmalloc_array(nv ? nv : 1, sizeof *on_data);
+			if (resample_nearest(ps.labels, sn, ps.grid.affine, on_data, tn, data->affine)) {
+				snprintf(msg, sizeof msg, "%s: the parcel image's affine is singular", st->parcels);
+				problem(c, msg);
+				free(on_data);
+				on_data = NULL;
+				break;
+			}
+			printf("  resampled (nearest neighbour) onto the data grid of %s\n",
+			       base(grids[g].path));
+		}
+	}
+	printf("  %6s  %-24s %8s%s\n", "index", "name", "voxels", on_data ? "  on data grid" : "");
+	for (i = 0; i < ps.n; i++) {
+		size_t v, count2 = 0;
+		const char *name = have_names ? parcel_name(&names, ci, cn, ps.index[i]) : NULL;
+		char num[32];
+
+		snprintf(num, sizeof num, "%d", (int)ps.index[i]);
+		for (v = 0; on_data && v < nv; v++)
+			count2 += on_data[v] == ps.index[i];
+		printf("  %6d  %-24s %8zu", (int)ps.index[i], name ? name : num, ps.count[i]);
+		if (on_data)
+			printf("  %12zu", count2);
+		printf("\n");
+		if (have_names && !name) {
+			snprintf(msg, sizeof msg, "%s: parcel %d has no row in %s; its label is its name",
+				 st->parcels, (int)ps.index[i], st->parcel_names);
+			sl_push(&c->warns, msg);
+		}
+		if (on_data && !count2) {
+			snprintf(msg, sizeof msg, "%s: parcel %s has no voxels once resampled onto the data grid",
+				 st->parcels, name ? name : num);
+			sl_push(&c->warns, msg);
+		}
+	}
+	if (ps.n == 0) {
+		snprintf(msg, sizeof msg, "%s: no parcels (every voxel is 0)", st->parcels);
+		problem(c, msg);
+	}
+	if (st->parcel_names)
+		table_release(&names);   /* left empty on a failed read */
+	free(on_data);
+	free(ps.labels);
+	free(ps.index);
+	free(ps.count);
+}
+
+static void check_mask(checker *c, const data_grid *grids, size_t ngrids)
+{
+	const study *st = c->st;
+	nii_info info;
+	double *d;
+	sr_err e;
+	size_t v, n, g, count = 0;
+	char why[1024], msg[2048];
+
+	if (!st->mask)
+		return;
+	sr_err_init(&e, on_warn, c);
+	if (nii_read_3d(st->mask, &info, &d, &e) != SR_OK) {
+		problem(c, e.msg);
+		return;
+	}
+	n = nii_nvox(&info.grid);
+	for (v = 0; v < n; v++)
+		count += isfinite(d[v]) && d[v] != 0;
+	free(d);
+	printf("mask: %s: %zu voxels in the mask\n", st->mask, count);
+	if (count == 0) {
+		snprintf(msg, sizeof msg, "%s: the mask is empty", st->mask);
+		problem(c, msg);
+	}
+	for (g = 0; g < ngrids; g++) {
+		if (!nii_same_grid(&grids[g].g, &info.grid, 1e-3, why, sizeof why)) {
+			snprintf(msg, sizeof msg, "%s: the mask is not on the data grid of %s: %s",
+				 st->mask, grids[g].path, why);
+			problem(c, msg);
+		}
+	}
+}
+
+/* ---- the command ---- */
+
+static int run_check(checker *c, char **subs, size_t nsub)
+{
+	const study *st = c->st;
+	size_t ntasks = 1 + st->nmeasures, s, t;
+	task_seen *seen = xcalloc(nsub > 0 ? nsub * ntasks : 1, sizeof *seen);
+	data_grid *grids = xcalloc(nsub ? nsub : 1, sizeof *grids);
+	size_t ngrids = 0;
+
+	for (s = 0; s < nsub; s++) {
+		nii_grid ref;
+		int have_ref = 0;
+		char ref_path[1024] = "";
+
+		printf("sub-%s\n", subs[s]);
+		for (t = 0; t < ntasks; t++) {
+			const char *task = t ? st->measures[t - 1].task : st->loc_task;
+			task_seen *ts = &seen[s * ntasks + t];
+			sr_err e;
+			size_t r;
+
+			sr_err_init(&e, on_warn, c);
+			if (bids_runs(st->bids, subs[s], task, &ts->runs, &ts->nruns, &e) != SR_OK) {
+				problem(c, e.msg);
+				continue;
+			}
+			printf("  task %s (%s): %zu run%s\n", task, t ? "measured" : "localizer", ts->nruns,
+			       ts->nruns == 1 ? "" : "s");
+			if (ts->nruns == 0) {
+				char msg[1024];
+
+				snprintf(msg, sizeof msg,
+					 "%s: sub-%s has no runs of task %s (looked for sub-%s/[ses-*/]func/sub-%s_*task-%s*_bold.nii[.gz])",
+					 st->bids, subs[s], task, subs[s], subs[s], task);
+				problem(c, msg);
+				continue;
+			}
+			for (r = 0; r < ts->nruns; r++)
+				check_run(c, &ts->runs[r], ts, &ref, &have_ref, ref_path, sizeof ref_path);
+		}
+		if (have_ref) {
+			size_t g;
+			char why[8];
+
+			for (g = 0; g < ngrids; g++)
+				if (nii_same_grid(&grids[g].g, &ref, 1e-3, why, sizeof why))
+					break;
+			if (g == ngrids) {
+				grids[ngrids].g = ref;
+				snprintf(grids[ngrids].path, sizeof grids[ngrids].path, "%s", ref_path);
+				ngrids++;
+			}
+		}
+	}
+	printf("localizer splits (%s)\n", st->split == SPLIT_ODD_EVEN ? "odd-even" : "leave-one-out");
+	for (s = 0; s < nsub; s++)
+		print_splits(c, subs[s], &seen[s * ntasks]);
+	for (t = 0; t < ntasks; t++) {
+		strlist known = { 0 }, reported = { 0 };
+		const char *task = t ? st->measures[t - 1].task : st->loc_task;
+
+		for (s = 0; s < nsub; s++) {
+			task_seen *ts = &seen[s * ntasks + t];
+			size_t k;
+
+			for (k = 0; k < ts->conds.n; k++)
+				sl_add_unique(&known, ts->conds.s[k]);
+		}
+		if (known.n)
+			qsort(known.s, known.n, sizeof *known.s, cmp_str);
+		if (t == 0) {
+			check_names(c, "localizer", "contrast", task, &st->contrast, 1, &known, subs, nsub,
+				    seen, ntasks, &reported);
+			check_names(c, "localizer", "effects", task, st->loc_effects, st->nloc_effects,
+				    &known, subs, nsub, seen, ntasks, &reported);
+		} else {
+			char section[512];
+
+			snprintf(section, sizeof section, "measure %s", st->measures[t - 1].name);
+			check_names(c, section, "effects", task, st->measures[t - 1].effects,
+				    st->measures[t - 1].neffects, &known, subs, nsub, seen + t, ntasks,
+				    &reported);
+		}
+		sl_free(&known);
+		sl_free(&reported);
+	}
+	check_parcels(c, grids, ngrids);
+	check_mask(c, grids, ngrids);
+	free(grids);
+	for (s = 0; s < nsub * ntasks; s++) {
+		bids_runs_release(seen[s].runs, seen[s].nruns);
+		sl_free(&seen[s].conds);
+	}
+	free(seen);
+	return 0;
+}
+
+/* The subjects to check: the study's list (or all found), narrowed by --subjects. */
+static int pick_subjects(checker *c, const char *only, char ***out, size_t *n)
+{
+	const study *st = c->st;
+	char **found = NULL, **pick = NULL;
+	size_t nfound = 0, npick = 0, i, j;
+	sr_err e;
+
+	*out = NULL;
+	*n = 0;
+	sr_err_init(&e, on_warn, c);
+	if (bids_subjects(st->bids, &found, &nfound, &e) != SR_OK) {
+		problem(c, e.msg);
+		return 1;
+	}
+	if (st->subjects) {
+		for (i = 0; i < st->nsubjects; i++) {
+			for (j = 0; j < nfound; j++)
+				if (strcmp(found[j], st->subjects[i]) == 0)
+					break;
+			if (j == nfound) {
+				char msg[1024];
+
+				snprintf(msg, sizeof msg, "%s: line %zu: subject '%s' is not in %s", st->path,
+					 study_line(st, "study", "subjects"), st->subjects[i], st->bids);
+				problem(c, msg);
+			} else {
+				pick = xrealloc(pick, (npick + 1) * sizeof *pick);
+				pick[npick++] = xstrdup(st->subjects[i]);
+			}
+		}
+		bids_strings_free(found, nfound);
+	} else {
+		pick = found;
+		npick = nfound;
+	}
+	if (only) {
+		size_t nonly;
+		char **want = split_labels(only, &nonly);
+		char **keep = NULL;
+		size_t nkeep = 0;
+		int bad = 0;
+
+		for (i = 0; i < nonly; i++) {
+			for (j = 0; j < npick; j++)
+				if (strcmp(pick[j], want[i]) == 0)
+					break;
+			if (j == npick) {
+				cmdline_error("check", "subject '%s' (--subjects) is not among the study's %zu subjects",
+					      want[i], npick);
+				bad = 1;
+			} else {
+				keep = xrealloc(keep, (nkeep + 1) * sizeof *keep);
+				keep[nkeep++] = xstrdup(want[i]);
+			}
+		}
+		bids_strings_free(want, nonly);
+		bids_strings_free(pick, npick);
+		if (bad) {
+			bids_strings_free(keep, nkeep);
+			return 2;
+		}
+		pick = keep;
+		npick = nkeep;
+	}
+	if (npick)
+		qsort(pick, npick, sizeof *pick, cmp_str);
+	if (npick == 0 && !c->probs.n) {
+		char msg[1024];
+
+		snprintf(msg, sizeof msg, "%s: no subjects (sub-* folders) found", st->bids);
+		problem(c, msg);
+	}
+	*out = pick;
+	*n = npick;
+	return 0;
+}
+
+int cmd_check(int argc, char **argv)
+{
+	const char *val[O_NOPTS + 1] = { NULL }, **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	int npos, rc;
+	study st;
+	checker c;
+	char **subs = NULL;
+	size_t nsub = 0, i;
+
+	rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
+	if (rc) {
+		free(pos);
+		return rc == 1 ? 0 : 2;
+	}
+	if (npos != 1) {
+		cmdline_error("check", npos ? "give one study file" : "which study? usage: splitroi check STUDY.ini");
+		free(pos);
+		return 2;
+	}
+	memset(&c, 0, sizeof c);
+	c.headers_only = val[O_HEADERS_ONLY] != NULL;
+	if (study_load(pos[0], &st, &c.probs) != SR_OK) {
+		for (i = 0; i < c.probs.n; i++)
+			fprintf(stderr, "splitroi check: %s\n", c.probs.msg[i]);
+		fprintf(stderr, "splitroi check: %zu problem%s in the study file\n", c.probs.n,
+			c.probs.n == 1 ? "" : "s");
+		study_problems_release(&c.probs);
+		free(pos);
+		return 1;
+	}
+	free(pos);
+	c.st = &st;
+	printf("study: %s\nbids: %s\nout: %s\n", st.path, st.bids, st.out);
+	rc = pick_subjects(&c, val[O_SUBJECTS], &subs, &nsub);
+	if (rc == 2)
+		goto out;
+	printf("subjects (%zu):", nsub);
+	for (i = 0; i < nsub; i++)
+		printf(" %s", subs[i]);
+	printf("\n");
+	run_check(&c, subs, nsub);
+	fflush(stdout);
+	for (i = 0; i < c.warns.n; i++)
+		fprintf(stderr, "splitroi check: warning: %s\n", c.warns.s[i]);
+	for (i = 0; i < c.probs.n; i++)
+		fprintf(stderr, "splitroi check: %s\n", c.probs.msg[i]);
+	if (c.probs.n) {
+		fprintf(stderr, "splitroi check: %zu problem%s found\n", c.probs.n,
+			c.probs.n == 1 ? "" : "s");
+		rc = 1;
+	} else {
+		printf("no problems found%s\n", c.warns.n ? " (see the warnings)" : "");
+		rc = 0;
+	}
+out:
+	bids_strings_free(subs, nsub);
+	sl_free(&c.warns);
+	study_problems_release(&c.probs);
+	study_release(&st);
+	return rc;
+}

@@ -1,0 +1,366 @@
+/* runfit.c - one BOLD run from files to fitted maps: events, confounds, design, streamed fit.
+ *
+ * The volumes are inflated by a reader thread into a small ring of buffers
+ * while the fit consumes them, so a compressed run costs about
+ * max(inflate, compute) rather than their sum, and only a few volumes are
+ * ever held.
+ */
+#include "runfit.h"
+
+#include <math.h>
+#include <pthread.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../core/mem.h"
+#include "../io/events.h"
+#include "../io/table.h"
+
+#define QUEUE_SLOTS 2
+
+typedef struct vol_queue {
+	nii_stream *s;
+	int T;
+	size_t nvox;
+	double *slot[QUEUE_SLOTS];
+	int head, count, stop, failed;
+	sr_err err;
+	pthread_mutex_t mu;
+	pthread_cond_t cv;
+} vol_queue;
+
+static void *reader_main(void *arg)
+{
+	vol_queue *q = arg;
+	int k, tail = 0;
+
+	for (k = 0; k < q->T; k++) {
+		sr_status st;
+
+		pthread_mutex_lock(&q->mu);
+		while (q->count == QUEUE_SLOTS && !q->stop)
+			pthread_cond_wait(&q->cv, &q->mu);
+		if (q->stop) {
+			pthread_mutex_unlock(&q->mu);
+			break;
+		}
+		pthread_mutex_unlock(&q->mu);
+		/* the slot at tail is free: only this thread writes it until count grows */
+		st = nii_stream_next(q->s, q->slot[tail], &q->err);
+		pthread_mutex_lock(&q->mu);
+		if (st != SR_OK)
+			q->failed = 1;
+		else
+			q->count++;
+		pthread_cond_broadcast(&q->cv);
+		pthread_mutex_unlock(&q->mu);
+		if (st != SR_OK)
+			break;
+		tail = (tail + 1) % QUEUE_SLOTS;
+	}
+	return NULL;
+}
+
+/* Streams every volume of q->s through acc, reading ahead in a second thread. */
+static sr_status stream_fit(vol_queue *q, glm_acc *acc, sr_err *e)
+{
+	pthread_t th;
+	sr_status st = SR_OK;
+	int k, i;
+
+	for (i = 0; i < QUEUE_SLOTS; i++)
+		q->slot[i] = xmalloc_array(q->nvox ? q->nvox : 1, sizeof(double));
+	pthread_mutex_init(&q->mu, NULL);
+	pthread_cond_init(&q->cv, NULL);
+	q->err.warn = e->warn;
+	q->err.warn_ctx = e->warn_ctx;
+	if (pthread_create(&th, NULL, reader_main, q) != 0) {
+		st = sr_fail(e, SR_ENOMEM, "cannot start the reader thread");
+		goto out;
+	}
+	for (k = 0; k < q->T; k++) {
+		pthread_mutex_lock(&q->mu);
+		while (q->count == 0 && !q->failed)
+			pthread_cond_wait(&q->cv, &q->mu);
+		if (q->count == 0) {
+			pthread_mutex_unlock(&q->mu);
+			*e = q->err;
+			st = e->code ? e->code : SR_EIO;
+			break;
+		}
+		pthread_mutex_unlock(&q->mu);
+		st = glm_acc_add(acc, q->slot[q->head], e);
+		pthread_mutex_lock(&q->mu);
+		q->head = (q->head + 1) % QUEUE_SLOTS;
+		q->count--;
+		if (st != SR_OK)
+			q->stop = 1;
+		pthread_cond_broadcast(&q->cv);
+		pthread_mutex_unlock(&q->mu);
+		if (st != SR_OK)
+			break;
+	}
+	pthread_join(th, NULL);
+out:
+	pthread_mutex_destroy(&q->mu);
+	pthread_cond_destroy(&q->cv);
+	for (i = 0; i < QUEUE_SLOTS; i++)
+		free(q->slot[i]);
+	return st;
+}
+
+/* Events of the run as design events; checks conditions and warns about late events and empty conditions. */
+static sr_status load_events(const runfit_spec *spec, int T, design_event **out, size_t *nout, sr_err *e)
+{
+	event_list el = { 0 };
+	design_event *ev;
+	size_t i, *count;
+	sr_status st;
+	double end = T * spec->tr;
+	int c;
+
+	*out = NULL;
+	*nout = 0;
+	st = events_read(spec->events, spec->condition_column, &el, e);
+	if (st != SR_OK)
+		return st;
+	ev = xcalloc(el.n ? el.n : 1, sizeof *ev);
+	count = xcalloc((size_t)spec->ncond + 1, sizeof *count);
+	for (i = 0; i < el.n; i++) {
+		const event *x = &el.ev[i];
+
+		for (c = 0; c < spec->ncond; c++)
+			if (strcmp(spec->conditions[c], x->condition) == 0)
+				break;
+		if (c == spec->ncond) {
+			st = sr_fail(e, SR_ESTUDY, "%s: line %zu: condition '%s' is not one of the task's conditions",
+				     spec->events, x->line, x->condition);
+			goto out;
+		}
+		if (x->onset >= end)
+			sr_warnf(e, "%s: line %zu: event at %g s starts after the end of the run (%d volumes of %g s = %g s)",
+				 spec->events, x->line, x->onset, T, spec->tr, end);
+		ev[i].onset = x->onset;
+		ev[i].duration = x->duration;
+		ev[i].cond = c;
+		count[c]++;
+	}
+	for (c = 0; c < spec->ncond; c++)
+		if (count[c] == 0)
+			sr_warnf(e, "%s: condition '%s' has no event in this run: effects that need it are not estimable here",
+				 spec->events, spec->conditions[c]);
+	*out = ev;
+	*nout = el.n;
+	ev = NULL;
+out:
+	free(ev);
+	free(count);
+	events_release(&el);
+	return st;
+}
+
+/* Confound columns by name, T x nconf column-major, n/a filled and demeaned. */
+static sr_status load_confounds(const runfit_spec *spec, int T, double **out, sr_err *e)
+{
+	table t;
+	double *conf;
+	sr_status st;
+	int c;
+	size_t row;
+
+	*out = NULL;
+	if (spec->nconf == 0)
+		return SR_OK;
+	if (!spec->confounds)
+		return sr_fail(e, SR_EINVAL, "%s: confound columns named but no confounds file", spec->bold);
+	st = table_read(spec->confounds, 0, &t, e);
+	if (st != SR_OK)
+		return st;
+	if (t.nrows != (size_t)T) {
+		st = sr_fail(e, SR_EDIM, "%s: %zu rows, but the run %s has %d volumes", spec->confounds,
+			     t.nrows, spec->bold, T);
+		table_release(&t);
+		return st;
+	}
+	conf = xmalloc_array((size_t)T * spec->nconf, sizeof(double));
+	for (c = 0; c < spec->nconf; c++) {
+		int col = table_col(&t, spec->confound_names[c]);
+
+		if (col < 0) {
+			st = sr_fail(e, SR_EFORMAT, "%s: no column '%s'", spec->confounds, spec->confound_names[c]);
+			goto fail;
+		}
+		for (row = 0; row < (size_t)T; row++) {
+			int na;
+
+			st = table_number(&t, row, (size_t)col, &conf[(size_t)c * T + row], &na, 1, e);
+			if (st != SR_OK)
+				goto fail;
+		}
+	}
+	st = design_confounds(T, spec->nconf, conf, e);
+	if (st != SR_OK) {
+		char msg[sizeof e->msg];
+
+		memcpy(msg, e->msg, sizeof msg);
+		sr_fail(e, st, "%s: %s", spec->confounds, msg);
+		goto fail;
+	}
+	table_release(&t);
+	*out = conf;
+	return SR_OK;
+fail:
+	free(conf);
+	table_release(&t);
+	return st;
+}
+
+sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e)
+{
+	vol_queue q;
+	design_event *ev = NULL;
+	size_t nev = 0, nvox;
+	double *conf = NULL, *Cp = NULL;
+	glm_model *m = NULL;
+	glm_acc *acc = NULL;
+	nii_stream *s = NULL;
+	sr_status st;
+	int T, c, j;
+
+	memset(res, 0, sizeof *res);
+	memset(&q, 0, sizeof q);
+	if (!(spec->tr > 0.0))
+		return sr_fail(e, SR_EINVAL, "%s: repetition time %g s is not positive", spec->bold, spec->tr);
+	st = nii_stream_open(spec->bold, &s, &res->info, e);
+	if (st != SR_OK)
+		return st;
+	if (res->info.nt < 2 || res->info.nt > 1000000) {
+		st = sr_fail(e, SR_EDIM, "%s: %lld volumes: a run needs a 4-D image", spec->bold,
+			     (long long)res->info.nt);
+		goto out;
+	}
+	T = (int)res->info.nt;
+	nvox = nii_nvox(&res->info.grid);
+	st = load_events(spec, T, &ev, &nev, e);
+	if (st != SR_OK)
+		goto out;
+	st = load_confounds(spec, T, &conf, e);
+	if (st != SR_OK)
+		goto out;
+	st = design_build(T, spec->tr, spec->slice_ref, ev, nev, spec->ncond, conf, spec->nconf,
+			  spec->drift_cutoff, &res->d, e);
+	if (st != SR_OK)
+		goto out;
+	st = glm_model_make(res->d.X, T, res->d.p, &m, e);
+	if (st != SR_OK) {
+		char msg[sizeof e->msg];
+
+		memcpy(msg, e->msg, sizeof msg);
+		sr_fail(e, st, "%s: %s", spec->bold, msg);
+		goto out;
+	}
+	/* contrast weights over conditions, zero on confounds, drifts and the constant */
+	Cp = xcalloc((size_t)(spec->ncon ? spec->ncon : 1) * res->d.p, sizeof(double));
+	for (c = 0; c < spec->ncon; c++)
+		for (j = 0; j < spec->ncond; j++)
+			Cp[(size_t)c * res->d.p + j] = spec->C[(size_t)c * spec->ncond + j];
+	acc = glm_acc_alloc(m, nvox);
+	q.s = s;
+	q.T = T;
+	q.nvox = nvox;
+	st = stream_fit(&q, acc, e);
+	if (st != SR_OK)
+		goto out;
+	st = glm_acc_finish(acc, spec->ar1, Cp, spec->ncon, spec->mask, nthreads, &res->out, e);
+out:
+	nii_stream_close(s);
+	glm_acc_free(acc);
+	glm_model_free(m);
+	free(ev);
+	free(conf);
+	free(Cp);
+	if (st != SR_OK)
+		runfit_result_release(res);
+	return st;
+}
+
+sr_status runfit_run(const runfit_spec *spec, runfit_result *res, sr_err *e)
+{
+	return runfit_run_threads(spec, 1, res, e);
+}
+
+typedef struct many_ctx {
+	const runfit_spec *specs;
+	runfit_result *res;
+	sr_err *errs;
+	sr_status *st;
+	int n, next, finish_threads;
+	pthread_mutex_t mu;
+} many_ctx;
+
+static void *many_worker(void *arg)
+{
+	many_ctx *c = arg;
+
+	for (;;) {
+		int i;
+
+		pthread_mutex_lock(&c->mu);
+		i = c->next++;
+		pthread_mutex_unlock(&c->mu);
+		if (i >= c->n)
+			break;
+		c->st[i] = runfit_run_threads(&c->specs[i], c->finish_threads, &c->res[i], &c->errs[i]);
+	}
+	return NULL;
+}
+
+sr_status runfit_many(const runfit_spec *specs, int n, int nthreads, runfit_result *res,
+		      sr_err *errs)
+{
+	many_ctx c;
+	pthread_t *th;
+	unsigned char *started;
+	int i, nw;
+	sr_status st = SR_OK;
+
+	if (n <= 0)
+		return SR_OK;
+	if (nthreads < 1)
+		nthreads = 1;
+	nw = nthreads < n ? nthreads : n;
+	memset(&c, 0, sizeof c);
+	c.specs = specs;
+	c.res = res;
+	c.errs = errs;
+	c.n = n;
+	/* spare threads go to the per-voxel finish; results do not depend on them */
+	c.finish_threads = nthreads / nw;
+	c.st = xcalloc((size_t)n, sizeof *c.st);
+	pthread_mutex_init(&c.mu, NULL);
+	th = xcalloc((size_t)nw, sizeof *th);
+	started = xcalloc((size_t)nw, 1);
+	for (i = 1; i < nw; i++)
+		started[i] = pthread_create(&th[i], NULL, many_worker, &c) == 0;
+	many_worker(&c);
+	for (i = 1; i < nw; i++)
+		if (started[i])
+			pthread_join(th[i], NULL);
+	for (i = 0; i < n; i++)
+		if (c.st[i] != SR_OK && st == SR_OK)
+			st = c.st[i];
+	pthread_mutex_destroy(&c.mu);
+	free(th);
+	free(started);
+	free(c.st);
+	return st;
+}
+
+void runfit_result_release(runfit_result *r)
+{
+	if (!r)
+		return;
+	design_release(&r->d);
+	glm_out_release(&r->out);
+	memset(&r->d, 0, sizeof r->d);
+}

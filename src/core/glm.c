@@ -1,0 +1,915 @@
+/* glm.c - one-pass OLS and AR(1) Prais-Winsten fits per voxel from streamed sums (METHODS.md 3-5).
+ *
+ * The method, in the orthonormal basis of the column space of X:
+ *   X D = U S V' (thin SVD of X with unit-norm columns, D = column scaling),
+ *   rank r = #{s_j > 1e-10 s_max}, U_r (T x r) orthonormal, Xq = U_r.
+ * Every estimable contrast c'beta equals cq'delta with cq = S_r^-1 V_r' D c and
+ * delta the coefficients of the fit on U_r, so the per-voxel problem is a
+ * full-rank fit on an orthonormal design:
+ *   OLS: delta = U_r' z, RSS = z'z - delta'delta, Cov(delta) = sigma^2 I.
+ *   lag-one residual product: sum_k>=1 e_k e_k-1 = zlag - delta'l + delta'Lq delta,
+ *     l = sum_k z_k (u_k-1 + u_k+1), Lq = sum_k>=1 u_k u_k-1' (u_k = row k of U_r).
+ *   Prais-Winsten (Prais & Winsten 1954) whitening W gives, without forming W X:
+ *     G = Xw'Xw = (1+rho^2) I - rho (Lq + Lq') - rho^2 (u_0 u_0' + u_T-1 u_T-1')
+ *     h = Xw'zw = (1+rho^2) delta - rho l - rho^2 (u_0 z_0 + u_T-1 z_T-1)
+ *     zw'zw = (1+rho^2) z'z - 2 rho zlag - rho^2 (z_0^2 + z_T-1^2)
+ *   then delta_w = G^-1 h (Cholesky), RSS_w = zw'zw - h'G^-1 h,
+ *   var(c'beta) = sigma_w^2 cq' G^-1 cq.
+ * G is within a factor ((1+|rho|)/(1-|rho|))^2 of I, so the Cholesky is
+ * accurate whatever the conditioning of X itself.
+ * Streaming: z_k = y_k - y_0 when the constant is in col(X) (precision; the
+ * fit of y is the fit of z plus y_0 pinv(X) 1). U_r'z and l are accumulated
+ * for batches of volumes with one dgemm per batch.
+ */
+#include "glm.h"
+
+#include <cblas.h>
+#include <lapacke.h>
+#include <math.h>
+#include <pthread.h>
+#include <stdint.h>
+#include <string.h>
+#include <sys/mman.h>
+#include <unistd.h>
+
+#include "mem.h"
+
+#define GLM_RANK_TOL 1e-10
+#define GLM_ESTIM_TOL 1e-8
+#define GLM_RHO_MAX 0.99
+/* volumes per dgemm: each batch reads and writes the accumulators once; more
+ * volumes mean less memory traffic but a larger buffer (batch x nvox doubles) */
+#define GLM_BATCH 4
+/* grid of the adjusted-rho table: -0.99, -0.98, ..., 0.99 */
+#define GLM_NRHO 199
+#define GLM_RHO_STEP 0.01
+
+struct glm_model {
+	int T, p, r;
+	int has_const;  /* the all-ones series lies in col(X): the y_0 shift is exact */
+	double *D;      /* p: column scaling (1 / column norm, 1 for zero columns) */
+	double *sv;     /* r singular values of X D */
+	double *V;      /* p x r, column-major */
+	double *U;      /* T x r, column-major */
+	double *A;      /* 2r x T, column-major: rows U_r' then the lag sums u_k-1 + u_k+1 */
+	double *Lq;     /* r x r: sum_k>=1 u_k u_k-1' (column-major) */
+	double *u0, *ul;/* r: first and last rows of U_r */
+	double *g1;     /* r: U_r' 1 (coefficients of the constant series) */
+	double *ftab;   /* GLM_NRHO: expected residual lag-one ratio for rho on the grid (adjusted AR(1)) */
+	int ftab_ok;    /* ftab strictly increasing, so it can be inverted */
+};
+
+static double *dup_zero(size_t n)
+{
+	return xcalloc(n ? n : 1, sizeof(double));
+}
+
+/*
+ * The residual lag-one ratio expected under AR(1) noise with coefficient rho,
+ * E[e'D1 e] / E[e'e] = tr(R D1 R V) / tr(R V), R = I - U_r U_r', V the AR(1)
+ * correlation matrix, on the rho grid. Inverting it removes the bias of the
+ * residual-based estimate (the fit, drifts above all, absorbs part of the
+ * autocorrelation); the same idea as the bias reduction of Worsley et al.
+ * 2002, NeuroImage 15:1-15, carried to all lags of AR(1). V U is applied in
+ * O(T r) by two first-order recursions, so the table costs O(199 T r).
+ */
+static void make_ftab(glm_model *m)
+{
+	int T = m->T, r = m->r, i, k, a, b;
+	double *W = dup_zero((size_t)T * r), *f = dup_zero((size_t)T), *B = dup_zero((size_t)r * r);
+
+	m->ftab = dup_zero(GLM_NRHO);
+	m->ftab_ok = 1;
+	for (i = 0; i < GLM_NRHO; i++) {
+		double rho = -GLM_RHO_MAX + GLM_RHO_STEP * i, trRV, trD1RVR, t1, t2, t3;
+
+		/* W = V U: (Vx)_k = fwd_k + bwd_k - x_k */
+		for (a = 0; a < r; a++) {
+			const double *u = m->U + (size_t)a * T;
+			double *w = W + (size_t)a * T, acc = 0.0;
+
+			for (k = 0; k < T; k++)
+				f[k] = acc = u[k] + rho * acc;
+			acc = 0.0;
+			for (k = T - 1; k >= 0; k--) {
+				acc = u[k] + rho * acc;
+				w[k] = f[k] + acc - u[k];
+			}
+		}
+		trRV = T;
+		t1 = t2 = 0.0;
+		for (a = 0; a < r; a++) {
+			const double *u = m->U + (size_t)a * T, *w = W + (size_t)a * T;
+
+			for (k = 0; k < T; k++)
+				trRV -= u[k] * w[k];
+			for (k = 0; k + 1 < T; k++) {
+				t1 += u[k + 1] * w[k];   /* tr(D1 H V) */
+				t2 += w[k + 1] * u[k];   /* tr(D1 V H) */
+			}
+		}
+		/* B = U'W; tr(D1 H V H) = tr(A B), A = U'D1U = Lq' */
+		cblas_dgemm(CblasColMajor, CblasTrans, CblasNoTrans, r, r, T, 1.0, m->U, T, W, T, 0.0, B, r);
+		t3 = 0.0;
+		for (a = 0; a < r; a++)
+			for (b = 0; b < r; b++)
+				t3 += m->Lq[(size_t)a * r + b] * B[(size_t)a * r + b];
+		trD1RVR = (T - 1) * rho - t1 - t2 + t3;
+		m->ftab[i] = trD1RVR / trRV;
+		if (!(trRV > 0.0) || (i > 0 && !(m->ftab[i] > m->ftab[i - 1])))
+			m->ftab_ok = 0;
+	}
+	free(W);
+	free(f);
+	free(B);
+}
+
+/* rho whose expected residual ratio is q (linear between grid points), clipped to the grid. */
+static double adjusted_rho(const glm_model *m, double q)
+{
+	const double *f = m->ftab;
+	int lo = 0, hi = GLM_NRHO - 1;
+
+	if (!(q > f[0]))
+		return -GLM_RHO_MAX;
+	if (!(q < f[hi]))
+		return GLM_RHO_MAX;
+	while (hi - lo > 1) {
+		int mid = (lo + hi) / 2;
+
+		if (f[mid] <= q)
+			lo = mid;
+		else
+			hi = mid;
+	}
+	return -GLM_RHO_MAX + GLM_RHO_STEP * (lo + (q - f[lo]) / (f[hi] - f[lo]));
+}
+
+sr_status glm_model_make(const double *X, int T, int p, glm_model **out, sr_err *e)
+{
+	glm_model *m;
+	double *Xs, *S, *Uf, *Vt, *superb, smax;
+	size_t i, n;
+	int j, k, r, info;
+
+	*out = NULL;
+	if (T <= 0 || p <= 0)
+		return sr_fail(e, SR_EDIM, "design has %d rows and %d columns", T, p);
+	if (T <= p)
+		return sr_fail(e, SR_EDIM, "design has %d volumes for %d columns: no residual degrees of freedom", T, p);
+	if (sr_mul_size((size_t)T, (size_t)p, &n) != 0)
+		return sr_fail(e, SR_EDIM, "design too large");
+	for (i = 0; i < n; i++)
+		if (!isfinite(X[i]))
+			return sr_fail(e, SR_EINVAL, "design has a non-finite value in row %d, column %d",
+				       (int)(i % (size_t)T) + 1, (int)(i / (size_t)T) + 1);
+
+	m = xcalloc(1, sizeof *m);
+	m->T = T;
+	m->p = p;
+	m->D = dup_zero((size_t)p);
+	Xs = xmalloc_array(n, sizeof(double));
+	/* Unit-norm columns: the SVD's accuracy then depends on the conditioning of
+	 * the scaled design only (as for Householder QR), which matters for badly
+	 * scaled regressors such as Longley's. */
+	for (j = 0; j < p; j++) {
+		double nrm = 0.0;
+
+		for (k = 0; k < T; k++)
+			nrm = hypot(nrm, X[(size_t)j * T + k]);
+		m->D[j] = nrm > 0.0 ? 1.0 / nrm : 1.0;
+		for (k = 0; k < T; k++)
+			Xs[(size_t)j * T + k] = X[(size_t)j * T + k] * m->D[j];
+	}
+	S = dup_zero((size_t)p);
+	Uf = xmalloc_array(n, sizeof(double));
+	Vt = xmalloc_array((size_t)p * p, sizeof(double));
+	superb = dup_zero((size_t)p);
+	info = LAPACKE_dgesvd(LAPACK_COL_MAJOR, 'S', 'S', T, p, Xs, T, S, Uf, T, Vt, p, superb);
+	free(Xs);
+	free(superb);
+	if (info != 0) {
+		free(S);
+		free(Uf);
+		free(Vt);
+		glm_model_free(m);
+		return sr_fail(e, SR_ESINGULAR, "singular value decomposition of the design failed (%d)", info);
+	}
+	smax = S[0];
+	for (r = 0; r < p && S[r] > GLM_RANK_TOL * smax; r++)
+		;
+	m->r = r;
+	if (r == 0) {
+		free(S);
+		free(Uf);
+		free(Vt);
+		glm_model_free(m);
+		return sr_fail(e, SR_ESINGULAR, "design is all zero");
+	}
+	m->sv = dup_zero((size_t)r);
+	m->V = dup_zero((size_t)p * r);
+	m->U = dup_zero((size_t)T * r);
+	for (j = 0; j < r; j++) {
+		m->sv[j] = S[j];
+		for (k = 0; k < p; k++)
+			m->V[(size_t)j * p + k] = Vt[(size_t)k * p + j];
+		memcpy(m->U + (size_t)j * T, Uf + (size_t)j * T, (size_t)T * sizeof(double));
+	}
+	free(S);
+	free(Uf);
+	free(Vt);
+
+	m->A = dup_zero((size_t)2 * r * T);
+	m->Lq = dup_zero((size_t)r * r);
+	m->u0 = dup_zero((size_t)r);
+	m->ul = dup_zero((size_t)r);
+	m->g1 = dup_zero((size_t)r);
+	for (k = 0; k < T; k++) {
+		double *a = m->A + (size_t)2 * r * k;
+
+		for (j = 0; j < r; j++) {
+			const double *u = m->U + (size_t)j * T;
+
+			a[j] = u[k];
+			a[r + j] = (k > 0 ? u[k - 1] : 0.0) + (k + 1 < T ? u[k + 1] : 0.0);
+		}
+	}
+	for (j = 0; j < r; j++) {
+		const double *uj = m->U + (size_t)j * T;
+		double s1 = 0.0;
+
+		m->u0[j] = uj[0];
+		m->ul[j] = uj[T - 1];
+		for (k = 0; k < T; k++)
+			s1 += uj[k];
+		m->g1[j] = s1;
+	}
+	/* Lq[a][b] = sum_k>=1 U[k][a] U[k-1][b] */
+	cblas_dgemm(CblasColMajor, CblasTrans, CblasNoTrans, r, r, T - 1, 1.0, m->U + 1, T, m->U, T,
+		    0.0, m->Lq, r);
+	{
+		/* 1 - U_r U_r' 1, relative to ||1|| = sqrt(T) */
+		double res = 0.0;
+
+		for (k = 0; k < T; k++) {
+			double f = 0.0;
+
+			for (j = 0; j < r; j++)
+				f += m->U[(size_t)j * T + k] * m->g1[j];
+			res += (1.0 - f) * (1.0 - f);
+		}
+		m->has_const = sqrt(res) <= GLM_ESTIM_TOL * sqrt((double)T);
+	}
+	make_ftab(m);
+	*out = m;
+	return SR_OK;
+}
+
+void glm_model_free(glm_model *m)
+{
+	if (!m)
+		return;
+	free(m->D);
+	free(m->sv);
+	free(m->V);
+	free(m->U);
+	free(m->A);
+	free(m->Lq);
+	free(m->u0);
+	free(m->ul);
+	free(m->g1);
+	free(m->ftab);
+	free(m);
+}
+
+int glm_model_T(const glm_model *m) { return m->T; }
+int glm_model_p(const glm_model *m) { return m->p; }
+int glm_model_rank(const glm_model *m) { return m->r; }
+int glm_model_df(const glm_model *m) { return m->T - m->r; }
+
+/*
+ * cq = S_r^-1 V_r' D c, the contrast in the orthonormal basis. Returns 1 when
+ * c lies in the row space of X: the row space is D^-1 span(V_r), so the test
+ * is ||Dc - V_r V_r' Dc|| <= 1e-8 ||Dc|| (METHODS.md section 11).
+ */
+static int contrast_q(const glm_model *m, const double *c, double *cq)
+{
+	double *dc = dup_zero((size_t)m->p);
+	double nrm = 0.0, res = 0.0;
+	int j, k, ok;
+
+	for (k = 0; k < m->p; k++) {
+		dc[k] = m->D[k] * c[k];
+		nrm += dc[k] * dc[k];
+	}
+	for (j = 0; j < m->r; j++) {
+		const double *v = m->V + (size_t)j * m->p;
+		double s = 0.0;
+
+		for (k = 0; k < m->p; k++)
+			s += v[k] * dc[k];
+		if (cq)
+			cq[j] = s / m->sv[j];
+		for (k = 0; k < m->p; k++)
+			dc[k] -= s * v[k];
+	}
+	for (k = 0; k < m->p; k++)
+		res += dc[k] * dc[k];
+	free(dc);
+	ok = isfinite(res) && sqrt(res) <= GLM_ESTIM_TOL * sqrt(nrm);
+	return nrm == 0.0 ? 1 : ok;
+}
+
+int glm_estimable(const glm_model *m, const double *c)
+{
+	return contrast_q(m, c, NULL);
+}
+
+void glm_ols_solve(const glm_model *m, const double *y, double *beta)
+{
+	int p = m->p, r = m->r, T = m->T, j, k;
+	double *d = dup_zero((size_t)r), *ej = dup_zero((size_t)p);
+
+	/* delta = S^-1 U_r' y; beta = D V_r delta */
+	cblas_dgemv(CblasColMajor, CblasTrans, T, r, 1.0, m->U, T, y, 1, 0.0, d, 1);
+	for (j = 0; j < r; j++)
+		d[j] /= m->sv[j];
+	cblas_dgemv(CblasColMajor, CblasNoTrans, p, r, 1.0, m->V, p, d, 1, 0.0, beta, 1);
+	for (k = 0; k < p; k++) {
+		memset(ej, 0, (size_t)p * sizeof(double));
+		ej[k] = 1.0;
+		beta[k] = contrast_q(m, ej, NULL) ? beta[k] * m->D[k] : NAN;
+	}
+	free(d);
+	free(ej);
+}
+
+/* ------------------------------------------------------------------ streaming */
+
+enum { ACC_BAD = 1, ACC_VARIES = 2 };
+
+struct glm_acc {
+	const glm_model *m;
+	size_t nvox;
+	int k;          /* volumes added */
+	int nb;         /* volumes in the pending batch */
+	double *acc;    /* 2r x nvox: U_r' z and l per voxel */
+	size_t acc_bytes;
+	int finished;   /* the sums are consumed by the finish */
+	int acc_mapped; /* acc comes from mmap: finished voxels' pages can be handed back early */
+	double *zbuf;   /* GLM_BATCH x nvox: pending shifted volumes */
+	double *y0, *zz, *zlag, *zprev;
+	double *zsum;   /* only without a constant column: else 1'z = g1'U_r'z */
+	unsigned char *flag;
+};
+
+glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
+{
+	glm_acc *a = xcalloc(1, sizeof *a);
+	size_t n = nvox ? nvox : 1;
+
+	a->m = m;
+	a->nvox = nvox;
+	if (sr_mul_size(n, (size_t)2 * m->r * sizeof(double), &a->acc_bytes) != 0)
+		a->acc_bytes = SIZE_MAX;
+	/* mapped zero pages cost nothing until touched, and can be released part by part */
+	a->acc = a->acc_bytes == SIZE_MAX ? MAP_FAILED :
+		mmap(NULL, a->acc_bytes, PROT_READ | PROT_WRITE, MAP_PRIVATE | MAP_ANONYMOUS, -1, 0);
+	if (a->acc == MAP_FAILED) {
+		a->acc = xcalloc(n, (size_t)2 * m->r * sizeof(double));
+	} else {
+		a->acc_mapped = 1;
+	}
+	a->zbuf = xmalloc_array(n, GLM_BATCH * sizeof(double));
+	a->y0 = xcalloc(n, sizeof(double));
+	a->zz = xcalloc(n, sizeof(double));
+	a->zlag = xcalloc(n, sizeof(double));
+	a->zsum = m->has_const ? NULL : xcalloc(n, sizeof(double));
+	a->zprev = xcalloc(n, sizeof(double));
+	a->flag = xcalloc(n, 1);
+	return a;
+}
+
+void glm_acc_free(glm_acc *a)
+{
+	if (!a)
+		return;
+	if (a->acc_mapped)
+		munmap(a->acc, a->acc_bytes);
+	else
+		free(a->acc);
+	free(a->zbuf);
+	free(a->y0);
+	free(a->zz);
+	free(a->zlag);
+	free(a->zsum);
+	free(a->zprev);
+	free(a->flag);
+	free(a);
+}
+
+/* acc += A[:, k0:k0+nb] Z', one pass over the accumulators per batch. */
+static void acc_flush(glm_acc *a)
+{
+	const glm_model *m = a->m;
+	int r2 = 2 * m->r, k0 = a->k - a->nb;
+
+	if (a->nb == 0 || a->nvox == 0)
+		return;
+	cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, r2, (int)a->nvox, a->nb, 1.0,
+		    m->A + (size_t)r2 * k0, r2, a->zbuf, (int)a->nvox, 1.0, a->acc, r2);
+	a->nb = 0;
+}
+
+sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
+{
+	size_t v, nvox = a->nvox;
+	double *zb = a->zbuf + (size_t)a->nb * nvox;
+
+	if (a->k >= a->m->T)
+		return sr_fail(e, SR_EDIM, "more volumes than the design's %d rows", a->m->T);
+	if (nvox > INT32_MAX)
+		return sr_fail(e, SR_EDIM, "too many voxels for one fit");
+	if (a->k == 0) {
+		int shift = a->m->has_const;
+
+		for (v = 0; v < nvox; v++) {
+			double y = vol[v], z = shift ? 0.0 : y;
+
+			a->y0[v] = y;
+			if (!isfinite(y)) {
+				a->flag[v] = ACC_BAD;
+				z = 0.0;
+			}
+			zb[v] = z;
+			a->zz[v] = z * z;
+			if (a->zsum)
+				a->zsum[v] = z;
+			a->zprev[v] = z;
+		}
+	} else {
+		double *y0 = a->y0, *zz = a->zz, *zlag = a->zlag, *zsum = a->zsum, *zp = a->zprev;
+		unsigned char *fl = a->flag;
+		int shift = a->m->has_const;
+
+		for (v = 0; v < nvox; v++) {
+			double y = vol[v], z = shift ? y - y0[v] : y;
+
+			if (!isfinite(z)) {
+				fl[v] |= ACC_BAD;
+				z = 0.0;
+			}
+			if (y != y0[v])
+				fl[v] |= ACC_VARIES;
+			zb[v] = z;
+			zz[v] += z * z;
+			zlag[v] += z * zp[v];
+			zp[v] = z;
+		}
+		if (zsum)
+			for (v = 0; v < nvox; v++)
+				zsum[v] += zb[v];
+	}
+	a->k++;
+	a->nb++;
+	if (a->nb == GLM_BATCH || a->k == a->m->T)
+		acc_flush(a);
+	return SR_OK;
+}
+
+/* ------------------------------------------------------------------ finishing */
+
+typedef struct finish_job {
+	const glm_acc *a;
+	int ar1, ncon;
+	const double *cq;          /* ncon x r */
+	const double *gc;          /* ncon: cq' g1 */
+	const double *cnorm2;      /* ncon: ||cq||^2 */
+	const double *Ls;          /* r x r: Lq + Lq' */
+	const double *Q0;          /* r x r: u_0 u_0' + u_T-1 u_T-1' */
+	const unsigned char *est;
+	const unsigned char *mask;
+	size_t v0, v1;
+	glm_out *out;
+} finish_job;
+
+/* In-place Cholesky G = R'R of an n x n column-major matrix (upper part used). Returns 0 when positive definite. */
+static int chol(double *G, int n)
+{
+	int i, j, k;
+
+	for (j = 0; j < n; j++) {
+		double d = G[(size_t)j * n + j];
+
+		for (k = 0; k < j; k++)
+			d -= G[(size_t)j * n + k] * G[(size_t)j * n + k];
+		if (!(d > 0.0))
+			return -1;
+		d = sqrt(d);
+		G[(size_t)j * n + j] = d;
+		for (i = j + 1; i < n; i++) {
+			double s = G[(size_t)i * n + j];
+
+			for (k = 0; k < j; k++)
+				s -= G[(size_t)j * n + k] * G[(size_t)i * n + k];
+			G[(size_t)i * n + j] = s / d;
+		}
+	}
+	return 0;
+}
+
+/* Solves R' w = h (R upper, R[j][i] at G[i*n + j] for j <= i). */
+static void chol_fwd(const double *R, int n, const double *h, double *w)
+{
+	int i, k;
+
+	for (i = 0; i < n; i++) {
+		double s = h[i];
+
+		for (k = 0; k < i; k++)
+			s -= R[(size_t)i * n + k] * w[k];
+		w[i] = s / R[(size_t)i * n + i];
+	}
+}
+
+/* Solves R x = w. */
+static void chol_back(const double *R, int n, const double *w, double *x)
+{
+	int i, k;
+
+	for (i = n - 1; i >= 0; i--) {
+		double s = w[i];
+
+		for (k = i + 1; k < n; k++)
+			s -= R[(size_t)k * n + i] * x[k];
+		x[i] = s / R[(size_t)i * n + i];
+	}
+}
+
+/*
+ * The Prais-Winsten refit from the sums (identities in the file comment):
+ * G (r x r) gets the Cholesky factor of Xw'Xw, dw the whitened coefficients
+ * in the orthonormal basis, w = R^-T h. Returns RSS_w (>= 0), or -1 when G is
+ * not positive definite.
+ */
+static double pw_solve(const glm_model *m, const double *Ls, const double *Q0, const double *u,
+		       const double *l, double zz, double zlag, double z0, double zl, double rho,
+		       double *G, double *h, double *w, double *dw)
+{
+	int r = m->r, q;
+	double a1 = 1.0 + rho * rho, r2 = rho * rho, rssw;
+
+	for (q = 0; q < r * r; q++)
+		G[q] = -rho * Ls[q] - r2 * Q0[q];
+	for (q = 0; q < r; q++) {
+		G[(size_t)q * r + q] += a1;
+		h[q] = a1 * u[q] - rho * l[q] - r2 * (m->u0[q] * z0 + m->ul[q] * zl);
+	}
+	rssw = a1 * zz - 2.0 * rho * zlag - r2 * (z0 * z0 + zl * zl);
+	if (chol(G, r) != 0)
+		return -1.0;
+	chol_fwd(G, r, h, w);
+	chol_back(G, r, w, dw);
+	for (q = 0; q < r; q++)
+		rssw -= w[q] * w[q];
+	return rssw < 0.0 ? 0.0 : rssw;
+}
+
+/*
+ * Hands back the accumulator pages that lie wholly inside voxels [v0, v1),
+ * already finished: the output maps grow while the sums shrink, so the
+ * finish does not raise the peak memory of the fit.
+ */
+static void acc_release(const glm_acc *a, size_t v0, size_t v1)
+{
+	size_t pg = (size_t)sysconf(_SC_PAGESIZE), per = (size_t)2 * a->m->r * sizeof(double);
+	uintptr_t base = (uintptr_t)a->acc, lo = base + v0 * per, hi = base + v1 * per;
+
+	if (!a->acc_mapped || pg == 0 || (size_t)-1 == pg)
+		return;
+	lo = (lo + pg - 1) / pg * pg;
+	hi = hi / pg * pg;
+	if (hi > lo)
+		madvise((void *)lo, hi - lo, MADV_DONTNEED);
+}
+
+/* Lq + Lq' and u_0 u_0' + u_T-1 u_T-1', shared by every voxel. */
+static void lag_grams(const glm_model *m, double *Ls, double *Q0)
+{
+	int r = m->r, q, s;
+
+	for (q = 0; q < r; q++)
+		for (s = 0; s < r; s++) {
+			Ls[(size_t)s * r + q] = m->Lq[(size_t)s * r + q] + m->Lq[(size_t)q * r + s];
+			Q0[(size_t)s * r + q] = m->u0[q] * m->u0[s] + m->ul[q] * m->ul[s];
+		}
+}
+
+static void *finish_range(void *arg)
+{
+	const finish_job *j = arg;
+	const glm_acc *a = j->a;
+	const glm_model *m = a->m;
+	int r = m->r, T = m->T, df = T - r, c, q, s;
+	size_t v, nvox = a->nvox;
+	glm_out *o = j->out;
+	double *G = dup_zero((size_t)r * r), *h = dup_zero((size_t)r), *w = dup_zero((size_t)r);
+	double *dw = dup_zero((size_t)r), *t = dup_zero((size_t)r);
+
+	size_t done = j->v0;
+
+	for (v = j->v0; v < j->v1; v++) {
+		const double *u = a->acc + (size_t)2 * r * v, *l = u + r;
+		double y0 = a->y0[v], shift = m->has_const ? y0 : 0.0, z0 = m->has_const ? 0.0 : y0;
+		double mean, sc, rss, lag, rho, zl = a->zprev[v], sig2, rssw;
+		const double *delta = u;
+		int bad = (a->flag[v] & ACC_BAD) != 0;
+
+		if (v - done >= 4096) {
+			acc_release(a, done, v);
+			done = v;
+		}
+
+		if (a->zsum) {
+			mean = a->zsum[v] / T;
+		} else {
+			double s1 = 0.0;
+
+			for (q = 0; q < r; q++)
+				s1 += m->g1[q] * u[q];
+			mean = shift + s1 / T;
+		}
+		if (bad)
+			mean = NAN;
+		o->mean[v] = mean;
+		o->ok[v] = !bad && mean > 0.0 && (a->flag[v] & ACC_VARIES) && (!j->mask || j->mask[v]);
+		for (c = 0; c < j->ncon; c++) {
+			o->effect[(size_t)c * nvox + v] = NAN;
+			o->var[(size_t)c * nvox + v] = NAN;
+		}
+		o->rho[v] = NAN;
+		if (!o->ok[v])
+			continue;
+		sc = 100.0 / mean;
+
+		/* OLS on the orthonormal basis: delta = U_r'z */
+		rss = a->zz[v];
+		for (q = 0; q < r; q++)
+			rss -= u[q] * u[q];
+		if (rss < 0.0)
+			rss = 0.0;
+		if (!j->ar1) {
+			sig2 = rss / df;
+			o->rho[v] = 0.0;
+			for (c = 0; c < j->ncon; c++) {
+				const double *cq = j->cq + (size_t)c * r;
+				double ef = 0.0;
+
+				if (!j->est[c])
+					continue;
+				for (q = 0; q < r; q++)
+					ef += cq[q] * delta[q];
+				o->effect[(size_t)c * nvox + v] = sc * (ef + shift * j->gc[c]);
+				o->var[(size_t)c * nvox + v] = sc * sc * sig2 * j->cnorm2[c];
+			}
+			continue;
+		}
+
+		/* lag-one product of the OLS residuals */
+		lag = a->zlag[v];
+		for (q = 0; q < r; q++) {
+			double lu = 0.0;
+
+			for (s = 0; s < r; s++)
+				lu += m->Lq[(size_t)s * r + q] * u[s];
+			lag += u[q] * (lu - l[q]);
+		}
+		rho = rss > 0.0 ? lag / rss : 0.0;
+		if (j->ar1 == GLM_AR1_ADJUSTED && m->ftab_ok && rss > 0.0)
+			rho = adjusted_rho(m, rho);
+		if (rho > GLM_RHO_MAX)
+			rho = GLM_RHO_MAX;
+		if (rho < -GLM_RHO_MAX)
+			rho = -GLM_RHO_MAX;
+		o->rho[v] = rho;
+
+		rssw = pw_solve(m, j->Ls, j->Q0, u, l, a->zz[v], a->zlag[v], z0, zl, rho, G, h, w, dw);
+		if (!(rssw >= 0.0))
+			continue;
+		sig2 = rssw / df;
+		for (c = 0; c < j->ncon; c++) {
+			const double *cq = j->cq + (size_t)c * r;
+			double ef = 0.0, vv = 0.0;
+
+			if (!j->est[c])
+				continue;
+			chol_fwd(G, r, cq, t);
+			for (q = 0; q < r; q++) {
+				ef += cq[q] * dw[q];
+				vv += t[q] * t[q];
+			}
+			o->effect[(size_t)c * nvox + v] = sc * (ef + shift * j->gc[c]);
+			o->var[(size_t)c * nvox + v] = sc * sc * sig2 * vv;
+		}
+	}
+	acc_release(a, done, j->v1);
+	free(G);
+	free(h);
+	free(w);
+	free(dw);
+	free(t);
+	return NULL;
+}
+
+sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
+			 const unsigned char *mask, int nthreads, glm_out *out, sr_err *e)
+{
+	if (a->finished)
+		return sr_fail(e, SR_EINVAL, "the fit was already finished");
+	const glm_model *m = a->m;
+	int r = m->r, c, q, i;
+	size_t nvox = a->nvox, chunk;
+	double *cq, *gc, *cn, *Ls, *Q0;
+	unsigned char *est;
+	finish_job *jobs;
+	pthread_t *th;
+	unsigned char *started;
+
+	memset(out, 0, sizeof *out);
+	if (a->k != m->T)
+		return sr_fail(e, SR_EDIM, "%d volumes added for a design of %d rows", a->k, m->T);
+	if (ncon < 0 || (ncon > 0 && !C))
+		return sr_fail(e, SR_EINVAL, "bad contrast count %d", ncon);
+	if (nthreads < 1)
+		nthreads = 1;
+	acc_flush(a);
+	free(a->zbuf);   /* not needed any more: lowers the peak while the outputs exist */
+	a->zbuf = NULL;
+
+	out->nvox = nvox;
+	out->ncon = ncon;
+	out->df = m->T - r;
+	out->ok = xcalloc(nvox ? nvox : 1, 1);
+	out->estimable = xcalloc(ncon ? (size_t)ncon : 1, 1);
+	out->effect = xcalloc(nvox && ncon ? nvox * (size_t)ncon : 1, sizeof(double));
+	out->var = xcalloc(nvox && ncon ? nvox * (size_t)ncon : 1, sizeof(double));
+	out->rho = xcalloc(nvox ? nvox : 1, sizeof(double));
+	out->mean = xcalloc(nvox ? nvox : 1, sizeof(double));
+
+	cq = dup_zero((size_t)ncon * r);
+	gc = dup_zero((size_t)ncon);
+	cn = dup_zero((size_t)ncon);
+	est = out->estimable;
+	for (c = 0; c < ncon; c++) {
+		est[c] = (unsigned char)contrast_q(m, C + (size_t)c * m->p, cq + (size_t)c * r);
+		for (q = 0; q < r; q++) {
+			gc[c] += cq[(size_t)c * r + q] * m->g1[q];
+			cn[c] += cq[(size_t)c * r + q] * cq[(size_t)c * r + q];
+		}
+	}
+	Ls = dup_zero((size_t)r * r);
+	Q0 = dup_zero((size_t)r * r);
+	lag_grams(m, Ls, Q0);
+
+	if ((size_t)nthreads > nvox / 256 + 1)
+		nthreads = (int)(nvox / 256 + 1);
+	a->finished = 1;
+	jobs = xcalloc((size_t)nthreads, sizeof *jobs);
+	th = xcalloc((size_t)nthreads, sizeof *th);
+	started = xcalloc((size_t)nthreads, 1);
+	chunk = (nvox + (size_t)nthreads - 1) / (size_t)nthreads;
+	for (i = 0; i < nthreads; i++) {
+		finish_job *j = &jobs[i];
+
+		j->a = a;
+		j->ar1 = ar1;
+		j->ncon = ncon;
+		j->cq = cq;
+		j->gc = gc;
+		j->cnorm2 = cn;
+		j->Ls = Ls;
+		j->Q0 = Q0;
+		j->est = est;
+		j->mask = mask;
+		j->out = out;
+		j->v0 = chunk * (size_t)i < nvox ? chunk * (size_t)i : nvox;
+		j->v1 = j->v0 + chunk < nvox ? j->v0 + chunk : nvox;
+	}
+	/* a thread that cannot start runs its range here: same numbers either way */
+	for (i = 1; i < nthreads; i++)
+		started[i] = pthread_create(&th[i], NULL, finish_range, &jobs[i]) == 0;
+	finish_range(&jobs[0]);
+	for (i = 1; i < nthreads; i++) {
+		if (started[i])
+			pthread_join(th[i], NULL);
+		else
+			finish_range(&jobs[i]);
+	}
+	free(jobs);
+	free(th);
+	free(started);
+	free(cq);
+	free(gc);
+	free(cn);
+	free(Ls);
+	free(Q0);
+	return SR_OK;
+}
+
+void glm_out_release(glm_out *o)
+{
+	if (!o)
+		return;
+	free(o->ok);
+	free(o->estimable);
+	free(o->effect);
+	free(o->var);
+	free(o->rho);
+	free(o->mean);
+	memset(o, 0, sizeof *o);
+}
+
+void glm_ffx(size_t nvox, int nruns, const double *const *effect, const double *const *var,
+	     const int *df, double *E, double *V, double *t, int *dfsum)
+{
+	size_t v;
+	int r;
+
+	for (v = 0; v < nvox; v++) {
+		double se = 0.0, sv = 0.0, ev, vv;
+		int n = 0, d = 0;
+
+		for (r = 0; r < nruns; r++) {
+			double x = effect[r][v], y = var[r][v];
+
+			if (!isfinite(x) || !isfinite(y))
+				continue;
+			se += x;
+			sv += y;
+			d += df[r];
+			n++;
+		}
+		if (n == 0) {
+			ev = vv = NAN;
+		} else {
+			ev = se / n;
+			vv = sv / ((double)n * n);
+		}
+		if (E)
+			E[v] = ev;
+		if (V)
+			V[v] = vv;
+		if (t)
+			t[v] = n ? ev / sqrt(vv) : NAN;
+		if (dfsum)
+			dfsum[v] = d;
+	}
+}
+
+sr_status glm_ar1_solve(const glm_model *m, const double *y, double rho, double *beta, double *rss_w,
+			sr_err *e)
+{
+	int T = m->T, r = m->r, p = m->p, k, q;
+	double *A = dup_zero((size_t)2 * r), *Ls = dup_zero((size_t)r * r), *Q0 = dup_zero((size_t)r * r);
+	double *G = dup_zero((size_t)r * r), *h = dup_zero((size_t)r), *w = dup_zero((size_t)r);
+	double *dw = dup_zero((size_t)r), *ej = dup_zero((size_t)p), zz = 0.0, zlag = 0.0, rs;
+	sr_status st = SR_OK;
+
+	if (!(fabs(rho) < 1.0)) {
+		st = sr_fail(e, SR_EINVAL, "autocorrelation %g outside (-1, 1)", rho);
+		goto out;
+	}
+	/* the same sums the stream keeps, without the shift */
+	cblas_dgemv(CblasColMajor, CblasNoTrans, 2 * r, T, 1.0, m->A, 2 * r, y, 1, 0.0, A, 1);
+	for (k = 0; k < T; k++) {
+		zz += y[k] * y[k];
+		if (k > 0)
+			zlag += y[k] * y[k - 1];
+	}
+	lag_grams(m, Ls, Q0);
+	rs = pw_solve(m, Ls, Q0, A, A + r, zz, zlag, y[0], y[T - 1], rho, G, h, w, dw);
+	if (rs < 0.0) {
+		st = sr_fail(e, SR_ESINGULAR, "whitened design is not positive definite");
+		goto out;
+	}
+	if (rss_w)
+		*rss_w = rs;
+	for (q = 0; q < r; q++)
+		dw[q] /= m->sv[q];
+	cblas_dgemv(CblasColMajor, CblasNoTrans, p, r, 1.0, m->V, p, dw, 1, 0.0, beta, 1);
+	for (k = 0; k < p; k++) {
+		memset(ej, 0, (size_t)p * sizeof(double));
+		ej[k] = 1.0;
+		beta[k] = contrast_q(m, ej, NULL) ? beta[k] * m->D[k] : NAN;
+	}
+out:
+	free(A);
+	free(Ls);
+	free(Q0);
+	free(G);
+	free(h);
+	free(w);
+	free(dw);
+	free(ej);
+	return st;
+}

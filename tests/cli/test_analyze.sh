@@ -1,0 +1,76 @@
+# test_analyze.sh - analyze on bad studies: clear messages, exit codes, nothing half-written.
+. "$(dirname "$0")/lib.sh"
+PY=${PYTHON:-/usr/bin/python3}
+HERE=$(cd "$(dirname "$0")/.." && pwd)
+"$PY" "$HERE/py/make_study.py" "$TMP/s" basic >/dev/null || { notok "make_study.py failed"; exit 1; }
+S=$TMP/s
+cd "$S" || exit 1
+
+run "$SPLITROI" analyze
+expect_status 2 "analyze without a study is a usage error"
+run "$SPLITROI" analyze study.ini --jobz 2
+expect_status 2 "a misspelt option is a usage error"
+expect_err "did you mean '--jobs'" "the misspelt option gets a suggestion"
+
+sed 's/contrast = melody - scrambled/contrast = melody - scrambld/' study.ini >bad.ini
+run "$SPLITROI" analyze bad.ini --quiet
+expect_status 1 "a contrast naming an unknown condition fails"
+expect_err "'scrambld'.*known conditions: melody, scrambled" "the error lists the known conditions"
+[ ! -e results ] && ok "nothing is written for a bad study" || notok "a bad study left results/"
+
+sed 's/task = memory/task = memry/' study.ini >bad.ini
+run "$SPLITROI" analyze bad.ini --quiet
+expect_status 1 "a task without runs fails"
+expect_err "no subject has runs of task 'memry'" "the task without runs is named"
+
+sed 's/image = parcels.nii.gz/image = missing.nii.gz/' study.ini >bad.ini
+run "$SPLITROI" analyze bad.ini --quiet
+expect_status 1 "a missing parcel file fails"
+expect_err "missing.nii.gz.*does not exist" "the missing parcel file is named"
+
+# parcels on another grid: an error showing both grids, unless resampling is asked for
+"$PY" - "$S" <<'PYEOF'
+import sys, nibabel as nib, numpy as np
+d = sys.argv[1]
+img = nib.load(d + '/parcels.nii.gz')
+a = img.affine.copy(); a[:3, 3] += 1.5      # shifted by half a voxel
+nib.save(nib.Nifti1Image(np.asarray(img.dataobj).astype(np.int16), a), d + '/shifted.nii.gz')
+PYEOF
+sed 's/image = parcels.nii.gz/image = shifted.nii.gz/' study.ini >grid.ini
+run "$SPLITROI" analyze grid.ini --quiet --no-group --out "$TMP/r1"
+expect_status 1 "parcels on another grid fail"
+expect_err "not on the data grid.*resample = nearest" "the grid error says how to resample"
+expect_err "affine" "the grid error shows the grids"
+[ ! -e "$TMP/r1/sub-01/run.json" ] && ok "a failed subject has no completion record" || notok "run.json written for a failed subject"
+ls "$TMP"/r1/sub-01/.*.tmp.* >/dev/null 2>&1 && notok "temporary files left behind" || ok "no temporary files left behind"
+sed 's/image = parcels.nii.gz/image = shifted.nii.gz\nresample = nearest/' study.ini >grid.ini
+run "$SPLITROI" analyze grid.ini --quiet --no-group --out "$TMP/r2"
+expect_status 0 "resample = nearest puts the parcels on the data grid"
+
+# a normal run, then the skip rule and --force
+run "$SPLITROI" analyze study.ini --quiet
+expect_status 0 "the study runs"
+[ -s results/responses.csv ] && [ -s results/group.csv ] && ok "tables written" || notok "tables missing"
+expect_err "warning: .*top_slab.*no candidate voxels" "an empty parcel gives a warning"
+"$PY" - results/responses.csv <<'PYEOF' && ok "the empty parcel has empty values and n_voxels 0" || notok "empty parcel rows wrong"
+import csv, sys
+rows = [r for r in csv.DictReader(open(sys.argv[1])) if r['parcel'] == 'top_slab']
+assert rows and all(r['value'] == '' and float(r['n_voxels']) == 0 for r in rows), rows[:2]
+PYEOF
+before=$(stat -c %Y.%y results/sub-01/run.json)
+run "$SPLITROI" analyze study.ini
+expect_status 0 "a rerun succeeds"
+expect_err "sub-01: up to date, skipped" "a rerun skips complete subjects"
+[ "$(stat -c %Y.%y results/sub-01/run.json)" = "$before" ] && ok "skipped subject untouched" || notok "skipped subject rewritten"
+sleep 0.01; touch "$(ls data/sub-01/func/*tones*events.tsv | head -1)"
+run "$SPLITROI" analyze study.ini
+expect_err "sub-02: up to date" "an untouched subject is still skipped"
+if grep -q "sub-01: up to date" "$TMP/err"; then notok "a subject with a newer input was skipped"; else ok "a newer input redoes that subject"; fi
+run "$SPLITROI" analyze study.ini --force --quiet
+expect_status 0 "--force redoes everything"
+rm results/sub-02/run.json
+run "$SPLITROI" analyze study.ini
+if grep -q "sub-02: up to date" "$TMP/err"; then notok "a subject without run.json counted as complete"; else ok "a subject without its completion record is redone"; fi
+run "$SPLITROI" analyze study.ini --subjects 07 --quiet
+expect_status 2 "an unknown subject is a usage error"
+expect_err "subject '07' is not in the study" "the unknown subject is named"
