@@ -224,25 +224,43 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 	free_strs(parcels, np);
 }
 
-/* A CSV as an HTML table with the given id. */
-static void table_html(sbuf *b, const table *t, const char *id)
+/*
+ * A CSV as an HTML table with the given id: the columns named in first
+ * (NULL-terminated) lead in that order, so the key numbers stay in view of a
+ * narrow window, then the others as in the file.
+ */
+static void table_html(sbuf *b, const table *t, const char *id, const char *const *first)
 {
-	size_t r, c;
+	size_t r, c, k, n = 0, *order = xmalloc_array(t->ncols ? t->ncols : 1, sizeof *order);
+	unsigned char *used = xcalloc(t->ncols ? t->ncols : 1, 1);
 
+	for (k = 0; first && first[k]; k++) {
+		int j = table_col(t, first[k]);
+
+		if (j >= 0 && !used[j]) {
+			order[n++] = (size_t)j;
+			used[j] = 1;
+		}
+	}
+	for (c = 0; c < t->ncols; c++)
+		if (!used[c])
+			order[n++] = c;
 	sb_printf(b, "<table id=\"%s\"><thead><tr>", id);
-	for (c = 0; c < t->ncols; c++) {
+	for (c = 0; c < n; c++) {
 		sb_puts(b, "<th>");
-		sb_esc(b, t->header[c]);
+		sb_esc(b, t->header[order[c]]);
 		sb_puts(b, "</th>");
 	}
 	sb_puts(b, "</tr></thead><tbody>\n");
 	for (r = 0; r < t->nrows; r++) {
 		sb_puts(b, "<tr>");
-		for (c = 0; c < t->ncols; c++)
-			cell(b, table_cell(t, r, c));
+		for (c = 0; c < n; c++)
+			cell(b, table_cell(t, r, order[c]));
 		sb_puts(b, "</tr>\n");
 	}
 	sb_puts(b, "</tbody></table>\n");
+	free(order);
+	free(used);
 }
 
 static void subjects_table(sbuf *b, const rsub *subs, size_t n)
@@ -376,7 +394,12 @@ int report_write(const char *out, int quiet)
 	if (have_group) {
 		sb_puts(&b, "<p class=\"note\">From group.csv: one-sample tests over subjects; q_fdr is the Benjamini&ndash;Hochberg "
 			    "adjusted p value.</p>\n");
-		table_html(&b, &group, "group");
+		sb_puts(&b, "<div class=\"wide\">");
+		static const char *const lead[] = { "parcel", "split", "measure_task", "effect", "n", "mean",
+						    "sem", "t", "df", "p", "q_fdr", "cohen_d", NULL };
+
+		table_html(&b, &group, "group", lead);
+		sb_puts(&b, "</div>\n");
 		table_release(&group);
 	} else {
 		sb_puts(&b, "<p class=\"note\">No group.csv in this folder (run the group step).</p>\n");

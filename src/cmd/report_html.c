@@ -139,7 +139,8 @@ static const char css[] =
 	".strip div{font:12px/1.3 system-ui,sans-serif;text-align:center}\n"
 	"table{border-collapse:collapse;margin:8px 0 18px;font:13px/1.35 system-ui,sans-serif;"
 	"background:var(--card)}\n"
-	"th,td{padding:3px 9px;border-bottom:1px solid var(--rule);text-align:left}\n"
+	"th,td{padding:3px 9px;border-bottom:1px solid var(--rule);text-align:left;white-space:nowrap}\n"
+	"div.wide{overflow-x:auto;max-width:100%}\n"
 	"th{border-bottom:2px solid var(--ink);font-weight:600}\n"
 	"td.n{text-align:right;font-variant-numeric:tabular-nums}\n"
 	"tr.flag td{background:#f7e9e4}\n"
@@ -150,7 +151,7 @@ static const char css[] =
 	"@media print{body{background:#fff;font-size:10pt}header.top{padding:0 0 8px}"
 	"main{padding:0;max-width:none}a{color:inherit;text-decoration:none}"
 	"a.back,nav.toc{display:none}figure{border:0;padding:0}h2{break-after:avoid}"
-	"table{font-size:8.5pt}tr{break-inside:avoid}}\n";
+	"table{font-size:8.5pt}tr{break-inside:avoid}div.wide{overflow:visible}th,td{white-space:normal}}\n";
 
 void rh_begin(sbuf *b, const char *title, const char *subtitle, const char *back_href,
 	      const char *back_text)

@@ -639,7 +639,7 @@ static void responses(page *pg, sbuf *b)
 		sb_puts(b, "</p>\n");
 		return;
 	}
-	sb_puts(b, "<table id=\"responses\"><thead><tr>");
+	sb_puts(b, "<div class=\"wide\"><table id=\"responses\"><thead><tr>");
 	for (c = 0; c < t.ncols; c++) {
 		sb_puts(b, "<th>");
 		sb_esc(b, t.header[c]);
@@ -663,7 +663,7 @@ static void responses(page *pg, sbuf *b)
 		}
 		sb_puts(b, "</tr>\n");
 	}
-	sb_puts(b, "</tbody></table>\n");
+	sb_puts(b, "</tbody></table></div>\n");
 	table_release(&t);
 }
 
