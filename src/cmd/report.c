@@ -5,6 +5,7 @@
 #include <stdlib.h>
 #include <string.h>
 #include <sys/stat.h>
+#include <unistd.h>
 
 #include "../core/mem.h"
 #include "../io/table.h"
@@ -328,6 +329,9 @@ int report_write(const char *out, int quiet)
 		sr_err_init(&e, NULL, NULL);
 		if (rsub_page(out, labels[i], &subs[i], &e)) {
 			fprintf(stderr, "splitroi report: sub-%s: %s\n", labels[i], e.msg);
+			/* a page left from an earlier run would show results that are no longer there */
+			snprintf(path, sizeof path, "%s/sub-%s/report.html", out, labels[i]);
+			unlink(path);
 			rc = 1;
 		} else {
 			nok++;
@@ -344,6 +348,13 @@ int report_write(const char *out, int quiet)
 		    "<a href=\"#measured\">measured tasks</a> &middot; <a href=\"#overlap\">fROI sizes and overlap</a> &middot; "
 		    "<a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
 	for (i = 0; i < nsub; i++) {
+		if (!subs[i].ok) {
+			/* no link to a page that was not written (or is stale) */
+			sb_puts(&b, " sub-");
+			sb_esc(&b, labels[i]);
+			sb_puts(&b, " <span class=\"flag\">(no page: see the command's messages)</span>");
+			continue;
+		}
 		sb_puts(&b, " <a href=\"sub-");
 		sb_esc(&b, labels[i]);
 		sb_puts(&b, "/report.html\">sub-");

@@ -196,7 +196,7 @@ static void load_maps(page *pg, sr_err *e)
 			m->lab = to_labels(d, pg->nvox);
 			free(d);
 			snprintf(path, sizeof path, "%s/localizer-t_%s.nii.gz", mdir, tok[i]);
-			m->t = is_all ? NULL : read_on_grid(pg, path, e);
+			m->t = read_on_grid(pg, path, e);
 			if (!is_all)
 				pg->ndefine = pg->nmaps;
 		}
@@ -293,9 +293,9 @@ static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label
 static void t_range(const page *pg, double *lo, double *hi)
 {
 	size_t k, v, n = 0;
-	double *all = xmalloc_array(pg->ndefine * pg->nvox + 1, sizeof *all), a, bq;
+	double *all = xmalloc_array(pg->nmaps * pg->nvox + 1, sizeof *all), a, bq;
 
-	for (k = 0; k < pg->ndefine; k++)
+	for (k = 0; k < pg->nmaps; k++)
 		for (v = 0; pg->maps[k].t && v < pg->nvox; v++)
 			if (isfinite(pg->maps[k].t[v]))
 				all[n++] = pg->maps[k].t[v];

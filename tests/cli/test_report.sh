@@ -41,6 +41,9 @@ run "$SPLITROI" report "$TMP/oe"
 expect_status 1 "a subject without maps makes report fail"
 expect_err "sub-02: .*maps" "the message names the subject and the missing maps"
 [ -s "$TMP/oe/report.html" ] && ok "the study page is still written" || notok "the study page is missing"
+[ ! -e "$TMP/oe/sub-02/report.html" ] && ok "the failed subject's old page is removed" || notok "a stale sub-02 page is left"
+grep -q 'href="sub-02/report.html"' "$TMP/oe/report.html" && notok "the study page links to the missing sub-02 page" || ok "no link to the missing page"
+grep -q 'href="sub-01/report.html"' "$TMP/oe/report.html" && ok "the other subjects are still linked" || notok "sub-01 lost its link"
 
 # rendering in headless Chromium (installed only at the full level, as root)
 CHR=$(command -v chromium || command -v chromium-browser || true)
