@@ -437,6 +437,9 @@ static void design_figure(sbuf *b, const char *path, const char *name)
 		return;
 	}
 	if (!t.nrows || !t.ncols) {
+		sb_puts(b, "<p class=\"note\">");
+		sb_esc(b, path);
+		sb_puts(b, ": no rows, so no image.</p>\n");
 		table_release(&t);
 		return;
 	}
@@ -571,8 +574,14 @@ static void motion(page *pg, rsub *s, sbuf *b)
 				continue;
 			}
 			for (j = 0; j < 6; j++)
-				if ((ci[j] = table_col(&t, cols[j])) < 0)
+				if ((ci[j] = table_col(&t, cols[j])) < 0 && ok) {
 					ok = 0;
+					sb_puts(&charts, "<p class=\"note\"><span class=\"flag\">&#9873;</span> ");
+					sb_esc(&charts, run->confounds);
+					sb_puts(&charts, ": no column ");
+					sb_esc(&charts, cols[j]);
+					sb_puts(&charts, " ([model] motion), so no FD for this run.</p>\n");
+				}
 			if (!ok || !t.nrows) {
 				table_release(&t);
 				continue;

@@ -45,6 +45,20 @@ expect_err "sub-02: .*maps" "the message names the subject and the missing maps"
 grep -q 'href="sub-02/report.html"' "$TMP/oe/report.html" && notok "the study page links to the missing sub-02 page" || ok "no link to the missing page"
 grep -q 'href="sub-01/report.html"' "$TMP/oe/report.html" && ok "the other subjects are still linked" || notok "sub-01 lost its link"
 
+# damaged inputs: each named in a message or on the page, never a crash
+"$PY" "$HERE/report_fixture.py" "$TMP/bad" || notok "fixture builds"
+printf '{"subject": "01",\n  "inputs": [1,\n' >"$TMP/bad/sub-01/run.json"
+printf 'tx\tty\n1\t2\n' >"$TMP/bad/sub-02/conf_tones_1.tsv"
+echo "melody" >"$TMP/bad/sub-03/design/task-tones_run-1.csv"
+run "$SPLITROI" report "$TMP/bad"
+expect_status 1 "a damaged run record makes report fail"
+expect_err "sub-01/run.json: line 3" "the message names the run record and its line"
+grep -q "conf_tones_1.tsv: no column tz" "$TMP/bad/sub-02/report.html" && ok "a confounds file without the motion columns is named on the page" || notok "missing motion columns not reported"
+grep -q "task-tones_run-1.csv: no rows" "$TMP/bad/sub-03/report.html" && ok "an empty design matrix is named on the page" || notok "empty design not reported"
+printf 'subject,parcel\n"unclosed\n' >"$TMP/bad/responses.csv"
+run "$SPLITROI" report "$TMP/bad"
+expect_err "responses.csv: line 2" "a broken responses.csv is named with its line"
+
 # rendering in headless Chromium (installed only at the full level, as root)
 CHR=$(command -v chromium || command -v chromium-browser || true)
 if [ -z "$CHR" ] && [ "$(id -u)" = 0 ] && [ "${SPLITROI_TEST_LEVEL:-quick}" = full ]; then
