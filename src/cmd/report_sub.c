@@ -13,7 +13,7 @@
 #include "../io/table.h"
 #include "report.h"
 
-enum { NSLICES = 3, SLICE_PX = 150 };
+enum { NSLICES = 3, SLICE_PX = 180 };
 
 /* A label map held in memory (fROIs of one split). */
 typedef struct lmap {
@@ -263,12 +263,12 @@ static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label
 					o[c] = rgb[c];
 			}
 			if (mode == DRAW_FROI && in_f) {
-				/* stripes as well as a hue, so the fROI reads in gray too */
-				int stripe = ((X + Y) / 3) % 2;
+				/* hatching as well as a hue, so the fROI reads in gray too */
+				int dark = (X + Y) % 4 == 0;
 
-				o[0] = stripe ? 0xd9 : 0x8a;
-				o[1] = stripe ? 0x6a : 0x2b;
-				o[2] = stripe ? 0x2b : 0x0c;
+				o[0] = dark ? 0x3a : 0xe0;
+				o[1] = dark ? 0x12 : 0x6a;
+				o[2] = dark ? 0x00 : 0x1a;
 			}
 			if (mode == DRAW_T && edge_f)
 				o[0] = o[1] = o[2] = 255;
@@ -333,7 +333,7 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 			cnt += pg->maps[k].lab[v] == label;
 		sb_puts(b, "<figure><figcaption><b>");
 		sb_esc(b, pg->maps[k].token);
-		sb_printf(b, "</b>: fROI (striped), %zu voxels; parcel outline dashed</figcaption>\n<div class=\"strip\">\n", cnt);
+		sb_printf(b, "</b>: fROI (hatched), %zu voxels; parcel outline dashed</figcaption>\n<div class=\"strip\">\n", cnt);
 		for (j = 0; j < ns; j++)
 			emit_slice(pg, b, sl[j], &pg->maps[k], label, DRAW_FROI, tlo, thi, glo, ghi);
 		sb_puts(b, "</div></figure>\n");
