@@ -26,6 +26,7 @@ static const struct command {
 	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ "report", cmd_report, CMD_NEEDS_ARGS, "write an HTML report of a study's results" },
 	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
+	{ "slurm", cmd_slurm, CMD_NEEDS_ARGS, "write (and submit) SLURM jobs: one per subject, then the group step" },
 	{ NULL, NULL, 0, NULL }
 };
 

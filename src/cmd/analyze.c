@@ -29,10 +29,11 @@ static const cmdline_opt opts[] = {
 	{ "force", NULL, "redo subjects whose outputs are complete and up to date" },
 	{ "no-group", NULL, "skip the group step (per-subject tables only)" },
 	{ "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
+	{ "collect", NULL, "fit nothing: rebuild OUT/responses.csv from the complete subjects, then the group step" },
 	{ "no-report", NULL, "do not write OUT/report.html and the subject pages" },
 	{ NULL, NULL, NULL },
 };
-enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_NOREPORT };
+enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT };
 
 static const cmdline_spec spec = {
 	"analyze", "STUDY.ini [options]",
@@ -41,7 +42,8 @@ static const cmdline_spec spec = {
 	"the responses on the other half (and in the measured tasks), and writes\n"
 	"OUT/sub-<label>/responses.csv, the combined OUT/responses.csv, maps per split,\n"
 	"and the group table. Subjects whose outputs are complete and newer than their\n"
-	"inputs are skipped (see --force).",
+	"inputs are skipped (see --force). --collect is the last step of a run split\n"
+	"into one job per subject (see 'splitroi slurm').",
 	opts,
 };
 
@@ -85,8 +87,7 @@ static int cmp_str(const void *a, const void *b)
 	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
-/* The study's subjects: its list or every sub-* folder. */
-static sr_status study_subjects(const study *st, char ***out, size_t *n, sr_err *e)
+sr_status analyze_study_subjects(const study *st, char ***out, size_t *n, sr_err *e)
 {
 	char **found;
 	size_t nfound, i;
@@ -446,9 +447,44 @@ static void print_summary(const study *st, const subject_result *res, const int 
 	free(parcels);
 }
 
+/*
+ * --collect: the combined table and the group step from what the per-subject jobs
+ * left. Incomplete subjects are named here and the group step marks its table
+ * incomplete; neither makes this fail, so one failed subject cannot hold back
+ * the table of the others.
+ */
+static int collect(const study *st, char **subs, size_t nsub, int group, int quiet)
+{
+	size_t i, ncomplete = 0, nmiss = 0;
+	sr_err e;
+	int rc = 0;
+
+	sr_err_init(&e, NULL, NULL);
+	if (afile_mkdirs(st->out, &e) || analyze_combine(st, subs, nsub, &ncomplete, &e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+		return 1;
+	}
+	if (ncomplete < nsub) {
+		fprintf(stderr, "splitroi analyze: %zu of %zu subjects have no complete, up-to-date outputs:",
+			nsub - ncomplete, nsub);
+		for (i = 0; i < nsub && nmiss < 20; i++)
+			if (!analyze_subject_complete(st, subs[i])) {
+				fprintf(stderr, " sub-%s", subs[i]);
+				nmiss++;
+			}
+		fprintf(stderr, "%s\n", nsub - ncomplete > nmiss ? " ..." : "");
+	}
+	if (group && analyze_group_step(st->out, subs, nsub, quiet))
+		rc = 1;
+	if (!quiet)
+		printf("%zu of %zu subjects complete; tables: %s/responses.csv%s\n", ncomplete, nsub,
+		       st->out, group ? ", group tables" : "");
+	return rc;
+}
+
 int cmd_analyze(int argc, char **argv)
 {
-	const char *val[9], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	const char *val[10], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	int npos, rc, quiet, nfail = 0;
 	long jobs = 1, threads = 0;
 	study st;
@@ -480,6 +516,11 @@ int cmd_analyze(int argc, char **argv)
 		return 2;
 	}
 	quiet = val[O_QUIET] != NULL;
+	if (val[O_COLLECT] && (val[O_SUBJECTS] || val[O_FORCE] || val[O_JOBS] || val[O_THREADS])) {
+		cmdline_error("analyze", "--collect fits nothing: it takes no --subjects, --force, --jobs or --threads");
+		free(pos);
+		return 2;
+	}
 	if (study_load(pos[0], &st, &probs) != SR_OK) {
 		for (i = 0; i < probs.n; i++)
 			fprintf(stderr, "splitroi analyze: %s\n", probs.msg[i]);
@@ -500,7 +541,7 @@ int cmd_analyze(int argc, char **argv)
 	}
 	sr_err_init(&e, NULL, NULL);
 	rc = 1;
-	if (study_subjects(&st, &subs, &nsub, &e)) {
+	if (analyze_study_subjects(&st, &subs, &nsub, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_study;
 	}
@@ -510,6 +551,12 @@ int cmd_analyze(int argc, char **argv)
 	}
 	if (check_all_effects(&st, subs, nsub))
 		goto out_subs;
+	if (val[O_COLLECT]) {
+		rc = collect(&st, subs, nsub, !val[O_NOGROUP], quiet);
+		if (!val[O_NOREPORT] && report_write(st.out, quiet))
+			rc = rc ? rc : 1;
+		goto out_subs;
+	}
 	if (val[O_SUBJECTS]) {
 		todo = split_labels(val[O_SUBJECTS], &ntodo);
 		for (i = 0; i < ntodo; i++)
@@ -616,7 +663,7 @@ int cmd_analyze(int argc, char **argv)
 			nfail++;
 		}
 		if (!val[O_NOGROUP])
-			if (analyze_group_step(st.out, quiet))
+			if (analyze_group_step(st.out, subs, nsub, quiet))
 				nfail++;
 	}
 	if (!val[O_NOREPORT] && report_write(st.out, quiet))

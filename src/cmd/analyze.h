@@ -7,6 +7,12 @@
 #include "../core/err.h"
 #include "../io/study.h"
 
+/*
+ * The study's subjects: its `subjects` list (each must exist under bids) or every
+ * sub-* folder, sorted. Caller frees with bids_strings_free.
+ */
+sr_status analyze_study_subjects(const study *st, char ***out, size_t *n, sr_err *e);
+
 /* 1 when OUT/sub-<label>/ holds complete outputs newer than every input and the study file. */
 int analyze_subject_complete(const study *st, const char *label);
 
@@ -14,7 +20,7 @@ int analyze_subject_complete(const study *st, const char *label);
 sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *ncomplete,
 			  sr_err *e);
 
-/* Runs the group step on OUT (group.c); 0 = ok. */
-int analyze_group_step(const char *out, int quiet);
+/* Runs the group step on OUT for the study's subjects (those without a table are listed missing); group.c; 0 = ok. */
+int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quiet);
 
 #endif

@@ -17,5 +17,6 @@ int cmd_analyze(int argc, char **argv);
 int cmd_simulate(int argc, char **argv);
 int cmd_group(int argc, char **argv);
 int cmd_report(int argc, char **argv);
+int cmd_slurm(int argc, char **argv);
 
 #endif

@@ -1112,15 +1112,33 @@ out:
 }
 
 /* analyze's last step: the same command on the study's out folder (quiet: no summary). */
-int analyze_group_step(const char *out, int quiet)
+int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quiet)
 {
-	char *argv[4];
-	int argc = 0;
+	/* the study's list, not the sub-* folders: a subject whose job failed before
+	   writing anything is then listed as missing instead of passing unnoticed */
+	size_t len = 1, i;
+	char *list, *argv[6];
+	int argc = 0, rc;
 
+	for (i = 0; i < nsub; i++)
+		len += strlen(subs[i]) + 1;
+	list = xmalloc(len);
+	list[0] = '\0';
+	for (i = 0; i < nsub; i++) {
+		if (i)
+			strcat(list, ",");
+		strcat(list, subs[i]);
+	}
 	argv[argc++] = "group";
 	argv[argc++] = (char *)out;
+	if (nsub) {
+		argv[argc++] = "--subjects";
+		argv[argc++] = list;
+	}
 	if (quiet)
 		argv[argc++] = "--quiet";
 	argv[argc] = NULL;
-	return cmd_group(argc, argv);
+	rc = cmd_group(argc, argv);
+	free(list);
+	return rc;
 }

@@ -732,6 +732,12 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		tasks[i + 1].effects = st->measures[i].effects;
 		tasks[i + 1].ne = (int)st->measures[i].neffects;
 	}
+	/* a redo starts by withdrawing the old completion record and table, so that an
+	   interrupted or failed redo never leaves results that look current */
+	snprintf(path, sizeof path, "%s/run.json", dir);
+	remove(path);
+	snprintf(path, sizeof path, "%s/responses.csv", dir);
+	remove(path);
 	progress(ctx, label, "finding runs");
 	for (i = 0; i < ntasks; i++) {
 		rc = task_prepare(st, label, &tasks[i], e);

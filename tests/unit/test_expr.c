@@ -32,7 +32,7 @@ static void expect_error(const char *s, const char *pos, const char *word)
 static void test_forms(void)
 {
 	expr x;
-	char msg[256];
+	char msg[256] = "";
 
 	CHECK(expr_parse("melody", &x, msg, sizeof msg) == 0, "single condition");
 	CHECK(x.nterms == 1 && x.terms[0].weight == 1.0, "single condition has weight 1");
@@ -73,7 +73,7 @@ static void test_forms(void)
 static void test_merge(void)
 {
 	expr x;
-	char msg[256];
+	char msg[256] = "";
 
 	CHECK(expr_parse("a + b + 2*a - 0.5*b", &x, msg, sizeof msg) == 0, "repeated names");
 	CHECK(x.nterms == 2, "repeated names merge to two terms");
@@ -92,7 +92,7 @@ static void test_merge(void)
 static void test_quotes(void)
 {
 	expr x;
-	char msg[256];
+	char msg[256] = "";
 
 	CHECK(expr_parse("\"go-left\" - 2*x", &x, msg, sizeof msg) == 0, "quoted name: %s", msg);
 	CHECK(weight(&x, "go-left") == 1.0, "quoted name without quotes in terms");
@@ -130,7 +130,7 @@ static void test_list(void)
 {
 	expr *l;
 	size_t n = 99;
-	char msg[256];
+	char msg[256] = "";
 	int rc;
 
 	rc = expr_parse_list("melody, scrambled, melody - scrambled", &l, &n, msg, sizeof msg);

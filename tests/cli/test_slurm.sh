@@ -1,0 +1,201 @@
+# test_slurm.sh - `splitroi slurm` and `analyze --collect`: scripts, submission, and a real
+# single-node SLURM cluster (SPLITROI_TEST_LEVEL=full, as root) whose tables must equal a
+# local `analyze` run byte for byte, also when one subject's data is broken.
+. "$(dirname "$0")/lib.sh"
+. "$(dirname "$0")/slurm_lib.sh"
+trap 'cluster_stop; rm -rf "$TMP"' EXIT
+
+# ---- without a cluster: usage, the scripts, sbatch stand-ins ----
+run "$SPLITROI" slurm
+expect_status 2 "slurm without a study is a usage error"
+run "$SPLITROI" slurm x.ini --mem 4 GB
+expect_status 2 "a stray argument is a usage error"
+run "$SPLITROI" slurm x.ini --mem 4GB
+expect_status 2 "--mem 4GB is refused (SLURM takes 4G)"
+expect_err "--mem '4GB'" "the bad --mem value is named"
+run "$SPLITROI" slurm x.ini --time 1::00
+expect_status 2 "a malformed --time is refused"
+run "$SPLITROI" slurm x.ini --partition 'a b'
+expect_status 2 "a partition name with a space is refused"
+run "$SPLITROI" slurm "$TMP/none.ini"
+expect_status 1 "a missing study file is bad input"
+
+run "$SPLITROI" simulate --out "$TMP/mini" --subjects 2 --volumes 60 --quiet
+expect_status 0 "simulate a 2-subject study"
+mkdir -p "$TMP/nobin"
+run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/mini/study.ini" --out "$TMP/mini/res"
+expect_status 0 "scripts are written without sbatch on PATH"
+expect_out "sh $TMP/mini/res/slurm/submit.sh" "says how to submit them"
+expect_out "sbatch is not on PATH" "says sbatch is missing here"
+S=$TMP/mini/res/slurm
+if [ "$(cat "$S/subjects.txt" 2>/dev/null)" = "$(printf '01\n02')" ]; then ok "subjects.txt lists the two subjects, one a line"; else notok "subjects.txt: $(cat "$S/subjects.txt" 2>&1)"; fi
+if grep -q '^#SBATCH --array=1-2$' "$S/subjects.sbatch" && grep -q -- '--no-group --quiet' "$S/subjects.sbatch" &&
+	grep -q -- '--threads "${SLURM_CPUS_PER_TASK:-1}"' "$S/subjects.sbatch" && ! grep '^exec' "$S/subjects.sbatch" | grep -q -- '--force'; then
+	ok "the array script: 2 tasks, --threads from SLURM, --no-group, no --force"
+else
+	notok "the array script: $(cat "$S/subjects.sbatch")"
+fi
+if grep -q -- "analyze '$TMP/mini/study.ini' --out '$TMP/mini/res' --collect" "$S/group.sbatch"; then ok "the group script collects"; else notok "group script: $(cat "$S/group.sbatch")"; fi
+# suggested memory for the small grid, 6 runs of 13440 voxels, 2 CPUs: the model in slurm.c
+# gives 1.5 * (10 MiB + 13440 * (81 * 6 + 350 * 2) bytes) = 38 MiB -> one 256 MiB step
+if grep -q '^#SBATCH --mem=256M$' "$S/subjects.sbatch"; then ok "memory suggestion rounds up to 256M"; else notok "mem: $(grep mem "$S/subjects.sbatch")"; fi
+# the time model (3.3e-8 s a voxel-volume, times 4) asks for seconds here: the 30-minute floor holds
+if grep -q '^#SBATCH --time=0:30:00$' "$S/subjects.sbatch"; then ok "time suggestion keeps its 30-minute floor"; else notok "time: $(grep time "$S/subjects.sbatch")"; fi
+run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/mini/study.ini" --out "$TMP/mini/res" --submit
+expect_status 1 "--submit without sbatch fails"
+expect_err "sh $TMP/mini/res/slurm/submit.sh" "and names the script to run on the cluster"
+
+# a stand-in sbatch that records its arguments and answers like --parsable does
+mkdir -p "$TMP/fakebin"
+cat >"$TMP/fakebin/sbatch" <<EOF
+#!/bin/sh
+echo "\$*" >>"$TMP/sbatch.calls"
+n=\$(wc -l <"$TMP/sbatch.calls")
+echo "\$((700 + n));testcluster"
+EOF
+chmod +x "$TMP/fakebin/sbatch"
+run env PATH="$TMP/fakebin:$PATH" "$SPLITROI" slurm "$TMP/mini/study.ini" --out "$TMP/mini/res" --submit --quiet --cpus 3 --mem 2G --time 45 --partition short --account lab1
+expect_status 0 "submission through a stand-in sbatch"
+expect_out "^701 702$" "both job ids parsed from --parsable output (cluster name dropped)"
+if sed -n 2p "$TMP/sbatch.calls" | grep -q -- "--dependency=afterany:701 .*group.sbatch"; then ok "the group job waits on the array with afterany"; else notok "calls: $(cat "$TMP/sbatch.calls")"; fi
+if grep -q '^#SBATCH --cpus-per-task=3$' "$S/subjects.sbatch" && grep -q '^#SBATCH --mem=2G$' "$S/subjects.sbatch" &&
+	grep -q '^#SBATCH --time=45$' "$S/subjects.sbatch" && grep -q '^#SBATCH --partition=short$' "$S/group.sbatch" &&
+	grep -q '^#SBATCH --account=lab1$' "$S/subjects.sbatch"; then
+	ok "--cpus, --mem, --time, --partition, --account reach the scripts"
+else
+	notok "options: $(grep SBATCH "$S/subjects.sbatch" "$S/group.sbatch")"
+fi
+cat >"$TMP/fakebin/sbatch" <<EOF
+#!/bin/sh
+echo "sbatch: error: invalid partition specified: nope" >&2
+exit 1
+EOF
+run env PATH="$TMP/fakebin:$PATH" "$SPLITROI" slurm "$TMP/mini/study.ini" --out "$TMP/mini/res" --submit
+expect_status 1 "a refused submission fails"
+expect_err "sbatch failed" "and says so"
+
+# --collect on what is there: nothing complete yet, then one subject
+run "$SPLITROI" analyze "$TMP/mini/study.ini" --out "$TMP/mini/res" --collect --subjects 01
+expect_status 2 "--collect takes no --subjects"
+run "$SPLITROI" analyze "$TMP/mini/study.ini" --out "$TMP/mini/res" --subjects 01 --no-group --quiet
+expect_status 0 "analyze one subject alone"
+run "$SPLITROI" analyze "$TMP/mini/study.ini" --out "$TMP/mini/res" --collect --quiet
+expect_status 0 "--collect with one subject missing still succeeds"
+expect_err "1 of 2 subjects .* sub-02" "--collect names the incomplete subject"
+if [ -s "$TMP/mini/res/group.csv" ] && grep -q '^02,missing' "$TMP/mini/res/group_subjects.csv"; then
+	ok "--collect writes group.csv and lists sub-02 as missing"
+else
+	notok "--collect tables: $(ls "$TMP/mini/res"; cat "$TMP/mini/res/group_subjects.csv" 2>&1)"
+fi
+run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/mini/study.ini" --out "$TMP/mini/res"
+expect_out "^1 of 2 subjects need analysis; 1 complete" "a second slurm run leaves out the complete subject"
+if [ "$(cat "$S/subjects.txt")" = "02" ]; then ok "the new array holds only sub-02"; else notok "subjects.txt: $(cat "$S/subjects.txt")"; fi
+
+# ---- a real cluster ----
+if [ "${SPLITROI_TEST_LEVEL:-}" != full ]; then
+	echo "skip - the SLURM cluster runs only at SPLITROI_TEST_LEVEL=full"
+	exit 0
+fi
+if [ "$(id -u)" -ne 0 ]; then
+	echo "skip - the SLURM cluster test needs root (it installs and starts munged, slurmctld, slurmd)"
+	exit 0
+fi
+if ! cluster_install; then
+	notok "could not install slurm-wlm and munge"
+	exit 1
+fi
+if ! cluster_start "$TMP/cluster" 2>"$TMP/cluster.err"; then
+	notok "the SLURM daemons did not start:"
+	sed 's/^/    /' "$TMP/cluster.err"
+	exit 1
+fi
+ok "single-node cluster up (munged, slurmctld, slurmd)"
+
+# Waits for jobs (comma list) to leave the queue; bounded at $2 seconds.
+wait_jobs() {
+	local t=0
+	while [ -n "$(squeue -h -j "$1" 2>/dev/null)" ]; do
+		sleep 2
+		t=$((t + 2))
+		if [ "$t" -ge "$2" ]; then
+			squeue >&2
+			return 1
+		fi
+	done
+	return 0
+}
+
+id=$(sbatch --parsable --mem=64M -o "$TMP/hostname.out" --wrap hostname 2>"$TMP/err")
+if [ -n "$id" ] && wait_jobs "$id" 60 && [ "$(cat "$TMP/hostname.out" 2>/dev/null)" = "$(hostname)" ]; then
+	ok "a trivial job runs on the node"
+else
+	notok "trivial job: id '$id', $(cat "$TMP/err" "$TMP/hostname.out" 2>&1)"
+	cluster_logs
+	exit 1
+fi
+
+run "$SPLITROI" simulate --out "$TMP/demo" --subjects 4 --quiet
+expect_status 0 "simulate a 4-subject study"
+run "$SPLITROI" analyze "$TMP/demo/study.ini" --out "$TMP/local" --quiet
+expect_status 0 "local analyze of the same study"
+
+run "$SPLITROI" slurm "$TMP/demo/study.ini" --out "$TMP/onslurm" --submit --cpus 1 --time 10:00 --quiet
+expect_status 0 "splitroi slurm --submit"
+read -r arr grp <"$TMP/out"
+if [ -n "${arr:-}" ] && [ -n "${grp:-}" ] && wait_jobs "$arr,$grp" 600; then
+	ok "the array and the group job finished within 10 minutes"
+else
+	notok "jobs '${arr:-}' '${grp:-}' did not finish: $(cat "$TMP/err")"
+	cluster_logs
+fi
+for f in responses.csv group.csv; do
+	if cmp -s "$TMP/local/$f" "$TMP/onslurm/$f"; then
+		ok "$f from the cluster equals the local run byte for byte"
+	else
+		notok "$f differs from the local run: $(cmp "$TMP/local/$f" "$TMP/onslurm/$f" 2>&1); logs: $(tail -5 "$TMP"/onslurm/slurm/logs/* 2>&1 | head -c 1500)"
+	fi
+done
+n=$(ls "$TMP"/onslurm/slurm/logs/sub-*.out 2>/dev/null | wc -l)
+if [ "$n" -eq 4 ]; then ok "one log per subject task"; else notok "subject logs: $n"; fi
+
+run "$SPLITROI" slurm "$TMP/demo/study.ini" --out "$TMP/onslurm" --submit --cpus 1
+expect_status 0 "resubmitting a finished study"
+expect_out "^0 of 4 subjects need analysis" "finds every subject complete"
+expect_out "submitted: group step as job" "and submits only the group step"
+
+# one subject's run cut short: its task fails, the others and the group step do not
+cp -r "$TMP/demo" "$TMP/broken"
+bold=$(ls "$TMP"/broken/data/sub-02/func/*task-tones*_bold.nii* | head -1)
+truncate -s 2000 "$bold"
+run "$SPLITROI" slurm "$TMP/broken/study.ini" --out "$TMP/brokenout" --submit --cpus 1 --time 10:00 --quiet
+expect_status 0 "submit the study with a broken subject"
+read -r arr grp <"$TMP/out"
+if [ -n "${arr:-}" ] && [ -n "${grp:-}" ] && wait_jobs "$arr,$grp" 600; then
+	ok "with a failing task the group job still ran (afterany)"
+else
+	notok "jobs '${arr:-}' '${grp:-}' did not finish: $(cat "$TMP/err")"
+	cluster_logs
+fi
+good=0
+for s in 01 03 04; do
+	[ -s "$TMP/brokenout/sub-$s/run.json" ] && [ -s "$TMP/brokenout/sub-$s/responses.csv" ] && good=$((good + 1))
+done
+if [ "$good" -eq 3 ] && [ ! -e "$TMP/brokenout/sub-02/run.json" ]; then ok "the other three subjects completed, sub-02 did not"; else notok "complete subjects: $good of 3; $(ls "$TMP/brokenout" 2>&1)"; fi
+if grep -qs 'sub-02 failed' "$TMP"/brokenout/slurm/logs/sub-*.out; then ok "sub-02's task log says why it failed"; else notok "no failure in the task logs: $(tail -3 "$TMP"/brokenout/slurm/logs/sub-*.out 2>&1 | head -c 800)"; fi
+if [ -s "$TMP/brokenout/group.csv" ] && grep -q '^02,missing' "$TMP/brokenout/group_subjects.csv" &&
+	grep -qs 'sub-02' "$TMP"/brokenout/slurm/logs/group-*.out; then
+	ok "group.csv written; sub-02 listed as missing there and in the group log"
+else
+	notok "group after a failure: $(cat "$TMP/brokenout/group_subjects.csv" "$TMP"/brokenout/slurm/logs/group-*.out 2>&1 | head -c 800)"
+fi
+if awk -F, 'NR > 1 && $NF !~ /incomplete/ { bad = 1 } END { exit bad }' "$TMP/brokenout/group.csv"; then
+	ok "every group row is marked incomplete"
+else
+	notok "group rows not marked incomplete: $(head -3 "$TMP/brokenout/group.csv")"
+fi
+# the three good subjects agree with the local run (rows of responses.csv)
+if grep -v '^02,' "$TMP/local/responses.csv" | cmp -s - "$TMP/brokenout/responses.csv"; then
+	ok "responses.csv holds exactly the local rows of the three good subjects"
+else
+	notok "responses.csv of the broken study differs from the local rows without sub-02"
+fi
