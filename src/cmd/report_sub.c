@@ -209,7 +209,7 @@ enum { DRAW_FROI, DRAW_T };
 static int scale_for(size_t nx, size_t ny)
 {
 	size_t m = nx > ny ? nx : ny;
-	int s = (int)(SLICE_PX / (m ? m : 1));
+	int s = (int)lround((double)SLICE_PX / (double)(m ? m : 1));
 
 	return s < 1 ? 1 : s > 12 ? 12 : s;
 }
