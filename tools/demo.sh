@@ -38,15 +38,21 @@ else
 fi
 ran_analyze=0
 if has analyze; then
-	echo "== analyzing"
-	"$BIN" analyze "$OUT/study.ini" || exit 1
+	echo "== analyzing (log: $OUT/analyze.log)"
+	if ! "$BIN" analyze "$OUT/study.ini" >"$OUT/analyze.log" 2>&1; then
+		tail -20 "$OUT/analyze.log"
+		exit 1
+	fi
 	ran_analyze=1
 else
 	echo "== (this build has no analyze command; skipped)"
 fi
 if [ "$ran_analyze" -eq 1 ] && has group; then
-	echo "== group statistics"
-	"$BIN" group "$OUT/results" || exit 1
+	echo "== group statistics (log: $OUT/group.log)"
+	if ! "$BIN" group "$OUT/results" >"$OUT/group.log" 2>&1; then
+		tail -20 "$OUT/group.log"
+		exit 1
+	fi
 fi
 
 echo

@@ -232,10 +232,17 @@ static double newest_input(const study *st, const char *label)
 	double t = mtime_of(st->path), x;
 	size_t k, ntasks = 1 + st->nmeasures;
 
-	if ((x = mtime_of(st->parcels)) > t)
-		t = x;
-	if ((x = mtime_of(st->parcel_names)) > t)
-		t = x;
+	{
+		char *img = study_subject_path(st->parcels, label);
+		char *nm = study_subject_path(st->parcel_names, label);
+
+		if ((x = mtime_of(img)) > t)
+			t = x;
+		if ((x = mtime_of(nm)) > t)
+			t = x;
+		free(img);
+		free(nm);
+	}
 	if ((x = mtime_of(st->mask)) > t)
 		t = x;
 	for (k = 0; k < ntasks; k++) {
@@ -574,7 +581,9 @@ int cmd_analyze(int argc, char **argv)
 	}
 	progress_init(&prog, "analyze", 0, quiet);
 	sr_err_init(&e, progress_warn, &prog);
-	if (parcel_set_load(&st, &ps, &e)) {
+	memset(&ps, 0, sizeof ps);
+	if (!study_per_subject(st.parcels) && !study_per_subject(st.parcel_names) &&
+	    parcel_set_load(st.parcels, st.parcel_names, &ps, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_prog;
 	}
@@ -617,7 +626,7 @@ int cmd_analyze(int argc, char **argv)
 	prog.total = (int)ntodo;
 	memset(&ctx, 0, sizeof ctx);
 	ctx.st = &st;
-	ctx.parcels = &ps;
+	ctx.parcels = study_per_subject(st.parcels) || study_per_subject(st.parcel_names) ? NULL : &ps;
 	ctx.mask = mask;
 	ctx.mask_grid = mask ? &mask_grid : NULL;
 	ctx.nthreads = (int)threads;

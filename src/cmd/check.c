@@ -761,7 +761,24 @@ static int run_check(checker *c, char **subs, size_t nsub)
 		sl_free(&known);
 		sl_free(&reported);
 	}
-	check_parcels(c, grids, ngrids);
+	if (study_per_subject(st->parcels) || study_per_subject(st->parcel_names)) {
+		/* each subject's own parcels (made without its data): check every one */
+		const study *whole = c->st;
+
+		for (s = 0; s < nsub; s++) {
+			study one = *whole;
+
+			one.parcels = study_subject_path(whole->parcels, subs[s]);
+			one.parcel_names = study_subject_path(whole->parcel_names, subs[s]);
+			c->st = &one;
+			check_parcels(c, grids, ngrids);
+			c->st = whole;
+			free(one.parcels);
+			free(one.parcel_names);
+		}
+	} else {
+		check_parcels(c, grids, ngrids);
+	}
 	check_mask(c, grids, ngrids);
 	free(grids);
 	for (s = 0; s < nsub * ntasks; s++) {

@@ -49,7 +49,7 @@ static int cmp_i32(const void *a, const void *b)
 	return (x > y) - (x < y);
 }
 
-sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
+sr_status parcel_set_load(const char *image, const char *names_path, parcel_set *p, sr_err *e)
 {
 	nii_info info;
 	double *data = NULL;
@@ -60,7 +60,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 	sr_status rc;
 
 	memset(p, 0, sizeof *p);
-	rc = nii_read_3d(st->parcels, &info, &data, e);
+	rc = nii_read_3d(image, &info, &data, e);
 	if (rc)
 		return rc;
 	p->grid = info.grid;
@@ -77,7 +77,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 			parcel_set_release(p);
 			return sr_fail(e, SR_EFORMAT,
 				       "%s: voxel (%zu, %zu, %zu) holds %g; parcel labels must be whole numbers >= 0",
-				       st->parcels, i0, j0, k0, x);
+				       image, i0, j0, k0, x);
 		}
 		p->labels[v] = (int32_t)x;
 	}
@@ -100,11 +100,11 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 		}
 		seen[nseen++] = l;
 	}
-	if (st->parcel_names) {
+	if (names_path) {
 		int ci, cn;
 		size_t r;
 
-		rc = table_read(st->parcel_names, 0, &names, e);
+		rc = table_read(names_path, 0, &names, e);
 		if (rc) {
 			free(seen);
 			parcel_set_release(p);
@@ -115,7 +115,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 		cn = table_col(&names, "name");
 		if (ci < 0 || cn < 0) {
 			sr_fail(e, SR_EFORMAT, "%s: line 1: the parcel names table needs columns 'index' and 'name'",
-				st->parcel_names);
+				names_path);
 			goto fail;
 		}
 		/* the image decides which parcels exist; names only label them */
@@ -128,7 +128,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 				goto fail;
 			if (na || x != floor(x) || x < 1 || x > 2147483647.0) {
 				sr_fail(e, SR_EFORMAT, "%s: line %zu, column %d (index): '%s' is not a parcel label (a whole number >= 1)",
-					st->parcel_names, names.line[r], ci + 1, table_cell(&names, r, (size_t)ci));
+					names_path, names.line[r], ci + 1, table_cell(&names, r, (size_t)ci));
 				goto fail;
 			}
 			for (k = 0; k < nseen; k++)
@@ -136,8 +136,8 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 					break;
 			if (k == nseen)
 				sr_warnf(e, "%s: line %zu: parcel %s (index %d) has no voxels in %s; it gets no rows",
-					 st->parcel_names, names.line[r], table_cell(&names, r, (size_t)cn), (int)x,
-					 st->parcels);
+					 names_path, names.line[r], table_cell(&names, r, (size_t)cn), (int)x,
+					 image);
 		}
 	}
 	qsort(seen, nseen, sizeof *seen, cmp_i32);
@@ -163,7 +163,7 @@ sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e)
 	if (have_names)
 		table_release(&names);
 	if (p->n == 0)
-		sr_warnf(e, "%s: the parcel image has no labelled voxel", st->parcels);
+		sr_warnf(e, "%s: the parcel image has no labelled voxel", image);
 	return SR_OK;
 fail:
 	table_release(&names);
@@ -699,6 +699,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 {
 	const study *st = ctx->st;
 	const parcel_set *ps = ctx->parcels;
+	parcel_set own_ps;
+	char *own_image = NULL, *own_names = NULL;
 	task_fit *tasks;
 	size_t ntasks = 1 + st->nmeasures, i, nvox = 0, nruns_all = 0;
 	expr *loc_effects;
@@ -738,6 +740,19 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	remove(path);
 	snprintf(path, sizeof path, "%s/responses.csv", dir);
 	remove(path);
+	memset(&own_ps, 0, sizeof own_ps);
+	if (!ps) {
+		/* parcels made for each subject, e.g. without that subject's own data */
+		own_image = study_subject_path(st->parcels, label);
+		own_names = study_subject_path(st->parcel_names, label);
+		rc = parcel_set_load(own_image, own_names, &own_ps, e);
+		if (rc) {
+			free(own_image);
+			free(own_names);
+			return rc;
+		}
+		ps = &own_ps;
+	}
 	progress(ctx, label, "finding runs");
 	for (i = 0; i < ntasks; i++) {
 		rc = task_prepare(st, label, &tasks[i], e);
@@ -808,14 +823,15 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 
 		labels_owned = xmalloc_array(nvox, sizeof *labels_owned);
 		if (resample_nearest(ps->labels, sn, ps->grid.affine, labels_owned, tn, grid.affine)) {
-			rc = sr_fail(e, SR_EDIM, "%s: the parcel grid's affine is singular", st->parcels);
+			rc = sr_fail(e, SR_EDIM, "%s: the parcel grid's affine is singular",
+				     own_image ? own_image : st->parcels);
 			goto out;
 		}
 		labels = labels_owned;
 	} else {
 		rc = sr_fail(e, SR_EDIM,
 			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
-			     st->parcels, tasks[0].runs[0].bold, buf);
+			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
 		goto out;
 	}
 
@@ -1002,7 +1018,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			jdoc_set(in, tasks[i].task, inputs_record(&tasks[i]));
 		jdoc_set(rec, "inputs", in);
 	}
-	jdoc_set_str(rec, "parcels", st->parcels);
+	jdoc_set_str(rec, "parcels", own_image ? own_image : st->parcels);
 	jdoc_set_int(rec, "rows", (long long)res->nrows);
 	jdoc_set_num(rec, "seconds", res->seconds);
 	snprintf(path, sizeof path, "%s/run.json", dir);
@@ -1025,9 +1041,98 @@ out:
 	free(tasks);
 	free(loc_effects);
 	free(labels_owned);
+	parcel_set_release(&own_ps);
+	free(own_image);
+	free(own_names);
 	if (rc) {
 		snprintf(path, sizeof path, "%s/run.json", dir);
 		remove(path);
 	}
+	return rc;
+}
+
+sr_status subject_localizer_t(const study *st, const char *label, const unsigned char *mask,
+			      int nthreads, nii_grid *grid, double **t, int **df, int *nruns,
+			      sr_err *e)
+{
+	task_fit loc;
+	runfit_spec *specs = NULL;
+	runfit_result *results = NULL;
+	sr_err *errs = NULL;
+	int *pos = NULL;
+	size_t i, nvox;
+	char buf[1024];
+	sr_status rc;
+
+	*t = NULL;
+	*df = NULL;
+	*nruns = 0;
+	memset(&loc, 0, sizeof loc);
+	loc.task = st->loc_task;
+	loc.effects = &st->contrast;
+	loc.ne = 1;
+	rc = task_prepare(st, label, &loc, e);
+	if (rc)
+		goto out;
+	specs = xcalloc(loc.nruns, sizeof *specs);
+	results = xcalloc(loc.nruns, sizeof *results);
+	errs = xcalloc(loc.nruns, sizeof *errs);
+	task_specs(st, &loc, mask, specs);
+	for (i = 0; i < loc.nruns; i++)
+		sr_err_init(&errs[i], e->warn, e->warn_ctx);
+	rc = runfit_many(specs, (int)loc.nruns, nthreads, results, errs);
+	loc.res = results;   /* released with loc, fitted or not */
+	results = NULL;
+	if (rc) {
+		for (i = 0; i < loc.nruns; i++)
+			if (errs[i].code) {
+				sr_fail(e, errs[i].code, "%s", errs[i].msg);
+				break;
+			}
+		goto out;
+	}
+	*grid = loc.res[0].info.grid;
+	nvox = nii_nvox(grid);
+	for (i = 1; i < loc.nruns; i++)
+		if (!nii_same_grid(grid, &loc.res[i].info.grid, 1e-3, buf, sizeof buf)) {
+			rc = sr_fail(e, SR_EDIM, "%s: not on the grid of %s: %s", loc.runs[i].bold,
+				     loc.runs[0].bold, buf);
+			goto out;
+		}
+	warn_estimability(&loc, e);
+	pos = xmalloc_array(loc.nruns, sizeof *pos);
+	for (i = 0; i < loc.nruns; i++)
+		pos[i] = (int)i;
+	*t = xmalloc_array(nvox, sizeof **t);
+	*df = xmalloc_array(nvox, sizeof **df);
+	{
+		const double **ef = xmalloc_array(loc.nruns, sizeof *ef);
+		const double **va = xmalloc_array(loc.nruns, sizeof *va);
+		int *rdf = xmalloc_array(loc.nruns, sizeof *rdf);
+		double *E = xmalloc_array(nvox, sizeof *E);
+
+		for (i = 0; i < loc.nruns; i++) {
+			ef[i] = loc.res[i].out.effect;
+			va[i] = loc.res[i].out.var;
+			rdf[i] = loc.res[i].out.df;
+		}
+		glm_ffx(nvox, (int)loc.nruns, ef, va, rdf, E, NULL, *t, *df);
+		free(ef);
+		free(va);
+		free(rdf);
+		free(E);
+	}
+	if (loc.missing[0])
+		for (i = 0; i < nvox; i++) {
+			(*t)[i] = NAN;
+			(*df)[i] = 0;
+		}
+	*nruns = (int)loc.nruns;
+out:
+	free(pos);
+	free(specs);
+	free(results);
+	free(errs);
+	task_release(&loc);
 	return rc;
 }

@@ -40,7 +40,7 @@ typedef void (*subject_progress_fn)(void *ctx, const char *subject, const char *
 
 typedef struct subject_ctx {
 	const study *st;
-	const parcel_set *parcels;
+	const parcel_set *parcels;     /* NULL: each subject loads its own (image has {subject}) */
 	const unsigned char *mask;     /* on the data grid, or NULL */
 	const nii_grid *mask_grid;
 	int nthreads;                  /* threads for fitting this subject's runs */
@@ -66,8 +66,25 @@ sr_status subject_write_rows(const char *path, const char *subject, const respon
 extern const char *const subject_columns[];
 extern const size_t subject_ncolumns;
 
-/* Reads the parcels image and its names table (study [parcels]). */
-sr_status parcel_set_load(const study *st, parcel_set *p, sr_err *e);
+/*
+ * The subject's localizer contrast over all its localizer runs: fits every
+ * run of the study's localizer task once (contrast only, same model as
+ * subject_analyze), then fixed effects over the runs (METHODS.md 5). On
+ * SR_OK *t and *df (nvox each, xmalloc'ed, caller frees) hold the t map and
+ * its per-voxel degrees of freedom (NaN and 0 where no run is analyzable, or
+ * everywhere when the subject lacks a condition of the contrast), *grid the
+ * runs' grid (all runs must share it) and *nruns the runs fitted. Used by the
+ * parcels command; mask and nthreads as in subject_ctx.
+ */
+sr_status subject_localizer_t(const study *st, const char *label, const unsigned char *mask,
+			      int nthreads, nii_grid *grid, double **t, int **df, int *nruns,
+			      sr_err *e);
+
+/*
+ * Reads a parcels image and its names table: the study's, or a subject's own
+ * (image and names with {subject} replaced; names may be NULL).
+ */
+sr_status parcel_set_load(const char *image, const char *names, parcel_set *p, sr_err *e);
 void parcel_set_release(parcel_set *p);
 
 #endif

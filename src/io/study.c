@@ -874,8 +874,10 @@ static void load_parcels(struct loader *ld, study *s)
 	if (!val(e))
 		missing(ld, "parcels", "image", "the parcel label image");
 	else
-		s->parcels = path_key(ld, e, 1);
-	s->parcel_names = path_key(ld, get(ld, "parcels", "names"), 1);
+		/* with {subject}, each subject's file is checked when it is read */
+		s->parcels = path_key(ld, e, study_per_subject(e->value) ? 0 : 1);
+	e = get(ld, "parcels", "names");
+	s->parcel_names = path_key(ld, e, e && study_per_subject(e->value) ? 0 : 1);
 	s->resample_parcels = choice(ld, get(ld, "parcels", "resample"), resample, 2, 0);
 	for (i = 0; i < 3; i++) {
 		sel[i] = get(ld, "parcels", selkey[i]);
@@ -1199,4 +1201,35 @@ void study_release(study *s)
 	}
 	free(s->keys);
 	memset(s, 0, sizeof *s);
+}
+
+int study_per_subject(const char *path)
+{
+	return path && strstr(path, "{subject}") != NULL;
+}
+
+char *study_subject_path(const char *path, const char *label)
+{
+	static const char key[] = "{subject}";
+	size_t n = 0, kl = sizeof key - 1, ll = strlen(label);
+	const char *p;
+	char *out, *w;
+
+	if (!path)
+		return NULL;
+	for (p = strstr(path, key); p; p = strstr(p + kl, key))
+		n++;
+	out = xmalloc(strlen(path) + n * ll + 1);
+	w = out;
+	for (p = path; *p;) {
+		if (strncmp(p, key, kl) == 0) {
+			memcpy(w, label, ll);
+			w += ll;
+			p += kl;
+		} else {
+			*w++ = *p++;
+		}
+	}
+	*w = '\0';
+	return out;
 }

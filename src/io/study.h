@@ -99,6 +99,11 @@ size_t study_line(const study *s, const char *section, const char *key);
  */
 sr_status study_load(const char *path, study *s, study_problems *probs);
 void study_release(study *s);
+
+/* 1 when a path holds the {subject} placeholder (per-subject parcels). */
+int study_per_subject(const char *path);
+/* The path with every {subject} replaced by label; xmalloc'ed, caller frees. */
+char *study_subject_path(const char *path, const char *label);
 void study_problems_release(study_problems *p);
 
 #endif

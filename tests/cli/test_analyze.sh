@@ -74,3 +74,19 @@ if grep -q "sub-02: up to date" "$TMP/err"; then notok "a subject without run.js
 run "$SPLITROI" analyze study.ini --subjects 07 --quiet
 expect_status 2 "an unknown subject is a usage error"
 expect_err "subject '07' is not in the study" "the unknown subject is named"
+
+# per-subject parcels through the {subject} placeholder: with identical files the
+# tables equal those of the shared parcels; a subject without its file fails alone
+for sub in 01 02; do mkdir -p "pp/without-sub-$sub" && cp parcels.nii.gz "pp/without-sub-$sub/parcels.nii.gz"; done
+sed 's|image = parcels.nii.gz|image = pp/without-sub-{subject}/parcels.nii.gz|' study.ini >per.ini
+run "$SPLITROI" check per.ini
+expect_status 0 "check accepts per-subject parcels"
+run "$SPLITROI" analyze per.ini --quiet --out "$TMP/per"
+expect_status 0 "analyze with per-subject parcels"
+cmp -s "$TMP/per/responses.csv" results/responses.csv && ok "per-subject copies of the parcels give the same table" || notok "per-subject parcels changed the table"
+grep -q 'without-sub-02' "$TMP/per/sub-02/run.json" && ok "the run record names the subject's own parcels" || notok "run.json lacks the subject's parcels"
+rm "pp/without-sub-02/parcels.nii.gz"
+run "$SPLITROI" analyze per.ini --quiet --out "$TMP/per2" --no-group
+expect_status 1 "a subject without its own parcels fails"
+expect_err "without-sub-02/parcels.nii.gz" "the missing per-subject file is named"
+[ -s "$TMP/per2/sub-01/run.json" ] && ok "the other subject still completes" || notok "one subject's missing parcels stopped the other"

@@ -96,7 +96,7 @@ def main():
     nsub = 3
     r = subprocess.run([BIN, "simulate", "--out", out, "--subjects", str(nsub), "--seed", "7", "--quiet"] + os.environ.get("SIMARGS", "").split(),
                        capture_output=True, text=True)
-    check(r.returncode == 0, "simulate ran (%s)" % r.stderr.strip()[:200])
+    check(r.returncode == 0, "simulate ran" + (" (%s)" % r.stderr.strip()[:200] if r.returncode else ""))
     if r.returncode:
         return
     data = os.path.join(out, "data")
@@ -160,15 +160,15 @@ def main():
     mdiffs = np.array(mdiffs)
     print("# memory recovery: mean error %.3f, sd %.3f, max |error| %.3f (n=%d)"
           % (mdiffs.mean(), mdiffs.std(), np.abs(mdiffs).max(), len(mdiffs)))
-    check(abs(mdiffs.mean()) < 0.1, "measured-task fROI estimates recover truth.csv on average (bias %.3f)" % mdiffs.mean())
-    check(np.abs(mdiffs).max() < 0.6, "every measured-task estimate within 0.6 of truth (max %.3f)" % np.abs(mdiffs).max())
+    check(abs(mdiffs.mean()) < 0.08, "measured-task fROI estimates recover truth.csv on average (bias %.3f)" % mdiffs.mean())
+    check(np.abs(mdiffs).max() < 0.5, "every measured-task estimate within 0.5 of truth (max %.3f)" % np.abs(mdiffs).max())
     diffs = np.array(diffs)
     nulls = np.array(nulls)
     print("# recovery: mean error %.3f, sd %.3f, max |error| %.3f (n=%d); null parcel mean %.3f sd %.3f"
           % (diffs.mean(), diffs.std(), np.abs(diffs).max(), len(diffs), nulls.mean(), nulls.std()))
     # a few tenths of a percent per subject and split at the default noise; the average is unbiased
-    check(abs(diffs.mean()) < 0.1, "fROI estimates recover truth.csv on average (bias %.3f)" % diffs.mean())
-    check(np.abs(diffs).max() < 0.6, "every fROI estimate within 0.6 of truth (max %.3f)" % np.abs(diffs).max())
+    check(abs(diffs.mean()) < 0.08, "fROI estimates recover truth.csv on average (bias %.3f)" % diffs.mean())
+    check(np.abs(diffs).max() < 0.4, "every fROI estimate within 0.4 of truth (max %.3f)" % np.abs(diffs).max())
     # the null parcel: selection on independent runs leaves no bias
     check(abs(nulls.mean()) < 0.15, "null parcel measures about zero (%.3f)" % nulls.mean())
 
