@@ -25,6 +25,7 @@ static const struct command {
 	{ "fit", cmd_fit, CMD_NEEDS_ARGS, "fit first-level models to BOLD runs" },
 	{ "group", cmd_group, CMD_NEEDS_ARGS, "group statistics over the subjects' tables" },
 	{ "parcels", cmd_parcels, CMD_NEEDS_ARGS, "make parcels from the group's localizer data or from coordinates" },
+	{ "report", cmd_report, CMD_NEEDS_ARGS, "write an HTML report of a study's results" },
 	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
 	{ "slurm", cmd_slurm, CMD_NEEDS_ARGS, "write (and submit) SLURM jobs: one per subject, then the group step" },
 	{ NULL, NULL, 0, NULL }

@@ -18,6 +18,7 @@
 #include "cmd.h"
 #include "cmdline.h"
 #include "progress.h"
+#include "report.h"
 #include "subject.h"
 
 static const cmdline_opt opts[] = {
@@ -29,9 +30,10 @@ static const cmdline_opt opts[] = {
 	{ "no-group", NULL, "skip the group step (per-subject tables only)" },
 	{ "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
 	{ "collect", NULL, "fit nothing: rebuild OUT/responses.csv from the complete subjects, then the group step" },
+	{ "no-report", NULL, "do not write OUT/report.html and the subject pages" },
 	{ NULL, NULL, NULL },
 };
-enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT };
+enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT };
 
 static const cmdline_spec spec = {
 	"analyze", "STUDY.ini [options]",
@@ -489,7 +491,7 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 
 int cmd_analyze(int argc, char **argv)
 {
-	const char *val[9], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	const char *val[10], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	int npos, rc, quiet, nfail = 0;
 	long jobs = 1, threads = 0;
 	study st;
@@ -558,6 +560,8 @@ int cmd_analyze(int argc, char **argv)
 		goto out_subs;
 	if (val[O_COLLECT]) {
 		rc = collect(&st, subs, nsub, !val[O_NOGROUP], quiet);
+		if (!val[O_NOREPORT] && report_write(st.out, quiet))
+			rc = rc ? rc : 1;
 		goto out_subs;
 	}
 	if (val[O_SUBJECTS]) {
@@ -671,6 +675,8 @@ int cmd_analyze(int argc, char **argv)
 			if (analyze_group_step(st.out, subs, nsub, quiet))
 				nfail++;
 	}
+	if (!val[O_NOREPORT] && report_write(st.out, quiet))
+		nfail++;
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);
 		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",

@@ -17,6 +17,7 @@ int cmd_analyze(int argc, char **argv);
 int cmd_simulate(int argc, char **argv);
 int cmd_group(int argc, char **argv);
 int cmd_parcels(int argc, char **argv);
+int cmd_report(int argc, char **argv);
 int cmd_slurm(int argc, char **argv);
 
 #endif

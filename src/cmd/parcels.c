@@ -14,6 +14,7 @@
 #include "../io/nii.h"
 #include "../io/study.h"
 #include "../io/table.h"
+#include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
 #include "subject.h"
@@ -401,46 +402,6 @@ static void match_to(pset *p, const pset *full, size_t nvox)
 	free(newidx);
 }
 
-static int has_label(char **v, size_t n, const char *s)
-{
-	size_t i;
-
-	for (i = 0; i < n; i++)
-		if (strcmp(v[i], s) == 0)
-			return 1;
-	return 0;
-}
-
-/* The study's subjects: its list (each must exist) or every sub-* folder. */
-static sr_status subjects_of(const study *st, char ***out, size_t *n, sr_err *e)
-{
-	char **found;
-	size_t nfound, i;
-	sr_status rc;
-
-	rc = bids_subjects(st->bids, &found, &nfound, e);
-	if (rc)
-		return rc;
-	if (!st->subjects) {
-		*out = found;
-		*n = nfound;
-		return SR_OK;
-	}
-	for (i = 0; i < st->nsubjects; i++)
-		if (!has_label(found, nfound, st->subjects[i])) {
-			sr_fail(e, SR_ESTUDY, "%s: subject '%s' is not in %s", st->path, st->subjects[i],
-				st->bids);
-			bids_strings_free(found, nfound);
-			return SR_ESTUDY;
-		}
-	bids_strings_free(found, nfound);
-	*out = xcalloc(st->nsubjects, sizeof **out);
-	for (i = 0; i < st->nsubjects; i++)
-		(*out)[i] = xstrdup(st->subjects[i]);
-	*n = st->nsubjects;
-	return SR_OK;
-}
-
 /* The study's brain mask on its own grid, or NULL when the study has none. */
 static sr_status read_mask(const study *st, unsigned char **mask, nii_grid *g, sr_err *e)
 {
@@ -510,7 +471,7 @@ static int from_study(const char *path, const char *const *val, sr_err *e)
 		return 1;
 	}
 	study_problems_release(&probs);
-	if (subjects_of(&st, &subs, &nsub, e) != SR_OK)
+	if (analyze_study_subjects(&st, &subs, &nsub, e) != SR_OK)
 		goto fail;
 	if (nsub == 0 || (loo && nsub < 2)) {
 		sr_fail(e, SR_ESTUDY, "%s: %s", st.bids,

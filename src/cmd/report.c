@@ -1,0 +1,465 @@
+/* report.c - `splitroi report`: the study page (charts, overlap, group table) and every subject page. */
+#include <dirent.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+#include <unistd.h>
+
+#include "../core/mem.h"
+#include "../io/table.h"
+#include "cmd.h"
+#include "cmdline.h"
+#include "report.h"
+
+static const cmdline_opt opts[] = {
+	{ "quiet", NULL, "no summary line" },
+	{ NULL, NULL, NULL },
+};
+enum { O_QUIET };
+
+static const cmdline_spec spec = {
+	"report", "OUT [options]",
+	"Writes OUT/report.html, one self-contained page (images embedded, no network\n"
+	"access) with the study's cross-validated responses per parcel and effect, the\n"
+	"measured tasks, fROI sizes and the overlap of the localizer's halves per\n"
+	"subject, and the group table; and OUT/sub-<label>/report.html per subject with\n"
+	"slices through each fROI, the localizer t maps, the design matrices and the\n"
+	"framewise displacement of every run. OUT is a folder written by 'analyze'.",
+	opts,
+};
+
+static int cmp_str(const void *a, const void *b)
+{
+	return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+/* Subject labels: sub-* folders of out holding a run record. */
+static char **subject_dirs(const char *out, size_t *n)
+{
+	DIR *d = opendir(out);
+	struct dirent *de;
+	char **v = NULL, path[8192];
+	struct stat sb;
+
+	*n = 0;
+	if (!d)
+		return NULL;
+	while ((de = readdir(d))) {
+		if (strncmp(de->d_name, "sub-", 4) || !de->d_name[4])
+			continue;
+		snprintf(path, sizeof path, "%s/%s/run.json", out, de->d_name);
+		if (stat(path, &sb) != 0)
+			continue;
+		v = xrealloc(v, (*n + 1) * sizeof *v);
+		v[(*n)++] = xstrdup(de->d_name + 4);
+	}
+	closedir(d);
+	if (*n)
+		qsort(v, *n, sizeof *v, cmp_str);
+	return v;
+}
+
+/* Index of s in v[0..n), or -1. */
+static long find(char **v, size_t n, const char *s)
+{
+	size_t i;
+
+	for (i = 0; i < n; i++)
+		if (strcmp(v[i], s) == 0)
+			return (long)i;
+	return -1;
+}
+
+static void add_unique(char ***v, size_t *n, const char *s)
+{
+	if (find(*v, *n, s) >= 0)
+		return;
+	*v = xrealloc(*v, (*n + 1) * sizeof **v);
+	(*v)[(*n)++] = xstrdup(s);
+}
+
+static void free_strs(char **v, size_t n)
+{
+	size_t i;
+
+	for (i = 0; i < n; i++)
+		free(v[i]);
+	free(v);
+}
+
+/* Prints a cell: numbers as %.4g (right aligned), text escaped. */
+static void cell(sbuf *b, const char *s)
+{
+	char *end;
+	double v = strtod(s, &end);
+
+	if (*s && !*end && isfinite(v)) {
+		sb_printf(b, "<td class=\"n\">%.4g</td>", v);
+	} else {
+		sb_puts(b, "<td>");
+		sb_esc(b, s);
+		sb_puts(b, "</td>");
+	}
+}
+
+typedef struct cols {
+	int subject, parcel, split, task, effect, value;
+} cols;
+
+/* Is row r one of this chart's rows: cross-validated (":mean") or a measured task ("all")? */
+static int row_kind(const table *t, const cols *c, size_t r, int measured)
+{
+	const char *sp = table_cell(t, r, (size_t)c->split);
+	size_t l = strlen(sp);
+
+	if (measured)
+		return strcmp(sp, "all") == 0;
+	return l > 5 && strcmp(sp + l - 5, ":mean") == 0;
+}
+
+/*
+ * One chart per (measure task, parcel): a bar per effect, mean and sem over
+ * subjects, subjects as dots; the numbers also go into the summary table.
+ */
+static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measured, char **subs,
+		   size_t nsub, int *uid)
+{
+	char **tasks = NULL, **parcels = NULL;
+	size_t nt = 0, np = 0, r, ti, pi;
+
+	for (r = 0; r < t->nrows; r++)
+		if (row_kind(t, c, r, measured)) {
+			add_unique(&tasks, &nt, table_cell(t, r, (size_t)c->task));
+			add_unique(&parcels, &np, table_cell(t, r, (size_t)c->parcel));
+		}
+	if (!nt)
+		sb_printf(b, "<p class=\"note\">No %s rows in responses.csv.</p>\n",
+			  measured ? "measured-task (split all)" : "cross-validated (split :mean)");
+	for (ti = 0; ti < nt; ti++) {
+		sb_puts(b, "<h3>Task ");
+		sb_esc(b, tasks[ti]);
+		sb_puts(b, measured ? " (fROIs defined on all localizer runs)" : " (held-out runs, mean over splits)");
+		sb_puts(b, "</h3>\n");
+		for (pi = 0; pi < np; pi++) {
+			char **effects = NULL, *split = NULL;
+			size_t ne = 0, ei, k;
+			rs_bar *bars;
+			double *dots;
+			char title[512];
+
+			for (r = 0; r < t->nrows; r++)
+				if (row_kind(t, c, r, measured) &&
+				    !strcmp(table_cell(t, r, (size_t)c->task), tasks[ti]) &&
+				    !strcmp(table_cell(t, r, (size_t)c->parcel), parcels[pi])) {
+					add_unique(&effects, &ne, table_cell(t, r, (size_t)c->effect));
+					if (!split)
+						split = xstrdup(table_cell(t, r, (size_t)c->split));
+				}
+			if (!ne)
+				continue;
+			bars = xcalloc(ne, sizeof *bars);
+			dots = xmalloc_array(ne * (nsub ? nsub : 1), sizeof *dots);
+			for (ei = 0; ei < ne; ei++) {
+				double s = 0, ss = 0;
+				size_t n = 0;
+
+				for (k = 0; k < nsub; k++)
+					dots[ei * nsub + k] = NAN;
+				for (r = 0; r < t->nrows; r++) {
+					long si;
+					char *end;
+					double v;
+
+					if (!row_kind(t, c, r, measured) ||
+					    strcmp(table_cell(t, r, (size_t)c->task), tasks[ti]) ||
+					    strcmp(table_cell(t, r, (size_t)c->parcel), parcels[pi]) ||
+					    strcmp(table_cell(t, r, (size_t)c->effect), effects[ei]))
+						continue;
+					si = find(subs, nsub, table_cell(t, r, (size_t)c->subject));
+					v = strtod(table_cell(t, r, (size_t)c->value), &end);
+					if (si < 0 || end == table_cell(t, r, (size_t)c->value) || !isfinite(v))
+						continue;
+					dots[ei * nsub + (size_t)si] = v;
+				}
+				for (k = 0; k < nsub; k++)
+					if (isfinite(dots[ei * nsub + k])) {
+						s += dots[ei * nsub + k];
+						n++;
+					}
+				bars[ei].label = effects[ei];
+				bars[ei].mean = n ? s / (double)n : NAN;
+				for (k = 0; k < nsub; k++)
+					if (isfinite(dots[ei * nsub + k]))
+						ss += (dots[ei * nsub + k] - bars[ei].mean) * (dots[ei * nsub + k] - bars[ei].mean);
+				/* standard error of the mean: sample sd (n - 1) over sqrt(n) */
+				bars[ei].sem = n > 1 ? sqrt(ss / (double)(n - 1)) / sqrt((double)n) : NAN;
+				bars[ei].dots = dots + ei * nsub;
+				bars[ei].ndots = nsub;
+				sb_puts(sum, "<tr><td>");
+				sb_esc(sum, parcels[pi]);
+				sb_puts(sum, "</td><td>");
+				sb_esc(sum, split);
+				sb_puts(sum, "</td><td>");
+				sb_esc(sum, tasks[ti]);
+				sb_puts(sum, "</td><td>");
+				sb_esc(sum, effects[ei]);
+				sb_printf(sum, "</td><td class=\"n\">%zu</td><td class=\"n\">", n);
+				sb_num(sum, bars[ei].mean);
+				sb_puts(sum, "</td><td class=\"n\">");
+				sb_num(sum, bars[ei].sem);
+				sb_puts(sum, "</td></tr>\n");
+			}
+			snprintf(title, sizeof title, "%s \xe2\x80\x94 %s, %s", parcels[pi], tasks[ti], split);
+			sb_puts(b, "<figure>\n");
+			rs_bars(b, ++*uid, title, "percent signal change", bars, ne);
+			sb_puts(b, "</figure>\n");
+			free(bars);
+			free(dots);
+			free(split);
+			free_strs(effects, ne);
+		}
+	}
+	free_strs(tasks, nt);
+	free_strs(parcels, np);
+}
+
+/*
+ * A CSV as an HTML table with the given id: the columns named in first
+ * (NULL-terminated) lead in that order, so the key numbers stay in view of a
+ * narrow window, then the others as in the file.
+ */
+static void table_html(sbuf *b, const table *t, const char *id, const char *const *first)
+{
+	size_t r, c, k, n = 0, *order = xmalloc_array(t->ncols ? t->ncols : 1, sizeof *order);
+	unsigned char *used = xcalloc(t->ncols ? t->ncols : 1, 1);
+
+	for (k = 0; first && first[k]; k++) {
+		int j = table_col(t, first[k]);
+
+		if (j >= 0 && !used[j]) {
+			order[n++] = (size_t)j;
+			used[j] = 1;
+		}
+	}
+	for (c = 0; c < t->ncols; c++)
+		if (!used[c])
+			order[n++] = c;
+	sb_printf(b, "<table id=\"%s\"><thead><tr>", id);
+	for (c = 0; c < n; c++) {
+		sb_puts(b, "<th>");
+		sb_esc(b, t->header[order[c]]);
+		sb_puts(b, "</th>");
+	}
+	sb_puts(b, "</tr></thead><tbody>\n");
+	for (r = 0; r < t->nrows; r++) {
+		sb_puts(b, "<tr>");
+		for (c = 0; c < n; c++)
+			cell(b, table_cell(t, r, order[c]));
+		sb_puts(b, "</tr>\n");
+	}
+	sb_puts(b, "</tbody></table>\n");
+	free(order);
+	free(used);
+}
+
+static void subjects_table(sbuf *b, const rsub *subs, size_t n)
+{
+	size_t i, k;
+
+	sb_puts(b, "<table id=\"subjects\"><thead><tr><th>subject</th><th>parcel</th><th>voxels, half A</th>"
+		   "<th>voxels, half B</th><th>Dice</th><th>runs with FD</th><th>runs flagged</th><th>check</th>"
+		   "</tr></thead><tbody>\n");
+	for (i = 0; i < n; i++) {
+		const rsub *s = &subs[i];
+
+		for (k = 0; k < s->nparcels; k++) {
+			const rsub_parcel *p = &s->parcels[k];
+			int bad = !(p->dice >= 0.2) || p->size_a == 0 || p->size_b == 0;
+
+			sb_printf(b, "<tr%s><td><a href=\"sub-", bad ? " class=\"flag\"" : "");
+			sb_esc(b, s->label);
+			sb_puts(b, "/report.html\">sub-");
+			sb_esc(b, s->label);
+			sb_puts(b, "</a></td><td>");
+			sb_esc(b, p->name);
+			sb_puts(b, "</td><td class=\"n\">");
+			sb_num(b, p->size_a);
+			sb_puts(b, "</td><td class=\"n\">");
+			sb_num(b, p->size_b);
+			sb_puts(b, "</td><td class=\"n\">");
+			if (isfinite(p->dice))
+				sb_printf(b, "%.3f", p->dice);
+			else
+				sb_puts(b, "&ndash;");
+			sb_printf(b, "</td><td class=\"n\">%zu</td><td class=\"n\">%zu</td><td>%s%s</td></tr>\n",
+				  s->nruns_fd, s->nruns_flagged,
+				  bad ? "<span class=\"flag\">&#9873; overlap outlier</span>" : "ok",
+				  s->nruns_flagged ? " <span class=\"flag\">&#9873; motion</span>" : "");
+		}
+	}
+	sb_puts(b, "</tbody></table>\n");
+}
+
+int report_write(const char *out, int quiet)
+{
+	char **labels, path[8192];
+	size_t nsub, i, nok = 0;
+	rsub *subs;
+	table resp, group;
+	int have_resp, have_group, uid = 0, rc = 0;
+	cols c;
+	sbuf b, sum;
+	sr_err e;
+
+	labels = subject_dirs(out, &nsub);
+	snprintf(path, sizeof path, "%s/responses.csv", out);
+	sr_err_init(&e, NULL, NULL);
+	have_resp = table_read(path, ',', &resp, &e) == SR_OK;
+	if (!have_resp && !nsub) {
+		fprintf(stderr, "splitroi report: %s holds no results (no responses.csv, no sub-*/run.json)\n", out);
+		free_strs(labels, nsub);
+		return 1;
+	}
+	if (!have_resp)
+		fprintf(stderr, "splitroi report: %s\n", e.msg);
+	subs = xcalloc(nsub ? nsub : 1, sizeof *subs);
+	for (i = 0; i < nsub; i++) {
+		sr_err_init(&e, NULL, NULL);
+		if (rsub_page(out, labels[i], &subs[i], &e)) {
+			fprintf(stderr, "splitroi report: sub-%s: %s\n", labels[i], e.msg);
+			/* a page left from an earlier run would show results that are no longer there */
+			snprintf(path, sizeof path, "%s/sub-%s/report.html", out, labels[i]);
+			unlink(path);
+			rc = 1;
+		} else {
+			nok++;
+		}
+	}
+	snprintf(path, sizeof path, "%s/group.csv", out);
+	sr_err_init(&e, NULL, NULL);
+	have_group = table_read(path, ',', &group, NULL) == SR_OK;
+
+	sb_init(&b);
+	sb_init(&sum);
+	rh_begin(&b, "Study report", out, NULL, NULL);
+	sb_puts(&b, "<nav class=\"toc\"><a href=\"#cv\">cross-validated responses</a> &middot; "
+		    "<a href=\"#measured\">measured tasks</a> &middot; <a href=\"#overlap\">fROI sizes and overlap</a> &middot; "
+		    "<a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
+	for (i = 0; i < nsub; i++) {
+		if (!subs[i].ok) {
+			/* no link to a page that was not written (or is stale) */
+			sb_puts(&b, " sub-");
+			sb_esc(&b, labels[i]);
+			sb_puts(&b, " <span class=\"flag\">(no page: see the command's messages)</span>");
+			continue;
+		}
+		sb_puts(&b, " <a href=\"sub-");
+		sb_esc(&b, labels[i]);
+		sb_puts(&b, "/report.html\">sub-");
+		sb_esc(&b, labels[i]);
+		sb_puts(&b, "</a>");
+	}
+	sb_puts(&b, "</nav>\n");
+	sb_puts(&sum, "<table id=\"summary\"><thead><tr><th>parcel</th><th>split</th><th>measure_task</th>"
+		      "<th>effect</th><th>n</th><th>mean</th><th>sem</th></tr></thead><tbody>\n");
+	if (have_resp) {
+		c.subject = table_col(&resp, "subject");
+		c.parcel = table_col(&resp, "parcel");
+		c.split = table_col(&resp, "split");
+		c.task = table_col(&resp, "measure_task");
+		c.effect = table_col(&resp, "effect");
+		c.value = table_col(&resp, "value");
+		if (c.subject < 0 || c.parcel < 0 || c.split < 0 || c.task < 0 || c.effect < 0 || c.value < 0) {
+			fprintf(stderr, "splitroi report: %s: missing columns (need subject, parcel, split, measure_task, effect, value)\n",
+				resp.path);
+			table_release(&resp);
+			have_resp = 0;
+			rc = 1;
+		}
+	}
+	sb_puts(&b, "<h2 id=\"cv\">Cross-validated responses</h2>\n<p class=\"note\">fROIs defined on one part of the localizer runs, "
+		    "responses measured in the others, averaged over the splits. Bars: mean over subjects; whiskers: &#177;1 standard "
+		    "error of the mean; circles: one per subject, in subject order from left to right.</p>\n");
+	if (have_resp) {
+		char **sl = NULL;
+		size_t ns = 0, r;
+
+		for (r = 0; r < resp.nrows; r++)
+			add_unique(&sl, &ns, table_cell(&resp, r, (size_t)c.subject));
+		qsort(sl, ns, sizeof *sl, cmp_str);
+		charts(&b, &sum, &resp, &c, 0, sl, ns, &uid);
+		sb_puts(&b, "<h2 id=\"measured\">Measured tasks</h2>\n<p class=\"note\">fROIs defined on all localizer runs, "
+			    "responses in the other task's runs (split all).</p>\n");
+		charts(&b, &sum, &resp, &c, 1, sl, ns, &uid);
+		free_strs(sl, ns);
+	}
+	sb_puts(&sum, "</tbody></table>\n");
+	sb_puts(&b, "<h2 id=\"overlap\">fROI sizes and overlap of the halves</h2>\n<p class=\"note\">Dice = 2|A&cap;B| / (|A| + |B|) "
+		    "of the fROIs defined on the two halves of the localizer runs (leave-one-out: the mean over all pairs of folds, "
+		    "sizes the mean over folds). Outlier rule: Dice below 0.2, or an empty fROI in either half. A run is flagged for "
+		    "motion when its mean framewise displacement exceeds the study's fd_threshold.</p>\n");
+	subjects_table(&b, subs, nsub);
+	sb_puts(&b, "<h2 id=\"group-h\">Group table</h2>\n");
+	if (have_group) {
+		sb_puts(&b, "<p class=\"note\">From group.csv: one-sample tests over subjects; q_fdr is the Benjamini&ndash;Hochberg "
+			    "adjusted p value.</p>\n");
+		sb_puts(&b, "<div class=\"wide\">");
+		static const char *const lead[] = { "parcel", "split", "measure_task", "effect", "n", "mean",
+						    "sem", "t", "df", "p", "q_fdr", "cohen_d", NULL };
+
+		table_html(&b, &group, "group", lead);
+		sb_puts(&b, "</div>\n");
+		table_release(&group);
+	} else {
+		sb_puts(&b, "<p class=\"note\">No group.csv in this folder (run the group step).</p>\n");
+	}
+	sb_puts(&b, "<h2 id=\"summary-h\">Chart values</h2>\n<p class=\"note\">The numbers behind the bars above, computed "
+		    "here from responses.csv.</p>\n");
+	sb_puts(&b, sum.p);
+	rh_end(&b);
+	snprintf(path, sizeof path, "%s/report.html", out);
+	sr_err_init(&e, NULL, NULL);
+	if (rh_write(path, &b, &e)) {
+		fprintf(stderr, "splitroi report: %s\n", e.msg);
+		rc = 1;
+	} else if (!quiet) {
+		printf("report: %s (%zu of %zu subject pages)\n", path, nok, nsub);
+	}
+	sb_release(&b);
+	sb_release(&sum);
+	if (have_resp)
+		table_release(&resp);
+	for (i = 0; i < nsub; i++)
+		rsub_release(&subs[i]);
+	free(subs);
+	free_strs(labels, nsub);
+	return rc;
+}
+
+int cmd_report(int argc, char **argv)
+{
+	const char *val[2], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	int npos, rc;
+	struct stat sb;
+
+	rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
+	if (rc) {
+		free(pos);
+		return rc == 1 ? 0 : 2;
+	}
+	if (npos != 1) {
+		cmdline_error("report", npos ? "give one results folder" : "which results? usage: splitroi report OUT");
+		free(pos);
+		return 2;
+	}
+	if (stat(pos[0], &sb) != 0 || !S_ISDIR(sb.st_mode)) {
+		cmdline_error("report", "%s: not a folder", pos[0]);
+		free(pos);
+		return 1;
+	}
+	rc = report_write(pos[0], val[O_QUIET] != NULL);
+	free(pos);
+	return rc;
+}

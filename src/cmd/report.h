@@ -1,0 +1,86 @@
+/* report.h - the HTML report of a study's results: shared between report*.c and analyze. */
+#ifndef SR_REPORT_H
+#define SR_REPORT_H
+
+#include <stddef.h>
+
+#include "../core/err.h"
+
+/*
+ * Writes OUT/report.html and OUT/sub-<label>/report.html for every subject
+ * folder with a run record. Prints problems on stderr (prefix "splitroi
+ * report:"), a summary line on stdout unless quiet. Returns 0, or 1 when a
+ * page could not be written or OUT holds no results.
+ */
+int report_write(const char *out, int quiet);
+
+/* ---- report_html.c: a growing text buffer and the page frame ---- */
+
+typedef struct sbuf {
+	char *p;
+	size_t n, cap;
+} sbuf;
+
+void sb_init(sbuf *b);
+void sb_release(sbuf *b);
+void sb_puts(sbuf *b, const char *s);
+void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+/* Appends s with &, <, >, " and ' escaped (safe in text and attribute values). */
+void sb_esc(sbuf *b, const char *s);
+/* Appends "data:image/png;base64,..." for n bytes of PNG data. */
+void sb_data_uri(sbuf *b, const unsigned char *png, size_t n);
+/* Appends a number as %.4g, or an en dash for NaN. */
+void sb_num(sbuf *b, double v);
+
+/* Opens a page: doctype, title, the embedded style sheet, header with a back link (NULL for none). */
+void rh_begin(sbuf *b, const char *title, const char *subtitle, const char *back_href,
+	      const char *back_text);
+void rh_end(sbuf *b);
+/* Writes the buffer to path atomically. */
+sr_status rh_write(const char *path, const sbuf *b, sr_err *e);
+
+/* ---- report_svg.c: charts as inline SVG (self-contained, patterns as well as hues) ---- */
+
+/* One bar: mean and standard error over subjects, and each subject's value as a dot. */
+typedef struct rs_bar {
+	const char *label;
+	double mean, sem;
+	const double *dots;
+	size_t ndots;
+} rs_bar;
+
+/* A bar chart with error bars (mean +- sem) and dots; id keeps pattern ids unique in a page. */
+void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars,
+	     size_t n);
+/* Framewise displacement per volume against time, with the threshold line. */
+void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double threshold);
+/* A horizontal colour bar for viridis from lo to hi with labelled ticks. */
+void rs_colorbar(sbuf *b, int id, double lo, double hi, const char *label);
+/* A design matrix image (PNG, w x h pixels shown at that size) with rotated column labels. */
+void rs_design(sbuf *b, const unsigned char *png, size_t npng, int w, int h, int colw,
+	       char **names, size_t ncols, size_t nrows, double tr);
+
+/* ---- report_sub.c: one subject's page ---- */
+
+/* A subject's overlap and motion summary for the study page. */
+typedef struct rsub_parcel {
+	char *name;
+	int index;
+	double size_a, size_b;   /* fROI voxels in the two halves (mean over folds for leave-one-out) */
+	double dice;             /* NaN when both are empty */
+} rsub_parcel;
+
+typedef struct rsub {
+	char *label;
+	rsub_parcel *parcels;
+	size_t nparcels;
+	size_t nruns_fd, nruns_flagged;
+	char *split_kind;        /* "odd-even" or "leave-one-out" */
+	int ok;                  /* page written */
+} rsub;
+
+/* Writes OUT/sub-<label>/report.html and fills s. Problems go to e (returns nonzero). */
+sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e);
+void rsub_release(rsub *s);
+
+#endif

@@ -1,0 +1,201 @@
+/* report_html.c - text buffer, escaping, base64 data URIs and the page frame of the HTML report. */
+#include <math.h>
+#include <stdarg.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../core/mem.h"
+#include "../io/afile.h"
+#include "report.h"
+
+void sb_init(sbuf *b)
+{
+	b->cap = 4096;
+	b->p = xmalloc(b->cap);
+	b->p[0] = 0;
+	b->n = 0;
+}
+
+void sb_release(sbuf *b)
+{
+	free(b->p);
+	memset(b, 0, sizeof *b);
+}
+
+static void sb_room(sbuf *b, size_t more)
+{
+	if (b->n + more + 1 <= b->cap)
+		return;
+	while (b->n + more + 1 > b->cap)
+		b->cap *= 2;
+	b->p = xrealloc(b->p, b->cap);
+}
+
+void sb_puts(sbuf *b, const char *s)
+{
+	size_t k = strlen(s);
+
+	sb_room(b, k);
+	memcpy(b->p + b->n, s, k + 1);
+	b->n += k;
+}
+
+void sb_printf(sbuf *b, const char *fmt, ...)
+{
+	va_list ap;
+	int k;
+
+	va_start(ap, fmt);
+	k = vsnprintf(b->p + b->n, b->cap - b->n, fmt, ap);
+	va_end(ap);
+	if (k < 0)
+		return;
+	if ((size_t)k >= b->cap - b->n) {
+		sb_room(b, (size_t)k);
+		va_start(ap, fmt);
+		vsnprintf(b->p + b->n, b->cap - b->n, fmt, ap);
+		va_end(ap);
+	}
+	b->n += (size_t)k;
+}
+
+void sb_esc(sbuf *b, const char *s)
+{
+	for (; s && *s; s++)
+		switch (*s) {
+		case '&': sb_puts(b, "&amp;"); break;
+		case '<': sb_puts(b, "&lt;"); break;
+		case '>': sb_puts(b, "&gt;"); break;
+		case '"': sb_puts(b, "&quot;"); break;
+		case '\'': sb_puts(b, "&#39;"); break;
+		default:
+			sb_room(b, 1);
+			b->p[b->n++] = *s;
+			b->p[b->n] = 0;
+		}
+}
+
+/* RFC 4648 base64, padded. */
+void sb_data_uri(sbuf *b, const unsigned char *d, size_t n)
+{
+	static const char al[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
+	size_t i;
+	char *o;
+
+	sb_puts(b, "data:image/png;base64,");
+	sb_room(b, (n + 2) / 3 * 4);
+	o = b->p + b->n;
+	for (i = 0; i + 2 < n; i += 3) {
+		unsigned v = (unsigned)d[i] << 16 | (unsigned)d[i + 1] << 8 | d[i + 2];
+
+		*o++ = al[v >> 18 & 63];
+		*o++ = al[v >> 12 & 63];
+		*o++ = al[v >> 6 & 63];
+		*o++ = al[v & 63];
+	}
+	if (i < n) {
+		unsigned v = (unsigned)d[i] << 16 | (i + 1 < n ? (unsigned)d[i + 1] << 8 : 0);
+
+		*o++ = al[v >> 18 & 63];
+		*o++ = al[v >> 12 & 63];
+		*o++ = i + 1 < n ? al[v >> 6 & 63] : '=';
+		*o++ = '=';
+	}
+	*o = 0;
+	b->n = (size_t)(o - b->p);
+}
+
+void sb_num(sbuf *b, double v)
+{
+	if (isnan(v))
+		sb_puts(b, "&ndash;");
+	else
+		sb_printf(b, "%.4g", v);
+}
+
+/*
+ * The style sheet: warm paper, ink-dark text, one accent; figures and tables
+ * carry labels and patterns so a gray-scale print reads the same.
+ */
+static const char css[] =
+	":root{--ink:#1d232b;--soft:#5b6470;--rule:#d9d4c7;--paper:#fbfaf6;--card:#ffffff;"
+	"--accent:#8a3b12;--warn:#9b1c1c}\n"
+	"*{box-sizing:border-box}\n"
+	"body{margin:0;background:var(--paper);color:var(--ink);"
+	"font:15px/1.5 \"Iowan Old Style\",\"Palatino Linotype\",Palatino,Georgia,serif}\n"
+	"header.top{padding:28px 40px 18px;border-bottom:3px double var(--ink)}\n"
+	"header.top h1{margin:0;font-size:26px;letter-spacing:.02em;font-weight:600}\n"
+	"header.top p{margin:4px 0 0;color:var(--soft)}\n"
+	"header.top a.back{font:13px/1 system-ui,sans-serif;color:var(--accent)}\n"
+	"main{padding:8px 40px 40px;max-width:1180px}\n"
+	"h2{font-size:19px;margin:30px 0 8px;padding-bottom:3px;border-bottom:1px solid var(--rule)}\n"
+	"h3{font-size:16px;margin:20px 0 6px}\n"
+	"p.note,figcaption,.small{color:var(--soft);font-size:13px}\n"
+	"figure{margin:10px 0 18px;display:inline-block;vertical-align:top;background:var(--card);"
+	"border:1px solid var(--rule);padding:10px 12px;break-inside:avoid}\n"
+	"figure img{image-rendering:pixelated;display:block}\n"
+	".strip{display:flex;flex-wrap:wrap;gap:6px;align-items:flex-end}\n"
+	".strip div{font:12px/1.3 system-ui,sans-serif;text-align:center}\n"
+	"table{border-collapse:collapse;margin:8px 0 18px;font:13px/1.35 system-ui,sans-serif;"
+	"background:var(--card)}\n"
+	"th,td{padding:3px 9px;border-bottom:1px solid var(--rule);text-align:left;white-space:nowrap}\n"
+	"div.wide{overflow-x:auto;max-width:100%}\n"
+	"th{border-bottom:2px solid var(--ink);font-weight:600}\n"
+	"td.n{text-align:right;font-variant-numeric:tabular-nums}\n"
+	"tr.flag td{background:#f7e9e4}\n"
+	"span.flag{color:var(--warn);font-weight:700}\n"
+	"nav.toc{font:13px/1.6 system-ui,sans-serif}\n"
+	"nav.toc a,main a{color:var(--accent)}\n"
+	"svg text{font-family:system-ui,sans-serif;fill:var(--ink)}\n"
+	"@media print{body{background:#fff;font-size:10pt}header.top{padding:0 0 8px}"
+	"main{padding:0;max-width:none}a{color:inherit;text-decoration:none}"
+	"a.back,nav.toc{display:none}figure{border:0;padding:0}h2{break-after:avoid}"
+	"table{font-size:8.5pt}tr{break-inside:avoid}div.wide{overflow:visible}th,td{white-space:normal}}\n";
+
+void rh_begin(sbuf *b, const char *title, const char *subtitle, const char *back_href,
+	      const char *back_text)
+{
+	sb_puts(b, "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+		   "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>");
+	sb_esc(b, title);
+	sb_puts(b, "</title>\n<style>\n");
+	sb_puts(b, css);
+	sb_puts(b, "</style>\n</head>\n<body>\n<header class=\"top\">\n");
+	if (back_href) {
+		sb_puts(b, "<a class=\"back\" href=\"");
+		sb_esc(b, back_href);
+		sb_puts(b, "\">&larr; ");
+		sb_esc(b, back_text);
+		sb_puts(b, "</a>\n");
+	}
+	sb_puts(b, "<h1>");
+	sb_esc(b, title);
+	sb_puts(b, "</h1>\n");
+	if (subtitle) {
+		sb_puts(b, "<p>");
+		sb_esc(b, subtitle);
+		sb_puts(b, "</p>\n");
+	}
+	sb_puts(b, "</header>\n<main>\n");
+}
+
+void rh_end(sbuf *b)
+{
+	sb_puts(b, "<p class=\"note\">Written by splitroi report. Research software: check every result "
+		   "against the data before relying on it.</p>\n</main>\n</body>\n</html>\n");
+}
+
+sr_status rh_write(const char *path, const sbuf *b, sr_err *e)
+{
+	afile a;
+	sr_status rc = afile_open(&a, path, e);
+
+	if (rc)
+		return rc;
+	if (fwrite(b->p, 1, b->n, a.f) != b->n) {
+		afile_abort(&a);
+		return sr_fail(e, SR_EIO, "%s: write failed", path);
+	}
+	return afile_commit(&a, e);
+}

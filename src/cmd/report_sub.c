@@ -1,0 +1,807 @@
+/* report_sub.c - one subject's report page: fROI slices, t maps, overlap, design matrices, motion. */
+#include <dirent.h>
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../core/mem.h"
+#include "../core/qc.h"
+#include "../io/nii.h"
+#include "../io/png.h"
+#include "../io/runrec.h"
+#include "../io/table.h"
+#include "report.h"
+
+enum { NSLICES = 3, SLICE_PX = 180 };
+
+/* A label map held in memory (fROIs of one split). */
+typedef struct lmap {
+	char *token;            /* e.g. "odd-even-A", "all-memory" */
+	int32_t *lab;
+	double *t;              /* localizer t on the same grid, NULL when absent */
+} lmap;
+
+typedef struct page {
+	const char *out, *label;
+	char dir[4096];
+	runrec rec;
+	nii_grid g;
+	size_t nx, ny, nz, nvox;
+	double *bold;           /* mean functional image, NULL when absent */
+	int32_t *parcels;       /* parcel image on the data grid, NULL when absent or elsewhere */
+	lmap *maps;
+	size_t nmaps, ndefine;  /* the first ndefine maps are the localizer's splits */
+	int *pidx;
+	char **pname;
+	size_t np;
+	int uid;                /* unique ids within the page */
+} page;
+
+static int cmp_str(const void *a, const void *b)
+{
+	return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+/* Sorted names in dir starting with prefix and ending with suffix (the middle part returned). */
+static char **list_dir(const char *dir, const char *prefix, const char *suffix, size_t *n)
+{
+	DIR *d = opendir(dir);
+	struct dirent *de;
+	char **v = NULL;
+	size_t lp = strlen(prefix), ls = strlen(suffix);
+
+	*n = 0;
+	if (!d)
+		return NULL;
+	while ((de = readdir(d))) {
+		size_t l = strlen(de->d_name);
+
+		if (l <= lp + ls || strncmp(de->d_name, prefix, lp) || strcmp(de->d_name + l - ls, suffix))
+			continue;
+		v = xrealloc(v, (*n + 1) * sizeof *v);
+		v[*n] = xmalloc(l - lp - ls + 1);
+		memcpy(v[*n], de->d_name + lp, l - lp - ls);
+		v[*n][l - lp - ls] = 0;
+		(*n)++;
+	}
+	closedir(d);
+	if (*n)
+		qsort(v, *n, sizeof *v, cmp_str);
+	return v;
+}
+
+static void free_list(char **v, size_t n)
+{
+	size_t i;
+
+	for (i = 0; i < n; i++)
+		free(v[i]);
+	free(v);
+}
+
+/* Reads a 3-D image on the page's grid; NULL (with a note in e) when missing or elsewhere. */
+static double *read_on_grid(page *pg, const char *path, sr_err *e)
+{
+	nii_info in;
+	double *d;
+
+	if (nii_read_3d(path, &in, &d, e))
+		return NULL;
+	if (!nii_same_grid(&in.grid, &pg->g, 1e-3, NULL, 0)) {
+		free(d);
+		sr_fail(e, SR_EDIM, "%s: not on the grid of the mean functional image", path);
+		return NULL;
+	}
+	return d;
+}
+
+static int32_t *to_labels(const double *d, size_t n)
+{
+	int32_t *l = xmalloc_array(n, sizeof *l);
+	size_t v;
+
+	for (v = 0; v < n; v++)
+		l[v] = isfinite(d[v]) ? (int32_t)lround(d[v]) : 0;
+	return l;
+}
+
+/* Directory of a path ("." when none), malloc'ed. */
+static char *dirname_of(const char *p)
+{
+	const char *s = strrchr(p, '/');
+	char *d;
+
+	if (!s)
+		return xstrdup(".");
+	d = xmalloc((size_t)(s - p) + 1);
+	memcpy(d, p, (size_t)(s - p));
+	d[s - p] = 0;
+	return d;
+}
+
+/* Parcel indices and names: the names table of the study when readable, else the labels found. */
+static void load_parcels(page *pg)
+{
+	char *names = runrec_ini_get(pg->rec.study_text, "parcels", "names");
+	size_t i, v, k;
+
+	if (names && pg->rec.study_file) {
+		char *base = dirname_of(pg->rec.study_file), path[8192];
+		table t;
+
+		if (names[0] == '/')
+			snprintf(path, sizeof path, "%s", names);
+		else
+			snprintf(path, sizeof path, "%s/%s", base, names);
+		free(base);
+		if (!table_read(path, 0, &t, NULL)) {
+			int ci = table_col(&t, "index"), cn = table_col(&t, "name");
+
+			for (i = 0; ci >= 0 && cn >= 0 && i < t.nrows; i++) {
+				pg->pidx = xrealloc(pg->pidx, (pg->np + 1) * sizeof *pg->pidx);
+				pg->pname = xrealloc(pg->pname, (pg->np + 1) * sizeof *pg->pname);
+				pg->pidx[pg->np] = atoi(table_cell(&t, i, (size_t)ci));
+				pg->pname[pg->np++] = xstrdup(table_cell(&t, i, (size_t)cn));
+			}
+			table_release(&t);
+		}
+	}
+	free(names);
+	if (pg->np)
+		return;
+	/* no table: the labels of the fROI maps, named by number as the tables do */
+	for (k = 0; k < pg->nmaps; k++)
+		for (v = 0; v < pg->nvox; v++) {
+			int32_t l = pg->maps[k].lab[v];
+
+			if (l <= 0)
+				continue;
+			for (i = 0; i < pg->np && pg->pidx[i] != l; i++)
+				;
+			if (i < pg->np)
+				continue;
+			pg->pidx = xrealloc(pg->pidx, (pg->np + 1) * sizeof *pg->pidx);
+			pg->pname = xrealloc(pg->pname, (pg->np + 1) * sizeof *pg->pname);
+			pg->pidx[pg->np] = l;
+			pg->pname[pg->np] = xmalloc(16);
+			snprintf(pg->pname[pg->np++], 16, "%d", (int)l);
+		}
+}
+
+/* Loads the fROI and t maps: the localizer's splits first, then all-<task>. */
+static void load_maps(page *pg, sr_err *e)
+{
+	char mdir[4200], path[8400];
+	char **tok;
+	size_t n, i, pass;
+
+	snprintf(mdir, sizeof mdir, "%s/maps", pg->dir);
+	tok = list_dir(mdir, "froi_", ".nii.gz", &n);
+	for (pass = 0; pass < 2; pass++)
+		for (i = 0; i < n; i++) {
+			int is_all = strncmp(tok[i], "all-", 4) == 0;
+			double *d;
+			lmap *m;
+
+			if (is_all != (int)pass)
+				continue;
+			snprintf(path, sizeof path, "%s/froi_%s.nii.gz", mdir, tok[i]);
+			d = read_on_grid(pg, path, e);
+			if (!d)
+				continue;
+			pg->maps = xrealloc(pg->maps, (pg->nmaps + 1) * sizeof *pg->maps);
+			m = &pg->maps[pg->nmaps++];
+			m->token = xstrdup(tok[i]);
+			m->lab = to_labels(d, pg->nvox);
+			free(d);
+			snprintf(path, sizeof path, "%s/localizer-t_%s.nii.gz", mdir, tok[i]);
+			m->t = read_on_grid(pg, path, e);
+			if (!is_all)
+				pg->ndefine = pg->nmaps;
+		}
+	free_list(tok, n);
+}
+
+/* Upscaled RGB rendering of slice k: gray background, then overlays chosen by mode. */
+enum { DRAW_FROI, DRAW_T };
+
+static int scale_for(size_t nx, size_t ny)
+{
+	size_t m = nx > ny ? nx : ny;
+	int s = (int)lround((double)SLICE_PX / (double)(m ? m : 1));
+
+	return s < 1 ? 1 : s > 12 ? 12 : s;
+}
+
+static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label, int mode,
+		       double tlo, double thi, double glo, double ghi)
+{
+	int s = scale_for(pg->nx, pg->ny);
+	int W = (int)pg->nx * s, H = (int)pg->ny * s, X, Y;
+	unsigned char *px = xmalloc_array((size_t)W * (size_t)H, 3), *png;
+	size_t npng, base = k * pg->nx * pg->ny;
+	sr_err e;
+
+	for (Y = 0; Y < H; Y++)
+		for (X = 0; X < W; X++) {
+			/* rows drawn top-down with y increasing upwards (anterior at the top for RAS data) */
+			size_t i = (size_t)(X / s), j = pg->ny - 1 - (size_t)(Y / s), v = base + j * pg->nx + i;
+			unsigned char *o = px + 3 * ((size_t)Y * (size_t)W + (size_t)X);
+			double g = pg->bold ? pg->bold[v] : 0;
+			int in_f = m->lab[v] == label, c, edge_p = 0, edge_f = 0, dx, dy;
+
+			g = ghi > glo ? (g - glo) / (ghi - glo) : 0.5;
+			g = g < 0 ? 0 : g > 1 ? 1 : g;
+			o[0] = o[1] = o[2] = (unsigned char)lround(40 + 200 * g);
+			/* outline pixels: a neighbouring pixel lies in a voxel outside the region */
+			for (dy = -1; dy <= 1; dy++)
+				for (dx = -1; dx <= 1; dx++) {
+					int X2 = X + dx, Y2 = Y + dy;
+					size_t v2;
+
+					if ((dx && dy) || (!dx && !dy))
+						continue;
+					if (X2 < 0 || Y2 < 0 || X2 >= W || Y2 >= H) {
+						v2 = (size_t)-1;
+					} else {
+						size_t i2 = (size_t)(X2 / s), j2 = pg->ny - 1 - (size_t)(Y2 / s);
+
+						v2 = base + j2 * pg->nx + i2;
+					}
+					if (pg->parcels && pg->parcels[v] == label &&
+					    (v2 == (size_t)-1 || pg->parcels[v2] != label))
+						edge_p = 1;
+					if (in_f && (v2 == (size_t)-1 || m->lab[v2] != label))
+						edge_f = 1;
+				}
+			if (mode == DRAW_T && m->t && isfinite(m->t[v]) && m->t[v] != 0) {
+				unsigned char rgb[3];
+
+				qc_viridis(thi > tlo ? (m->t[v] - tlo) / (thi - tlo) : 0.5, rgb);
+				for (c = 0; c < 3; c++)
+					o[c] = rgb[c];
+			}
+			if (mode == DRAW_FROI && in_f) {
+				/* hatching as well as a hue, so the fROI reads in gray too */
+				int dark = (X + Y) % 4 == 0;
+
+				o[0] = dark ? 0x3a : 0xe0;
+				o[1] = dark ? 0x12 : 0x6a;
+				o[2] = dark ? 0x00 : 0x1a;
+			}
+			if (mode == DRAW_T && edge_f)
+				o[0] = o[1] = o[2] = 255;
+			if (edge_p) {
+				/* parcel outline: dashed white/black */
+				int on = ((X + Y) / 2) % 2;
+
+				o[0] = o[1] = o[2] = on ? 255 : 0;
+			}
+		}
+	sr_err_init(&e, NULL, NULL);
+	if (srpng_encode(px, W, H, 3, &png, &npng, &e) == SR_OK) {
+		sb_printf(b, "<div><img width=\"%d\" height=\"%d\" alt=\"slice z=%zu\" src=\"", W, H, k);
+		sb_data_uri(b, png, npng);
+		sb_printf(b, "\"><br>z = %zu</div>\n", k);
+		free(png);
+	}
+	free(px);
+}
+
+/* The t range shared by all of the subject's t panels: 1st to 99th percentile of finite values. */
+static void t_range(const page *pg, double *lo, double *hi)
+{
+	size_t k, v, n = 0;
+	double *all = xmalloc_array(pg->nmaps * pg->nvox + 1, sizeof *all), a, bq;
+
+	for (k = 0; k < pg->nmaps; k++)
+		for (v = 0; pg->maps[k].t && v < pg->nvox; v++)
+			if (isfinite(pg->maps[k].t[v]))
+				all[n++] = pg->maps[k].t[v];
+	qc_window(all, n, 0.01, 0.99, &a, &bq);
+	free(all);
+	*lo = a;
+	*hi = bq;
+}
+
+static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi, double glo,
+			   double ghi)
+{
+	int32_t label = pg->pidx[pi];
+	int32_t *uni = xcalloc(pg->nvox ? pg->nvox : 1, sizeof *uni);
+	size_t sl[NSLICES], ns, k, v, j;
+
+	for (k = 0; k < pg->nmaps; k++)
+		for (v = 0; v < pg->nvox; v++)
+			if (pg->maps[k].lab[v] == label)
+				uni[v] = label;
+	ns = qc_pick_slices(uni, pg->nx, pg->ny, pg->nz, label, NSLICES, sl);
+	free(uni);
+	sb_puts(b, "<h3 id=\"parcel-");
+	sb_printf(b, "%d\">Parcel ", (int)label);
+	sb_esc(b, pg->pname[pi]);
+	sb_puts(b, "</h3>\n");
+	if (!ns) {
+		sb_puts(b, "<p class=\"note\">No fROI voxels in any split.</p>\n");
+		return;
+	}
+	for (k = 0; k < pg->nmaps; k++) {
+		size_t cnt = 0;
+
+		for (v = 0; v < pg->nvox; v++)
+			cnt += pg->maps[k].lab[v] == label;
+		sb_puts(b, "<figure><figcaption><b>");
+		sb_esc(b, pg->maps[k].token);
+		sb_printf(b, "</b>: fROI (hatched), %zu voxels; parcel outline dashed</figcaption>\n<div class=\"strip\">\n", cnt);
+		for (j = 0; j < ns; j++)
+			emit_slice(pg, b, sl[j], &pg->maps[k], label, DRAW_FROI, tlo, thi, glo, ghi);
+		sb_puts(b, "</div></figure>\n");
+		if (pg->maps[k].t) {
+			sb_puts(b, "<figure><figcaption><b>");
+			sb_esc(b, pg->maps[k].token);
+			sb_puts(b, "</b>: localizer t (fROI outlined white)</figcaption>\n<div class=\"strip\">\n");
+			for (j = 0; j < ns; j++)
+				emit_slice(pg, b, sl[j], &pg->maps[k], label, DRAW_T, tlo, thi, glo, ghi);
+			sb_puts(b, "</div></figure>\n");
+		}
+	}
+}
+
+/* Sizes per split and the overlap of the two halves (mean over fold pairs for leave-one-out). */
+static void overlap(page *pg, rsub *s, sbuf *b)
+{
+	size_t pi, k, q;
+
+	s->parcels = xcalloc(pg->np ? pg->np : 1, sizeof *s->parcels);
+	s->nparcels = pg->np;
+	sb_puts(b, "<table id=\"overlap\"><thead><tr><th>parcel</th>");
+	for (k = 0; k < pg->nmaps; k++) {
+		sb_puts(b, "<th>voxels ");
+		sb_esc(b, pg->maps[k].token);
+		sb_puts(b, "</th>");
+	}
+	sb_puts(b, "<th>Dice</th><th>check</th></tr></thead><tbody>\n");
+	for (pi = 0; pi < pg->np; pi++) {
+		rsub_parcel *rp = &s->parcels[pi];
+		double dsum = 0, sa = 0, sbsz = 0;
+		size_t npair = 0;
+		int bad;
+
+		rp->name = xstrdup(pg->pname[pi]);
+		rp->index = pg->pidx[pi];
+		for (k = 0; k < pg->ndefine; k++)
+			for (q = k + 1; q < pg->ndefine; q++) {
+				size_t na, nb;
+				double d = qc_dice(pg->maps[k].lab, pg->maps[q].lab, pg->nvox, rp->index, &na, &nb, NULL);
+
+				if (isfinite(d)) {
+					dsum += d;
+					npair++;
+				}
+			}
+		for (k = 0; k < pg->ndefine; k++) {
+			size_t v, c = 0;
+
+			for (v = 0; v < pg->nvox; v++)
+				c += pg->maps[k].lab[v] == rp->index;
+			if (k % 2 == 0 || pg->ndefine != 2)
+				sa += (double)c;
+			else
+				sbsz += (double)c;
+		}
+		if (pg->ndefine == 2) {
+			rp->size_a = sa;
+			rp->size_b = sbsz;
+		} else {
+			rp->size_a = rp->size_b = pg->ndefine ? sa / (double)pg->ndefine : NAN;
+		}
+		rp->dice = npair ? dsum / (double)npair : NAN;
+		bad = !(rp->dice >= 0.2) || rp->size_a == 0 || rp->size_b == 0;
+		sb_printf(b, "<tr%s><td>", bad ? " class=\"flag\"" : "");
+		sb_esc(b, rp->name);
+		sb_puts(b, "</td>");
+		for (k = 0; k < pg->nmaps; k++) {
+			size_t v, c = 0;
+
+			for (v = 0; v < pg->nvox; v++)
+				c += pg->maps[k].lab[v] == rp->index;
+			sb_printf(b, "<td class=\"n\">%zu</td>", c);
+		}
+		sb_puts(b, "<td class=\"n\">");
+		if (isfinite(rp->dice))
+			sb_printf(b, "%.3f", rp->dice);
+		else
+			sb_puts(b, "&ndash;");
+		sb_printf(b, "</td><td>%s</td></tr>\n", bad ? "<span class=\"flag\">&#9873; outlier</span>" : "ok");
+	}
+	sb_puts(b, "</tbody></table>\n");
+}
+
+/* One run's design matrix as an image, each column scaled to its own range. */
+static void design_figure(sbuf *b, const char *path, const char *name)
+{
+	table t;
+	size_t r, c;
+	int colw = 14, rowh, W, H, X, Y;
+	double *mn, *mx, *val;
+	unsigned char *px, *png;
+	size_t npng;
+	sr_err e;
+
+	sr_err_init(&e, NULL, NULL);
+	if (table_read(path, ',', &t, &e)) {
+		sb_puts(b, "<p class=\"note\">");
+		sb_esc(b, e.msg);
+		sb_puts(b, "</p>\n");
+		return;
+	}
+	if (!t.nrows || !t.ncols) {
+		sb_puts(b, "<p class=\"note\">");
+		sb_esc(b, path);
+		sb_puts(b, ": no rows, so no image.</p>\n");
+		table_release(&t);
+		return;
+	}
+	val = xmalloc_array(t.nrows * t.ncols, sizeof *val);
+	mn = xmalloc_array(t.ncols, sizeof *mn);
+	mx = xmalloc_array(t.ncols, sizeof *mx);
+	for (c = 0; c < t.ncols; c++) {
+		mn[c] = INFINITY;
+		mx[c] = -INFINITY;
+	}
+	for (r = 0; r < t.nrows; r++)
+		for (c = 0; c < t.ncols; c++) {
+			char *end;
+			double v = strtod(table_cell(&t, r, c), &end);
+
+			val[r * t.ncols + c] = v;
+			if (isfinite(v)) {
+				mn[c] = fmin(mn[c], v);
+				mx[c] = fmax(mx[c], v);
+			}
+		}
+	rowh = t.nrows >= 400 ? 1 : (int)(400 / t.nrows);
+	if (rowh > 6)
+		rowh = 6;
+	W = (int)t.ncols * colw;
+	H = (int)t.nrows * rowh;
+	px = xmalloc_array((size_t)W * (size_t)H, 1);
+	for (Y = 0; Y < H; Y++)
+		for (X = 0; X < W; X++) {
+			size_t rr = (size_t)(Y / rowh), cc = (size_t)(X / colw);
+			double v = val[rr * t.ncols + cc], g;
+
+			if (!isfinite(v))
+				g = 0.5;
+			else if (mx[cc] > mn[cc])
+				g = (v - mn[cc]) / (mx[cc] - mn[cc]);
+			else
+				g = v != 0 ? 1 : 0;
+			/* a thin gap between columns keeps neighbours apart */
+			px[(size_t)Y * (size_t)W + (size_t)X] = X % colw == colw - 1 ? 128 : (unsigned char)lround(255 * g);
+		}
+	if (srpng_encode(px, W, H, 1, &png, &npng, &e) == SR_OK) {
+		sb_puts(b, "<figure><figcaption><b>");
+		sb_esc(b, name);
+		sb_printf(b, "</b>: %zu volumes &times; %zu columns</figcaption>\n", t.nrows, t.ncols);
+		rs_design(b, png, npng, W, H, colw, t.header, t.ncols, t.nrows, NAN);
+		sb_puts(b, "</figure>\n");
+		free(png);
+	}
+	free(px);
+	free(val);
+	free(mn);
+	free(mx);
+	table_release(&t);
+}
+
+static void designs(page *pg, sbuf *b)
+{
+	char ddir[4200], path[8400];
+	char **names;
+	size_t n, i;
+
+	snprintf(ddir, sizeof ddir, "%s/design", pg->dir);
+	names = list_dir(ddir, "", ".csv", &n);
+	if (!n)
+		sb_puts(b, "<p class=\"note\">No design matrices in design/.</p>\n");
+	for (i = 0; i < n; i++) {
+		snprintf(path, sizeof path, "%s/%s.csv", ddir, names[i]);
+		design_figure(b, path, names[i]);
+	}
+	free_list(names, n);
+}
+
+/* Splits a space/comma separated list. */
+static char **words(const char *s, size_t *n)
+{
+	char *c = xstrdup(s ? s : ""), *tok, *save = NULL;
+	char **v = NULL;
+
+	*n = 0;
+	for (tok = strtok_r(c, " ,\t", &save); tok; tok = strtok_r(NULL, " ,\t", &save)) {
+		v = xrealloc(v, (*n + 1) * sizeof *v);
+		v[(*n)++] = xstrdup(tok);
+	}
+	free(c);
+	return v;
+}
+
+static void motion(page *pg, rsub *s, sbuf *b)
+{
+	char *mtext = runrec_ini_get(pg->rec.study_text, "model", "motion");
+	char *units = runrec_ini_get(pg->rec.study_text, "model", "motion_units");
+	char *thr = runrec_ini_get(pg->rec.study_text, "model", "fd_threshold");
+	double threshold = thr ? strtod(thr, NULL) : 0.5;
+	int deg = units && strcmp(units, "mm_deg") == 0;
+	char **cols;
+	size_t ncols, r;
+
+	cols = words(mtext, &ncols);
+	if (!(threshold > 0))
+		threshold = 0.5;
+	sb_printf(b, "<p class=\"note\">Framewise displacement (Power et al. 2012): the sum of the absolute "
+		  "volume-to-volume changes of the six motion parameters, rotations (%s) as arc length on a "
+		  "50 mm sphere. A run is flagged when its <b>mean</b> FD exceeds the study's fd_threshold "
+		  "(%g mm): the mean measures sustained motion, while the maximum flags almost any run with a "
+		  "single jerk; both are listed.</p>\n", deg ? "degrees" : "radians", threshold);
+	if (ncols != 6) {
+		sb_puts(b, "<p class=\"note\">The study names no six motion columns ([model] motion), so no FD is shown.</p>\n");
+		goto out;
+	}
+	sb_puts(b, "<table id=\"motion\"><thead><tr><th>task</th><th>run</th><th>volumes</th><th>mean FD (mm)</th>"
+		   "<th>max FD (mm)</th><th>volumes &gt; threshold</th><th>check</th></tr></thead><tbody>\n");
+	{
+		sbuf charts;
+
+		sb_init(&charts);
+		for (r = 0; r < pg->rec.nruns; r++) {
+			const runrec_run *run = &pg->rec.runs[r];
+			table t;
+			int ci[6], ok = 1;
+			size_t j, i, nabove = 0;
+			double *mp, *fd, mean, max;
+			sr_err e;
+
+			if (!run->confounds)
+				continue;
+			sr_err_init(&e, NULL, NULL);
+			if (table_read(run->confounds, 0, &t, &e)) {
+				sb_puts(&charts, "<p class=\"note\">");
+				sb_esc(&charts, e.msg);
+				sb_puts(&charts, "</p>\n");
+				continue;
+			}
+			for (j = 0; j < 6; j++)
+				if ((ci[j] = table_col(&t, cols[j])) < 0 && ok) {
+					ok = 0;
+					sb_puts(&charts, "<p class=\"note\"><span class=\"flag\">&#9873;</span> ");
+					sb_esc(&charts, run->confounds);
+					sb_puts(&charts, ": no column ");
+					sb_esc(&charts, cols[j]);
+					sb_puts(&charts, " ([model] motion), so no FD for this run.</p>\n");
+				}
+			if (!ok || !t.nrows) {
+				table_release(&t);
+				continue;
+			}
+			mp = xmalloc_array(t.nrows * 6, sizeof *mp);
+			fd = xmalloc_array(t.nrows, sizeof *fd);
+			for (i = 0; i < t.nrows; i++)
+				for (j = 0; j < 6; j++) {
+					int na;
+
+					if (table_number(&t, i, (size_t)ci[j], &mp[6 * i + j], &na, 1, NULL))
+						mp[6 * i + j] = NAN;
+				}
+			qc_fd(mp, t.nrows, deg, 50.0, fd, NULL);
+			qc_mean_max(fd, t.nrows, &mean, &max);
+			for (i = 0; i < t.nrows; i++)
+				nabove += isfinite(fd[i]) && fd[i] > threshold;
+			s->nruns_fd++;
+			if (mean > threshold)
+				s->nruns_flagged++;
+			sb_printf(b, "<tr%s><td>", mean > threshold ? " class=\"flag\"" : "");
+			sb_esc(b, run->task);
+			sb_puts(b, "</td><td>");
+			sb_esc(b, run->run);
+			sb_printf(b, "</td><td class=\"n\">%zu</td><td class=\"n\">%.3f</td><td class=\"n\">%.3f</td><td class=\"n\">%zu</td><td>%s</td></tr>\n",
+				  t.nrows, mean, max, nabove,
+				  mean > threshold ? "<span class=\"flag\">&#9873; mean FD above threshold</span>" : "ok");
+			sb_puts(&charts, "<figure><figcaption><b>task ");
+			sb_esc(&charts, run->task);
+			sb_puts(&charts, ", run ");
+			sb_esc(&charts, run->run);
+			sb_printf(&charts, "</b>: mean FD %.3f mm, max %.3f mm%s</figcaption>\n", mean, max,
+				  mean > threshold ? " &mdash; <span class=\"flag\">&#9873; flagged</span>" : "");
+			rs_fd(&charts, ++pg->uid, fd, t.nrows, run->tr, threshold);
+			sb_puts(&charts, "</figure>\n");
+			free(mp);
+			free(fd);
+			table_release(&t);
+		}
+		sb_puts(b, "</tbody></table>\n");
+		sb_puts(b, charts.p);
+		sb_release(&charts);
+	}
+out:
+	free_list(cols, ncols);
+	free(mtext);
+	free(units);
+	free(thr);
+}
+
+/* The subject's own responses.csv, as a table (numbers as %.4g). */
+static void responses(page *pg, sbuf *b)
+{
+	char path[4200];
+	table t;
+	size_t r, c;
+	sr_err e;
+
+	snprintf(path, sizeof path, "%s/responses.csv", pg->dir);
+	sr_err_init(&e, NULL, NULL);
+	if (table_read(path, ',', &t, &e)) {
+		sb_puts(b, "<p class=\"note\">");
+		sb_esc(b, e.msg);
+		sb_puts(b, "</p>\n");
+		return;
+	}
+	sb_puts(b, "<div class=\"wide\"><table id=\"responses\"><thead><tr>");
+	for (c = 0; c < t.ncols; c++) {
+		sb_puts(b, "<th>");
+		sb_esc(b, t.header[c]);
+		sb_puts(b, "</th>");
+	}
+	sb_puts(b, "</tr></thead><tbody>\n");
+	for (r = 0; r < t.nrows; r++) {
+		sb_puts(b, "<tr>");
+		for (c = 0; c < t.ncols; c++) {
+			const char *cell = table_cell(&t, r, c);
+			char *end;
+			double v = strtod(cell, &end);
+			int num = *cell && !*end && isfinite(v);
+
+			sb_puts(b, num ? "<td class=\"n\">" : "<td>");
+			if (num)
+				sb_printf(b, "%.4g", v);
+			else
+				sb_esc(b, cell);
+			sb_puts(b, "</td>");
+		}
+		sb_puts(b, "</tr>\n");
+	}
+	sb_puts(b, "</tbody></table></div>\n");
+	table_release(&t);
+}
+
+static void page_release(page *pg)
+{
+	size_t i;
+
+	runrec_release(&pg->rec);
+	free(pg->bold);
+	free(pg->parcels);
+	for (i = 0; i < pg->nmaps; i++) {
+		free(pg->maps[i].token);
+		free(pg->maps[i].lab);
+		free(pg->maps[i].t);
+	}
+	free(pg->maps);
+	for (i = 0; i < pg->np; i++)
+		free(pg->pname[i]);
+	free(pg->pname);
+	free(pg->pidx);
+}
+
+sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
+{
+	page pg;
+	sbuf b;
+	char path[8400], title[256];
+	nii_info in;
+	sr_err note;
+	double tlo = 0, thi = 1, glo = 0, ghi = 1;
+	size_t i;
+	sr_status rc;
+	char *split;
+
+	memset(&pg, 0, sizeof pg);
+	memset(s, 0, sizeof *s);
+	s->label = xstrdup(label);
+	pg.out = out;
+	pg.label = label;
+	snprintf(pg.dir, sizeof pg.dir, "%s/sub-%s", out, label);
+	snprintf(path, sizeof path, "%s/run.json", pg.dir);
+	rc = runrec_read(path, &pg.rec, e);
+	if (rc)
+		return rc;
+	split = runrec_ini_get(pg.rec.study_text, "localizer", "split");
+	s->split_kind = split ? split : xstrdup("odd-even");
+	sr_err_init(&note, NULL, NULL);
+	snprintf(path, sizeof path, "%s/maps/mean-bold.nii.gz", pg.dir);
+	if (nii_read_3d(path, &in, &pg.bold, &note)) {
+		/* no background: take the grid from the first fROI map */
+		char **tok;
+		size_t n;
+		char mdir[4200];
+
+		snprintf(mdir, sizeof mdir, "%s/maps", pg.dir);
+		tok = list_dir(mdir, "froi_", ".nii.gz", &n);
+		if (!n || (snprintf(path, sizeof path, "%s/froi_%s.nii.gz", mdir, tok[0]),
+			   nii_read_info(path, &in, NULL))) {
+			free_list(tok, n);
+			page_release(&pg);
+			return sr_fail(e, SR_EIO, "%s: no maps to show (mean-bold.nii.gz and froi_*.nii.gz missing)",
+				       mdir);
+		}
+		free_list(tok, n);
+	}
+	pg.g = in.grid;
+	pg.nx = (size_t)in.grid.nx;
+	pg.ny = (size_t)in.grid.ny;
+	pg.nz = (size_t)in.grid.nz;
+	pg.nvox = nii_nvox(&in.grid);
+	if (pg.rec.parcels) {
+		double *d = read_on_grid(&pg, pg.rec.parcels, &note);
+
+		if (d) {
+			pg.parcels = to_labels(d, pg.nvox);
+			free(d);
+		}
+	}
+	load_maps(&pg, &note);
+	load_parcels(&pg);
+	if (pg.bold)
+		qc_window(pg.bold, pg.nvox, 0.02, 0.98, &glo, &ghi);
+	t_range(&pg, &tlo, &thi);
+
+	sb_init(&b);
+	snprintf(title, sizeof title, "sub-%s", label);
+	rh_begin(&b, title, "Subject report: fROIs, overlap of the halves, design matrices and motion",
+		 "../report.html", "study report");
+	sb_puts(&b, "<nav class=\"toc\"><a href=\"#frois\">fROIs</a> &middot; <a href=\"#overlap-h\">sizes and overlap</a> &middot; "
+		    "<a href=\"#design\">design matrices</a> &middot; <a href=\"#motion-h\">motion</a> &middot; "
+		    "<a href=\"#responses-h\">responses</a></nav>\n");
+	sb_puts(&b, "<h2 id=\"overlap-h\">fROI sizes and overlap of the halves</h2>\n");
+	sb_puts(&b, "<p class=\"note\">Voxels per split; Dice = 2|A&cap;B| / (|A| + |B|) between the localizer's "
+		    "halves (for leave-one-out: the mean over all pairs of folds). Outlier rule: Dice below 0.2, "
+		    "or an empty fROI in either half.</p>\n");
+	overlap(&pg, s, &b);
+	sb_puts(&b, "<h2 id=\"frois\">fROIs on the mean functional image</h2>\n");
+	if (!pg.bold)
+		sb_puts(&b, "<p class=\"note\">maps/mean-bold.nii.gz is missing: slices drawn on a gray field.</p>\n");
+	if (!pg.parcels)
+		sb_puts(&b, "<p class=\"note\">The parcel image is missing or on another grid: no parcel outline.</p>\n");
+	sb_puts(&b, "<p class=\"note\">Axial slices, evenly spaced through the fROI's extent; slice index z counts from 0. "
+		    "Localizer t uses the viridis scale below (1st to 99th percentile of this subject's t maps).</p>\n");
+	rs_colorbar(&b, ++pg.uid, tlo, thi, "localizer t");
+	for (i = 0; i < pg.np; i++)
+		section_parcel(&pg, &b, i, tlo, thi, glo, ghi);
+	sb_puts(&b, "<h2 id=\"design\">Design matrices</h2>\n");
+	designs(&pg, &b);
+	sb_puts(&b, "<h2 id=\"motion-h\">Motion</h2>\n");
+	motion(&pg, s, &b);
+	sb_puts(&b, "<h2 id=\"responses-h\">Responses</h2>\n");
+	responses(&pg, &b);
+	rh_end(&b);
+	snprintf(path, sizeof path, "%s/report.html", pg.dir);
+	rc = rh_write(path, &b, e);
+	s->ok = rc == SR_OK;
+	sb_release(&b);
+	page_release(&pg);
+	return rc;
+}
+
+void rsub_release(rsub *s)
+{
+	size_t i;
+
+	for (i = 0; i < s->nparcels; i++)
+		free(s->parcels[i].name);
+	free(s->parcels);
+	free(s->label);
+	free(s->split_kind);
+	memset(s, 0, sizeof *s);
+}

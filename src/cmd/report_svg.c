@@ -1,0 +1,250 @@
+/* report_svg.c - the report's charts as inline SVG: bars with dots, FD traces, colour bar, design. */
+#include <math.h>
+#include <stdio.h>
+#include <string.h>
+
+#include "../core/qc.h"
+#include "report.h"
+
+/* Fill patterns so bars differ without colour: light solid, hatch, cross-hatch, dots, dark solid. */
+static void patterns(sbuf *b, int id)
+{
+	sb_printf(b, "<defs>"
+		  "<pattern id=\"p%d-1\" width=\"6\" height=\"6\" patternUnits=\"userSpaceOnUse\" patternTransform=\"rotate(45)\">"
+		  "<rect width=\"6\" height=\"6\" fill=\"#f3e3d6\"/><line x1=\"0\" y1=\"0\" x2=\"0\" y2=\"6\" stroke=\"#8a3b12\" stroke-width=\"2\"/></pattern>"
+		  "<pattern id=\"p%d-2\" width=\"6\" height=\"6\" patternUnits=\"userSpaceOnUse\">"
+		  "<rect width=\"6\" height=\"6\" fill=\"#e4e9ef\"/><path d=\"M0 0L6 6M6 0L0 6\" stroke=\"#2f4a63\" stroke-width=\"1\"/></pattern>"
+		  "<pattern id=\"p%d-3\" width=\"5\" height=\"5\" patternUnits=\"userSpaceOnUse\">"
+		  "<rect width=\"5\" height=\"5\" fill=\"#eef0e2\"/><circle cx=\"2.5\" cy=\"2.5\" r=\"1.2\" fill=\"#4b5a1e\"/></pattern>"
+		  "</defs>\n", id, id, id);
+}
+
+static const char *fill_of(int id, size_t i, char *buf, size_t n)
+{
+	static const char *solid[2] = { "#c9c2b2", "#39424e" };
+
+	switch (i % 5) {
+	case 0: return solid[0];
+	case 4: return solid[1];
+	default:
+		snprintf(buf, n, "url(#p%d-%zu)", id, i % 5);
+		return buf;
+	}
+}
+
+/* Vertical axis with ticks and grid lines; returns the data-to-pixel mapping via lo/hi. */
+static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double top, double bottom,
+		  const char *label, double *tlo, double *thi)
+{
+	double ticks[32], step;
+	size_t nt = qc_ticks(lo, hi, 5, ticks, 32, &step), i;
+
+	*tlo = nt ? fmin(lo, ticks[0]) : lo;
+	*thi = nt ? fmax(hi, ticks[nt - 1]) : hi;
+	for (i = 0; i < nt; i++) {
+		double y = bottom - (ticks[i] - *tlo) / (*thi - *tlo) * (bottom - top);
+		char t[32];
+
+		snprintf(t, sizeof t, "%g", ticks[i]);
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"%s\"/>"
+			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">%s</text>\n",
+			  x0, y, x1, y, ticks[i] == 0 ? "#1d232b" : "#e2ddd1", ticks[i] == 0 ? "1" : "0.7",
+			  x0 - 5, y + 4, t);
+	}
+	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>", x0, top, x0,
+		  bottom);
+	sb_printf(b, "<text transform=\"translate(%.1f %.1f) rotate(-90)\" font-size=\"11\" text-anchor=\"middle\">",
+		  x0 - 40, (top + bottom) / 2);
+	sb_esc(b, label);
+	sb_puts(b, "</text>\n");
+}
+
+void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars, size_t n)
+{
+	const double left = 62, right = 14, top = 30, bottom = 74, bw = 50, gap = 58;
+	double w = left + right + (double)n * (bw + gap), h = 250, lo = 0, hi = 0, tlo, thi;
+	size_t i, k;
+	char fb[32];
+
+	if (w < 300)
+		w = 300;
+	for (i = 0; i < n; i++) {
+		if (isfinite(bars[i].mean)) {
+			double s = isfinite(bars[i].sem) ? bars[i].sem : 0;
+
+			lo = fmin(lo, bars[i].mean - s);
+			hi = fmax(hi, bars[i].mean + s);
+		}
+		for (k = 0; k < bars[i].ndots; k++)
+			if (isfinite(bars[i].dots[k])) {
+				lo = fmin(lo, bars[i].dots[k]);
+				hi = fmax(hi, bars[i].dots[k]);
+			}
+	}
+	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"",
+		  w, h, w, h);
+	sb_esc(b, title);
+	sb_puts(b, "\">\n");
+	patterns(b, id);
+	sb_printf(b, "<text x=\"%.1f\" y=\"17\" font-size=\"13\" font-weight=\"600\">", left - 50);
+	sb_esc(b, title);
+	sb_puts(b, "</text>\n");
+	yaxis(b, lo, hi, left, w - right, top, h - bottom, ylabel, &tlo, &thi);
+#define YPIX(v) ((h - bottom) - ((v) - tlo) / (thi - tlo) * ((h - bottom) - top))
+	for (i = 0; i < n; i++) {
+		double x = left + gap / 2 + (double)i * (bw + gap), y0 = YPIX(0.0);
+
+		if (isfinite(bars[i].mean)) {
+			double y = YPIX(bars[i].mean);
+
+			sb_printf(b, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" height=\"%.1f\" fill=\"%s\" stroke=\"#1d232b\" stroke-width=\"1\"/>\n",
+				  x, fmin(y, y0), bw, fabs(y0 - y), fill_of(id, i, fb, sizeof fb));
+			if (isfinite(bars[i].sem)) {
+				double ya = YPIX(bars[i].mean - bars[i].sem), yb = YPIX(bars[i].mean + bars[i].sem);
+
+				sb_printf(b, "<path d=\"M%.1f %.1fV%.1fM%.1f %.1fh12M%.1f %.1fh12\" stroke=\"#1d232b\" stroke-width=\"1.6\" fill=\"none\"/>\n",
+					  x + bw / 2, ya, yb, x + bw / 2 - 6, ya, x + bw / 2 - 6, yb);
+			}
+		}
+		for (k = 0; k < bars[i].ndots; k++) {
+			/* fixed spread by subject order, so the same subject sits at the same offset everywhere */
+			double off = bars[i].ndots > 1 ? ((double)k / (double)(bars[i].ndots - 1) - 0.5) * (bw * 0.6) : 0;
+
+			if (!isfinite(bars[i].dots[k]))
+				continue;
+			sb_printf(b, "<circle cx=\"%.1f\" cy=\"%.1f\" r=\"3.2\" fill=\"#fff\" stroke=\"#1d232b\" stroke-width=\"1.2\"/>\n",
+				  x + bw / 2 + off, YPIX(bars[i].dots[k]));
+		}
+		sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">", x + bw / 2,
+			  h - bottom + 16);
+		sb_esc(b, bars[i].label);
+		sb_printf(b, "</text><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"middle\" fill=\"#5b6470\">",
+			  x + bw / 2, h - bottom + 30);
+		if (isfinite(bars[i].mean))
+			sb_printf(b, "%.3g", bars[i].mean);
+		sb_puts(b, "</text>\n");
+	}
+#undef YPIX
+	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">bar: mean; whiskers: &#177;1 sem over subjects</text>"
+		  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">circles: one per subject</text>\n",
+		  left - 50, h - 20, left - 50, h - 7);
+	sb_puts(b, "</svg>\n");
+}
+
+void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double threshold)
+{
+	const double left = 56, right = 18, top = 14, bottom = 40, w = 620, h = 180;
+	double hi = threshold, t_end, tlo, thi, step, ticks[32];
+	size_t i, nt;
+	int have_tr = isfinite(tr) && tr > 0;
+
+	(void)id;
+	for (i = 0; i < n; i++)
+		if (isfinite(fd[i]) && fd[i] > hi)
+			hi = fd[i];
+	if (hi < 0.5)
+		hi = 0.5;
+	hi *= 1.1;
+	t_end = n > 1 ? (double)(n - 1) * (have_tr ? tr : 1.0) : 1.0;
+	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"framewise displacement\">\n",
+		  w, h, w, h);
+	yaxis(b, 0, hi, left, w - right, top, h - bottom, "FD (mm)", &tlo, &thi);
+#define XPIX(t) (left + (t) / t_end * (w - left - right))
+#define YPIX(v) ((h - bottom) - ((v) - tlo) / (thi - tlo) * ((h - bottom) - top))
+	nt = qc_ticks(0, t_end, 6, ticks, 32, &step);
+	for (i = 0; i < nt; i++) {
+		if (ticks[i] > t_end + 1e-9)
+			continue;
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%g</text>\n",
+			  XPIX(ticks[i]), h - bottom, XPIX(ticks[i]), h - bottom + 4, XPIX(ticks[i]), h - bottom + 16,
+			  ticks[i]);
+	}
+	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+		  (left + w - right) / 2, h - 6, have_tr ? "time (s)" : "volume");
+	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#9b1c1c\" stroke-dasharray=\"6 4\" stroke-width=\"1.4\"/>"
+		  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\" fill=\"#9b1c1c\">0.5 mm</text>\n",
+		  left, YPIX(0.5), w - right, YPIX(0.5), w - right - 2, YPIX(0.5) - 4);
+	if (fabs(threshold - 0.5) > 1e-9)
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\" stroke-dasharray=\"2 3\"/>"
+			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\">study threshold %g mm</text>\n",
+			  left, YPIX(threshold), w - right, YPIX(threshold), left + 4, YPIX(threshold) - 4, threshold);
+	sb_puts(b, "<polyline fill=\"none\" stroke=\"#2f4a63\" stroke-width=\"1.3\" points=\"");
+	for (i = 0; i < n; i++)
+		if (isfinite(fd[i]))
+			sb_printf(b, "%.1f,%.1f ", XPIX((double)i * (have_tr ? tr : 1.0)), YPIX(fd[i]));
+	sb_puts(b, "\"/>\n</svg>\n");
+#undef XPIX
+#undef YPIX
+}
+
+void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
+{
+	const double x0 = 10, wbar = 240, w = 300, h = 52;
+	double ticks[32], step;
+	size_t i, nt;
+	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"colour scale\">\n<defs><linearGradient id=\"cb%d\">",
+		  w, h, w, h, gid);
+	for (i = 0; i <= 16; i++) {
+		unsigned char c[3];
+
+		qc_viridis((double)i / 16.0, c);
+		sb_printf(b, "<stop offset=\"%.4f\" stop-color=\"#%02x%02x%02x\"/>", (double)i / 16.0, c[0], c[1], c[2]);
+	}
+	sb_printf(b, "</linearGradient></defs>\n<rect x=\"%.1f\" y=\"4\" width=\"%.1f\" height=\"14\" fill=\"url(#cb%d)\" stroke=\"#1d232b\" stroke-width=\"0.8\"/>\n",
+		  x0, wbar, gid);
+	if (!(hi > lo))
+		hi = lo + 1;
+	nt = qc_ticks(lo, hi, 5, ticks, 32, &step);
+	for (i = 0; i < nt; i++) {
+		double x;
+
+		if (ticks[i] < lo - 1e-9 * step || ticks[i] > hi + 1e-9 * step)
+			continue;
+		x = x0 + (ticks[i] - lo) / (hi - lo) * wbar;
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"18\" x2=\"%.1f\" y2=\"23\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"34\" font-size=\"11\" text-anchor=\"middle\">%g</text>\n",
+			  x, x, x, ticks[i]);
+	}
+	sb_printf(b, "<text x=\"%.1f\" y=\"48\" font-size=\"11\">", x0);
+	sb_esc(b, label);
+	sb_puts(b, "</text>\n</svg>\n");
+}
+
+void rs_design(sbuf *b, const unsigned char *png, size_t npng, int w, int h, int colw,
+	       char **names, size_t ncols, size_t nrows, double tr)
+{
+	const double top = 84, left = 54;
+	double W = left + w + 150, H = top + h + 10, ticks[16], step;
+	size_t i, nt;
+
+	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"design matrix\">\n",
+		  W, H, W, H);
+	sb_printf(b, "<image x=\"%.1f\" y=\"%.1f\" width=\"%d\" height=\"%d\" preserveAspectRatio=\"none\" style=\"image-rendering:pixelated\" href=\"",
+		  left, top, w, h);
+	sb_data_uri(b, png, npng);
+	sb_printf(b, "\"/>\n<rect x=\"%.1f\" y=\"%.1f\" width=\"%d\" height=\"%d\" fill=\"none\" stroke=\"#1d232b\"/>\n",
+		  left, top, w, h);
+	for (i = 0; i < ncols; i++) {
+		double x = left + ((double)i + 0.5) * colw;
+
+		sb_printf(b, "<text transform=\"translate(%.1f %.1f) rotate(-60)\" font-size=\"10\">", x + 3, top - 4);
+		sb_esc(b, names[i]);
+		sb_puts(b, "</text>\n");
+	}
+	nt = qc_ticks(0, (double)(nrows ? nrows - 1 : 0), 5, ticks, 16, &step);
+	for (i = 0; i < nt; i++) {
+		double y;
+
+		if (ticks[i] > (double)nrows - 1 + 1e-9)
+			continue;
+		y = top + (ticks[i] + 0.5) / (double)(nrows ? nrows : 1) * h;
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"end\">%g</text>\n",
+			  left - 4, y, left, y, left - 6, y + 3, ticks[i]);
+	}
+	sb_printf(b, "<text transform=\"translate(%.1f %.1f) rotate(-90)\" font-size=\"11\" text-anchor=\"middle\">volume%s</text>\n",
+		  14.0, top + h / 2.0, isfinite(tr) && tr > 0 ? " (row)" : "");
+	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">each column scaled:</text>"
+		  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">black = its minimum,</text>"
+		  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">white = its maximum</text>\n",
+		  left + w + 10, top + 12, left + w + 10, top + 25, left + w + 10, top + 38);
+	sb_puts(b, "</svg>\n");
+}

@@ -1,0 +1,239 @@
+/* qc.c - quality-control numerics for the report (no I/O): FD, Dice, slices, viridis, ticks. */
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "mem.h"
+#include "qc.h"
+
+sr_status qc_fd(const double *mp, size_t nt, int degrees, double radius_mm, double *fd, sr_err *e)
+{
+	const double deg = 3.14159265358979323846 / 180.0;
+	size_t i, j;
+
+	if (!(radius_mm > 0))
+		return sr_fail(e, SR_EINVAL, "framewise displacement needs a positive radius, got %g",
+			       radius_mm);
+	if (nt == 0)
+		return SR_OK;
+	fd[0] = 0;
+	/* Power et al. 2012: FD_i = |dx| + |dy| + |dz| + r(|da| + |db| + |dc|), angles in radians */
+	for (i = 1; i < nt; i++) {
+		double s = 0;
+
+		for (j = 0; j < 6; j++) {
+			double d = fabs(mp[6 * i + j] - mp[6 * (i - 1) + j]);
+
+			if (j >= 3)
+				d *= radius_mm * (degrees ? deg : 1.0);
+			s += d;
+		}
+		fd[i] = s;
+	}
+	return SR_OK;
+}
+
+void qc_mean_max(const double *x, size_t n, double *mean, double *max)
+{
+	double s = 0, m = -INFINITY;
+	size_t i, k = 0;
+
+	for (i = 0; i < n; i++)
+		if (isfinite(x[i])) {
+			s += x[i];
+			if (x[i] > m)
+				m = x[i];
+			k++;
+		}
+	*mean = k ? s / (double)k : NAN;
+	*max = k ? m : NAN;
+}
+
+double qc_dice(const int32_t *a, const int32_t *b, size_t n, int32_t label, size_t *na,
+	       size_t *nb, size_t *nab)
+{
+	size_t i, ca = 0, cb = 0, cab = 0;
+
+	for (i = 0; i < n; i++) {
+		int ia = a[i] == label, ib = b[i] == label;
+
+		ca += (size_t)ia;
+		cb += (size_t)ib;
+		cab += (size_t)(ia && ib);
+	}
+	if (na)
+		*na = ca;
+	if (nb)
+		*nb = cb;
+	if (nab)
+		*nab = cab;
+	if (ca + cb == 0)
+		return NAN;
+	return 2.0 * (double)cab / (double)(ca + cb);
+}
+
+/*
+ * viridis at nine evenly spaced positions (entries 0, 32, 64, 96, 128, 159,
+ * 191, 223, 255 of the 256-entry table published with matplotlib 1.5 by
+ * van der Walt & Smith, 2015; entry 0 = (0.267004, 0.004874, 0.329415),
+ * entry 255 = (0.993248, 0.906157, 0.143936)), as 8-bit sRGB. Linear
+ * interpolation between them stays within a few units of the full table,
+ * which is below what a screen shows.
+ */
+static const unsigned char viridis9[9][3] = {
+	{ 0x44, 0x01, 0x54 }, { 0x47, 0x2d, 0x7b }, { 0x3b, 0x52, 0x8b }, { 0x2c, 0x72, 0x8e },
+	{ 0x21, 0x91, 0x8c }, { 0x28, 0xae, 0x80 }, { 0x5e, 0xc9, 0x62 }, { 0xad, 0xdc, 0x30 },
+	{ 0xfd, 0xe7, 0x25 },
+};
+
+void qc_viridis(double t, unsigned char rgb[3])
+{
+	double x;
+	int i, c;
+
+	if (!(t > 0))
+		t = 0;
+	if (t > 1)
+		t = 1;
+	x = t * 8.0;
+	i = (int)floor(x);
+	if (i >= 8)
+		i = 7;
+	x -= i;
+	for (c = 0; c < 3; c++)
+		rgb[c] = (unsigned char)lround(viridis9[i][c] + x * (viridis9[i + 1][c] - viridis9[i][c]));
+}
+
+/* Heckbert's nice number: 1, 2, 5 or 10 times a power of ten near x (rounded or not below). */
+static double nicenum(double x, int round_it)
+{
+	double ex = floor(log10(x)), f = x / pow(10, ex), nf;
+
+	if (round_it)
+		nf = f < 1.5 ? 1 : f < 3 ? 2 : f < 7 ? 5 : 10;
+	else
+		nf = f <= 1 ? 1 : f <= 2 ? 2 : f <= 5 ? 5 : 10;
+	return nf * pow(10, ex);
+}
+
+size_t qc_ticks(double lo, double hi, int target, double *ticks, size_t max, double *step)
+{
+	double range, d, t0, t1, t;
+	size_t n = 0;
+
+	if (!isfinite(lo) || !isfinite(hi)) {
+		*step = 0;
+		return 0;
+	}
+	if (hi < lo) {
+		d = lo;
+		lo = hi;
+		hi = d;
+	}
+	if (hi == lo) {
+		lo -= 0.5;
+		hi += 0.5;
+	}
+	if (target < 2)
+		target = 2;
+	range = nicenum(hi - lo, 0);
+	d = nicenum(range / (target - 1), 1);
+	/* Heckbert's graph range: floor(lo / d) * d to ceil(hi / d) * d */
+	t0 = floor(lo / d) * d;
+	t1 = ceil(hi / d) * d;
+	*step = d;
+	for (t = t0; t <= t1 + 1e-9 * d && n < max; t = t0 + (double)n * d) {
+		/* snap -0 and rounding dust to the tick grid */
+		double v = round(t / d) * d;
+
+		ticks[n++] = fabs(v) < 1e-12 * d ? 0.0 : v;
+	}
+	return n;
+}
+
+void qc_slice_z(const double *vol, size_t nx, size_t ny, size_t nz, size_t k, double *out)
+{
+	if (k >= nz)
+		return;
+	memcpy(out, vol + k * nx * ny, nx * ny * sizeof *out);
+}
+
+size_t qc_pick_slices(const int32_t *lab, size_t nx, size_t ny, size_t nz, int32_t label,
+		      size_t want, size_t *out)
+{
+	size_t *has = xmalloc_array(nz ? nz : 1, sizeof *has), nhas = 0, k, v, n = 0;
+
+	for (k = 0; k < nz; k++) {
+		const int32_t *s = lab + k * nx * ny;
+
+		for (v = 0; v < nx * ny; v++)
+			if (s[v] == label) {
+				has[nhas++] = k;
+				break;
+			}
+	}
+	if (want > nhas)
+		want = nhas;
+	for (k = 0; k < want; k++) {
+		/* evenly spaced positions in the list of occupied slices, ends included */
+		size_t idx = want == 1 ? nhas / 2 : (size_t)lround((double)k * (double)(nhas - 1) / (double)(want - 1));
+
+		if (n && out[n - 1] == has[idx])
+			continue;
+		out[n++] = has[idx];
+	}
+	free(has);
+	return n;
+}
+
+static int cmp_double(const void *a, const void *b)
+{
+	double x = *(const double *)a, y = *(const double *)b;
+
+	return (x > y) - (x < y);
+}
+
+static double quantile_sorted(const double *s, size_t n, double p)
+{
+	double h = p * (double)(n - 1), f = floor(h);
+	size_t i = (size_t)f;
+
+	if (i + 1 >= n)
+		return s[n - 1];
+	return s[i] + (h - f) * (s[i + 1] - s[i]);
+}
+
+void qc_window(const double *x, size_t n, double plo, double phi, double *lo, double *hi)
+{
+	double *s = xmalloc_array(n ? n : 1, sizeof *s);
+	size_t i, k = 0;
+
+	for (i = 0; i < n; i++)
+		if (isfinite(x[i]) && x[i] != 0)
+			s[k++] = x[i];
+	if (k == 0) {
+		*lo = 0;
+		*hi = 0;
+	} else if (k < 2) {
+		*lo = *hi = s[0];
+	} else {
+		qsort(s, k, sizeof *s, cmp_double);
+		*lo = quantile_sorted(s, k, plo);
+		*hi = quantile_sorted(s, k, phi);
+	}
+	free(s);
+}
+
+void qc_edge(const unsigned char *mask, size_t nx, size_t ny, unsigned char *edge)
+{
+	size_t x, y;
+
+	for (y = 0; y < ny; y++)
+		for (x = 0; x < nx; x++) {
+			size_t v = y * nx + x;
+
+			edge[v] = mask[v] && (x == 0 || y == 0 || x + 1 == nx || y + 1 == ny ||
+					      !mask[v - 1] || !mask[v + 1] || !mask[v - nx] ||
+					      !mask[v + nx]);
+		}
+}

@@ -1,0 +1,211 @@
+/* runrec.c - the run record (run.json, via jansson) and a minimal INI key lookup for the report. */
+#include <ctype.h>
+#include <jansson.h>
+#include <math.h>
+#include <stdlib.h>
+#include <string.h>
+
+#include "../core/mem.h"
+#include "runrec.h"
+
+static char *dup_str(json_t *o, const char *key)
+{
+	json_t *v = json_object_get(o, key);
+
+	return json_is_string(v) ? xstrdup(json_string_value(v)) : NULL;
+}
+
+sr_status runrec_read(const char *path, runrec *r, sr_err *e)
+{
+	json_error_t je;
+	json_t *root, *in, *v;
+	const char *task;
+	json_t *list;
+
+	memset(r, 0, sizeof *r);
+	r->seconds = NAN;
+	root = json_load_file(path, 0, &je);
+	if (!root) {
+		if (je.line <= 0)
+			return sr_fail(e, SR_EIO, "%s: cannot read: %s", path, je.text);
+		return sr_fail(e, SR_EFORMAT, "%s: line %d, column %d: %s", path, je.line, je.column,
+			       je.text);
+	}
+	if (!json_is_object(root)) {
+		json_decref(root);
+		return sr_fail(e, SR_EFORMAT, "%s: expected a JSON object", path);
+	}
+	r->subject = dup_str(root, "subject");
+	r->study_file = dup_str(root, "study_file");
+	r->study_text = dup_str(root, "study_text");
+	r->parcels = dup_str(root, "parcels");
+	v = json_object_get(root, "seconds");
+	if (json_is_number(v))
+		r->seconds = json_number_value(v);
+	in = json_object_get(root, "inputs");
+	if (json_is_object(in)) {
+		json_object_foreach(in, task, list) {
+			size_t i;
+			json_t *o;
+
+			if (!json_is_array(list))
+				continue;
+			json_array_foreach(list, i, o) {
+				runrec_run *x;
+				json_t *dims;
+
+				if (!json_is_object(o))
+					continue;
+				r->runs = xrealloc(r->runs, (r->nruns + 1) * sizeof *r->runs);
+				x = &r->runs[r->nruns++];
+				memset(x, 0, sizeof *x);
+				x->task = xstrdup(task);
+				x->run = dup_str(o, "run");
+				if (!x->run)
+					x->run = xstrdup("");
+				x->bold = dup_str(o, "bold");
+				x->confounds = dup_str(o, "confounds");
+				v = json_object_get(o, "tr");
+				x->tr = json_is_number(v) ? json_number_value(v) : NAN;
+				dims = json_object_get(o, "dims");
+				v = json_is_array(dims) ? json_array_get(dims, 3) : NULL;
+				x->nt = json_is_number(v) ? (long long)json_number_value(v) : -1;
+			}
+		}
+	}
+	json_decref(root);
+	return SR_OK;
+}
+
+void runrec_release(runrec *r)
+{
+	size_t i;
+
+	for (i = 0; i < r->nruns; i++) {
+		free(r->runs[i].task);
+		free(r->runs[i].run);
+		free(r->runs[i].bold);
+		free(r->runs[i].confounds);
+	}
+	free(r->runs);
+	free(r->subject);
+	free(r->study_file);
+	free(r->study_text);
+	free(r->parcels);
+	memset(r, 0, sizeof *r);
+}
+
+/* Trims spaces at both ends of s in place; returns the start. */
+static char *trim(char *s)
+{
+	char *t;
+
+	while (isspace((unsigned char)*s))
+		s++;
+	t = s + strlen(s);
+	while (t > s && isspace((unsigned char)t[-1]))
+		*--t = 0;
+	return s;
+}
+
+/* Cuts a comment: ';' or '#' at the start or after a space (INTERFACE.md's comment rule). */
+static void cut_comment(char *s)
+{
+	char *p;
+
+	for (p = s; *p; p++)
+		if ((*p == ';' || *p == '#') && (p == s || isspace((unsigned char)p[-1]))) {
+			*p = 0;
+			return;
+		}
+}
+
+/*
+ * Walks the text line by line; for each section header calls back with
+ * key == NULL, for each key with its value. Stops when fn returns nonzero.
+ */
+static void ini_walk(const char *text, int (*fn)(void *ctx, const char *sec, const char *key, const char *val),
+		     void *ctx)
+{
+	char *copy = xstrdup(text ? text : ""), *line, *save = NULL, sec[256] = "";
+
+	for (line = strtok_r(copy, "\r\n", &save); line; line = strtok_r(NULL, "\r\n", &save)) {
+		char *s, *eq;
+
+		cut_comment(line);
+		s = trim(line);
+		if (*s == '[') {
+			char *end = strchr(s, ']');
+
+			if (!end)
+				continue;
+			*end = 0;
+			snprintf(sec, sizeof sec, "%s", trim(s + 1));
+			if (fn(ctx, sec, NULL, NULL))
+				break;
+			continue;
+		}
+		eq = strchr(s, '=');
+		if (!eq)
+			continue;
+		*eq = 0;
+		if (fn(ctx, sec, trim(s), trim(eq + 1)))
+			break;
+	}
+	free(copy);
+}
+
+typedef struct get_ctx {
+	const char *section, *key;
+	char *value;
+} get_ctx;
+
+static int get_fn(void *ctx, const char *sec, const char *key, const char *val)
+{
+	get_ctx *g = ctx;
+
+	if (key && strcmp(sec, g->section) == 0 && strcmp(key, g->key) == 0) {
+		free(g->value);
+		g->value = *val ? xstrdup(val) : NULL;
+	}
+	return 0;
+}
+
+char *runrec_ini_get(const char *text, const char *section, const char *key)
+{
+	get_ctx g = { section, key, NULL };
+
+	ini_walk(text, get_fn, &g);
+	return g.value;
+}
+
+typedef struct sec_ctx {
+	const char *prefix;
+	char **names;
+	size_t n;
+} sec_ctx;
+
+static int sec_fn(void *ctx, const char *sec, const char *key, const char *val)
+{
+	sec_ctx *s = ctx;
+	size_t i;
+
+	(void)val;
+	if (key || strncmp(sec, s->prefix, strlen(s->prefix)) != 0)
+		return 0;
+	for (i = 0; i < s->n; i++)
+		if (strcmp(s->names[i], sec) == 0)
+			return 0;
+	s->names = xrealloc(s->names, (s->n + 1) * sizeof *s->names);
+	s->names[s->n++] = xstrdup(sec);
+	return 0;
+}
+
+char **runrec_ini_sections(const char *text, const char *prefix, size_t *n)
+{
+	sec_ctx s = { prefix, NULL, 0 };
+
+	ini_walk(text, sec_fn, &s);
+	*n = s.n;
+	return s.names;
+}
