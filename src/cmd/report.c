@@ -8,6 +8,7 @@
 #include <unistd.h>
 
 #include "../core/mem.h"
+#include "../core/qc.h"
 #include "../io/table.h"
 #include "cmd.h"
 #include "cmdline.h"
@@ -264,6 +265,21 @@ static void table_html(sbuf *b, const table *t, const char *id, const char *cons
 	free(used);
 }
 
+/* Dice below the parcel's robust lower fence over subjects (median - 3 robust sd). */
+static double parcel_fence(const rsub *subs, size_t n, const char *parcel)
+{
+	double *d = xcalloc(n ? n : 1, sizeof *d), f;
+	size_t i, k, m = 0;
+
+	for (i = 0; i < n; i++)
+		for (k = 0; k < subs[i].nparcels; k++)
+			if (strcmp(subs[i].parcels[k].name, parcel) == 0)
+				d[m++] = subs[i].parcels[k].dice;
+	f = qc_low_fence(d, m, 3.0);
+	free(d);
+	return f;
+}
+
 static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 {
 	size_t i, k;
@@ -276,7 +292,9 @@ static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 
 		for (k = 0; k < s->nparcels; k++) {
 			const rsub_parcel *p = &s->parcels[k];
-			int bad = !(p->dice >= 0.2) || p->size_a == 0 || p->size_b == 0;
+			double fence = parcel_fence(subs, n, p->name);
+			int bad = p->size_a == 0 || p->size_b == 0 || !isfinite(p->dice) ||
+				  (isfinite(fence) && p->dice < fence);
 
 			sb_printf(b, "<tr%s><td><a href=\"sub-", bad ? " class=\"flag\"" : "");
 			sb_esc(b, s->label);
@@ -398,7 +416,7 @@ int report_write(const char *out, int quiet)
 	sb_puts(&sum, "</tbody></table>\n");
 	sb_puts(&b, "<h2 id=\"overlap\">fROI sizes and overlap of the halves</h2>\n<p class=\"note\">Dice = 2|A&cap;B| / (|A| + |B|) "
 		    "of the fROIs defined on the two halves of the localizer runs (leave-one-out: the mean over all pairs of folds, "
-		    "sizes the mean over folds). Outlier rule: Dice below 0.2, or an empty fROI in either half. A run is flagged for "
+		    "sizes the mean over folds). Outlier rule: an empty fROI in either half, or a Dice below the parcel's median over subjects minus three robust standard deviations (1.4826 &times; the median absolute deviation). Within a uniformly active region the top voxels are picked by noise, so a low Dice alone is common and not flagged. A run is flagged for "
 		    "motion when its mean framewise displacement exceeds the study's fd_threshold.</p>\n");
 	subjects_table(&b, subs, nsub);
 	sb_puts(&b, "<h2 id=\"group-h\">Group table</h2>\n");

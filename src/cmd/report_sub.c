@@ -397,7 +397,7 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 			rp->size_a = rp->size_b = pg->ndefine ? sa / (double)pg->ndefine : NAN;
 		}
 		rp->dice = npair ? dsum / (double)npair : NAN;
-		bad = !(rp->dice >= 0.2) || rp->size_a == 0 || rp->size_b == 0;
+		bad = rp->size_a == 0 || rp->size_b == 0;
 		sb_printf(b, "<tr%s><td>", bad ? " class=\"flag\"" : "");
 		sb_esc(b, rp->name);
 		sb_puts(b, "</td>");
@@ -766,8 +766,8 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		    "<a href=\"#responses-h\">responses</a></nav>\n");
 	sb_puts(&b, "<h2 id=\"overlap-h\">fROI sizes and overlap of the halves</h2>\n");
 	sb_puts(&b, "<p class=\"note\">Voxels per split; Dice = 2|A&cap;B| / (|A| + |B|) between the localizer's "
-		    "halves (for leave-one-out: the mean over all pairs of folds). Outlier rule: Dice below 0.2, "
-		    "or an empty fROI in either half.</p>\n");
+		    "halves (for leave-one-out: the mean over all pairs of folds). Flagged: an empty fROI in "
+		    "either half (the study page also compares each Dice with the other subjects').</p>\n");
 	overlap(&pg, s, &b);
 	sb_puts(&b, "<h2 id=\"frois\">fROIs on the mean functional image</h2>\n");
 	if (!pg.bold)

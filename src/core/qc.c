@@ -237,3 +237,40 @@ void qc_edge(const unsigned char *mask, size_t nx, size_t ny, unsigned char *edg
 					      !mask[v + nx]);
 		}
 }
+
+static int cmp_dbl(const void *a, const void *b)
+{
+	double x = *(const double *)a, y = *(const double *)b;
+
+	return (x > y) - (x < y);
+}
+
+static double median_sorted(const double *v, size_t n)
+{
+	return n % 2 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]);
+}
+
+double qc_low_fence(const double *x, size_t n, double k)
+{
+	double *v, med, mad;
+	size_t i, m = 0;
+
+	v = malloc((n ? n : 1) * sizeof *v);
+	if (!v)
+		return NAN;
+	for (i = 0; i < n; i++)
+		if (isfinite(x[i]))
+			v[m++] = x[i];
+	if (m < 3) {
+		free(v);
+		return NAN;
+	}
+	qsort(v, m, sizeof *v, cmp_dbl);
+	med = median_sorted(v, m);
+	for (i = 0; i < m; i++)
+		v[i] = fabs(v[i] - med);
+	qsort(v, m, sizeof *v, cmp_dbl);
+	mad = median_sorted(v, m);
+	free(v);
+	return med - k * 1.4826 * mad;
+}

@@ -70,4 +70,12 @@ void qc_window(const double *x, size_t n, double plo, double phi, double *lo, do
  */
 void qc_edge(const unsigned char *mask, size_t nx, size_t ny, unsigned char *edge);
 
+/*
+ * A robust lower fence for outlier marking: median - k * 1.4826 * MAD over the
+ * finite values of x (1.4826 * MAD estimates the standard deviation of normal
+ * data; common practice). NaN when fewer than 3 values are finite. x is not
+ * changed.
+ */
+double qc_low_fence(const double *x, size_t n, double k);
+
 #endif

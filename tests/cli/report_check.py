@@ -186,7 +186,7 @@ if summ:
 # Dice and sizes: recomputed from the fROI maps with nibabel
 subt = st.tables.get('subjects')
 check(subt is not None and subt['rows'], 'study page has the overlap table')
-bad, flags_ok = [], True
+bad, flags_ok, recomputed = [], True, []
 for r, flag in zip(subt['rows'] if subt else [], subt['flags'] if subt else []):
     sub = r[0][4:]
     d = os.path.join(out, 'sub-' + sub, 'maps')
@@ -218,11 +218,17 @@ for r, flag in zip(subt['rows'] if subt else [], subt['flags'] if subt else []):
         sa = sb = float(np.mean(sizes))
     if not (same(num(r[2]), sa) and same(num(r[3]), sb) and abs(num(r[4]) - dice) <= 5e-4 if not math.isnan(dice) else math.isnan(num(r[4]))):
         bad.append((r, sa, sb, dice))
-    want_flag = (math.isnan(dice) or dice < 0.2) or sa == 0 or sb == 0
+    recomputed.append((r, flag, sa, sb, dice))
+# the outlier rule: an empty half, or a Dice below the parcel's median over subjects
+# minus 3 robust sd (1.4826 * MAD; common practice), computed here with numpy
+for r, flag, sa, sb, dice in recomputed:
+    ds = np.array([x[4] for x in recomputed if x[0][1] == r[1] and not math.isnan(x[4])])
+    fence = np.median(ds) - 3 * 1.4826 * np.median(np.abs(ds - np.median(ds))) if len(ds) >= 3 else math.nan
+    want_flag = math.isnan(dice) or sa == 0 or sb == 0 or (not math.isnan(fence) and dice < fence)
     if want_flag != flag or (want_flag and 'outlier' not in r[7]):
         flags_ok = False
 check(not bad, 'sizes and Dice equal those recomputed from the fROI maps with nibabel (%s)' % bad[:2])
-check(flags_ok, 'outliers (Dice < 0.2 or an empty half) are marked, and only they')
+check(flags_ok, 'outliers (an empty half, or Dice below the parcel median - 3 robust sd) are marked, and only they')
 
 # subject pages: responses table vs the subject's CSV; FD vs numpy
 for s in subs:

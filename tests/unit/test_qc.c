@@ -161,8 +161,22 @@ static void test_window_edge(void)
 	CHECK(e[4] == 0 && e[0] == 1 && e[1] == 1, "a full 3x3 mask: border is edge, centre is not");
 }
 
+/* The robust fence worked by hand: x = 1 2 3 4 100 has median 3, absolute
+ * deviations 2 1 0 1 97, MAD 1, so median - 3 * 1.4826 * MAD = -1.4478. */
+static void test_fence(void)
+{
+	double x[] = { 4, 100, 1, NAN, 3, 2 };
+	double even[] = { 1, 2, 3, 4 };   /* median 2.5, deviations 1.5 .5 .5 1.5, MAD 1 */
+
+	CHECK_CLOSE(qc_low_fence(x, 6, 3.0), 3 - 3 * 1.4826, 1e-12, "fence of 1 2 3 4 100 (NaN skipped)");
+	CHECK_CLOSE(qc_low_fence(even, 4, 2.0), 2.5 - 2 * 1.4826, 1e-12, "fence with an even count");
+	CHECK(isnan(qc_low_fence(even, 2, 3.0)), "fewer than 3 values give no fence");
+	CHECK(x[1] == 100 && x[0] == 4, "the input is left in its order");
+}
+
 int main(void)
 {
+	test_fence();
 	test_fd();
 	test_dice();
 	test_viridis();
