@@ -564,7 +564,7 @@ static void check_parcels(checker *c, const data_grid *grids, size_t ngrids)
 				} else {
 					int32_t l = (int32_t)x;
 
-					if (!bsearch(&l, ps.index, ps.n, sizeof *ps.index, cmp_i32)) {
+					if (!ps.n || !bsearch(&l, ps.index, ps.n, sizeof *ps.index, cmp_i32)) {
 						snprintf(msg, sizeof msg, "%s: line %zu: parcel %s (index %d) has no voxels in %s",
 							 st->parcel_names, names.line[r],
 							 table_cell(&names, r, (size_t)cn), (int)l, st->parcels);

@@ -140,7 +140,8 @@ sr_status parcel_set_load(const char *image, const char *names_path, parcel_set 
 					 image);
 		}
 	}
-	qsort(seen, nseen, sizeof *seen, cmp_i32);
+	if (nseen)   /* qsort wants a real array even for no elements */
+		qsort(seen, nseen, sizeof *seen, cmp_i32);
 	p->n = (int)nseen;
 	p->index = seen;
 	p->name = xcalloc(nseen ? nseen : 1, sizeof *p->name);
@@ -162,8 +163,11 @@ sr_status parcel_set_load(const char *image, const char *names_path, parcel_set 
 	}
 	if (have_names)
 		table_release(&names);
-	if (p->n == 0)
-		sr_warnf(e, "%s: the parcel image has no labelled voxel", image);
+	if (p->n == 0) {
+		/* as `check` says: nothing could be defined, so stop before fitting a single run */
+		parcel_set_release(p);
+		return sr_fail(e, SR_EFORMAT, "%s: no parcels (every voxel is 0)", image);
+	}
 	return SR_OK;
 fail:
 	table_release(&names);

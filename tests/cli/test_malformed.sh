@@ -1,0 +1,39 @@
+# test_malformed.sh - inputs the mutation fuzzer (tests/py/fuzz_inputs.py) broke: each must give exit 1 and a message naming the file, never a crash.
+. "$(dirname "$0")/lib.sh"
+PY=${PYTHON:-/usr/bin/python3}
+if ! "$PY" -c 'import nibabel, numpy' 2>/dev/null; then
+	echo "skip - malformed-input tests need nibabel and numpy in $PY"
+	exit 0
+fi
+BASE=$TMP/base
+"$SPLITROI" simulate --out "$BASE" --subjects 2 --grid small --volumes 50 --quiet ||
+	{ notok "could not simulate the test study"; exit 1; }
+F=data/sub-01/func
+# fresh: a new copy of the valid study in $V
+fresh() { rm -rf "$TMP/v" "$TMP/o"; cp -r "$BASE" "$TMP/v"; V=$TMP/v; }
+# py CODE: runs python with numpy/nibabel in the study copy
+py() { (cd "$V" && "$PY" -c "import numpy as np, nibabel as nib, gzip, struct, os, json; $1"); }
+# both WHAT REGEX: check and analyze exit 1, and stderr matches REGEX (the file's name)
+both() {
+	run "$SPLITROI" check "$V/study.ini"
+	expect_status 1 "check: $1"
+	expect_err "$2" "check names the file: $1"
+	run "$SPLITROI" analyze "$V/study.ini" --quiet --no-report --out "$TMP/o"
+	expect_status 1 "analyze: $1"
+	expect_err "$2" "analyze names the file: $1"
+	if [ -d "$TMP/o" ] && find "$TMP/o" -name '.*.tmp.*' | grep -q .; then
+		notok "analyze left temporary files after failing: $1"
+	else
+		ok "analyze left no temporary files: $1"
+	fi
+}
+
+fresh
+run "$SPLITROI" check "$V/study.ini"
+expect_status 0 "the simulated study is valid"
+
+# every parcel voxel 0: check said so, analyze fitted everything and failed in the
+# group step without naming the image (and both sorted/searched a null array)
+fresh
+py "i = nib.load('parcels.nii.gz'); nib.save(nib.Nifti1Image(np.zeros(i.shape, np.int16), i.affine, i.header), 'parcels.nii.gz')"
+both "all-zero parcel image" "parcels\.nii\.gz: no parcels \(every voxel is 0\)"
