@@ -249,8 +249,14 @@ sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_resul
 		goto out;
 	st = design_build(T, spec->tr, spec->slice_ref, ev, nev, spec->ncond, conf, spec->nconf,
 			  spec->drift_cutoff, &res->d, e);
-	if (st != SR_OK)
+	if (st != SR_OK) {
+		/* the core knows no file names: say which run's design failed */
+		char msg[sizeof e->msg];
+
+		memcpy(msg, e->msg, sizeof msg);
+		sr_fail(e, st, "%s: %s", spec->bold, msg);
 		goto out;
+	}
 	st = glm_model_make(res->d.X, T, res->d.p, &m, e);
 	if (st != SR_OK) {
 		char msg[sizeof e->msg];

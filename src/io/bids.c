@@ -374,6 +374,14 @@ void bids_runs_release(bids_run *runs, size_t n)
 }
 
 /*
+ * The longest repetition time taken as real (common practice: fMRI TRs, sparse
+ * designs included, are well under a minute). A sidecar value past it is most
+ * likely milliseconds, and an absurd one (1e308) would overflow the design's
+ * time grid far from the file that caused it.
+ */
+#define BIDS_TR_MAX 100.0
+
+/*
  * Reads RepetitionTime from one sidecar. *found = 0 when the key is absent.
  * Malformed JSON and a RepetitionTime that is not a positive number are errors.
  */
@@ -401,6 +409,10 @@ static sr_status sidecar_tr(const char *path, double *tr, int *found, sr_err *e)
 		if (!(isfinite(x) && x > 0))
 			st = sr_fail(e, SR_EFORMAT,
 				     "%s: RepetitionTime must be a positive number of seconds", path);
+		else if (x > BIDS_TR_MAX)
+			st = sr_fail(e, SR_EFORMAT,
+				     "%s: RepetitionTime %g s is not a plausible repetition time (over %g s; "
+				     "BIDS gives it in seconds, not milliseconds)", path, x, BIDS_TR_MAX);
 		else {
 			*tr = x;
 			*found = 1;
@@ -471,6 +483,10 @@ sr_status bids_run_tr(const char *root, const bids_run *run, double header_tr, d
 				     side, from, header_tr, run->bold);
 		else if (have_side)
 			*tr = side;
+		else if (have_header && header_tr > BIDS_TR_MAX)
+			st = sr_fail(e, SR_EFORMAT,
+				     "%s: pixdim[4] gives a repetition time of %g s, which is not plausible "
+				     "(over %g s)", run->bold, header_tr, BIDS_TR_MAX);
 		else if (have_header)
 			*tr = header_tr;
 		else

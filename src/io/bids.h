@@ -48,7 +48,8 @@ void bids_runs_release(bids_run *runs, size_t n);
  * both values and files; when they agree the sidecar value is used. Neither
  * present is an error. Every existing sidecar on the way is parsed: malformed
  * JSON (file, line, column), a non-object, or a RepetitionTime that is not a
- * positive number is an error. *tr is NaN on error.
+ * positive number is an error. A TR over 100 s (sidecar or header) is an error
+ * too: it is milliseconds or junk. *tr is NaN on error.
  */
 sr_status bids_run_tr(const char *root, const bids_run *run, double header_tr, double *tr,
 		      sr_err *e);

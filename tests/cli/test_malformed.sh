@@ -37,3 +37,12 @@ expect_status 0 "the simulated study is valid"
 fresh
 py "i = nib.load('parcels.nii.gz'); nib.save(nib.Nifti1Image(np.zeros(i.shape, np.int16), i.affine, i.header), 'parcels.nii.gz')"
 both "all-zero parcel image" "parcels\.nii\.gz: no parcels \(every voxel is 0\)"
+
+# RepetitionTime 1e308: check listed "TR 1e+308 s"; analyze failed deep in the design
+# ("run of inf s is too long for the time grid") without naming any file
+fresh
+py "p = 'data/task-memory_bold.json'; d = json.load(open(p)); d['RepetitionTime'] = 1e308; json.dump(d, open(p, 'w'))"
+both "RepetitionTime 1e308" "task-memory_bold\.json: RepetitionTime 1e\+308 s is not a plausible repetition time"
+fresh
+py "p = 'data/task-memory_bold.json'; d = json.load(open(p)); d['RepetitionTime'] = 2000; json.dump(d, open(p, 'w'))"
+both "RepetitionTime in milliseconds" "task-memory_bold\.json: RepetitionTime 2000 s is not a plausible"
