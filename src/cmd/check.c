@@ -183,12 +183,25 @@ static void check_confounds(checker *c, const bids_run *run, int64_t nt)
 	for (i = 0; i < st->nconfounds + st->nmotion; i++) {
 		const char *col = i < st->nconfounds ? st->confounds[i] : st->motion[i - st->nconfounds];
 
-		if (table_col(&t, col) < 0) {
+		int ci = table_col(&t, col);
+
+		if (ci < 0) {
 			char msg[1024];
 
 			snprintf(msg, sizeof msg, "%s: line %zu: no column '%s' (named in [model] %s)", path,
 				 t.header_line, col, i < st->nconfounds ? "confounds" : "motion");
 			problem(c, msg);
+		} else if (i < st->nconfounds) {
+			/* the values analyze reads as regressors, by its rules (n/a and empty allowed) */
+			for (size_t r = 0; r < t.nrows; r++) {
+				double x;
+				int na;
+
+				if (table_number(&t, r, (size_t)ci, &x, &na, 1, &e) != SR_OK) {
+					problem(c, e.msg);
+					break;
+				}
+			}
 		}
 	}
 	if ((int64_t)t.nrows != nt) {

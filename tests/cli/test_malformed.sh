@@ -46,3 +46,18 @@ both "RepetitionTime 1e308" "task-memory_bold\.json: RepetitionTime 1e\+308 s is
 fresh
 py "p = 'data/task-memory_bold.json'; d = json.load(open(p)); d['RepetitionTime'] = 2000; json.dump(d, open(p, 'w'))"
 both "RepetitionTime in milliseconds" "task-memory_bold\.json: RepetitionTime 2000 s is not a plausible"
+
+# 'inf' in a confound column: analyze stopped on it, check said "no problems found"
+fresh
+py "p = '$F/sub-01_task-tones_run-01_desc-confounds_timeseries.tsv'; L = open(p).read().split('\n'); c = L[3].split('\t'); c[0] = 'inf'; L[3] = '\t'.join(c); open(p, 'w').write('\n'.join(L))"
+both "inf in a confound column" "run-01_desc-confounds_timeseries\.tsv: line 4, column 1 \(motion_tx\): 'inf' is not a number"
+
+# a 1 MB line in an events file: libcsv grew its buffer 128 bytes at a time, so
+# analyze under ASan took over 20 s to say so (a hang in the fuzzer's eyes)
+fresh
+py "p = '$F/sub-01_task-tones_run-03_events.tsv'; L = open(p).read().split('\n'); L.insert(1, 'x' * (1 << 20)); open(p, 'w').write('\n'.join(L))"
+start=$(date +%s)
+run timeout 60 "$SPLITROI" analyze "$V/study.ini" --quiet --no-report --out "$TMP/o"
+expect_status 1 "analyze: a 1 MB events line"
+expect_err "run-03_events\.tsv: line 2, column 1 \(onset\): 'xxxx" "the 1 MB line's file, line and column are named"
+if [ $(($(date +%s) - start)) -le 15 ]; then ok "a 1 MB events line is rejected within 15 s"; else notok "a 1 MB events line took $(($(date +%s) - start)) s"; fi
