@@ -222,6 +222,13 @@ static int parse(const char *s, size_t off, expr *out, char *msg, size_t msglen)
 		add_term(out, &cap, name, nlen, sign * w);
 		p = skip_space(p);
 	}
+	/* each factor is finite, but a name given twice can add up past the largest double */
+	for (size_t i = 0; i < out->nterms; i++)
+		if (!isfinite(out->terms[i].weight)) {
+			fail(msg, msglen, "the factors of '%s' add up to more than the largest number",
+			     out->terms[i].name);
+			goto bad;
+		}
 	drop_zero_terms(out);
 	if (out->nterms == 0) {
 		fail(msg, msglen, "position %zu: the weights cancel out, leaving no condition", off + 1);

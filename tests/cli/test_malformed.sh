@@ -61,3 +61,9 @@ run timeout 60 "$SPLITROI" analyze "$V/study.ini" --quiet --no-report --out "$TM
 expect_status 1 "analyze: a 1 MB events line"
 expect_err "run-03_events\.tsv: line 2, column 1 \(onset\): 'xxxx" "the 1 MB line's file, line and column are named"
 if [ $(($(date +%s) - start)) -le 15 ]; then ok "a 1 MB events line is rejected within 15 s"; else notok "a 1 MB events line took $(($(date +%s) - start)) s"; fi
+
+# two finite factors of one condition that add up to inf: the effect was taken and
+# then "not estimable" in every run, instead of a study-file error
+fresh
+sed -i 's/^effects = melody, scrambled,/effects = 1e308*melody + 1e308*melody, scrambled,/' "$V/study.ini"
+both "effect weights that overflow" "study\.ini: line [0-9]+: effects: the factors of 'melody' add up to more than the largest number"

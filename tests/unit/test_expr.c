@@ -87,6 +87,8 @@ static void test_merge(void)
 	expr_release(&x);
 
 	expect_error("a - a", "position 1", "cancel");
+	/* a name given twice: each factor finite, their sum not (IEEE 754: 2e308 overflows to inf) */
+	expect_error("1e308*a + 1e308*a", "'a'", "largest number");
 }
 
 static void test_quotes(void)
