@@ -23,7 +23,6 @@ import subprocess
 import sys
 import tempfile
 import time
-import zlib
 
 HDR = 348
 INT16_VALUES = [0, 1, -1, 2, 3, 4, 7, 8, 9, 255, 256, 32767, -32768, 1000, 10000]
@@ -101,6 +100,38 @@ def mutate_nifti_header(rng, path):
         desc, inv = 'truncated to %d of %d bytes' % (n, len(data)), True
     write_nii(path, bytes(b), gz)
     return Mut(path, desc, inv)
+
+
+def mutate_bold_data(rng, path):
+    import nibabel as nib
+    import numpy as np
+    img = nib.load(path)
+    d = np.asarray(img.dataobj).astype(np.float32)
+    choice = rng.randrange(5)
+    idx = tuple(rng.randrange(s) for s in d.shape)
+    if choice == 0:
+        d[idx] = np.nan
+        desc = 'voxel %s = NaN' % (idx,)
+    elif choice == 1:
+        d[idx] = rng.choice([np.inf, -np.inf, 3.4e38])
+        desc = 'voxel %s = %r' % (idx, float(d[idx]))
+    elif choice == 2:
+        d[...] = 0
+        desc = 'all voxels 0'
+    elif choice == 3:
+        d = d[..., :rng.choice([1, 2, 3])]
+        desc = 'kept %d volumes' % d.shape[-1]
+    else:
+        d = d[:, :, :-1]
+        desc = 'one slice fewer'
+    out = nib.Nifti1Image(d, img.affine, img.header)
+    out.set_data_dtype(np.float32)
+    out.header['scl_slope'] = 1
+    out.header['scl_inter'] = 0
+    nib.save(out, path)
+    # fewer volumes than the events/confounds expect, or another grid, is caught;
+    # NaN/inf voxels are left out of the analysis by METHODS.md: no verdict
+    return Mut(path, desc, choice == 4)
 
 
 def mutate_gzip_stream(rng, path):
@@ -184,11 +215,12 @@ def mutate_tsv(rng, path, kind):
         c = rng.randrange(len(cells))
         v = rng.choice(CELL_VALUES)
         old = cells[c]
+        skipped = len(cells) > 2 and cells[2] == 'n/a'   # a row already skipped for its trial_type
         cells[c] = v
         lines[r] = '\t'.join(cells)
         desc = 'line %d column %d: %r -> %r' % (r + 1, c + 1, old[:20], v[:20])
         # a non-number in the onset or duration of an events row is surely invalid
-        if kind == 'events' and r > 0 and c < 2 and v in ('1e309', '-1e309', 'NaN', 'nan', 'inf',
+        if kind == 'events' and r > 0 and c < 2 and not skipped and v in ('1e309', '-1e309', 'NaN', 'nan', 'inf',
                                                          '-inf', 'melody', '0x10', '1,5', '"',
                                                          'e5', '1..2', '.', '+'):
             inv = True
@@ -201,8 +233,8 @@ def mutate_tsv(rng, path, kind):
         i = lines[r].find('\t')
         if i >= 0:
             lines[r] = lines[r][:i] + lines[r][i + 1:]
+        # short rows are padded with empty cells (table.h): the verdict depends on what moved
         desc = 'line %d: a tab removed' % (r + 1)
-        inv = i >= 0 and kind == 'events'
     elif choice == 7:
         r = rng.randrange(len(lines))
         junk = rng.choice(['\r', '\x00', '\ufeff', '"', "'", '\x1b', '\udcff'])
@@ -362,6 +394,8 @@ def pick_target(rng, root):
 
 def apply(rng, kind, path):
     if kind == 'nii':
+        if 'parcel' not in os.path.basename(path) and rng.random() < 0.2:
+            return mutate_bold_data(rng, path)
         return mutate_nifti_header(rng, path)
     if kind == 'gz':
         return mutate_gzip_stream(rng, path)
