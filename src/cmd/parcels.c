@@ -487,7 +487,7 @@ static int from_study(const char *path, const char *const *val, sr_err *e)
 		nii_grid g;
 		size_t nsig = 0;
 
-		if (subject_localizer_t(&st, subs[s], mask, (int)threads, &g, &t, &df, &nruns, e) != SR_OK)
+		if (subject_localizer_t(&st, subs[s], mask, mask ? &mgrid : NULL, (int)threads, &g, &t, &df, &nruns, e) != SR_OK)
 			goto fail;
 		if (s == 0) {
 			grid = g;

@@ -256,6 +256,7 @@ typedef struct task_fit {
 	unsigned char *missing;     /* ne: names a condition this subject lacks */
 	runfit_result *res;         /* nruns, after fitting */
 	double *tr;
+	nii_grid *grid;             /* nruns: each run's grid from its header, checked before fitting */
 	char **confpath;
 } task_fit;
 
@@ -283,6 +284,7 @@ static void task_release(task_fit *t)
 	free(t->C);
 	free(t->missing);
 	free(t->tr);
+	free(t->grid);
 	bids_runs_release(t->runs, t->nruns);
 	memset(t, 0, sizeof *t);
 }
@@ -301,6 +303,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 		return sr_fail(e, SR_ESTUDY, "%s: subject %s has no runs of task '%s' under %s",
 			       st->path, label, t->task, st->bids);
 	t->tr = xcalloc(t->nruns, sizeof *t->tr);
+	t->grid = xcalloc(t->nruns, sizeof *t->grid);
 	t->confpath = xcalloc(t->nruns, sizeof *t->confpath);
 	(void)cap;
 	for (i = 0; i < t->nruns; i++) {
@@ -338,6 +341,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 		rc = nii_read_info(t->runs[i].bold, &info, e);
 		if (rc)
 			return rc;
+		t->grid[i] = info.grid;
 		rc = bids_run_tr(st->bids, &t->runs[i], info.tr, &t->tr[i], e);
 		if (rc)
 			return rc;
@@ -694,6 +698,29 @@ static sr_status write_run_files(const char *dir, const task_fit *tasks, size_t 
 	return rc;
 }
 
+/*
+ * Every run on the grid of the first localizer run, and the mask on it too,
+ * from the headers: before fitting, because the fit reads the mask with the
+ * run's voxel count (a smaller mask would be read past its end).
+ */
+static sr_status check_grids(const task_fit *tasks, size_t ntasks, const char *mask_path,
+			     const nii_grid *mask_grid, sr_err *e)
+{
+	const nii_grid *g = &tasks[0].grid[0];
+	char buf[1024];
+	size_t i, r;
+
+	for (i = 0; i < ntasks; i++)
+		for (r = 0; r < tasks[i].nruns; r++)
+			if (!nii_same_grid(g, &tasks[i].grid[r], 1e-3, buf, sizeof buf))
+				return sr_fail(e, SR_EDIM, "%s: not on the grid of %s: %s", tasks[i].runs[r].bold,
+					       tasks[0].runs[0].bold, buf);
+	if (mask_grid && !nii_same_grid(g, mask_grid, 1e-3, buf, sizeof buf))
+		return sr_fail(e, SR_EDIM, "%s: the mask is not on the data grid of %s: %s", mask_path,
+			       tasks[0].runs[0].bold, buf);
+	return SR_OK;
+}
+
 sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
 			  sr_err *e)
 {
@@ -760,6 +787,9 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 		nruns_all += tasks[i].nruns;
 	}
+	rc = check_grids(tasks, ntasks, st->mask, ctx->mask_grid, e);
+	if (rc)
+		goto out;
 	/* fit every run of every task once, in parallel */
 	specs = xcalloc(nruns_all, sizeof *specs);
 	results = xcalloc(nruns_all, sizeof *results);
@@ -799,22 +829,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	/* one grid for all of the subject's runs */
 	grid = tasks[0].res[0].info.grid;
 	nvox = nii_nvox(&grid);
-	for (i = 0; i < ntasks; i++) {
-		size_t r;
-
-		for (r = 0; r < tasks[i].nruns; r++)
-			if (!nii_same_grid(&grid, &tasks[i].res[r].info.grid, 1e-3, buf, sizeof buf)) {
-				rc = sr_fail(e, SR_EDIM, "%s: not on the grid of %s: %s", tasks[i].runs[r].bold,
-					     tasks[0].runs[0].bold, buf);
-				goto out;
-			}
+	for (i = 0; i < ntasks; i++)
 		warn_estimability(&tasks[i], e);
-	}
-	if (ctx->mask_grid && !nii_same_grid(&grid, ctx->mask_grid, 1e-3, buf, sizeof buf)) {
-		rc = sr_fail(e, SR_EDIM, "%s: the mask is not on the data grid of %s: %s", st->mask,
-			     tasks[0].runs[0].bold, buf);
-		goto out;
-	}
 	if (nii_same_grid(&grid, &ps->grid, 1e-3, buf, sizeof buf)) {
 		labels = ps->labels;
 	} else if (st->resample_parcels) {
@@ -1045,14 +1061,17 @@ out:
 	free(own_image);
 	free(own_names);
 	if (rc) {
+		/* the table may already be written when the completion record fails */
 		snprintf(path, sizeof path, "%s/run.json", dir);
+		remove(path);
+		snprintf(path, sizeof path, "%s/responses.csv", dir);
 		remove(path);
 	}
 	return rc;
 }
 
 sr_status subject_localizer_t(const study *st, const char *label, const unsigned char *mask,
-			      int nthreads, nii_grid *grid, double **t, int **df, int *nruns,
+			      const nii_grid *mask_grid, int nthreads, nii_grid *grid, double **t, int **df, int *nruns,
 			      sr_err *e)
 {
 	task_fit loc;
@@ -1061,7 +1080,6 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	sr_err *errs = NULL;
 	int *pos = NULL;
 	size_t i, nvox;
-	char buf[1024];
 	sr_status rc;
 
 	*t = NULL;
@@ -1072,6 +1090,9 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	loc.effects = &st->contrast;
 	loc.ne = 1;
 	rc = task_prepare(st, label, &loc, e);
+	if (rc)
+		goto out;
+	rc = check_grids(&loc, 1, st->mask, mask_grid, e);
 	if (rc)
 		goto out;
 	specs = xcalloc(loc.nruns, sizeof *specs);
@@ -1093,12 +1114,6 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	}
 	*grid = loc.res[0].info.grid;
 	nvox = nii_nvox(grid);
-	for (i = 1; i < loc.nruns; i++)
-		if (!nii_same_grid(grid, &loc.res[i].info.grid, 1e-3, buf, sizeof buf)) {
-			rc = sr_fail(e, SR_EDIM, "%s: not on the grid of %s: %s", loc.runs[i].bold,
-				     loc.runs[0].bold, buf);
-			goto out;
-		}
 	warn_estimability(&loc, e);
 	pos = xmalloc_array(loc.nruns, sizeof *pos);
 	for (i = 0; i < loc.nruns; i++)

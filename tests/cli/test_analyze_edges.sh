@@ -1,0 +1,46 @@
+# test_analyze_edges.sh - analyze when something goes wrong part-way: a mask on another grid,
+# an output that cannot be written, the summary's counts and what a failed subject leaves.
+. "$(dirname "$0")/lib.sh"
+PY=${PYTHON:-/usr/bin/python3}
+HERE=$(cd "$(dirname "$0")/.." && pwd)
+"$PY" "$HERE/py/make_study.py" "$TMP/s" sessions >/dev/null || { notok "make_study.py failed"; exit 1; }
+S=$TMP/s
+cd "$S" || exit 1
+
+# a mask on a smaller grid: the fit would read it with the run's voxel count, so the
+# grids must be compared before any run is fitted
+"$PY" - <<'PYEOF'
+import nibabel as nib, numpy as np
+m = nib.load('mask.nii.gz')
+small = np.asarray(m.dataobj)[:5, :5, :4].astype(np.uint8)
+nib.save(nib.Nifti1Image(small, m.affine), 'small_mask.nii.gz')
+PYEOF
+sed 's/^mask = mask.nii.gz/mask = small_mask.nii.gz/' study.ini >smallmask.ini
+grep -q '^mask = small_mask.nii.gz' smallmask.ini || notok "the test could not set the mask"
+run "$SPLITROI" analyze smallmask.ini --no-group --no-report --out "$TMP/m"
+expect_status 1 "a mask on another grid fails"
+expect_err "small_mask.nii.gz: the mask is not on the data grid" "the error names the mask file"
+expect_err "5x5x4" "the error shows the mask's grid"
+if grep -q "fitting" "$TMP/err"; then notok "runs were fitted with a mask of the wrong size"; else ok "no run is fitted before the mask grid is checked"; fi
+[ ! -e "$TMP/m/sub-01/run.json" ] && [ ! -e "$TMP/m/sub-01/responses.csv" ] && ok "the failed subjects have no tables" || notok "a failed subject left tables"
+expect_out "0 of 2 subjects complete; 0 analyzed now, 2 failed" "the summary counts the two failed subjects, not the table steps"
+
+# the group table cannot be written: the subjects are still counted as analyzed
+run "$SPLITROI" analyze study.ini --no-report --out "$TMP/g" --no-group
+expect_status 0 "the study runs"
+mkdir -p "$TMP/g/group.csv/in-the-way"
+run "$SPLITROI" analyze study.ini --no-report --out "$TMP/g" --force
+expect_status 1 "a group table that cannot be written fails the command"
+expect_out "2 of 2 subjects complete; 2 analyzed now, 0 failed" "a failed group step is not counted as a failed subject"
+
+# the completion record cannot be written (a folder in its place): that subject fails
+# with no table that looks complete, the other subject completes, no temporary files
+rm -rf "$TMP/j"
+mkdir -p "$TMP/j/sub-01/run.json/in-the-way"
+run "$SPLITROI" analyze study.ini --no-report --no-group --quiet --out "$TMP/j"
+expect_status 1 "a subject whose run record cannot be written fails"
+expect_err "sub-01 failed: .*run.json" "the failure names the run record"
+[ ! -e "$TMP/j/sub-01/responses.csv" ] && ok "the failed subject has no responses.csv" || notok "the failed subject kept responses.csv"
+[ -s "$TMP/j/sub-02/run.json" ] && [ -s "$TMP/j/sub-02/responses.csv" ] && ok "the other subject completes" || notok "the other subject did not complete"
+left=$(find "$TMP/j" -name '*.tmp*' | head -3)
+[ -z "$left" ] && ok "no temporary files left" || notok "temporary files left: $left"
