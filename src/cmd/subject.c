@@ -1,6 +1,7 @@
 /* subject.c - one subject's analysis: fit every run once, form the splits, define fROIs, measure. */
 #include "subject.h"
 
+#include <fcntl.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -698,6 +699,25 @@ static sr_status write_run_files(const char *dir, const task_fit *tasks, size_t 
 	return rc;
 }
 
+/* Per parcel: 1 when no voxel of labels (nvox, on the data grid) carries its label. */
+static unsigned char *lost_parcels(const parcel_set *ps, const int32_t *labels, size_t nvox)
+{
+	unsigned char *lost = xmalloc((size_t)ps->n + 1);
+	size_t v;
+
+	memset(lost, 1, (size_t)ps->n + 1);
+	for (v = 0; v < nvox; v++) {
+		const int32_t *hit;
+
+		if (labels[v] == 0)
+			continue;
+		hit = bsearch(&labels[v], ps->index, (size_t)ps->n, sizeof *ps->index, cmp_i32);
+		if (hit)
+			lost[hit - ps->index] = 0;
+	}
+	return lost;
+}
+
 /*
  * Every run on the grid of the first localizer run, and the mask on it too,
  * from the headers: before fitting, because the fit reads the mask with the
@@ -735,15 +755,18 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	runfit_result *results = NULL;
 	sr_err *errs = NULL;
 	int32_t *labels = NULL, *labels_owned = NULL;
+	unsigned char *lost = NULL;    /* per parcel: no voxel left after resampling */
 	nii_grid grid;
 	char dir[2048], path[4096], buf[1024];
 	double t0 = now_seconds();
+	struct timespec started;
 	sr_status rc = SR_OK;
 	split *splits = NULL;
 	int nsplits = 0, s, p, j;
 	jdoc *rec = NULL;
 
 	memset(res, 0, sizeof *res);
+	clock_gettime(CLOCK_REALTIME, &started);
 	if (strlen(st->out) + strlen(label) + 8 > sizeof dir)
 		return sr_fail(e, SR_EINVAL, "%s: the output folder name is too long", st->out);
 	snprintf(dir, sizeof dir, "%s/sub-%s", st->out, label);
@@ -844,6 +867,11 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 		}
 		labels = labels_owned;
+		lost = lost_parcels(ps, labels, nvox);
+		for (p = 0; p < ps->n; p++)
+			if (lost[p])
+				sr_warnf(e, "subject %s: parcel %s (label %d) has no voxel on the data grid after nearest-neighbour resampling of %s; its rows are empty",
+					 label, ps->name[p], (int)ps->index[p], own_image ? own_image : st->parcels);
 	} else {
 		rc = sr_fail(e, SR_EDIM,
 			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
@@ -932,7 +960,9 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				}
 			}
 			for (p = 0; p < ps->n; p++) {
-				if (f.ncand[p] == 0)
+				if (lost && lost[p])
+					;   /* said once above */
+				else if (f.ncand[p] == 0)
 					sr_warnf(e, "subject %s, parcel %s, split %s: no candidate voxels; the fROI is empty",
 						 label, ps->name[p], splits[s].name);
 				else if (f.count[p] == 0)
@@ -987,7 +1017,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			define_frois(st, loc, lpos, (int)loc->nruns, NULL, 0, mt, labels, ps, nvox, &f);
 			all_runs_list(mt, meas, sizeof meas);
 			for (p = 0; p < ps->n; p++) {
-				if (f.count[p] == 0)
+				if (f.count[p] == 0 && !(lost && lost[p]))
 					sr_warnf(e, "subject %s, parcel %s, task %s: the fROI defined on all localizer runs is empty",
 						 label, ps->name[p], mt->task);
 			}
@@ -1039,6 +1069,13 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	jdoc_set_num(rec, "seconds", res->seconds);
 	snprintf(path, sizeof path, "%s/run.json", dir);
 	rc = jdoc_write(rec, path, e);
+	if (!rc) {
+		/* the skip rule compares this time with the inputs': an input changed while
+		   this subject ran (after it was read) must count as newer than the results */
+		struct timespec when[2] = { started, started };
+
+		utimensat(AT_FDCWD, path, when, 0);
+	}
 out:
 	jdoc_free(rec);
 	if (results)
@@ -1057,6 +1094,7 @@ out:
 	free(tasks);
 	free(loc_effects);
 	free(labels_owned);
+	free(lost);
 	parcel_set_release(&own_ps);
 	free(own_image);
 	free(own_names);

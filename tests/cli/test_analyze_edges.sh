@@ -44,3 +44,40 @@ expect_err "sub-01 failed: .*run.json" "the failure names the run record"
 [ -s "$TMP/j/sub-02/run.json" ] && [ -s "$TMP/j/sub-02/responses.csv" ] && ok "the other subject completes" || notok "the other subject did not complete"
 left=$(find "$TMP/j" -name '*.tmp*' | head -3)
 [ -z "$left" ] && ok "no temporary files left" || notok "temporary files left: $left"
+
+# the skip rule: an input changed while its subject was being analyzed (after it was
+# read, before the run record was written) must make the next run redo the subject;
+# the run record therefore carries the time the analysis started, not when it ended
+run "$SPLITROI" analyze study.ini --no-report --no-group --quiet --out "$TMP/k" --subjects 01
+expect_status 0 "one subject runs"
+end=$(stat -c %.9Y "$TMP/k/sub-01/responses.csv")   # written just before the run record
+during=$("$PY" -c "import sys; print('%.9f' % (float(sys.argv[1]) - 0.005))" "$end")
+ev=$(ls data/sub-01/ses-1/func/*tones*events.tsv | head -1)
+touch -d "@$during" "$ev"
+run "$SPLITROI" analyze study.ini --no-report --no-group --out "$TMP/k" --subjects 01
+if grep -q "sub-01: up to date" "$TMP/err"; then notok "an input changed during the analysis was taken as older than the results"; else ok "an input changed during the analysis redoes the subject"; fi
+run "$SPLITROI" analyze study.ini --no-report --no-group --out "$TMP/k" --subjects 01
+expect_err "sub-01: up to date, skipped" "once redone, the subject is skipped again"
+
+# a parcel that nearest-neighbour resampling loses (one fine voxel the data grid never
+# samples: data voxel centres fall on even fine indices here): its rows are empty with
+# n_voxels 0 (METHODS.md 7), and the warning says why instead of "no candidate voxels"
+"$PY" - <<'PYEOF'
+import nibabel as nib, numpy as np
+im = nib.load('parcels.nii.gz')
+d = np.asarray(im.dataobj).copy()
+d[1, 1, 1] = 9
+nib.save(nib.Nifti1Image(d, im.affine), 'parcels_tiny.nii.gz')
+open('parcels_tiny.tsv', 'w').write(open('parcels.tsv').read().rstrip('\n') + '\n9\ttiny\n')
+PYEOF
+sed -e 's/^image = parcels.nii.gz/image = parcels_tiny.nii.gz/' -e 's/^names = parcels.tsv/names = parcels_tiny.tsv/' study.ini >tiny.ini
+run "$SPLITROI" analyze tiny.ini --no-report --no-group --quiet --out "$TMP/t"
+expect_status 0 "a parcel lost in resampling does not fail the study"
+expect_err "subject 01: parcel tiny .*no voxel on the data grid after nearest-neighbour resampling" "the warning says the parcel was lost in resampling"
+if grep -q "parcel tiny, split .*no candidate voxels" "$TMP/err"; then notok "the lost parcel still gets a 'no candidate voxels' warning per split"; else ok "no per-split warnings for the lost parcel"; fi
+"$PY" - "$TMP/t/responses.csv" <<'PYEOF' && ok "the lost parcel has empty values and n_voxels 0" || notok "rows of the lost parcel wrong"
+import csv, sys
+rows = [r for r in csv.DictReader(open(sys.argv[1])) if r['parcel'] == 'tiny']
+assert len(rows) == 2 * (3 * 3 + 3), len(rows)   # 2 subjects x (3 splits x 3 effects + 3 memory effects)
+assert all(r['value'] == '' and float(r['n_voxels']) == 0 for r in rows), rows[:2]
+PYEOF
