@@ -885,8 +885,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 
 		res->nloc_runs = nl;
 		if (nl < 2) {
-			sr_warnf(e, "subject %s has %d run of task '%s': no cross-validated rows; measured-task rows are still made",
-				 label, nl, st->loc_task);
+			sr_warnf(e, "subject %s has %d run of task '%s': no cross-validated rows%s",
+				 label, nl, st->loc_task,
+				 ntasks > 1 ? "; measured-task rows are still made" :
+				 " and the study measures no other task, so the subject's table is empty");
 		} else if (st->split == SPLIT_ODD_EVEN) {
 			nsplits = 2;
 			splits = xcalloc(2, sizeof *splits);

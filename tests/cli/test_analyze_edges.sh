@@ -81,3 +81,17 @@ rows = [r for r in csv.DictReader(open(sys.argv[1])) if r['parcel'] == 'tiny']
 assert len(rows) == 2 * (3 * 3 + 3), len(rows)   # 2 subjects x (3 splits x 3 effects + 3 memory effects)
 assert all(r['value'] == '' and float(r['n_voxels']) == 0 for r in rows), rows[:2]
 PYEOF
+
+# a subject with one localizer run and no measured task in the study: the warning must
+# not promise measured-task rows; the subject completes with an empty table
+"$PY" - "$TMP/one" <<PYEOF >/dev/null || notok "make_study with one run failed"
+import sys
+sys.path.insert(0, "$HERE/py")
+from make_study import make_study
+make_study(sys.argv[1], subjects=('01', '02'), one_run_subject='02', measure=False)
+PYEOF
+run "$SPLITROI" analyze "$TMP/one/study.ini" --no-report --no-group --quiet
+expect_status 0 "a subject with one localizer run completes"
+expect_err "subject 02 has 1 run of task 'tones': no cross-validated rows" "the one-run subject is named"
+if grep -q "subject 02 has 1 run.*measured-task rows are still made" "$TMP/err"; then notok "the warning promises measured-task rows the study does not have"; else ok "no promise of measured-task rows without a measured task"; fi
+[ -s "$TMP/one/results/sub-02/run.json" ] && [ "$(wc -l <"$TMP/one/results/sub-02/responses.csv")" -eq 1 ] && ok "the one-run subject's table has only the header" || notok "one-run subject's table wrong"
