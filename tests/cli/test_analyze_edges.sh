@@ -24,6 +24,9 @@ expect_err "5x5x4" "the error shows the mask's grid"
 if grep -q "fitting" "$TMP/err"; then notok "runs were fitted with a mask of the wrong size"; else ok "no run is fitted before the mask grid is checked"; fi
 [ ! -e "$TMP/m/sub-01/run.json" ] && [ ! -e "$TMP/m/sub-01/responses.csv" ] && ok "the failed subjects have no tables" || notok "a failed subject left tables"
 expect_out "0 of 2 subjects complete; 0 analyzed now, 2 failed" "the summary counts the two failed subjects, not the table steps"
+run "$SPLITROI" parcels smallmask.ini --out "$TMP/pm"
+expect_status 1 "parcels with a mask on another grid fails"
+expect_err "small_mask.nii.gz: the mask is not on the data grid" "parcels names the mask file"
 
 # the group table cannot be written: the subjects are still counted as analyzed
 run "$SPLITROI" analyze study.ini --no-report --out "$TMP/g" --no-group
