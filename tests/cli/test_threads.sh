@@ -7,6 +7,10 @@ if ! command -v valgrind >/dev/null 2>&1; then
 	echo "skip - valgrind is not installed"
 	exit 0
 fi
+if ldd "$SPLITROI" 2>/dev/null | grep -q 'libasan'; then
+	echo "skip - the binary is built with AddressSanitizer, which cannot run under valgrind"
+	exit 0
+fi
 "$PY" "$HERE/mkstudy.py" "$TMP/s" >/dev/null || { notok "mkstudy.py failed"; exit 1; }
 cd "$TMP/s" || exit 1
 OPENBLAS_NUM_THREADS=1 valgrind --tool=helgrind --log-file="$TMP/hg.log" \
