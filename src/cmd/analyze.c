@@ -407,9 +407,11 @@ static void print_summary(const study *st, const subject_result *res, const int 
 	char **parcels = NULL;
 	size_t np = 0;
 
+	/* only parcels with cross-validated rows: none when no subject has two localizer runs */
 	for (i = 0; i < n; i++)
 		for (k = 0; ran[i] && k < res[i].nrows; k++)
-			if (!has_label(parcels, np, res[i].rows[k].parcel)) {
+			if (strcmp(res[i].rows[k].split, kind) == 0 &&
+			    !has_label(parcels, np, res[i].rows[k].parcel)) {
 				parcels = xrealloc(parcels, (np + 1) * sizeof *parcels);
 				parcels[np++] = res[i].rows[k].parcel;
 			}
