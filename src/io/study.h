@@ -100,6 +100,13 @@ size_t study_line(const study *s, const char *section, const char *key);
 sr_status study_load(const char *path, study *s, study_problems *probs);
 void study_release(study *s);
 
+/* Flags for study_load_flags. */
+enum {
+	STUDY_PARCELS_OPTIONAL = 1   /* [parcels] image may be absent or not exist yet (making parcels) */
+};
+/* study_load with flags (0 = study_load). */
+sr_status study_load_flags(const char *path, study *s, study_problems *probs, unsigned flags);
+
 /* 1 when a path holds the {subject} placeholder (per-subject parcels). */
 int study_per_subject(const char *path);
 /* The path with every {subject} replaced by label; xmalloc'ed, caller frees. */
