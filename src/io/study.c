@@ -946,12 +946,17 @@ static void load_parcels(struct loader *ld, study *s)
 
 static void load_model(struct loader *ld, study *s)
 {
-	static const char *const autocorr[] = { "ar1", "none" };
+	static const char *const autocorr[] = { "ar1", "none", "ar1-adjusted" };
 	static const char *const units[] = { "mm_rad", "mm_deg" };
 	const struct entry *e;
 	double v;
 
-	s->ar1 = choice(ld, get(ld, "model", "autocorrelation"), autocorr, 2, 0) == 0;
+	{
+		/* ar1 = 1 (METHODS.md), none = 0 (OLS), ar1-adjusted = 2 (bias-adjusted rho, glm.h) */
+		static const int code[] = { 1, 0, 2 };
+
+		s->ar1 = code[choice(ld, get(ld, "model", "autocorrelation"), autocorr, 3, 0)];
+	}
 	s->drift_cutoff = 128;
 	e = get(ld, "model", "drift_cutoff");
 	if (e) {

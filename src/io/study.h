@@ -39,7 +39,7 @@ typedef struct study {
 	double select_value;              /* top_percent p, top_voxels N, or min_t t0 */
 	int resample_parcels;             /* nearest-neighbour resampling onto the data grid */
 	/* [model] */
-	int ar1;
+	int ar1;                          /* 1 AR(1), 0 OLS, 2 AR(1) with bias-adjusted rho */
 	double drift_cutoff;              /* seconds; 0 = none */
 	double slice_reference;
 	char **confounds;
