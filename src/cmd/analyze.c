@@ -407,9 +407,11 @@ static void print_summary(const study *st, const subject_result *res, const int 
 	char **parcels = NULL;
 	size_t np = 0;
 
+	/* only parcels with cross-validated rows: none when no subject has two localizer runs */
 	for (i = 0; i < n; i++)
 		for (k = 0; ran[i] && k < res[i].nrows; k++)
-			if (!has_label(parcels, np, res[i].rows[k].parcel)) {
+			if (strcmp(res[i].rows[k].split, kind) == 0 &&
+			    !has_label(parcels, np, res[i].rows[k].parcel)) {
 				parcels = xrealloc(parcels, (np + 1) * sizeof *parcels);
 				parcels[np++] = res[i].rows[k].parcel;
 			}
@@ -492,7 +494,7 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 int cmd_analyze(int argc, char **argv)
 {
 	const char *val[10], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
-	int npos, rc, quiet, nfail = 0;
+	int npos, rc, quiet, nfail = 0, nsubfail;
 	long jobs = 1, threads = 0;
 	study st;
 	study_problems probs = { 0 };
@@ -661,6 +663,8 @@ int cmd_analyze(int argc, char **argv)
 		ran[i] = !w.status[i];
 		nfail += w.status[i];
 	}
+	/* the summary counts subjects; a failed table or report step only sets the exit status */
+	nsubfail = nfail;
 	if (ntodo == 0 && combined_up_to_date(&st, subs, nsub)) {
 		if (!quiet)
 			fprintf(stderr, "splitroi analyze: every subject is up to date; tables left as they are\n");
@@ -680,7 +684,7 @@ int cmd_analyze(int argc, char **argv)
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);
 		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",
-		       ncomplete, nsub, ntodo - (size_t)(nfail > (int)ntodo ? (int)ntodo : nfail), nfail, prog.warnings);
+		       ncomplete, nsub, ntodo - (size_t)nsubfail, nsubfail, prog.warnings);
 		printf("tables: %s/responses.csv (all subjects), %s/sub-<label>/responses.csv\n", st.out,
 		       st.out);
 	}

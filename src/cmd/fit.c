@@ -574,7 +574,7 @@ int cmd_fit(int argc, char **argv)
 		for (r = 0; r < si.nrun; r++)
 			pos[r] = si.bold[r];
 		npos = si.nrun;
-		model = si.ar1 ? GLM_AR1 : GLM_OLS;
+		model = si.ar1 == 2 ? GLM_AR1_ADJUSTED : si.ar1 ? GLM_AR1 : GLM_OLS;
 		drift = si.drift;
 		sref = si.sref;
 		if (!condcol)

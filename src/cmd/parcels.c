@@ -61,8 +61,8 @@ static const cmdline_spec parcels_spec = {
 	"subject, labelled like the matching parcels of the whole group; point the study "
 	"at them with image = DIR/without-sub-{subject}/parcels.nii.gz so that no "
 	"subject's fROI comes from parcels its own data shaped. "
-	"The study's subjects must share one grid, and the study file must load as for "
-	"analyze (its [parcels] image must exist; any label image will do the first time).",
+	"The study's subjects must share one grid. The study file's [parcels] image may "
+	"be left out or not exist yet: this command is how it is made.",
 	parcels_opts,
 };
 
@@ -464,7 +464,7 @@ static int from_study(const char *path, const char *const *val, sr_err *e)
 	}
 	gp.connectivity = (int)conn;
 	gp.have_floor = val[OPT_FLOOR] != NULL;
-	if (study_load(path, &st, &probs) != SR_OK) {
+	if (study_load_flags(path, &st, &probs, STUDY_PARCELS_OPTIONAL) != SR_OK) {
 		for (i = 0; i < probs.n; i++)
 			fprintf(stderr, "splitroi parcels: %s\n", probs.msg[i]);
 		study_problems_release(&probs);
@@ -487,7 +487,7 @@ static int from_study(const char *path, const char *const *val, sr_err *e)
 		nii_grid g;
 		size_t nsig = 0;
 
-		if (subject_localizer_t(&st, subs[s], mask, (int)threads, &g, &t, &df, &nruns, e) != SR_OK)
+		if (subject_localizer_t(&st, subs[s], mask, mask ? &mgrid : NULL, (int)threads, &g, &t, &df, &nruns, e) != SR_OK)
 			goto fail;
 		if (s == 0) {
 			grid = g;

@@ -1,6 +1,7 @@
 /* subject.c - one subject's analysis: fit every run once, form the splits, define fROIs, measure. */
 #include "subject.h"
 
+#include <fcntl.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -260,6 +261,7 @@ typedef struct task_fit {
 	unsigned char *missing;     /* ne: names a condition this subject lacks */
 	runfit_result *res;         /* nruns, after fitting */
 	double *tr;
+	nii_grid *grid;             /* nruns: each run's grid from its header, checked before fitting */
 	char **confpath;
 } task_fit;
 
@@ -287,6 +289,7 @@ static void task_release(task_fit *t)
 	free(t->C);
 	free(t->missing);
 	free(t->tr);
+	free(t->grid);
 	bids_runs_release(t->runs, t->nruns);
 	memset(t, 0, sizeof *t);
 }
@@ -305,6 +308,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 		return sr_fail(e, SR_ESTUDY, "%s: subject %s has no runs of task '%s' under %s",
 			       st->path, label, t->task, st->bids);
 	t->tr = xcalloc(t->nruns, sizeof *t->tr);
+	t->grid = xcalloc(t->nruns, sizeof *t->grid);
 	t->confpath = xcalloc(t->nruns, sizeof *t->confpath);
 	(void)cap;
 	for (i = 0; i < t->nruns; i++) {
@@ -342,6 +346,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 		rc = nii_read_info(t->runs[i].bold, &info, e);
 		if (rc)
 			return rc;
+		t->grid[i] = info.grid;
 		rc = bids_run_tr(st->bids, &t->runs[i], info.tr, &t->tr[i], e);
 		if (rc)
 			return rc;
@@ -698,6 +703,48 @@ static sr_status write_run_files(const char *dir, const task_fit *tasks, size_t 
 	return rc;
 }
 
+/* Per parcel: 1 when no voxel of labels (nvox, on the data grid) carries its label. */
+static unsigned char *lost_parcels(const parcel_set *ps, const int32_t *labels, size_t nvox)
+{
+	unsigned char *lost = xmalloc((size_t)ps->n + 1);
+	size_t v;
+
+	memset(lost, 1, (size_t)ps->n + 1);
+	for (v = 0; v < nvox; v++) {
+		const int32_t *hit;
+
+		if (labels[v] == 0)
+			continue;
+		hit = bsearch(&labels[v], ps->index, (size_t)ps->n, sizeof *ps->index, cmp_i32);
+		if (hit)
+			lost[hit - ps->index] = 0;
+	}
+	return lost;
+}
+
+/*
+ * Every run on the grid of the first localizer run, and the mask on it too,
+ * from the headers: before fitting, because the fit reads the mask with the
+ * run's voxel count (a smaller mask would be read past its end).
+ */
+static sr_status check_grids(const task_fit *tasks, size_t ntasks, const char *mask_path,
+			     const nii_grid *mask_grid, sr_err *e)
+{
+	const nii_grid *g = &tasks[0].grid[0];
+	char buf[1024];
+	size_t i, r;
+
+	for (i = 0; i < ntasks; i++)
+		for (r = 0; r < tasks[i].nruns; r++)
+			if (!nii_same_grid(g, &tasks[i].grid[r], 1e-3, buf, sizeof buf))
+				return sr_fail(e, SR_EDIM, "%s: not on the grid of %s: %s", tasks[i].runs[r].bold,
+					       tasks[0].runs[0].bold, buf);
+	if (mask_grid && !nii_same_grid(g, mask_grid, 1e-3, buf, sizeof buf))
+		return sr_fail(e, SR_EDIM, "%s: the mask is not on the data grid of %s: %s", mask_path,
+			       tasks[0].runs[0].bold, buf);
+	return SR_OK;
+}
+
 sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
 			  sr_err *e)
 {
@@ -712,15 +759,18 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	runfit_result *results = NULL;
 	sr_err *errs = NULL;
 	int32_t *labels = NULL, *labels_owned = NULL;
+	unsigned char *lost = NULL;    /* per parcel: no voxel left after resampling */
 	nii_grid grid;
 	char dir[2048], path[4096], buf[1024];
 	double t0 = now_seconds();
+	struct timespec started;
 	sr_status rc = SR_OK;
 	split *splits = NULL;
 	int nsplits = 0, s, p, j;
 	jdoc *rec = NULL;
 
 	memset(res, 0, sizeof *res);
+	clock_gettime(CLOCK_REALTIME, &started);
 	if (strlen(st->out) + strlen(label) + 8 > sizeof dir)
 		return sr_fail(e, SR_EINVAL, "%s: the output folder name is too long", st->out);
 	snprintf(dir, sizeof dir, "%s/sub-%s", st->out, label);
@@ -764,6 +814,9 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 		nruns_all += tasks[i].nruns;
 	}
+	rc = check_grids(tasks, ntasks, st->mask, ctx->mask_grid, e);
+	if (rc)
+		goto out;
 	/* fit every run of every task once, in parallel */
 	specs = xcalloc(nruns_all, sizeof *specs);
 	results = xcalloc(nruns_all, sizeof *results);
@@ -803,22 +856,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	/* one grid for all of the subject's runs */
 	grid = tasks[0].res[0].info.grid;
 	nvox = nii_nvox(&grid);
-	for (i = 0; i < ntasks; i++) {
-		size_t r;
-
-		for (r = 0; r < tasks[i].nruns; r++)
-			if (!nii_same_grid(&grid, &tasks[i].res[r].info.grid, 1e-3, buf, sizeof buf)) {
-				rc = sr_fail(e, SR_EDIM, "%s: not on the grid of %s: %s", tasks[i].runs[r].bold,
-					     tasks[0].runs[0].bold, buf);
-				goto out;
-			}
+	for (i = 0; i < ntasks; i++)
 		warn_estimability(&tasks[i], e);
-	}
-	if (ctx->mask_grid && !nii_same_grid(&grid, ctx->mask_grid, 1e-3, buf, sizeof buf)) {
-		rc = sr_fail(e, SR_EDIM, "%s: the mask is not on the data grid of %s: %s", st->mask,
-			     tasks[0].runs[0].bold, buf);
-		goto out;
-	}
 	if (nii_same_grid(&grid, &ps->grid, 1e-3, buf, sizeof buf)) {
 		labels = ps->labels;
 	} else if (st->resample_parcels) {
@@ -832,6 +871,11 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 		}
 		labels = labels_owned;
+		lost = lost_parcels(ps, labels, nvox);
+		for (p = 0; p < ps->n; p++)
+			if (lost[p])
+				sr_warnf(e, "subject %s: parcel %s (label %d) has no voxel on the data grid after nearest-neighbour resampling of %s; its rows are empty",
+					 label, ps->name[p], (int)ps->index[p], own_image ? own_image : st->parcels);
 	} else {
 		rc = sr_fail(e, SR_EDIM,
 			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
@@ -845,8 +889,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 
 		res->nloc_runs = nl;
 		if (nl < 2) {
-			sr_warnf(e, "subject %s has %d run of task '%s': no cross-validated rows; measured-task rows are still made",
-				 label, nl, st->loc_task);
+			sr_warnf(e, "subject %s has %d run of task '%s': no cross-validated rows%s",
+				 label, nl, st->loc_task,
+				 ntasks > 1 ? "; measured-task rows are still made" :
+				 " and the study measures no other task, so the subject's table is empty");
 		} else if (st->split == SPLIT_ODD_EVEN) {
 			nsplits = 2;
 			splits = xcalloc(2, sizeof *splits);
@@ -920,7 +966,9 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				}
 			}
 			for (p = 0; p < ps->n; p++) {
-				if (f.ncand[p] == 0)
+				if (lost && lost[p])
+					;   /* said once above */
+				else if (f.ncand[p] == 0)
 					sr_warnf(e, "subject %s, parcel %s, split %s: no candidate voxels; the fROI is empty",
 						 label, ps->name[p], splits[s].name);
 				else if (f.count[p] == 0)
@@ -975,7 +1023,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			define_frois(st, loc, lpos, (int)loc->nruns, NULL, 0, mt, labels, ps, nvox, &f);
 			all_runs_list(mt, meas, sizeof meas);
 			for (p = 0; p < ps->n; p++) {
-				if (f.count[p] == 0)
+				if (f.count[p] == 0 && !(lost && lost[p]))
 					sr_warnf(e, "subject %s, parcel %s, task %s: the fROI defined on all localizer runs is empty",
 						 label, ps->name[p], mt->task);
 			}
@@ -1027,6 +1075,13 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	jdoc_set_num(rec, "seconds", res->seconds);
 	snprintf(path, sizeof path, "%s/run.json", dir);
 	rc = jdoc_write(rec, path, e);
+	if (!rc) {
+		/* the skip rule compares this time with the inputs': an input changed while
+		   this subject ran (after it was read) must count as newer than the results */
+		struct timespec when[2] = { started, started };
+
+		utimensat(AT_FDCWD, path, when, 0);
+	}
 out:
 	jdoc_free(rec);
 	if (results)
@@ -1045,18 +1100,22 @@ out:
 	free(tasks);
 	free(loc_effects);
 	free(labels_owned);
+	free(lost);
 	parcel_set_release(&own_ps);
 	free(own_image);
 	free(own_names);
 	if (rc) {
+		/* the table may already be written when the completion record fails */
 		snprintf(path, sizeof path, "%s/run.json", dir);
+		remove(path);
+		snprintf(path, sizeof path, "%s/responses.csv", dir);
 		remove(path);
 	}
 	return rc;
 }
 
 sr_status subject_localizer_t(const study *st, const char *label, const unsigned char *mask,
-			      int nthreads, nii_grid *grid, double **t, int **df, int *nruns,
+			      const nii_grid *mask_grid, int nthreads, nii_grid *grid, double **t, int **df, int *nruns,
 			      sr_err *e)
 {
 	task_fit loc;
@@ -1065,7 +1124,6 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	sr_err *errs = NULL;
 	int *pos = NULL;
 	size_t i, nvox;
-	char buf[1024];
 	sr_status rc;
 
 	*t = NULL;
@@ -1076,6 +1134,9 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	loc.effects = &st->contrast;
 	loc.ne = 1;
 	rc = task_prepare(st, label, &loc, e);
+	if (rc)
+		goto out;
+	rc = check_grids(&loc, 1, st->mask, mask_grid, e);
 	if (rc)
 		goto out;
 	specs = xcalloc(loc.nruns, sizeof *specs);
@@ -1097,12 +1158,6 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	}
 	*grid = loc.res[0].info.grid;
 	nvox = nii_nvox(grid);
-	for (i = 1; i < loc.nruns; i++)
-		if (!nii_same_grid(grid, &loc.res[i].info.grid, 1e-3, buf, sizeof buf)) {
-			rc = sr_fail(e, SR_EDIM, "%s: not on the grid of %s: %s", loc.runs[i].bold,
-				     loc.runs[0].bold, buf);
-			goto out;
-		}
 	warn_estimability(&loc, e);
 	pos = xmalloc_array(loc.nruns, sizeof *pos);
 	for (i = 0; i < loc.nruns; i++)

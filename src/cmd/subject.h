@@ -74,11 +74,12 @@ extern const size_t subject_ncolumns;
  * its per-voxel degrees of freedom (NaN and 0 where no run is analyzable, or
  * everywhere when the subject lacks a condition of the contrast), *grid the
  * runs' grid (all runs must share it) and *nruns the runs fitted. Used by the
- * parcels command; mask and nthreads as in subject_ctx.
+ * parcels command; mask, mask_grid and nthreads as in subject_ctx (the mask
+ * grid is checked against the runs' before fitting).
  */
 sr_status subject_localizer_t(const study *st, const char *label, const unsigned char *mask,
-			      int nthreads, nii_grid *grid, double **t, int **df, int *nruns,
-			      sr_err *e);
+			      const nii_grid *mask_grid, int nthreads, nii_grid *grid, double **t,
+			      int **df, int *nruns, sr_err *e);
 
 /*
  * Reads a parcels image and its names table: the study's, or a subject's own

@@ -20,9 +20,12 @@
 /* Gamma density with shape a, scale 1, evaluated in logs so large shapes do not overflow. */
 static double gamma_pdf(double t, double a)
 {
+	int sign;
+
 	if (!(t > 0.0))
 		return 0.0;
-	return exp((a - 1.0) * log(t) - t - lgamma(a));
+	/* lgamma_r: lgamma stores the sign in the global signgam, a data race when runs are fitted in parallel */
+	return exp((a - 1.0) * log(t) - t - lgamma_r(a, &sign));
 }
 
 /*

@@ -81,6 +81,7 @@ enum line_kind { AFTER_NOTHING, AFTER_KEY, AFTER_DROPPED_KEY };
 
 struct loader {
 	const char *path;      /* as given, for messages */
+	unsigned flags;        /* STUDY_* */
 	char *dir;             /* absolute folder of the file */
 	const char *text;
 	size_t len, pos;
@@ -870,14 +871,18 @@ static void load_parcels(struct loader *ld, study *s)
 	size_t i, nsel = 0;
 	int which = -1;
 
+	int need = !(ld->flags & STUDY_PARCELS_OPTIONAL);
+
 	e = get(ld, "parcels", "image");
-	if (!val(e))
-		missing(ld, "parcels", "image", "the parcel label image");
-	else
+	if (!val(e)) {
+		if (need)
+			missing(ld, "parcels", "image", "the parcel label image");
+	} else {
 		/* with {subject}, each subject's file is checked when it is read */
-		s->parcels = path_key(ld, e, study_per_subject(e->value) ? 0 : 1);
+		s->parcels = path_key(ld, e, need && !study_per_subject(e->value) ? 1 : 0);
+	}
 	e = get(ld, "parcels", "names");
-	s->parcel_names = path_key(ld, e, e && study_per_subject(e->value) ? 0 : 1);
+	s->parcel_names = path_key(ld, e, need && !(e && study_per_subject(e->value)) ? 1 : 0);
 	s->resample_parcels = choice(ld, get(ld, "parcels", "resample"), resample, 2, 0);
 	for (i = 0; i < 3; i++) {
 		sel[i] = get(ld, "parcels", selkey[i]);
@@ -941,12 +946,17 @@ static void load_parcels(struct loader *ld, study *s)
 
 static void load_model(struct loader *ld, study *s)
 {
-	static const char *const autocorr[] = { "ar1", "none" };
+	static const char *const autocorr[] = { "ar1", "none", "ar1-adjusted" };
 	static const char *const units[] = { "mm_rad", "mm_deg" };
 	const struct entry *e;
 	double v;
 
-	s->ar1 = choice(ld, get(ld, "model", "autocorrelation"), autocorr, 2, 0) == 0;
+	{
+		/* ar1 = 1 (METHODS.md), none = 0 (OLS), ar1-adjusted = 2 (bias-adjusted rho, glm.h) */
+		static const int code[] = { 1, 0, 2 };
+
+		s->ar1 = code[choice(ld, get(ld, "model", "autocorrelation"), autocorr, 3, 0)];
+	}
 	s->drift_cutoff = 128;
 	e = get(ld, "model", "drift_cutoff");
 	if (e) {
@@ -1103,6 +1113,11 @@ static void loader_release(struct loader *ld)
 
 sr_status study_load(const char *path, study *s, study_problems *probs)
 {
+	return study_load_flags(path, s, probs, 0);
+}
+
+sr_status study_load_flags(const char *path, study *s, study_problems *probs, unsigned flags)
+{
 	struct loader ld;
 	sr_status st = SR_OK;
 	size_t i;
@@ -1112,6 +1127,7 @@ sr_status study_load(const char *path, study *s, study_problems *probs)
 	memset(s, 0, sizeof *s);
 	memset(&ld, 0, sizeof ld);
 	ld.path = path;
+	ld.flags = flags;
 	text = slurp(&ld, path, &ld.len);
 	if (!text) {
 		st = SR_EIO;

@@ -39,7 +39,7 @@ typedef struct study {
 	double select_value;              /* top_percent p, top_voxels N, or min_t t0 */
 	int resample_parcels;             /* nearest-neighbour resampling onto the data grid */
 	/* [model] */
-	int ar1;
+	int ar1;                          /* 1 AR(1), 0 OLS, 2 AR(1) with bias-adjusted rho */
 	double drift_cutoff;              /* seconds; 0 = none */
 	double slice_reference;
 	char **confounds;
@@ -99,6 +99,13 @@ size_t study_line(const study *s, const char *section, const char *key);
  */
 sr_status study_load(const char *path, study *s, study_problems *probs);
 void study_release(study *s);
+
+/* Flags for study_load_flags. */
+enum {
+	STUDY_PARCELS_OPTIONAL = 1   /* [parcels] image may be absent or not exist yet (making parcels) */
+};
+/* study_load with flags (0 = study_load). */
+sr_status study_load_flags(const char *path, study *s, study_problems *probs, unsigned flags);
 
 /* 1 when a path holds the {subject} placeholder (per-subject parcels). */
 int study_per_subject(const char *path);

@@ -90,3 +90,19 @@ run "$SPLITROI" analyze per.ini --quiet --out "$TMP/per2" --no-group
 expect_status 1 "a subject without its own parcels fails"
 expect_err "without-sub-02/parcels.nii.gz" "the missing per-subject file is named"
 [ -s "$TMP/per2/sub-01/run.json" ] && ok "the other subject still completes" || notok "one subject's missing parcels stopped the other"
+
+# the optional bias-adjusted AR(1): accepted by the study file, changes t (so the
+# fROIs may move) but leaves percent signal change nearly where it was
+sed 's/^autocorrelation = .*/autocorrelation = ar1-adjusted/' study.ini >adj.ini
+run "$SPLITROI" analyze adj.ini --quiet --no-report --no-group --out "$TMP/adj"
+expect_status 0 "autocorrelation = ar1-adjusted runs"
+"$PY" - results/responses.csv "$TMP/adj/responses.csv" <<'PYEOF' && ok "ar1-adjusted changes values a little, not a lot" || notok "ar1-adjusted values look wrong"
+import csv, sys
+a = {(r['subject'], r['parcel'], r['split'], r['effect']): r['value'] for r in csv.DictReader(open(sys.argv[1]))}
+b = {(r['subject'], r['parcel'], r['split'], r['effect']): r['value'] for r in csv.DictReader(open(sys.argv[2]))}
+assert a.keys() == b.keys()
+pairs = [(float(a[k]), float(b[k])) for k in a if a[k] and b[k] and k[2] == 'all']
+assert pairs and any(x != y for x, y in pairs)
+# measured-task rows: same betas in most voxels; the fROI may differ by a voxel or two
+assert sum(abs(x - y) for x, y in pairs) / len(pairs) < 0.25, pairs[:3]
+PYEOF

@@ -92,3 +92,19 @@ PYEOF
 	done
 	[ -z "$lack" ] && ok "without-sub-03 holds parcels, table and overlap maps" || notok "without-sub-03 lacks$lack"
 fi
+
+# a study with no parcels yet: make them with one command, then analyze with them
+if [ "${SPLITROI_TEST_LEVEL:-full}" = quick ]; then
+	echo "skip - parcels-first study at quick level"
+else
+	run "$SPLITROI" simulate --out "$TMP/np" --subjects 4 --grid small --seed 5 --quiet
+	sed -e 's|^image = .*|image = made/parcels.nii.gz|' -e 's|^names = .*|names = made/parcels.tsv|' "$TMP/np/study.ini" >"$TMP/np/first.ini"
+	run "$SPLITROI" analyze "$TMP/np/first.ini" --quiet
+	expect_status 1 "analyze refuses a study whose parcels do not exist yet"
+	expect_err "made/parcels.nii.gz.*does not exist" "the missing parcels are named"
+	run "$SPLITROI" parcels "$TMP/np/first.ini" --out "$TMP/np/made" --quiet
+	expect_status 0 "parcels accepts a study whose parcels do not exist yet"
+	run "$SPLITROI" analyze "$TMP/np/first.ini" --quiet --no-report
+	expect_status 0 "analyze runs with the parcels just made"
+	[ -s "$TMP/np/results/group.csv" ] && ok "group table from the new parcels" || notok "no group table from the new parcels"
+fi
