@@ -16,8 +16,12 @@ endif
 OPT ?= -O2 -g
 SAN ?=
 PKGS = zlib lapacke openblas inih jansson libpng
-PKG_CFLAGS := $(shell pkg-config --cflags $(PKGS) 2>/dev/null)
-PKG_LIBS := $(shell pkg-config --libs $(PKGS) 2>/dev/null)
+# The flags are asked of pkg-config when a recipe first needs them, never when this
+# file is read: on a bare machine `make demo` installs pkg-config and the libraries
+# first (tools/deps.sh), so a value taken at parse time would be empty. Each is
+# computed once (the assignment replaces itself with its value).
+PKG_CFLAGS = $(eval PKG_CFLAGS := $(shell pkg-config --cflags $(PKGS) 2>/dev/null))$(PKG_CFLAGS)
+PKG_LIBS = $(eval PKG_LIBS := $(shell pkg-config --libs $(PKGS) 2>/dev/null))$(PKG_LIBS)
 # nifticlib and libcsv ship no pkg-config file on Debian
 NIFTI_CFLAGS = -I/usr/include/nifti
 NIFTI_LIBS = -lnifti2 -lnifticdf -lznz
@@ -33,10 +37,15 @@ TEST_BIN := $(TEST_SRC:tests/unit/%.c=$(BUILD)/tests/%)
 TOOL_SRC := $(sort $(wildcard tests/tools/*.c))
 TOOL_BIN := $(TOOL_SRC:tests/tools/%.c=$(BUILD)/tests/tools/%)
 
-.PHONY: all deps check check-asan check-valgrind test demo bench install uninstall clean
+.PHONY: all deps deps-build need-libs check check-asan check-valgrind test demo bench install uninstall clean
 all: $(BUILD)/splitroi
 
-$(BUILD)/%.o: %.c
+# Stops a build on a machine without the libraries with the one command that fixes it,
+# instead of hundreds of compiler errors.
+need-libs:
+	@bash tools/deps.sh --verify
+
+$(BUILD)/%.o: %.c | need-libs
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -MMD -MP -c $< -o $@
 
@@ -55,14 +64,20 @@ $(BUILD)/tests/tools/%: tests/tools/%.c $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
 
-# Installs the Debian packages the build and tests need (only those missing).
+# Installs the Debian packages (only those missing): deps-build what the build and
+# the demo need, deps also what the tests need.
 deps:
-	@bash tools/deps.sh
+	@bash tools/deps.sh test
+
+deps-build:
+	@bash tools/deps.sh build
 
 # Every test: unit binaries, command-line scripts, Python reference checks.
 test: all $(TEST_BIN) $(TOOL_BIN)
 	@BUILD=$(BUILD) PYTHON=$(PYTHON) bash tests/run.sh
 
+# The targets that install packages first run a second make for the rest, so that
+# nothing it does depends on what the machine had when this file was read.
 check: deps
 	@$(MAKE) --no-print-directory test
 
@@ -72,13 +87,16 @@ check-asan: deps
 		SAN="-fsanitize=address,undefined -fno-sanitize-recover=undefined" \
 		SPLITROI_TEST_LEVEL=quick test
 
-check-valgrind: deps all $(TEST_BIN)
+check-valgrind: deps
+	@$(MAKE) --no-print-directory all $(TEST_BIN)
 	@BUILD=$(BUILD) PYTHON=$(PYTHON) SPLITROI_VALGRIND=1 bash tests/run.sh unit
 
-demo: deps all
+demo: deps-build
+	@$(MAKE) --no-print-directory all
 	@bash tools/demo.sh $(BUILD)/splitroi
 
-bench: deps all
+bench: deps
+	@$(MAKE) --no-print-directory all
 	@bash tools/bench.sh $(BUILD)/splitroi
 
 install: all

@@ -10,15 +10,52 @@ if [ ! -x "$BIN" ]; then
 	echo "demo: no binary at $BIN (run make first)" >&2
 	exit 1
 fi
-# replace only an earlier demo, never a folder of someone else's
-if [ -e "$OUT" ]; then
-	if [ -f "$OUT/truth.csv" ] && [ -f "$OUT/study.ini" ] && [ -d "$OUT/data" ]; then
-		rm -rf "$OUT"
-	else
-		echo "demo: $OUT exists and is not an earlier demo; move it away or set DEMO_DIR" >&2
+# The demo removes only what an earlier demo wrote: it keeps a manifest of its own files
+# ($OUT/.demo-files: checksum and path of each) and, on the next run, deletes exactly those.
+# A file someone added is never touched; a demo file someone changed stops the demo, named,
+# rather than being lost.
+MANIFEST=$OUT/.demo-files
+if [ -e "$OUT" ] && [ ! -d "$OUT" ]; then
+	echo "demo: $OUT exists and is not a folder; move it away or set DEMO_DIR" >&2
+	exit 1
+fi
+if [ -d "$OUT" ]; then
+	if [ -f "$MANIFEST" ]; then
+		changed=$(cd "$OUT" && sha256sum --check --quiet --ignore-missing .demo-files 2>/dev/null | sed -n 's/: FAILED.*$//p')
+		if [ -n "$changed" ]; then
+			echo "demo: these files of the earlier demo in $OUT/ were changed since it wrote them:" >&2
+			echo "$changed" | sed "s|^|  $OUT/|" >&2
+			echo "demo: nothing was removed; move them away (or set DEMO_DIR) and run it again" >&2
+			exit 1
+		fi
+		# delete the listed files, then the folders they leave empty (deepest first)
+		(cd "$OUT" && cut -c67- .demo-files | while IFS= read -r f; do rm -f -- "$f"; done
+			cut -c67- .demo-files | sed -n 's|/[^/]*$||p' | sort -u -r | while IFS= read -r d; do
+				while [ -n "$d" ] && [ "$d" != . ]; do rmdir -- "$d" 2>/dev/null || break; d=$(dirname -- "$d"); done
+			done)
+		rm -f "$MANIFEST"
+	elif [ -n "$(ls -A "$OUT")" ]; then
+		echo "demo: $OUT/ holds files that no demo recorded as its own (no $MANIFEST)." >&2
+		if [ -f "$OUT/truth.csv" ] && [ -f "$OUT/study.ini" ] && [ -d "$OUT/data" ]; then
+			echo "demo: it looks like a demo made by an older version; remove it yourself if it is (rm -r $OUT)," >&2
+		fi
+		echo "demo: or set DEMO_DIR to another folder" >&2
 		exit 1
 	fi
 fi
+mkdir -p "$OUT" || exit 1
+# what was there before (files someone added since the last demo) is not the demo's
+before=$(mktemp) && (cd "$OUT" && find . -type f ! -name .demo-files | sort >"$before")
+record_manifest() { # lists every file the demo wrote, also after a failure, so a rerun can clean up
+	local now tmp
+	now=$(mktemp)
+	(cd "$OUT" && find . -type f ! -name .demo-files ! -name '.demo-files.*' | sort >"$now")
+	tmp=$OUT/.demo-files.$$
+	(cd "$OUT" && comm -13 "$before" "$now" | sed 's|^\./||' | tr '\n' '\0' | xargs -0 -r sha256sum --) >"$tmp" &&
+		mv "$tmp" "$MANIFEST"
+	rm -f "$before" "$now" "$tmp"
+}
+trap record_manifest EXIT
 
 # Seed 3, not 1: with seed 1 one row of the null parcel came out at q < 0.05 (occipital_control
 # memory novel, -0.034 +/- 0.014, p = 0.045) and with seed 2 two tones rows did; chance, not bias:
@@ -31,7 +68,24 @@ fi
 # effect significant and no null one.
 SEED=3
 echo "== simulating the demo study into $OUT/"
-"$BIN" simulate --out "$OUT" --subjects 8 --grid small --seed "$SEED" --quiet || exit 1
+# simulate writes only into an empty folder: stage it there, then move the files in,
+# refusing (and moving nothing) when a file someone added has a path the demo needs
+stage=$OUT/.demo-new.$$
+# DEMO_SIZE: only tests/cli/test_demo.sh sets it, to a smaller study than the demo's 8 subjects
+# shellcheck disable=SC2086
+"$BIN" simulate --out "$stage" ${DEMO_SIZE:---subjects 8} --grid small --seed "$SEED" --quiet || { rm -rf "$stage"; exit 1; }
+clash=$(cd "$stage" && find . -type f | while IFS= read -r f; do [ -e "../$f" ] && echo "${f#./}"; done)
+if [ -n "$clash" ]; then
+	echo "demo: these files in $OUT/ are not the demo's but have the paths it writes:" >&2
+	echo "$clash" | head -10 | sed "s|^|  $OUT/|" >&2
+	echo "demo: nothing was changed; move them away (or set DEMO_DIR) and run it again" >&2
+	rm -rf "$stage"
+	exit 1
+fi
+(cd "$stage" && find . -type f | while IFS= read -r f; do
+	mkdir -p "../$(dirname "$f")" && mv "$f" "../$f" || exit 1
+done) || { echo "demo: cannot move the simulated study into $OUT" >&2; rm -rf "$stage"; exit 1; }
+rm -rf "$stage"
 
 has() { "$BIN" help "$1" >/dev/null 2>&1; }
 if has check; then
