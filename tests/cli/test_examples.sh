@@ -5,7 +5,7 @@ ROOT=$(cd "$(dirname "$0")/../.." && pwd)
 
 # example file, then the simulate options that make its data
 examples="visual_odd_even.ini:--scenario=visual
-reading_leave_one_out.ini:--scenario=reading
+numbers_leave_one_out.ini:--scenario=numbers
 motor_top_voxels_resampled.ini:--scenario=motor --parcel-grid=fine"
 
 have_check=0
