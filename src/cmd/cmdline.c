@@ -25,6 +25,11 @@ void cmdline_error(const char *command, const char *fmt, ...)
 	fputc('\n', stderr);
 }
 
+static int is_renamed(const cmdline_opt *o)
+{
+	return o->arg && strcmp(o->arg, CMDLINE_RENAMED) == 0;
+}
+
 void cmdline_usage(const cmdline_spec *spec, FILE *f)
 {
 	const cmdline_opt *o;
@@ -33,6 +38,9 @@ void cmdline_usage(const cmdline_spec *spec, FILE *f)
 	fprintf(f, "usage: splitroi %s %s\n\n%s\n", spec->command, spec->usage, spec->about);
 	for (o = spec->opts; o && o->name; o++) {
 		int w = (int)strlen(o->name) + (o->arg ? (int)strlen(o->arg) + 1 : 0);
+
+		if (is_renamed(o))
+			continue;
 		if (w > width)
 			width = w;
 	}
@@ -41,6 +49,8 @@ void cmdline_usage(const cmdline_spec *spec, FILE *f)
 	for (o = spec->opts; o && o->name; o++) {
 		char left[128];
 
+		if (is_renamed(o))
+			continue;
 		snprintf(left, sizeof left, "%s%s%s", o->name, o->arg ? " " : "", o->arg ? o->arg : "");
 		fprintf(f, "  --%-*s  %s\n", width, left, o->help);
 	}
@@ -66,7 +76,8 @@ static void suggest(const cmdline_spec *spec, const char *bad)
 	int i;
 
 	for (i = 0; spec->opts && spec->opts[i].name && n < 63; i++)
-		names[n++] = spec->opts[i].name;
+		if (!is_renamed(&spec->opts[i]))
+			names[n++] = spec->opts[i].name;
 	names[n++] = "help";
 	near = text_nearest(bad, names, n);
 	if (near)
@@ -116,6 +127,11 @@ int cmdline_parse(const cmdline_spec *spec, int argc, char **argv,
 
 			snprintf(buf, sizeof buf, "%.*s", (int)len, name);
 			suggest(spec, buf);
+			return 2;
+		}
+		if (is_renamed(&spec->opts[k])) {
+			cmdline_error(spec->command, "'--%s' is now '--%s' (see 'splitroi help %s')",
+				      spec->opts[k].name, spec->opts[k].help, spec->command);
 			return 2;
 		}
 		if (!spec->opts[k].arg) {

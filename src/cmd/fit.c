@@ -27,15 +27,17 @@ static const cmdline_opt opts[] = {
 	{ "tr", "S", "repetition time in seconds (default: the _bold.json sidecar, else the header)" },
 	{ "confounds", "LIST", "confounds TSV files, comma separated, one per run" },
 	{ "confound-columns", "NAMES", "confound columns to use, space or comma separated" },
-	{ "model", "M", "ar1 (default), ar1-adjusted (bias-adjusted rho) or ols" },
+	{ "autocorrelation", "M", "ar1 (default), ar1-adjusted (bias-adjusted rho) or none (OLS), as in the study file" },
 	{ "drift-cutoff", "S", "cosine drift cutoff in seconds (default 128), or none" },
-	{ "slice-reference", "F", "fraction of the TR at which a volume counts as sampled (default 0.5)" },
+	{ "volume-time", "F", "fraction of the TR at which a volume counts as acquired (default 0.5)" },
 	{ "mask", "FILE", "optional 3-D brain mask on the data grid (non-zero = inside)" },
 	{ "threads", "N", "threads (default: the CPU count); results do not depend on N" },
 	{ "quiet", NULL, "no summary line (warnings still shown)" },
 	{ "study", "STUDY.ini", "take runs, events, TR, confounds, model and effects from a study file" },
 	{ "subject", "LABEL", "with --study: the subject (label without sub-)" },
 	{ "task", "TASK", "with --study: the task (default: the localizer task)" },
+	{ "model", CMDLINE_RENAMED, "autocorrelation" },
+	{ "slice-reference", CMDLINE_RENAMED, "volume-time" },
 	{ NULL, NULL, NULL },
 };
 enum { O_OUT, O_EVENTS, O_CONDCOL, O_EFFECT, O_TR, O_CONF, O_CONFCOLS, O_MODEL, O_DRIFT, O_SLICE,
@@ -46,7 +48,7 @@ static const cmdline_spec spec = {
 	"       splitroi fit --study STUDY.ini --subject LABEL [--task TASK] --out DIR [options]",
 	"Fits a first-level GLM to each BOLD run: one column per condition (events\n"
 	"convolved with a two-gamma response), the named confounds, cosine drifts and\n"
-	"a constant; each voxel's series is scaled to percent of its mean, then fitted\n"
+	"a baseline; each voxel's series is scaled to percent of its mean, then fitted\n"
 	"by OLS or AR(1) Prais-Winsten in one streamed pass over the volumes. Writes,\n"
 	"per run and, with several runs, combined over them (fixed effects), an effect\n"
 	"map (percent signal change) and a t map for every condition and effect:\n"
@@ -350,9 +352,9 @@ static int write_design(const char *dir, const char *base, const design *d, char
 		else if (j < d->ncond + d->nconf)
 			csv_field(a.f, s->confound_names[j - d->ncond]);
 		else if (j < d->ncond + d->nconf + d->ndrift)
-			fprintf(a.f, "drift_%d", j - d->ncond - d->nconf + 1);
+			fprintf(a.f, "cos_%d", j - d->ncond - d->nconf + 1);
 		else
-			fputs("constant", a.f);
+			fputs("baseline", a.f);
 	}
 	fputs("\r\n", a.f);
 	for (k = 0; k < d->T; k++) {
@@ -490,7 +492,7 @@ static int load_study_inputs(const char *path, const char *subject, const char *
 		in->ccols[i] = xstrdup(st.confounds[i]);
 	in->ar1 = st.ar1;
 	in->drift = st.drift_cutoff;
-	in->sref = st.slice_reference;
+	in->sref = st.volume_time;
 	in->condcol = xstrdup(st.condition_column ? st.condition_column : "trial_type");
 	in->mask = st.mask ? xstrdup(st.mask) : NULL;
 	/* conditions are always fitted: keep the effects that are combinations */
@@ -599,10 +601,13 @@ int cmd_fit(int argc, char **argv)
 			model = GLM_AR1;
 		else if (strcmp(val[O_MODEL], "ar1-adjusted") == 0)
 			model = GLM_AR1_ADJUSTED;
-		else if (strcmp(val[O_MODEL], "ols") == 0)
+		else if (strcmp(val[O_MODEL], "none") == 0)
 			model = GLM_OLS;
-		else {
-			cmdline_error("fit", "--model must be ar1, ar1-adjusted or ols, not '%s'", val[O_MODEL]);
+		else if (strcmp(val[O_MODEL], "ols") == 0) {
+			cmdline_error("fit", "--autocorrelation: 'ols' is now called 'none' (no autocorrelation model: ordinary least squares)");
+			goto out;
+		} else {
+			cmdline_error("fit", "--autocorrelation must be ar1, ar1-adjusted or none, not '%s'", val[O_MODEL]);
 			goto out;
 		}
 	}
@@ -612,7 +617,7 @@ int cmd_fit(int argc, char **argv)
 		else if (cmdline_double("fit", "--drift-cutoff", val[O_DRIFT], 1e-3, 1e9, &drift))
 			goto out;
 	}
-	if (val[O_SLICE] && cmdline_double("fit", "--slice-reference", val[O_SLICE], 0.0, 1.0, &sref))
+	if (val[O_SLICE] && cmdline_double("fit", "--volume-time", val[O_SLICE], 0.0, 1.0, &sref))
 		goto out;
 	threads = sysconf(_SC_NPROCESSORS_ONLN);
 	if (threads < 1)
@@ -774,7 +779,7 @@ int cmd_fit(int argc, char **argv)
 		s->confound_names = (const char *const *)ccols;
 		s->nconf = confs ? nccol : 0;
 		s->tr = tr[r];
-		s->slice_ref = sref;
+		s->volume_time = sref;
 		s->drift_cutoff = drift;
 		s->ar1 = model;
 		s->C = C;
@@ -878,12 +883,12 @@ int cmd_fit(int argc, char **argv)
 		jdoc_set_str(doc, "version", SPLITROI_VERSION);
 		jdoc_library_versions(libs, sizeof libs);
 		jdoc_set_str(doc, "libraries", libs);
-		jdoc_set_str(opt, "model", model == GLM_OLS ? "ols" : model == GLM_AR1 ? "ar1" : "ar1-adjusted");
+		jdoc_set_str(opt, "autocorrelation", model == GLM_OLS ? "none" : model == GLM_AR1 ? "ar1" : "ar1-adjusted");
 		if (drift > 0)
 			jdoc_set_num(opt, "drift_cutoff", drift);
 		else
 			jdoc_set_str(opt, "drift_cutoff", "none");
-		jdoc_set_num(opt, "slice_reference", sref);
+		jdoc_set_num(opt, "volume_time", sref);
 		jdoc_set_str(opt, "condition_column", condcol ? condcol : "trial_type");
 		jdoc_set_str(opt, "mask", maskpath);
 		jdoc_set_str(opt, "study", val[O_STUDY]);

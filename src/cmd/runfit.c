@@ -247,7 +247,7 @@ sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_resul
 	st = load_confounds(spec, T, &conf, e);
 	if (st != SR_OK)
 		goto out;
-	st = design_build(T, spec->tr, spec->slice_ref, ev, nev, spec->ncond, conf, spec->nconf,
+	st = design_build(T, spec->tr, spec->volume_time, ev, nev, spec->ncond, conf, spec->nconf,
 			  spec->drift_cutoff, &res->d, e);
 	if (st != SR_OK) {
 		/* the core knows no file names: say which run's design failed */

@@ -21,7 +21,7 @@ typedef struct runfit_spec {
 	const char *const *confound_names;
 	int nconf;
 	double tr;                     /* seconds, already resolved (bids_run_tr) */
-	double slice_ref;              /* METHODS.md section 2 */
+	double volume_time;              /* METHODS.md section 2 */
 	double drift_cutoff;           /* seconds; 0 = no drift basis */
 	int ar1;                       /* GLM_AR1 (1) = AR(1) Prais-Winsten, GLM_OLS (0), GLM_AR1_ADJUSTED (2) */
 	const double *C;               /* ncon x ncond, row-major: contrast weights over conditions */

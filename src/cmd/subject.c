@@ -397,7 +397,7 @@ static void task_specs(const study *st, const task_fit *t, const unsigned char *
 		s->confound_names = (const char *const *)st->confounds;
 		s->nconf = (int)st->nconfounds;
 		s->tr = t->tr[i];
-		s->slice_ref = st->slice_reference;
+		s->volume_time = st->volume_time;
 		s->drift_cutoff = st->drift_cutoff;
 		s->ar1 = st->ar1;
 		s->C = t->C;
@@ -636,7 +636,7 @@ static jdoc *inputs_record(const task_fit *t)
 	return a;
 }
 
-/* Writes a run's design matrix as CSV, columns named (conditions, confounds, drift_q, constant). */
+/* Writes a run's design matrix as CSV, columns named (conditions, confounds, cos_q, baseline). */
 static sr_status write_design(const char *path, const task_fit *t, size_t r,
 			      const study *st, sr_err *e)
 {
@@ -655,10 +655,10 @@ static sr_status write_design(const char *path, const task_fit *t, size_t r,
 		} else if (j < d->ncond + d->nconf) {
 			hdr[j] = st->confounds[j - d->ncond];
 		} else if (j < d->ncond + d->nconf + d->ndrift) {
-			snprintf(buf, sizeof buf, "drift_%d", j - d->ncond - d->nconf + 1);
+			snprintf(buf, sizeof buf, "cos_%d", j - d->ncond - d->nconf + 1);
 			hdr[j] = own[j] = xstrdup(buf);
 		} else {
-			hdr[j] = "constant";
+			hdr[j] = "baseline";
 		}
 	}
 	rc = csvout_open(&c, path, hdr, (size_t)d->p, e);

@@ -105,15 +105,15 @@ void design_drift(int T, int Q, double *C)
 }
 
 /* Checks the arguments every regressor computation shares. */
-static sr_status check_run(int T, double tr, double slice_ref, int ncond, sr_err *e)
+static sr_status check_run(int T, double tr, double volume_time, int ncond, sr_err *e)
 {
 	if (T < 1)
 		return sr_fail(e, SR_EDIM, "a run needs at least 1 volume (got %d)", T);
 	if (!(tr > 0.0) || !isfinite(tr))
 		return sr_fail(e, SR_EINVAL, "repetition time must be positive (got %g)", tr);
-	if (!(slice_ref >= 0.0 && slice_ref <= 1.0))
+	if (!(volume_time >= 0.0 && volume_time <= 1.0))
 		return sr_fail(e, SR_EINVAL, "slice reference must lie in [0, 1] (got %g)",
-			       slice_ref);
+			       volume_time);
 	if (ncond < 0)
 		return sr_fail(e, SR_EDIM, "negative number of conditions (%d)", ncond);
 	return SR_OK;
@@ -186,7 +186,7 @@ static void add_event(double *stim, long J, double dt, double onset, double dur)
 	}
 }
 
-sr_status design_regressors(int T, double tr, double slice_ref, const design_event *ev,
+sr_status design_regressors(int T, double tr, double volume_time, const design_event *ev,
 			    size_t nev, int ncond, double *out, sr_err *e)
 {
 	const double dt = DESIGN_DT;
@@ -197,7 +197,7 @@ sr_status design_regressors(int T, double tr, double slice_ref, const design_eve
 	int c, k;
 	sr_status st;
 
-	st = check_run(T, tr, slice_ref, ncond, e);
+	st = check_run(T, tr, volume_time, ncond, e);
 	if (st)
 		return st;
 	st = check_events(ev, nev, ncond, e);
@@ -225,7 +225,7 @@ sr_status design_regressors(int T, double tr, double slice_ref, const design_eve
 			       (double)T * tr, dt);
 	J = (long)bins;
 	/* Only bins up to the last one read matter: x_j depends on stim_l for l <= j. */
-	jread = (long)floor(((double)(T - 1) + slice_ref) * tr / dt) + 2;
+	jread = (long)floor(((double)(T - 1) + volume_time) * tr / dt) + 2;
 	if (jread > J)
 		jread = J;
 
@@ -261,7 +261,7 @@ sr_status design_regressors(int T, double tr, double slice_ref, const design_eve
 		}
 		/* Frame times t_k = (k + s) TR, read by linear interpolation. */
 		for (k = 0; k < T; k++) {
-			double u = ((double)k + slice_ref) * tr / dt;
+			double u = ((double)k + volume_time) * tr / dt;
 			long j = (long)floor(u);
 			double f = u - (double)j;
 
@@ -318,7 +318,7 @@ sr_status design_confounds(int T, int ncol, double *conf, sr_err *e)
 	return SR_OK;
 }
 
-sr_status design_build(int T, double tr, double slice_ref, const design_event *ev, size_t nev,
+sr_status design_build(int T, double tr, double volume_time, const design_event *ev, size_t nev,
 		       int ncond, const double *conf, int nconf, double drift_cutoff, design *d,
 		       sr_err *e)
 {
@@ -329,7 +329,7 @@ sr_status design_build(int T, double tr, double slice_ref, const design_event *e
 	if (!d)
 		return sr_fail(e, SR_EINVAL, "no design to fill");
 	memset(d, 0, sizeof *d);
-	st = check_run(T, tr, slice_ref, ncond, e);
+	st = check_run(T, tr, volume_time, ncond, e);
 	if (st)
 		return st;
 	if (nconf < 0)
@@ -354,7 +354,7 @@ sr_status design_build(int T, double tr, double slice_ref, const design_event *e
 		return sr_fail(e, SR_EDIM, "design too large (%d volumes x %d columns)", T, p);
 
 	d->X = xcalloc(total, sizeof *d->X);
-	st = design_regressors(T, tr, slice_ref, ev, nev, ncond, d->X, e);
+	st = design_regressors(T, tr, volume_time, ev, nev, ncond, d->X, e);
 	if (st) {
 		design_release(d);
 		return st;

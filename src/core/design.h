@@ -39,16 +39,16 @@ void design_drift(int T, int Q, double *C);
 /*
  * Condition regressors: stimulus on the fine grid (exact partial-bin cover for
  * d > 0, unit-area impulse for d = 0; parts before 0 s dropped), convolved with
- * the kernel, read at frame times (k + slice_ref) tr by linear interpolation.
+ * the kernel, read at frame times (k + volume_time) tr by linear interpolation.
  * out is T x ncond, column-major. The grid runs from 0 to T tr + 32 s (+2
  * bins); events beyond it contribute nothing. An impulse onset within 1e-9
  * bins below a bin edge counts as on the edge (0.15 s lands in bin 3, not 2,
  * despite 0.15 / 0.05 = 2.9999999999999996 in binary).
- * Errors: T < 1, tr <= 0, slice_ref outside [0, 1], ncond < 0, non-finite
+ * Errors: T < 1, tr <= 0, volume_time outside [0, 1], ncond < 0, non-finite
  * onset, negative or non-finite duration, cond out of range (event numbers
  * in messages are 1-based). Allocates scratch; thread safe.
  */
-sr_status design_regressors(int T, double tr, double slice_ref, const design_event *ev,
+sr_status design_regressors(int T, double tr, double volume_time, const design_event *ev,
 			    size_t nev, int ncond, double *out, sr_err *e);
 
 /*
@@ -72,7 +72,7 @@ typedef struct design {
  * <= 0 means no drift columns. On success d->X is owned by d: free it with
  * design_release. On error d is left empty (X = NULL).
  */
-sr_status design_build(int T, double tr, double slice_ref, const design_event *ev, size_t nev,
+sr_status design_build(int T, double tr, double volume_time, const design_event *ev, size_t nev,
 		       int ncond, const double *conf, int nconf, double drift_cutoff, design *d,
 		       sr_err *e);
 /* Frees d->X and empties d; NULL or an empty design is fine. */

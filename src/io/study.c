@@ -366,10 +366,12 @@ static const char *const keys_localizer[] = { "task", "contrast", "split", "effe
 					      "condition_column" };
 static const char *const keys_parcels[] = { "image", "names", "top_percent", "top_voxels",
 					    "min_t", "resample" };
-static const char *const keys_model[] = { "autocorrelation", "drift_cutoff", "slice_reference",
+static const char *const keys_model[] = { "autocorrelation", "drift_cutoff", "volume_time",
 					  "confounds", "confounds_suffix", "motion",
 					  "motion_units", "fd_threshold" };
 static const char *const keys_measure[] = { "task", "effects" };
+/* keys that were renamed (old, new): an old key is an error that names the new one */
+static const char *const keys_renamed[][2] = { { "slice_reference", "volume_time" } };
 
 static const struct {
 	const char *const *keys;
@@ -498,6 +500,15 @@ static void check_names(struct loader *ld)
 			const char *near = text_nearest(e->key, schema[k].keys, schema[k].n);
 			enum sec_kind other;
 			int placed = 0;
+			size_t r;
+
+			for (r = 0; r < sizeof keys_renamed / sizeof keys_renamed[0]; r++)
+				if (strcmp(e->key, keys_renamed[r][0]) == 0) {
+					prob(ld, e->line, "key '%s' is now called '%s'", e->key, keys_renamed[r][1]);
+					placed = 1;
+				}
+			if (placed)
+				continue;
 
 			for (other = SEC_STUDY; other <= SEC_MODEL && !near; other++) {
 				if (other != k && key_in(e->key, other)) {
@@ -955,7 +966,13 @@ static void load_model(struct loader *ld, study *s)
 		/* ar1 = 1 (METHODS.md), none = 0 (OLS), ar1-adjusted = 2 (bias-adjusted rho, glm.h) */
 		static const int code[] = { 1, 0, 2 };
 
-		s->ar1 = code[choice(ld, get(ld, "model", "autocorrelation"), autocorr, 3, 0)];
+		const struct entry *ea = get(ld, "model", "autocorrelation");
+
+		if (ea && strcmp(ea->value, "ols") == 0) {
+			prob(ld, ea->line, "autocorrelation: 'ols' is called 'none' here (no autocorrelation model: ordinary least squares)");
+			ea = NULL;
+		}
+		s->ar1 = code[choice(ld, ea, autocorr, 3, 0)];
 	}
 	s->drift_cutoff = 128;
 	e = get(ld, "model", "drift_cutoff");
@@ -968,13 +985,13 @@ static void load_model(struct loader *ld, study *s)
 			prob(ld, e->line, "drift_cutoff: '%s' is not a positive number of seconds or none",
 			     e->value);
 	}
-	s->slice_reference = 0.5;
-	e = get(ld, "model", "slice_reference");
+	s->volume_time = 0.5;
+	e = get(ld, "model", "volume_time");
 	if (e) {
 		if (parse_number(e->value, &v) && v >= 0 && v <= 1)
-			s->slice_reference = v;
+			s->volume_time = v;
 		else
-			prob(ld, e->line, "slice_reference: '%s' is not a number in [0, 1] (a fraction of the TR)",
+			prob(ld, e->line, "volume_time: '%s' is not a number in [0, 1] (a fraction of the TR)",
 			     e->value);
 	}
 	s->confounds = name_list(ld, get(ld, "model", "confounds"), &s->nconfounds);

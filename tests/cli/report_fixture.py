@@ -93,7 +93,7 @@ for si, sub in enumerate(subjects):
                     f.write('\t'.join('%.6f' % v for v in row) + '\n')
             with open(os.path.join(d, 'design', 'task-%s_run-%d.csv' % (task, r)), 'w') as f:
                 conds = ['melody', 'scrambled'] if task == 'tones' else ['familiar', 'novel']
-                cols = conds + ['drift_1', 'drift_2', 'tx', 'ty', 'tz', 'rx', 'ry', 'rz', 'constant']
+                cols = conds + ['cos_1', 'cos_2', 'tx', 'ty', 'tz', 'rx', 'ry', 'rz', 'baseline']
                 f.write(','.join(cols) + '\n')
                 for i in range(nt):
                     blk = (i // 10) % 4

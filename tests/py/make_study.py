@@ -18,7 +18,7 @@ import srref  # noqa: E402  (only for the haemodynamic regressors of the simulat
 DEFAULTS = dict(
     seed=1, shape=(10, 10, 8), T=80, TR=2.0, subjects=('01', '02'), loc_runs=4, mem_runs=2,
     mem_T=None, mem_TR=None, split='odd-even', select='top_percent = 10', autocorrelation='ar1',
-    drift_cutoff='128', slice_reference=None, confounds=False, ties=False, empty_parcel=True,
+    drift_cutoff='128', volume_time=None, confounds=False, ties=False, empty_parcel=True,
     one_run_subject=None, absent_condition=None, int16_subjects=(), no_sidecar_subjects=(),
     inherit_subjects=(), sessions=False, resample=False, mask=False, impulses=False,
     condition_column=None, loc_effects='melody, scrambled, melody - scrambled',
@@ -31,7 +31,7 @@ PRESETS = {
     'edge': dict(seed=12, subjects=('01', '02', '03'), split='leave-one-out', loc_runs=3,
                  select='top_percent = 12.5', one_run_subject='03', absent_condition=('02', 1),
                  no_sidecar_subjects=('01',), inherit_subjects=('02',), impulses=True,
-                 slice_reference='0', drift_cutoff='100', mem_T=100, mem_TR=1.5, gz=False),
+                 volume_time='0', drift_cutoff='100', mem_T=100, mem_TR=1.5, gz=False),
     # sessions, runs without index, nearest-neighbour parcels, a mask, another condition column, OLS
     'sessions': dict(seed=13, sessions=True, resample=True, mask=True, condition_column='stim',
                      select='top_voxels = 7', autocorrelation='none', int16_subjects=('01',),
@@ -283,8 +283,8 @@ def make_study(outdir, **opts):
             f.write('resample = nearest\n')
         f.write('\n[model]\nautocorrelation = %s   # ar1 or none\ndrift_cutoff = %s\n'
                 % (o['autocorrelation'], o['drift_cutoff']))
-        if o['slice_reference'] is not None:
-            f.write('slice_reference = %s\n' % o['slice_reference'])
+        if o['volume_time'] is not None:
+            f.write('volume_time = %s\n' % o['volume_time'])
         if o['confounds']:
             f.write('confounds = motion_x motion_y\n')
         if o['measure']:

@@ -75,7 +75,7 @@ def read_study(path):
     st['ar1'] = (get('model', 'autocorrelation', 'ar1') or 'ar1') == 'ar1'
     dc = get('model', 'drift_cutoff', '128') or '128'
     st['cutoff'] = None if dc == 'none' else float(dc)
-    st['sref'] = float(get('model', 'slice_reference', '0.5') or '0.5')
+    st['sref'] = float(get('model', 'volume_time', '0.5') or '0.5')
     st['confounds'] = (get('model', 'confounds', '') or '').split()
     st['conf_suffix'] = get('model', 'confounds_suffix', '_confounds.tsv') or '_confounds.tsv'
     st['measures'] = []

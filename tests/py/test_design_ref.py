@@ -32,7 +32,7 @@ def report(ok, name):
 
 def reference(spec):
     """The design matrix of METHODS.md section 2, built without the C code."""
-    T, tr, s = spec["T"], float(spec["tr"]), float(spec.get("slice_ref", "0.5"))
+    T, tr, s = spec["T"], float(spec["tr"]), float(spec.get("volume_time", "0.5"))
     ncond = spec["ncond"]
     dt = float(DT)
     # Kernel: g(t;6,1) - g(t;16,1)/6 sampled on 0..32 s, unit area (Friston et al. 1998 form).
@@ -77,8 +77,8 @@ def reference(spec):
 
 def spec_text(spec):
     lines = ["T %d" % spec["T"], "tr " + spec["tr"], "ncond %d" % spec["ncond"]]
-    if "slice_ref" in spec:
-        lines.append("slice_ref " + spec["slice_ref"])
+    if "volume_time" in spec:
+        lines.append("volume_time " + spec["volume_time"])
     if "cutoff" in spec:
         lines.append("cutoff " + spec["cutoff"])
     for cond, onset, dur in spec["events"]:
@@ -133,7 +133,7 @@ def main():
                 (0, "10.37", "12.5"), (1, "40.013", "7.77"), (0, "80.0251", "15.333"),
                 (1, "150.49", "0.01"), (0, "200.123", "3.3")])),
         ("impulses (decimal onsets on bin edges)", dict(
-            T=150, tr="1.5", slice_ref="0", ncond=1, events=[
+            T=150, tr="1.5", volume_time="0", ncond=1, events=[
                 (0, "0", "0"), (0, "0.15", "0"), (0, "3.15", "0"), (0, "7.0", "0"),
                 (0, "12.345", "0"), (0, "100.35", "0"), (0, "100.35", "0")])),
         ("overlapping events of one condition", dict(
@@ -143,13 +143,13 @@ def main():
             T=80, tr="2", ncond=2, events=[
                 (0, "-3.3", "8"), (1, "-1", "0.5"), (1, "-0.025", "0"), (1, "30", "4")])),
         ("events past the end", dict(
-            T=80, tr="2", slice_ref="1", ncond=2, events=[
+            T=80, tr="2", volume_time="1", ncond=2, events=[
                 (0, "10", "5"), (0, "165", "10"), (1, "159.3", "30"), (1, "1000", "0")])),
         ("slice reference 0", dict(
-            T=90, tr="2.5", slice_ref="0", ncond=2, events=[
+            T=90, tr="2.5", volume_time="0", ncond=2, events=[
                 (0, "12.5", "10"), (1, "40.7", "0"), (0, "100.01", "20")])),
         ("slice reference 0.5, TR 0.72", dict(
-            T=300, tr="0.72", slice_ref="0.5", ncond=2, events=[
+            T=300, tr="0.72", volume_time="0.5", ncond=2, events=[
                 (0, "12.5", "10"), (1, "40.7", "2.25"), (0, "100.01", "20")])),
         ("confounds with n/a", dict(
             T=T, tr="2", ncond=1, events=[(0, "10", "20"), (0, "100", "20")],
@@ -169,7 +169,7 @@ def main():
         evs = [(int(r.integers(0, 3)), "%.3f" % r.uniform(-5, 330),
                 "%.3f" % (0 if r.random() < 0.3 else r.uniform(0.01, 25))) for _ in range(n)]
         cases.append(("random design seed %d" % seed, dict(
-            T=160, tr="2", slice_ref="%.2f" % r.uniform(0, 1), ncond=3, events=evs)))
+            T=160, tr="2", volume_time="%.2f" % r.uniform(0, 1), ncond=3, events=evs)))
 
     for name, spec in cases:
         X = compare(tool, name, spec)
@@ -182,7 +182,7 @@ def main():
             report(np.max(np.abs(G - np.eye(8))) <= 1e-12, "cosine block C'C = I to 1e-12")
 
     # The kernel itself: an impulse at 0 s read every 0.05 s from 0 s is the scaled kernel.
-    X = c_design(tool, dict(T=640, tr="0.05", slice_ref="0", ncond=1, cutoff="none",
+    X = c_design(tool, dict(T=640, tr="0.05", volume_time="0", ncond=1, cutoff="none",
                             events=[(0, "0", "0")]))
     tk = np.arange(640) * 0.05
     g = scipy.stats.gamma.pdf(tk, 6) - scipy.stats.gamma.pdf(tk, 16) / 6
@@ -192,7 +192,7 @@ def main():
     report(np.argmax(X[:, 0]) == 100, "impulse response peaks at 5.00 s on the 0.05 s grid")
 
     # Fact of the trade (Huettel & McCarthy 2000): a brief event peaks 5-6 s after onset.
-    X = c_design(tool, dict(T=400, tr="0.1", slice_ref="0", ncond=1, cutoff="none",
+    X = c_design(tool, dict(T=400, tr="0.1", volume_time="0", ncond=1, cutoff="none",
                             events=[(0, "5", "1")]))
     lag = np.argmax(X[:, 0]) * 0.1 - 5
     report(5 <= lag <= 6, "1 s event peaks %.1f s after onset (5-6 s expected)" % lag)
@@ -202,7 +202,7 @@ def main():
                             confounds=[["1", "2", "3"], ["n/a", "n/a", "n/a"]]))
     report(r.returncode == 1 and "column 2" in r.stderr,
            "all-n/a confound column rejected, column named: %s" % r.stderr.strip())
-    r = run_tool(tool, dict(T=10, tr="2", slice_ref="1.5", ncond=0, events=[]))
+    r = run_tool(tool, dict(T=10, tr="2", volume_time="1.5", ncond=0, events=[]))
     report(r.returncode == 1 and "slice reference" in r.stderr,
            "slice reference 1.5 rejected: %s" % r.stderr.strip())
     r = run_tool(tool, dict(T=10, tr="2", ncond=1, events=[(0, "1", "-2")]))

@@ -127,7 +127,7 @@ with tempfile.TemporaryDirectory() as d:
         base = os.path.basename(bold).replace("_bold.nii.gz", "")
         X = np.loadtxt(os.path.join(out, f"{base}_design.csv"), delimiter=",", skiprows=1)
         hdr = open(os.path.join(out, f"{base}_design.csv")).readline().strip().split(",")
-        report(hdr[:4] == ["melody", "scrambled", "trans_x", "rot_z"] and hdr[-1] == "constant",
+        report(hdr[:4] == ["melody", "scrambled", "trans_x", "rot_z"] and hdr[-1] == "baseline",
                f"design CSV columns named (run {i + 1})")
         report(meta["runs"][i]["df"] == 80 - X.shape[1] and meta["runs"][i]["rank"] == X.shape[1],
                f"fit.json rank and df (run {i + 1})")
@@ -199,8 +199,16 @@ with tempfile.TemporaryDirectory() as d:
     p = fit([runs[0][0], "--out", os.path.join(d, "o_late"), "--events", ev, "--quiet"])
     report(p.returncode == 0 and "line 3" in p.stderr and "after the end" in p.stderr,
            "an event past the end of the run is a warning naming file and line")
-    p = fit([runs[0][0], "--out", eo, "--model", "wls"])
-    report(p.returncode == 2 and "--model" in p.stderr, "a bad --model is a usage error")
+    p = fit([runs[0][0], "--out", eo, "--autocorrelation", "wls"])
+    report(p.returncode == 2 and "--autocorrelation" in p.stderr, "a bad --autocorrelation is a usage error")
+    # the old option and the old word name the new ones (the study file's words)
+    p = fit([runs[0][0], "--out", eo, "--model", "ar1"])
+    report(p.returncode == 2 and "'--model' is now '--autocorrelation'" in p.stderr,
+           "the old --model option names --autocorrelation")
+    p = fit([runs[0][0], "--out", eo, "--autocorrelation", "ols"])
+    report(p.returncode == 2 and "'none'" in p.stderr, "the old word ols names none")
+    p = fit([runs[0][0], "--out", eo, "--slice-reference", "0.5"])
+    report(p.returncode == 2 and "'--volume-time'" in p.stderr, "the old --slice-reference names --volume-time")
     report(not os.path.exists(os.path.join(eo, "fit.json")), "failed fits write no fit.json")
     p = fit([runs[0][0], "--out", os.path.join(d, "o_tr"), "--tr", "2.5", "--quiet"])
     report(p.returncode == 0, "--tr overrides the header")
@@ -253,7 +261,7 @@ with tempfile.TemporaryDirectory() as d:
     os1, os2 = os.path.join(d, "o_study"), os.path.join(d, "o_explicit")
     p = fit(["--study", os.path.join(root, "study.ini"), "--subject", "01", "--out", os1, "--quiet"])
     report(p.returncode == 0, f"fit --study succeeds ({p.stderr.strip()[:200]})")
-    p = fit(bolds + ["--out", os2, "--quiet", "--model", "ols", "--drift-cutoff", "100", "--effect", "melody - scrambled",
+    p = fit(bolds + ["--out", os2, "--quiet", "--autocorrelation", "none", "--drift-cutoff", "100", "--effect", "melody - scrambled",
                      "--confounds", ",".join(b.replace("_bold.nii.gz", "_confounds.tsv") for b in bolds),
                      "--confound-columns", "trans_x rot_z"])
     same = p.returncode == 0

@@ -68,7 +68,7 @@ def main():
         fdir = os.path.join(clean, "data", "sub-" + s, "func")
         base = os.path.join(fdir, "sub-%s_task-tones_run-01" % s)
         odir = os.path.join(tmp, "fit-" + s)
-        if not vl.run(["fit", base + "_bold.nii.gz", "--out", odir, "--model", "ols", "--threads", vl.JOBS,
+        if not vl.run(["fit", base + "_bold.nii.gz", "--out", odir, "--autocorrelation", "none", "--threads", vl.JOBS,
                        "--confounds", base + "_desc-confounds_timeseries.tsv",
                        "--confound-columns", "motion_tx,motion_ty,motion_tz,motion_rx,motion_ry,motion_rz"],
                       "noise-free fit of sub-%s" % s, ck):

@@ -1,7 +1,7 @@
 /* designtool.c - test helper: builds a design matrix from a small text spec and prints it as CSV. */
 /*
  * Spec (file argument or stdin), one item per line, '#' starts a comment:
- *   T <volumes>            tr <seconds>          slice_ref <0..1>
+ *   T <volumes>            tr <seconds>          volume_time <0..1>
  *   ncond <n>              cutoff <seconds>|none
  *   event <cond> <onset> <duration>
  *   confound <v_1> ... <v_T>      (n/a for a missing cell)
@@ -101,7 +101,7 @@ int main(int argc, char **argv)
 				T = (int)v;
 			else if (strcmp(key, "tr") == 0)
 				tr = v;
-			else if (strcmp(key, "slice_ref") == 0)
+			else if (strcmp(key, "volume_time") == 0)
 				s = v;
 			else if (strcmp(key, "ncond") == 0)
 				ncond = (int)v;

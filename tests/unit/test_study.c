@@ -115,7 +115,7 @@ static void test_good(void)
 		"[model]\n"
 		"autocorrelation = none\n"
 		"drift_cutoff = none\n"
-		"slice_reference = 0\n"
+		"volume_time = 0\n"
 		"confounds = csf white_matter\n"
 		"confounds_suffix = _desc-confounds.tsv\n"
 		"motion = trans_x trans_y trans_z rot_x rot_y rot_z\n"
@@ -154,7 +154,7 @@ static void test_good(void)
 		      strcmp(s.top_percent_text, "12.5") == 0,
 	      "top_percent 12.5 with its decimal text");
 	CHECK(s.resample_parcels == 1, "resample nearest");
-	CHECK(s.ar1 == 0 && s.drift_cutoff == 0 && s.slice_reference == 0, "model: none, none, 0");
+	CHECK(s.ar1 == 0 && s.drift_cutoff == 0 && s.volume_time == 0, "model: none, none, 0");
 	CHECK(s.nconfounds == 2 && strcmp(s.confounds[1], "white_matter") == 0, "confounds");
 	CHECK(strcmp(s.confounds_suffix, "_desc-confounds.tsv") == 0, "confounds_suffix");
 	CHECK(s.nmotion == 6 && strcmp(s.motion[5], "rot_z") == 0 && s.motion_deg == 1,
@@ -199,7 +199,7 @@ static void test_defaults(void)
 		      strcmp(s.top_percent_text, "10") == 0,
 	      "selection default top_percent 10");
 	CHECK(s.resample_parcels == 0, "resample default no");
-	CHECK(s.ar1 == 1 && s.drift_cutoff == 128 && s.slice_reference == 0.5,
+	CHECK(s.ar1 == 1 && s.drift_cutoff == 128 && s.volume_time == 0.5,
 	      "model defaults ar1, 128 s, 0.5");
 	CHECK(s.nconfounds == 0 && s.confounds == NULL, "no confounds");
 	CHECK(strcmp(s.confounds_suffix, "_confounds.tsv") == 0, "confounds_suffix default");
@@ -337,9 +337,15 @@ static void test_values(void)
 		       "line 11: drift_cutoff: '-10' is not a positive number", NULL, "negative cutoff");
 	expect_problem(valid_with("", LOC, PAR, "drift_cutoff = 0x80"), "drift_cutoff: '0x80'", NULL,
 		       "hexadecimal cutoff");
-	expect_problem(valid_with("", LOC, PAR, "slice_reference = 1.5"),
-		       "line 11: slice_reference: '1.5' is not a number in [0, 1]", NULL,
-		       "slice_reference 1.5");
+	expect_problem(valid_with("", LOC, PAR, "volume_time = 1.5"),
+		       "line 11: volume_time: '1.5' is not a number in [0, 1]", NULL,
+		       "volume_time 1.5");
+	expect_problem(valid_with("", LOC, PAR, "slice_reference = 0.5"),
+		       "line 11: key 'slice_reference' is now called 'volume_time'", NULL,
+		       "the old name slice_reference names the new key");
+	expect_problem(valid_with("", LOC, PAR, "autocorrelation = ols"),
+		       "line 11: autocorrelation: 'ols' is called 'none' here", NULL,
+		       "the fit command's old word ols names none");
 	expect_problem(valid_with("", LOC, PAR, "autocorrelation = ar2"),
 		       "autocorrelation: 'ar2' is not one of ar1 | none", "did you mean 'ar1'",
 		       "autocorrelation ar2");
