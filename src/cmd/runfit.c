@@ -290,11 +290,6 @@ out:
 	return st;
 }
 
-sr_status runfit_run(const runfit_spec *spec, runfit_result *res, sr_err *e)
-{
-	return runfit_run_threads(spec, 1, res, e);
-}
-
 typedef struct many_ctx {
 	const runfit_spec *specs;
 	runfit_result *res;

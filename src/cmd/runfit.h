@@ -41,9 +41,7 @@ typedef struct runfit_result {
  * of conditions not in spec->conditions are an error. A condition with no
  * event in this run gives a warning and NaN for every contrast that needs it.
  */
-sr_status runfit_run(const runfit_spec *spec, runfit_result *res, sr_err *e);
-
-/* runfit_run with the per-voxel finish split over nthreads (same results for any count). */
+/* The per-voxel finish is split over nthreads (same results for any count). */
 sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e);
 
 /*

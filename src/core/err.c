@@ -38,17 +38,3 @@ void sr_warnf(sr_err *e, const char *fmt, ...)
 	e->warn(e->warn_ctx, buf);
 }
 
-const char *sr_status_name(sr_status s)
-{
-	switch (s) {
-	case SR_OK: return "ok";
-	case SR_EIO: return "input/output";
-	case SR_EFORMAT: return "format";
-	case SR_EDIM: return "dimensions";
-	case SR_ESINGULAR: return "singular";
-	case SR_ENOMEM: return "out of memory";
-	case SR_EINVAL: return "invalid argument";
-	case SR_ESTUDY: return "study";
-	}
-	return "unknown";
-}

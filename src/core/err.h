@@ -42,7 +42,5 @@ void sr_warnf(sr_err *e, const char *fmt, ...) __attribute__((format(printf, 2, 
 /* Initialises an empty record with an optional warning sink. */
 void sr_err_init(sr_err *e, sr_warn_fn warn, void *ctx);
 
-/* A short name of the status ("input/output", "format", ...). */
-const char *sr_status_name(sr_status s);
 
 #endif

@@ -282,8 +282,6 @@ void glm_model_free(glm_model *m)
 	free(m);
 }
 
-int glm_model_T(const glm_model *m) { return m->T; }
-int glm_model_p(const glm_model *m) { return m->p; }
 int glm_model_rank(const glm_model *m) { return m->r; }
 int glm_model_df(const glm_model *m) { return m->T - m->r; }
 

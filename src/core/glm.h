@@ -16,8 +16,6 @@ typedef struct glm_model glm_model;
 /* Makes the model for X (T x p, column-major). Errors: T <= p, non-finite X. */
 sr_status glm_model_make(const double *X, int T, int p, glm_model **out, sr_err *e);
 void glm_model_free(glm_model *m);
-int glm_model_T(const glm_model *m);
-int glm_model_p(const glm_model *m);
 int glm_model_rank(const glm_model *m);
 /* Residual degrees of freedom T - rank. */
 int glm_model_df(const glm_model *m);

@@ -191,11 +191,6 @@ static const double parcel_centers[SIM_NPARCELS][3] = {
 	{ 0.00, -0.72, 0.10 },    /* posterior midline */
 };
 
-void sim_parcel_center(int p, double c[3])
-{
-	memcpy(c, parcel_centers[p - 1], 3 * sizeof(double));
-}
-
 static int parcel_at(const double u[3])
 {
 	double best = SIM_PARCEL_RADIUS;

@@ -97,8 +97,6 @@ void sim_phantom(const sim_space *sp, const sim_head *h, sim_rng *r, uint8_t *ti
 /* Parcel radius in normalized brain units. */
 #define SIM_PARCEL_RADIUS 0.42
 
-/* Centre of parcel p (1-based) in normalized brain coordinates (x right, y anterior, z superior). */
-void sim_parcel_center(int p, double c[3]);
 
 /*
  * Parcel labels on sp: a brain voxel gets the parcel whose centre is nearest

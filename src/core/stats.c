@@ -65,7 +65,8 @@ static double beta_cf(double a, double b, double x)
 static double ibeta(double a, double b, double lx, double l1x)
 {
 	double x = exp(lx), x1 = exp(l1x);
-	double lbeta = lgamma(a) + lgamma(b) - lgamma(a + b);
+	int sg; /* lgamma_r: lgamma's global signgam is a data race when runs are fitted in parallel */
+	double lbeta = lgamma_r(a, &sg) + lgamma_r(b, &sg) - lgamma_r(a + b, &sg);
 	double lfront;
 
 	if (x <= 0.0)
@@ -104,9 +105,11 @@ double stats_t_p2(double t, double df)
 /* Density of Student's t. */
 static double t_pdf(double t, double df)
 {
+	int sg;
+
 	if (df >= STATS_DF_NORMAL)
 		return exp(-0.5 * t * t) / sqrt(2.0 * M_PI);
-	return exp(lgamma(0.5 * (df + 1.0)) - lgamma(0.5 * df) - 0.5 * log(df * M_PI) -
+	return exp(lgamma_r(0.5 * (df + 1.0), &sg) - lgamma_r(0.5 * df, &sg) - 0.5 * log(df * M_PI) -
 		   0.5 * (df + 1.0) * log1p(t * t / df));
 }
 

@@ -1,5 +1,4 @@
 /* runrec.c - the run record (run.json, via jansson) and a minimal INI key lookup for the report. */
-#include <ctype.h>
 #include <jansson.h>
 #include <math.h>
 #include <stdlib.h>
@@ -7,6 +6,7 @@
 
 #include "../core/mem.h"
 #include "runrec.h"
+#include "study.h"
 
 static char *dup_str(json_t *o, const char *key)
 {
@@ -95,117 +95,8 @@ void runrec_release(runrec *r)
 	memset(r, 0, sizeof *r);
 }
 
-/* Trims spaces at both ends of s in place; returns the start. */
-static char *trim(char *s)
-{
-	char *t;
-
-	while (isspace((unsigned char)*s))
-		s++;
-	t = s + strlen(s);
-	while (t > s && isspace((unsigned char)t[-1]))
-		*--t = 0;
-	return s;
-}
-
-/* Cuts a comment: ';' or '#' at the start or after a space (INTERFACE.md's comment rule). */
-static void cut_comment(char *s)
-{
-	char *p;
-
-	for (p = s; *p; p++)
-		if ((*p == ';' || *p == '#') && (p == s || isspace((unsigned char)p[-1]))) {
-			*p = 0;
-			return;
-		}
-}
-
-/*
- * Walks the text line by line; for each section header calls back with
- * key == NULL, for each key with its value. Stops when fn returns nonzero.
- */
-static void ini_walk(const char *text, int (*fn)(void *ctx, const char *sec, const char *key, const char *val),
-		     void *ctx)
-{
-	char *copy = xstrdup(text ? text : ""), *line, *save = NULL, sec[256] = "";
-
-	for (line = strtok_r(copy, "\r\n", &save); line; line = strtok_r(NULL, "\r\n", &save)) {
-		char *s, *eq;
-
-		cut_comment(line);
-		s = trim(line);
-		if (*s == '[') {
-			char *end = strchr(s, ']');
-
-			if (!end)
-				continue;
-			*end = 0;
-			snprintf(sec, sizeof sec, "%s", trim(s + 1));
-			if (fn(ctx, sec, NULL, NULL))
-				break;
-			continue;
-		}
-		eq = strchr(s, '=');
-		if (!eq)
-			continue;
-		*eq = 0;
-		if (fn(ctx, sec, trim(s), trim(eq + 1)))
-			break;
-	}
-	free(copy);
-}
-
-typedef struct get_ctx {
-	const char *section, *key;
-	char *value;
-} get_ctx;
-
-static int get_fn(void *ctx, const char *sec, const char *key, const char *val)
-{
-	get_ctx *g = ctx;
-
-	if (key && strcmp(sec, g->section) == 0 && strcmp(key, g->key) == 0) {
-		free(g->value);
-		g->value = *val ? xstrdup(val) : NULL;
-	}
-	return 0;
-}
-
 char *runrec_ini_get(const char *text, const char *section, const char *key)
 {
-	get_ctx g = { section, key, NULL };
-
-	ini_walk(text, get_fn, &g);
-	return g.value;
-}
-
-typedef struct sec_ctx {
-	const char *prefix;
-	char **names;
-	size_t n;
-} sec_ctx;
-
-static int sec_fn(void *ctx, const char *sec, const char *key, const char *val)
-{
-	sec_ctx *s = ctx;
-	size_t i;
-
-	(void)val;
-	if (key || strncmp(sec, s->prefix, strlen(s->prefix)) != 0)
-		return 0;
-	for (i = 0; i < s->n; i++)
-		if (strcmp(s->names[i], sec) == 0)
-			return 0;
-	s->names = xrealloc(s->names, (s->n + 1) * sizeof *s->names);
-	s->names[s->n++] = xstrdup(sec);
-	return 0;
-}
-
-char **runrec_ini_sections(const char *text, const char *prefix, size_t *n)
-{
-	sec_ctx s = { prefix, NULL, 0 };
-
-	ini_walk(text, sec_fn, &s);
-	*n = s.n;
-	return s.names;
+	/* the study loader's own reader, so that the report reads keys as analyze did */
+	return study_text_get(text, section, key);
 }

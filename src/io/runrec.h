@@ -27,12 +27,10 @@ sr_status runrec_read(const char *path, runrec *r, sr_err *e);
 void runrec_release(runrec *r);
 
 /*
- * The value of key in [section] of INI text (inline ';' or '#' comments and
- * surrounding spaces removed), malloc'ed; NULL when absent or empty.
+ * The value of key in [section] of a recorded study text, read by the study
+ * loader's own reader (study_text_get: comments, quotes, continuation lines);
+ * malloc'ed; NULL when absent or empty.
  */
 char *runrec_ini_get(const char *text, const char *section, const char *key);
-
-/* The sections of INI text whose names start with prefix (e.g. "measure "), malloc'ed names. */
-char **runrec_ini_sections(const char *text, const char *prefix, size_t *n);
 
 #endif

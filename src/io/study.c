@@ -1190,6 +1190,28 @@ out:
 	return st;
 }
 
+char *study_text_get(const char *text, const char *section, const char *key)
+{
+	struct loader ld;
+	char *value = NULL;
+	size_t i;
+
+	memset(&ld, 0, sizeof ld);
+	ld.path = "(study text)";
+	ld.text = text ? text : "";
+	ld.len = strlen(ld.text);
+	(void)ini_parse_stream(reader, &ld, handler, &ld);
+	for (i = ld.nent; i-- > 0;)
+		if (strcmp(ld.ent[i].section, section) == 0 && strcmp(ld.ent[i].key, key) == 0) {
+			if (ld.ent[i].value[0])
+				value = xstrdup(ld.ent[i].value);
+			break;
+		}
+	ld.text = NULL;
+	loader_release(&ld);
+	return value;
+}
+
 size_t study_line(const study *s, const char *section, const char *key)
 {
 	size_t i;

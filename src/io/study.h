@@ -81,6 +81,14 @@ void study_problems_add(study_problems *p, const char *file, size_t line, const 
 size_t study_line(const study *s, const char *section, const char *key);
 
 /*
+ * The value of key in [section] of a study file's text, read exactly as
+ * study_load reads it (comments, quotes, indented continuation lines);
+ * malloc'ed, NULL when absent or empty. For readers of a recorded study text
+ * (the report); problems in the text are not reported here.
+ */
+char *study_text_get(const char *text, const char *section, const char *key);
+
+/*
  * Loads and checks the study file: unknown sections and keys (with the nearest
  * valid one), types and ranges, files that must exist. Every problem found is
  * appended to probs (all of them, not only the first, in line order; probs

@@ -8,8 +8,6 @@ examples="visual_odd_even.ini:--scenario=visual
 numbers_leave_one_out.ini:--scenario=numbers
 motor_top_voxels_resampled.ini:--scenario=motor --parcel-grid=fine"
 
-have_check=0
-"$SPLITROI" help check >/dev/null 2>&1 && have_check=1
 n=0
 while IFS=: read -r file args; do
 	n=$((n + 1))
@@ -25,12 +23,8 @@ while IFS=: read -r file args; do
 		ls "$dir"/data/sub-01/func/sub-01_task-"$task"_run-01_events.tsv >/dev/null 2>&1 || missing="$missing $task"
 	done
 	[ -z "$missing" ] && ok "$file: its tasks exist in the simulated data" || notok "$file: tasks missing:$missing"
-	if [ "$have_check" -eq 1 ]; then
-		run "$SPLITROI" check "$dir/$file"
-		expect_status 0 "splitroi check accepts examples/$file"
-	else
-		echo "skip - splitroi check not in this build: examples/$file not checked"
-	fi
+	run "$SPLITROI" check "$dir/$file"
+	expect_status 0 "splitroi check accepts examples/$file"
 done <<<"$examples"
 
 # the fine parcel grid: nearest resampling lands every data voxel on a fine voxel of the same label

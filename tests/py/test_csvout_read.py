@@ -138,8 +138,8 @@ def read_direction(tmp, rng):
 
 def main():
     if not os.path.exists(TOOL):
-        print("skip - %s not built" % TOOL)
-        return 0
+        print("not ok - %s not built (make test builds it)" % TOOL)
+        return 1
     rng = random.Random(20261201)
     with tempfile.TemporaryDirectory() as tmp:
         write_direction(tmp, rng)
