@@ -10,6 +10,7 @@
 #include "../core/mem.h"
 #include "../io/bids.h"
 #include "../io/afile.h"
+#include "../io/designcsv.h"
 #include "../io/events.h"
 #include "../io/jdoc.h"
 #include "../io/nii.h"
@@ -312,57 +313,16 @@ static char *map_path(const char *dir, const char *base, const char *label, cons
 	return path;
 }
 
-/* A CSV field, quoted when it holds a comma, quote, CR or LF (RFC 4180). */
-static void csv_field(FILE *f, const char *s)
-{
-	if (!strpbrk(s, ",\"\r\n")) {
-		fputs(s, f);
-		return;
-	}
-	fputc('"', f);
-	for (; *s; s++) {
-		if (*s == '"')
-			fputc('"', f);
-		fputc(*s, f);
-	}
-	fputc('"', f);
-}
-
-/* The design matrix with named columns; full precision so that it can be refitted exactly. */
+/* The design matrix with named columns (io/designcsv: full precision, refittable exactly). */
 static int write_design(const char *dir, const char *base, const design *d, char **conds,
 			const runfit_spec *s, jdoc *files)
 {
 	char *path = xmalloc(strlen(dir) + strlen(base) + 32);
-	afile a;
 	sr_err e;
-	int j, k;
 
 	sr_err_init(&e, NULL, NULL);
 	sprintf(path, "%s/%s_design.csv", dir, base);
-	if (afile_open(&a, path, &e) != SR_OK) {
-		cmdline_error("fit", "%s", e.msg);
-		free(path);
-		return 1;
-	}
-	for (j = 0; j < d->p; j++) {
-		if (j)
-			fputc(',', a.f);
-		if (j < d->ncond)
-			csv_field(a.f, conds[j]);
-		else if (j < d->ncond + d->nconf)
-			csv_field(a.f, s->confound_names[j - d->ncond]);
-		else if (j < d->ncond + d->nconf + d->ndrift)
-			fprintf(a.f, "cos_%d", j - d->ncond - d->nconf + 1);
-		else
-			fputs("baseline", a.f);
-	}
-	fputs("\r\n", a.f);
-	for (k = 0; k < d->T; k++) {
-		for (j = 0; j < d->p; j++)
-			fprintf(a.f, "%s%.17g", j ? "," : "", d->X[(size_t)j * d->T + k]);
-		fputs("\r\n", a.f);
-	}
-	if (afile_commit(&a, &e) != SR_OK) {
+	if (designcsv_write(path, d, (const char *const *)conds, s->confound_names, &e) != SR_OK) {
 		cmdline_error("fit", "%s", e.msg);
 		free(path);
 		return 1;

@@ -15,6 +15,7 @@
 #include "../io/afile.h"
 #include "../io/bids.h"
 #include "../io/csvout.h"
+#include "../io/designcsv.h"
 #include "../io/events.h"
 #include "../io/jdoc.h"
 #include "../io/table.h"
@@ -636,47 +637,6 @@ static jdoc *inputs_record(const task_fit *t)
 	return a;
 }
 
-/* Writes a run's design matrix as CSV, columns named (conditions, confounds, cos_q, baseline). */
-static sr_status write_design(const char *path, const task_fit *t, size_t r,
-			      const study *st, sr_err *e)
-{
-	const design *d = &t->res[r].d;
-	const char **hdr = xcalloc((size_t)d->p + 1, sizeof *hdr);
-	char **own = xcalloc((size_t)d->p + 1, sizeof *own);
-	csvout c;
-	sr_status rc;
-	int j, k;
-
-	for (j = 0; j < d->p; j++) {
-		char buf[64];
-
-		if (j < d->ncond) {
-			hdr[j] = t->conds[j];
-		} else if (j < d->ncond + d->nconf) {
-			hdr[j] = st->confounds[j - d->ncond];
-		} else if (j < d->ncond + d->nconf + d->ndrift) {
-			snprintf(buf, sizeof buf, "cos_%d", j - d->ncond - d->nconf + 1);
-			hdr[j] = own[j] = xstrdup(buf);
-		} else {
-			hdr[j] = "baseline";
-		}
-	}
-	rc = csvout_open(&c, path, hdr, (size_t)d->p, e);
-	if (!rc) {
-		for (k = 0; k < d->T; k++) {
-			for (j = 0; j < d->p; j++)
-				csvout_num(&c, d->X[(size_t)j * (size_t)d->T + (size_t)k]);
-			csvout_endrow(&c);
-		}
-		rc = csvout_commit(&c, e);
-	}
-	for (j = 0; j < d->p; j++)
-		free(own[j]);
-	free(own);
-	free(hdr);
-	return rc;
-}
-
 /* The first localizer run's temporal mean (the report's background) and every run's design. */
 static sr_status write_run_files(const char *dir, const task_fit *tasks, size_t ntasks,
 				 const study *st, const nii_grid *g, size_t nvox, sr_err *e)
@@ -697,7 +657,8 @@ static sr_status write_run_files(const char *dir, const task_fit *tasks, size_t 
 		for (r = 0; !rc && r < tasks[i].nruns; r++) {
 			snprintf(path, sizeof path, "%s/design/task-%s_run-%s.csv", dir, tasks[i].task,
 				 tasks[i].runs[r].label);
-			rc = write_design(path, &tasks[i], r, st, e);
+			rc = designcsv_write(path, &tasks[i].res[r].d, (const char *const *)tasks[i].conds,
+					     (const char *const *)st->confounds, e);
 		}
 	}
 	return rc;

@@ -68,6 +68,17 @@ void csvout_num(csvout *c, double v)
 	fprintf(c->file.f, "%.9g", v);
 }
 
+void csvout_num_exact(csvout *c, double v)
+{
+	if (!field_begin(c))
+		return;
+	if (!isfinite(v))
+		return;
+	if (v == 0)
+		v = 0;
+	fprintf(c->file.f, "%.17g", v);
+}
+
 void csvout_int(csvout *c, long long v)
 {
 	if (field_begin(c))

@@ -27,6 +27,8 @@ sr_status csvout_open(csvout *c, const char *path, const char *const *header, si
 void csvout_str(csvout *c, const char *s);
 /* A number with up to 9 significant digits ("%.9g"); NaN or infinite writes an empty field. */
 void csvout_num(csvout *c, double v);
+/* A number in full precision ("%.17g": reads back to the same double); NaN or infinite: empty. */
+void csvout_num_exact(csvout *c, double v);
 /* A whole number. */
 void csvout_int(csvout *c, long long v);
 /* An empty field. */
