@@ -130,7 +130,7 @@ static sr_status task_conditions(const study *st, char **subs, size_t nsub, cons
 	for (s = 0; s < nsub; s++) {
 		bids_run *runs;
 		size_t nr, r;
-		sr_status rc = bids_runs(st->bids, subs[s], task, &runs, &nr, e);
+		sr_status rc = study_runs(st, subs[s], task, &runs, &nr, e);
 
 		if (rc)
 			return rc;
@@ -250,7 +250,7 @@ static double newest_input(const study *st, const char *label)
 		bids_run *runs;
 		size_t nr, r;
 
-		if (bids_runs(st->bids, label, task, &runs, &nr, NULL))
+		if (study_runs(st, label, task, &runs, &nr, NULL))
 			return 1e300;
 		for (r = 0; r < nr; r++) {
 			char *conf = st->nconfounds ? bids_confounds_path(&runs[r], st->confounds_suffix) : NULL;

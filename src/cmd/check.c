@@ -710,18 +710,29 @@ static int run_check(checker *c, char **subs, size_t nsub)
 			size_t r;
 
 			sr_err_init(&e, on_warn, c);
-			if (bids_runs(st->bids, subs[s], task, &ts->runs, &ts->nruns, &e) != SR_OK) {
+			if (study_runs(st, subs[s], task, &ts->runs, &ts->nruns, &e) != SR_OK) {
 				problem(c, e.msg);
 				continue;
 			}
-			printf("  task %s (%s): %zu run%s\n", task, t ? "measured" : "localizer", ts->nruns,
+			printf("  task %s (%s): %zu run%s", task, t ? "measured" : "localizer", ts->nruns,
 			       ts->nruns == 1 ? "" : "s");
+			if (st->derivatives) {
+				size_t nsp, k;
+				char **sp = bids_spaces(st->derivatives, subs[s], task, &nsp);
+
+				printf(" (spaces found:");
+				for (k = 0; k < nsp; k++)
+					printf("%s %s", k ? "," : "", sp[k]);
+				printf("%s)", nsp ? "" : " none");
+				bids_strings_free(sp, nsp);
+			}
+			printf("\n");
 			if (ts->nruns == 0) {
 				char msg[1024];
 
 				snprintf(msg, sizeof msg,
 					 "%s: sub-%s has no runs of task %s (looked for sub-%s/[ses-*/]func/sub-%s_*task-%s*_bold.nii[.gz])",
-					 st->bids, subs[s], task, subs[s], subs[s], task);
+					 st->derivatives ? st->derivatives : st->bids, subs[s], task, subs[s], subs[s], task);
 				problem(c, msg);
 				continue;
 			}
@@ -912,7 +923,21 @@ int cmd_check(int argc, char **argv)
 	}
 	free(pos);
 	c.st = &st;
-	printf("study: %s\nbids: %s\nout: %s\n", st.path, st.bids, st.out);
+	printf("study: %s\nbids: %s\n", st.path, st.bids);
+	if (st.derivatives) {
+		printf("derivatives: %s\n  space %s, desc %s, res %s\n", st.derivatives,
+		       st.space ? st.space : "(any; required when the runs come in several)",
+		       st.desc ? st.desc : "preproc", st.res ? st.res : "(any)");
+		if (!bids_is_derivative(st.derivatives)) {
+			char msg[1024];
+
+			snprintf(msg, sizeof msg,
+				 "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
+				 st.derivatives);
+			sl_push(&c.warns, msg);
+		}
+	}
+	printf("out: %s\n", st.out);
 	rc = pick_subjects(&c, val[O_SUBJECTS], &subs, &nsub);
 	if (rc == 2)
 		goto out;

@@ -453,7 +453,7 @@ static int load_study_inputs(const char *path, const char *subject, const char *
 	if (strncmp(subject, "sub-", 4) == 0)
 		subject += 4;
 	sr_err_init(&e, NULL, NULL);
-	if (bids_runs(st.bids, subject, task, &runs, &n, &e) != SR_OK) {
+	if (study_runs(&st, subject, task, &runs, &n, &e) != SR_OK) {
 		cmdline_error("fit", "%s", e.msg);
 		goto out;
 	}

@@ -301,7 +301,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 	int j, ncap = 0;
 	sr_status rc;
 
-	rc = bids_runs(st->bids, label, t->task, &t->runs, &t->nruns, e);
+	rc = study_runs(st, label, t->task, &t->runs, &t->nruns, e);
 	if (rc)
 		return rc;
 	if (t->nruns == 0)

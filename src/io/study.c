@@ -361,7 +361,8 @@ enum sec_kind { SEC_NONE = -1, SEC_STUDY, SEC_LOCALIZER, SEC_PARCELS, SEC_MODEL,
 
 static const char *const section_names[] = { "study", "localizer", "parcels", "model", "measure" };
 
-static const char *const keys_study[] = { "bids", "out", "subjects", "mask" };
+static const char *const keys_study[] = { "bids", "out", "subjects", "mask", "derivatives",
+					  "space", "desc", "res" };
 static const char *const keys_localizer[] = { "task", "contrast", "split", "effects",
 					      "condition_column" };
 static const char *const keys_parcels[] = { "image", "names", "top_percent", "top_voxels",
@@ -795,6 +796,24 @@ static void load_study(struct loader *ld, study *s)
 			prob(ld, e->line, "out: '%s' exists and is not a folder", s->out);
 	}
 	s->mask = path_key(ld, get(ld, "study", "mask"), 1);
+	s->derivatives = path_key(ld, get(ld, "study", "derivatives"), 2);
+	{
+		static const char *const ent[] = { "space", "desc", "res" };
+		char **dst[] = { &s->space, &s->desc, &s->res };
+
+		for (size_t k = 0; k < 3; k++) {
+			e = get(ld, "study", ent[k]);
+			if (!val(e))
+				continue;
+			if (!s->derivatives)
+				prob(ld, e->line, "%s: only used with derivatives = (a BIDS Derivatives dataset)",
+				     ent[k]);
+			if (!valid_label(e->value))
+				prob(ld, e->line, "%s: '%s' is not a BIDS label (letters and digits only)",
+				     ent[k], e->value);
+			*dst[k] = xstrdup(e->value);
+		}
+	}
 	e = get(ld, "study", "subjects");
 	if (val(e) && strcmp(e->value, "all") != 0) {
 		size_t i, j, n;
@@ -1194,6 +1213,10 @@ void study_release(study *s)
 	free(s->bids);
 	free(s->out);
 	free(s->mask);
+	free(s->derivatives);
+	free(s->space);
+	free(s->desc);
+	free(s->res);
 	free_words(s->subjects, s->nsubjects);
 	free(s->loc_task);
 	expr_release(&s->contrast);
@@ -1217,6 +1240,24 @@ void study_release(study *s)
 	}
 	free(s->keys);
 	memset(s, 0, sizeof *s);
+}
+
+void study_bids_src(const study *s, bids_src *src)
+{
+	src->raw = s->bids;
+	src->deriv = s->derivatives;
+	src->space = s->space;
+	src->desc = s->desc;
+	src->res = s->res;
+}
+
+sr_status study_runs(const study *s, const char *subject, const char *task, bids_run **runs,
+		     size_t *n, sr_err *e)
+{
+	bids_src src;
+
+	study_bids_src(s, &src);
+	return bids_find_runs(&src, subject, task, runs, n, e);
 }
 
 int study_per_subject(const char *path)
