@@ -589,6 +589,11 @@ int cmd_analyze(int argc, char **argv)
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_prog;
 	}
+	if (ps.labels && parcels_template_on_raw(&st, &ps.grid, st.parcels))
+		sr_warnf(&e, "%s: " PARCELS_RAW_NOTE, st.parcels);
+	if (st.derivatives && !bids_is_derivative(st.derivatives))
+		sr_warnf(&e, "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
+			 st.derivatives);
 	if (st.mask) {
 		nii_info mi;
 		double *md;

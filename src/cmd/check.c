@@ -13,6 +13,7 @@
 #include "../io/table.h"
 #include "cmd.h"
 #include "cmdline.h"
+#include "subject.h"
 
 enum { O_SUBJECTS, O_HEADERS_ONLY, O_NOPTS };
 
@@ -589,12 +590,20 @@ static void check_parcels(checker *c, const data_grid *grids, size_t ngrids)
 	}
 	printf("parcels: %s (%lld x %lld x %lld), %zu parcel%s\n", st->parcels, (long long)ps.grid.nx,
 	       (long long)ps.grid.ny, (long long)ps.grid.nz, ps.n, ps.n == 1 ? "" : "s");
+	if (parcels_template_on_raw(st, &ps.grid, st->parcels)) {
+		snprintf(msg, sizeof msg, "%s: " PARCELS_RAW_NOTE, st->parcels);
+		sl_push(&c->warns, msg);
+	}
 	for (g = 0; g < ngrids; g++) {
 		const nii_grid *data = &grids[g].g;
 
 		if (nii_same_grid(data, &ps.grid, 1e-3, why, sizeof why))
 			continue;
-		if (!st->resample_parcels) {
+		if (parcels_template_on_raw(st, &ps.grid, st->parcels)) {
+			snprintf(msg, sizeof msg, "%s: the parcels are not on the data grid of %s (%s)",
+				 st->parcels, grids[g].path, why);
+			problem(c, msg);
+		} else if (!st->resample_parcels) {
 			snprintf(msg, sizeof msg,
 				 "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
 				 st->parcels, grids[g].path, why);

@@ -50,6 +50,19 @@ static int cmp_i32(const void *a, const void *b)
 	return (x > y) - (x < y);
 }
 
+int parcels_template_on_raw(const study *st, const nii_grid *g, const char *path)
+{
+	const char *b = strrchr(path, '/');
+	int tpl;
+
+	if (st->derivatives)
+		return 0;
+	b = b ? b + 1 : path;
+	/* NIfTI xform codes 3 (Talairach), 4 (MNI-152), 5 (other template) */
+	tpl = (g->sform_code >= 3 && g->sform_code <= 5) || (g->sform_code <= 0 && g->qform_code >= 3 && g->qform_code <= 5);
+	return tpl || strstr(b, "space-") != NULL || strncmp(b, "tpl-", 4) == 0 || strstr(b, "_tpl-") != NULL;
+}
+
 sr_status parcel_set_load(const char *image, const char *names_path, parcel_set *p, sr_err *e)
 {
 	nii_info info;
@@ -876,6 +889,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			if (lost[p])
 				sr_warnf(e, "subject %s: parcel %s (label %d) has no voxel on the data grid after nearest-neighbour resampling of %s; its rows are empty",
 					 label, ps->name[p], (int)ps->index[p], own_image ? own_image : st->parcels);
+	} else if (parcels_template_on_raw(st, &ps->grid, own_image ? own_image : st->parcels)) {
+		rc = sr_fail(e, SR_EDIM, "%s: the parcels are not on the data grid of %s (%s): " PARCELS_RAW_NOTE,
+			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
+		goto out;
 	} else {
 		rc = sr_fail(e, SR_EDIM,
 			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
