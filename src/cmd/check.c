@@ -3,6 +3,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 
 #include "../core/mem.h"
 #include "../core/resample.h"
@@ -13,6 +14,7 @@
 #include "../io/table.h"
 #include "cmd.h"
 #include "cmdline.h"
+#include "runfit.h"
 #include "subject.h"
 
 enum { O_SUBJECTS, O_HEADERS_ONLY, O_NOPTS };
@@ -85,6 +87,7 @@ typedef struct checker {
 	study_problems probs;
 	strlist warns;
 	int headers_only;
+	int cosine_warned;   /* a cosine confound column met the model's own drift terms */
 } checker;
 
 static void on_warn(void *ctx, const char *msg)
@@ -163,16 +166,27 @@ static int read_through(checker *c, const char *path, nii_info *info)
 	return bad;
 }
 
-/* Confound and motion columns exist in the run's confounds table, with one row per volume. */
+/* 1 when a confounds column is a cosine (drift) basis of a preprocessing pipeline. */
+static int cosine_column(const char *name)
+{
+	return strncasecmp(name, "cosine", 6) == 0 || strncasecmp(name, "drift", 5) == 0;
+}
+
+/*
+ * Confound and motion columns exist in the run's confounds table, with one
+ * row per volume; prints the columns the patterns expand to, the n/a cells
+ * replaced in each, and the volumes censored.
+ */
 static void check_confounds(checker *c, const bids_run *run, int64_t nt)
 {
 	const study *st = c->st;
 	char *path;
 	table t;
 	sr_err e;
-	size_t i;
+	size_t i, r;
+	int *cols = NULL, ncols = 0, k;
 
-	if (!st->nconfounds && !st->nmotion)
+	if (!st->nconfounds && !st->nmotion && !(st->censor_fd > 0))
 		return;
 	path = bids_confounds_path(run, st->confounds_suffix);
 	sr_err_init(&e, on_warn, c);
@@ -181,28 +195,84 @@ static void check_confounds(checker *c, const bids_run *run, int64_t nt)
 		free(path);
 		return;
 	}
-	for (i = 0; i < st->nconfounds + st->nmotion; i++) {
-		const char *col = i < st->nconfounds ? st->confounds[i] : st->motion[i - st->nconfounds];
-
-		int ci = table_col(&t, col);
-
-		if (ci < 0) {
+	for (i = 0; i < st->nmotion; i++) {
+		if (table_col(&t, st->motion[i]) < 0) {
 			char msg[1024];
 
-			snprintf(msg, sizeof msg, "%s: line %zu: no column '%s' (named in [model] %s)", path,
-				 t.header_line, col, i < st->nconfounds ? "confounds" : "motion");
+			snprintf(msg, sizeof msg, "%s: line %zu: no column '%s' (named in [model] motion)", path,
+				 t.header_line, st->motion[i]);
 			problem(c, msg);
-		} else if (i < st->nconfounds) {
-			/* the values analyze reads as regressors, by its rules (n/a and empty allowed) */
-			for (size_t r = 0; r < t.nrows; r++) {
-				double x;
-				int na;
+		}
+	}
+	if (st->nconfounds &&
+	    runfit_confound_columns(&t, path, (const char *const *)st->confounds, (int)st->nconfounds,
+				    &cols, &ncols, &e) != SR_OK) {
+		problem(c, e.msg);
+	} else if (st->nconfounds) {
+		size_t *na = xcalloc((size_t)ncols + 1, sizeof *na);
+		int bad = 0, anyna = 0;
 
-				if (table_number(&t, r, (size_t)ci, &x, &na, 1, &e) != SR_OK) {
+		printf("      confounds (%d column%s):", ncols, ncols == 1 ? "" : "s");
+		for (k = 0; k < ncols; k++)
+			printf(" %s", t.header[cols[k]]);
+		printf("\n");
+		/* the values analyze reads as regressors, by its rules (n/a and empty allowed) */
+		for (k = 0; k < ncols && !bad; k++) {
+			for (r = (size_t)st->skip_volumes; r < t.nrows; r++) {
+				double x;
+				int isna;
+
+				if (table_number(&t, r, (size_t)cols[k], &x, &isna, 1, &e) != SR_OK) {
+					problem(c, e.msg);
+					bad = 1;
+					break;
+				}
+				na[k] += isna;
+			}
+			anyna |= na[k] > 0;
+			if (st->drift_cutoff > 0 && cosine_column(t.header[cols[k]]) && !c->cosine_warned) {
+				char msg[1024];
+
+				snprintf(msg, sizeof msg,
+					 "%s: confound column '%s' is a cosine drift basis, and the model adds its own (drift_cutoff = %g s): drop the column or set drift_cutoff = none",
+					 path, t.header[cols[k]], st->drift_cutoff);
+				sl_push(&c->warns, msg);
+				c->cosine_warned = 1;
+			}
+		}
+		if (anyna && !bad) {
+			printf("      n/a replaced by the column mean:");
+			for (k = 0, i = 0; k < ncols; k++)
+				if (na[k])
+					printf("%s %s (%zu)", i++ ? "," : "", t.header[cols[k]], na[k]);
+			printf("\n");
+		}
+		free(na);
+	}
+	free(cols);
+	if (st->censor_fd > 0) {
+		int fc = table_col(&t, "framewise_displacement");
+
+		if (fc < 0) {
+			char msg[1024];
+
+			snprintf(msg, sizeof msg, "%s: line %zu: no column 'framewise_displacement' (needed by censor_fd)",
+				 path, t.header_line);
+			problem(c, msg);
+		} else {
+			size_t ncen = 0;
+
+			for (r = (size_t)st->skip_volumes; r < t.nrows; r++) {
+				double x;
+				int isna;
+
+				if (table_number(&t, r, (size_t)fc, &x, &isna, 1, &e) != SR_OK) {
 					problem(c, e.msg);
 					break;
 				}
+				ncen += !isna && x > st->censor_fd;
 			}
+			printf("      censored volumes (framewise_displacement > %g mm): %zu\n", st->censor_fd, ncen);
 		}
 	}
 	if ((int64_t)t.nrows != nt) {
@@ -253,6 +323,13 @@ static void check_run(checker *c, const bids_run *run, task_seen *ts, nii_grid *
 	else
 		tr_ok = 1;
 	printf("  %lld volumes", (long long)info.nt);
+	if (st->skip_volumes)
+		printf(" (first %d skipped)", st->skip_volumes);
+	if (st->skip_volumes && (int64_t)st->skip_volumes > info.nt - 2) {
+		snprintf(why, sizeof why, "%s: skip_volumes = %d leaves fewer than 2 of its %lld volumes",
+			 run->bold, st->skip_volumes, (long long)info.nt);
+		problem(c, why);
+	}
 	if (tr_ok)
 		printf(", TR %g s", tr);
 	printf(", %lld x %lld x %lld voxels of %g x %g x %g mm\n", (long long)info.grid.nx,

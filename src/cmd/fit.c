@@ -328,7 +328,7 @@ static void csv_field(FILE *f, const char *s)
 
 /* The design matrix with named columns; full precision so that it can be refitted exactly. */
 static int write_design(const char *dir, const char *base, const design *d, char **conds,
-			const runfit_spec *s, jdoc *files)
+			char *const *cnames, jdoc *files)
 {
 	char *path = xmalloc(strlen(dir) + strlen(base) + 32);
 	afile a;
@@ -348,7 +348,7 @@ static int write_design(const char *dir, const char *base, const design *d, char
 		if (j < d->ncond)
 			csv_field(a.f, conds[j]);
 		else if (j < d->ncond + d->nconf)
-			csv_field(a.f, s->confound_names[j - d->ncond]);
+			csv_field(a.f, cnames[j - d->ncond]);
 		else if (j < d->ncond + d->nconf + d->ndrift)
 			fprintf(a.f, "drift_%d", j - d->ncond - d->nconf + 1);
 		else
@@ -862,7 +862,7 @@ int cmd_fit(int argc, char **argv)
 		}
 		jdoc_set(rj, "estimable", est);
 		jdoc_push(runs, rj);
-		c = write_design(val[O_OUT], base, &res[r].d, conds, &specs[r], files);
+		c = write_design(val[O_OUT], base, &res[r].d, conds, res[r].conf_names, files);
 		free(base);
 		if (c)
 			goto out;

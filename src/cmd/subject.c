@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 #include <sys/stat.h>
 #include <time.h>
 
@@ -363,7 +364,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 		rc = bids_run_tr(st->bids, &t->runs[i], info.tr, &t->tr[i], e);
 		if (rc)
 			return rc;
-		if (st->nconfounds)
+		if (st->nconfounds || st->censor_fd > 0)
 			t->confpath[i] = bids_confounds_path(&t->runs[i], st->confounds_suffix);
 	}
 	if (t->ncond)
@@ -409,6 +410,9 @@ static void task_specs(const study *st, const task_fit *t, const unsigned char *
 		s->confounds = t->confpath[i];
 		s->confound_names = (const char *const *)st->confounds;
 		s->nconf = (int)st->nconfounds;
+		s->skip = st->skip_volumes;
+		s->censor_fd = st->censor_fd;
+		s->fd_column = "framewise_displacement";
 		s->tr = t->tr[i];
 		s->slice_ref = st->slice_reference;
 		s->drift_cutoff = st->drift_cutoff;
@@ -642,8 +646,27 @@ static jdoc *inputs_record(const task_fit *t)
 		jdoc_set_str(o, "events", t->runs[r].events);
 		jdoc_set_str(o, "confounds", t->confpath[r]);
 		jdoc_set_str(o, "run", t->runs[r].label);
-		jdoc_set_int(o, "rank", (long long)in->nt - t->res[r].out.df);
+		jdoc_set_int(o, "rank", (long long)t->res[r].d.T - t->res[r].out.df);
 		jdoc_set_int(o, "df", t->res[r].out.df);
+		jdoc_set_int(o, "skipped_volumes", t->res[r].nskip);
+		jdoc_set_int(o, "censored_volumes", t->res[r].ncensored);
+		if (t->res[r].ncensored) {
+			jdoc *cv = jdoc_array();
+
+			/* 1-based volume numbers of the stored run */
+			for (int k = 0; k < t->res[r].ncensored; k++)
+				jdoc_push_num(cv, (double)t->res[r].censored[k] + 1);
+			jdoc_set(o, "censored", cv);
+		}
+		jdoc_set_int(o, "events_before_start", t->res[r].nearly_events);
+		jdoc_set_int(o, "nonfinite_voxels", (long long)t->res[r].nnonfinite);
+		{
+			jdoc *cn = jdoc_array();
+
+			for (int k = 0; k < t->res[r].d.nconf; k++)
+				jdoc_push_str(cn, t->res[r].conf_names[k]);
+			jdoc_set(o, "confound_columns", cn);
+		}
 		jdoc_push(a, o);
 	}
 	return a;
@@ -666,7 +689,7 @@ static sr_status write_design(const char *path, const task_fit *t, size_t r,
 		if (j < d->ncond) {
 			hdr[j] = t->conds[j];
 		} else if (j < d->ncond + d->nconf) {
-			hdr[j] = st->confounds[j - d->ncond];
+			hdr[j] = t->res[r].conf_names[j - d->ncond];
 		} else if (j < d->ncond + d->nconf + d->ndrift) {
 			snprintf(buf, sizeof buf, "drift_%d", j - d->ncond - d->nconf + 1);
 			hdr[j] = own[j] = xstrdup(buf);
@@ -871,6 +894,22 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	nvox = nii_nvox(&grid);
 	for (i = 0; i < ntasks; i++)
 		warn_estimability(&tasks[i], e);
+	if (st->drift_cutoff > 0) {
+		int warned = 0;
+
+		/* a pipeline's cosine columns next to the model's own drift basis model the drift twice */
+		for (i = 0; i < ntasks && !warned; i++)
+			for (size_t r = 0; r < tasks[i].nruns && !warned; r++)
+				for (int k = 0; k < tasks[i].res[r].d.nconf && !warned; k++) {
+					const char *nm = tasks[i].res[r].conf_names[k];
+
+					if (strncasecmp(nm, "cosine", 6) == 0 || strncasecmp(nm, "drift", 5) == 0) {
+						sr_warnf(e, "subject %s: confound column '%s' of %s is a cosine drift basis, and the model adds its own (drift_cutoff = %g s): drop the column or set drift_cutoff = none",
+							 label, nm, tasks[i].confpath[r], st->drift_cutoff);
+						warned = 1;
+					}
+				}
+	}
 	if (nii_same_grid(&grid, &ps->grid, 1e-3, buf, sizeof buf)) {
 		labels = ps->labels;
 	} else if (st->resample_parcels) {

@@ -369,7 +369,7 @@ static const char *const keys_parcels[] = { "image", "names", "top_percent", "to
 					    "min_t", "resample" };
 static const char *const keys_model[] = { "autocorrelation", "drift_cutoff", "slice_reference",
 					  "confounds", "confounds_suffix", "motion",
-					  "motion_units", "fd_threshold" };
+					  "motion_units", "fd_threshold", "skip_volumes", "censor_fd" };
 static const char *const keys_measure[] = { "task", "effects" };
 
 static const struct {
@@ -1002,6 +1002,20 @@ static void load_model(struct loader *ld, study *s)
 		prob(ld, e->line, "confounds_suffix: '%s' is not a file name ending (e.g. _confounds.tsv)",
 		     e->value);
 	s->confounds_suffix = xstrdup(val(e) ? e->value : "_confounds.tsv");
+	e = get(ld, "model", "skip_volumes");
+	if (e) {
+		if (parse_number(e->value, &v) && v >= 0 && v == floor(v) && v <= 100000)
+			s->skip_volumes = (int)v;
+		else
+			prob(ld, e->line, "skip_volumes: '%s' is not a whole number of volumes >= 0", e->value);
+	}
+	e = get(ld, "model", "censor_fd");
+	if (e && strcmp(e->value, "none") != 0) {
+		if (parse_number(e->value, &v) && v > 0)
+			s->censor_fd = v;
+		else
+			prob(ld, e->line, "censor_fd: '%s' is not a positive number of mm or none", e->value);
+	}
 	e = get(ld, "model", "motion");
 	s->motion = name_list(ld, e, &s->nmotion);
 	if (s->motion && s->nmotion != 6)

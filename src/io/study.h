@@ -52,6 +52,8 @@ typedef struct study {
 	size_t nmotion;
 	int motion_deg;                   /* rotations in degrees (motion_units = mm_deg), else radians */
 	double fd_threshold;              /* framewise displacement limit, mm */
+	int skip_volumes;                 /* initial volumes dropped from every run (0) */
+	double censor_fd;                 /* censor volumes whose framewise_displacement exceeds it, mm; 0 = off */
 	/* [measure ...] */
 	study_measure *measures;
 	size_t nmeasures;
