@@ -243,8 +243,13 @@ static double newest_input(const study *st, const char *label)
 		free(img);
 		free(nm);
 	}
-	if ((x = mtime_of(st->mask)) > t)
-		t = x;
+	{
+		char *m = study_subject_path(st->mask, label);
+
+		if ((x = mtime_of(m)) > t)
+			t = x;
+		free(m);
+	}
 	for (k = 0; k < ntasks; k++) {
 		const char *task = k ? st->measures[k - 1].task : st->loc_task;
 		bids_run *runs;
@@ -260,6 +265,10 @@ static double newest_input(const study *st, const char *label)
 			if ((x = mtime_of(runs[r].events)) > t)
 				t = x;
 			if ((x = mtime_of(runs[r].sidecar)) > t)
+				t = x;
+			if ((x = mtime_of(runs[r].deriv_sidecar)) > t)
+				t = x;
+			if (st->mask_auto && (x = mtime_of(runs[r].brain_mask)) > t)
 				t = x;
 			if ((x = mtime_of(conf)) > t)
 				t = x;
@@ -594,7 +603,7 @@ int cmd_analyze(int argc, char **argv)
 	if (st.derivatives && !bids_is_derivative(st.derivatives))
 		sr_warnf(&e, "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
 			 st.derivatives);
-	if (st.mask) {
+	if (st.mask && !study_mask_per_subject(&st)) {
 		nii_info mi;
 		double *md;
 		size_t v, nv;

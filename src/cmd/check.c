@@ -781,6 +781,8 @@ static int run_check(checker *c, char **subs, size_t nsub)
 	size_t ntasks = 1 + st->nmeasures, s, t;
 	task_seen *seen = xcalloc(nsub > 0 ? nsub * ntasks : 1, sizeof *seen);
 	data_grid *grids = xcalloc(nsub ? nsub : 1, sizeof *grids);
+	data_grid *own = xcalloc(nsub ? nsub : 1, sizeof *own);   /* each subject's data grid */
+	unsigned char *have_own = xcalloc(nsub ? nsub : 1, 1);
 	size_t ngrids = 0;
 
 	for (s = 0; s < nsub; s++) {
@@ -828,6 +830,10 @@ static int run_check(checker *c, char **subs, size_t nsub)
 		if (have_ref) {
 			size_t g;
 			char why[8];
+
+			own[s].g = ref;
+			snprintf(own[s].path, sizeof own[s].path, "%s", ref_path);
+			have_own[s] = 1;
 
 			for (g = 0; g < ngrids; g++)
 				if (nii_same_grid(&grids[g].g, &ref, 1e-3, why, sizeof why))
@@ -889,7 +895,55 @@ static int run_check(checker *c, char **subs, size_t nsub)
 	} else {
 		check_parcels(c, grids, ngrids);
 	}
-	check_mask(c, grids, ngrids);
+	if (study_mask_per_subject(st)) {
+		for (s = 0; s < nsub; s++) {
+			char **paths = NULL;
+			size_t n = 0, count;
+			unsigned char *m;
+			nii_grid mg;
+			sr_err e;
+			char why[1024], msg[2048];
+
+			sr_err_init(&e, on_warn, c);
+			if (st->mask_auto) {
+				for (t = 0; t < ntasks; t++) {
+					task_seen *ts = &seen[s * ntasks + t];
+
+					for (size_t r = 0; r < ts->nruns; r++) {
+						if (!ts->runs[r].brain_mask) {
+							snprintf(msg, sizeof msg, "%s: no desc-brain_mask image beside it (mask = auto)",
+								 ts->runs[r].bold);
+							problem(c, msg);
+							continue;
+						}
+						paths = xrealloc(paths, (n + 1) * sizeof *paths);
+						paths[n++] = xstrdup(ts->runs[r].brain_mask);
+					}
+				}
+			} else {
+				paths = xmalloc(sizeof *paths);
+				paths[n++] = study_subject_path(st->mask, subs[s]);
+			}
+			if (n && mask_intersection(paths, n, &m, &mg, &count, &e) != SR_OK) {
+				problem(c, e.msg);
+			} else if (n) {
+				printf("mask sub-%s: %s%s: %zu voxels%s\n", subs[s], paths[0],
+				       n > 1 ? " and the other runs' brain masks" : "", count,
+				       n > 1 ? " in all of them" : "");
+				if (have_own[s] && !nii_same_grid(&own[s].g, &mg, 1e-3, why, sizeof why)) {
+					snprintf(msg, sizeof msg, "%s: the mask is not on the data grid of %s: %s",
+						 paths[0], own[s].path, why);
+					problem(c, msg);
+				}
+				free(m);
+			}
+			bids_strings_free(paths, n);
+		}
+	} else {
+		check_mask(c, grids, ngrids);
+	}
+	free(own);
+	free(have_own);
 	free(grids);
 	for (s = 0; s < nsub * ntasks; s++) {
 		bids_runs_release(seen[s].runs, seen[s].nruns);

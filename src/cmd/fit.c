@@ -492,7 +492,7 @@ static int load_study_inputs(const char *path, const char *subject, const char *
 	in->drift = st.drift_cutoff;
 	in->sref = st.slice_reference;
 	in->condcol = xstrdup(st.condition_column ? st.condition_column : "trial_type");
-	in->mask = st.mask ? xstrdup(st.mask) : NULL;
+	in->mask = st.mask ? study_subject_path(st.mask, subject) : NULL;
 	/* conditions are always fitted: keep the effects that are combinations */
 	in->fx = xcalloc(nfx ? nfx : 1, sizeof *in->fx);
 	for (i = 0; i < nfx; i++) {

@@ -51,6 +51,54 @@ static int cmp_i32(const void *a, const void *b)
 	return (x > y) - (x < y);
 }
 
+sr_status mask_intersection(char *const *paths, size_t n, unsigned char **mask, nii_grid *grid,
+			    size_t *count, sr_err *e)
+{
+	unsigned char *m = NULL;
+	size_t nvox = 0, v;
+	char why[512];
+
+	*mask = NULL;
+	*count = 0;
+	for (size_t i = 0; i < n; i++) {
+		nii_info info;
+		double *d;
+		sr_status rc = nii_read_3d(paths[i], &info, &d, e);
+
+		if (rc) {
+			free(m);
+			return rc;
+		}
+		if (i == 0) {
+			*grid = info.grid;
+			nvox = nii_nvox(&info.grid);
+			m = xmalloc(nvox ? nvox : 1);
+			memset(m, 1, nvox);
+		} else if (!nii_same_grid(grid, &info.grid, 1e-3, why, sizeof why)) {
+			free(d);
+			free(m);
+			return sr_fail(e, SR_EDIM, "%s: the mask is not on the grid of %s: %s", paths[i], paths[0], why);
+		}
+		for (v = 0; v < nvox; v++)
+			m[v] &= isfinite(d[v]) && d[v] != 0;
+		free(d);
+	}
+	for (v = 0; v < nvox; v++)
+		*count += m[v];
+	if (*count == 0) {
+		free(m);
+		return sr_fail(e, SR_EFORMAT, n > 1 ? "%s and %zu other masks have no voxel in common" : "%s: the mask is empty",
+			       paths[0], n - 1);
+	}
+	*mask = m;
+	return SR_OK;
+}
+
+int study_mask_per_subject(const study *st)
+{
+	return st->mask_auto || study_per_subject(st->mask);
+}
+
 int parcels_template_on_raw(const study *st, const nii_grid *g, const char *path)
 {
 	const char *b = strrchr(path, '/');
@@ -306,6 +354,44 @@ static void task_release(task_fit *t)
 	free(t->grid);
 	bids_runs_release(t->runs, t->nruns);
 	memset(t, 0, sizeof *t);
+}
+
+/*
+ * The subject's own mask when the study's depends on the subject: mask =
+ * auto (every run's desc-brain_mask, intersected) or a path with {subject}.
+ */
+static sr_status own_mask(const study *st, const char *label, const task_fit *tasks, size_t ntasks,
+			  unsigned char **mask, nii_grid *grid, char **what, sr_err *e)
+{
+	char **paths = NULL;
+	size_t n = 0, count;
+	sr_status rc;
+
+	*mask = NULL;
+	*what = NULL;
+	if (!st->mask_auto) {
+		char *p = study_subject_path(st->mask, label);
+
+		rc = mask_intersection(&p, 1, mask, grid, &count, e);
+		*what = p;
+		return rc;
+	}
+	for (size_t i = 0; i < ntasks; i++)
+		for (size_t r = 0; r < tasks[i].nruns; r++) {
+			if (!tasks[i].runs[r].brain_mask) {
+				rc = sr_fail(e, SR_EIO, "%s: no desc-brain_mask image beside it (mask = auto)",
+					     tasks[i].runs[r].bold);
+				free(paths);
+				return rc;
+			}
+			paths = xrealloc(paths, (n + 1) * sizeof *paths);
+			paths[n++] = tasks[i].runs[r].brain_mask;
+		}
+	rc = mask_intersection(paths, n, mask, grid, &count, e);
+	if (!rc)
+		*what = xstrdup(paths[0]);
+	free(paths);
+	return rc;
 }
 
 /* Finds runs, reads every events file for the condition list, resolves TR, builds contrasts. */
@@ -786,6 +872,9 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 {
 	const study *st = ctx->st;
 	const parcel_set *ps = ctx->parcels;
+	unsigned char *mask_owned = NULL;
+	nii_grid mask_grid_own;
+	char *mask_path_own = NULL;
 	parcel_set own_ps;
 	char *own_image = NULL, *own_names = NULL;
 	task_fit *tasks;
@@ -850,7 +939,13 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 		nruns_all += tasks[i].nruns;
 	}
-	rc = check_grids(tasks, ntasks, st->mask, ctx->mask_grid, e);
+	if (!ctx->mask && study_mask_per_subject(st)) {
+		rc = own_mask(st, label, tasks, ntasks, &mask_owned, &mask_grid_own, &mask_path_own, e);
+		if (rc)
+			goto out;
+	}
+	rc = check_grids(tasks, ntasks, mask_owned ? mask_path_own : st->mask,
+			 mask_owned ? &mask_grid_own : ctx->mask_grid, e);
 	if (rc)
 		goto out;
 	/* fit every run of every task once, in parallel */
@@ -861,7 +956,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		size_t at = 0;
 
 		for (i = 0; i < ntasks; i++) {
-			task_specs(st, &tasks[i], ctx->mask, specs + at);
+			task_specs(st, &tasks[i], mask_owned ? mask_owned : ctx->mask, specs + at);
 			at += tasks[i].nruns;
 		}
 	}
@@ -1181,6 +1276,9 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	int *pos = NULL;
 	size_t i, nvox;
 	sr_status rc;
+	unsigned char *mask_owned = NULL;
+	nii_grid mask_grid_own;
+	char *mask_path_own = NULL;
 
 	*t = NULL;
 	*df = NULL;
@@ -1192,7 +1290,14 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	rc = task_prepare(st, label, &loc, e);
 	if (rc)
 		goto out;
-	rc = check_grids(&loc, 1, st->mask, mask_grid, e);
+	if (!mask && study_mask_per_subject(st)) {
+		rc = own_mask(st, label, &loc, 1, &mask_owned, &mask_grid_own, &mask_path_own, e);
+		if (rc)
+			goto out;
+		mask = mask_owned;
+		mask_grid = &mask_grid_own;
+	}
+	rc = check_grids(&loc, 1, mask_owned ? mask_path_own : st->mask, mask_grid, e);
 	if (rc)
 		goto out;
 	specs = xcalloc(loc.nruns, sizeof *specs);
@@ -1249,5 +1354,7 @@ out:
 	free(results);
 	free(errs);
 	task_release(&loc);
+	free(mask_owned);
+	free(mask_path_own);
 	return rc;
 }

@@ -795,8 +795,16 @@ static void load_study(struct loader *ld, study *s)
 		if (stat(s->out, &st) == 0 && !S_ISDIR(st.st_mode))
 			prob(ld, e->line, "out: '%s' exists and is not a folder", s->out);
 	}
-	s->mask = path_key(ld, get(ld, "study", "mask"), 1);
 	s->derivatives = path_key(ld, get(ld, "study", "derivatives"), 2);
+	e = get(ld, "study", "mask");
+	if (val(e) && strcmp(e->value, "auto") == 0) {
+		s->mask_auto = 1;
+		if (!s->derivatives)
+			prob(ld, e->line, "mask: auto takes each run's desc-brain_mask from a derivatives dataset; set derivatives = in [study]");
+	} else {
+		/* with {subject}, each subject's mask is checked when it is read */
+		s->mask = path_key(ld, e, val(e) && study_per_subject(e->value) ? 0 : 1);
+	}
 	{
 		static const char *const ent[] = { "space", "desc", "res" };
 		char **dst[] = { &s->space, &s->desc, &s->res };

@@ -24,6 +24,7 @@ typedef struct study {
 	char *path;        /* the study file */
 	char *text;        /* its full content (for the run record) */
 	char *bids, *out, *mask;          /* mask NULL when empty */
+	int mask_auto;                    /* mask = auto: the intersection of each subject's runs' desc-brain_mask */
 	char *derivatives;                /* BIDS Derivatives dataset of the preprocessed BOLD, or NULL */
 	char *space, *desc, *res;         /* its entity filters, NULL when not given (desc: preproc) */
 	char **subjects;   /* NULL = all */
