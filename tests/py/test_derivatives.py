@@ -276,6 +276,41 @@ def main():
         report(p.returncode == 0 and 'DatasetType' in p.stderr, 'a derivatives dataset without DatasetType is warned',
                p.stderr[-800:])
 
+        # issue 14 item 9: NaN voxels and events wholly before 0 s are counted and reported
+        b3 = os.path.join(rdata, 'sub-03', 'func', 'sub-03_task-tones_run-01_bold.nii.gz')
+        img = nib.load(b3)
+        data = np.asanyarray(img.dataobj).astype(np.float32)
+        data[10, 10, 10, 5] = np.nan
+        data[11, 10, 10, 7] = np.inf
+        nib.save(nib.Nifti1Image(data, img.affine, img.header), b3)
+        ev3 = b3.replace('_bold.nii.gz', '_events.tsv')
+        with open(ev3) as f:
+            evl = f.read().splitlines()
+        evl.insert(1, '\t'.join(['-30', '2'] + evl[1].split('\t')[2:]))
+        with open(ev3, 'w') as f:
+            f.write('\n'.join(evl) + '\n')
+        p = run(['analyze', 'study.ini', '--quiet', '--subjects', '03', '--no-group', '--no-report'], cwd=R)
+        with open(os.path.join(R, 'results', 'sub-03', 'run.json')) as f:
+            rec = f.read().replace(' ', '')
+        report(p.returncode == 0 and '2 voxels hold NaN or infinite values' in p.stderr and
+               '"nonfinite_voxels":2' in rec, 'NaN and inf voxels are counted, warned and recorded', p.stderr[-600:])
+        report('1 event lies wholly before 0 s' in p.stderr and '"events_before_start":1' in rec,
+               'an event wholly before 0 s is counted, warned and recorded')
+
+        # parcels in a template space with raw runs: a warning that does not offer resampling
+        par = nib.load(os.path.join(sim, 'parcels.nii.gz'))
+        tpl = nib.Nifti1Image(np.asanyarray(par.dataobj), par.affine, par.header)
+        tpl.header.set_sform(par.affine, 4)
+        nib.save(tpl, os.path.join(R, 'tpl.nii.gz'))
+        with open(os.path.join(R, 'study.ini')) as f:
+            ini = f.read()
+        with open(os.path.join(R, 'tpl.ini'), 'w') as f:
+            f.write(ini.replace('image = ../sim/parcels.nii.gz', 'image = tpl.nii.gz'))
+        p = run(['check', 'tpl.ini', '--headers-only'], cwd=R)
+        report(p.returncode == 0 and 'template space but the runs are raw data' in p.stderr and
+               'resample = nearest' not in p.stderr, 'template-space parcels on raw runs are warned about',
+               p.stderr[-600:])
+
         # issue 14 item 6: a subject label with a space is an error naming the folder
         os.makedirs(os.path.join(rdata, 'sub-a b', 'func'))
         for cmd in (['check', 'study.ini', '--headers-only'], ['analyze', 'study.ini', '--quiet']):
