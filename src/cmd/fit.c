@@ -413,6 +413,8 @@ typedef struct study_inputs {
 	double *tr;
 	int ar1;
 	double drift, sref;
+	int skip;          /* skip_volumes */
+	double censor;     /* censor_fd, 0 = off */
 	char *condcol, *mask;
 	expr *fx;
 	size_t nfx;
@@ -465,8 +467,10 @@ static int load_study_inputs(const char *path, const char *subject, const char *
 	in->bold = xcalloc(n, sizeof *in->bold);
 	in->events = xcalloc(n, sizeof *in->events);
 	in->tr = xcalloc(n, sizeof *in->tr);
-	if (st.nconfounds)
+	if (st.nconfounds || st.censor_fd > 0)
 		in->confs = xcalloc(n, sizeof *in->confs);
+	in->skip = st.skip_volumes;
+	in->censor = st.censor_fd;
 	for (i = 0; i < n; i++) {
 		nii_info info;
 
@@ -629,7 +633,7 @@ int cmd_fit(int argc, char **argv)
 			nconf = nrun;
 			for (r = 0; r < nrun; r++)
 				confs[r] = xstrdup(si.confs[r]);
-			ccols = xcalloc((size_t)si.nccol, sizeof *ccols);
+			ccols = xcalloc((size_t)(si.nccol ? si.nccol : 1), sizeof *ccols);
 			nccol = si.nccol;
 			for (j = 0; j < nccol; j++)
 				ccols[j] = xstrdup(si.ccols[j]);
@@ -773,6 +777,9 @@ int cmd_fit(int argc, char **argv)
 		s->confounds = confs ? confs[r] : NULL;
 		s->confound_names = (const char *const *)ccols;
 		s->nconf = confs ? nccol : 0;
+		s->skip = si.skip;
+		s->censor_fd = si.censor;
+		s->fd_column = "framewise_displacement";
 		s->tr = tr[r];
 		s->slice_ref = sref;
 		s->drift_cutoff = drift;
