@@ -130,7 +130,7 @@ static sr_status task_conditions(const study *st, char **subs, size_t nsub, cons
 	for (s = 0; s < nsub; s++) {
 		bids_run *runs;
 		size_t nr, r;
-		sr_status rc = bids_runs(st->bids, subs[s], task, &runs, &nr, e);
+		sr_status rc = study_runs(st, subs[s], task, &runs, &nr, e);
 
 		if (rc)
 			return rc;
@@ -243,14 +243,19 @@ static double newest_input(const study *st, const char *label)
 		free(img);
 		free(nm);
 	}
-	if ((x = mtime_of(st->mask)) > t)
-		t = x;
+	{
+		char *m = study_subject_path(st->mask, label);
+
+		if ((x = mtime_of(m)) > t)
+			t = x;
+		free(m);
+	}
 	for (k = 0; k < ntasks; k++) {
 		const char *task = k ? st->measures[k - 1].task : st->loc_task;
 		bids_run *runs;
 		size_t nr, r;
 
-		if (bids_runs(st->bids, label, task, &runs, &nr, NULL))
+		if (study_runs(st, label, task, &runs, &nr, NULL))
 			return 1e300;
 		for (r = 0; r < nr; r++) {
 			char *conf = st->nconfounds ? bids_confounds_path(&runs[r], st->confounds_suffix) : NULL;
@@ -260,6 +265,10 @@ static double newest_input(const study *st, const char *label)
 			if ((x = mtime_of(runs[r].events)) > t)
 				t = x;
 			if ((x = mtime_of(runs[r].sidecar)) > t)
+				t = x;
+			if ((x = mtime_of(runs[r].deriv_sidecar)) > t)
+				t = x;
+			if (st->mask_auto && (x = mtime_of(runs[r].brain_mask)) > t)
 				t = x;
 			if ((x = mtime_of(conf)) > t)
 				t = x;
@@ -589,7 +598,12 @@ int cmd_analyze(int argc, char **argv)
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_prog;
 	}
-	if (st.mask) {
+	if (ps.labels && parcels_template_on_raw(&st, &ps.grid, st.parcels))
+		sr_warnf(&e, "%s: " PARCELS_RAW_NOTE, st.parcels);
+	if (st.derivatives && !bids_is_derivative(st.derivatives))
+		sr_warnf(&e, "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
+			 st.derivatives);
+	if (st.mask && !study_mask_per_subject(&st)) {
 		nii_info mi;
 		double *md;
 		size_t v, nv;

@@ -3,6 +3,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 
 #include "../core/mem.h"
 #include "../core/resample.h"
@@ -13,6 +14,8 @@
 #include "../io/table.h"
 #include "cmd.h"
 #include "cmdline.h"
+#include "runfit.h"
+#include "subject.h"
 
 enum { O_SUBJECTS, O_HEADERS_ONLY, O_NOPTS };
 
@@ -84,6 +87,7 @@ typedef struct checker {
 	study_problems probs;
 	strlist warns;
 	int headers_only;
+	int cosine_warned;   /* a cosine confound column met the model's own drift terms */
 } checker;
 
 static void on_warn(void *ctx, const char *msg)
@@ -162,16 +166,27 @@ static int read_through(checker *c, const char *path, nii_info *info)
 	return bad;
 }
 
-/* Confound and motion columns exist in the run's confounds table, with one row per volume. */
+/* 1 when a confounds column is a cosine (drift) basis of a preprocessing pipeline. */
+static int cosine_column(const char *name)
+{
+	return strncasecmp(name, "cosine", 6) == 0 || strncasecmp(name, "drift", 5) == 0;
+}
+
+/*
+ * Confound and motion columns exist in the run's confounds table, with one
+ * row per volume; prints the columns the patterns expand to, the n/a cells
+ * replaced in each, and the volumes censored.
+ */
 static void check_confounds(checker *c, const bids_run *run, int64_t nt)
 {
 	const study *st = c->st;
 	char *path;
 	table t;
 	sr_err e;
-	size_t i;
+	size_t i, r;
+	int *cols = NULL, ncols = 0, k;
 
-	if (!st->nconfounds && !st->nmotion)
+	if (!st->nconfounds && !st->nmotion && !(st->censor_fd > 0))
 		return;
 	path = bids_confounds_path(run, st->confounds_suffix);
 	sr_err_init(&e, on_warn, c);
@@ -180,28 +195,84 @@ static void check_confounds(checker *c, const bids_run *run, int64_t nt)
 		free(path);
 		return;
 	}
-	for (i = 0; i < st->nconfounds + st->nmotion; i++) {
-		const char *col = i < st->nconfounds ? st->confounds[i] : st->motion[i - st->nconfounds];
-
-		int ci = table_col(&t, col);
-
-		if (ci < 0) {
+	for (i = 0; i < st->nmotion; i++) {
+		if (table_col(&t, st->motion[i]) < 0) {
 			char msg[1024];
 
-			snprintf(msg, sizeof msg, "%s: line %zu: no column '%s' (named in [model] %s)", path,
-				 t.header_line, col, i < st->nconfounds ? "confounds" : "motion");
+			snprintf(msg, sizeof msg, "%s: line %zu: no column '%s' (named in [model] motion)", path,
+				 t.header_line, st->motion[i]);
 			problem(c, msg);
-		} else if (i < st->nconfounds) {
-			/* the values analyze reads as regressors, by its rules (n/a and empty allowed) */
-			for (size_t r = 0; r < t.nrows; r++) {
-				double x;
-				int na;
+		}
+	}
+	if (st->nconfounds &&
+	    runfit_confound_columns(&t, path, (const char *const *)st->confounds, (int)st->nconfounds,
+				    &cols, &ncols, &e) != SR_OK) {
+		problem(c, e.msg);
+	} else if (st->nconfounds) {
+		size_t *na = xcalloc((size_t)ncols + 1, sizeof *na);
+		int bad = 0, anyna = 0;
 
-				if (table_number(&t, r, (size_t)ci, &x, &na, 1, &e) != SR_OK) {
+		printf("      confounds (%d column%s):", ncols, ncols == 1 ? "" : "s");
+		for (k = 0; k < ncols; k++)
+			printf(" %s", t.header[cols[k]]);
+		printf("\n");
+		/* the values analyze reads as regressors, by its rules (n/a and empty allowed) */
+		for (k = 0; k < ncols && !bad; k++) {
+			for (r = (size_t)st->skip_volumes; r < t.nrows; r++) {
+				double x;
+				int isna;
+
+				if (table_number(&t, r, (size_t)cols[k], &x, &isna, 1, &e) != SR_OK) {
+					problem(c, e.msg);
+					bad = 1;
+					break;
+				}
+				na[k] += isna;
+			}
+			anyna |= na[k] > 0;
+			if (st->drift_cutoff > 0 && cosine_column(t.header[cols[k]]) && !c->cosine_warned) {
+				char msg[1024];
+
+				snprintf(msg, sizeof msg,
+					 "%s: confound column '%s' is a cosine drift basis, and the model adds its own (drift_cutoff = %g s): drop the column or set drift_cutoff = none",
+					 path, t.header[cols[k]], st->drift_cutoff);
+				sl_push(&c->warns, msg);
+				c->cosine_warned = 1;
+			}
+		}
+		if (anyna && !bad) {
+			printf("      n/a replaced by the column mean:");
+			for (k = 0, i = 0; k < ncols; k++)
+				if (na[k])
+					printf("%s %s (%zu)", i++ ? "," : "", t.header[cols[k]], na[k]);
+			printf("\n");
+		}
+		free(na);
+	}
+	free(cols);
+	if (st->censor_fd > 0) {
+		int fc = table_col(&t, "framewise_displacement");
+
+		if (fc < 0) {
+			char msg[1024];
+
+			snprintf(msg, sizeof msg, "%s: line %zu: no column 'framewise_displacement' (needed by censor_fd)",
+				 path, t.header_line);
+			problem(c, msg);
+		} else {
+			size_t ncen = 0;
+
+			for (r = (size_t)st->skip_volumes; r < t.nrows; r++) {
+				double x;
+				int isna;
+
+				if (table_number(&t, r, (size_t)fc, &x, &isna, 1, &e) != SR_OK) {
 					problem(c, e.msg);
 					break;
 				}
+				ncen += !isna && x > st->censor_fd;
 			}
+			printf("      censored volumes (framewise_displacement > %g mm): %zu\n", st->censor_fd, ncen);
 		}
 	}
 	if ((int64_t)t.nrows != nt) {
@@ -252,6 +323,13 @@ static void check_run(checker *c, const bids_run *run, task_seen *ts, nii_grid *
 	else
 		tr_ok = 1;
 	printf("  %lld volumes", (long long)info.nt);
+	if (st->skip_volumes)
+		printf(" (first %d skipped)", st->skip_volumes);
+	if (st->skip_volumes && (int64_t)st->skip_volumes > info.nt - 2) {
+		snprintf(why, sizeof why, "%s: skip_volumes = %d leaves fewer than 2 of its %lld volumes",
+			 run->bold, st->skip_volumes, (long long)info.nt);
+		problem(c, why);
+	}
 	if (tr_ok)
 		printf(", TR %g s", tr);
 	printf(", %lld x %lld x %lld voxels of %g x %g x %g mm\n", (long long)info.grid.nx,
@@ -589,12 +667,20 @@ static void check_parcels(checker *c, const data_grid *grids, size_t ngrids)
 	}
 	printf("parcels: %s (%lld x %lld x %lld), %zu parcel%s\n", st->parcels, (long long)ps.grid.nx,
 	       (long long)ps.grid.ny, (long long)ps.grid.nz, ps.n, ps.n == 1 ? "" : "s");
+	if (parcels_template_on_raw(st, &ps.grid, st->parcels)) {
+		snprintf(msg, sizeof msg, "%s: " PARCELS_RAW_NOTE, st->parcels);
+		sl_push(&c->warns, msg);
+	}
 	for (g = 0; g < ngrids; g++) {
 		const nii_grid *data = &grids[g].g;
 
 		if (nii_same_grid(data, &ps.grid, 1e-3, why, sizeof why))
 			continue;
-		if (!st->resample_parcels) {
+		if (parcels_template_on_raw(st, &ps.grid, st->parcels)) {
+			snprintf(msg, sizeof msg, "%s: the parcels are not on the data grid of %s (%s)",
+				 st->parcels, grids[g].path, why);
+			problem(c, msg);
+		} else if (!st->resample_parcels) {
 			snprintf(msg, sizeof msg,
 				 "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
 				 st->parcels, grids[g].path, why);
@@ -695,6 +781,8 @@ static int run_check(checker *c, char **subs, size_t nsub)
 	size_t ntasks = 1 + st->nmeasures, s, t;
 	task_seen *seen = xcalloc(nsub > 0 ? nsub * ntasks : 1, sizeof *seen);
 	data_grid *grids = xcalloc(nsub ? nsub : 1, sizeof *grids);
+	data_grid *own = xcalloc(nsub ? nsub : 1, sizeof *own);   /* each subject's data grid */
+	unsigned char *have_own = xcalloc(nsub ? nsub : 1, 1);
 	size_t ngrids = 0;
 
 	for (s = 0; s < nsub; s++) {
@@ -710,18 +798,29 @@ static int run_check(checker *c, char **subs, size_t nsub)
 			size_t r;
 
 			sr_err_init(&e, on_warn, c);
-			if (bids_runs(st->bids, subs[s], task, &ts->runs, &ts->nruns, &e) != SR_OK) {
+			if (study_runs(st, subs[s], task, &ts->runs, &ts->nruns, &e) != SR_OK) {
 				problem(c, e.msg);
 				continue;
 			}
-			printf("  task %s (%s): %zu run%s\n", task, t ? "measured" : "localizer", ts->nruns,
+			printf("  task %s (%s): %zu run%s", task, t ? "measured" : "localizer", ts->nruns,
 			       ts->nruns == 1 ? "" : "s");
+			if (st->derivatives) {
+				size_t nsp, k;
+				char **sp = bids_spaces(st->derivatives, subs[s], task, &nsp);
+
+				printf(" (spaces found:");
+				for (k = 0; k < nsp; k++)
+					printf("%s %s", k ? "," : "", sp[k]);
+				printf("%s)", nsp ? "" : " none");
+				bids_strings_free(sp, nsp);
+			}
+			printf("\n");
 			if (ts->nruns == 0) {
 				char msg[1024];
 
 				snprintf(msg, sizeof msg,
 					 "%s: sub-%s has no runs of task %s (looked for sub-%s/[ses-*/]func/sub-%s_*task-%s*_bold.nii[.gz])",
-					 st->bids, subs[s], task, subs[s], subs[s], task);
+					 st->derivatives ? st->derivatives : st->bids, subs[s], task, subs[s], subs[s], task);
 				problem(c, msg);
 				continue;
 			}
@@ -731,6 +830,10 @@ static int run_check(checker *c, char **subs, size_t nsub)
 		if (have_ref) {
 			size_t g;
 			char why[8];
+
+			own[s].g = ref;
+			snprintf(own[s].path, sizeof own[s].path, "%s", ref_path);
+			have_own[s] = 1;
 
 			for (g = 0; g < ngrids; g++)
 				if (nii_same_grid(&grids[g].g, &ref, 1e-3, why, sizeof why))
@@ -792,7 +895,55 @@ static int run_check(checker *c, char **subs, size_t nsub)
 	} else {
 		check_parcels(c, grids, ngrids);
 	}
-	check_mask(c, grids, ngrids);
+	if (study_mask_per_subject(st)) {
+		for (s = 0; s < nsub; s++) {
+			char **paths = NULL;
+			size_t n = 0, count;
+			unsigned char *m;
+			nii_grid mg;
+			sr_err e;
+			char why[1024], msg[2048];
+
+			sr_err_init(&e, on_warn, c);
+			if (st->mask_auto) {
+				for (t = 0; t < ntasks; t++) {
+					task_seen *ts = &seen[s * ntasks + t];
+
+					for (size_t r = 0; r < ts->nruns; r++) {
+						if (!ts->runs[r].brain_mask) {
+							snprintf(msg, sizeof msg, "%s: no desc-brain_mask image beside it (mask = auto)",
+								 ts->runs[r].bold);
+							problem(c, msg);
+							continue;
+						}
+						paths = xrealloc(paths, (n + 1) * sizeof *paths);
+						paths[n++] = xstrdup(ts->runs[r].brain_mask);
+					}
+				}
+			} else {
+				paths = xmalloc(sizeof *paths);
+				paths[n++] = study_subject_path(st->mask, subs[s]);
+			}
+			if (n && mask_intersection(paths, n, &m, &mg, &count, &e) != SR_OK) {
+				problem(c, e.msg);
+			} else if (n) {
+				printf("mask sub-%s: %s%s: %zu voxels%s\n", subs[s], paths[0],
+				       n > 1 ? " and the other runs' brain masks" : "", count,
+				       n > 1 ? " in all of them" : "");
+				if (have_own[s] && !nii_same_grid(&own[s].g, &mg, 1e-3, why, sizeof why)) {
+					snprintf(msg, sizeof msg, "%s: the mask is not on the data grid of %s: %s",
+						 paths[0], own[s].path, why);
+					problem(c, msg);
+				}
+				free(m);
+			}
+			bids_strings_free(paths, n);
+		}
+	} else {
+		check_mask(c, grids, ngrids);
+	}
+	free(own);
+	free(have_own);
 	free(grids);
 	for (s = 0; s < nsub * ntasks; s++) {
 		bids_runs_release(seen[s].runs, seen[s].nruns);
@@ -912,7 +1063,21 @@ int cmd_check(int argc, char **argv)
 	}
 	free(pos);
 	c.st = &st;
-	printf("study: %s\nbids: %s\nout: %s\n", st.path, st.bids, st.out);
+	printf("study: %s\nbids: %s\n", st.path, st.bids);
+	if (st.derivatives) {
+		printf("derivatives: %s\n  space %s, desc %s, res %s\n", st.derivatives,
+		       st.space ? st.space : "(any; required when the runs come in several)",
+		       st.desc ? st.desc : "preproc", st.res ? st.res : "(any)");
+		if (!bids_is_derivative(st.derivatives)) {
+			char msg[1024];
+
+			snprintf(msg, sizeof msg,
+				 "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
+				 st.derivatives);
+			sl_push(&c.warns, msg);
+		}
+	}
+	printf("out: %s\n", st.out);
 	rc = pick_subjects(&c, val[O_SUBJECTS], &subs, &nsub);
 	if (rc == 2)
 		goto out;

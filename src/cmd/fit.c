@@ -315,14 +315,14 @@ static char *map_path(const char *dir, const char *base, const char *label, cons
 
 /* The design matrix with named columns (io/designcsv: full precision, refittable exactly). */
 static int write_design(const char *dir, const char *base, const design *d, char **conds,
-			const runfit_spec *s, jdoc *files)
+			char *const *cnames, jdoc *files)
 {
 	char *path = xmalloc(strlen(dir) + strlen(base) + 32);
 	sr_err e;
 
 	sr_err_init(&e, NULL, NULL);
 	sprintf(path, "%s/%s_design.csv", dir, base);
-	if (designcsv_write(path, d, (const char *const *)conds, s->confound_names, &e) != SR_OK) {
+	if (designcsv_write(path, d, (const char *const *)conds, (const char *const *)cnames, &e) != SR_OK) {
 		cmdline_error("fit", "%s", e.msg);
 		free(path);
 		return 1;
@@ -375,6 +375,8 @@ typedef struct study_inputs {
 	double *tr;
 	int ar1;
 	double drift, sref;
+	int skip;          /* skip_volumes */
+	double censor;     /* censor_fd, 0 = off */
 	char *condcol, *mask;
 	expr *fx;
 	size_t nfx;
@@ -415,7 +417,7 @@ static int load_study_inputs(const char *path, const char *subject, const char *
 	if (strncmp(subject, "sub-", 4) == 0)
 		subject += 4;
 	sr_err_init(&e, NULL, NULL);
-	if (bids_runs(st.bids, subject, task, &runs, &n, &e) != SR_OK) {
+	if (study_runs(&st, subject, task, &runs, &n, &e) != SR_OK) {
 		cmdline_error("fit", "%s", e.msg);
 		goto out;
 	}
@@ -427,8 +429,10 @@ static int load_study_inputs(const char *path, const char *subject, const char *
 	in->bold = xcalloc(n, sizeof *in->bold);
 	in->events = xcalloc(n, sizeof *in->events);
 	in->tr = xcalloc(n, sizeof *in->tr);
-	if (st.nconfounds)
+	if (st.nconfounds || st.censor_fd > 0)
 		in->confs = xcalloc(n, sizeof *in->confs);
+	in->skip = st.skip_volumes;
+	in->censor = st.censor_fd;
 	for (i = 0; i < n; i++) {
 		nii_info info;
 
@@ -454,7 +458,7 @@ static int load_study_inputs(const char *path, const char *subject, const char *
 	in->drift = st.drift_cutoff;
 	in->sref = st.volume_time;
 	in->condcol = xstrdup(st.condition_column ? st.condition_column : "trial_type");
-	in->mask = st.mask ? xstrdup(st.mask) : NULL;
+	in->mask = st.mask ? study_subject_path(st.mask, subject) : NULL;
 	/* conditions are always fitted: keep the effects that are combinations */
 	in->fx = xcalloc(nfx ? nfx : 1, sizeof *in->fx);
 	for (i = 0; i < nfx; i++) {
@@ -594,7 +598,7 @@ int cmd_fit(int argc, char **argv)
 			nconf = nrun;
 			for (r = 0; r < nrun; r++)
 				confs[r] = xstrdup(si.confs[r]);
-			ccols = xcalloc((size_t)si.nccol, sizeof *ccols);
+			ccols = xcalloc((size_t)(si.nccol ? si.nccol : 1), sizeof *ccols);
 			nccol = si.nccol;
 			for (j = 0; j < nccol; j++)
 				ccols[j] = xstrdup(si.ccols[j]);
@@ -738,6 +742,9 @@ int cmd_fit(int argc, char **argv)
 		s->confounds = confs ? confs[r] : NULL;
 		s->confound_names = (const char *const *)ccols;
 		s->nconf = confs ? nccol : 0;
+		s->skip = si.skip;
+		s->censor_fd = si.censor;
+		s->fd_column = "framewise_displacement";
 		s->tr = tr[r];
 		s->volume_time = sref;
 		s->drift_cutoff = drift;
@@ -827,7 +834,7 @@ int cmd_fit(int argc, char **argv)
 		}
 		jdoc_set(rj, "estimable", est);
 		jdoc_push(runs, rj);
-		c = write_design(val[O_OUT], base, &res[r].d, conds, &specs[r], files);
+		c = write_design(val[O_OUT], base, &res[r].d, conds, res[r].conf_names, files);
 		free(base);
 		if (c)
 			goto out;

@@ -227,9 +227,18 @@ static int cmp_subject(const void *a, const void *b)
 	return strcmp(((const subject *)a)->label, ((const subject *)b)->label);
 }
 
+/* analyze's group step hands its subject labels over as they are: never joined into one string */
+static char *const *step_subjects;
+static size_t step_nsubjects;
+
 /* Subjects: the sub-<label> folders of OUT (sorted), or the --subjects list in its order. */
 static int find_subjects(group_ctx *g, const char *list)
 {
+	if (step_subjects) {
+		for (size_t i = 0; i < step_nsubjects; i++)
+			add_subject(g, step_subjects[i]);
+		return 0;
+	}
 	if (list) {
 		char *copy = xstrdup(list), *tok, *save = NULL;
 
@@ -1116,29 +1125,18 @@ int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quie
 {
 	/* the study's list, not the sub-* folders: a subject whose job failed before
 	   writing anything is then listed as missing instead of passing unnoticed */
-	size_t len = 1, i;
-	char *list, *argv[6];
+	char *argv[6];
 	int argc = 0, rc;
 
-	for (i = 0; i < nsub; i++)
-		len += strlen(subs[i]) + 1;
-	list = xmalloc(len);
-	list[0] = '\0';
-	for (i = 0; i < nsub; i++) {
-		if (i)
-			strcat(list, ",");
-		strcat(list, subs[i]);
-	}
 	argv[argc++] = "group";
 	argv[argc++] = (char *)out;
-	if (nsub) {
-		argv[argc++] = "--subjects";
-		argv[argc++] = list;
-	}
 	if (quiet)
 		argv[argc++] = "--quiet";
 	argv[argc] = NULL;
+	step_subjects = nsub ? subs : NULL;
+	step_nsubjects = nsub;
 	rc = cmd_group(argc, argv);
-	free(list);
+	step_subjects = NULL;
+	step_nsubjects = 0;
 	return rc;
 }

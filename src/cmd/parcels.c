@@ -411,8 +411,8 @@ static sr_status read_mask(const study *st, unsigned char **mask, nii_grid *g, s
 	sr_status rc;
 
 	*mask = NULL;
-	if (!st->mask)
-		return SR_OK;
+	if (!st->mask || study_mask_per_subject(st))
+		return SR_OK;   /* a subject's own mask is read with its runs */
 	rc = nii_read_3d(st->mask, &info, &d, e);
 	if (rc)
 		return rc;

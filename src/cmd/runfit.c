@@ -7,8 +7,10 @@
  */
 #include "runfit.h"
 
+#include <fnmatch.h>
 #include <math.h>
 #include <pthread.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -110,17 +112,20 @@ out:
 }
 
 /* Events of the run as design events; checks conditions and warns about late events and empty conditions. */
-static sr_status load_events(const runfit_spec *spec, int T, design_event **out, size_t *nout, sr_err *e)
+static sr_status load_events(const runfit_spec *spec, int T, design_event **out, size_t *nout,
+			     int *nearly, sr_err *e)
 {
 	event_list el = { 0 };
 	design_event *ev;
 	size_t i, *count;
 	sr_status st;
-	double end = T * spec->tr;
+	double end = T * spec->tr, shift = spec->skip * spec->tr;
 	int c;
+	size_t k = 0, before = 0;
 
 	*out = NULL;
 	*nout = 0;
+	*nearly = 0;
 	st = events_read(spec->events, spec->condition_column, &el, e);
 	if (st != SR_OK)
 		return st;
@@ -137,20 +142,30 @@ static sr_status load_events(const runfit_spec *spec, int T, design_event **out,
 				     spec->events, x->line, x->condition);
 			goto out;
 		}
-		if (x->onset >= end)
+		if (x->onset - shift >= end)
 			sr_warnf(e, "%s: line %zu: event at %g s starts after the end of the run (%d volumes of %g s = %g s)",
-				 spec->events, x->line, x->onset, T, spec->tr, end);
-		ev[i].onset = x->onset;
-		ev[i].duration = x->duration;
-		ev[i].cond = c;
+				 spec->events, x->line, x->onset, T + spec->skip, spec->tr, end + shift);
+		/* wholly before the first kept volume: nothing of it reaches the design */
+		if (x->onset - shift < 0 && x->onset - shift + x->duration <= 0) {
+			before++;
+			continue;
+		}
+		ev[k].onset = x->onset - shift;
+		ev[k].duration = x->duration;
+		ev[k].cond = c;
+		k++;
 		count[c]++;
 	}
+	if (before)
+		sr_warnf(e, "%s: %zu event%s wholly before %s (dropped)", spec->events, before,
+			 before == 1 ? " lies" : "s lie", spec->skip ? "the first kept volume" : "0 s");
+	*nearly = (int)before;
 	for (c = 0; c < spec->ncond; c++)
 		if (count[c] == 0)
 			sr_warnf(e, "%s: condition '%s' has no event in this run: effects that need it are not estimable here",
 				 spec->events, spec->conditions[c]);
 	*out = ev;
-	*nout = el.n;
+	*nout = k;
 	ev = NULL;
 out:
 	free(ev);
@@ -159,17 +174,69 @@ out:
 	return st;
 }
 
-/* Confound columns by name, T x nconf column-major, n/a filled and demeaned. */
-static sr_status load_confounds(const runfit_spec *spec, int T, double **out, sr_err *e)
+sr_status runfit_confound_columns(const table *t, const char *path, const char *const *names,
+				  int n, int **cols, int *ncols, sr_err *e)
+{
+	int *out = xmalloc_array(t->ncols ? t->ncols + (size_t)n : (size_t)n + 1, sizeof *out);
+	int k = 0;
+	unsigned char *used = xcalloc(t->ncols ? t->ncols : 1, 1);
+
+	*cols = NULL;
+	*ncols = 0;
+	for (int i = 0; i < n; i++) {
+		const char *nm = names[i];
+
+		if (strpbrk(nm, "*?[")) {
+			int hit = 0;
+
+			for (size_t c = 0; c < t->ncols; c++)
+				if (fnmatch(nm, t->header[c], 0) == 0) {
+					hit = 1;
+					if (!used[c]) {
+						used[c] = 1;
+						out[k++] = (int)c;
+					}
+				}
+			if (!hit)
+				sr_warnf(e, "%s: no column matches '%s' ([model] confounds)", path, nm);
+		} else {
+			int c = table_col(t, nm);
+
+			if (c < 0) {
+				free(out);
+				free(used);
+				return sr_fail(e, SR_EFORMAT, "%s: line %zu: no column '%s' (named in [model] confounds)",
+					       path, t->header_line, nm);
+			}
+			if (!used[c]) {
+				used[c] = 1;
+				out[k++] = c;
+			}
+		}
+	}
+	free(used);
+	*cols = out;
+	*ncols = k;
+	return SR_OK;
+}
+
+/*
+ * Confound columns (patterns expanded) of the kept volumes, then one impulse
+ * per kept volume whose framewise displacement is over spec->censor_fd;
+ * Tk x ncol column-major, n/a filled and demeaned. Names into res.
+ */
+static sr_status load_confounds(const runfit_spec *spec, int T, double **out, int *nout,
+				runfit_result *res, sr_err *e)
 {
 	table t;
-	double *conf;
+	double *conf = NULL;
 	sr_status st;
-	int c;
+	int c, *cols = NULL, ncols = 0, ncen = 0, Tk = T - spec->skip;
 	size_t row;
 
 	*out = NULL;
-	if (spec->nconf == 0)
+	*nout = 0;
+	if (spec->nconf == 0 && !(spec->censor_fd > 0))
 		return SR_OK;
 	if (!spec->confounds)
 		return sr_fail(e, SR_EINVAL, "%s: confound columns named but no confounds file", spec->bold);
@@ -182,23 +249,56 @@ static sr_status load_confounds(const runfit_spec *spec, int T, double **out, sr
 		table_release(&t);
 		return st;
 	}
-	conf = xmalloc_array((size_t)T * spec->nconf, sizeof(double));
-	for (c = 0; c < spec->nconf; c++) {
-		int col = table_col(&t, spec->confound_names[c]);
+	st = runfit_confound_columns(&t, spec->confounds, spec->confound_names, spec->nconf, &cols,
+				     &ncols, e);
+	if (st != SR_OK)
+		goto fail;
+	if (spec->censor_fd > 0) {
+		const char *fdn = spec->fd_column ? spec->fd_column : "framewise_displacement";
+		int fc = table_col(&t, fdn);
 
-		if (col < 0) {
-			st = sr_fail(e, SR_EFORMAT, "%s: no column '%s'", spec->confounds, spec->confound_names[c]);
+		if (fc < 0) {
+			st = sr_fail(e, SR_EFORMAT, "%s: line %zu: no column '%s' for censor_fd", spec->confounds,
+				     t.header_line, fdn);
 			goto fail;
 		}
-		for (row = 0; row < (size_t)T; row++) {
+		res->censored = xmalloc_array((size_t)(Tk > 0 ? Tk : 1), sizeof *res->censored);
+		for (row = (size_t)spec->skip; row < (size_t)T; row++) {
+			double x;
 			int na;
 
-			st = table_number(&t, row, (size_t)col, &conf[(size_t)c * T + row], &na, 1, e);
+			st = table_number(&t, row, (size_t)fc, &x, &na, 1, e);
+			if (st != SR_OK)
+				goto fail;
+			if (!na && x > spec->censor_fd)
+				res->censored[ncen++] = (int)row;
+		}
+		res->ncensored = ncen;
+	}
+	conf = xmalloc_array((size_t)Tk * (size_t)(ncols + ncen ? ncols + ncen : 1), sizeof(double));
+	res->conf_names = xcalloc((size_t)(ncols + ncen) + 1, sizeof *res->conf_names);
+	for (c = 0; c < ncols; c++) {
+		res->conf_names[c] = xstrdup(t.header[cols[c]]);
+		for (row = 0; row < (size_t)Tk; row++) {
+			int na;
+
+			st = table_number(&t, row + (size_t)spec->skip, (size_t)cols[c],
+					  &conf[(size_t)c * (size_t)Tk + row], &na, 1, e);
 			if (st != SR_OK)
 				goto fail;
 		}
 	}
-	st = design_confounds(T, spec->nconf, conf, e);
+	for (c = 0; c < ncen; c++) {
+		char nm[32];
+		double *col = conf + (size_t)(ncols + c) * (size_t)Tk;
+
+		snprintf(nm, sizeof nm, "censor_%d", res->censored[c] + 1);
+		res->conf_names[ncols + c] = xstrdup(nm);
+		for (row = 0; row < (size_t)Tk; row++)
+			col[row] = 0.0;
+		col[res->censored[c] - spec->skip] = 1.0;
+	}
+	st = design_confounds(Tk, ncols + ncen, conf, e);
 	if (st != SR_OK) {
 		char msg[sizeof e->msg];
 
@@ -207,10 +307,13 @@ static sr_status load_confounds(const runfit_spec *spec, int T, double **out, sr
 		goto fail;
 	}
 	table_release(&t);
+	free(cols);
 	*out = conf;
+	*nout = ncols + ncen;
 	return SR_OK;
 fail:
 	free(conf);
+	free(cols);
 	table_release(&t);
 	return st;
 }
@@ -225,7 +328,7 @@ sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_resul
 	glm_acc *acc = NULL;
 	nii_stream *s = NULL;
 	sr_status st;
-	int T, c, j;
+	int T, c, j, nconf = 0;
 
 	memset(res, 0, sizeof *res);
 	memset(&q, 0, sizeof q);
@@ -239,15 +342,31 @@ sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_resul
 			     (long long)res->info.nt);
 		goto out;
 	}
-	T = (int)res->info.nt;
 	nvox = nii_nvox(&res->info.grid);
-	st = load_events(spec, T, &ev, &nev, e);
+	if (spec->skip < 0 || (int64_t)spec->skip > res->info.nt - 2) {
+		st = sr_fail(e, SR_EDIM, "%s: skip_volumes = %d leaves fewer than 2 of its %lld volumes",
+			     spec->bold, spec->skip, (long long)res->info.nt);
+		goto out;
+	}
+	/* the first skip volumes are read past and nothing of them is used */
+	if (spec->skip) {
+		double *junk = xmalloc_array(nvox ? nvox : 1, sizeof *junk);
+
+		for (j = 0; j < spec->skip && st == SR_OK; j++)
+			st = nii_stream_next(s, junk, e);
+		free(junk);
+		if (st != SR_OK)
+			goto out;
+	}
+	res->nskip = spec->skip;
+	T = (int)res->info.nt - spec->skip;
+	st = load_events(spec, T, &ev, &nev, &res->nearly_events, e);
 	if (st != SR_OK)
 		goto out;
-	st = load_confounds(spec, T, &conf, e);
+	st = load_confounds(spec, (int)res->info.nt, &conf, &nconf, res, e);
 	if (st != SR_OK)
 		goto out;
-	st = design_build(T, spec->tr, spec->volume_time, ev, nev, spec->ncond, conf, spec->nconf,
+	st = design_build(T, spec->tr, spec->volume_time, ev, nev, spec->ncond, conf, nconf,
 			  spec->drift_cutoff, &res->d, e);
 	if (st != SR_OK) {
 		/* the core knows no file names: say which run's design failed */
@@ -278,6 +397,17 @@ sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_resul
 	if (st != SR_OK)
 		goto out;
 	st = glm_acc_finish(acc, spec->ar1, Cp, spec->ncon, spec->mask, nthreads, &res->out, e);
+	if (st == SR_OK) {
+		size_t v, bad = 0;
+
+		/* a voxel with a NaN or infinite value in any volume is not analyzable: say how many */
+		for (v = 0; v < nvox; v++)
+			bad += (!spec->mask || spec->mask[v]) && !isfinite(res->out.mean[v]);
+		res->nnonfinite = bad;
+		if (bad)
+			sr_warnf(e, "%s: %zu voxel%s hold NaN or infinite values and are left out", spec->bold,
+				 bad, bad == 1 ? "" : "s");
+	}
 out:
 	nii_stream_close(s);
 	glm_acc_free(acc);
@@ -364,4 +494,11 @@ void runfit_result_release(runfit_result *r)
 	design_release(&r->d);
 	glm_out_release(&r->out);
 	memset(&r->d, 0, sizeof r->d);
+	if (r->conf_names)
+		for (char **p = r->conf_names; *p; p++)
+			free(*p);
+	free(r->conf_names);
+	free(r->censored);
+	r->conf_names = NULL;
+	r->censored = NULL;
 }

@@ -10,6 +10,7 @@
 #include "../core/err.h"
 #include "../core/glm.h"
 #include "../io/nii.h"
+#include "../io/table.h"
 
 typedef struct runfit_spec {
 	const char *bold;              /* _bold.nii[.gz] */
@@ -17,9 +18,12 @@ typedef struct runfit_spec {
 	const char *condition_column;  /* NULL = trial_type */
 	const char *const *conditions; /* the task's conditions for this subject, sorted (byte order) */
 	int ncond;
-	const char *confounds;         /* confounds TSV, or NULL when nconf = 0 */
-	const char *const *confound_names;
+	const char *confounds;         /* confounds TSV, or NULL when nconf = 0 and censor_fd = 0 */
+	const char *const *confound_names; /* column names or shell-style patterns (runfit_confound_columns) */
 	int nconf;
+	int skip;                      /* initial volumes dropped before everything (events shift by skip x TR) */
+	double censor_fd;              /* > 0: one impulse regressor per kept volume whose FD exceeds it */
+	const char *fd_column;         /* the confounds column holding framewise displacement */
 	double tr;                     /* seconds, already resolved (bids_run_tr) */
 	double volume_time;              /* METHODS.md section 2 */
 	double drift_cutoff;           /* seconds; 0 = no drift basis */
@@ -33,7 +37,23 @@ typedef struct runfit_result {
 	nii_info info;                 /* header of the BOLD run */
 	design d;                      /* the design used (for CSV export and the report) */
 	glm_out out;                   /* per-voxel effects, variances, analyzable flags */
+	char **conf_names;             /* d.nconf names of the confound columns used (censor_<k> for impulses) */
+	int nskip;                     /* volumes dropped at the start */
+	int ncensored;                 /* impulse regressors (volumes over censor_fd) */
+	int *censored;                 /* their volume indices in the stored run (0-based) */
+	int nearly_events;             /* events wholly before the first kept volume, dropped */
+	size_t nnonfinite;             /* voxels (in the mask) with a NaN or infinite value, left out */
 } runfit_result;
+
+/*
+ * The columns of t named by names (n entries): a plain name is that column
+ * (absent: an error naming path, header line and the name); a shell-style
+ * pattern (holding *, ? or [) is every matching column in file order (none:
+ * a warning). A column named twice is used once. *cols (xmalloc'ed) gets the
+ * column indices, *ncols their count.
+ */
+sr_status runfit_confound_columns(const table *t, const char *path, const char *const *names,
+				  int n, int **cols, int *ncols, sr_err *e);
 
 /*
  * Fits one run: reads events (warning for events past the end of the run),

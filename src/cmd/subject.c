@@ -6,6 +6,7 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <strings.h>
 #include <sys/stat.h>
 #include <time.h>
 
@@ -49,6 +50,67 @@ static int cmp_i32(const void *a, const void *b)
 	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
 
 	return (x > y) - (x < y);
+}
+
+sr_status mask_intersection(char *const *paths, size_t n, unsigned char **mask, nii_grid *grid,
+			    size_t *count, sr_err *e)
+{
+	unsigned char *m = NULL;
+	size_t nvox = 0, v;
+	char why[512];
+
+	*mask = NULL;
+	*count = 0;
+	for (size_t i = 0; i < n; i++) {
+		nii_info info;
+		double *d;
+		sr_status rc = nii_read_3d(paths[i], &info, &d, e);
+
+		if (rc) {
+			free(m);
+			return rc;
+		}
+		if (i == 0) {
+			*grid = info.grid;
+			nvox = nii_nvox(&info.grid);
+			m = xmalloc(nvox ? nvox : 1);
+			memset(m, 1, nvox);
+		} else if (!nii_same_grid(grid, &info.grid, 1e-3, why, sizeof why)) {
+			free(d);
+			free(m);
+			return sr_fail(e, SR_EDIM, "%s: the mask is not on the grid of %s: %s", paths[i], paths[0], why);
+		}
+		for (v = 0; v < nvox; v++)
+			m[v] &= isfinite(d[v]) && d[v] != 0;
+		free(d);
+	}
+	for (v = 0; v < nvox; v++)
+		*count += m[v];
+	if (*count == 0) {
+		free(m);
+		return sr_fail(e, SR_EFORMAT, n > 1 ? "%s and %zu other masks have no voxel in common" : "%s: the mask is empty",
+			       paths[0], n - 1);
+	}
+	*mask = m;
+	return SR_OK;
+}
+
+int study_mask_per_subject(const study *st)
+{
+	return st->mask_auto || study_per_subject(st->mask);
+}
+
+int parcels_template_on_raw(const study *st, const nii_grid *g, const char *path)
+{
+	const char *b = strrchr(path, '/');
+	int tpl;
+
+	if (st->derivatives)
+		return 0;
+	b = b ? b + 1 : path;
+	/* NIfTI xform codes 3 (Talairach), 4 (MNI-152), 5 (other template) */
+	tpl = (g->sform_code >= 3 && g->sform_code <= 5) || (g->sform_code <= 0 && g->qform_code >= 3 && g->qform_code <= 5);
+	return tpl || strstr(b, "space-") != NULL || strncmp(b, "tpl-", 4) == 0 || strstr(b, "_tpl-") != NULL;
 }
 
 sr_status parcel_set_load(const char *image, const char *names_path, parcel_set *p, sr_err *e)
@@ -295,6 +357,44 @@ static void task_release(task_fit *t)
 	memset(t, 0, sizeof *t);
 }
 
+/*
+ * The subject's own mask when the study's depends on the subject: mask =
+ * auto (every run's desc-brain_mask, intersected) or a path with {subject}.
+ */
+static sr_status own_mask(const study *st, const char *label, const task_fit *tasks, size_t ntasks,
+			  unsigned char **mask, nii_grid *grid, char **what, sr_err *e)
+{
+	char **paths = NULL;
+	size_t n = 0, count;
+	sr_status rc;
+
+	*mask = NULL;
+	*what = NULL;
+	if (!st->mask_auto) {
+		char *p = study_subject_path(st->mask, label);
+
+		rc = mask_intersection(&p, 1, mask, grid, &count, e);
+		*what = p;
+		return rc;
+	}
+	for (size_t i = 0; i < ntasks; i++)
+		for (size_t r = 0; r < tasks[i].nruns; r++) {
+			if (!tasks[i].runs[r].brain_mask) {
+				rc = sr_fail(e, SR_EIO, "%s: no desc-brain_mask image beside it (mask = auto)",
+					     tasks[i].runs[r].bold);
+				free(paths);
+				return rc;
+			}
+			paths = xrealloc(paths, (n + 1) * sizeof *paths);
+			paths[n++] = tasks[i].runs[r].brain_mask;
+		}
+	rc = mask_intersection(paths, n, mask, grid, &count, e);
+	if (!rc)
+		*what = xstrdup(paths[0]);
+	free(paths);
+	return rc;
+}
+
 /* Finds runs, reads every events file for the condition list, resolves TR, builds contrasts. */
 static sr_status task_prepare(const study *st, const char *label, task_fit *t, sr_err *e)
 {
@@ -302,7 +402,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 	int j, ncap = 0;
 	sr_status rc;
 
-	rc = bids_runs(st->bids, label, t->task, &t->runs, &t->nruns, e);
+	rc = study_runs(st, label, t->task, &t->runs, &t->nruns, e);
 	if (rc)
 		return rc;
 	if (t->nruns == 0)
@@ -351,7 +451,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 		rc = bids_run_tr(st->bids, &t->runs[i], info.tr, &t->tr[i], e);
 		if (rc)
 			return rc;
-		if (st->nconfounds)
+		if (st->nconfounds || st->censor_fd > 0)
 			t->confpath[i] = bids_confounds_path(&t->runs[i], st->confounds_suffix);
 	}
 	if (t->ncond)
@@ -397,6 +497,9 @@ static void task_specs(const study *st, const task_fit *t, const unsigned char *
 		s->confounds = t->confpath[i];
 		s->confound_names = (const char *const *)st->confounds;
 		s->nconf = (int)st->nconfounds;
+		s->skip = st->skip_volumes;
+		s->censor_fd = st->censor_fd;
+		s->fd_column = "framewise_displacement";
 		s->tr = t->tr[i];
 		s->volume_time = st->volume_time;
 		s->drift_cutoff = st->drift_cutoff;
@@ -630,8 +733,27 @@ static jdoc *inputs_record(const task_fit *t)
 		jdoc_set_str(o, "events", t->runs[r].events);
 		jdoc_set_str(o, "confounds", t->confpath[r]);
 		jdoc_set_str(o, "run", t->runs[r].label);
-		jdoc_set_int(o, "rank", (long long)in->nt - t->res[r].out.df);
+		jdoc_set_int(o, "rank", (long long)t->res[r].d.T - t->res[r].out.df);
 		jdoc_set_int(o, "df", t->res[r].out.df);
+		jdoc_set_int(o, "skipped_volumes", t->res[r].nskip);
+		jdoc_set_int(o, "censored_volumes", t->res[r].ncensored);
+		if (t->res[r].ncensored) {
+			jdoc *cv = jdoc_array();
+
+			/* 1-based volume numbers of the stored run */
+			for (int k = 0; k < t->res[r].ncensored; k++)
+				jdoc_push_num(cv, (double)t->res[r].censored[k] + 1);
+			jdoc_set(o, "censored", cv);
+		}
+		jdoc_set_int(o, "events_before_start", t->res[r].nearly_events);
+		jdoc_set_int(o, "nonfinite_voxels", (long long)t->res[r].nnonfinite);
+		{
+			jdoc *cn = jdoc_array();
+
+			for (int k = 0; k < t->res[r].d.nconf; k++)
+				jdoc_push_str(cn, t->res[r].conf_names[k]);
+			jdoc_set(o, "confound_columns", cn);
+		}
 		jdoc_push(a, o);
 	}
 	return a;
@@ -658,7 +780,7 @@ static sr_status write_run_files(const char *dir, const task_fit *tasks, size_t 
 			snprintf(path, sizeof path, "%s/design/task-%s_run-%s.csv", dir, tasks[i].task,
 				 tasks[i].runs[r].label);
 			rc = designcsv_write(path, &tasks[i].res[r].d, (const char *const *)tasks[i].conds,
-					     (const char *const *)st->confounds, e);
+					     (const char *const *)tasks[i].res[r].conf_names, e);
 		}
 	}
 	return rc;
@@ -711,6 +833,9 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 {
 	const study *st = ctx->st;
 	const parcel_set *ps = ctx->parcels;
+	unsigned char *mask_owned = NULL;
+	nii_grid mask_grid_own;
+	char *mask_path_own = NULL;
 	parcel_set own_ps;
 	char *own_image = NULL, *own_names = NULL;
 	task_fit *tasks;
@@ -775,7 +900,13 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 		nruns_all += tasks[i].nruns;
 	}
-	rc = check_grids(tasks, ntasks, st->mask, ctx->mask_grid, e);
+	if (!ctx->mask && study_mask_per_subject(st)) {
+		rc = own_mask(st, label, tasks, ntasks, &mask_owned, &mask_grid_own, &mask_path_own, e);
+		if (rc)
+			goto out;
+	}
+	rc = check_grids(tasks, ntasks, mask_owned ? mask_path_own : st->mask,
+			 mask_owned ? &mask_grid_own : ctx->mask_grid, e);
 	if (rc)
 		goto out;
 	/* fit every run of every task once, in parallel */
@@ -786,7 +917,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		size_t at = 0;
 
 		for (i = 0; i < ntasks; i++) {
-			task_specs(st, &tasks[i], ctx->mask, specs + at);
+			task_specs(st, &tasks[i], mask_owned ? mask_owned : ctx->mask, specs + at);
 			at += tasks[i].nruns;
 		}
 	}
@@ -819,6 +950,22 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	nvox = nii_nvox(&grid);
 	for (i = 0; i < ntasks; i++)
 		warn_estimability(&tasks[i], e);
+	if (st->drift_cutoff > 0) {
+		int warned = 0;
+
+		/* a pipeline's cosine columns next to the model's own drift basis model the drift twice */
+		for (i = 0; i < ntasks && !warned; i++)
+			for (size_t r = 0; r < tasks[i].nruns && !warned; r++)
+				for (int k = 0; k < tasks[i].res[r].d.nconf && !warned; k++) {
+					const char *nm = tasks[i].res[r].conf_names[k];
+
+					if (strncasecmp(nm, "cosine", 6) == 0 || strncasecmp(nm, "drift", 5) == 0) {
+						sr_warnf(e, "subject %s: confound column '%s' of %s is a cosine drift basis, and the model adds its own (drift_cutoff = %g s): drop the column or set drift_cutoff = none",
+							 label, nm, tasks[i].confpath[r], st->drift_cutoff);
+						warned = 1;
+					}
+				}
+	}
 	if (nii_same_grid(&grid, &ps->grid, 1e-3, buf, sizeof buf)) {
 		labels = ps->labels;
 	} else if (st->resample_parcels) {
@@ -837,6 +984,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			if (lost[p])
 				sr_warnf(e, "subject %s: parcel %s (label %d) has no voxel on the data grid after nearest-neighbour resampling of %s; its rows are empty",
 					 label, ps->name[p], (int)ps->index[p], own_image ? own_image : st->parcels);
+	} else if (parcels_template_on_raw(st, &ps->grid, own_image ? own_image : st->parcels)) {
+		rc = sr_fail(e, SR_EDIM, "%s: the parcels are not on the data grid of %s (%s): " PARCELS_RAW_NOTE,
+			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
+		goto out;
 	} else {
 		rc = sr_fail(e, SR_EDIM,
 			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
@@ -1086,6 +1237,9 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	int *pos = NULL;
 	size_t i, nvox;
 	sr_status rc;
+	unsigned char *mask_owned = NULL;
+	nii_grid mask_grid_own;
+	char *mask_path_own = NULL;
 
 	*t = NULL;
 	*df = NULL;
@@ -1097,7 +1251,14 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 	rc = task_prepare(st, label, &loc, e);
 	if (rc)
 		goto out;
-	rc = check_grids(&loc, 1, st->mask, mask_grid, e);
+	if (!mask && study_mask_per_subject(st)) {
+		rc = own_mask(st, label, &loc, 1, &mask_owned, &mask_grid_own, &mask_path_own, e);
+		if (rc)
+			goto out;
+		mask = mask_owned;
+		mask_grid = &mask_grid_own;
+	}
+	rc = check_grids(&loc, 1, mask_owned ? mask_path_own : st->mask, mask_grid, e);
 	if (rc)
 		goto out;
 	specs = xcalloc(loc.nruns, sizeof *specs);
@@ -1154,5 +1315,7 @@ out:
 	free(results);
 	free(errs);
 	task_release(&loc);
+	free(mask_owned);
+	free(mask_path_own);
 	return rc;
 }

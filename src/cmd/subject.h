@@ -88,4 +88,26 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
 sr_status parcel_set_load(const char *image, const char *names, parcel_set *p, sr_err *e);
 void parcel_set_release(parcel_set *p);
 
+/*
+ * 1 when parcels on grid g (file path) are in a template space (the sform or
+ * qform code says Talairach, MNI-152 or another template, or the file name
+ * has a space-/tpl- entity) while the study's runs are raw data with no
+ * space- entity (no derivatives). Resampling does not fix that: the data
+ * must be preprocessed into the template space.
+ */
+/*
+ * The voxels non-zero (and finite) in every image of paths (n >= 1), all on
+ * one grid: *mask (xmalloc'ed, nvox), *grid, *count voxels in it. Errors name
+ * the image: unreadable, not on the first image's grid, an empty intersection.
+ */
+sr_status mask_intersection(char *const *paths, size_t n, unsigned char **mask, nii_grid *grid,
+			    size_t *count, sr_err *e);
+
+/* 1 when the study's mask depends on the subject (mask = auto, or {subject} in its path). */
+int study_mask_per_subject(const study *st);
+
+int parcels_template_on_raw(const study *st, const nii_grid *g, const char *path);
+#define PARCELS_RAW_NOTE "the parcels are in a template space but the runs are raw data (no space- entity); " \
+	"analyze preprocessed runs in that space (derivatives = and space = in [study]): resampling the parcels does not normalise the data"
+
 #endif

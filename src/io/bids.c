@@ -69,11 +69,25 @@ static size_t bold_stem(const char *name)
 	return 0;
 }
 
+int bids_valid_label(const char *s)
+{
+	if (!s || !*s)
+		return 0;
+	for (; *s; s++)
+		if (!((*s >= 'a' && *s <= 'z') || (*s >= 'A' && *s <= 'Z') || (*s >= '0' && *s <= '9')))
+			return 0;
+	return 1;
+}
+
 /*
  * Folder names under dir that begin with prefix, labels without it, sorted.
- * A missing dir gives zero names.
+ * A missing dir gives zero names. With e: an entry of that prefix that is a
+ * link that cannot be followed (a loop, a dangling link) or a folder whose
+ * label is not a BIDS label is an error naming it (*st set); without e such
+ * entries are skipped.
  */
-static char **list_prefixed_dirs(const char *dir, const char *prefix, size_t *n)
+static char **list_prefixed_dirs(const char *dir, const char *prefix, size_t *n, sr_err *e,
+				 sr_status *st)
 {
 	DIR *d = opendir(dir);
 	struct dirent *de;
@@ -85,11 +99,26 @@ static char **list_prefixed_dirs(const char *dir, const char *prefix, size_t *n)
 		return NULL;
 	while ((de = readdir(d)) != NULL) {
 		char *full;
+		struct stat sb, lsb;
 
 		if (strncmp(de->d_name, prefix, plen) != 0 || de->d_name[plen] == '\0')
 			continue;
 		full = str_printf("%s/%s", dir, de->d_name);
-		if (is_dir(full)) {
+		if (stat(full, &sb) != 0) {
+			if (e && !*st && lstat(full, &lsb) == 0 && S_ISLNK(lsb.st_mode))
+				*st = sr_fail(e, SR_EIO, "cannot access %s: %s", full, strerror(errno));
+			free(full);
+			continue;
+		}
+		if (S_ISDIR(sb.st_mode)) {
+			if (!bids_valid_label(de->d_name + plen)) {
+				if (e && !*st)
+					*st = sr_fail(e, SR_EFORMAT,
+						      "%s: '%s' is not a BIDS label (letters and digits only); rename the folder",
+						      full, de->d_name + plen);
+				free(full);
+				continue;
+			}
 			if (*n == cap) {
 				cap = cap ? 2 * cap : 16;
 				out = xrealloc(out, cap * sizeof *out);
@@ -107,6 +136,7 @@ static char **list_prefixed_dirs(const char *dir, const char *prefix, size_t *n)
 sr_status bids_subjects(const char *root, char ***labels, size_t *n, sr_err *e)
 {
 	DIR *d = opendir(root);
+	sr_status st = SR_OK;
 
 	*labels = NULL;
 	*n = 0;
@@ -114,8 +144,13 @@ sr_status bids_subjects(const char *root, char ***labels, size_t *n, sr_err *e)
 		return sr_fail(e, SR_EIO, "cannot open the dataset folder %s: %s", root,
 			       strerror(errno));
 	closedir(d);
-	*labels = list_prefixed_dirs(root, "sub-", n);
-	return SR_OK;
+	*labels = list_prefixed_dirs(root, "sub-", n, e, &st);
+	if (st) {
+		bids_strings_free(*labels, *n);
+		*labels = NULL;
+		*n = 0;
+	}
+	return st;
 }
 
 void bids_strings_free(char **s, size_t n)
@@ -164,6 +199,46 @@ typedef struct run_list {
 	size_t n, cap;
 } run_list;
 
+/* A small sorted-on-demand set of strings. */
+typedef struct str_set {
+	char **s;
+	size_t n, cap;
+} str_set;
+
+static void set_add(str_set *S, const char *v, size_t len)
+{
+	for (size_t i = 0; i < S->n; i++)
+		if (strlen(S->s[i]) == len && strncmp(S->s[i], v, len) == 0)
+			return;
+	if (S->n == S->cap) {
+		S->cap = S->cap ? 2 * S->cap : 8;
+		S->s = xrealloc(S->s, S->cap * sizeof *S->s);
+	}
+	S->s[S->n] = xmalloc(len + 1);
+	memcpy(S->s[S->n], v, len);
+	S->s[S->n++][len] = '\0';
+}
+
+/* "a, b, c" of the set, sorted; caller frees. */
+static char *set_join(str_set *S)
+{
+	size_t len = 1;
+	char *out;
+
+	if (S->n)
+		qsort(S->s, S->n, sizeof *S->s, cmp_str);
+	for (size_t i = 0; i < S->n; i++)
+		len += strlen(S->s[i]) + 2;
+	out = xmalloc(len);
+	out[0] = '\0';
+	for (size_t i = 0; i < S->n; i++) {
+		if (i)
+			strcat(out, ", ");
+		strcat(out, S->s[i]);
+	}
+	return out;
+}
+
 static void run_free(bids_run *r)
 {
 	free(r->bold);
@@ -173,17 +248,169 @@ static void run_free(bids_run *r)
 	free(r->session);
 	free(r->task);
 	free(r->label);
+	free(r->raw_bold);
+	free(r->deriv_sidecar);
+	free(r->confounds);
+	free(r->brain_mask);
+	free(r->space);
+}
+
+/* The entities only a derivative carries; dropped to find the raw run of a derivative. */
+static int derivative_entity(const char *part, size_t len)
+{
+	static const char *const keys[] = { "space-", "res-", "den-", "desc-" };
+
+	for (size_t k = 0; k < sizeof keys / sizeof *keys; k++)
+		if (len > strlen(keys[k]) && strncmp(part, keys[k], strlen(keys[k])) == 0)
+			return 1;
+	return 0;
+}
+
+/* stem[0..len) without its derivative entities; xmalloc'ed. */
+static char *raw_stem(const char *stem, size_t len)
+{
+	char *out = xmalloc(len + 1);
+	size_t o = 0, i = 0;
+
+	while (i < len) {
+		size_t j = i;
+
+		while (j < len && stem[j] != '_')
+			j++;
+		if (!derivative_entity(stem + i, j - i)) {
+			if (o)
+				out[o++] = '_';
+			memcpy(out + o, stem + i, j - i);
+			o += j - i;
+		}
+		i = j + 1;
+	}
+	out[o] = '\0';
+	return out;
+}
+
+/* stem with the desc- value replaced (or appended when absent); xmalloc'ed. */
+static char *with_desc(const char *stem, size_t len, const char *desc)
+{
+	const char *v;
+	long n = entity(stem, len, "desc", &v);
+
+	if (n < 0)
+		return str_printf("%.*s_desc-%s", (int)len, stem, desc);
+	return str_printf("%.*s%s%.*s", (int)(v - stem), stem, desc,
+			  (int)(len - (size_t)(v - stem) - (size_t)n), v + n);
+}
+
+/*
+ * 1 when every key-value part of cand[0..clen) appears in stem[0..slen)
+ * with the same value (the BIDS inheritance rule: a file applies to the data
+ * files whose entities include its own).
+ */
+static int entities_subset(const char *cand, size_t clen, const char *stem, size_t slen, int *count)
+{
+	size_t i = 0;
+
+	*count = 0;
+	while (i < clen) {
+		size_t j = i, k;
+		const char *dash;
+
+		while (j < clen && cand[j] != '_')
+			j++;
+		dash = memchr(cand + i, '-', j - i);
+		if (!dash || dash == cand + i)
+			return 0;
+		{
+			char key[64];
+			const char *v;
+			long n;
+
+			k = (size_t)(dash - (cand + i));
+			if (k >= sizeof key)
+				return 0;
+			memcpy(key, cand + i, k);
+			key[k] = '\0';
+			n = entity(stem, slen, key, &v);
+			if (n < 0 || (size_t)n != j - i - k - 1 || strncmp(v, dash + 1, (size_t)n) != 0)
+				return 0;
+		}
+		(*count)++;
+		i = j + 1;
+	}
+	return 1;
+}
+
+/*
+ * The events file of a raw run: its own <stem>_events.tsv, else by the BIDS
+ * inheritance rule the closest *_events.tsv (func/, session, subject, dataset
+ * folder) whose entities all belong to the run, the one with most entities
+ * first (then by name). *path is the own name when none is found.
+ */
+static void find_events(const char *raw, const char *subject, const char *session,
+			const char *stem, char **path, int *exist)
+{
+	char *dirs[4];
+	size_t nd = 0, slen = strlen(stem);
+
+	if (session)
+		dirs[nd++] = str_printf("%s/sub-%s/ses-%s/func", raw, subject, session);
+	else
+		dirs[nd++] = str_printf("%s/sub-%s/func", raw, subject);
+	*path = str_printf("%s/%s_events.tsv", dirs[0], stem);
+	*exist = is_file(*path);
+	if (session)
+		dirs[nd++] = str_printf("%s/sub-%s/ses-%s", raw, subject, session);
+	dirs[nd++] = str_printf("%s/sub-%s", raw, subject);
+	dirs[nd++] = xstrdup(raw);
+	for (size_t k = 0; k < nd && !*exist; k++) {
+		DIR *d = opendir(dirs[k]);
+		struct dirent *de;
+		char *best = NULL;
+		int bestn = -1;
+
+		if (!d)
+			continue;
+		while ((de = readdir(d)) != NULL) {
+			size_t n = strlen(de->d_name), m = strlen("_events.tsv");
+			int count;
+			char *full;
+
+			if (!has_suffix(de->d_name, "_events.tsv") || n == m)
+				continue;
+			if (!entities_subset(de->d_name, n - m, stem, slen, &count))
+				continue;
+			full = str_printf("%s/%s", dirs[k], de->d_name);
+			if (!is_file(full) ||
+			    !(count > bestn || (count == bestn && strcmp(full, best) < 0))) {
+				free(full);
+				continue;
+			}
+			free(best);
+			best = full;
+			bestn = count;
+		}
+		closedir(d);
+		if (best) {
+			free(*path);
+			*path = best;
+			*exist = 1;
+		}
+	}
+	for (size_t k = 0; k < nd; k++)
+		free(dirs[k]);
 }
 
 /* Adds the matching BOLD files of one func/ folder. */
 static sr_status scan_func(const char *func, const char *subject, const char *session,
-			   const char *task, run_list *L, sr_err *e)
+			   const char *task, const bids_src *src, run_list *L, str_set *descs,
+			   sr_err *e)
 {
 	DIR *d = opendir(func);
 	struct dirent *de;
 	char **names = NULL;
 	size_t nn = 0, cap = 0;
 	sr_status st = SR_OK;
+	const char *want_desc = src->desc ? src->desc : "preproc";
 
 	if (!d)
 		return SR_OK;
@@ -200,9 +427,9 @@ static sr_status scan_func(const char *func, const char *subject, const char *se
 	if (nn)
 		qsort(names, nn, sizeof *names, cmp_str);
 	for (size_t i = 0; i < nn && !st; i++) {
-		const char *name = names[i], *rv;
+		const char *name = names[i], *rv, *sv;
 		size_t stem = bold_stem(name);
-		long rlen;
+		long rlen, slen;
 		int index = -1;
 		struct stat sb;
 		char *path = str_printf("%s/%s", func, name);
@@ -212,21 +439,38 @@ static sr_status scan_func(const char *func, const char *subject, const char *se
 			free(path);
 			continue;
 		}
-		/* A run that cannot be read (say, a link to data not fetched) must not vanish from the splits. */
+		/* A run that cannot be read (a link to data not fetched, a link loop, a device)
+		   must not vanish from the splits: that would change which runs are odd. */
 		if (stat(path, &sb) != 0) {
 			st = sr_fail(e, SR_EIO, "cannot access %s: %s", path, strerror(errno));
 			free(path);
 			break;
 		}
 		if (!S_ISREG(sb.st_mode)) {
-			sr_warnf(e, "ignoring %s: not a regular file", path);
+			st = sr_fail(e, SR_EIO, "%s is not a regular file (a BOLD run must be a NIfTI file); remove it or fix the link",
+				     path);
 			free(path);
-			continue;
+			break;
 		}
 		if (!entity_is(name, stem, "sub", subject) || !entity_is(name, stem, "ses", session)) {
 			sr_warnf(e, "ignoring %s: its sub-/ses- entities do not match its folder", path);
 			free(path);
 			continue;
+		}
+		if (src->deriv) {
+			const char *dv;
+			long dlen = entity(name, stem, "desc", &dv);
+
+			if (dlen >= 0)
+				set_add(descs, dv, (size_t)dlen);
+			else
+				set_add(descs, "(none)", 6);
+			if (!entity_is(name, stem, "desc", want_desc) ||
+			    (src->res && !entity_is(name, stem, "res", src->res)) ||
+			    (src->space && !entity_is(name, stem, "space", src->space))) {
+				free(path);
+				continue;
+			}
 		}
 		/* Both .nii and .nii.gz of one run: analysing both would count the run twice. */
 		if (i + 1 < nn && bold_stem(names[i + 1]) == stem &&
@@ -267,17 +511,62 @@ static sr_status scan_func(const char *func, const char *subject, const char *se
 		r = &L->r[L->n++];
 		memset(r, 0, sizeof *r);
 		r->bold = path;
-		r->events = str_printf("%s/%.*s_events.tsv", func, (int)stem, name);
-		r->events_exist = is_file(r->events);
-		r->sidecar = str_printf("%s/%.*s_bold.json", func, (int)stem, name);
-		if (!is_file(r->sidecar)) {
-			free(r->sidecar);
-			r->sidecar = NULL;
-		}
 		r->subject = xstrdup(subject);
 		r->session = session ? xstrdup(session) : NULL;
 		r->task = xstrdup(task);
 		r->run_index = index;
+		slen = entity(name, stem, "space", &sv);
+		if (slen >= 0)
+			r->space = str_printf("%.*s", (int)slen, sv);
+		if (src->deriv) {
+			char *rs = raw_stem(name, stem), *rawfunc, *mstem;
+
+			rawfunc = session ? str_printf("%s/sub-%s/ses-%s/func", src->raw, subject, session)
+					  : str_printf("%s/sub-%s/func", src->raw, subject);
+			/* never read: the name the raw BOLD has, from which raw sidecars are inherited */
+			r->raw_bold = str_printf("%s/%s_bold.nii.gz", rawfunc, rs);
+			r->sidecar = str_printf("%s/%s_bold.json", rawfunc, rs);
+			r->deriv_sidecar = str_printf("%s/%.*s_bold.json", func, (int)stem, name);
+			r->confounds = str_printf("%s/%s_desc-confounds_timeseries.tsv", func, rs);
+			if (!is_file(r->confounds)) {
+				char *old = str_printf("%s/%s_desc-confounds_regressors.tsv", func, rs);
+
+				if (is_file(old)) {
+					free(r->confounds);
+					r->confounds = old;
+				} else {
+					free(old);
+				}
+			}
+			mstem = with_desc(name, stem, "brain");
+			r->brain_mask = str_printf("%s/%s_mask.nii.gz", func, mstem);
+			if (!is_file(r->brain_mask)) {
+				free(r->brain_mask);
+				r->brain_mask = str_printf("%s/%s_mask.nii", func, mstem);
+				if (!is_file(r->brain_mask)) {
+					free(r->brain_mask);
+					r->brain_mask = NULL;
+				}
+			}
+			free(mstem);
+			find_events(src->raw, subject, session, rs, &r->events, &r->events_exist);
+			free(rawfunc);
+			free(rs);
+			if (!is_file(r->deriv_sidecar)) {
+				free(r->deriv_sidecar);
+				r->deriv_sidecar = NULL;
+			}
+		} else {
+			char *rs = str_printf("%.*s", (int)stem, name);
+
+			find_events(src->raw, subject, session, rs, &r->events, &r->events_exist);
+			r->sidecar = str_printf("%s/%s_bold.json", func, rs);
+			free(rs);
+		}
+		if (!is_file(r->sidecar)) {
+			free(r->sidecar);
+			r->sidecar = NULL;
+		}
 	}
 	bids_strings_free(names, nn);
 	return st;
@@ -290,12 +579,29 @@ static const char *base_name(const char *p)
 	return s ? s + 1 : p;
 }
 
-/* METHODS.md section 6: by run index, then file name; runs without an index last. */
+/* Session labels: none first; two numbers by value; else byte order. */
+static int cmp_session(const char *a, const char *b)
+{
+	char *ea, *eb;
+	unsigned long long x, y;
+
+	if (!a || !b)
+		return a ? 1 : (b ? -1 : 0);
+	x = strtoull(a, &ea, 10);
+	y = strtoull(b, &eb, 10);
+	if (*a >= '0' && *a <= '9' && *b >= '0' && *b <= '9' && !*ea && !*eb && x != y)
+		return x < y ? -1 : 1;
+	return strcmp(a, b);
+}
+
+/* Session, then run index (runs without an index last in their session), then file name. */
 static int cmp_run(const void *pa, const void *pb)
 {
 	const bids_run *a = pa, *b = pb;
-	int c;
+	int c = cmp_session(a->session, b->session);
 
+	if (c)
+		return c;
 	if ((a->run_index < 0) != (b->run_index < 0))
 		return a->run_index < 0 ? 1 : -1;
 	if (a->run_index != b->run_index)
@@ -304,16 +610,63 @@ static int cmp_run(const void *pa, const void *pb)
 	return c ? c : strcmp(a->bold, b->bold);
 }
 
-sr_status bids_runs(const char *root, const char *subject, const char *task, bids_run **runs,
-		    size_t *n, sr_err *e)
+static int same_session(const bids_run *a, const bids_run *b)
+{
+	return (!a->session && !b->session) ||
+	       (a->session && b->session && strcmp(a->session, b->session) == 0);
+}
+
+/* Into buf: the first entity whose value differs between the two BOLD names ("desc: preproc vs smooth"). */
+static void entity_difference(const char *pa, const char *pb, char *buf, size_t len)
+{
+	const char *na = base_name(pa), *nb = base_name(pb);
+	size_t la = bold_stem(na), lb = bold_stem(nb);
+
+	for (int pass = 0; pass < 2; pass++) {
+		const char *s = pass ? nb : na, *o = pass ? na : nb;
+		size_t ls = pass ? lb : la, lo = pass ? la : lb, i = 0;
+
+		while (i < ls) {
+			size_t j = i, k;
+			const char *dash, *v;
+			char key[64];
+			long n;
+
+			while (j < ls && s[j] != '_')
+				j++;
+			dash = memchr(s + i, '-', j - i);
+			k = dash ? (size_t)(dash - (s + i)) : 0;
+			if (dash && k > 0 && k < sizeof key) {
+				memcpy(key, s + i, k);
+				key[k] = '\0';
+				n = entity(o, lo, key, &v);
+				if (n < 0 || (size_t)n != j - i - k - 1 || strncmp(v, dash + 1, (size_t)n) != 0) {
+					if (pass == 0)
+						snprintf(buf, len, "entity %s: %.*s vs %.*s", key, (int)(j - i - k - 1),
+							 dash + 1, n < 0 ? 6 : (int)n, n < 0 ? "(none)" : v);
+					else
+						snprintf(buf, len, "entity %s: (none) vs %.*s", key,
+							 (int)(j - i - k - 1), dash + 1);
+					return;
+				}
+			}
+			i = j + 1;
+		}
+	}
+	snprintf(buf, len, "their names");
+}
+
+sr_status bids_find_runs(const bids_src *src, const char *subject, const char *task,
+			 bids_run **runs, size_t *n, sr_err *e)
 {
 	run_list L = { NULL, 0, 0 };
+	str_set descs = { NULL, 0, 0 };
+	const char *root = src->deriv ? src->deriv : src->raw;
 	char *subdir = str_printf("%s/sub-%s", root, subject);
 	char *func;
 	char **ses;
 	size_t nses = 0;
-	sr_status st;
-	int clash = 0;
+	sr_status st = SR_OK;
 
 	*runs = NULL;
 	*n = 0;
@@ -323,45 +676,137 @@ sr_status bids_runs(const char *root, const char *subject, const char *task, bid
 		return st;
 	}
 	func = str_printf("%s/func", subdir);
-	st = scan_func(func, subject, NULL, task, &L, e);
+	st = scan_func(func, subject, NULL, task, src, &L, &descs, e);
 	free(func);
-	ses = list_prefixed_dirs(subdir, "ses-", &nses);
+	ses = st ? NULL : list_prefixed_dirs(subdir, "ses-", &nses, e, &st);
 	for (size_t s = 0; s < nses && !st; s++) {
 		func = str_printf("%s/ses-%s/func", subdir, ses[s]);
-		st = scan_func(func, subject, ses[s], task, &L, e);
+		st = scan_func(func, subject, ses[s], task, src, &L, &descs, e);
 		free(func);
 	}
 	bids_strings_free(ses, nses);
+	if (!st && src->deriv && L.n == 0 && descs.n) {
+		size_t nsp;
+		char **sp = bids_spaces(src->deriv, subject, task, &nsp);
+		str_set S = { sp, nsp, nsp };
+		char *list = set_join(&S), *dl = set_join(&descs);
+
+		st = sr_fail(e, SR_ESTUDY,
+			     "sub-%s task %s: no preprocessed BOLD under %s with%s%s desc-%s%s%s (spaces present: %s; desc values present: %s)",
+			     subject, task, subdir, src->space ? " space-" : "", src->space ? src->space : "",
+			     src->desc ? src->desc : "preproc", src->res ? " res-" : "", src->res ? src->res : "",
+			     nsp ? list : "none", dl);
+		free(list);
+		free(dl);
+		bids_strings_free(sp, nsp);
+	}
+	bids_strings_free(descs.s, descs.n);
+	if (!st && src->deriv && !src->space) {
+		str_set S = { NULL, 0, 0 };
+
+		for (size_t i = 0; i < L.n; i++)
+			set_add(&S, L.r[i].space ? L.r[i].space : "(none)",
+				strlen(L.r[i].space ? L.r[i].space : "(none)"));
+		if (S.n > 1) {
+			char *list = set_join(&S);
+
+			st = sr_fail(e, SR_ESTUDY,
+				     "sub-%s task %s: the runs under %s come in several spaces (%s); choose one with space = in [study]",
+				     subject, task, subdir, list);
+			free(list);
+		}
+		bids_strings_free(S.s, S.n);
+	}
 	free(subdir);
+	if (!st && L.n)
+		qsort(L.r, L.n, sizeof *L.r, cmp_run);
+	/* a run is its entities: two files for one run would mix two images of it */
+	for (size_t i = 1; i < L.n && !st; i++)
+		if (same_session(&L.r[i - 1], &L.r[i]) && L.r[i - 1].run_index == L.r[i].run_index) {
+			char diff[256];
+
+			entity_difference(L.r[i - 1].bold, L.r[i].bold, diff, sizeof diff);
+			st = sr_fail(e, SR_ESTUDY,
+				     "sub-%s task %s: two files for one run: %s and %s (they differ in %s); keep one%s",
+				     subject, task, L.r[i - 1].bold, L.r[i].bold, diff,
+				     src->deriv ? ", or narrow the choice with space =, desc = or res = in [study]" : "");
+		}
+	for (size_t i = 0; i < L.n && !st; i++) {
+		bids_run *r = &L.r[i];
+
+		if (r->run_index >= 0)
+			r->label = r->session ? str_printf("%s.%d", r->session, r->run_index)
+					      : str_printf("%d", r->run_index);
+		else
+			r->label = r->session ? xstrdup(r->session) : xstrdup("1");
+		for (size_t j = 0; j < i && !st; j++)
+			if (strcmp(L.r[j].label, r->label) == 0)
+				st = sr_fail(e, SR_ESTUDY,
+					     "sub-%s task %s: runs %s and %s would both be run %s in the tables; give each a run- entity",
+					     subject, task, L.r[j].bold, r->bold, r->label);
+	}
 	if (st) {
 		bids_runs_release(L.r, L.n);
 		return st;
 	}
-	if (L.n)
-		qsort(L.r, L.n, sizeof *L.r, cmp_run);
-	for (size_t i = 0; i < L.n; i++) {
-		if (L.r[i].run_index >= 0)
-			L.r[i].label = str_printf("%d", L.r[i].run_index);
-		else
-			L.r[i].label = str_printf("%zu", i + 1);
-	}
-	for (size_t i = 0; i < L.n && !clash; i++)
-		for (size_t j = 0; j < i; j++)
-			if (strcmp(L.r[i].label, L.r[j].label) == 0) {
-				clash = 1;
-				sr_warnf(e,
-					 "sub-%s task %s: runs %s and %s would share the label %s; labelling all runs by position",
-					 subject, task, L.r[j].bold, L.r[i].bold, L.r[i].label);
-				break;
-			}
-	if (clash)
-		for (size_t i = 0; i < L.n; i++) {
-			free(L.r[i].label);
-			L.r[i].label = str_printf("%zu", i + 1);
-		}
 	*runs = L.r;
 	*n = L.n;
 	return SR_OK;
+}
+
+sr_status bids_runs(const char *root, const char *subject, const char *task, bids_run **runs,
+		    size_t *n, sr_err *e)
+{
+	bids_src src = { root, NULL, NULL, NULL, NULL };
+
+	return bids_find_runs(&src, subject, task, runs, n, e);
+}
+
+static void spaces_in(const char *func, const char *task, str_set *S)
+{
+	DIR *d = opendir(func);
+	struct dirent *de;
+
+	if (!d)
+		return;
+	while ((de = readdir(d)) != NULL) {
+		size_t stem = bold_stem(de->d_name);
+		const char *v;
+		long n;
+
+		if (!stem || !entity_is(de->d_name, stem, "task", task))
+			continue;
+		n = entity(de->d_name, stem, "space", &v);
+		if (n >= 0)
+			set_add(S, v, (size_t)n);
+		else
+			set_add(S, "(none)", 6);
+	}
+	closedir(d);
+}
+
+char **bids_spaces(const char *deriv, const char *subject, const char *task, size_t *n)
+{
+	str_set S = { NULL, 0, 0 };
+	char *subdir = str_printf("%s/sub-%s", deriv, subject), *func;
+	char **ses;
+	size_t nses;
+
+	func = str_printf("%s/func", subdir);
+	spaces_in(func, task, &S);
+	free(func);
+	ses = list_prefixed_dirs(subdir, "ses-", &nses, NULL, NULL);
+	for (size_t s = 0; s < nses; s++) {
+		func = str_printf("%s/ses-%s/func", subdir, ses[s]);
+		spaces_in(func, task, &S);
+		free(func);
+	}
+	bids_strings_free(ses, nses);
+	free(subdir);
+	if (S.n)
+		qsort(S.s, S.n, sizeof *S.s, cmp_str);
+	*n = S.n;
+	return S.s;
 }
 
 void bids_runs_release(bids_run *runs, size_t n)
@@ -435,14 +880,17 @@ sr_status bids_run_tr(const char *root, const bids_run *run, double header_tr, d
 
 	*tr = NAN;
 	/* Least to most specific: a closer sidecar overrides the key. */
-	dir = xstrdup(run->bold);
+	dir = xstrdup(run->raw_bold ? run->raw_bold : run->bold);
 	slash = strrchr(dir, '/');
 	if (slash)
 		dir[slash - dir] = '\0';
 	else
 		strcpy(dir, ".");
-	own = str_printf("%.*s_bold.json", (int)bold_stem(base_name(run->bold)),
-			 base_name(run->bold));
+	{
+		const char *rb = run->raw_bold ? run->raw_bold : run->bold;
+
+		own = str_printf("%.*s_bold.json", (int)bold_stem(base_name(rb)), base_name(rb));
+	}
 	cand[nc++] = str_printf("%s/task-%s_bold.json", root, run->task);
 	cand[nc++] = str_printf("%s/sub-%s/sub-%s_task-%s_bold.json", root, run->subject,
 				run->subject, run->task);
@@ -472,6 +920,22 @@ sr_status bids_run_tr(const char *root, const bids_run *run, double header_tr, d
 			side = x;
 			have_side = 1;
 			from = cand[i];
+		}
+	}
+	/* a derivative's own sidecar says what the pipeline wrote; it must agree with the raw one */
+	if (!st && run->deriv_sidecar && is_file(run->deriv_sidecar)) {
+		double x;
+		int found;
+
+		st = sidecar_tr(run->deriv_sidecar, &x, &found, e);
+		if (!st && found && have_side && fabs(x - side) > 1e-3)
+			st = sr_fail(e, SR_EFORMAT,
+				     "repetition time disagrees: RepetitionTime %.9g s in %s but %.9g s in %s",
+				     x, run->deriv_sidecar, side, from);
+		else if (!st && found) {
+			side = x;
+			have_side = 1;
+			from = run->deriv_sidecar;
 		}
 	}
 	if (!st) {
@@ -506,7 +970,22 @@ char *bids_confounds_path(const bids_run *run, const char *suffix)
 	size_t stem = bold_stem(base_name(run->bold));
 	size_t dirlen = (size_t)(base_name(run->bold) - run->bold);
 
+	if (run->confounds)
+		return xstrdup(run->confounds);
 	if (stem == 0)
 		return str_printf("%s%s", run->bold, suffix);
 	return str_printf("%.*s%s", (int)(dirlen + stem), run->bold, suffix);
+}
+
+int bids_is_derivative(const char *root)
+{
+	char *path = str_printf("%s/dataset_description.json", root);
+	json_t *j = json_load_file(path, 0, NULL), *v;
+	int yes;
+
+	free(path);
+	v = j && json_is_object(j) ? json_object_get(j, "DatasetType") : NULL;
+	yes = v && json_is_string(v) && strcmp(json_string_value(v), "derivative") == 0;
+	json_decref(j);
+	return yes;
 }

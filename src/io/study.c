@@ -361,14 +361,15 @@ enum sec_kind { SEC_NONE = -1, SEC_STUDY, SEC_LOCALIZER, SEC_PARCELS, SEC_MODEL,
 
 static const char *const section_names[] = { "study", "localizer", "parcels", "model", "measure" };
 
-static const char *const keys_study[] = { "bids", "out", "subjects", "mask" };
+static const char *const keys_study[] = { "bids", "out", "subjects", "mask", "derivatives",
+					  "space", "desc", "res" };
 static const char *const keys_localizer[] = { "task", "contrast", "split", "effects",
 					      "condition_column" };
 static const char *const keys_parcels[] = { "image", "names", "top_percent", "top_voxels",
 					    "min_t", "resample" };
 static const char *const keys_model[] = { "autocorrelation", "drift_cutoff", "volume_time",
 					  "confounds", "confounds_suffix", "motion",
-					  "motion_units", "fd_threshold" };
+					  "motion_units", "fd_threshold", "skip_volumes", "censor_fd" };
 static const char *const keys_measure[] = { "task", "effects" };
 /* keys that were renamed (old, new): an old key is an error that names the new one */
 static const char *const keys_renamed[][2] = { { "slice_reference", "volume_time" } };
@@ -805,7 +806,33 @@ static void load_study(struct loader *ld, study *s)
 		if (stat(s->out, &st) == 0 && !S_ISDIR(st.st_mode))
 			prob(ld, e->line, "out: '%s' exists and is not a folder", s->out);
 	}
-	s->mask = path_key(ld, get(ld, "study", "mask"), 1);
+	s->derivatives = path_key(ld, get(ld, "study", "derivatives"), 2);
+	e = get(ld, "study", "mask");
+	if (val(e) && strcmp(e->value, "auto") == 0) {
+		s->mask_auto = 1;
+		if (!s->derivatives)
+			prob(ld, e->line, "mask: auto takes each run's desc-brain_mask from a derivatives dataset; set derivatives = in [study]");
+	} else {
+		/* with {subject}, each subject's mask is checked when it is read */
+		s->mask = path_key(ld, e, val(e) && study_per_subject(e->value) ? 0 : 1);
+	}
+	{
+		static const char *const ent[] = { "space", "desc", "res" };
+		char **dst[] = { &s->space, &s->desc, &s->res };
+
+		for (size_t k = 0; k < 3; k++) {
+			e = get(ld, "study", ent[k]);
+			if (!val(e))
+				continue;
+			if (!s->derivatives)
+				prob(ld, e->line, "%s: only used with derivatives = (a BIDS Derivatives dataset)",
+				     ent[k]);
+			if (!valid_label(e->value))
+				prob(ld, e->line, "%s: '%s' is not a BIDS label (letters and digits only)",
+				     ent[k], e->value);
+			*dst[k] = xstrdup(e->value);
+		}
+	}
 	e = get(ld, "study", "subjects");
 	if (val(e) && strcmp(e->value, "all") != 0) {
 		size_t i, j, n;
@@ -1000,6 +1027,20 @@ static void load_model(struct loader *ld, study *s)
 		prob(ld, e->line, "confounds_suffix: '%s' is not a file name ending (e.g. _confounds.tsv)",
 		     e->value);
 	s->confounds_suffix = xstrdup(val(e) ? e->value : "_confounds.tsv");
+	e = get(ld, "model", "skip_volumes");
+	if (e) {
+		if (parse_number(e->value, &v) && v >= 0 && v == floor(v) && v <= 100000)
+			s->skip_volumes = (int)v;
+		else
+			prob(ld, e->line, "skip_volumes: '%s' is not a whole number of volumes >= 0", e->value);
+	}
+	e = get(ld, "model", "censor_fd");
+	if (e && strcmp(e->value, "none") != 0) {
+		if (parse_number(e->value, &v) && v > 0)
+			s->censor_fd = v;
+		else
+			prob(ld, e->line, "censor_fd: '%s' is not a positive number of mm or none", e->value);
+	}
 	e = get(ld, "model", "motion");
 	s->motion = name_list(ld, e, &s->nmotion);
 	if (s->motion && s->nmotion != 6)
@@ -1233,6 +1274,10 @@ void study_release(study *s)
 	free(s->bids);
 	free(s->out);
 	free(s->mask);
+	free(s->derivatives);
+	free(s->space);
+	free(s->desc);
+	free(s->res);
 	free_words(s->subjects, s->nsubjects);
 	free(s->loc_task);
 	expr_release(&s->contrast);
@@ -1256,6 +1301,24 @@ void study_release(study *s)
 	}
 	free(s->keys);
 	memset(s, 0, sizeof *s);
+}
+
+void study_bids_src(const study *s, bids_src *src)
+{
+	src->raw = s->bids;
+	src->deriv = s->derivatives;
+	src->space = s->space;
+	src->desc = s->desc;
+	src->res = s->res;
+}
+
+sr_status study_runs(const study *s, const char *subject, const char *task, bids_run **runs,
+		     size_t *n, sr_err *e)
+{
+	bids_src src;
+
+	study_bids_src(s, &src);
+	return bids_find_runs(&src, subject, task, runs, n, e);
 }
 
 int study_per_subject(const char *path)

@@ -6,6 +6,7 @@
 
 #include "../core/expr.h"
 #include "../core/err.h"
+#include "bids.h"
 
 enum study_split { SPLIT_ODD_EVEN, SPLIT_LEAVE_ONE_OUT };
 enum study_select { SELECT_TOP_PERCENT, SELECT_TOP_VOXELS, SELECT_MIN_T };
@@ -23,6 +24,9 @@ typedef struct study {
 	char *path;        /* the study file */
 	char *text;        /* its full content (for the run record) */
 	char *bids, *out, *mask;          /* mask NULL when empty */
+	int mask_auto;                    /* mask = auto: the intersection of each subject's runs' desc-brain_mask */
+	char *derivatives;                /* BIDS Derivatives dataset of the preprocessed BOLD, or NULL */
+	char *space, *desc, *res;         /* its entity filters, NULL when not given (desc: preproc) */
 	char **subjects;   /* NULL = all */
 	size_t nsubjects;
 	/* [localizer] */
@@ -49,6 +53,8 @@ typedef struct study {
 	size_t nmotion;
 	int motion_deg;                   /* rotations in degrees (motion_units = mm_deg), else radians */
 	double fd_threshold;              /* framewise displacement limit, mm */
+	int skip_volumes;                 /* initial volumes dropped from every run (0) */
+	double censor_fd;                 /* censor volumes whose framewise_displacement exceeds it, mm; 0 = off */
 	/* [measure ...] */
 	study_measure *measures;
 	size_t nmeasures;
@@ -114,6 +120,13 @@ enum {
 };
 /* study_load with flags (0 = study_load). */
 sr_status study_load_flags(const char *path, study *s, study_problems *probs, unsigned flags);
+
+/* Where the runs come from (bids, derivatives and their filters); src borrows s's strings. */
+void study_bids_src(const study *s, bids_src *src);
+
+/* The runs of one subject and task by the study's layout (bids_find_runs). */
+sr_status study_runs(const study *s, const char *subject, const char *task, bids_run **runs,
+		     size_t *n, sr_err *e);
 
 /* 1 when a path holds the {subject} placeholder (per-subject parcels). */
 int study_per_subject(const char *path);

@@ -313,9 +313,31 @@ def mutate_ini(rng, path):
         lines = f.read().decode('utf-8', 'surrogateescape').split('\n')
     kv = [i for i, l in enumerate(lines) if '=' in l and not l.lstrip().startswith((';', '#'))]
     secs = [i for i, l in enumerate(lines) if l.strip().startswith('[')]
-    choice = rng.randrange(9)
+    choice = rng.randrange(11)
     inv = False
-    if choice < 3 and kv:
+    if choice >= 9:
+        # the layout and model keys of BIDS Derivatives studies (issue 13), sane and not
+        sec, opts = rng.choice([
+            ('[study]', [('derivatives = data', False), ('derivatives = /nonexistent', True),
+                         ('space = MNI152NLin2009cAsym', True), ('space = a-b', True),
+                         ('desc = preproc', True), ('res = 2', True), ('mask = auto', True),
+                         ('mask = m_{subject}.nii.gz', False)]),
+            ('[model]', [('skip_volumes = 3', False), ('skip_volumes = 100000', True),
+                         ('skip_volumes = -1', True), ('skip_volumes = 1.5', True),
+                         ('censor_fd = 0.5', False), ('censor_fd = 0', True), ('censor_fd = nan', False),
+                         ('censor_fd = 1e309', False), ('confounds = *', False), ('confounds = [', False),
+                         ('confounds = motion_* motion_tx', False)])])
+        line, inv = rng.choice(opts)
+        at = [i for i in secs if lines[i].strip() == sec]
+        i = (at[0] + 1) if at else len(lines)
+        if not at:
+            lines.append(sec)
+            i = len(lines)
+        lines.insert(i, line)
+        with open(path, 'wb') as f:
+            f.write('\n'.join(lines).encode('utf-8', 'surrogateescape'))
+        return Mut(path, 'line %d: %s' % (i + 1, line), inv)
+    elif choice < 3 and kv:
         i = rng.choice(kv)
         key = lines[i].split('=', 1)[0]
         v = rng.choice(['', 'n/a', '-1', '0', '1e309', 'NaN', '\x00', 'all all', '../../../x',
@@ -387,12 +409,43 @@ def pick_target(rng, root):
     cats['gz'] += [p for p in cats['parcels'] if p.endswith('.gz')]
     weights = {'nii': 5, 'gz': 2, 'parcels': 2, 'events': 4, 'confounds': 2, 'json': 2,
                'ini': 3, 'names': 1}
+    cats['layout'] = [p for p in cats['nii'] if p.endswith(('_bold.nii', '_bold.nii.gz'))]
+    weights['layout'] = 1
     kinds = [k for k in weights if cats[k]]
     kind = rng.choices(kinds, [weights[k] for k in kinds])[0]
     return kind, rng.choice(cats[kind])
 
 
+def mutate_layout(rng, path):
+    """Run discovery: a second file for one run, a BOLD entry that is not a file, a link loop, a session."""
+    d, b = os.path.split(path)
+    choice = rng.randrange(4)
+    if choice == 0:
+        other = b.replace('_task-', '_acq-x_task-', 1) if '_task-' in b else 'x_' + b
+        shutil.copy(path, os.path.join(d, other))
+        return Mut(path, 'second file for one run: %s' % other, True)
+    if choice == 1:
+        os.remove(path)
+        os.mkdir(path)
+        return Mut(path, 'BOLD entry replaced by a folder', True)
+    if choice == 2:
+        os.remove(path)
+        os.symlink(b, path)
+        return Mut(path, 'BOLD entry replaced by a link to itself', True)
+    # move the run into ses-9 with a matching name: still a valid study
+    sub = b.split('_')[0]
+    nd = os.path.join(os.path.dirname(d), 'ses-9', 'func')
+    os.makedirs(nd, exist_ok=True)
+    stem = b.split('_bold.nii')[0]
+    for f in os.listdir(d):
+        if f.startswith(stem + '_'):
+            os.rename(os.path.join(d, f), os.path.join(nd, f.replace(sub + '_', sub + '_ses-9_', 1)))
+    return Mut(path, 'run moved into ses-9', False)
+
+
 def apply(rng, kind, path):
+    if kind == 'layout':
+        return mutate_layout(rng, path)
     if kind == 'nii':
         if 'parcel' not in os.path.basename(path) and rng.random() < 0.2:
             return mutate_bold_data(rng, path)

@@ -22,7 +22,8 @@ DEFAULTS = dict(
     one_run_subject=None, absent_condition=None, int16_subjects=(), no_sidecar_subjects=(),
     inherit_subjects=(), sessions=False, resample=False, mask=False, impulses=False,
     condition_column=None, loc_effects='melody, scrambled, melody - scrambled',
-    mem_effects='familiar, novel, familiar - novel', measure=True, names=True, gz=True, signal=True)
+    mem_effects='familiar, novel, familiar - novel', measure=True, names=True, gz=True, signal=True,
+    skip_volumes=0, censor_fd=None, confound_patterns=False)
 
 PRESETS = {
     # odd-even with ties, an empty parcel, confounds with n/a, int16 storage, a measured task
@@ -40,6 +41,9 @@ PRESETS = {
     'mint': dict(seed=14, subjects=('01', '02', '03'), loc_runs=6, select='min_t = 2.5',
                  drift_cutoff='none', loc_effects='melody, 0.5*melody + 0.5*scrambled, melody - scrambled',
                  mem_effects='familiar - novel, 2*novel', measure=True, empty_parcel=False),
+    # initial volumes dropped, volumes censored by framewise displacement, confounds by pattern
+    'scrub': dict(seed=15, confounds=True, skip_volumes=3, censor_fd=0.6, confound_patterns=True,
+                  impulses=True),
 }
 
 
@@ -237,11 +241,14 @@ def make_study(outdir, **opts):
                     json.dump({'RepetitionTime': tTR, 'TaskName': task}, f)
             _write_events(os.path.join(d, ent + '_events.tsv'), ev, o['condition_column'])
             if conf is not None:
+                # framewise displacement: n/a in the first row (no previous volume), a few spikes
+                fd = np.abs(rng.standard_normal(tT)) * 0.2
+                fd[rng.choice(tT, size=4, replace=False)] = 0.9
                 with open(os.path.join(d, ent + '_confounds.tsv'), 'w') as f:
-                    f.write('motion_x\tmotion_y\tunused\n')
+                    f.write('motion_x\tmotion_y\tunused\tframewise_displacement\n')
                     for k in range(tT):
                         f.write('\t'.join('n/a' if not np.isfinite(v) else '%.6f' % v for v in conf[k])
-                                + '\t%d\n' % k)
+                                + '\t%d\t%s\n' % (k, 'n/a' if k == 0 else '%.6f' % fd[k]))
     # parcels (optionally on a finer grid for nearest-neighbour resampling), names, mask
     A = _affine()
     if o['resample']:
@@ -286,7 +293,11 @@ def make_study(outdir, **opts):
         if o['volume_time'] is not None:
             f.write('volume_time = %s\n' % o['volume_time'])
         if o['confounds']:
-            f.write('confounds = motion_x motion_y\n')
+            f.write('confounds = %s\n' % ('motion_*' if o['confound_patterns'] else 'motion_x motion_y'))
+        if o['skip_volumes']:
+            f.write('skip_volumes = %d\n' % o['skip_volumes'])
+        if o['censor_fd'] is not None:
+            f.write('censor_fd = %g\n' % o['censor_fd'])
         if o['measure']:
             f.write('\n[measure memory]\ntask = memory\neffects = %s\n' % o['mem_effects'])
     return ini

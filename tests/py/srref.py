@@ -7,6 +7,7 @@ group(rows) -> list of group rows (section 9).  Values are floats (NaN for
 empty) and n_voxels ints (floats on :mean rows).
 """
 import configparser
+import fnmatch
 import glob
 import json
 import math
@@ -78,6 +79,14 @@ def read_study(path):
     st['sref'] = float(get('model', 'volume_time', '0.5') or '0.5')
     st['confounds'] = (get('model', 'confounds', '') or '').split()
     st['conf_suffix'] = get('model', 'confounds_suffix', '_confounds.tsv') or '_confounds.tsv'
+    st['skip'] = int(get('model', 'skip_volumes', '0') or '0')
+    cf = get('model', 'censor_fd', 'none') or 'none'
+    st['censor_fd'] = None if cf == 'none' else float(cf)
+    d = get('study', 'derivatives', '')
+    st['deriv'] = rel(d) if d else None
+    st['space'] = get('study', 'space', None)
+    st['desc'] = get('study', 'desc', 'preproc') or 'preproc'
+    st['res'] = get('study', 'res', None)
     st['measures'] = []
     for sec in cp.sections():
         if sec.startswith('measure '):
@@ -162,9 +171,43 @@ def subjects_of(st):
     return subs
 
 
+DERIV_ENTITIES = ('space', 'res', 'den', 'desc')
+
+
+def _session_key(ses):
+    if ses is None:
+        return (0, 0, '')
+    if ses.isdigit():
+        return (1, int(ses), ses)
+    return (2, 0, ses)
+
+
+def _inherited(root, sub, ses, ents, suffix):
+    """The closest file root/.../*<suffix> whose entities all belong to the run (BIDS inheritance)."""
+    dirs = []
+    if ses:
+        dirs += [os.path.join(root, 'sub-' + sub, 'ses-' + ses, 'func'), os.path.join(root, 'sub-' + sub, 'ses-' + ses)]
+    else:
+        dirs += [os.path.join(root, 'sub-' + sub, 'func')]
+    dirs += [os.path.join(root, 'sub-' + sub), root]
+    for d in dirs:
+        best = None
+        for f in sorted(glob.glob(os.path.join(d, '*' + suffix))):
+            parts = os.path.basename(f)[:-len(suffix)].split('_')
+            if not all('-' in p for p in parts):
+                continue
+            fe = dict(p.split('-', 1) for p in parts)
+            if all(ents.get(k) == v for k, v in fe.items()):
+                if best is None or len(fe) > best[0]:
+                    best = (len(fe), f)
+        if best:
+            return best[1]
+    return None
+
+
 def find_runs(st, sub, task):
-    """Runs of one task, ordered per section 6, with their table labels."""
-    root = os.path.join(st['bids'], 'sub-' + sub)
+    """Runs of one task ordered by session, then run (METHODS.md 6, 11), with their table labels."""
+    root = os.path.join(st['deriv'] or st['bids'], 'sub-' + sub)
     files = []
     for pat in ('func/*_bold.nii', 'func/*_bold.nii.gz', 'ses-*/func/*_bold.nii', 'ses-*/func/*_bold.nii.gz'):
         files += glob.glob(os.path.join(root, pat))
@@ -173,20 +216,49 @@ def find_runs(st, sub, task):
         e = entities_of(f)
         if e.get('sub') != sub or e.get('task') != task:
             continue
+        if st['deriv']:
+            if e.get('desc') != st['desc'] or (st['space'] and e.get('space') != st['space']) or \
+                    (st['res'] and e.get('res') != st['res']):
+                continue
         idx = int(e['run']) if 'run' in e else None
-        runs.append({'path': f, 'ents': e, 'index': idx})
-    runs.sort(key=lambda r: (r['index'] is None, r['index'] if r['index'] is not None else 0,
-                             os.path.basename(r['path'])))
-    for pos, r in enumerate(runs):
-        r['label'] = str(r['index']) if r['index'] is not None else str(pos + 1)
-        r['stem'] = re.sub(r'_bold\.nii(\.gz)?$', '', r['path'])
+        runs.append({'path': f, 'ents': e, 'index': idx, 'ses': e.get('ses')})
+    runs.sort(key=lambda r: (_session_key(r['ses']), r['index'] is None,
+                             r['index'] if r['index'] is not None else 0, os.path.basename(r['path'])))
+    for r in runs:
+        i = r['index']
+        if r['ses'] is not None:
+            r['label'] = '%s.%d' % (r['ses'], i) if i is not None else r['ses']
+        else:
+            r['label'] = str(i) if i is not None else '1'
+        name = re.sub(r'_bold\.nii(\.gz)?$', '', os.path.basename(r['path']))
+        raw_ents = {k: v for k, v in r['ents'].items() if k not in DERIV_ENTITIES}
+        raw_name = '_'.join(p for p in name.split('_') if p.split('-', 1)[0] not in DERIV_ENTITIES)
+        r['raw_ents'] = raw_ents
+        if st['deriv']:
+            d = os.path.dirname(r['path'])
+            rawdir = os.path.join(st['bids'], 'sub-' + sub, *(['ses-' + r['ses']] if r['ses'] else []), 'func')
+            r['raw_path'] = os.path.join(rawdir, raw_name + '_bold.nii.gz')
+            r['deriv_json'] = os.path.join(d, name + '_bold.json')
+            r['conf_path'] = os.path.join(d, raw_name + '_desc-confounds_timeseries.tsv')
+        else:
+            r['raw_path'] = r['path']
+            r['deriv_json'] = None
+            r['conf_path'] = re.sub(r'_bold\.nii(\.gz)?$', st['conf_suffix'], r['path'])
+        own = os.path.join(os.path.dirname(r['raw_path']), raw_name + '_events.tsv')
+        r['events_path'] = own if os.path.isfile(own) else \
+            _inherited(st['bids'], sub, r['ses'], raw_ents, '_events.tsv')
     return runs
 
 
 def sidecar_tr(st, run):
-    """RepetitionTime by the BIDS inheritance rule, or None."""
-    ents = run['ents']
-    d = os.path.dirname(run['path'])
+    """RepetitionTime by the BIDS inheritance rule (raw dataset; a derivative's own sidecar wins), or None."""
+    if run.get('deriv_json') and os.path.isfile(run['deriv_json']):
+        with open(run['deriv_json']) as f:
+            m = json.load(f)
+        if 'RepetitionTime' in m:
+            return m['RepetitionTime']
+    ents = run.get('raw_ents', run['ents'])
+    d = os.path.dirname(run.get('raw_path', run['path']))
     dirs = []
     while True:
         dirs.append(d)
@@ -253,18 +325,36 @@ def read_events(path, column):
     return ev
 
 
-def read_confounds(path, names, T):
+def read_confounds(path, names, T, skip=0, censor_fd=None):
+    """Columns named or matched by shell-style patterns, rows after skip, plus one
+    impulse per kept volume whose framewise_displacement exceeds censor_fd; n/a
+    cells become the column mean over the kept rows, then every column is demeaned."""
     head, rows = read_tsv(path)
     if len(rows) != T:
         raise StudyError('%s: %d rows, wanted %d' % (path, len(rows), T))
-    C = np.zeros((T, len(names)))
-    for j, n in enumerate(names):
-        c = head.index(n)
-        col = np.array([np.nan if r[c].strip() == 'n/a' else float(r[c]) for r in rows])
+    cols = []
+    for n in names:
+        if any(ch in n for ch in '*?['):
+            cols += [c for c, h in enumerate(head) if fnmatch.fnmatchcase(h, n) and c not in cols]
+        elif head.index(n) not in cols:
+            cols.append(head.index(n))
+    rows = rows[skip:]
+    Tk = len(rows)
+    parts = []
+    for c in cols:
+        col = np.array([np.nan if r[c].strip() in ('n/a', '') else float(r[c]) for r in rows])
         ok = np.isfinite(col)
         col[~ok] = col[ok].mean()
-        C[:, j] = col - col.mean()
-    return C
+        parts.append(col - col.mean())
+    if censor_fd is not None:
+        f = head.index('framewise_displacement')
+        for k, r in enumerate(rows):
+            v = r[f].strip()
+            if v not in ('n/a', '') and float(v) > censor_fd:
+                imp = np.zeros(Tk)
+                imp[k] = 1.0
+                parts.append(imp - imp.mean())
+    return np.column_stack(parts) if parts else np.zeros((Tk, 0))
 
 
 # ---------------------------------------------------------------- design (section 2)
@@ -430,12 +520,13 @@ def load_task(st, sub, task, column, mask):
     runs = find_runs(st, sub, task)
     conds = set()
     for r in runs:
-        r['events'] = read_events(r['stem'] + '_events.tsv', column)
+        r['events'] = read_events(r['events_path'], column)
         conds.update(e[2] for e in r['events'])
     conds = sorted(conds, key=lambda s: s.encode())
     for r in runs:
         img, data = load_bold(r['path'])
         T = data.shape[1]
+        skip = st['skip']
         trs = sidecar_tr(st, r)
         trh = header_tr(img)
         if trs is not None and trh is not None and abs(trs - trh) > 1e-3:
@@ -444,11 +535,14 @@ def load_task(st, sub, task, column, mask):
         if TR is None:
             raise StudyError('%s: no TR' % r['path'])
         conf = None
-        if st['confounds']:
-            conf = read_confounds(re.sub(r'_bold\.nii(\.gz)?$', st['conf_suffix'], r['path']),
-                                  st['confounds'], T)
+        if st['confounds'] or st['censor_fd'] is not None:
+            conf = read_confounds(r['conf_path'], st['confounds'], T, skip, st['censor_fd'])
+        # skip_volumes: the first volumes are dropped and event times move by skip x TR
+        data = data[:, skip:]
+        T -= skip
+        ev = [(on - skip * float(TR), du, c) for on, du, c in r['events']]
         r['img'] = img
-        r['X'] = design(r['events'], conds, T, float(TR), st, conf)
+        r['X'] = design(ev, conds, T, float(TR), st, conf)
         r['ok'] = analyzable(data, mask)
         Y = data[r['ok']]
         r['Y'] = 100.0 * Y / Y.mean(axis=1, keepdims=True)

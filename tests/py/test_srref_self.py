@@ -220,7 +220,8 @@ with tempfile.TemporaryDirectory() as tmp:
     want = make_study._parcels((10, 10, 8), True).reshape(-1, order='F')
     check(np.array_equal(lab, want), 'nearest-neighbour resampling recovers the parcels on the data grid')
     check([os.path.basename(r['path'])[:19] for r in runs] == ['sub-02_ses-1_task-t'] * 2 + ['sub-02_ses-2_task-t'] * 2
-          and [r['label'] for r in runs] == ['1', '2', '3', '4'], 'runs across sessions ordered by run index')
+          and [r['label'] for r in runs] == ['1.1', '1.2', '2.3', '2.4'],
+          'runs across sessions ordered by session, then run, labelled <session>.<run> (METHODS.md 11)')
     m = srref.find_runs(st, '02', 'memory')
     check([r['label'] for r in m] == ['1', '2'], 'runs without an index labelled by position')
     # a real run with an absent condition: its column is zero, so the design is rank deficient; the

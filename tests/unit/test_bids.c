@@ -29,8 +29,6 @@ static void make_dataset(const char *root)
 	touch(root, "sub-01/func/sub-01_task-tones_run-10_bold.nii.gz");
 	touch(root, "sub-01/func/sub-01_task-tones_run-2_bold.nii.gz");
 	touch(root, "sub-01/func/sub-01_task-tones_run-01_bold.nii");
-	touch(root, "sub-01/func/sub-01_task-tones_bold.nii.gz");
-	touch(root, "sub-01/func/sub-01_task-tones_acq-fast_bold.nii");
 	touch(root, "sub-01/func/sub-01_task-tonesX_run-3_bold.nii");
 	touch(root, "sub-01/func/sub-01_task-memory_run-1_bold.nii");
 	touch(root, "sub-01/func/sub-01_task-tones_run-2_events.tsv");
@@ -46,6 +44,17 @@ static void make_dataset(const char *root)
 	touch(root, "sub-10/ses-a/func/sub-10_ses-a_task-tones_run-1_bold.nii");
 	touch(root, "sub-10/ses-b/func/sub-10_ses-b_task-tones_run-1_bold.nii");
 	touch(root, "sub-10/ses-b/func/sub-10_ses-a_task-tones_run-3_bold.nii");
+	/* sub-04: two files for one run (no index, told apart by acq-) */
+	touch(root, "sub-04/func/sub-04_task-tones_bold.nii.gz");
+	touch(root, "sub-04/func/sub-04_task-tones_acq-fast_bold.nii");
+	/* sub-05: one run without an index; sub-06: one without and run-1 (labels clash) */
+	touch(root, "sub-05/func/sub-05_task-tones_bold.nii.gz");
+	touch(root, "sub-06/func/sub-06_task-tones_bold.nii.gz");
+	touch(root, "sub-06/func/sub-06_task-tones_run-1_bold.nii.gz");
+	/* sub-07: numbered sessions order by value (2 before 10) */
+	touch(root, "sub-07/ses-10/func/sub-07_ses-10_task-tones_run-1_bold.nii");
+	touch(root, "sub-07/ses-2/func/sub-07_ses-2_task-tones_run-2_bold.nii");
+	touch(root, "sub-07/ses-2/func/sub-07_ses-2_task-tones_run-1_bold.nii");
 	/* not subjects: a file and a bare prefix */
 	touch(root, "sub-03");
 	bare = join(root, "sub-");
@@ -61,8 +70,8 @@ static void test_subjects(const char *root)
 
 	sr_err_init(&e, NULL, NULL);
 	CHECK(bids_subjects(root, &s, &n, &e) == SR_OK, "subjects listed");
-	CHECK(n == 3 && strcmp(s[0], "01") == 0 && strcmp(s[1], "02") == 0 && strcmp(s[2], "10") == 0,
-	      "sub-01, sub-02, sub-10 sorted, files and empty labels ignored (%zu)", n);
+	CHECK(n == 7 && strcmp(s[0], "01") == 0 && strcmp(s[1], "02") == 0 && strcmp(s[6], "10") == 0,
+	      "sub-01 .. sub-10 sorted, files and empty labels ignored (%zu)", n);
 	bids_strings_free(s, n);
 	CHECK(bids_subjects("/nonexistent/dataset", &s, &n, &e) == SR_EIO &&
 		      strstr(e.msg, "/nonexistent/dataset") && n == 0,
@@ -77,16 +86,15 @@ static void test_runs(const char *root)
 	sr_err e;
 	static const char *const order[] = {
 		"sub-01_task-tones_run-01_bold.nii", "sub-01_task-tones_run-2_bold.nii.gz",
-		"sub-01_task-tones_run-10_bold.nii.gz", "sub-01_task-tones_acq-fast_bold.nii",
-		"sub-01_task-tones_bold.nii.gz",
+		"sub-01_task-tones_run-10_bold.nii.gz",
 	};
-	static const char *const labels[] = { "1", "2", "10", "4", "5" };
-	static const int index[] = { 1, 2, 10, -1, -1 };
+	static const char *const labels[] = { "1", "2", "10" };
+	static const int index[] = { 1, 2, 10 };
 
 	sr_err_init(&e, tf_warn, &w);
 	CHECK(bids_runs(root, "01", "tones", &r, &n, &e) == SR_OK, "sub-01 runs found (%s)", e.msg);
-	CHECK(n == 5, "5 tones runs: task-tonesX and task-memory do not match (%zu)", n);
-	for (size_t i = 0; i < n && i < 5; i++) {
+	CHECK(n == 3, "3 tones runs: task-tonesX and task-memory do not match (%zu)", n);
+	for (size_t i = 0; i < n && i < 3; i++) {
 		const char *b = strrchr(r[i].bold, '/') + 1;
 
 		CHECK(strcmp(b, order[i]) == 0, "run %zu is %s (%s)", i + 1, order[i], b);
@@ -96,7 +104,7 @@ static void test_runs(const char *root)
 		CHECK(strcmp(r[i].subject, "01") == 0 && r[i].session == NULL && strcmp(r[i].task, "tones") == 0,
 		      "run %zu subject 01, no session, task tones", i + 1);
 	}
-	if (n == 5) {
+	if (n == 3) {
 		char *c = bids_confounds_path(&r[1], "_desc-confounds_timeseries.tsv");
 		char *want = join(root, "sub-01/func/sub-01_task-tones_run-2_desc-confounds_timeseries.tsv");
 
@@ -116,25 +124,42 @@ static void test_runs(const char *root)
 
 	CHECK(bids_runs(root, "02", "tones", &r, &n, &e) == SR_OK && n == 2, "sub-02: 2 runs across sessions");
 	if (n == 2) {
-		CHECK(r[0].run_index == 1 && strcmp(r[0].session, "b") == 0 && strcmp(r[0].label, "1") == 0,
-		      "ses-b run-1 first");
-		CHECK(r[1].run_index == 2 && strcmp(r[1].session, "a") == 0 && strcmp(r[1].label, "2") == 0,
-		      "ses-a run-2 second");
+		/* METHODS.md section 11: session, then run; labels <session>.<run> */
+		CHECK(r[0].run_index == 2 && strcmp(r[0].session, "a") == 0 && strcmp(r[0].label, "a.2") == 0,
+		      "ses-a run-2 first (%s)", r[0].label);
+		CHECK(r[1].run_index == 1 && strcmp(r[1].session, "b") == 0 && strcmp(r[1].label, "b.1") == 0,
+		      "ses-b run-1 second (%s)", r[1].label);
 	}
 	bids_runs_release(r, n);
 
 	CHECK(bids_runs(root, "10", "tones", &r, &n, &e) == SR_OK && n == 2, "sub-10: 2 runs");
 	if (n == 2) {
 		CHECK(strcmp(r[0].session, "a") == 0 && strcmp(r[1].session, "b") == 0,
-		      "equal index ordered by file name");
-		CHECK(strcmp(r[0].label, "1") == 0 && strcmp(r[1].label, "2") == 0,
-		      "clashing labels replaced by positions");
+		      "equal index ordered by session");
+		CHECK(strcmp(r[0].label, "a.1") == 0 && strcmp(r[1].label, "b.1") == 0,
+		      "run-1 of two sessions are two runs, labelled by session (%s %s)", r[0].label, r[1].label);
 	}
-	CHECK(strstr(w.text, "share the label 1") != NULL, "clash warned");
+	CHECK(strstr(w.text, "position") == NULL, "no labelling by position");
 	CHECK(strstr(w.text, "sub-10_ses-a_task-tones_run-3_bold.nii: its sub-/ses- entities do not match") != NULL,
 	      "misplaced file ignored with a warning");
 	bids_runs_release(r, n);
 
+	CHECK(bids_runs(root, "04", "tones", &r, &n, &e) == SR_ESTUDY && n == 0 &&
+		      strstr(e.msg, "sub-04_task-tones_bold.nii.gz") && strstr(e.msg, "sub-04_task-tones_acq-fast_bold.nii") &&
+		      strstr(e.msg, "entity acq"),
+	      "two files for one run is an error naming both and the entity (%s)", e.msg);
+	CHECK(bids_runs(root, "05", "tones", &r, &n, &e) == SR_OK && n == 1 && r[0].run_index == -1 &&
+		      strcmp(r[0].label, "1") == 0,
+	      "a lone run without an index is run 1");
+	bids_runs_release(r, n);
+	CHECK(bids_runs(root, "06", "tones", &r, &n, &e) == SR_ESTUDY && strstr(e.msg, "sub-06_task-tones_bold.nii.gz") &&
+		      strstr(e.msg, "sub-06_task-tones_run-1_bold.nii.gz"),
+	      "a run without an index beside run-1 is an error, not a label by position (%s)", e.msg);
+	CHECK(bids_runs(root, "07", "tones", &r, &n, &e) == SR_OK && n == 3, "sub-07: 3 runs");
+	if (n == 3)
+		CHECK(strcmp(r[0].label, "2.1") == 0 && strcmp(r[1].label, "2.2") == 0 && strcmp(r[2].label, "10.1") == 0,
+		      "numbered sessions by value, then run (%s %s %s)", r[0].label, r[1].label, r[2].label);
+	bids_runs_release(r, n);
 	CHECK(bids_runs(root, "01", "rest", &r, &n, &e) == SR_OK && n == 0 && r == NULL,
 	      "no runs of a task is not an error");
 	CHECK(bids_runs(root, "99", "tones", &r, &n, &e) != SR_OK && strstr(e.msg, "sub-99"),
@@ -149,7 +174,7 @@ static void test_tr(const char *root)
 	double tr;
 
 	sr_err_init(&e, NULL, NULL);
-	if (bids_runs(root, "01", "tones", &r, &n, &e) != SR_OK || n != 5) {
+	if (bids_runs(root, "01", "tones", &r, &n, &e) != SR_OK || n != 3) {
 		CHECK(0, "sub-01 runs for the TR tests");
 		return;
 	}
@@ -172,9 +197,9 @@ static void test_tr(const char *root)
 	bids_runs_release(r, n);
 
 	if (bids_runs(root, "02", "tones", &r, &n, &e) == SR_OK && n == 2) {
-		CHECK(bids_run_tr(root, &r[0], 0, &tr, &e) == SR_OK && tr == 3,
+		CHECK(bids_run_tr(root, &r[1], 0, &tr, &e) == SR_OK && tr == 3,
 		      "session level overrides subject level (%g)", tr);
-		CHECK(bids_run_tr(root, &r[1], 0, &tr, &e) == SR_OK && tr == 2.5,
+		CHECK(bids_run_tr(root, &r[0], 0, &tr, &e) == SR_OK && tr == 2.5,
 		      "subject level overrides dataset level (%g)", tr);
 		bids_runs_release(r, n);
 	}
@@ -245,6 +270,114 @@ static void test_tr_edge(const char *dir)
 	free(root);
 }
 
+static void test_hostile(const char *dir)
+{
+	char *root = join(dir, "ds3"), *p;
+	char **s;
+	size_t n;
+	bids_run *r;
+	sr_err e;
+
+	sr_err_init(&e, NULL, NULL);
+	touch(root, "sub-01/func/sub-01_task-tones_run-1_bold.nii");
+	touch(root, "sub-a b/func/x");
+	CHECK(bids_subjects(root, &s, &n, &e) == SR_EFORMAT && strstr(e.msg, "sub-a b") && n == 0,
+	      "a subject folder whose label is not alphanumeric is an error naming it (%s)", e.msg);
+	p = join(root, "sub-01/func/sub-01_task-tones_run-2_bold.nii");
+	CHECK(mkfifo(p, 0644) == 0, "fifo made");
+	CHECK(bids_runs(root, "01", "tones", &r, &n, &e) == SR_EIO && strstr(e.msg, "run-2_bold.nii") &&
+		      strstr(e.msg, "not a regular file"),
+	      "a BOLD entry that is not a regular file is an error, not a dropped run (%s)", e.msg);
+	unlink(p);
+	CHECK(symlink("sub-01_task-tones_run-2_bold.nii", p) == 0, "link loop made");
+	CHECK(bids_runs(root, "01", "tones", &r, &n, &e) == SR_EIO && strstr(e.msg, "run-2_bold.nii"),
+	      "a link loop is an error (%s)", e.msg);
+	free(p);
+	free(root);
+}
+
+/* A raw dataset and a derivatives dataset beside it (INTERFACE.md, "Runs"). */
+static void test_deriv(const char *dir)
+{
+	char *raw = join(dir, "raw"), *der = join(dir, "raw/derivatives/prep");
+	bids_src src = { raw, der, NULL, NULL, NULL };
+	bids_run *r;
+	size_t n;
+	sr_err e;
+	double tr;
+	static const char *const spaces[] = { "MNI152NLin2009cAsym", "T1w" };
+
+	sr_err_init(&e, NULL, NULL);
+	free(tf_write(raw, "task-tones_bold.json", "{\"RepetitionTime\": 2.0}", 0));
+	touch(raw, "task-tones_events.tsv");
+	touch(raw, "sub-01/ses-1/func/sub-01_ses-1_task-tones_run-1_bold.nii.gz");
+	touch(raw, "sub-01/ses-1/func/sub-01_ses-1_task-tones_run-1_events.tsv");
+	touch(raw, "sub-01/ses-2/func/sub-01_ses-2_task-tones_run-1_bold.nii.gz");
+	for (int s = 1; s <= 2; s++)
+		for (int k = 0; k < 2; k++) {
+			char rel[256];
+
+			snprintf(rel, sizeof rel, "sub-01/ses-%d/func/sub-01_ses-%d_task-tones_run-1_space-%s_desc-preproc_bold.nii.gz",
+				 s, s, spaces[k]);
+			touch(der, rel);
+			snprintf(rel, sizeof rel, "sub-01/ses-%d/func/sub-01_ses-%d_task-tones_run-1_space-%s_desc-brain_mask.nii.gz",
+				 s, s, spaces[k]);
+			touch(der, rel);
+			snprintf(rel, sizeof rel, "sub-01/ses-%d/func/sub-01_ses-%d_task-tones_run-1_space-%s_desc-smooth_bold.nii.gz",
+				 s, s, spaces[k]);
+			touch(der, rel);
+		}
+	free(tf_write(der, "sub-01/ses-2/func/sub-01_ses-2_task-tones_run-1_space-T1w_desc-preproc_bold.json",
+		      "{\"RepetitionTime\": 2.5}", 0));
+	CHECK(bids_find_runs(&src, "01", "tones", &r, &n, &e) == SR_ESTUDY && strstr(e.msg, "several spaces") &&
+		      strstr(e.msg, "MNI152NLin2009cAsym, T1w"),
+	      "two spaces and no space key: an error listing both (%s)", e.msg);
+	src.space = "MNI152NLin6Asym";
+	CHECK(bids_find_runs(&src, "01", "tones", &r, &n, &e) == SR_ESTUDY && strstr(e.msg, "MNI152NLin6Asym") &&
+		      strstr(e.msg, "spaces present: MNI152NLin2009cAsym, T1w"),
+	      "a space not present: an error listing the spaces present (%s)", e.msg);
+	src.space = "MNI152NLin2009cAsym";
+	CHECK(bids_find_runs(&src, "01", "tones", &r, &n, &e) == SR_OK && n == 2, "two runs in the chosen space (%s)", e.msg);
+	if (n == 2) {
+		CHECK(strstr(r[0].bold, "derivatives/prep/sub-01/ses-1/func/sub-01_ses-1_task-tones_run-1_space-MNI152NLin2009cAsym_desc-preproc_bold.nii.gz") &&
+			      strstr(r[1].bold, "ses-2_task-tones_run-1_space-MNI152NLin2009cAsym_desc-preproc"),
+		      "the derivative BOLD of the chosen space and desc (%s)", r[0].bold);
+		CHECK(strcmp(r[0].label, "1.1") == 0 && strcmp(r[1].label, "2.1") == 0, "labels carry the session");
+		CHECK(r[0].events_exist && strstr(r[0].events, "raw/sub-01/ses-1/func/sub-01_ses-1_task-tones_run-1_events.tsv"),
+		      "events of the raw run (%s)", r[0].events);
+		CHECK(r[1].events_exist && strcmp(strrchr(r[1].events, '/'), "/task-tones_events.tsv") == 0,
+		      "events inherited from the dataset level (%s)", r[1].events);
+		CHECK(strstr(r[0].confounds, "prep/sub-01/ses-1/func/sub-01_ses-1_task-tones_run-1_desc-confounds_timeseries.tsv") != NULL,
+		      "confounds by entities (%s)", r[0].confounds);
+		CHECK(r[0].brain_mask && strstr(r[0].brain_mask, "run-1_space-MNI152NLin2009cAsym_desc-brain_mask.nii.gz"),
+		      "the run's brain mask");
+		CHECK(bids_run_tr(raw, &r[0], 2.0, &tr, &e) == SR_OK && tr == 2.0, "TR from the raw sidecar (%s)", e.msg);
+	}
+	bids_runs_release(r, n);
+	src.space = "T1w";
+	CHECK(bids_find_runs(&src, "01", "tones", &r, &n, &e) == SR_OK && n == 2, "T1w runs");
+	if (n == 2)
+		CHECK(bids_run_tr(raw, &r[1], 2.5, &tr, &e) == SR_EFORMAT && strstr(e.msg, "T1w_desc-preproc_bold.json") &&
+			      strstr(e.msg, "task-tones_bold.json"),
+		      "derivative and raw sidecar disagreeing on the TR: an error naming both (%s)", e.msg);
+	bids_runs_release(r, n);
+	src.desc = "smooth";
+	CHECK(bids_find_runs(&src, "01", "tones", &r, &n, &e) == SR_OK && n == 2 && strstr(r[0].bold, "desc-smooth"),
+	      "desc chooses the image");
+	bids_runs_release(r, n);
+	src.desc = NULL;
+	touch(der, "sub-01/ses-1/func/sub-01_ses-1_task-tones_run-1_space-T1w_res-2_desc-preproc_bold.nii.gz");
+	CHECK(bids_find_runs(&src, "01", "tones", &r, &n, &e) == SR_ESTUDY && strstr(e.msg, "two files for one run") &&
+		      strstr(e.msg, "run-1_space-T1w_desc-preproc_bold.nii.gz") && strstr(e.msg, "run-1_space-T1w_res-2_desc-preproc_bold.nii.gz") &&
+		      strstr(e.msg, "entity res"),
+	      "two images of one run after the filters: an error naming both and the entity (%s)", e.msg);
+	src.res = "2";
+	CHECK(bids_find_runs(&src, "01", "tones", &r, &n, &e) == SR_OK && n == 1, "res narrows it");
+	bids_runs_release(r, n);
+	free(raw);
+	free(der);
+}
+
 int main(void)
 {
 	char *dir = tf_tmpdir();
@@ -255,6 +388,8 @@ int main(void)
 	test_runs(root);
 	test_tr(root);
 	test_tr_edge(dir);
+	test_hostile(dir);
+	test_deriv(dir);
 	tf_rmtree(dir);
 	free(root);
 	free(dir);

@@ -357,6 +357,16 @@ static void test_values(void)
 		       NULL, "motion units");
 	expect_problem(valid_with("", LOC, PAR, "fd_threshold = 0"), "fd_threshold: '0'", NULL,
 		       "fd_threshold 0");
+	expect_problem(valid_with("space = T1w", LOC, PAR, ""),
+		       "space: only used with derivatives", NULL, "space without derivatives");
+	expect_problem(valid_with("mask = auto", LOC, PAR, ""),
+		       "mask: auto takes each run's desc-brain_mask", NULL, "mask auto without derivatives");
+	expect_problem(valid_with("derivatives = nowhere", LOC, PAR, ""),
+		       "derivatives: 'nowhere'", "does not exist", "missing derivatives folder");
+	expect_problem(valid_with("", LOC, PAR, "skip_volumes = 2.5"),
+		       "skip_volumes: '2.5' is not a whole number", NULL, "skip_volumes 2.5");
+	expect_problem(valid_with("", LOC, PAR, "censor_fd = -1"),
+		       "censor_fd: '-1' is not a positive number", NULL, "censor_fd -1");
 	expect_problem(valid_with("", LOC, PAR, "confounds = csf csf"),
 		       "confounds: column 'csf' is listed twice", NULL, "confound twice");
 	expect_problem(valid_with("subjects = 01 sub-x_y", LOC, PAR, ""),
