@@ -22,7 +22,8 @@ DEFAULTS = dict(
     one_run_subject=None, absent_condition=None, int16_subjects=(), no_sidecar_subjects=(),
     inherit_subjects=(), sessions=False, resample=False, mask=False, impulses=False,
     condition_column=None, loc_effects='melody, scrambled, melody - scrambled',
-    mem_effects='familiar, novel, familiar - novel', measure=True, names=True, gz=True, signal=True)
+    mem_effects='familiar, novel, familiar - novel', measure=True, names=True, gz=True, signal=True,
+    smoothing=None, nan_voxels=False)
 
 PRESETS = {
     # odd-even with ties, an empty parcel, confounds with n/a, int16 storage, a measured task
@@ -40,6 +41,9 @@ PRESETS = {
     'mint': dict(seed=14, subjects=('01', '02', '03'), loc_runs=6, select='min_t = 2.5',
                  drift_cutoff='none', loc_effects='melody, 0.5*melody + 0.5*scrambled, melody - scrambled',
                  mem_effects='familiar - novel, 2*novel', measure=True, empty_parcel=False),
+    # smoothing (METHODS.md 2b) inside a mask, with zero background, NaN samples and int16 storage
+    'smooth': dict(seed=15, smoothing='5', mask=True, confounds=True, int16_subjects=('02',),
+                   nan_voxels=True),
 }
 
 
@@ -225,6 +229,8 @@ def make_study(outdir, **opts):
                 by.setdefault(e[2], []).append(e)
             y = _simulate(rng, by, amp, base, tT, tTR, conf)
             y[~brain] = 0.0
+            if o['nan_voxels'] and task == 'tones' and ri == 2 and sub not in o['int16_subjects']:
+                y[rng.choice(np.flatnonzero(brain), size=6, replace=False), 3 + ri] = np.nan
             if o['ties'] and task == 'tones' and ri % 2 == 1 and sub == o['subjects'][0]:
                 y[dup_dst] = y[dup_src]     # exact ties in the define t of split A
             data = y.reshape(shape + (tT,), order='F')
@@ -283,6 +289,8 @@ def make_study(outdir, **opts):
             f.write('resample = nearest\n')
         f.write('\n[model]\nautocorrelation = %s   # ar1 or none\ndrift_cutoff = %s\n'
                 % (o['autocorrelation'], o['drift_cutoff']))
+        if o['smoothing'] is not None:
+            f.write('smoothing_fwhm = %s   ; mm\n' % o['smoothing'])
         if o['slice_reference'] is not None:
             f.write('slice_reference = %s\n' % o['slice_reference'])
         if o['confounds']:
