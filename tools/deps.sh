@@ -2,8 +2,14 @@
 # Installs the Debian packages that splitroi's build and tests need, only those missing.
 set -eu
 pkgs="build-essential pkg-config zlib1g-dev libnifti2-dev liblapacke-dev libopenblas-dev
-libcsv-dev libinih-dev libjansson-dev libpng-dev
+libcsv-dev libinih-dev libjansson-dev libpng-dev libisal-dev
 python3-numpy python3-scipy python3-statsmodels python3-nibabel python3-pandas"
+# libisal-dev: ISA-L's igzip inflates .nii.gz about three times faster than zlib
+# (the build falls back to zlib without it). isal (its igzip program) and
+# libdeflate-tools are only for `make bench`, which times them beside the fit.
+if [ "${SPLITROI_DEPS_BENCH:-0}" = 1 ]; then
+	pkgs="$pkgs isal libdeflate-tools"
+fi
 # Optional: SPLITROI_DEPS_SLURM=1 adds a SLURM workload manager and munge, which
 # tests/cli/test_slurm.sh runs as a throw-away single-node cluster (it installs them
 # itself when missing, so CI does not need this).
