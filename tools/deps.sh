@@ -6,11 +6,18 @@
 #                                build package is missing (make runs this before compiling)
 set -eu
 mode=${1:-test}
+# libisal-dev: ISA-L's igzip inflates .nii.gz about three times faster than zlib
+# (the build falls back to zlib without it).
 build_pkgs="build-essential pkg-config zlib1g-dev libnifti2-dev liblapacke-dev libopenblas-dev
-libcsv-dev libinih-dev libjansson-dev libpng-dev"
+libcsv-dev libinih-dev libjansson-dev libpng-dev libisal-dev"
 # The reference checks run scipy, statsmodels, numpy, nibabel and pandas through /usr/bin/python3;
 # tests/cli/test_threads.sh runs valgrind's helgrind.
 test_pkgs="python3-numpy python3-scipy python3-statsmodels python3-nibabel python3-pandas valgrind"
+# isal (its igzip program) and libdeflate-tools are only for `make bench`, which times
+# them beside the fit (it sets SPLITROI_DEPS_BENCH=1).
+if [ "${SPLITROI_DEPS_BENCH:-0}" = 1 ]; then
+	test_pkgs="$test_pkgs isal libdeflate-tools"
+fi
 # Optional: SPLITROI_DEPS_SLURM=1 adds a SLURM workload manager and munge, which
 # tests/cli/test_slurm.sh runs as a throw-away single-node cluster (it installs them
 # itself when missing, so CI does not need this).

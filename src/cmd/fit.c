@@ -31,6 +31,7 @@ static const cmdline_opt opts[] = {
 	{ "autocorrelation", "M", "ar1 (default), ar1-adjusted (bias-adjusted rho) or none (OLS), as in the study file" },
 	{ "drift-cutoff", "S", "cosine drift cutoff in seconds (default 128), or none" },
 	{ "volume-time", "F", "fraction of the TR at which a volume counts as acquired (default 0.5)" },
+	{ "smoothing-fwhm", "MM", "smooth each volume with a Gaussian of MM mm FWHM inside the data (default none)" },
 	{ "mask", "FILE", "optional 3-D brain mask on the data grid (non-zero = inside)" },
 	{ "threads", "N", "threads (default: the CPU count); results do not depend on N" },
 	{ "quiet", NULL, "no summary line (warnings still shown)" },
@@ -42,7 +43,7 @@ static const cmdline_opt opts[] = {
 	{ NULL, NULL, NULL },
 };
 enum { O_OUT, O_EVENTS, O_CONDCOL, O_EFFECT, O_TR, O_CONF, O_CONFCOLS, O_MODEL, O_DRIFT, O_SLICE,
-       O_MASK, O_THREADS, O_QUIET, O_STUDY, O_SUBJECT, O_TASK, O_N };
+       O_SMOOTH, O_MASK, O_THREADS, O_QUIET, O_STUDY, O_SUBJECT, O_TASK, O_N };
 
 static const cmdline_spec spec = {
 	"fit", "RUN_bold.nii[.gz]... --out DIR [options]\n"
@@ -374,7 +375,7 @@ typedef struct study_inputs {
 	int nrun, nccol;
 	double *tr;
 	int ar1;
-	double drift, sref;
+	double drift, sref, fwhm;
 	int skip;          /* skip_volumes */
 	double censor;     /* censor_fd, 0 = off */
 	char *condcol, *mask;
@@ -457,6 +458,7 @@ static int load_study_inputs(const char *path, const char *subject, const char *
 	in->ar1 = st.ar1;
 	in->drift = st.drift_cutoff;
 	in->sref = st.volume_time;
+	in->fwhm = st.smoothing_fwhm;
 	in->condcol = xstrdup(st.condition_column ? st.condition_column : "trial_type");
 	in->mask = st.mask ? study_subject_path(st.mask, subject) : NULL;
 	/* conditions are always fitted: keep the effects that are combinations */
@@ -498,7 +500,7 @@ int cmd_fit(int argc, char **argv)
 	char **events = NULL, **confs = NULL, **ccols = NULL, **conds = NULL;
 	int npos = 0, nev = 0, nconf = 0, nccol = 0, ncond = 0, nrun, r, c, j, rc, model = GLM_AR1;
 	long threads;
-	double drift = 128.0, sref = 0.5, *tr = NULL, *C = NULL;
+	double drift = 128.0, sref = 0.5, fwhm = 0.0, *tr = NULL, *C = NULL;
 	expr *fx = NULL;
 	size_t nfx = 0, nvox = 0, v;
 	int neff = 0;
@@ -543,6 +545,7 @@ int cmd_fit(int argc, char **argv)
 		model = si.ar1 == 2 ? GLM_AR1_ADJUSTED : si.ar1 ? GLM_AR1 : GLM_OLS;
 		drift = si.drift;
 		sref = si.sref;
+		fwhm = si.fwhm;
 		if (!condcol)
 			condcol = si.condcol;
 		if (!maskpath)
@@ -583,6 +586,12 @@ int cmd_fit(int argc, char **argv)
 	}
 	if (val[O_SLICE] && cmdline_double("fit", "--volume-time", val[O_SLICE], 0.0, 1.0, &sref))
 		goto out;
+	if (val[O_SMOOTH]) {
+		if (strcmp(val[O_SMOOTH], "none") == 0)
+			fwhm = 0.0;
+		else if (cmdline_double("fit", "--smoothing-fwhm", val[O_SMOOTH], 0.0, 1000.0, &fwhm))
+			goto out;
+	}
 	threads = sysconf(_SC_NPROCESSORS_ONLN);
 	if (threads < 1)
 		threads = 1;
@@ -752,6 +761,7 @@ int cmd_fit(int argc, char **argv)
 		s->C = C;
 		s->ncon = neff;
 		s->mask = mask;
+		s->smoothing_fwhm = fwhm;
 		sr_err_init(&errs[r], warn_print, NULL);
 	}
 	if (runfit_many(specs, nrun, (int)threads, res, errs) != SR_OK) {
@@ -856,6 +866,10 @@ int cmd_fit(int argc, char **argv)
 		else
 			jdoc_set_str(opt, "drift_cutoff", "none");
 		jdoc_set_num(opt, "volume_time", sref);
+		if (fwhm > 0)
+			jdoc_set_num(opt, "smoothing_fwhm", fwhm);
+		else
+			jdoc_set_str(opt, "smoothing_fwhm", "none");
 		jdoc_set_str(opt, "condition_column", condcol ? condcol : "trial_type");
 		jdoc_set_str(opt, "mask", maskpath);
 		jdoc_set_str(opt, "study", val[O_STUDY]);

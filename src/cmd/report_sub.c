@@ -764,6 +764,19 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 	sb_puts(&b, "<nav class=\"toc\"><a href=\"#frois\">fROIs</a> &middot; <a href=\"#overlap-h\">sizes and overlap</a> &middot; "
 		    "<a href=\"#design\">design matrices</a> &middot; <a href=\"#motion-h\">motion</a> &middot; "
 		    "<a href=\"#responses-h\">responses</a></nav>\n");
+	{
+		/* the study file decided the smoothing for every run (METHODS.md 2b); run.json keeps its text */
+		char *fw = runrec_ini_get(pg.rec.study_text, "model", "smoothing_fwhm");
+		char *end = NULL;
+		double v = fw ? strtod(fw, &end) : 0.0;
+
+		if (fw && end != fw && *end == '\0' && v > 0)
+			sb_printf(&b, "<p class=\"note\">Runs smoothed before the fit: Gaussian of %g mm FWHM inside "
+				  "each volume's data (normalised convolution).</p>\n", v);
+		else
+			sb_puts(&b, "<p class=\"note\">Runs fitted unsmoothed (no smoothing_fwhm in the study).</p>\n");
+		free(fw);
+	}
 	sb_puts(&b, "<h2 id=\"overlap-h\">fROI sizes and overlap of the halves</h2>\n");
 	sb_puts(&b, "<p class=\"note\">Voxels per split; Dice = 2|A&cap;B| / (|A| + |B|) between the localizer's "
 		    "halves (for leave-one-out: the mean over all pairs of folds). Flagged: an empty fROI in "

@@ -15,6 +15,7 @@
 #include <string.h>
 
 #include "../core/mem.h"
+#include "../core/smooth.h"
 #include "../io/events.h"
 #include "../io/table.h"
 
@@ -22,6 +23,8 @@
 
 typedef struct vol_queue {
 	nii_stream *s;
+	smooth_plan *sm;       /* NULL = no smoothing; used by the reader thread only */
+	const unsigned char *mask;
 	int T;
 	size_t nvox;
 	double *slot[QUEUE_SLOTS];
@@ -49,6 +52,9 @@ static void *reader_main(void *arg)
 		pthread_mutex_unlock(&q->mu);
 		/* the slot at tail is free: only this thread writes it until count grows */
 		st = nii_stream_next(q->s, q->slot[tail], &q->err);
+		/* smoothing belongs to reading: the fit sees only the smoothed volumes */
+		if (st == SR_OK && q->sm)
+			smooth_support(q->sm, q->slot[tail], q->mask);
 		pthread_mutex_lock(&q->mu);
 		if (st != SR_OK)
 			q->failed = 1;
@@ -389,6 +395,29 @@ sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_resul
 	for (c = 0; c < spec->ncon; c++)
 		for (j = 0; j < spec->ncond; j++)
 			Cp[(size_t)c * res->d.p + j] = spec->C[(size_t)c * spec->ncond + j];
+	if (spec->smoothing_fwhm > 0) {
+		const nii_grid *g = &res->info.grid;
+		double sig[3];
+
+		if (!(g->dx > 0 && g->dy > 0 && g->dz > 0 && isfinite(g->dx) && isfinite(g->dy) &&
+		      isfinite(g->dz))) {
+			st = sr_fail(e, SR_EFORMAT, "%s: smoothing needs positive voxel sizes, the header has "
+				     "%g x %g x %g mm", spec->bold, g->dx, g->dy, g->dz);
+			goto out;
+		}
+		sig[0] = smooth_fwhm_sigma(spec->smoothing_fwhm, g->dx);
+		sig[1] = smooth_fwhm_sigma(spec->smoothing_fwhm, g->dy);
+		sig[2] = smooth_fwhm_sigma(spec->smoothing_fwhm, g->dz);
+		st = smooth_plan_alloc(g->nx, g->ny, g->nz, sig, &q.sm, e);
+		if (st != SR_OK) {
+			char msg[sizeof e->msg];
+
+			memcpy(msg, e->msg, sizeof msg);
+			sr_fail(e, st, "%s: %s", spec->bold, msg);
+			goto out;
+		}
+		q.mask = spec->mask;
+	}
 	acc = glm_acc_alloc(m, nvox);
 	q.s = s;
 	q.T = T;
@@ -410,6 +439,7 @@ sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_resul
 	}
 out:
 	nii_stream_close(s);
+	smooth_plan_free(q.sm);
 	glm_acc_free(acc);
 	glm_model_free(m);
 	free(ev);

@@ -31,6 +31,7 @@ typedef struct runfit_spec {
 	const double *C;               /* ncon x ncond, row-major: contrast weights over conditions */
 	int ncon;
 	const unsigned char *mask;     /* nvox, optional brain mask on the data grid */
+	double smoothing_fwhm;         /* mm; 0 = no smoothing (METHODS.md section 2b) */
 } runfit_spec;
 
 typedef struct runfit_result {

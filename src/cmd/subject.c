@@ -507,6 +507,7 @@ static void task_specs(const study *st, const task_fit *t, const unsigned char *
 		s->C = t->C;
 		s->ncon = t->ne;
 		s->mask = mask;
+		s->smoothing_fwhm = st->smoothing_fwhm;
 	}
 }
 
@@ -1175,6 +1176,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	jdoc_set_str(rec, "libraries", buf);
 	jdoc_set_str(rec, "study_file", st->path);
 	jdoc_set_str(rec, "study_text", st->text);
+	if (st->smoothing_fwhm > 0)
+		jdoc_set_num(rec, "smoothing_fwhm_mm", st->smoothing_fwhm);
+	else
+		jdoc_set_str(rec, "smoothing_fwhm_mm", "none");
 	{
 		jdoc *in = jdoc_object();
 

@@ -1,4 +1,4 @@
-/* nii.c - NIfTI-1/NIfTI-2 headers, streamed volumes and atomically written maps via nifticlib and znz. */
+/* nii.c - NIfTI-1/NIfTI-2 headers, streamed volumes (read through gzin) and atomically written maps via nifticlib and znz. */
 
 /* The installed znzlib is built with zlib; its struct must match (gives access to the gzFile). */
 #define HAVE_ZLIB 1
@@ -19,6 +19,7 @@
 
 #include "../core/mem.h"
 #include "afile.h"
+#include "gzin.h"
 
 /* Bigger than zlib's 8 KiB default: inflating a run is the slow part of reading it. */
 #define NII_GZBUF (256u * 1024u)
@@ -128,64 +129,40 @@ static void from_n2(const nifti_2_header *h, raw_hdr *r)
 	}
 }
 
-/*
- * After a read through znz: a zlib error as a message, or NULL when zlib is
- * content (plain files, or a clean end of stream).
- */
-static const char *gz_problem(znzFile zf, int *errnum)
-{
-	const char *m;
-
-	*errnum = Z_OK;
-	if (!zf->withz || !zf->zfptr)
-		return NULL;
-	m = gzerror(zf->zfptr, errnum);
-	if (*errnum == Z_OK)
-		return NULL;
-	return m && *m ? m : "unknown zlib error";
-}
-
-/* zlib's gzerror message starts with the file name, which our messages already give. */
-static const char *zmsg(const char *m, const char *path)
-{
-	size_t n = strlen(path);
-
-	if (strncmp(m, path, n) == 0 && m[n] == ':' && m[n + 1] == ' ')
-		return m + n + 2;
-	return m;
-}
-
 enum { RD_OK, RD_SHORT, RD_CORRUPT, RD_ERROR };
 
 /*
  * Reads exactly n bytes at the current position. On failure returns the kind
- * and describes it in what ("got X of N bytes", the zlib or system message).
+ * and describes it in what ("got X of N bytes", the inflater or system message).
  */
-static int read_exact(znzFile zf, const char *path, void *buf, size_t n, char *what,
-		      size_t whatlen)
+static int read_exact(gzin *z, void *buf, size_t n, char *what, size_t whatlen)
 {
-	size_t got = znzread(buf, 1, n, zf);
-	int errnum;
-	const char *m = gz_problem(zf, &errnum);
+	switch (gzin_read(z, buf, n, NULL, what, whatlen)) {
+	case GZIN_OK: return RD_OK;
+	case GZIN_END:
+	case GZIN_SHORT: return RD_SHORT;
+	case GZIN_CORRUPT: return RD_CORRUPT;
+	default: return RD_ERROR;
+	}
+}
 
-	if (got == n && (!m || errnum == Z_BUF_ERROR))
-		return RD_OK;
-	if (got > n)
-		got = 0; /* znz returns (size_t)-1 on a zlib error */
-	if (m && errnum == Z_ERRNO) {
-		snprintf(what, whatlen, "%s", strerror(errno));
-		return RD_ERROR;
-	}
-	if (m && errnum != Z_BUF_ERROR) {
-		snprintf(what, whatlen, "zlib: %s", zmsg(m, path));
-		return RD_CORRUPT;
-	}
-	if (!zf->withz && zf->nzfptr && ferror(zf->nzfptr)) {
-		snprintf(what, whatlen, "%s", strerror(errno));
-		return RD_ERROR;
-	}
-	snprintf(what, whatlen, "got %zu of %zu bytes", got, n);
-	return RD_SHORT;
+/* The inflater: SPLITROI_INFLATER=zlib or isa-l chooses one (to compare them), else the fastest built in. */
+static enum gzin_backend inflater(void)
+{
+	const char *v = getenv("SPLITROI_INFLATER");
+
+	if (v && strcmp(v, "zlib") == 0)
+		return GZIN_ZLIB;
+	if (v && (strcmp(v, "isa-l") == 0 || strcmp(v, "isal") == 0))
+		return GZIN_ISAL;
+	return GZIN_AUTO;
+}
+
+const char *nii_inflater_name(void)
+{
+	enum gzin_backend b = inflater();
+
+	return b == GZIN_ZLIB || (b == GZIN_AUTO && !gzin_have_isal()) ? "zlib" : "isa-l";
 }
 
 /* The message for a failed header read. */
@@ -203,7 +180,7 @@ static sr_status header_fail(sr_err *e, const char *path, int kind, int version,
  * Opens path, reads and checks the header, fills info and (optionally) r.
  * On success *zfp is positioned at vox_offset when want_data, else closed.
  */
-static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFile *zfp,
+static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, gzin **zfp,
 			     int want_data, int *is_gz, sr_err *e)
 {
 	unsigned char raw[sizeof(nifti_2_header)];
@@ -211,7 +188,7 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFi
 	char what[512];
 	struct stat st;
 	FILE *f;
-	znzFile zf = NULL;
+	gzin *zf = NULL;
 	raw_hdr rh;
 	int gz;
 	int bytes, kind;
@@ -239,13 +216,11 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFi
 	fclose(f);
 	gz = magic2[0] == 0x1f && magic2[1] == 0x8b;
 	*is_gz = gz;
-	zf = znzopen(path, "rb", gz);
-	if (znz_isnull(zf))
-		return sr_fail(e, SR_EIO, "%s: cannot open: %s", path, strerror(errno ? errno : EIO));
-	if (gz)
-		gzbuffer(zf->zfptr, NII_GZBUF);
+	rc = gzin_open(path, inflater(), &zf, e);
+	if (rc != SR_OK)
+		return rc;
 
-	if ((kind = read_exact(zf, path, raw, 348, what, sizeof what)) != RD_OK) {
+	if ((kind = read_exact(zf, raw, 348, what, sizeof what)) != RD_OK) {
 		rc = header_fail(e, path, kind, 1, what);
 		goto fail;
 	}
@@ -277,7 +252,7 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFi
 		rh.version = 2;
 		rh.swapped = s0 != 540;
 		rh.hdr_size = 540;
-		if ((kind = read_exact(zf, path, raw + 348, 540 - 348, what, sizeof what)) != RD_OK) {
+		if ((kind = read_exact(zf, raw + 348, 540 - 348, what, sizeof what)) != RD_OK) {
 			rc = header_fail(e, path, kind, 2, what);
 			goto fail;
 		}
@@ -444,17 +419,16 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFi
 	if (r)
 		*r = rh;
 	if (!want_data) {
-		znzclose(zf);
+		gzin_close(zf);
 		return SR_OK;
 	}
-	if (znzseek(zf, (znz_off_t)rh.vox_offset, SEEK_SET) < 0 ||
-	    znztell(zf) != (znz_off_t)rh.vox_offset) {
-		int errnum;
-		const char *m = gz_problem(zf, &errnum);
-
-		if (m && errnum != Z_BUF_ERROR)
-			rc = sr_fail(e, SR_EIO, "%s: corrupt gzip data before the image (zlib: %s)",
-				     path, zmsg(m, path));
+	/* on to the image data: vox_offset counts from the start, the header has been read */
+	kind = gzin_skip(zf, (uint64_t)rh.vox_offset - (uint64_t)rh.hdr_size, what, sizeof what);
+	if (kind != GZIN_OK) {
+		if (kind == GZIN_CORRUPT)
+			rc = sr_fail(e, SR_EIO, "%s: corrupt gzip data before the image (%s)", path, what);
+		else if (kind == GZIN_ERROR)
+			rc = sr_fail(e, SR_EIO, "%s: read error: %s", path, what);
 		else
 			rc = sr_fail(e, SR_EIO, "%s: truncated: image data at offset %.0f not reached",
 				     path, rh.vox_offset);
@@ -463,7 +437,7 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFi
 	*zfp = zf;
 	return SR_OK;
 fail:
-	znzclose(zf);
+	gzin_close(zf);
 	return rc;
 }
 
@@ -474,14 +448,14 @@ size_t nii_nvox(const nii_grid *g)
 
 sr_status nii_read_info(const char *path, nii_info *info, sr_err *e)
 {
-	znzFile zf;
+	gzin *zf;
 	int gz;
 
 	return open_header(path, info, NULL, &zf, 0, &gz, e);
 }
 
 struct nii_stream {
-	znzFile zf;
+	gzin *zf;
 	char *path;
 	nii_info info;
 	int swapped, bytes, gz;
@@ -494,7 +468,7 @@ struct nii_stream {
 sr_status nii_stream_open(const char *path, nii_stream **out, nii_info *info, sr_err *e)
 {
 	raw_hdr rh;
-	znzFile zf;
+	gzin *zf;
 	int gz;
 	sr_status rc;
 	nii_stream *s;
@@ -556,7 +530,7 @@ sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e)
 		return sr_fail(e, SR_EINVAL, "%s: all %lld volumes already read", s->path,
 			       (long long)s->info.nt);
 	k = s->next + 1;
-	kind = read_exact(s->zf, s->path, s->buf, s->volbytes, what, sizeof what);
+	kind = read_exact(s->zf, s->buf, s->volbytes, what, sizeof what);
 	if (kind != RD_OK) {
 		s->failed = 1;
 		if (kind == RD_SHORT)
@@ -575,20 +549,19 @@ sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e)
 	 * zlib checks the CRC: damage that still inflates would otherwise pass.
 	 */
 	if (s->gz && s->next == s->info.nt) {
-		unsigned char extra;
-		int errnum;
-		const char *m;
+		int r = gzin_finish(s->zf, what, sizeof what);
 
-		(void)znzread(&extra, 1, 1, s->zf);
-		m = gz_problem(s->zf, &errnum);
-		if (m) {
+		if (r != GZIN_END) {
 			s->failed = 1;
-			if (errnum == Z_BUF_ERROR)
+			if (r == GZIN_SHORT)
 				return sr_fail(e, SR_EIO, "%s: truncated: gzip stream ends early after "
-					       "volume %lld of %lld (zlib: %s)", s->path,
-					       (long long)k, (long long)s->info.nt, zmsg(m, s->path));
-			return sr_fail(e, SR_EIO, "%s: corrupt gzip data (zlib: %s), found at the end "
-				       "of volume %lld of %lld", s->path, zmsg(m, s->path), (long long)k,
+					       "volume %lld of %lld (%s)", s->path,
+					       (long long)k, (long long)s->info.nt, what);
+			if (r == GZIN_ERROR)
+				return sr_fail(e, SR_EIO, "%s: read error after volume %lld of %lld: %s",
+					       s->path, (long long)k, (long long)s->info.nt, what);
+			return sr_fail(e, SR_EIO, "%s: corrupt gzip data (%s), found at the end "
+				       "of volume %lld of %lld", s->path, what, (long long)k,
 				       (long long)s->info.nt);
 		}
 	}
@@ -608,7 +581,7 @@ void nii_stream_close(nii_stream *s)
 {
 	if (!s)
 		return;
-	znzclose(s->zf);
+	gzin_close(s->zf);
 	free(s->buf);
 	free(s->path);
 	free(s);

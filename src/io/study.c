@@ -368,6 +368,7 @@ static const char *const keys_localizer[] = { "task", "contrast", "split", "effe
 static const char *const keys_parcels[] = { "image", "names", "top_percent", "top_voxels",
 					    "min_t", "resample" };
 static const char *const keys_model[] = { "autocorrelation", "drift_cutoff", "volume_time",
+					  "smoothing_fwhm",
 					  "confounds", "confounds_suffix", "motion",
 					  "motion_units", "fd_threshold", "skip_volumes", "censor_fd" };
 static const char *const keys_measure[] = { "task", "effects" };
@@ -1019,6 +1020,16 @@ static void load_model(struct loader *ld, study *s)
 			s->volume_time = v;
 		else
 			prob(ld, e->line, "volume_time: '%s' is not a number in [0, 1] (a fraction of the TR)",
+			     e->value);
+	}
+	s->smoothing_fwhm = 0;
+	e = get(ld, "model", "smoothing_fwhm");
+	if (val(e) && strcmp(e->value, "none") != 0) {
+		/* 0 reads as none; beyond a metre it is surely a unit mistake */
+		if (parse_number(e->value, &v) && v >= 0 && v <= 1000)
+			s->smoothing_fwhm = v;
+		else
+			prob(ld, e->line, "smoothing_fwhm: '%s' is not a FWHM in mm (a number from 0 to 1000) or none",
 			     e->value);
 	}
 	s->confounds = name_list(ld, get(ld, "model", "confounds"), &s->nconfounds);

@@ -46,6 +46,7 @@ typedef struct study {
 	int ar1;                          /* 1 AR(1), 0 OLS, 2 AR(1) with bias-adjusted rho */
 	double drift_cutoff;              /* seconds; 0 = none */
 	double volume_time;
+	double smoothing_fwhm;            /* mm, METHODS.md section 2b; 0 = none */
 	char **confounds;
 	size_t nconfounds;
 	char *confounds_suffix;
@@ -107,7 +108,7 @@ char *study_text_get(const char *text, const char *section, const char *key);
  * indented continuation lines (joined with one space); a key may be set once.
  * Defaults: subjects all, split odd-even, effects = the contrast's conditions
  * then the contrast, condition_column trial_type, top_percent 10, resample
- * no, autocorrelation ar1, drift_cutoff 128, volume_time 0.5,
+ * no, autocorrelation ar1, drift_cutoff 128, volume_time 0.5, smoothing_fwhm none,
  * confounds_suffix _confounds.tsv, motion_units mm_rad, fd_threshold 0.5.
  * top_percent_text is NULL unless the selection is top_percent.
  */

@@ -23,7 +23,8 @@ DEFAULTS = dict(
     inherit_subjects=(), sessions=False, resample=False, mask=False, impulses=False,
     condition_column=None, loc_effects='melody, scrambled, melody - scrambled',
     mem_effects='familiar, novel, familiar - novel', measure=True, names=True, gz=True, signal=True,
-    skip_volumes=0, censor_fd=None, confound_patterns=False)
+    skip_volumes=0, censor_fd=None, confound_patterns=False,
+    smoothing=None, nan_voxels=False)
 
 PRESETS = {
     # odd-even with ties, an empty parcel, confounds with n/a, int16 storage, a measured task
@@ -44,6 +45,9 @@ PRESETS = {
     # initial volumes dropped, volumes censored by framewise displacement, confounds by pattern
     'scrub': dict(seed=15, confounds=True, skip_volumes=3, censor_fd=0.6, confound_patterns=True,
                   impulses=True),
+    # smoothing (METHODS.md 2b) inside a mask, with zero background, NaN samples and int16 storage
+    'smooth': dict(seed=15, smoothing='5', mask=True, confounds=True, int16_subjects=('02',),
+                   nan_voxels=True),
 }
 
 
@@ -229,6 +233,8 @@ def make_study(outdir, **opts):
                 by.setdefault(e[2], []).append(e)
             y = _simulate(rng, by, amp, base, tT, tTR, conf)
             y[~brain] = 0.0
+            if o['nan_voxels'] and task == 'tones' and ri == 2 and sub not in o['int16_subjects']:
+                y[rng.choice(np.flatnonzero(brain), size=6, replace=False), 3 + ri] = np.nan
             if o['ties'] and task == 'tones' and ri % 2 == 1 and sub == o['subjects'][0]:
                 y[dup_dst] = y[dup_src]     # exact ties in the define t of split A
             data = y.reshape(shape + (tT,), order='F')
@@ -290,6 +296,8 @@ def make_study(outdir, **opts):
             f.write('resample = nearest\n')
         f.write('\n[model]\nautocorrelation = %s   # ar1 or none\ndrift_cutoff = %s\n'
                 % (o['autocorrelation'], o['drift_cutoff']))
+        if o['smoothing'] is not None:
+            f.write('smoothing_fwhm = %s   ; mm\n' % o['smoothing'])
         if o['volume_time'] is not None:
             f.write('volume_time = %s\n' % o['volume_time'])
         if o['confounds']:
