@@ -1063,6 +1063,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	jdoc_set_str(rec, "libraries", buf);
 	jdoc_set_str(rec, "study_file", st->path);
 	jdoc_set_str(rec, "study_text", st->text);
+	/* the fit's noise model, spelled as the study key (the default applies when the key is absent) */
+	jdoc_set_str(rec, "model", st->ar1 == 2 ? "ar1-adjusted" : st->ar1 == 1 ? "ar1" : "none");
 	{
 		jdoc *in = jdoc_object();
 

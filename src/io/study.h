@@ -39,7 +39,7 @@ typedef struct study {
 	double select_value;              /* top_percent p, top_voxels N, or min_t t0 */
 	int resample_parcels;             /* nearest-neighbour resampling onto the data grid */
 	/* [model] */
-	int ar1;                          /* 1 AR(1), 0 OLS, 2 AR(1) with bias-adjusted rho */
+	int ar1;                          /* 2 AR(1) with bias-adjusted rho (default), 1 AR(1), 0 OLS */
 	double drift_cutoff;              /* seconds; 0 = none */
 	double slice_reference;
 	char **confounds;
@@ -93,7 +93,7 @@ size_t study_line(const study *s, const char *section, const char *key);
  * indented continuation lines (joined with one space); a key may be set once.
  * Defaults: subjects all, split odd-even, effects = the contrast's conditions
  * then the contrast, condition_column trial_type, top_percent 10, resample
- * no, autocorrelation ar1, drift_cutoff 128, slice_reference 0.5,
+ * no, autocorrelation ar1-adjusted, drift_cutoff 128, slice_reference 0.5,
  * confounds_suffix _confounds.tsv, motion_units mm_rad, fd_threshold 0.5.
  * top_percent_text is NULL unless the selection is top_percent.
  */
