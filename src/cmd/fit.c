@@ -28,7 +28,7 @@ static const cmdline_opt opts[] = {
 	{ "tr", "S", "repetition time in seconds (default: the _bold.json sidecar, else the header)" },
 	{ "confounds", "LIST", "confounds TSV files, comma separated, one per run" },
 	{ "confound-columns", "NAMES", "confound columns to use, space or comma separated" },
-	{ "autocorrelation", "M", "ar1 (default), ar1-adjusted (bias-adjusted rho) or none (OLS), as in the study file" },
+	{ "autocorrelation", "M", "ar1-adjusted (default: AR(1) with bias-adjusted rho), ar1, or none (OLS), as in the study file" },
 	{ "drift-cutoff", "S", "cosine drift cutoff in seconds (default 128), or none" },
 	{ "volume-time", "F", "fraction of the TR at which a volume counts as acquired (default 0.5)" },
 	{ "smoothing-fwhm", "MM", "smooth each volume with a Gaussian of MM mm FWHM inside the data (default none)" },
@@ -51,8 +51,9 @@ static const cmdline_spec spec = {
 	"Fits a first-level GLM to each BOLD run: one column per condition (events\n"
 	"convolved with a two-gamma response), the named confounds, cosine drifts and\n"
 	"a baseline; each voxel's series is scaled to percent of its mean, then fitted\n"
-	"by OLS or AR(1) Prais-Winsten in one streamed pass over the volumes. Writes,\n"
-	"per run and, with several runs, combined over them (fixed effects), an effect\n"
+	"by AR(1) Prais-Winsten (rho adjusted for the bias the fit puts in the residuals\n"
+	"unless --autocorrelation ar1; none for OLS) in one streamed pass over the volumes.\n"
+	"Writes, per run and, with several runs, combined over them (fixed effects), an effect\n"
 	"map (percent signal change) and a t map for every condition and effect:\n"
 	"  DIR/<run>_<effect>_effect.nii.gz, DIR/<run>_<effect>_t.nii.gz,\n"
 	"  DIR/combined_<effect>_effect.nii.gz, DIR/combined_<effect>_t.nii.gz,\n"
@@ -498,7 +499,7 @@ int cmd_fit(int argc, char **argv)
 {
 	const char *val[O_N + 1], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	char **events = NULL, **confs = NULL, **ccols = NULL, **conds = NULL;
-	int npos = 0, nev = 0, nconf = 0, nccol = 0, ncond = 0, nrun, r, c, j, rc, model = GLM_AR1;
+	int npos = 0, nev = 0, nconf = 0, nccol = 0, ncond = 0, nrun, r, c, j, rc, model = GLM_AR1_ADJUSTED;
 	long threads;
 	double drift = 128.0, sref = 0.5, fwhm = 0.0, *tr = NULL, *C = NULL;
 	expr *fx = NULL;

@@ -444,7 +444,7 @@ static sr_status write_study(const struct opts *o, sr_err *e)
 	ADD("[parcels]\nimage = parcels.nii.gz\nnames = parcels.tsv\ntop_percent = 10\n");
 	if (o->fine)
 		ADD("resample = nearest\n");
-	ADD("\n[model]\nautocorrelation = ar1\ndrift_cutoff = 128\nvolume_time = 0.5\n");
+	ADD("\n[model]\nautocorrelation = ar1-adjusted\ndrift_cutoff = 128\nvolume_time = 0.5\n");
 	ADD("confounds =");
 	for (j = 0; j < 6; j++)
 		ADD(" %s", motion_names[j]);

@@ -1180,6 +1180,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		jdoc_set_num(rec, "smoothing_fwhm_mm", st->smoothing_fwhm);
 	else
 		jdoc_set_str(rec, "smoothing_fwhm_mm", "none");
+	/* the fit's noise model, spelled as the study key (the default applies when the key is absent) */
+	jdoc_set_str(rec, "model", st->ar1 == 2 ? "ar1-adjusted" : st->ar1 == 1 ? "ar1" : "none");
 	{
 		jdoc *in = jdoc_object();
 

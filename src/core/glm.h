@@ -65,7 +65,7 @@ typedef struct glm_out {
 enum {
 	GLM_OLS = 0,
 	GLM_AR1 = 1,          /* rho from the OLS residuals (METHODS.md section 4) */
-	GLM_AR1_ADJUSTED = 2  /* rho corrected for the bias the fit puts in the residuals (optional, off by default) */
+	GLM_AR1_ADJUSTED = 2  /* rho corrected for the bias the fit puts in the residuals (the default of the commands) */
 };
 
 /*

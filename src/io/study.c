@@ -985,14 +985,14 @@ static void load_parcels(struct loader *ld, study *s)
 
 static void load_model(struct loader *ld, study *s)
 {
-	static const char *const autocorr[] = { "ar1", "none", "ar1-adjusted" };
+	static const char *const autocorr[] = { "ar1-adjusted", "ar1", "none" };
 	static const char *const units[] = { "mm_rad", "mm_deg" };
 	const struct entry *e;
 	double v;
 
 	{
-		/* ar1 = 1 (METHODS.md), none = 0 (OLS), ar1-adjusted = 2 (bias-adjusted rho, glm.h) */
-		static const int code[] = { 1, 0, 2 };
+		/* ar1-adjusted = 2 (the default, METHODS.md 4), ar1 = 1 (plain AR(1)), none = 0 (OLS) */
+		static const int code[] = { 2, 1, 0 };
 
 		const struct entry *ea = get(ld, "model", "autocorrelation");
 

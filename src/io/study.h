@@ -43,7 +43,7 @@ typedef struct study {
 	double select_value;              /* top_percent p, top_voxels N, or min_t t0 */
 	int resample_parcels;             /* nearest-neighbour resampling onto the data grid */
 	/* [model] */
-	int ar1;                          /* 1 AR(1), 0 OLS, 2 AR(1) with bias-adjusted rho */
+	int ar1;                          /* 2 AR(1) with bias-adjusted rho (default), 1 AR(1), 0 OLS */
 	double drift_cutoff;              /* seconds; 0 = none */
 	double volume_time;
 	double smoothing_fwhm;            /* mm, METHODS.md section 2b; 0 = none */
@@ -108,7 +108,7 @@ char *study_text_get(const char *text, const char *section, const char *key);
  * indented continuation lines (joined with one space); a key may be set once.
  * Defaults: subjects all, split odd-even, effects = the contrast's conditions
  * then the contrast, condition_column trial_type, top_percent 10, resample
- * no, autocorrelation ar1, drift_cutoff 128, volume_time 0.5, smoothing_fwhm none,
+ * no, autocorrelation ar1-adjusted, drift_cutoff 128, volume_time 0.5, smoothing_fwhm none,
  * confounds_suffix _confounds.tsv, motion_units mm_rad, fd_threshold 0.5.
  * top_percent_text is NULL unless the selection is top_percent.
  */

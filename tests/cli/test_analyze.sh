@@ -91,12 +91,17 @@ expect_status 1 "a subject without its own parcels fails"
 expect_err "without-sub-02/parcels.nii.gz" "the missing per-subject file is named"
 [ -s "$TMP/per2/sub-01/run.json" ] && ok "the other subject still completes" || notok "one subject's missing parcels stopped the other"
 
-# the optional bias-adjusted AR(1): accepted by the study file, changes t (so the
-# fROIs may move) but leaves percent signal change nearly where it was
-sed 's/^autocorrelation = .*/autocorrelation = ar1-adjusted/' study.ini >adj.ini
+# the default is the bias-adjusted AR(1), and run.json says so; the plain AR(1) stays
+# selectable: it changes t (so the fROIs may move) but leaves percent signal change
+# nearly where it was
+grep -q '^autocorrelation' study.ini && notok "the basic study should leave autocorrelation to its default"
+grep -q '"model": "ar1-adjusted"' results/sub-01/run.json && ok "run.json records the default model, ar1-adjusted" \
+	|| notok "run.json does not record model ar1-adjusted"
+sed '/^\[model\]/a autocorrelation = ar1' study.ini >adj.ini
 run "$SPLITROI" analyze adj.ini --quiet --no-report --no-group --out "$TMP/adj"
-expect_status 0 "autocorrelation = ar1-adjusted runs"
-"$PY" - results/responses.csv "$TMP/adj/responses.csv" <<'PYEOF' && ok "ar1-adjusted changes values a little, not a lot" || notok "ar1-adjusted values look wrong"
+expect_status 0 "autocorrelation = ar1 runs"
+grep -q '"model": "ar1"' "$TMP/adj/sub-01/run.json" && ok "run.json records model ar1" || notok "run.json does not record model ar1"
+"$PY" - results/responses.csv "$TMP/adj/responses.csv" <<'PYEOF' && ok "plain ar1 changes values a little, not a lot" || notok "plain ar1 values look wrong"
 import csv, sys
 a = {(r['subject'], r['parcel'], r['split'], r['effect']): r['value'] for r in csv.DictReader(open(sys.argv[1]))}
 b = {(r['subject'], r['parcel'], r['split'], r['effect']): r['value'] for r in csv.DictReader(open(sys.argv[2]))}

@@ -17,7 +17,7 @@ import srref  # noqa: E402  (only for the haemodynamic regressors of the simulat
 
 DEFAULTS = dict(
     seed=1, shape=(10, 10, 8), T=80, TR=2.0, subjects=('01', '02'), loc_runs=4, mem_runs=2,
-    mem_T=None, mem_TR=None, split='odd-even', select='top_percent = 10', autocorrelation='ar1',
+    mem_T=None, mem_TR=None, split='odd-even', select='top_percent = 10', autocorrelation=None,
     drift_cutoff='128', volume_time=None, confounds=False, ties=False, empty_parcel=True,
     one_run_subject=None, absent_condition=None, int16_subjects=(), no_sidecar_subjects=(),
     inherit_subjects=(), sessions=False, resample=False, mask=False, impulses=False,
@@ -29,8 +29,8 @@ DEFAULTS = dict(
 PRESETS = {
     # odd-even with ties, an empty parcel, confounds with n/a, int16 storage, a measured task
     'basic': dict(seed=11, confounds=True, ties=True, int16_subjects=('02',)),
-    # leave-one-out, one localizer run, an absent condition, TR from header (ms) and inherited sidecar
-    'edge': dict(seed=12, subjects=('01', '02', '03'), split='leave-one-out', loc_runs=3,
+    # leave-one-out (ar1-adjusted named explicitly), one localizer run, an absent condition, TR from header (ms) and inherited sidecar
+    'edge': dict(seed=12, subjects=('01', '02', '03'), split='leave-one-out', loc_runs=3, autocorrelation='ar1-adjusted',
                  select='top_percent = 12.5', one_run_subject='03', absent_condition=('02', 1),
                  no_sidecar_subjects=('01',), inherit_subjects=('02',), impulses=True,
                  volume_time='0', drift_cutoff='100', mem_T=100, mem_TR=1.5, gz=False),
@@ -38,8 +38,9 @@ PRESETS = {
     'sessions': dict(seed=13, sessions=True, resample=True, mask=True, condition_column='stim',
                      select='top_voxels = 7', autocorrelation='none', int16_subjects=('01',),
                      ties=True),
-    # six runs, min_t, no drift basis, weighted effects, three subjects for the group table
-    'mint': dict(seed=14, subjects=('01', '02', '03'), loc_runs=6, select='min_t = 2.5',
+    # six runs, min_t, no drift basis, weighted effects, three subjects for the group table,
+    # the plain AR(1) (the other presets use the default ar1-adjusted, sessions OLS)
+    'mint': dict(seed=14, subjects=('01', '02', '03'), loc_runs=6, select='min_t = 2.5', autocorrelation='ar1',
                  drift_cutoff='none', loc_effects='melody, 0.5*melody + 0.5*scrambled, melody - scrambled',
                  mem_effects='familiar - novel, 2*novel', measure=True, empty_parcel=False),
     # initial volumes dropped, volumes censored by framewise displacement, confounds by pattern
@@ -294,8 +295,11 @@ def make_study(outdir, **opts):
         f.write('%s\n' % o['select'])
         if o['resample']:
             f.write('resample = nearest\n')
-        f.write('\n[model]\nautocorrelation = %s   # ar1 or none\ndrift_cutoff = %s\n'
-                % (o['autocorrelation'], o['drift_cutoff']))
+        if o['autocorrelation'] is None:   # the default, ar1-adjusted (METHODS.md 4)
+            f.write('\n[model]\ndrift_cutoff = %s\n' % o['drift_cutoff'])
+        else:
+            f.write('\n[model]\nautocorrelation = %s   # ar1-adjusted, ar1 or none\ndrift_cutoff = %s\n'
+                    % (o['autocorrelation'], o['drift_cutoff']))
         if o['smoothing'] is not None:
             f.write('smoothing_fwhm = %s   ; mm\n' % o['smoothing'])
         if o['volume_time'] is not None:

@@ -73,7 +73,10 @@ def read_study(path):
         st['select'] = ('min_t', float(get('parcels', 'min_t')))
     else:
         st['select'] = ('top_percent', Fraction(get('parcels', 'top_percent', '10') or '10'))
-    st['ar1'] = (get('model', 'autocorrelation', 'ar1') or 'ar1') == 'ar1'
+    # METHODS.md 4: ar1-adjusted (the default) | ar1 | none
+    st['model'] = get('model', 'autocorrelation', 'ar1-adjusted') or 'ar1-adjusted'
+    if st['model'] not in ('ar1-adjusted', 'ar1', 'none'):
+        raise StudyError('study: autocorrelation %r' % st['model'])
     dc = get('model', 'drift_cutoff', '128') or '128'
     st['cutoff'] = None if dc == 'none' else float(dc)
     st['sref'] = float(get('model', 'volume_time', '0.5') or '0.5')
@@ -466,9 +469,43 @@ def estimable(X, c):
     return np.linalg.norm(res) <= ESTIMABLE_TOL * np.linalg.norm(c), r
 
 
-def fit_run(X, Y, ar1, contrasts):
-    """Y (n, T) scaled series of analyzable voxels; contrasts: list of full-length
+RHO_GRID = np.array([-0.99 + 0.01 * i for i in range(199)])
+
+
+def expected_ratio(X):
+    """METHODS.md 4 (ar1-adjusted): f_i = tr(R D1 R V_i) / tr(R V_i) on the rho grid,
+    R = I - X pinv(X), D1 ones on the first subdiagonal, V_i = (rho_i^|j-k|).
+    Computed directly as elementwise sums with the T x T matrices (V symmetric)."""
+    T = X.shape[0]
+    R = np.eye(T) - X @ np.linalg.pinv(X, rcond=SVD_TOL)
+    M = R @ np.eye(T, k=-1) @ R
+    lag = np.abs(np.subtract.outer(np.arange(T), np.arange(T)))
+    f = np.empty(RHO_GRID.size)
+    for i, g in enumerate(RHO_GRID):
+        V = g ** lag
+        f[i] = np.sum(M * V) / np.sum(R * V)
+    return f
+
+
+def adjusted_rho(f, q, rss):
+    """The paragraph's inversion: rho = f^-1(q) by linear interpolation on the grid."""
+    if not (rss > 0) or not np.all(np.diff(f) > 0):
+        return q
+    if q <= f[0]:
+        return -0.99
+    if q >= f[-1]:
+        return 0.99
+    lo = int(np.searchsorted(f, q, side='right')) - 1   # f[lo] <= q < f[lo + 1]
+    return RHO_GRID[lo] + 0.01 * (q - f[lo]) / (f[lo + 1] - f[lo])
+
+
+def fit_run(X, Y, model, contrasts):
+    """Y (n, T) scaled series of analyzable voxels; model 'none', 'ar1' or
+    'ar1-adjusted' (False / True mean none / ar1); contrasts: list of full-length
     weight vectors.  Returns list of (estimable, effect (n,), var (n,)), df."""
+    if model is False or model is True:
+        model = 'ar1' if model else 'none'
+    ar1 = model != 'none'
     n, T = Y.shape
     p = X.shape[1]
     U, S, Vt = np.linalg.svd(X, full_matrices=False)
@@ -496,6 +533,9 @@ def fit_run(X, Y, ar1, contrasts):
     den = np.sum(e ** 2, axis=1)
     with np.errstate(invalid='ignore', divide='ignore'):
         rho = np.where(den > 0, num / den, 0.0)
+    if model == 'ar1-adjusted':
+        f = expected_ratio(X)
+        rho = np.array([adjusted_rho(f, q, d) for q, d in zip(rho, den)])
     rho = np.clip(rho, -0.99, 0.99)
     out_eff = [np.full(n, np.nan) for _ in contrasts]
     out_var = [np.full(n, np.nan) for _ in contrasts]
@@ -601,7 +641,7 @@ def fit_task(st, runs, conds, effects):
                     break
             cvecs.append(c)
         good = [not np.any(np.isnan(c)) for c in cvecs]
-        res, df = fit_run(r['X'], r['Y'], st['ar1'], [c if g else np.zeros(p) for c, g in zip(cvecs, good)])
+        res, df = fit_run(r['X'], r['Y'], st['model'], [c if g else np.zeros(p) for c, g in zip(cvecs, good)])
         V = r['ok'].size
         r['fx'] = {}
         for (name, _), g, (est, eff, var) in zip(effects, good, res):

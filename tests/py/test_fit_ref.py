@@ -82,9 +82,26 @@ def fit(args):
     return subprocess.run([SPLITROI, "fit"] + args, capture_output=True, text=True)
 
 
-def reference(data, X, C):
-    """METHODS.md 3-4 per voxel with statsmodels: percent scaling, rho from OLS residuals, GLS."""
+def expected_ratio_table(X):
+    """METHODS.md 4, ar1-adjusted, by brute force: f_i = tr(R D1 R V_i) / tr(R V_i)
+    for rho_i = -0.99 + 0.01 i, R = I - X pinv(X), D1 ones on the first subdiagonal."""
+    T = X.shape[0]
+    R = np.eye(T) - X @ np.linalg.pinv(X)
+    D1 = np.eye(T, k=-1)
+    grid = -0.99 + 0.01 * np.arange(199)
+    f = np.array([np.trace(R @ D1 @ R @ scipy.linalg.toeplitz(g ** np.arange(T))) /
+                  np.trace(R @ scipy.linalg.toeplitz(g ** np.arange(T))) for g in grid])
+    assert np.all(np.diff(f) > 0)
+    return grid, f
+
+
+def reference(data, X, C, model="ar1-adjusted"):
+    """METHODS.md 3-4 per voxel with statsmodels: percent scaling, rho from OLS residuals
+    (ar1) or that ratio mapped through the inverse of the expected-ratio table (ar1-adjusted,
+    linear between grid points), GLS."""
     nx, ny, nz, T = data.shape
+    if model == "ar1-adjusted":
+        grid, f = expected_ratio_table(X)
     Y = data.transpose(2, 1, 0, 3).reshape(-1, T).T
     out_e = np.full((C.shape[0], Y.shape[1]), np.nan)
     out_t = np.full_like(out_e, np.nan)
@@ -94,7 +111,10 @@ def reference(data, X, C):
             continue
         y = 100 * y / y.mean()
         r = sm.OLS(y, X).fit().resid
-        rho = np.clip(np.sum(r[1:] * r[:-1]) / np.sum(r * r), -0.99, 0.99)
+        rho = np.sum(r[1:] * r[:-1]) / np.sum(r * r)
+        if model == "ar1-adjusted":
+            rho = np.interp(rho, f, grid)   # clamps to the ends of the grid as the text says
+        rho = np.clip(rho, -0.99, 0.99)
         g = sm.GLS(y, X, sigma=scipy.linalg.toeplitz(rho ** np.arange(T))).fit()
         for c in range(C.shape[0]):
             tt = g.t_test(C[c])
@@ -121,6 +141,12 @@ with tempfile.TemporaryDirectory() as d:
     meta = json.load(open(os.path.join(out, "fit.json")))
     report(meta["conditions"] == ["melody", "scrambled"] and meta["effects"][2] == "melody-scrambled",
            "fit.json lists sorted conditions and the effect")
+    report(meta["options"]["model"] == "ar1-adjusted", "the default model is ar1-adjusted, and fit.json says so")
+    outp = os.path.join(d, "out_plain")
+    p = fit([runs[0][0], "--out", outp, "--confounds", conf[0], "--confound-columns", "trans_x rot_z",
+             "--effect", "melody - scrambled", "--autocorrelation", "ar1", "--quiet"])
+    report(p.returncode == 0 and json.load(open(os.path.join(outp, "fit.json")))["options"]["model"] == "ar1",
+           "--model ar1 (the plain AR(1)) stays selectable")
     tol = 2e-6  # maps are float32
     per_run = []
     for i, (bold, data) in enumerate(runs):
@@ -141,7 +167,15 @@ with tempfile.TemporaryDirectory() as d:
             me = load_map(os.path.join(out, f"{base}_{lab}_effect.nii.gz"))
             mt = load_map(os.path.join(out, f"{base}_{lab}_t.nii.gz"))
             ok &= relerr(me, re[c], 1e-3) < tol and relerr(mt, rt[c], 1e-3) < tol
-        report(ok, f"run {i + 1} effect and t maps equal statsmodels GLS (AR(1) from OLS residuals) to float32 precision")
+        report(ok, f"run {i + 1} effect and t maps equal statsmodels GLS (bias-adjusted AR(1)) to float32 precision")
+        if i == 0:
+            pe, pt = reference(data, X, C, model="ar1")
+            ok = True
+            for c, lab in enumerate(["melody", "scrambled", "melody-scrambled"]):
+                mt = load_map(os.path.join(outp, f"{base}_{lab}_t.nii.gz"))
+                ok &= relerr(mt, pt[c], 1e-3) < tol
+            report(ok and relerr(pt[2], rt[2], 1e-3) > 1e-3,
+                   "--model ar1 t maps equal statsmodels GLS with rho from OLS residuals (and differ from the default)")
         report(np.isnan(me[0]) and np.isnan(me[1]) and np.isfinite(me[2]), "background and NaN voxels give NaN")
         per_run.append((re, rt))
     # fixed effects (METHODS.md section 5): var = (effect / t)^2

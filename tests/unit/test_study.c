@@ -199,8 +199,8 @@ static void test_defaults(void)
 		      strcmp(s.top_percent_text, "10") == 0,
 	      "selection default top_percent 10");
 	CHECK(s.resample_parcels == 0, "resample default no");
-	CHECK(s.ar1 == 1 && s.drift_cutoff == 128 && s.volume_time == 0.5,
-	      "model defaults ar1, 128 s, 0.5");
+	CHECK(s.ar1 == 2 && s.drift_cutoff == 128 && s.volume_time == 0.5,
+	      "model defaults ar1-adjusted (METHODS.md 4), 128 s, 0.5");
 	CHECK(s.nconfounds == 0 && s.confounds == NULL, "no confounds");
 	CHECK(strcmp(s.confounds_suffix, "_confounds.tsv") == 0, "confounds_suffix default");
 	CHECK(s.motion == NULL && s.motion_deg == 0 && s.fd_threshold == 0.5, "motion defaults");
@@ -226,6 +226,22 @@ static void test_defaults(void)
 	      "min_t -1.5");
 	free(all);
 	study_release(&s);
+	{
+		/* every model stays selectable, each to its own code */
+		static const char *const word[] = { "ar1-adjusted", "ar1", "none" };
+		static const int code[] = { 2, 1, 0 };
+		int i;
+
+		for (i = 0; i < 3; i++) {
+			char model[64];
+
+			snprintf(model, sizeof model, "autocorrelation = %s", word[i]);
+			CHECK(load(valid_with("", LOC, PAR, model), &s, &all, &n) == SR_OK && s.ar1 == code[i],
+			      "autocorrelation = %s gives model %d", word[i], code[i]);
+			free(all);
+			study_release(&s);
+		}
+	}
 }
 
 static void test_names(void)
@@ -347,7 +363,7 @@ static void test_values(void)
 		       "line 11: autocorrelation: 'ols' is called 'none' here", NULL,
 		       "the fit command's old word ols names none");
 	expect_problem(valid_with("", LOC, PAR, "autocorrelation = ar2"),
-		       "autocorrelation: 'ar2' is not one of ar1 | none", "did you mean 'ar1'",
+		       "autocorrelation: 'ar2' is not one of ar1-adjusted | ar1 | none", "did you mean 'ar1'",
 		       "autocorrelation ar2");
 	expect_problem(valid_with("", "task = tones\ncontrast = a - b\nsplit = odd-evn", PAR, ""),
 		       "line 8: split: 'odd-evn' is not one of", "did you mean 'odd-even'", "split typo");
