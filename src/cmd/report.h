@@ -56,9 +56,17 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double threshold);
 /* A horizontal colour bar for viridis from lo to hi with labelled ticks. */
 void rs_colorbar(sbuf *b, int id, double lo, double hi, const char *label);
-/* A design matrix image (PNG, w x h pixels shown at that size) with rotated column labels. */
-void rs_design(sbuf *b, const unsigned char *png, size_t npng, int w, int h, int colw,
-	       char **names, size_t ncols, size_t nrows, double tr);
+/*
+ * A design matrix drawn as traces: time along x, one line per column (nrows x
+ * ncols values, row-major) stacked top to bottom with its name at the left,
+ * each scaled to its own range, grouped and tinted by kind (qc_col_kind, the
+ * columns of one kind adjacent); row r drawn at (r + vt) TR, the time the
+ * model samples it; under each condition a mark at each of the nmarks[c]
+ * times in marks[c] (seconds from the run's start; marks may be NULL).
+ * tr <= 0 or NaN: x in volumes.
+ */
+void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const double *val,
+	       size_t nrows, double tr, double vt, const double *const *marks, const size_t *nmarks);
 
 /* ---- report_sub.c: one subject's page ---- */
 

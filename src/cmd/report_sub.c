@@ -418,15 +418,75 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 	sb_puts(b, "</tbody></table>\n");
 }
 
-/* One run's design matrix as an image, each column scaled to its own range. */
-static void design_figure(sbuf *b, const char *path, const char *name)
+static char **words(const char *s, size_t *n);
+static void free_list(char **v, size_t n);
+
+/* The run a design file (task-<task>_run-<run>) belongs to; NULL when unknown. */
+static const runrec_run *design_run(const page *pg, const char *name)
+{
+	size_t r;
+	char want[512];
+
+	for (r = 0; r < pg->rec.nruns; r++) {
+		snprintf(want, sizeof want, "task-%s_run-%s", pg->rec.runs[r].task ? pg->rec.runs[r].task : "",
+			 pg->rec.runs[r].run ? pg->rec.runs[r].run : "");
+		if (!strcmp(want, name))
+			return &pg->rec.runs[r];
+	}
+	return NULL;
+}
+
+/*
+ * Onsets (s) of each condition column from the run's events file; returns 1
+ * when the file was read, 0 (nothing filled) when it is missing or unreadable.
+ */
+static int design_onsets(const page *pg, const runrec_run *run, const table *d, const int *kind,
+			 double **on, size_t *non)
+{
+	char *col = runrec_ini_get(pg->rec.study_text, "localizer", "condition_column");
+	table ev;
+	int co, cc;
+	size_t r, c;
+
+	if (!run || !run->events || table_read(run->events, 0, &ev, NULL)) {
+		free(col);
+		return 0;
+	}
+	co = table_col(&ev, "onset");
+	cc = table_col(&ev, col ? col : "trial_type");
+	free(col);
+	if (co < 0 || cc < 0) {
+		table_release(&ev);
+		return 0;
+	}
+	for (c = 0; c < d->ncols; c++) {
+		if (kind[c] != QC_COL_CONDITION)
+			continue;
+		on[c] = xmalloc_array(ev.nrows + 1, sizeof **on);
+		for (r = 0; r < ev.nrows; r++) {
+			char *end;
+			const char *cell = table_cell(&ev, r, (size_t)co);
+			double v = strtod(cell, &end);
+
+			if (!strcmp(table_cell(&ev, r, (size_t)cc), d->header[c]) && end != cell && !*end && isfinite(v))
+				on[c][non[c]++] = v;
+		}
+	}
+	table_release(&ev);
+	return 1;
+}
+
+/* One run's design matrix: a trace per column against time, grouped by kind. */
+static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 {
 	table t;
-	size_t r, c;
-	int colw = 14, rowh, W, H, X, Y;
-	double *mn, *mx, *val;
-	unsigned char *px, *png;
-	size_t npng;
+	size_t r, c, nconf, ncond = 0;
+	double *val, **marks, tr, vt = 0.5;
+	int *kind, from_events;
+	size_t *nmarks;
+	char **conf;
+	char *text;
+	const runrec_run *run;
 	sr_err e;
 
 	sr_err_init(&e, NULL, NULL);
@@ -439,60 +499,72 @@ static void design_figure(sbuf *b, const char *path, const char *name)
 	if (!t.nrows || !t.ncols) {
 		sb_puts(b, "<p class=\"note\">");
 		sb_esc(b, path);
-		sb_puts(b, ": no rows, so no image.</p>\n");
+		sb_puts(b, ": no rows, so no figure.</p>\n");
 		table_release(&t);
 		return;
 	}
+	text = runrec_ini_get(pg->rec.study_text, "model", "confounds");
+	conf = words(text, &nconf);
+	free(text);
+	/* when in the volume the model samples: volume_time (older files: slice_reference) */
+	text = runrec_ini_get(pg->rec.study_text, "model", "volume_time");
+	if (!text)
+		text = runrec_ini_get(pg->rec.study_text, "model", "slice_reference");
+	if (text && strtod(text, NULL) >= 0 && strtod(text, NULL) <= 1)
+		vt = strtod(text, NULL);
+	free(text);
 	val = xmalloc_array(t.nrows * t.ncols, sizeof *val);
-	mn = xmalloc_array(t.ncols, sizeof *mn);
-	mx = xmalloc_array(t.ncols, sizeof *mx);
-	for (c = 0; c < t.ncols; c++) {
-		mn[c] = INFINITY;
-		mx[c] = -INFINITY;
-	}
+	kind = xmalloc_array(t.ncols, sizeof *kind);
+	marks = xcalloc(t.ncols, sizeof *marks);
+	nmarks = xcalloc(t.ncols, sizeof *nmarks);
 	for (r = 0; r < t.nrows; r++)
 		for (c = 0; c < t.ncols; c++) {
 			char *end;
-			double v = strtod(table_cell(&t, r, c), &end);
+			const char *cell = table_cell(&t, r, c);
+			double v = strtod(cell, &end);
 
-			val[r * t.ncols + c] = v;
-			if (isfinite(v)) {
-				mn[c] = fmin(mn[c], v);
-				mx[c] = fmax(mx[c], v);
-			}
+			val[r * t.ncols + c] = end != cell && !*end ? v : NAN;
 		}
-	rowh = t.nrows >= 400 ? 1 : (int)(400 / t.nrows);
-	if (rowh > 6)
-		rowh = 6;
-	W = (int)t.ncols * colw;
-	H = (int)t.nrows * rowh;
-	px = xmalloc_array((size_t)W * (size_t)H, 1);
-	for (Y = 0; Y < H; Y++)
-		for (X = 0; X < W; X++) {
-			size_t rr = (size_t)(Y / rowh), cc = (size_t)(X / colw);
-			double v = val[rr * t.ncols + cc], g;
-
-			if (!isfinite(v))
-				g = 0.5;
-			else if (mx[cc] > mn[cc])
-				g = (v - mn[cc]) / (mx[cc] - mn[cc]);
-			else
-				g = v != 0 ? 1 : 0;
-			/* a thin gap between columns keeps neighbours apart */
-			px[(size_t)Y * (size_t)W + (size_t)X] = X % colw == colw - 1 ? 128 : (unsigned char)lround(255 * g);
-		}
-	if (srpng_encode(px, W, H, 1, &png, &npng, &e) == SR_OK) {
-		sb_puts(b, "<figure><figcaption><b>");
-		sb_esc(b, name);
-		sb_printf(b, "</b>: %zu volumes &times; %zu columns</figcaption>\n", t.nrows, t.ncols);
-		rs_design(b, png, npng, W, H, colw, t.header, t.ncols, t.nrows, NAN);
-		sb_puts(b, "</figure>\n");
-		free(png);
+	for (c = 0; c < t.ncols; c++) {
+		kind[c] = (int)qc_column_kind(t.header[c], conf, nconf);
+		ncond += kind[c] == QC_COL_CONDITION;
 	}
-	free(px);
+	run = design_run(pg, name);
+	tr = run ? run->tr : NAN;
+	from_events = design_onsets(pg, run, &t, kind, marks, nmarks);
+	if (!from_events)
+		for (c = 0; c < t.ncols; c++) {
+			size_t *rows, k;
+
+			if (kind[c] != QC_COL_CONDITION)
+				continue;
+			/* no events file at hand: mark where the regressor rises above a tenth of its
+			   range (the response lags each onset by a second or two) */
+			rows = xmalloc_array(t.nrows, sizeof *rows);
+			nmarks[c] = qc_rises(val + c, t.nrows, t.ncols, 0.1, rows, t.nrows);
+			marks[c] = xmalloc_array(nmarks[c] + 1, sizeof **marks);
+			for (k = 0; k < nmarks[c]; k++)
+				marks[c][k] = ((double)rows[k] + vt) * (isfinite(tr) && tr > 0 ? tr : 1.0);
+			free(rows);
+		}
+	sb_puts(b, "<figure class=\"design\"><figcaption><b>");
+	sb_esc(b, name);
+	sb_printf(b, "</b>: %zu volumes &times; %zu columns%s; each trace scaled to its own range", t.nrows, t.ncols,
+		  isfinite(tr) && tr > 0 ? "" : " (TR unknown: x in volumes)");
+	if (ncond && from_events)
+		sb_puts(b, "; &#9650; an event's onset (from the run's events file)");
+	else if (ncond)
+		sb_puts(b, "; &#9650; where a condition's regressor rises (the events file is not at hand)");
+	sb_puts(b, "</figcaption>\n");
+	rs_design(b, t.header, kind, t.ncols, val, t.nrows, tr, vt, (const double *const *)marks, nmarks);
+	sb_puts(b, "</figure>\n");
+	for (c = 0; c < t.ncols; c++)
+		free(marks[c]);
+	free(marks);
+	free(nmarks);
+	free(kind);
 	free(val);
-	free(mn);
-	free(mx);
+	free_list(conf, nconf);
 	table_release(&t);
 }
 
@@ -508,7 +580,7 @@ static void designs(page *pg, sbuf *b)
 		sb_puts(b, "<p class=\"note\">No design matrices in design/.</p>\n");
 	for (i = 0; i < n; i++) {
 		snprintf(path, sizeof path, "%s/%s.csv", ddir, names[i]);
-		design_figure(b, path, names[i]);
+		design_figure(pg, b, path, names[i]);
 	}
 	free_list(names, n);
 }
