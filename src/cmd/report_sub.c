@@ -281,9 +281,16 @@ static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label
 		}
 	sr_err_init(&e, NULL, NULL);
 	if (srpng_encode(px, W, H, 3, &png, &npng, &e) == SR_OK) {
-		sb_printf(b, "<div><img width=\"%d\" height=\"%d\" alt=\"slice z=%zu\" src=\"", W, H, k);
+		/* screen right is +i, screen up is +j (rows drawn top-down from the last j) */
+		const double(*A)[4] = (const double(*)[4])pg->g.affine;
+
+		sb_printf(b, "<div class=\"slice\"><span></span><span class=\"o t\">%c</span><span></span>"
+			  "<span class=\"o l\">%c</span><img width=\"%d\" height=\"%d\" alt=\"slice k=%zu\" src=\"",
+			  qc_axis_letter(A, 1, 1, NULL), qc_axis_letter(A, 0, -1, NULL), W, H, k);
 		sb_data_uri(b, png, npng);
-		sb_printf(b, "\"><br>z = %zu</div>\n", k);
+		sb_printf(b, "\"><span class=\"o r\">%c</span><span></span><span class=\"o b\">%c</span><span></span>"
+			  "<span class=\"z\">k = %zu</span></div>\n",
+			  qc_axis_letter(A, 0, 1, NULL), qc_axis_letter(A, 1, -1, NULL), k);
 		free(png);
 	}
 	free(px);
@@ -333,7 +340,8 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 			cnt += pg->maps[k].lab[v] == label;
 		sb_puts(b, "<figure><figcaption><b>");
 		sb_esc(b, pg->maps[k].token);
-		sb_printf(b, "</b>: fROI (hatched), %zu voxels; parcel outline dashed</figcaption>\n<div class=\"strip\">\n", cnt);
+		sb_printf(b, "</b>: fROI (hatched), %zu voxels%s</figcaption>\n<div class=\"strip\">\n", cnt,
+			  pg->parcels ? "; parcel outline dashed" : "");
 		for (j = 0; j < ns; j++)
 			emit_slice(pg, b, sl[j], &pg->maps[k], label, DRAW_FROI, tlo, thi, glo, ghi);
 		sb_puts(b, "</div></figure>\n");
@@ -397,7 +405,7 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 			rp->size_a = rp->size_b = pg->ndefine ? sa / (double)pg->ndefine : NAN;
 		}
 		rp->dice = npair ? dsum / (double)npair : NAN;
-		bad = rp->size_a == 0 || rp->size_b == 0;
+		bad = qc_overlap_flag(rp->size_a, rp->size_b, rp->dice);
 		sb_printf(b, "<tr%s><td>", bad ? " class=\"flag\"" : "");
 		sb_esc(b, rp->name);
 		sb_puts(b, "</td>");
@@ -733,7 +741,10 @@ static void responses(page *pg, sbuf *b)
 			const char *cell = table_cell(&t, r, c);
 			char *end;
 			double v = strtod(cell, &end);
-			int num = *cell && !*end && isfinite(v);
+			/* labels stay as written: subject 01 is not the number 1 */
+			int label = !strcmp(t.header[c], "subject") || !strcmp(t.header[c], "define_runs") ||
+				    !strcmp(t.header[c], "measure_runs");
+			int num = !label && *cell && !*end && isfinite(v);
 
 			sb_puts(b, num ? "<td class=\"n\">" : "<td>");
 			if (num)
@@ -767,6 +778,35 @@ static void page_release(page *pg)
 	free(pg->pidx);
 }
 
+/*
+ * Which way the slices face, in one sentence: the letters at each slice's
+ * edges come from the image's affine; say which side the subject's left is on.
+ */
+static void orientation_note(const page *pg, sbuf *b)
+{
+	const double(*A)[4] = (const double(*)[4])pg->g.affine;
+	double c0, c1, c2, cmin;
+	char right = qc_axis_letter(A, 0, 1, &c0), up = qc_axis_letter(A, 1, 1, &c1);
+	char through = qc_axis_letter(A, 2, 1, &c2);
+	const char *plane = through == 'S' || through == 'I' ? "Axial" : through == 'A' || through == 'P' ? "Coronal" : "Sagittal";
+
+	cmin = fmin(c0, fmin(c1, c2));
+	sb_printf(b, "<p class=\"note\" id=\"orientation\">%s slices (along the image's third voxel axis k, counted from 0), "
+		  "evenly spaced through the fROI's extent, drawn in the image's own voxel order (not resampled): the letters at "
+		  "each slice's edges come from its affine (%s; R/L right/left, A/P anterior/posterior, S/I superior/inferior). ",
+		  plane, pg->g.sform_code > 0 ? "sform" : pg->g.qform_code > 0 ? "qform" : "neither sform nor qform is set, so the NIfTI default is assumed and the letters may be wrong");
+	if (right == 'R' || right == 'L')
+		sb_printf(b, "<b>The subject's left is shown on the %s</b> (%s convention), %c at the top.",
+			  right == 'R' ? "left" : "right", right == 'R' ? "neurological" : "radiological", up);
+	else
+		sb_printf(b, "Left to right on the page runs from %c to %c, bottom to top from %c to %c.",
+			  qc_axis_letter(A, 0, -1, NULL), right, qc_axis_letter(A, 1, -1, NULL), up);
+	if (cmin < 0.999)
+		sb_printf(b, " The image is oblique (an axis up to %.0f&deg; from the nearest direction): the letters name the nearest one.",
+			  acos(cmin) * 180.0 / 3.14159265358979323846);
+	sb_puts(b, "</p>\n");
+}
+
 sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 {
 	page pg;
@@ -791,6 +831,7 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		return rc;
 	split = runrec_ini_get(pg.rec.study_text, "localizer", "split");
 	s->split_kind = split ? split : xstrdup("odd-even");
+	s->study_file = pg.rec.study_file ? xstrdup(pg.rec.study_file) : NULL;
 	sr_err_init(&note, NULL, NULL);
 	snprintf(path, sizeof path, "%s/maps/mean-bold.nii.gz", pg.dir);
 	if (nii_read_3d(path, &in, &pg.bold, &note)) {
@@ -838,16 +879,17 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		    "<a href=\"#responses-h\">responses</a></nav>\n");
 	sb_puts(&b, "<h2 id=\"overlap-h\">fROI sizes and overlap of the halves</h2>\n");
 	sb_puts(&b, "<p class=\"note\">Voxels per split; Dice = 2|A&cap;B| / (|A| + |B|) between the localizer's "
-		    "halves (for leave-one-out: the mean over all pairs of folds). Flagged: an empty fROI in "
-		    "either half (the study page also compares each Dice with the other subjects').</p>\n");
+		    "halves (for leave-one-out: the mean over all pairs of folds).</p>\n<p class=\"note\" id=\"overlap-rule\">"
+		    "<b>Overlap flag:</b> " QC_OVERLAP_RULE "</p>\n");
 	overlap(&pg, s, &b);
 	sb_puts(&b, "<h2 id=\"frois\">fROIs on the mean functional image</h2>\n");
 	if (!pg.bold)
 		sb_puts(&b, "<p class=\"note\">maps/mean-bold.nii.gz is missing: slices drawn on a gray field.</p>\n");
 	if (!pg.parcels)
 		sb_puts(&b, "<p class=\"note\">The parcel image is missing or on another grid: no parcel outline.</p>\n");
-	sb_puts(&b, "<p class=\"note\">Axial slices, evenly spaced through the fROI's extent; slice index z counts from 0. "
-		    "Localizer t uses the viridis scale below (1st to 99th percentile of this subject's t maps).</p>\n");
+	orientation_note(&pg, &b);
+	sb_puts(&b, "<p class=\"note\">Localizer t uses the viridis scale below (1st to 99th percentile of this "
+		    "subject's t maps).</p>\n");
 	rs_colorbar(&b, ++pg.uid, tlo, thi, "localizer t");
 	for (i = 0; i < pg.np; i++)
 		section_parcel(&pg, &b, i, tlo, thi, glo, ghi);
@@ -855,9 +897,12 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 	designs(&pg, &b);
 	sb_puts(&b, "<h2 id=\"motion-h\">Motion</h2>\n");
 	motion(&pg, s, &b);
-	sb_puts(&b, "<h2 id=\"responses-h\">Responses</h2>\n");
+	sb_puts(&b, "<h2 id=\"responses-h\">Responses</h2>\n<p class=\"note\">A <code>:mean</code> row averages "
+		    "the splits above it; its define_runs and measure_runs list each split's runs, splits separated by "
+		    "<code>|</code> (<code>1+3|2+4</code>: defined on 1+3 then on 2+4), so no run both defines and "
+		    "measures one fROI.</p>\n");
 	responses(&pg, &b);
-	rh_end(&b);
+	rh_end(&b, pg.rec.study_file);
 	snprintf(path, sizeof path, "%s/report.html", pg.dir);
 	rc = rh_write(path, &b, e);
 	s->ok = rc == SR_OK;
@@ -875,5 +920,6 @@ void rsub_release(rsub *s)
 	free(s->parcels);
 	free(s->label);
 	free(s->split_kind);
+	free(s->study_file);
 	memset(s, 0, sizeof *s);
 }

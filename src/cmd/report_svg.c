@@ -34,21 +34,24 @@ static const char *fill_of(int id, size_t i, char *buf, size_t n)
 
 /* Vertical axis with ticks and grid lines; returns the data-to-pixel mapping via lo/hi. */
 static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double top, double bottom,
-		  const char *label, double *tlo, double *thi)
+		  const char *label, double *tlo, double *thi, double *ystep)
 {
 	double ticks[32], step;
 	size_t nt = qc_ticks(lo, hi, 5, ticks, 32, &step), i;
 
 	*tlo = nt ? fmin(lo, ticks[0]) : lo;
 	*thi = nt ? fmax(hi, ticks[nt - 1]) : hi;
+	if (ystep)
+		*ystep = step;
 	for (i = 0; i < nt; i++) {
 		double y = bottom - (ticks[i] - *tlo) / (*thi - *tlo) * (bottom - top);
 		char t[32];
 
-		snprintf(t, sizeof t, "%g", ticks[i]);
+		qc_format(ticks[i], qc_decimals(step), t, sizeof t);
 		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"%s\"/>"
 			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">%s</text>\n",
-			  x0, y, x1, y, ticks[i] == 0 ? "#1d232b" : "#e2ddd1", ticks[i] == 0 ? "1" : "0.7",
+			  x0, y, x1, y, fabs(ticks[i]) < 1e-9 * step ? "#1d232b" : "#e2ddd1",
+			  fabs(ticks[i]) < 1e-9 * step ? "1" : "0.7",
 			  x0 - 5, y + 4, t);
 	}
 	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>", x0, top, x0,
@@ -59,12 +62,14 @@ static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double to
 	sb_puts(b, "</text>\n");
 }
 
-void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars, size_t n)
+void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars, size_t n,
+	     double ylo, double yhi)
 {
 	const double left = 62, right = 14, top = 30, bottom = 74, bw = 50, gap = 58;
-	double w = left + right + (double)n * (bw + gap), h = 250, lo = 0, hi = 0, tlo, thi;
+	double w = left + right + (double)n * (bw + gap), h = 250, lo = 0, hi = 0, tlo, thi, ystep = 1;
 	size_t i, k;
-	char fb[32];
+	char fb[32], num[48];
+	int vdec;
 
 	if (w < 300)
 		w = 300;
@@ -81,7 +86,12 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 				hi = fmax(hi, bars[i].dots[k]);
 			}
 	}
-	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"",
+	/* a family's shared range, widened (never narrowed) to hold this chart's own values */
+	if (isfinite(ylo))
+		lo = fmin(lo, ylo);
+	if (isfinite(yhi))
+		hi = fmax(hi, yhi);
+	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"bars\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"",
 		  w, h, w, h);
 	sb_esc(b, title);
 	sb_puts(b, "\">\n");
@@ -89,7 +99,10 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 	sb_printf(b, "<text x=\"%.1f\" y=\"17\" font-size=\"13\" font-weight=\"600\">", left - 50);
 	sb_esc(b, title);
 	sb_puts(b, "</text>\n");
-	yaxis(b, lo, hi, left, w - right, top, h - bottom, ylabel, &tlo, &thi);
+	yaxis(b, lo, hi, left, w - right, top, h - bottom, ylabel, &tlo, &thi, &ystep);
+	/* bar values two digits finer than the axis steps (steps of 1 give 2.05), never 5.26e-05 */
+	vdec = qc_decimals(ystep) + 2;
+	sb_printf(b, "<desc class=\"yrange\">%.6g %.6g</desc>\n", tlo, thi);
 #define YPIX(v) ((h - bottom) - ((v) - tlo) / (thi - tlo) * ((h - bottom) - top))
 	for (i = 0; i < n; i++) {
 		double x = left + gap / 2 + (double)i * (bw + gap), y0 = YPIX(0.0);
@@ -120,8 +133,10 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 		sb_esc(b, bars[i].label);
 		sb_printf(b, "</text><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"middle\" fill=\"#5b6470\">",
 			  x + bw / 2, h - bottom + 30);
-		if (isfinite(bars[i].mean))
-			sb_printf(b, "%.3g", bars[i].mean);
+		if (isfinite(bars[i].mean)) {
+			qc_format(bars[i].mean, vdec, num, sizeof num);
+			sb_puts(b, num);
+		}
 		sb_puts(b, "</text>\n");
 	}
 #undef YPIX
@@ -148,16 +163,18 @@ void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double thresh
 	t_end = n > 1 ? (double)(n - 1) * (have_tr ? tr : 1.0) : 1.0;
 	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"framewise displacement\">\n",
 		  w, h, w, h);
-	yaxis(b, 0, hi, left, w - right, top, h - bottom, "FD (mm)", &tlo, &thi);
+	yaxis(b, 0, hi, left, w - right, top, h - bottom, "FD (mm)", &tlo, &thi, NULL);
 #define XPIX(t) (left + (t) / t_end * (w - left - right))
 #define YPIX(v) ((h - bottom) - ((v) - tlo) / (thi - tlo) * ((h - bottom) - top))
 	nt = qc_ticks(0, t_end, 6, ticks, 32, &step);
 	for (i = 0; i < nt; i++) {
 		if (ticks[i] > t_end + 1e-9)
 			continue;
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%g</text>\n",
-			  XPIX(ticks[i]), h - bottom, XPIX(ticks[i]), h - bottom + 4, XPIX(ticks[i]), h - bottom + 16,
-			  ticks[i]);
+		char tl[32];
+
+		qc_format(ticks[i], qc_decimals(step), tl, sizeof tl);
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+			  XPIX(ticks[i]), h - bottom, XPIX(ticks[i]), h - bottom + 4, XPIX(ticks[i]), h - bottom + 16, tl);
 	}
 	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 		  (left + w - right) / 2, h - 6, have_tr ? "time (s)" : "volume");
@@ -197,12 +214,14 @@ void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
 	nt = qc_ticks(lo, hi, 5, ticks, 32, &step);
 	for (i = 0; i < nt; i++) {
 		double x;
+		char tl[32];
 
 		if (ticks[i] < lo - 1e-9 * step || ticks[i] > hi + 1e-9 * step)
 			continue;
 		x = x0 + (ticks[i] - lo) / (hi - lo) * wbar;
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"18\" x2=\"%.1f\" y2=\"23\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"34\" font-size=\"11\" text-anchor=\"middle\">%g</text>\n",
-			  x, x, x, ticks[i]);
+		qc_format(ticks[i], qc_decimals(step), tl, sizeof tl);
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"18\" x2=\"%.1f\" y2=\"23\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"34\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+			  x, x, x, tl);
 	}
 	sb_printf(b, "<text x=\"%.1f\" y=\"48\" font-size=\"11\">", x0);
 	sb_esc(b, label);

@@ -113,6 +113,10 @@ char qc_axis_letter(const double aff[3][4], int axis, int sign, double *cosine);
  * (size 0 or not finite) or the halves share no voxel (Dice 0 or NaN).
  */
 int qc_overlap_flag(double size_a, double size_b, double dice);
+/* That rule in one line, as the pages and README state it. */
+#define QC_OVERLAP_RULE "flagged when either half's fROI is empty or the two halves share no voxel " \
+	"(Dice 0): one fixed rule, so equal Dice values get equal verdicts; a low but non-zero Dice is " \
+	"common (near 0.1 for a top-10% fROI in a uniformly active region) and not flagged."
 
 /*
  * Decimals to print numbers at a resolution of `step` (e.g. an axis step or
