@@ -14,6 +14,7 @@ import numpy as np
 import nibabel as nib
 
 out, bids, chromium, tmp, version = sys.argv[1:6]
+out, bids, tmp = (os.path.abspath(x) for x in (out, bids, tmp))
 here = os.path.dirname(os.path.abspath(__file__))
 failed = 0
 
