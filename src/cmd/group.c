@@ -18,6 +18,10 @@
 #include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
+#include "report.h"
+
+/* set while analyze runs the group step: analyze writes the report itself afterwards */
+static int in_analyze;
 
 static const cmdline_opt group_opts[] = {
 	{ "subjects", "LIST", "only these subjects (labels, with or without sub-, comma or space separated)" },
@@ -1111,6 +1115,15 @@ int cmd_group(int argc, char **argv)
 	if (!g.quiet)
 		summary(&g);
 	rc = 0;
+	if (!in_analyze) {
+		/* a report from before shows the old group table: rewrite it (analyze writes its own) */
+		char rp[8192];
+		struct stat rs;
+
+		snprintf(rp, sizeof rp, "%s/report.html", g.out);
+		if (stat(rp, &rs) == 0 && report_write(g.out, g.quiet))
+			rc = 1;
+	}
 out:
 	for (i = 0; i < npairs; i++)
 		free(pairs[i]);
@@ -1135,7 +1148,9 @@ int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quie
 	argv[argc] = NULL;
 	step_subjects = nsub ? subs : NULL;
 	step_nsubjects = nsub;
+	in_analyze = 1;
 	rc = cmd_group(argc, argv);
+	in_analyze = 0;
 	step_subjects = NULL;
 	step_nsubjects = 0;
 	return rc;

@@ -120,9 +120,20 @@ static int row_kind(const table *t, const cols *c, size_t r, int measured)
 	return l > 5 && strcmp(sp + l - 5, ":mean") == 0;
 }
 
+/* One chart's data: the bars of one parcel. */
+typedef struct chart {
+	char *parcel, *split;
+	char **effects;
+	size_t ne;
+	rs_bar *bars;
+	double *dots;
+} chart;
+
 /*
  * One chart per (measure task, parcel): a bar per effect, mean and sem over
- * subjects, subjects as dots; the numbers also go into the summary table.
+ * subjects, subjects as dots; the numbers also go into the summary table. The
+ * charts of one task (a family) share one y-range, so a parcel without an
+ * effect shows small bars instead of filling its box.
  */
 static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measured, char **subs,
 		   size_t nsub, int *uid)
@@ -139,35 +150,32 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 		sb_printf(b, "<p class=\"note\">No %s rows in responses.csv.</p>\n",
 			  measured ? "measured-task (split all)" : "cross-validated (split :mean)");
 	for (ti = 0; ti < nt; ti++) {
-		sb_puts(b, "<h3>Task ");
-		sb_esc(b, tasks[ti]);
-		sb_puts(b, measured ? " (fROIs defined on all localizer runs)" : " (held-out runs, mean over splits)");
-		sb_puts(b, "</h3>\n");
-		for (pi = 0; pi < np; pi++) {
-			char **effects = NULL, *split = NULL;
-			size_t ne = 0, ei, k;
-			rs_bar *bars;
-			double *dots;
-			char title[512];
+		chart *ch = xcalloc(np ? np : 1, sizeof *ch);
+		double lo = 0, hi = 0;
 
+		for (pi = 0; pi < np; pi++) {
+			chart *h = &ch[pi];
+			size_t ei, k;
+
+			h->parcel = parcels[pi];
 			for (r = 0; r < t->nrows; r++)
 				if (row_kind(t, c, r, measured) &&
 				    !strcmp(table_cell(t, r, (size_t)c->task), tasks[ti]) &&
 				    !strcmp(table_cell(t, r, (size_t)c->parcel), parcels[pi])) {
-					add_unique(&effects, &ne, table_cell(t, r, (size_t)c->effect));
-					if (!split)
-						split = xstrdup(table_cell(t, r, (size_t)c->split));
+					add_unique(&h->effects, &h->ne, table_cell(t, r, (size_t)c->effect));
+					if (!h->split)
+						h->split = xstrdup(table_cell(t, r, (size_t)c->split));
 				}
-			if (!ne)
+			if (!h->ne)
 				continue;
-			bars = xcalloc(ne, sizeof *bars);
-			dots = xmalloc_array(ne * (nsub ? nsub : 1), sizeof *dots);
-			for (ei = 0; ei < ne; ei++) {
-				double s = 0, ss = 0;
+			h->bars = xcalloc(h->ne, sizeof *h->bars);
+			h->dots = xmalloc_array(h->ne * (nsub ? nsub : 1), sizeof *h->dots);
+			for (ei = 0; ei < h->ne; ei++) {
+				double s = 0, ss = 0, *d = h->dots + ei * nsub;
 				size_t n = 0;
 
 				for (k = 0; k < nsub; k++)
-					dots[ei * nsub + k] = NAN;
+					d[k] = NAN;
 				for (r = 0; r < t->nrows; r++) {
 					long si;
 					char *end;
@@ -176,51 +184,77 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 					if (!row_kind(t, c, r, measured) ||
 					    strcmp(table_cell(t, r, (size_t)c->task), tasks[ti]) ||
 					    strcmp(table_cell(t, r, (size_t)c->parcel), parcels[pi]) ||
-					    strcmp(table_cell(t, r, (size_t)c->effect), effects[ei]))
+					    strcmp(table_cell(t, r, (size_t)c->effect), h->effects[ei]))
 						continue;
 					si = find(subs, nsub, table_cell(t, r, (size_t)c->subject));
 					v = strtod(table_cell(t, r, (size_t)c->value), &end);
 					if (si < 0 || end == table_cell(t, r, (size_t)c->value) || !isfinite(v))
 						continue;
-					dots[ei * nsub + (size_t)si] = v;
+					d[si] = v;
 				}
 				for (k = 0; k < nsub; k++)
-					if (isfinite(dots[ei * nsub + k])) {
-						s += dots[ei * nsub + k];
+					if (isfinite(d[k])) {
+						s += d[k];
 						n++;
+						lo = fmin(lo, d[k]);
+						hi = fmax(hi, d[k]);
 					}
-				bars[ei].label = effects[ei];
-				bars[ei].mean = n ? s / (double)n : NAN;
+				h->bars[ei].label = h->effects[ei];
+				h->bars[ei].mean = n ? s / (double)n : NAN;
 				for (k = 0; k < nsub; k++)
-					if (isfinite(dots[ei * nsub + k]))
-						ss += (dots[ei * nsub + k] - bars[ei].mean) * (dots[ei * nsub + k] - bars[ei].mean);
+					if (isfinite(d[k]))
+						ss += (d[k] - h->bars[ei].mean) * (d[k] - h->bars[ei].mean);
 				/* standard error of the mean: sample sd (n - 1) over sqrt(n) */
-				bars[ei].sem = n > 1 ? sqrt(ss / (double)(n - 1)) / sqrt((double)n) : NAN;
-				bars[ei].dots = dots + ei * nsub;
-				bars[ei].ndots = nsub;
+				h->bars[ei].sem = n > 1 ? sqrt(ss / (double)(n - 1)) / sqrt((double)n) : NAN;
+				h->bars[ei].dots = d;
+				h->bars[ei].ndots = nsub;
+				if (isfinite(h->bars[ei].mean)) {
+					double e = isfinite(h->bars[ei].sem) ? h->bars[ei].sem : 0;
+
+					lo = fmin(lo, h->bars[ei].mean - e);
+					hi = fmax(hi, h->bars[ei].mean + e);
+				}
 				sb_puts(sum, "<tr><td>");
 				sb_esc(sum, parcels[pi]);
 				sb_puts(sum, "</td><td>");
-				sb_esc(sum, split);
+				sb_esc(sum, h->split);
 				sb_puts(sum, "</td><td>");
 				sb_esc(sum, tasks[ti]);
 				sb_puts(sum, "</td><td>");
-				sb_esc(sum, effects[ei]);
+				sb_esc(sum, h->effects[ei]);
 				sb_printf(sum, "</td><td class=\"n\">%zu</td><td class=\"n\">", n);
-				sb_num(sum, bars[ei].mean);
+				sb_num(sum, h->bars[ei].mean);
 				sb_puts(sum, "</td><td class=\"n\">");
-				sb_num(sum, bars[ei].sem);
+				sb_num(sum, h->bars[ei].sem);
 				sb_puts(sum, "</td></tr>\n");
 			}
-			snprintf(title, sizeof title, "%s \xe2\x80\x94 %s, %s", parcels[pi], tasks[ti], split);
-			sb_puts(b, "<figure>\n");
-			rs_bars(b, ++*uid, title, "percent signal change", bars, ne);
-			sb_puts(b, "</figure>\n");
-			free(bars);
-			free(dots);
-			free(split);
-			free_strs(effects, ne);
 		}
+		sb_puts(b, "<h3>Task ");
+		sb_esc(b, tasks[ti]);
+		sb_puts(b, measured ? " (fROIs defined on all localizer runs)" : " (held-out runs, mean over splits)");
+		sb_puts(b, "</h3>\n<p class=\"note\">One y-scale for every parcel of this task, so bar heights compare across parcels.</p>\n");
+		sb_printf(b, "<div class=\"family\" data-task=\"");
+		sb_esc(b, tasks[ti]);
+		sb_puts(b, "\">\n");
+		for (pi = 0; pi < np; pi++) {
+			chart *h = &ch[pi];
+			char title[512];
+
+			if (!h->ne)
+				continue;
+			snprintf(title, sizeof title, "%s \xe2\x80\x94 %s, %s", h->parcel, tasks[ti], h->split);
+			sb_puts(b, "<figure>\n");
+			rs_bars(b, ++*uid, title, "percent signal change", h->bars, h->ne, lo, hi);
+			sb_puts(b, "</figure>\n");
+		}
+		sb_puts(b, "</div>\n");
+		for (pi = 0; pi < np; pi++) {
+			free(ch[pi].bars);
+			free(ch[pi].dots);
+			free(ch[pi].split);
+			free_strs(ch[pi].effects, ch[pi].ne);
+		}
+		free(ch);
 	}
 	free_strs(tasks, nt);
 	free_strs(parcels, np);
@@ -265,21 +299,6 @@ static void table_html(sbuf *b, const table *t, const char *id, const char *cons
 	free(used);
 }
 
-/* Dice below the parcel's robust lower fence over subjects (median - 3 robust sd). */
-static double parcel_fence(const rsub *subs, size_t n, const char *parcel)
-{
-	double *d = xcalloc(n ? n : 1, sizeof *d), f;
-	size_t i, k, m = 0;
-
-	for (i = 0; i < n; i++)
-		for (k = 0; k < subs[i].nparcels; k++)
-			if (strcmp(subs[i].parcels[k].name, parcel) == 0)
-				d[m++] = subs[i].parcels[k].dice;
-	f = qc_low_fence(d, m, 3.0);
-	free(d);
-	return f;
-}
-
 static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 {
 	size_t i, k;
@@ -292,9 +311,7 @@ static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 
 		for (k = 0; k < s->nparcels; k++) {
 			const rsub_parcel *p = &s->parcels[k];
-			double fence = parcel_fence(subs, n, p->name);
-			int bad = p->size_a == 0 || p->size_b == 0 || !isfinite(p->dice) ||
-				  (isfinite(fence) && p->dice < fence);
+			int bad = qc_overlap_flag(p->size_a, p->size_b, p->dice);
 
 			sb_printf(b, "<tr%s><td><a href=\"sub-", bad ? " class=\"flag\"" : "");
 			sb_esc(b, s->label);
@@ -318,6 +335,63 @@ static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 		}
 	}
 	sb_puts(b, "</tbody></table>\n");
+}
+
+/*
+ * The banner at the top of the study page when the group step is incomplete:
+ * the subjects group_subjects.csv lists as missing or unreadable, with why;
+ * without that file, group.csv rows marked incomplete. Nothing when complete.
+ */
+static void incomplete_banner(sbuf *b, const char *out, const table *group, int have_group)
+{
+	char path[8192];
+	table t;
+	size_t r, nbad = 0, nall = 0;
+
+	snprintf(path, sizeof path, "%s/group_subjects.csv", out);
+	if (table_read(path, ',', &t, NULL) == SR_OK) {
+		int cs = table_col(&t, "subject"), cst = table_col(&t, "status"), cr = table_col(&t, "reason");
+
+		for (r = 0; cs >= 0 && cst >= 0 && r < t.nrows; r++) {
+			const char *st = table_cell(&t, r, (size_t)cst);
+
+			nall += strcmp(st, "excluded") != 0;
+			nbad += strcmp(st, "missing") == 0 || strcmp(st, "unreadable") == 0;
+		}
+		if (nbad) {
+			sb_printf(b, "<div class=\"banner\" id=\"incomplete\" role=\"alert\"><b>&#9873; Group step incomplete:</b> "
+				  "%zu of %zu subjects are not in the group table or the charts:", nbad, nall);
+			sb_puts(b, "<ul>");
+			for (r = 0; r < t.nrows; r++) {
+				const char *st = table_cell(&t, r, (size_t)cst);
+
+				if (strcmp(st, "missing") && strcmp(st, "unreadable"))
+					continue;
+				sb_puts(b, "<li><b class=\"sub\">sub-");
+				sb_esc(b, table_cell(&t, r, (size_t)cs));
+				sb_puts(b, "</b> ");
+				sb_esc(b, st);
+				if (cr >= 0 && *table_cell(&t, r, (size_t)cr)) {
+					sb_puts(b, ": ");
+					sb_esc(b, table_cell(&t, r, (size_t)cr));
+				}
+				sb_puts(b, "</li>");
+			}
+			sb_puts(b, "</ul>Rerun analyze for them (or list them under exclusions) before reading the group results.</div>\n");
+		}
+		table_release(&t);
+		return;
+	}
+	if (have_group) {
+		int cn = table_col(group, "note");
+
+		for (r = 0; cn >= 0 && r < group->nrows; r++)
+			nbad += strstr(table_cell(group, r, (size_t)cn), "incomplete") != NULL;
+		if (nbad)
+			sb_printf(b, "<div class=\"banner\" id=\"incomplete\" role=\"alert\"><b>&#9873; Group step incomplete:</b> "
+				  "%zu rows of group.csv are marked incomplete (subjects missing); group_subjects.csv, which "
+				  "names them, is not in this folder.</div>\n", nbad);
+	}
 }
 
 int report_write(const char *out, int quiet)
@@ -362,6 +436,7 @@ int report_write(const char *out, int quiet)
 	sb_init(&b);
 	sb_init(&sum);
 	rh_begin(&b, "Study report", out, NULL, NULL);
+	incomplete_banner(&b, out, &group, have_group);
 	sb_puts(&b, "<nav class=\"toc\"><a href=\"#cv\">cross-validated responses</a> &middot; "
 		    "<a href=\"#measured\">measured tasks</a> &middot; <a href=\"#overlap\">fROI sizes and overlap</a> &middot; "
 		    "<a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
@@ -416,15 +491,16 @@ int report_write(const char *out, int quiet)
 	sb_puts(&sum, "</tbody></table>\n");
 	sb_puts(&b, "<h2 id=\"overlap\">fROI sizes and overlap of the halves</h2>\n<p class=\"note\">Dice = 2|A&cap;B| / (|A| + |B|) "
 		    "of the fROIs defined on the two halves of the localizer runs (leave-one-out: the mean over all pairs of folds, "
-		    "sizes the mean over folds). Outlier rule: an empty fROI in either half, or a Dice below the parcel's median over subjects minus three robust standard deviations (1.4826 &times; the median absolute deviation). Within a uniformly active region the top voxels are picked by noise, so a low Dice alone is common and not flagged. A run is flagged for "
-		    "motion when its mean framewise displacement exceeds the study's fd_threshold.</p>\n");
+		    "sizes the mean over folds).</p>\n<p class=\"note\" id=\"overlap-rule\"><b>Overlap flag:</b> " QC_OVERLAP_RULE "</p>\n"
+		    "<p class=\"note\">A run is flagged for motion when its mean framewise displacement exceeds the study's fd_threshold.</p>\n");
 	subjects_table(&b, subs, nsub);
 	sb_puts(&b, "<h2 id=\"group-h\">Group table</h2>\n");
 	if (have_group) {
 		sb_puts(&b, "<p class=\"note\">From group.csv: one-sample tests over subjects; q_fdr is the Benjamini&ndash;Hochberg "
 			    "adjusted p value.</p>\n");
-		sb_puts(&b, "<div class=\"wide\">");
-		static const char *const lead[] = { "parcel", "split", "measure_task", "effect", "n", "mean",
+		sb_puts(&b, "<div class=\"wide\" id=\"group-box\">");
+		/* the note (e.g. incomplete) leads with the key numbers, so it is never scrolled away */
+		static const char *const lead[] = { "parcel", "split", "measure_task", "effect", "note", "n", "mean",
 						    "sem", "t", "df", "p", "q_fdr", "cohen_d", NULL };
 
 		table_html(&b, &group, "group", lead);
@@ -436,7 +512,13 @@ int report_write(const char *out, int quiet)
 	sb_puts(&b, "<h2 id=\"summary-h\">Chart values</h2>\n<p class=\"note\">The numbers behind the bars above, computed "
 		    "here from responses.csv.</p>\n");
 	sb_puts(&b, sum.p);
-	rh_end(&b);
+	{
+		const char *sf = NULL;
+
+		for (i = 0; i < nsub && !sf; i++)
+			sf = subs[i].study_file;
+		rh_end(&b, sf);
+	}
 	snprintf(path, sizeof path, "%s/report.html", out);
 	sr_err_init(&e, NULL, NULL);
 	if (rh_write(path, &b, &e)) {

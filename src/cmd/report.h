@@ -35,7 +35,8 @@ void sb_num(sbuf *b, double v);
 /* Opens a page: doctype, title, the embedded style sheet, header with a back link (NULL for none). */
 void rh_begin(sbuf *b, const char *title, const char *subtitle, const char *back_href,
 	      const char *back_text);
-void rh_end(sbuf *b);
+/* Closes a page with its footer: the study file, splitroi's version and the date (UTC). */
+void rh_end(sbuf *b, const char *study_file);
 /* Writes the buffer to path atomically. */
 sr_status rh_write(const char *path, const sbuf *b, sr_err *e);
 
@@ -49,16 +50,28 @@ typedef struct rs_bar {
 	size_t ndots;
 } rs_bar;
 
-/* A bar chart with error bars (mean +- sem) and dots; id keeps pattern ids unique in a page. */
+/*
+ * A bar chart with error bars (mean +- sem) and dots; id keeps pattern ids
+ * unique in a page. ylo..yhi (NaN for none) is the range its family shares;
+ * the axis covers it and this chart's own values.
+ */
 void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars,
-	     size_t n);
+	     size_t n, double ylo, double yhi);
 /* Framewise displacement per volume against time, with the threshold line. */
 void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double threshold);
 /* A horizontal colour bar for viridis from lo to hi with labelled ticks. */
 void rs_colorbar(sbuf *b, int id, double lo, double hi, const char *label);
-/* A design matrix image (PNG, w x h pixels shown at that size) with rotated column labels. */
-void rs_design(sbuf *b, const unsigned char *png, size_t npng, int w, int h, int colw,
-	       char **names, size_t ncols, size_t nrows, double tr);
+/*
+ * A design matrix drawn as traces: time along x, one line per column (nrows x
+ * ncols values, row-major) stacked top to bottom with its name at the left,
+ * each scaled to its own range, grouped and tinted by kind (qc_col_kind, the
+ * columns of one kind adjacent); row r drawn at (r + vt) TR, the time the
+ * model samples it; under each condition a mark at each of the nmarks[c]
+ * times in marks[c] (seconds from the run's start; marks may be NULL).
+ * tr <= 0 or NaN: x in volumes.
+ */
+void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const double *val,
+	       size_t nrows, double tr, double vt, const double *const *marks, const size_t *nmarks);
 
 /* ---- report_sub.c: one subject's page ---- */
 
@@ -76,6 +89,7 @@ typedef struct rsub {
 	size_t nparcels;
 	size_t nruns_fd, nruns_flagged;
 	char *split_kind;        /* "odd-even" or "leave-one-out" */
+	char *study_file;        /* as the run record names it, NULL when absent */
 	int ok;                  /* page written */
 } rsub;
 

@@ -4,9 +4,11 @@
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
+#include <time.h>
 
 #include "../core/mem.h"
 #include "../io/afile.h"
+#include "../version.h"
 #include "report.h"
 
 void sb_init(sbuf *b)
@@ -144,12 +146,22 @@ static const char css[] =
 	"th{border-bottom:2px solid var(--ink);font-weight:600}\n"
 	"td.n{text-align:right;font-variant-numeric:tabular-nums}\n"
 	"tr.flag td{background:#f7e9e4}\n"
+	"div.banner{margin:16px 0 8px;padding:10px 14px;border:2px solid var(--warn);background:#fbeeea;"
+	"font:14px/1.45 system-ui,sans-serif}\n"
+	"div.banner ul{margin:4px 0 4px 18px;padding:0}\n"
+	"div.wide{border:1px solid var(--rule);max-height:70vh;overflow:auto}\n"
+	"div.wide table{margin:0}\n"
+	"div.wide{margin:8px 0 18px}div.wide th{position:sticky;top:0;background:var(--card)}\n"
+	"div.slice{display:inline-grid;grid-template-columns:auto auto auto;align-items:center;"
+	"justify-items:center;gap:0 3px}\n"
+	"div.slice span.o{font:700 12px/1 system-ui,sans-serif;color:var(--accent)}\n"
+	"div.slice span.z{grid-column:1/4}\n"
 	"span.flag{color:var(--warn);font-weight:700}\n"
 	"nav.toc{font:13px/1.6 system-ui,sans-serif}\n"
 	"nav.toc a,main a{color:var(--accent)}\n"
 	"svg text{font-family:system-ui,sans-serif;fill:var(--ink)}\n"
 	"@media print{body{background:#fff;font-size:10pt}header.top{padding:0 0 8px}"
-	"main{padding:0;max-width:none}a{color:inherit;text-decoration:none}"
+	"main{padding:0;max-width:none}a{color:inherit;text-decoration:none}div.wide{max-height:none}"
 	"a.back,nav.toc{display:none}figure{border:0;padding:0}h2{break-after:avoid}"
 	"table{font-size:8.5pt}tr{break-inside:avoid}div.wide{overflow:visible}th,td{white-space:normal}}\n";
 
@@ -180,10 +192,20 @@ void rh_begin(sbuf *b, const char *title, const char *subtitle, const char *back
 	sb_puts(b, "</header>\n<main>\n");
 }
 
-void rh_end(sbuf *b)
+void rh_end(sbuf *b, const char *study_file)
 {
-	sb_puts(b, "<p class=\"note\">Written by splitroi report. Research software: check every result "
-		   "against the data before relying on it.</p>\n</main>\n</body>\n</html>\n");
+	char when[64] = "";
+	time_t now = time(NULL);
+	struct tm tm;
+
+	if (gmtime_r(&now, &tm))
+		strftime(when, sizeof when, "%Y-%m-%d %H:%M UTC", &tm);
+	sb_puts(b, "<footer class=\"made\"><p class=\"note\">Study file <b class=\"study\">");
+	sb_esc(b, study_file && *study_file ? study_file : "(not recorded)");
+	sb_puts(b, "</b>; page written by splitroi <b class=\"version\">" SPLITROI_VERSION "</b> on <b class=\"date\">");
+	sb_esc(b, when);
+	sb_puts(b, "</b>. Research software: check every result against the data before relying on it.</p></footer>\n"
+		   "</main>\n</body>\n</html>\n");
 }
 
 sr_status rh_write(const char *path, const sbuf *b, sr_err *e)

@@ -281,9 +281,16 @@ static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label
 		}
 	sr_err_init(&e, NULL, NULL);
 	if (srpng_encode(px, W, H, 3, &png, &npng, &e) == SR_OK) {
-		sb_printf(b, "<div><img width=\"%d\" height=\"%d\" alt=\"slice z=%zu\" src=\"", W, H, k);
+		/* screen right is +i, screen up is +j (rows drawn top-down from the last j) */
+		const double(*A)[4] = (const double(*)[4])pg->g.affine;
+
+		sb_printf(b, "<div class=\"slice\"><span></span><span class=\"o t\">%c</span><span></span>"
+			  "<span class=\"o l\">%c</span><img width=\"%d\" height=\"%d\" alt=\"slice k=%zu\" src=\"",
+			  qc_axis_letter(A, 1, 1, NULL), qc_axis_letter(A, 0, -1, NULL), W, H, k);
 		sb_data_uri(b, png, npng);
-		sb_printf(b, "\"><br>z = %zu</div>\n", k);
+		sb_printf(b, "\"><span class=\"o r\">%c</span><span></span><span class=\"o b\">%c</span><span></span>"
+			  "<span class=\"z\">k = %zu</span></div>\n",
+			  qc_axis_letter(A, 0, 1, NULL), qc_axis_letter(A, 1, -1, NULL), k);
 		free(png);
 	}
 	free(px);
@@ -333,7 +340,8 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 			cnt += pg->maps[k].lab[v] == label;
 		sb_puts(b, "<figure><figcaption><b>");
 		sb_esc(b, pg->maps[k].token);
-		sb_printf(b, "</b>: fROI (hatched), %zu voxels; parcel outline dashed</figcaption>\n<div class=\"strip\">\n", cnt);
+		sb_printf(b, "</b>: fROI (hatched), %zu voxels%s</figcaption>\n<div class=\"strip\">\n", cnt,
+			  pg->parcels ? "; parcel outline dashed" : "");
 		for (j = 0; j < ns; j++)
 			emit_slice(pg, b, sl[j], &pg->maps[k], label, DRAW_FROI, tlo, thi, glo, ghi);
 		sb_puts(b, "</div></figure>\n");
@@ -397,7 +405,7 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 			rp->size_a = rp->size_b = pg->ndefine ? sa / (double)pg->ndefine : NAN;
 		}
 		rp->dice = npair ? dsum / (double)npair : NAN;
-		bad = rp->size_a == 0 || rp->size_b == 0;
+		bad = qc_overlap_flag(rp->size_a, rp->size_b, rp->dice);
 		sb_printf(b, "<tr%s><td>", bad ? " class=\"flag\"" : "");
 		sb_esc(b, rp->name);
 		sb_puts(b, "</td>");
@@ -418,15 +426,75 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 	sb_puts(b, "</tbody></table>\n");
 }
 
-/* One run's design matrix as an image, each column scaled to its own range. */
-static void design_figure(sbuf *b, const char *path, const char *name)
+static char **words(const char *s, size_t *n);
+static void free_list(char **v, size_t n);
+
+/* The run a design file (task-<task>_run-<run>) belongs to; NULL when unknown. */
+static const runrec_run *design_run(const page *pg, const char *name)
+{
+	size_t r;
+	char want[512];
+
+	for (r = 0; r < pg->rec.nruns; r++) {
+		snprintf(want, sizeof want, "task-%s_run-%s", pg->rec.runs[r].task ? pg->rec.runs[r].task : "",
+			 pg->rec.runs[r].run ? pg->rec.runs[r].run : "");
+		if (!strcmp(want, name))
+			return &pg->rec.runs[r];
+	}
+	return NULL;
+}
+
+/*
+ * Onsets (s) of each condition column from the run's events file; returns 1
+ * when the file was read, 0 (nothing filled) when it is missing or unreadable.
+ */
+static int design_onsets(const page *pg, const runrec_run *run, const table *d, const int *kind,
+			 double **on, size_t *non)
+{
+	char *col = runrec_ini_get(pg->rec.study_text, "localizer", "condition_column");
+	table ev;
+	int co, cc;
+	size_t r, c;
+
+	if (!run || !run->events || table_read(run->events, 0, &ev, NULL)) {
+		free(col);
+		return 0;
+	}
+	co = table_col(&ev, "onset");
+	cc = table_col(&ev, col ? col : "trial_type");
+	free(col);
+	if (co < 0 || cc < 0) {
+		table_release(&ev);
+		return 0;
+	}
+	for (c = 0; c < d->ncols; c++) {
+		if (kind[c] != QC_COL_CONDITION)
+			continue;
+		on[c] = xmalloc_array(ev.nrows + 1, sizeof **on);
+		for (r = 0; r < ev.nrows; r++) {
+			char *end;
+			const char *cell = table_cell(&ev, r, (size_t)co);
+			double v = strtod(cell, &end);
+
+			if (!strcmp(table_cell(&ev, r, (size_t)cc), d->header[c]) && end != cell && !*end && isfinite(v))
+				on[c][non[c]++] = v;
+		}
+	}
+	table_release(&ev);
+	return 1;
+}
+
+/* One run's design matrix: a trace per column against time, grouped by kind. */
+static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 {
 	table t;
-	size_t r, c;
-	int colw = 14, rowh, W, H, X, Y;
-	double *mn, *mx, *val;
-	unsigned char *px, *png;
-	size_t npng;
+	size_t r, c, nconf, ncond = 0;
+	double *val, **marks, tr, vt = 0.5;
+	int *kind, from_events;
+	size_t *nmarks;
+	char **conf;
+	char *text;
+	const runrec_run *run;
 	sr_err e;
 
 	sr_err_init(&e, NULL, NULL);
@@ -439,60 +507,72 @@ static void design_figure(sbuf *b, const char *path, const char *name)
 	if (!t.nrows || !t.ncols) {
 		sb_puts(b, "<p class=\"note\">");
 		sb_esc(b, path);
-		sb_puts(b, ": no rows, so no image.</p>\n");
+		sb_puts(b, ": no rows, so no figure.</p>\n");
 		table_release(&t);
 		return;
 	}
+	text = runrec_ini_get(pg->rec.study_text, "model", "confounds");
+	conf = words(text, &nconf);
+	free(text);
+	/* when in the volume the model samples: volume_time (older files: slice_reference) */
+	text = runrec_ini_get(pg->rec.study_text, "model", "volume_time");
+	if (!text)
+		text = runrec_ini_get(pg->rec.study_text, "model", "slice_reference");
+	if (text && strtod(text, NULL) >= 0 && strtod(text, NULL) <= 1)
+		vt = strtod(text, NULL);
+	free(text);
 	val = xmalloc_array(t.nrows * t.ncols, sizeof *val);
-	mn = xmalloc_array(t.ncols, sizeof *mn);
-	mx = xmalloc_array(t.ncols, sizeof *mx);
-	for (c = 0; c < t.ncols; c++) {
-		mn[c] = INFINITY;
-		mx[c] = -INFINITY;
-	}
+	kind = xmalloc_array(t.ncols, sizeof *kind);
+	marks = xcalloc(t.ncols, sizeof *marks);
+	nmarks = xcalloc(t.ncols, sizeof *nmarks);
 	for (r = 0; r < t.nrows; r++)
 		for (c = 0; c < t.ncols; c++) {
 			char *end;
-			double v = strtod(table_cell(&t, r, c), &end);
+			const char *cell = table_cell(&t, r, c);
+			double v = strtod(cell, &end);
 
-			val[r * t.ncols + c] = v;
-			if (isfinite(v)) {
-				mn[c] = fmin(mn[c], v);
-				mx[c] = fmax(mx[c], v);
-			}
+			val[r * t.ncols + c] = end != cell && !*end ? v : NAN;
 		}
-	rowh = t.nrows >= 400 ? 1 : (int)(400 / t.nrows);
-	if (rowh > 6)
-		rowh = 6;
-	W = (int)t.ncols * colw;
-	H = (int)t.nrows * rowh;
-	px = xmalloc_array((size_t)W * (size_t)H, 1);
-	for (Y = 0; Y < H; Y++)
-		for (X = 0; X < W; X++) {
-			size_t rr = (size_t)(Y / rowh), cc = (size_t)(X / colw);
-			double v = val[rr * t.ncols + cc], g;
-
-			if (!isfinite(v))
-				g = 0.5;
-			else if (mx[cc] > mn[cc])
-				g = (v - mn[cc]) / (mx[cc] - mn[cc]);
-			else
-				g = v != 0 ? 1 : 0;
-			/* a thin gap between columns keeps neighbours apart */
-			px[(size_t)Y * (size_t)W + (size_t)X] = X % colw == colw - 1 ? 128 : (unsigned char)lround(255 * g);
-		}
-	if (srpng_encode(px, W, H, 1, &png, &npng, &e) == SR_OK) {
-		sb_puts(b, "<figure><figcaption><b>");
-		sb_esc(b, name);
-		sb_printf(b, "</b>: %zu volumes &times; %zu columns</figcaption>\n", t.nrows, t.ncols);
-		rs_design(b, png, npng, W, H, colw, t.header, t.ncols, t.nrows, NAN);
-		sb_puts(b, "</figure>\n");
-		free(png);
+	for (c = 0; c < t.ncols; c++) {
+		kind[c] = (int)qc_column_kind(t.header[c], conf, nconf);
+		ncond += kind[c] == QC_COL_CONDITION;
 	}
-	free(px);
+	run = design_run(pg, name);
+	tr = run ? run->tr : NAN;
+	from_events = design_onsets(pg, run, &t, kind, marks, nmarks);
+	if (!from_events)
+		for (c = 0; c < t.ncols; c++) {
+			size_t *rows, k;
+
+			if (kind[c] != QC_COL_CONDITION)
+				continue;
+			/* no events file at hand: mark where the regressor rises above a tenth of its
+			   range (the response lags each onset by a second or two) */
+			rows = xmalloc_array(t.nrows, sizeof *rows);
+			nmarks[c] = qc_rises(val + c, t.nrows, t.ncols, 0.1, rows, t.nrows);
+			marks[c] = xmalloc_array(nmarks[c] + 1, sizeof **marks);
+			for (k = 0; k < nmarks[c]; k++)
+				marks[c][k] = ((double)rows[k] + vt) * (isfinite(tr) && tr > 0 ? tr : 1.0);
+			free(rows);
+		}
+	sb_puts(b, "<figure class=\"design\"><figcaption><b>");
+	sb_esc(b, name);
+	sb_printf(b, "</b>: %zu volumes &times; %zu columns%s; each trace scaled to its own range", t.nrows, t.ncols,
+		  isfinite(tr) && tr > 0 ? "" : " (TR unknown: x in volumes)");
+	if (ncond && from_events)
+		sb_puts(b, "; &#9650; an event's onset (from the run's events file)");
+	else if (ncond)
+		sb_puts(b, "; &#9650; where a condition's regressor rises (the events file is not at hand)");
+	sb_puts(b, "</figcaption>\n");
+	rs_design(b, t.header, kind, t.ncols, val, t.nrows, tr, vt, (const double *const *)marks, nmarks);
+	sb_puts(b, "</figure>\n");
+	for (c = 0; c < t.ncols; c++)
+		free(marks[c]);
+	free(marks);
+	free(nmarks);
+	free(kind);
 	free(val);
-	free(mn);
-	free(mx);
+	free_list(conf, nconf);
 	table_release(&t);
 }
 
@@ -508,7 +588,7 @@ static void designs(page *pg, sbuf *b)
 		sb_puts(b, "<p class=\"note\">No design matrices in design/.</p>\n");
 	for (i = 0; i < n; i++) {
 		snprintf(path, sizeof path, "%s/%s.csv", ddir, names[i]);
-		design_figure(b, path, names[i]);
+		design_figure(pg, b, path, names[i]);
 	}
 	free_list(names, n);
 }
@@ -661,7 +741,10 @@ static void responses(page *pg, sbuf *b)
 			const char *cell = table_cell(&t, r, c);
 			char *end;
 			double v = strtod(cell, &end);
-			int num = *cell && !*end && isfinite(v);
+			/* labels stay as written: subject 01 is not the number 1 */
+			int label = !strcmp(t.header[c], "subject") || !strcmp(t.header[c], "define_runs") ||
+				    !strcmp(t.header[c], "measure_runs");
+			int num = !label && *cell && !*end && isfinite(v);
 
 			sb_puts(b, num ? "<td class=\"n\">" : "<td>");
 			if (num)
@@ -695,6 +778,35 @@ static void page_release(page *pg)
 	free(pg->pidx);
 }
 
+/*
+ * Which way the slices face, in one sentence: the letters at each slice's
+ * edges come from the image's affine; say which side the subject's left is on.
+ */
+static void orientation_note(const page *pg, sbuf *b)
+{
+	const double(*A)[4] = (const double(*)[4])pg->g.affine;
+	double c0, c1, c2, cmin;
+	char right = qc_axis_letter(A, 0, 1, &c0), up = qc_axis_letter(A, 1, 1, &c1);
+	char through = qc_axis_letter(A, 2, 1, &c2);
+	const char *plane = through == 'S' || through == 'I' ? "Axial" : through == 'A' || through == 'P' ? "Coronal" : "Sagittal";
+
+	cmin = fmin(c0, fmin(c1, c2));
+	sb_printf(b, "<p class=\"note\" id=\"orientation\">%s slices (along the image's third voxel axis k, counted from 0), "
+		  "evenly spaced through the fROI's extent, drawn in the image's own voxel order (not resampled): the letters at "
+		  "each slice's edges come from its affine (%s; R/L right/left, A/P anterior/posterior, S/I superior/inferior). ",
+		  plane, pg->g.sform_code > 0 ? "sform" : pg->g.qform_code > 0 ? "qform" : "neither sform nor qform is set, so the NIfTI default is assumed and the letters may be wrong");
+	if (right == 'R' || right == 'L')
+		sb_printf(b, "<b>The subject's left is shown on the %s</b> (%s convention), %c at the top.",
+			  right == 'R' ? "left" : "right", right == 'R' ? "neurological" : "radiological", up);
+	else
+		sb_printf(b, "Left to right on the page runs from %c to %c, bottom to top from %c to %c.",
+			  qc_axis_letter(A, 0, -1, NULL), right, qc_axis_letter(A, 1, -1, NULL), up);
+	if (cmin < 0.999)
+		sb_printf(b, " The image is oblique (an axis up to %.0f&deg; from the nearest direction): the letters name the nearest one.",
+			  acos(cmin) * 180.0 / 3.14159265358979323846);
+	sb_puts(b, "</p>\n");
+}
+
 sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 {
 	page pg;
@@ -719,6 +831,7 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		return rc;
 	split = runrec_ini_get(pg.rec.study_text, "localizer", "split");
 	s->split_kind = split ? split : xstrdup("odd-even");
+	s->study_file = pg.rec.study_file ? xstrdup(pg.rec.study_file) : NULL;
 	sr_err_init(&note, NULL, NULL);
 	snprintf(path, sizeof path, "%s/maps/mean-bold.nii.gz", pg.dir);
 	if (nii_read_3d(path, &in, &pg.bold, &note)) {
@@ -779,16 +892,17 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 	}
 	sb_puts(&b, "<h2 id=\"overlap-h\">fROI sizes and overlap of the halves</h2>\n");
 	sb_puts(&b, "<p class=\"note\">Voxels per split; Dice = 2|A&cap;B| / (|A| + |B|) between the localizer's "
-		    "halves (for leave-one-out: the mean over all pairs of folds). Flagged: an empty fROI in "
-		    "either half (the study page also compares each Dice with the other subjects').</p>\n");
+		    "halves (for leave-one-out: the mean over all pairs of folds).</p>\n<p class=\"note\" id=\"overlap-rule\">"
+		    "<b>Overlap flag:</b> " QC_OVERLAP_RULE "</p>\n");
 	overlap(&pg, s, &b);
 	sb_puts(&b, "<h2 id=\"frois\">fROIs on the mean functional image</h2>\n");
 	if (!pg.bold)
 		sb_puts(&b, "<p class=\"note\">maps/mean-bold.nii.gz is missing: slices drawn on a gray field.</p>\n");
 	if (!pg.parcels)
 		sb_puts(&b, "<p class=\"note\">The parcel image is missing or on another grid: no parcel outline.</p>\n");
-	sb_puts(&b, "<p class=\"note\">Axial slices, evenly spaced through the fROI's extent; slice index z counts from 0. "
-		    "Localizer t uses the viridis scale below (1st to 99th percentile of this subject's t maps).</p>\n");
+	orientation_note(&pg, &b);
+	sb_puts(&b, "<p class=\"note\">Localizer t uses the viridis scale below (1st to 99th percentile of this "
+		    "subject's t maps).</p>\n");
 	rs_colorbar(&b, ++pg.uid, tlo, thi, "localizer t");
 	for (i = 0; i < pg.np; i++)
 		section_parcel(&pg, &b, i, tlo, thi, glo, ghi);
@@ -796,9 +910,12 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 	designs(&pg, &b);
 	sb_puts(&b, "<h2 id=\"motion-h\">Motion</h2>\n");
 	motion(&pg, s, &b);
-	sb_puts(&b, "<h2 id=\"responses-h\">Responses</h2>\n");
+	sb_puts(&b, "<h2 id=\"responses-h\">Responses</h2>\n<p class=\"note\">A <code>:mean</code> row averages "
+		    "the splits above it; its define_runs and measure_runs list each split's runs, splits separated by "
+		    "<code>|</code> (<code>1+3|2+4</code>: defined on 1+3 then on 2+4), so no run both defines and "
+		    "measures one fROI.</p>\n");
 	responses(&pg, &b);
-	rh_end(&b);
+	rh_end(&b, pg.rec.study_file);
 	snprintf(path, sizeof path, "%s/report.html", pg.dir);
 	rc = rh_write(path, &b, e);
 	s->ok = rc == SR_OK;
@@ -816,5 +933,6 @@ void rsub_release(rsub *s)
 	free(s->parcels);
 	free(s->label);
 	free(s->split_kind);
+	free(s->study_file);
 	memset(s, 0, sizeof *s);
 }

@@ -34,21 +34,24 @@ static const char *fill_of(int id, size_t i, char *buf, size_t n)
 
 /* Vertical axis with ticks and grid lines; returns the data-to-pixel mapping via lo/hi. */
 static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double top, double bottom,
-		  const char *label, double *tlo, double *thi)
+		  const char *label, double *tlo, double *thi, double *ystep)
 {
 	double ticks[32], step;
 	size_t nt = qc_ticks(lo, hi, 5, ticks, 32, &step), i;
 
 	*tlo = nt ? fmin(lo, ticks[0]) : lo;
 	*thi = nt ? fmax(hi, ticks[nt - 1]) : hi;
+	if (ystep)
+		*ystep = step;
 	for (i = 0; i < nt; i++) {
 		double y = bottom - (ticks[i] - *tlo) / (*thi - *tlo) * (bottom - top);
 		char t[32];
 
-		snprintf(t, sizeof t, "%g", ticks[i]);
+		qc_format(ticks[i], qc_decimals(step), t, sizeof t);
 		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"%s\"/>"
 			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">%s</text>\n",
-			  x0, y, x1, y, ticks[i] == 0 ? "#1d232b" : "#e2ddd1", ticks[i] == 0 ? "1" : "0.7",
+			  x0, y, x1, y, fabs(ticks[i]) < 1e-9 * step ? "#1d232b" : "#e2ddd1",
+			  fabs(ticks[i]) < 1e-9 * step ? "1" : "0.7",
 			  x0 - 5, y + 4, t);
 	}
 	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>", x0, top, x0,
@@ -59,12 +62,14 @@ static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double to
 	sb_puts(b, "</text>\n");
 }
 
-void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars, size_t n)
+void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars, size_t n,
+	     double ylo, double yhi)
 {
 	const double left = 62, right = 14, top = 30, bottom = 74, bw = 50, gap = 58;
-	double w = left + right + (double)n * (bw + gap), h = 250, lo = 0, hi = 0, tlo, thi;
+	double w = left + right + (double)n * (bw + gap), h = 250, lo = 0, hi = 0, tlo, thi, ystep = 1;
 	size_t i, k;
-	char fb[32];
+	char fb[32], num[48];
+	int vdec;
 
 	if (w < 300)
 		w = 300;
@@ -81,7 +86,12 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 				hi = fmax(hi, bars[i].dots[k]);
 			}
 	}
-	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"",
+	/* a family's shared range, widened (never narrowed) to hold this chart's own values */
+	if (isfinite(ylo))
+		lo = fmin(lo, ylo);
+	if (isfinite(yhi))
+		hi = fmax(hi, yhi);
+	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"bars\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"",
 		  w, h, w, h);
 	sb_esc(b, title);
 	sb_puts(b, "\">\n");
@@ -89,7 +99,10 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 	sb_printf(b, "<text x=\"%.1f\" y=\"17\" font-size=\"13\" font-weight=\"600\">", left - 50);
 	sb_esc(b, title);
 	sb_puts(b, "</text>\n");
-	yaxis(b, lo, hi, left, w - right, top, h - bottom, ylabel, &tlo, &thi);
+	yaxis(b, lo, hi, left, w - right, top, h - bottom, ylabel, &tlo, &thi, &ystep);
+	/* bar values two digits finer than the axis steps (steps of 1 give 2.05), never 5.26e-05 */
+	vdec = qc_decimals(ystep) + 2;
+	sb_printf(b, "<desc class=\"yrange\">%.6g %.6g</desc>\n", tlo, thi);
 #define YPIX(v) ((h - bottom) - ((v) - tlo) / (thi - tlo) * ((h - bottom) - top))
 	for (i = 0; i < n; i++) {
 		double x = left + gap / 2 + (double)i * (bw + gap), y0 = YPIX(0.0);
@@ -120,8 +133,10 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 		sb_esc(b, bars[i].label);
 		sb_printf(b, "</text><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"middle\" fill=\"#5b6470\">",
 			  x + bw / 2, h - bottom + 30);
-		if (isfinite(bars[i].mean))
-			sb_printf(b, "%.3g", bars[i].mean);
+		if (isfinite(bars[i].mean)) {
+			qc_format(bars[i].mean, vdec, num, sizeof num);
+			sb_puts(b, num);
+		}
 		sb_puts(b, "</text>\n");
 	}
 #undef YPIX
@@ -148,16 +163,18 @@ void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double thresh
 	t_end = n > 1 ? (double)(n - 1) * (have_tr ? tr : 1.0) : 1.0;
 	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"framewise displacement\">\n",
 		  w, h, w, h);
-	yaxis(b, 0, hi, left, w - right, top, h - bottom, "FD (mm)", &tlo, &thi);
+	yaxis(b, 0, hi, left, w - right, top, h - bottom, "FD (mm)", &tlo, &thi, NULL);
 #define XPIX(t) (left + (t) / t_end * (w - left - right))
 #define YPIX(v) ((h - bottom) - ((v) - tlo) / (thi - tlo) * ((h - bottom) - top))
 	nt = qc_ticks(0, t_end, 6, ticks, 32, &step);
 	for (i = 0; i < nt; i++) {
 		if (ticks[i] > t_end + 1e-9)
 			continue;
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%g</text>\n",
-			  XPIX(ticks[i]), h - bottom, XPIX(ticks[i]), h - bottom + 4, XPIX(ticks[i]), h - bottom + 16,
-			  ticks[i]);
+		char tl[32];
+
+		qc_format(ticks[i], qc_decimals(step), tl, sizeof tl);
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+			  XPIX(ticks[i]), h - bottom, XPIX(ticks[i]), h - bottom + 4, XPIX(ticks[i]), h - bottom + 16, tl);
 	}
 	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 		  (left + w - right) / 2, h - 6, have_tr ? "time (s)" : "volume");
@@ -197,54 +214,125 @@ void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
 	nt = qc_ticks(lo, hi, 5, ticks, 32, &step);
 	for (i = 0; i < nt; i++) {
 		double x;
+		char tl[32];
 
 		if (ticks[i] < lo - 1e-9 * step || ticks[i] > hi + 1e-9 * step)
 			continue;
 		x = x0 + (ticks[i] - lo) / (hi - lo) * wbar;
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"18\" x2=\"%.1f\" y2=\"23\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"34\" font-size=\"11\" text-anchor=\"middle\">%g</text>\n",
-			  x, x, x, ticks[i]);
+		qc_format(ticks[i], qc_decimals(step), tl, sizeof tl);
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"18\" x2=\"%.1f\" y2=\"23\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"34\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+			  x, x, x, tl);
 	}
 	sb_printf(b, "<text x=\"%.1f\" y=\"48\" font-size=\"11\">", x0);
 	sb_esc(b, label);
 	sb_puts(b, "</text>\n</svg>\n");
 }
 
-void rs_design(sbuf *b, const unsigned char *png, size_t npng, int w, int h, int colw,
-	       char **names, size_t ncols, size_t nrows, double tr)
+/* Tints per column kind (line, band), in the page's palette. */
+static const char *const kind_line[4] = { "#8a3b12", "#2f4a63", "#4b5a1e", "#5b6470" };
+static const char *const kind_band[4] = { "#f6ebe3", "#e8edf2", "#eef0e2", "#efede8" };
+static const char *const kind_name[4] = { "conditions", "confounds", "drifts", "baseline" };
+
+void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const double *val,
+	       size_t nrows, double tr, double vt, const double *const *marks, const size_t *nmarks)
 {
-	const double top = 84, left = 54;
-	double W = left + w + 150, H = top + h + 10, ticks[16], step;
-	size_t i, nt;
+	const double left = 150, right = 16, top = 8, trace = 22, gap = 5, evh = 8, head = 16, w = 760;
+	int have_tr = isfinite(tr) && tr > 0;
+	double unit = have_tr ? tr : 1.0, t_end = (double)(nrows ? nrows : 1) * unit;
+	double y = top, H, ticks[32], step;
+	size_t c, r, i, nt;
+	int prev = -1;
 
-	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"design matrix\">\n",
-		  W, H, W, H);
-	sb_printf(b, "<image x=\"%.1f\" y=\"%.1f\" width=\"%d\" height=\"%d\" preserveAspectRatio=\"none\" style=\"image-rendering:pixelated\" href=\"",
-		  left, top, w, h);
-	sb_data_uri(b, png, npng);
-	sb_printf(b, "\"/>\n<rect x=\"%.1f\" y=\"%.1f\" width=\"%d\" height=\"%d\" fill=\"none\" stroke=\"#1d232b\"/>\n",
-		  left, top, w, h);
-	for (i = 0; i < ncols; i++) {
-		double x = left + ((double)i + 0.5) * colw;
-
-		sb_printf(b, "<text transform=\"translate(%.1f %.1f) rotate(-60)\" font-size=\"10\">", x + 3, top - 4);
-		sb_esc(b, names[i]);
-		sb_puts(b, "</text>\n");
+	/* height first: a heading per kind, a trace per column, event marks under conditions */
+	H = top;
+	for (c = 0; c < ncols; c++) {
+		if (kind[c] != prev)
+			H += head;
+		prev = kind[c];
+		H += trace + gap + (kind[c] == 0 ? evh : 0);
 	}
-	nt = qc_ticks(0, (double)(nrows ? nrows - 1 : 0), 5, ticks, 16, &step);
+	H += 40;
+	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"design\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"design matrix: one trace per column against time\">\n",
+		  w, H, w, H);
+#define XPIX(t) (left + (t) / t_end * (w - left - right))
+	prev = -1;
+	for (c = 0; c < ncols; c++) {
+		double lo = INFINITY, hi = -INFINITY, y0, y1;
+		int kc = kind[c] >= 0 && kind[c] < 4 ? kind[c] : 0;
+
+		if (kind[c] != prev) {
+			/* the kind's heading and a tinted band behind all its traces */
+			size_t e = c;
+			double hb = 0;
+
+			while (e < ncols && kind[e] == kind[c]) {
+				hb += trace + gap + (kind[e] == 0 ? evh : 0);
+				e++;
+			}
+			sb_printf(b, "<rect x=\"4\" y=\"%.1f\" width=\"%.1f\" height=\"%.1f\" fill=\"%s\"/>"
+				  "<text class=\"kind\" x=\"8\" y=\"%.1f\" font-size=\"11\" font-weight=\"600\" fill=\"%s\">%s</text>\n",
+				  y, w - 8, head + hb - gap / 2, kind_band[kc], y + 12, kind_line[kc], kind_name[kc]);
+			y += head;
+		}
+		prev = kind[c];
+		for (r = 0; r < nrows; r++) {
+			double v = val[r * ncols + c];
+
+			if (isfinite(v)) {
+				lo = fmin(lo, v);
+				hi = fmax(hi, v);
+			}
+		}
+		y0 = y + trace;   /* bottom of the trace band */
+		y1 = y + 2;       /* top */
+		sb_printf(b, "<g class=\"trace\" data-kind=\"%s\" data-column=\"", kind_name[kc]);
+		sb_esc(b, names[c]);
+		sb_printf(b, "\"><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">", left - 8, y + trace / 2 + 4);
+		sb_esc(b, names[c]);
+		sb_printf(b, "</text><line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#d9d4c7\" stroke-width=\"0.6\"/>",
+			  left, y0, w - right, y0);
+		sb_printf(b, "<polyline fill=\"none\" stroke=\"%s\" stroke-width=\"1.3\" points=\"", kind_line[kc]);
+		for (r = 0; r < nrows; r++) {
+			double v = val[r * ncols + c], py;
+
+			if (!isfinite(v))
+				continue;
+			/* each trace scaled to its own range; a flat column sits mid-band */
+			py = hi > lo ? y0 - (v - lo) / (hi - lo) * (y0 - y1) : (y0 + y1) / 2;
+			/* row r is the volume sampled at (r + vt) TR after the run's start */
+			sb_printf(b, "%.1f,%.1f ", XPIX(((double)r + vt) * unit), py);
+		}
+		sb_puts(b, "\"/>");
+		if (kind[c] == 0 && marks) {
+			for (i = 0; i < nmarks[c]; i++) {
+				double x;
+
+				if (!isfinite(marks[c][i]) || marks[c][i] < 0 || marks[c][i] > t_end)
+					continue;
+				x = XPIX(marks[c][i]);
+
+				sb_printf(b, "<path class=\"ev\" d=\"M%.1f %.1fl-3.5 %.1fh7z\" fill=\"%s\"/>", x, y0 + 1.5,
+					  evh - 2, kind_line[kc]);
+			}
+			y += evh;
+		}
+		sb_puts(b, "</g>\n");
+		y += trace + gap;
+	}
+	/* the time axis */
+	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>\n", left, y, w - right, y);
+	nt = qc_ticks(0, t_end, 8, ticks, 32, &step);
 	for (i = 0; i < nt; i++) {
-		double y;
+		char t[32];
 
-		if (ticks[i] > (double)nrows - 1 + 1e-9)
+		if (ticks[i] > t_end + 1e-9 || ticks[i] < -1e-9)
 			continue;
-		y = top + (ticks[i] + 0.5) / (double)(nrows ? nrows : 1) * h;
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"end\">%g</text>\n",
-			  left - 4, y, left, y, left - 6, y + 3, ticks[i]);
+		qc_format(ticks[i], qc_decimals(step), t, sizeof t);
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+			  XPIX(ticks[i]), y, XPIX(ticks[i]), y + 4, XPIX(ticks[i]), y + 16, t);
 	}
-	sb_printf(b, "<text transform=\"translate(%.1f %.1f) rotate(-90)\" font-size=\"11\" text-anchor=\"middle\">volume%s</text>\n",
-		  14.0, top + h / 2.0, isfinite(tr) && tr > 0 ? " (row)" : "");
-	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">each column scaled:</text>"
-		  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">black = its minimum,</text>"
-		  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">white = its maximum</text>\n",
-		  left + w + 10, top + 12, left + w + 10, top + 25, left + w + 10, top + 38);
+	sb_printf(b, "<text class=\"axis\" x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+		  (left + w - right) / 2, y + 32, have_tr ? "time (s)" : "volume");
+#undef XPIX
 	sb_puts(b, "</svg>\n");
 }

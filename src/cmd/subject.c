@@ -1056,7 +1056,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		double *nv = xcalloc(cells, sizeof *nv);
 		double *nc = xcalloc(cells, sizeof *nc);
 		double *E = xmalloc_array(nvox, sizeof *E);
-		char def[1024], meas[1024], all[1024];
+		char def[1024], meas[1024], all[1024], mdef[4096] = "", mmeas[4096] = "";
 
 		all_runs_list(loc, all, sizeof all);
 		for (s = 0; s < nsplits; s++) {
@@ -1066,6 +1066,9 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				     NULL, labels, ps, nvox, &f);
 			run_list(loc, splits[s].def, splits[s].ndef, def, sizeof def);
 			run_list(loc, splits[s].meas, splits[s].nmeas, meas, sizeof meas);
+			/* the :mean rows name what they average: the splits' run lists joined by '|' */
+			snprintf(mdef + strlen(mdef), sizeof mdef - strlen(mdef), "%s%s", s ? "|" : "", def);
+			snprintf(mmeas + strlen(mmeas), sizeof mmeas - strlen(mmeas), "%s%s", s ? "|" : "", meas);
 			/* effect 0 is the selection contrast; report effects 1..ne-1 */
 			for (j = 1; j < ne; j++) {
 				ffx_map(loc, splits[s].meas, splits[s].nmeas, j, nvox, E, NULL);
@@ -1116,7 +1119,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 						sn += nv[cell];
 						sc += nc[cell];
 					}
-					add_row(res, ps->name[p], kind, all, loc->task, all, loc->effects[j].text,
+					add_row(res, ps->name[p], kind, mdef, loc->task, mmeas, loc->effects[j].text,
 						bad ? NAN : sv / nsplits, sn / nsplits, sc / nsplits);
 				}
 			}

@@ -1,5 +1,6 @@
 /* qc.c - quality-control numerics for the report (no I/O): FD, Dice, slices, viridis, ticks. */
 #include <math.h>
+#include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
 
@@ -273,4 +274,129 @@ double qc_low_fence(const double *x, size_t n, double k)
 	mad = median_sorted(v, m);
 	free(v);
 	return med - k * 1.4826 * mad;
+}
+
+qc_col_kind qc_column_kind(const char *name, char *const *confounds, size_t nconf)
+{
+	size_t i;
+	const char *d = NULL;
+
+	if (!strcmp(name, "baseline") || !strcmp(name, "constant"))
+		return QC_COL_BASELINE;
+	if (!strncmp(name, "cos_", 4))
+		d = name + 4;
+	else if (!strncmp(name, "drift_", 6))
+		d = name + 6;
+	if (d && *d) {
+		const char *q = d;
+
+		while (*q >= '0' && *q <= '9')
+			q++;
+		if (!*q)
+			return QC_COL_DRIFT;
+	}
+	for (i = 0; i < nconf; i++)
+		if (!strcmp(name, confounds[i]))
+			return QC_COL_CONFOUND;
+	return QC_COL_CONDITION;
+}
+
+size_t qc_rises(const double *x, size_t n, size_t stride, double frac, size_t *out, size_t max)
+{
+	double lo = INFINITY, hi = -INFINITY, thr;
+	size_t i, k = 0;
+	int below = 0;
+
+	for (i = 0; i < n; i++)
+		if (isfinite(x[i * stride])) {
+			lo = fmin(lo, x[i * stride]);
+			hi = fmax(hi, x[i * stride]);
+		}
+	if (!(hi > lo))
+		return 0;
+	thr = lo + frac * (hi - lo);
+	for (i = 0; i < n; i++) {
+		double v = x[i * stride];
+
+		if (!isfinite(v))
+			continue;
+		if (v > thr) {
+			if ((below || i == 0) && k < max)
+				out[k++] = i;
+			below = 0;
+		} else {
+			below = 1;
+		}
+	}
+	return k;
+}
+
+char qc_axis_letter(const double aff[3][4], int axis, int sign, double *cosine)
+{
+	static const char pos[3] = { 'R', 'A', 'S' }, neg[3] = { 'L', 'P', 'I' };
+	double best = 0, len = 0;
+	int k, bk = -1;
+
+	if (cosine)
+		*cosine = NAN;
+	if (axis < 0 || axis > 2)
+		return '?';
+	for (k = 0; k < 3; k++) {
+		double c = aff[k][axis];
+
+		len += c * c;
+		if (fabs(c) > fabs(best)) {
+			best = c;
+			bk = k;
+		}
+	}
+	if (bk < 0 || !isfinite(len))
+		return '?';
+	if (cosine)
+		*cosine = fabs(best) / sqrt(len);
+	return (best > 0) == (sign > 0) ? pos[bk] : neg[bk];
+}
+
+int qc_overlap_flag(double size_a, double size_b, double dice)
+{
+	if (!(size_a > 0) || !(size_b > 0))
+		return 1;
+	return !(dice > 0);
+}
+
+int qc_decimals(double step)
+{
+	int d;
+
+	step = fabs(step);
+	if (!(step > 0) || !isfinite(step) || step >= 1)
+		return 0;
+	/* the first significant digit of step: 10^-d <= step (with a little slack for 0.1 - 1e-17) */
+	d = (int)ceil(-log10(step) - 1e-9);
+	/* 0.25 needs 2: keep adding while rounding to d decimals loses the step's digits */
+	while (d < 10 && fabs(step * pow(10, d) - round(step * pow(10, d))) > 1e-6 * step * pow(10, d))
+		d++;
+	return d < 10 ? d : 10;
+}
+
+void qc_format(double v, int d, char *buf, size_t n)
+{
+	if (d < 0)
+		d = 0;
+	if (!isfinite(v)) {
+		snprintf(buf, n, "%s", isnan(v) ? "" : v > 0 ? "inf" : "-inf");
+		return;
+	}
+	if (fabs(v) * pow(10, d) < 0.5)
+		v = 0;
+	snprintf(buf, n, "%.*f", d, v + 0.0);
+	if (buf[0] == '-') {
+		/* "-0.000" after rounding: print zero without a sign */
+		const char *p = buf + 1;
+
+		while (*p == '0' || *p == '.')
+			p++;
+		if (!*p)
+			memmove(buf, buf + 1, strlen(buf));
+	}
 }

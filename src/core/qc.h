@@ -78,4 +78,57 @@ void qc_edge(const unsigned char *mask, size_t nx, size_t ny, unsigned char *edg
  */
 double qc_low_fence(const double *x, size_t n, double k);
 
+/* What a design-matrix column models, from its name (old and new names both understood). */
+typedef enum qc_col_kind { QC_COL_CONDITION, QC_COL_CONFOUND, QC_COL_DRIFT, QC_COL_BASELINE } qc_col_kind;
+
+/*
+ * The kind of a design column: "baseline" or "constant" is the baseline,
+ * "cos_<n>" or "drift_<n>" a drift (cosine) column, a name among the nconf
+ * confound names a confound, anything else a condition.
+ */
+qc_col_kind qc_column_kind(const char *name, char *const *confounds, size_t nconf);
+
+/*
+ * Where a regressor rises: the rows i (ascending) at which x[i * stride]
+ * first exceeds min + frac * (max - min) after being at or below it (row 0
+ * counts when it starts above). Writes up to max indices into out and
+ * returns how many (0 for a flat or non-finite column).
+ */
+size_t qc_rises(const double *x, size_t n, size_t stride, double frac, size_t *out, size_t max);
+
+/*
+ * The anatomical letter a voxel axis points to: axis 0..2 of the 3x4
+ * voxel-to-world affine (NIfTI world space is RAS+: x to the subject's Right,
+ * y Anterior, z Superior), sign +1 or -1 for the axis' positive or negative
+ * direction. The world component with the largest magnitude decides, so an
+ * oblique axis gets the letter it is closest to. Returns 'R','L','A','P','S'
+ * or 'I' ('?' for a zero column). *cosine (may be NULL) gets |that component|
+ * over the column's length: 1 for an axis-aligned image, lower when oblique.
+ */
+char qc_axis_letter(const double aff[3][4], int axis, int sign, double *cosine);
+
+/*
+ * The overlap check of the report, one fixed rule so a value gets the same
+ * verdict wherever it appears: flagged (1) when either half's fROI is empty
+ * (size 0 or not finite) or the halves share no voxel (Dice 0 or NaN).
+ */
+int qc_overlap_flag(double size_a, double size_b, double dice);
+/* That rule in one line, as the pages and README state it. */
+#define QC_OVERLAP_RULE "flagged when either half's fROI is empty or the two halves share no voxel " \
+	"(Dice 0): one fixed rule, so equal Dice values get equal verdicts; a low but non-zero Dice is " \
+	"common (near 0.1 for a top-10% fROI in a uniformly active region) and not flagged."
+
+/*
+ * Decimals to print numbers at a resolution of `step` (e.g. an axis step or
+ * a tenth of it): 0 for steps >= 1, else enough that the step's first
+ * significant digit shows (0.5 -> 1, 0.25 -> 2, 0.02 -> 2), at most 10.
+ */
+int qc_decimals(double step);
+
+/*
+ * Formats v with d decimals into buf (n bytes), never as "-0" / "-0.00":
+ * a value that rounds to zero prints as zero.
+ */
+void qc_format(double v, int d, char *buf, size_t n);
+
 #endif

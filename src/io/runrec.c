@@ -65,6 +65,7 @@ sr_status runrec_read(const char *path, runrec *r, sr_err *e)
 					x->run = xstrdup("");
 				x->bold = dup_str(o, "bold");
 				x->confounds = dup_str(o, "confounds");
+				x->events = dup_str(o, "events");
 				v = json_object_get(o, "tr");
 				x->tr = json_is_number(v) ? json_number_value(v) : NAN;
 				dims = json_object_get(o, "dims");
@@ -86,6 +87,7 @@ void runrec_release(runrec *r)
 		free(r->runs[i].run);
 		free(r->runs[i].bold);
 		free(r->runs[i].confounds);
+		free(r->runs[i].events);
 	}
 	free(r->runs);
 	free(r->subject);

@@ -10,6 +10,7 @@
 typedef struct runrec_run {
 	char *task, *run;        /* task and run label */
 	char *bold, *confounds;  /* paths; confounds NULL when none */
+	char *events;            /* the events file the run used; NULL when none */
 	double tr;
 	long long nt;            /* volumes (4th dim), -1 when absent */
 } runrec_run;

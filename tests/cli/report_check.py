@@ -219,16 +219,25 @@ for r, flag in zip(subt['rows'] if subt else [], subt['flags'] if subt else []):
     if not (same(num(r[2]), sa) and same(num(r[3]), sb) and abs(num(r[4]) - dice) <= 5e-4 if not math.isnan(dice) else math.isnan(num(r[4]))):
         bad.append((r, sa, sb, dice))
     recomputed.append((r, flag, sa, sb, dice))
-# the outlier rule: an empty half, or a Dice below the parcel's median over subjects
-# minus 3 robust sd (1.4826 * MAD; common practice), computed here with numpy
+# the overlap rule: one fixed rule for the whole table (an empty half, or no shared
+# voxel: Dice 0), so the same Dice gets the same verdict in every row
+verdict = {}
 for r, flag, sa, sb, dice in recomputed:
-    ds = np.array([x[4] for x in recomputed if x[0][1] == r[1] and not math.isnan(x[4])])
-    fence = np.median(ds) - 3 * 1.4826 * np.median(np.abs(ds - np.median(ds))) if len(ds) >= 3 else math.nan
-    want_flag = math.isnan(dice) or sa == 0 or sb == 0 or (not math.isnan(fence) and dice < fence)
+    want_flag = math.isnan(dice) or sa == 0 or sb == 0 or dice == 0
     if want_flag != flag or (want_flag and 'outlier' not in r[7]):
         flags_ok = False
+    verdict.setdefault(r[4], set()).add(flag and 'overlap' in r[7])
 check(not bad, 'sizes and Dice equal those recomputed from the fROI maps with nibabel (%s)' % bad[:2])
-check(flags_ok, 'outliers (an empty half, or Dice below the parcel median - 3 robust sd) are marked, and only they')
+check(flags_ok, 'overlap outliers (an empty half, or Dice 0) are marked, and only they')
+check(all(len(v) == 1 for v in verdict.values()), 'equal Dice values get equal verdicts (%s)' %
+      [k for k, v in verdict.items() if len(v) > 1][:3])
+rule = re.search(r'id="overlap-rule">(.*?)</p>', open(study, encoding='utf-8').read(), re.S)
+readme = os.path.join(os.path.dirname(os.path.abspath(__file__)), '..', '..', 'README.md')
+if rule and os.path.exists(readme):
+    words = re.sub(r'<[^>]+>', '', rule.group(1)).replace('Overlap flag:', '').strip()
+    check(words in ' '.join(open(readme).read().split()), 'README states the page\'s overlap rule word for word')
+else:
+    check(rule is not None, 'the study page states its overlap rule')
 
 # subject pages: responses table vs the subject's CSV; FD vs numpy
 for s in subs:

@@ -86,16 +86,26 @@ else
 	[ -s "$TMP/sub.png" ] && "$PY" "$HERE/shot_check.py" "$TMP/sub.png" "subject page, first fROI slices" 50 640 460 790
 fi
 
-# the real pipeline (a binary without analyze or simulate fails here, it does not skip)
+# the real pipeline on a partial run: 8 subjects simulated, 3 analyzed (the group step is incomplete);
+# a binary without analyze or simulate fails here, it does not skip
 if true; then
-	run "$SPLITROI" simulate --out "$TMP/s" --subjects 3
-	expect_status 0 "simulate a small study"
+	run "$SPLITROI" simulate --out "$TMP/s" --subjects 8 --volumes 60 --runs 2 --quiet
+	expect_status 0 "simulate a small study of 8 subjects"
 	STUDY=$(ls "$TMP"/s/*.ini 2>/dev/null | head -1)
-	run "$SPLITROI" analyze "$STUDY" --out "$TMP/res" --quiet
-	expect_status 0 "analyze the simulated study (writes the report)"
+	run "$SPLITROI" analyze "$STUDY" --out "$TMP/res" --subjects 01,02,03 --quiet
+	expect_status 0 "analyze 3 of them (writes the report)"
 	[ -s "$TMP/res/report.html" ] && ok "analyze wrote report.html" || notok "analyze wrote no report.html"
 	"$PY" "$HERE/report_check.py" "$TMP/res"
+	if [ -n "$CHR" ]; then
+		VER=$("$SPLITROI" --version | awk '{print $2}')
+		"$PY" "$HERE/report_partial.py" "$TMP/res" "$TMP/s/data" "$CHR" "$TMP" "$VER"
+	fi
+	# group --paired rewrites the report, so the paired rows show on the page
+	run "$SPLITROI" group "$TMP/res" --paired melody:scrambled --quiet
+	expect_status 0 "group --paired on the results folder"
+	grep -q "<td>paired</td>" "$TMP/res/report.html" && ok "group --paired rewrote the report (paired rows shown)" \
+		|| notok "the report does not show group --paired's rows"
 	rm -rf "$TMP/res2"
-	run "$SPLITROI" analyze "$STUDY" --out "$TMP/res2" --quiet --no-report
+	run "$SPLITROI" analyze "$STUDY" --out "$TMP/res2" --subjects 01 --quiet --no-report
 	[ ! -e "$TMP/res2/report.html" ] && ok "--no-report writes no report" || notok "--no-report still wrote report.html"
 fi

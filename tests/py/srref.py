@@ -718,8 +718,10 @@ def analyze_subject(st, sub, loc_eff, measures):
 
     def mk(p, split, druns, mtask, mruns, eff, value, nvox):
         rows.append({'subject': sub, 'parcel': pname[p], 'split': split,
-                     'define_runs': '+'.join(r['label'] for r in druns), 'measure_task': mtask,
-                     'measure_runs': '+'.join(r['label'] for r in mruns), 'effect': eff,
+                     'define_runs': druns if isinstance(druns, str) else '+'.join(r['label'] for r in druns),
+                     'measure_task': mtask,
+                     'measure_runs': mruns if isinstance(mruns, str) else '+'.join(r['label'] for r in mruns),
+                     'effect': eff,
                      'value': value, 'n_voxels': nvox})
 
     # cross-validated splits
@@ -747,7 +749,9 @@ def analyze_subject(st, sub, loc_eff, measures):
                 vs = per[(p, ename)]
                 vals = [v for v, _ in vs]
                 mv = float('nan') if any(math.isnan(v) for v in vals) else float(np.mean(vals))
-                mk(p, kind + ':mean', runs, st['loc_task'], runs, ename, mv,
+                # a :mean row names what it averages: each split's runs, splits joined by '|'
+                mk(p, kind + ':mean', '|'.join('+'.join(r['label'] for r in d) for _, d, _ in splits),
+                   st['loc_task'], '|'.join('+'.join(r['label'] for r in m) for _, _, m in splits), ename, mv,
                    float(np.mean([n for _, n in vs])))
     # measured tasks
     _, tall = fixed(runs, cname)

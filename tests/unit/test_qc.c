@@ -174,8 +174,100 @@ static void test_fence(void)
 	CHECK(x[1] == 100 && x[0] == 4, "the input is left in its order");
 }
 
+static void test_column_kind(void)
+{
+	char *conf[] = { "motion_tx", "trans_x" };
+
+	/* the old names and the new ones sort the same way */
+	CHECK(qc_column_kind("constant", conf, 2) == QC_COL_BASELINE, "constant is the baseline");
+	CHECK(qc_column_kind("baseline", conf, 2) == QC_COL_BASELINE, "baseline is the baseline");
+	CHECK(qc_column_kind("drift_3", conf, 2) == QC_COL_DRIFT, "drift_3 is a drift");
+	CHECK(qc_column_kind("cos_12", conf, 2) == QC_COL_DRIFT, "cos_12 is a drift");
+	CHECK(qc_column_kind("cos_", conf, 2) == QC_COL_CONDITION, "cos_ without a number is a condition");
+	CHECK(qc_column_kind("cos_1b", conf, 2) == QC_COL_CONDITION, "cos_1b is a condition");
+	CHECK(qc_column_kind("trans_x", conf, 2) == QC_COL_CONFOUND, "a listed confound");
+	CHECK(qc_column_kind("melody", conf, 2) == QC_COL_CONDITION, "anything else is a condition");
+	CHECK(qc_column_kind("motion_tx", NULL, 0) == QC_COL_CONDITION, "no confound list: a condition");
+}
+
+static void test_rises(void)
+{
+	/* a block regressor: 0 0 .5 1 1 .4 0 0 1 1 -> rises above 0.1 at rows 2 and 8 */
+	double x[] = { 0, 0, .5, 1, 1, .4, 0, 0, 1, 1 }, flat[] = { 1, 1, 1 };
+	double two[] = { 9, 1, 9, 1 };   /* stride 2: 9 9 then 1 1; only x[0] x[2] read */
+	size_t o[8], n;
+
+	n = qc_rises(x, 10, 1, 0.1, o, 8);
+	CHECK(n == 2 && o[0] == 2 && o[1] == 8, "rises at rows 2 and 8 (got %zu: %zu %zu)", n, o[0], n > 1 ? o[1] : 0);
+	CHECK(qc_rises(x, 10, 1, 0.1, o, 1) == 1, "at most max rises");
+	CHECK(qc_rises(flat, 3, 1, 0.1, o, 8) == 0, "a flat column has no rises");
+	CHECK(qc_rises(two, 2, 2, 0.1, o, 8) == 0, "stride skips the other column (flat)");
+	x[0] = 1;
+	n = qc_rises(x, 10, 1, 0.1, o, 8);
+	CHECK(n == 3 && o[0] == 0, "a column starting high rises at row 0");
+}
+
+static void test_axis_letters(void)
+{
+	/* facts of the trade (NIfTI-1 header documentation): world space is RAS+, so a
+	   diagonal affine with positive steps has i to the Right, j Anterior, k Superior */
+	double ras[3][4] = { { 3, 0, 0, -30 }, { 0, 3, 0, -40 }, { 0, 0, 3, -20 } };
+	/* the LPS storage common in DICOM-derived files: i to the Left, j Posterior */
+	double lps[3][4] = { { -2, 0, 0, 90 }, { 0, -2, 0, 120 }, { 0, 0, 2, -70 } };
+	/* oblique: the RAS grid turned 30 degrees about z; and a coronal stack (k along -y) */
+	double c = cos(30 * M_PI / 180), s = sin(30 * M_PI / 180);
+	double obl[3][4] = { { 3 * c, -3 * s, 0, 0 }, { 3 * s, 3 * c, 0, 0 }, { 0, 0, 3, 0 } };
+	double cor[3][4] = { { 1, 0, 0, 0 }, { 0, 0, -1, 0 }, { 0, 1, 0, 0 } };
+	double zero[3][4] = { { 0 } };
+	double cs;
+
+	CHECK(qc_axis_letter(ras, 0, 1, &cs) == 'R' && qc_axis_letter(ras, 0, -1, NULL) == 'L' && cs == 1,
+	      "RAS: +i is R, -i is L, cosine 1");
+	CHECK(qc_axis_letter(ras, 1, 1, NULL) == 'A' && qc_axis_letter(ras, 1, -1, NULL) == 'P', "RAS: +j A, -j P");
+	CHECK(qc_axis_letter(ras, 2, 1, NULL) == 'S' && qc_axis_letter(ras, 2, -1, NULL) == 'I', "RAS: +k S, -k I");
+	CHECK(qc_axis_letter(lps, 0, 1, NULL) == 'L' && qc_axis_letter(lps, 0, -1, NULL) == 'R', "LPS: +i is L");
+	CHECK(qc_axis_letter(lps, 1, 1, NULL) == 'P' && qc_axis_letter(lps, 1, -1, NULL) == 'A', "LPS: +j is P");
+	CHECK(qc_axis_letter(obl, 0, 1, &cs) == 'R' && fabs(cs - c) < 1e-12, "oblique 30 deg: +i still R, cosine cos 30 (%g)", cs);
+	CHECK(qc_axis_letter(obl, 1, 1, NULL) == 'A' && qc_axis_letter(obl, 1, -1, NULL) == 'P', "oblique: +j A");
+	CHECK(qc_axis_letter(cor, 1, 1, NULL) == 'S' && qc_axis_letter(cor, 2, 1, NULL) == 'P', "coronal stack: +j S, +k P");
+	CHECK(qc_axis_letter(zero, 0, 1, NULL) == '?' && qc_axis_letter(ras, 3, 1, NULL) == '?', "zero column or bad axis: ?");
+}
+
+static void test_overlap_flag(void)
+{
+	CHECK(qc_overlap_flag(10, 10, 0.05) == 0 && qc_overlap_flag(30, 24, 0.05) == 0,
+	      "Dice 0.05 gets one verdict whatever the sizes");
+	CHECK(qc_overlap_flag(10, 10, 0) == 1, "no shared voxel is flagged");
+	CHECK(qc_overlap_flag(0, 10, NAN) == 1 && qc_overlap_flag(10, 0, 0) == 1, "an empty half is flagged");
+	CHECK(qc_overlap_flag(NAN, 10, 0.5) == 1, "an unknown size is flagged");
+}
+
+static void test_format(void)
+{
+	char buf[32];
+
+	CHECK(qc_decimals(1) == 0 && qc_decimals(20) == 0, "steps >= 1: no decimals");
+	CHECK(qc_decimals(0.5) == 1 && qc_decimals(0.2) == 1 && qc_decimals(0.1) == 1, "0.5 0.2 0.1: one decimal");
+	CHECK(qc_decimals(0.25) == 2 && qc_decimals(0.02) == 2, "0.25 and 0.02: two decimals (got %d %d)",
+	      qc_decimals(0.25), qc_decimals(0.02));
+	CHECK(qc_decimals(0.05 / 10) == 3, "a tenth of 0.05: three decimals (got %d)", qc_decimals(0.005));
+	qc_format(-5.26e-05, 2, buf, sizeof buf);
+	CHECK(strcmp(buf, "0.00") == 0, "-5.26e-05 at two decimals is 0.00, not -0.00 or 5e-05 (got %s)", buf);
+	qc_format(-0.0349, 2, buf, sizeof buf);
+	CHECK(strcmp(buf, "-0.03") == 0, "-0.0349 at two decimals (got %s)", buf);
+	qc_format(1.5e-17, 1, buf, sizeof buf);
+	CHECK(strcmp(buf, "0.0") == 0, "a tick of 1.5e-17 prints 0.0 (got %s)", buf);
+	qc_format(2.046, 0, buf, sizeof buf);
+	CHECK(strcmp(buf, "2") == 0, "no decimals (got %s)", buf);
+}
+
 int main(void)
 {
+	test_column_kind();
+	test_rises();
+	test_axis_letters();
+	test_overlap_flag();
+	test_format();
 	test_fence();
 	test_fd();
 	test_dice();
