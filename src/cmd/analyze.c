@@ -17,6 +17,7 @@
 #include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
+#include "leftout.h"
 #include "progress.h"
 #include "report.h"
 #include "subject.h"
@@ -683,6 +684,22 @@ int cmd_analyze(int argc, char **argv)
 		nfail++;
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);
+		{
+			const char **names = xcalloc(ntodo ? ntodo : 1, sizeof *names);
+			const leftout_run **lr = xcalloc(ntodo ? ntodo : 1, sizeof *lr);
+			size_t *nl = xcalloc(ntodo ? ntodo : 1, sizeof *nl), k = 0;
+
+			for (i = 0; i < ntodo; i++)
+				if (ran[i]) {
+					names[k] = todo[i];
+					lr[k] = w.res[i].leftout;
+					nl[k++] = w.res[i].nleftout;
+				}
+			leftout_print(names, lr, nl, k);
+			free(names);
+			free(lr);
+			free(nl);
+		}
 		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",
 		       ncomplete, nsub, ntodo - (size_t)nsubfail, nsubfail, prog.warnings);
 		printf("tables: %s/responses.csv (all subjects), %s/sub-<label>/responses.csv\n", st.out,

@@ -19,6 +19,7 @@
 #include "../io/jdoc.h"
 #include "../io/table.h"
 #include "../version.h"
+#include "leftout.h"
 #include "runfit.h"
 
 const char *const subject_columns[] = {
@@ -216,6 +217,7 @@ void subject_result_release(subject_result *r)
 		free(r->rows[i].effect);
 	}
 	free(r->rows);
+	free(r->leftout);
 	memset(r, 0, sizeof *r);
 }
 
@@ -631,6 +633,7 @@ static jdoc *inputs_record(const task_fit *t)
 		jdoc_set_str(o, "run", t->runs[r].label);
 		jdoc_set_int(o, "rank", (long long)in->nt - t->res[r].out.df);
 		jdoc_set_int(o, "df", t->res[r].out.df);
+		jdoc_set(o, "voxels", leftout_record(&t->res[r].out));
 		jdoc_push(a, o);
 	}
 	return a;
@@ -883,6 +886,21 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		goto out;
 	}
 
+	{
+		const glm_out **outs = xcalloc(nruns_all ? nruns_all : 1, sizeof *outs);
+		size_t n = 0, r;
+
+		res->leftout = xcalloc(nruns_all ? nruns_all : 1, sizeof *res->leftout);
+		for (i = 0; i < ntasks; i++)
+			for (r = 0; r < tasks[i].nruns; r++) {
+				leftout_from_fit(&res->leftout[n], tasks[i].task, tasks[i].runs[r].label,
+						 &tasks[i].res[r].out);
+				outs[n++] = &tasks[i].res[r].out;
+			}
+		res->nleftout = n;
+		leftout_warn_parcels(label, labels, nvox, ps->n, ps->index, ps->name, outs, n, e);
+		free(outs);
+	}
 	/* the splits of the localizer runs (METHODS.md section 6) */
 	{
 		int nl = (int)tasks[0].nruns;

@@ -33,6 +33,8 @@ typedef struct subject_result {
 	size_t nrows, cap;
 	int nloc_runs;
 	double seconds;
+	struct leftout_run *leftout;   /* per run fitted: voxels each rule left out (leftout.h) */
+	size_t nleftout;
 } subject_result;
 
 /* Progress callback: stage text such as "fitting 3 runs". */
