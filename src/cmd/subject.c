@@ -820,6 +820,13 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	rc = check_grids(tasks, ntasks, st->mask, ctx->mask_grid, e);
 	if (rc)
 		goto out;
+	/* the parcels too, before any run is fitted (headers only) */
+	if (!st->resample_parcels && !nii_same_grid(&tasks[0].grid[0], &ps->grid, 1e-3, buf, sizeof buf)) {
+		rc = sr_fail(e, SR_EDIM,
+			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
+			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
+		goto out;
+	}
 	/* fit every run of every task once, in parallel */
 	specs = xcalloc(nruns_all, sizeof *specs);
 	results = xcalloc(nruns_all, sizeof *results);
