@@ -17,6 +17,7 @@
 #include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
+#include "groupunit.h"
 #include "leftout.h"
 #include "progress.h"
 #include "report.h"
@@ -286,82 +287,6 @@ int analyze_subject_complete(const study *st, const char *label)
 	return done >= newest_input(st, label);
 }
 
-/* ---- the combined table ---- */
-
-sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *ncomplete,
-			  sr_err *e)
-{
-	afile a;
-	size_t s;
-	sr_status rc;
-	char path[4096];
-	int header_done = 0;
-
-	*ncomplete = 0;
-	snprintf(path, sizeof path, "%s/responses.csv", st->out);
-	rc = afile_open(&a, path, e);
-	if (rc)
-		return rc;
-	for (s = 0; s < nsub; s++) {
-		FILE *f;
-		char line[8192];
-		int first = 1;
-
-		if (!analyze_subject_complete(st, subs[s]))
-			continue;
-		snprintf(path, sizeof path, "%s/sub-%s/responses.csv", st->out, subs[s]);
-		f = fopen(path, "r");
-		if (!f)
-			continue;
-		while (fgets(line, sizeof line, f)) {
-			if (first && header_done) {
-				first = 0;
-				continue;
-			}
-			first = 0;
-			header_done = 1;
-			fputs(line, a.f);
-		}
-		if (ferror(f)) {
-			fclose(f);
-			afile_abort(&a);
-			return sr_fail(e, SR_EIO, "%s: read error", path);
-		}
-		fclose(f);
-		(*ncomplete)++;
-	}
-	if (!header_done) {
-		size_t i;
-
-		for (i = 0; i < subject_ncolumns; i++)
-			fprintf(a.f, "%s%s", i ? "," : "", subject_columns[i]);
-		fputc('\n', a.f);
-	}
-	return afile_commit(&a, e);
-}
-
-/* The combined table exists and is newer than every subject's completion record. */
-static int combined_up_to_date(const study *st, char **subs, size_t nsub)
-{
-	char path[4096];
-	double combined;
-	size_t s;
-
-	snprintf(path, sizeof path, "%s/responses.csv", st->out);
-	combined = mtime_of(path);
-	if (combined < 0)
-		return 0;
-	snprintf(path, sizeof path, "%s/group.csv", st->out);
-	if (mtime_of(path) < combined)
-		return 0;
-	for (s = 0; s < nsub; s++) {
-		snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, subs[s]);
-		if (mtime_of(path) > combined)
-			return 0;
-	}
-	return 1;
-}
-
 /* ---- running subjects, possibly several at a time ---- */
 
 typedef struct work {
@@ -470,10 +395,12 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 	int rc = 0;
 
 	sr_err_init(&e, NULL, NULL);
-	if (afile_mkdirs(st->out, &e) || analyze_combine(st, subs, nsub, &ncomplete, &e)) {
+	if (afile_mkdirs(st->out, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		return 1;
 	}
+	if (groupunit_write(st, subs, nsub, group, quiet, &ncomplete))
+		rc = 1;
 	if (ncomplete < nsub) {
 		fprintf(stderr, "splitroi analyze: %zu of %zu subjects have no complete, up-to-date outputs:",
 			nsub - ncomplete, nsub);
@@ -484,8 +411,6 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 			}
 		fprintf(stderr, "%s\n", nsub - ncomplete > nmiss ? " ..." : "");
 	}
-	if (group && analyze_group_step(st->out, subs, nsub, quiet))
-		rc = 1;
 	if (!quiet)
 		printf("%zu of %zu subjects complete; tables: %s/responses.csv%s\n", ncomplete, nsub,
 		       st->out, group ? ", group tables" : "");
@@ -666,19 +591,13 @@ int cmd_analyze(int argc, char **argv)
 	}
 	/* the summary counts subjects; a failed table or report step only sets the exit status */
 	nsubfail = nfail;
-	if (ntodo == 0 && combined_up_to_date(&st, subs, nsub)) {
+	if (ntodo == 0 && groupunit_current(&st, subs, nsub, !val[O_NOGROUP])) {
 		if (!quiet)
 			fprintf(stderr, "splitroi analyze: every subject is up to date; tables left as they are\n");
 		for (i = 0; i < nsub; i++)
 			ncomplete += (size_t)analyze_subject_complete(&st, subs[i]);
-	} else {
-		if (analyze_combine(&st, subs, nsub, &ncomplete, &e)) {
-			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-			nfail++;
-		}
-		if (!val[O_NOGROUP])
-			if (analyze_group_step(st.out, subs, nsub, quiet))
-				nfail++;
+	} else if (groupunit_write(&st, subs, nsub, !val[O_NOGROUP], quiet, &ncomplete)) {
+		nfail++;
 	}
 	if (!val[O_NOREPORT] && report_write(st.out, quiet))
 		nfail++;
