@@ -22,6 +22,7 @@
 #include "progress.h"
 #include "report.h"
 #include "subject.h"
+#include "subunit.h"
 
 static const cmdline_opt opts[] = {
 	{ "out", "DIR", "write results under DIR instead of the study's 'out'" },
@@ -313,7 +314,7 @@ static void *worker(void *arg)
 		if (i >= w->n)
 			break;
 		sr_err_init(&e, progress_warn, w->prog);
-		if (subject_analyze(w->ctx, w->labels[i], &w->res[i], &e)) {
+		if (subunit_analyze(w->ctx, w->labels[i], &w->res[i], &e)) {
 			progress_clear(w->prog);
 			pthread_mutex_lock(&w->prog->lock);
 			fprintf(stderr, "splitroi analyze: sub-%s failed: %s\n", w->labels[i], e.msg);

@@ -1,9 +1,7 @@
 /* groupunit.c - the combined and group tables as one unit: staged, swapped in, with a completion record. */
-#define _XOPEN_SOURCE 700   /* nftw */
 #include "groupunit.h"
 
 #include <errno.h>
-#include <ftw.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -16,6 +14,7 @@
 #include "../io/jdoc.h"
 #include "analyze.h"
 #include "subject.h"
+#include "subunit.h"
 
 /* Every table of the unit, in the order they are renamed into place. */
 static const char *const tables[] = {
@@ -23,20 +22,6 @@ static const char *const tables[] = {
 	"responses.csv",
 };
 enum { NTABLES = sizeof tables / sizeof tables[0], NGROUP_TABLES = NTABLES - 1 };
-
-static int rm_entry(const char *p, const struct stat *sb, int flag, struct FTW *ftw)
-{
-	(void)sb;
-	(void)flag;
-	(void)ftw;
-	return remove(p) != 0 && errno != ENOENT;
-}
-
-/* rm -r of a folder of our own making (never follows links). */
-static void remove_tree(const char *dir)
-{
-	nftw(dir, rm_entry, 16, FTW_DEPTH | FTW_PHYS);
-}
 
 static int lookup(char **keys, char **vals, size_t n, const char *k, const char **v)
 {
@@ -206,7 +191,7 @@ int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, 
 		return 1;
 	}
 	snprintf(stage, sizeof stage, "%s/.tables.tmp.%ld", st->out, (long)getpid());
-	remove_tree(stage);
+	subunit_remove_tree(stage);
 	if (mkdir(stage, 0777) != 0) {
 		fprintf(stderr, "splitroi analyze: %s: cannot create the staging folder: %s\n", stage,
 			strerror(errno));
@@ -275,7 +260,7 @@ out:
 	jdoc_free(js);
 	jdoc_free(jt);
 	jdoc_free(rec);
-	remove_tree(stage);
+	subunit_remove_tree(stage);
 	free(done);
 	return rc;
 }

@@ -776,7 +776,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	clock_gettime(CLOCK_REALTIME, &started);
 	if (strlen(st->out) + strlen(label) + 8 > sizeof dir)
 		return sr_fail(e, SR_EINVAL, "%s: the output folder name is too long", st->out);
-	snprintf(dir, sizeof dir, "%s/sub-%s", st->out, label);
+	if (ctx->dir)
+		snprintf(dir, sizeof dir, "%s", ctx->dir);
+	else
+		snprintf(dir, sizeof dir, "%s/sub-%s", st->out, label);
 	/* the localizer's effect list: the selection contrast first, then the effects */
 	loc_effects = xcalloc(st->nloc_effects + 1, sizeof *loc_effects);
 	loc_effects[0] = st->contrast;

@@ -48,6 +48,7 @@ typedef struct subject_ctx {
 	int nthreads;                  /* threads for fitting this subject's runs */
 	subject_progress_fn progress;
 	void *progress_ctx;
+	const char *dir;               /* write here instead of OUT/sub-<label> (a staging folder), or NULL */
 } subject_ctx;
 
 /*

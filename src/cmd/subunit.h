@@ -1,0 +1,21 @@
+/* subunit.h - one subject's outputs as a unit: staged in a folder of their own, then swapped in. */
+#ifndef SR_SUBUNIT_H
+#define SR_SUBUNIT_H
+
+#include "../core/err.h"
+#include "subject.h"
+
+/*
+ * subject_analyze into a staging folder OUT/.sub-<label>.tmp.PID, then swaps
+ * it with OUT/sub-<label> (one atomic exchange where the file system has it,
+ * else two renames) and removes the earlier outputs: until the new outputs
+ * are complete the earlier complete ones stay in place, and a failed redo
+ * leaves them as they were. The caller holds the subject's lock (outlock.h).
+ */
+sr_status subunit_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
+			  sr_err *e);
+
+/* rm -r of a folder of splitroi's own making (never follows links); a missing folder is fine. */
+void subunit_remove_tree(const char *dir);
+
+#endif
