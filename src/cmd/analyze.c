@@ -34,9 +34,10 @@ static const cmdline_opt opts[] = {
 	{ "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
 	{ "collect", NULL, "fit nothing: rebuild OUT/responses.csv from the complete subjects, then the group step" },
 	{ "no-report", NULL, "do not write OUT/report.html and the subject pages" },
+	{ "no-wait", NULL, "stop instead of waiting when another process holds a subject's or the group step's lock" },
 	{ NULL, NULL, NULL },
 };
-enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT };
+enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT, O_NOWAIT };
 
 static const cmdline_spec spec = {
 	"analyze", "STUDY.ini [options]",
@@ -297,6 +298,7 @@ typedef struct work {
 	int *status;           /* per subject: 0 ok, 1 failed */
 	subject_result *res;
 	progress *prog;
+	int force, wait;
 	pthread_mutex_t lock;
 } work;
 
@@ -313,8 +315,10 @@ static void *worker(void *arg)
 		pthread_mutex_unlock(&w->lock);
 		if (i >= w->n)
 			break;
+		int skipped;
+
 		sr_err_init(&e, progress_warn, w->prog);
-		if (subunit_analyze(w->ctx, w->labels[i], &w->res[i], &e)) {
+		if (subunit_run(w->ctx, w->labels[i], w->force, w->wait, &w->res[i], &skipped, &e)) {
 			progress_clear(w->prog);
 			pthread_mutex_lock(&w->prog->lock);
 			fprintf(stderr, "splitroi analyze: sub-%s failed: %s\n", w->labels[i], e.msg);
@@ -389,7 +393,8 @@ static void print_summary(const study *st, const subject_result *res, const int 
  * incomplete; neither makes this fail, so one failed subject cannot hold back
  * the table of the others.
  */
-static int collect(const study *st, char **subs, size_t nsub, int group, int quiet)
+static int collect(const study *st, char **subs, size_t nsub, int group, int quiet, int wait,
+		   int no_report)
 {
 	size_t i, ncomplete = 0, nmiss = 0;
 	sr_err e;
@@ -400,7 +405,7 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		return 1;
 	}
-	if (groupunit_write(st, subs, nsub, group, quiet, &ncomplete))
+	if (groupunit_step(st, subs, nsub, group, 1, wait, no_report, quiet, &ncomplete))
 		rc = 1;
 	if (ncomplete < nsub) {
 		fprintf(stderr, "splitroi analyze: %zu of %zu subjects have no complete, up-to-date outputs:",
@@ -420,7 +425,7 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 
 int cmd_analyze(int argc, char **argv)
 {
-	const char *val[10], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	const char *val[12], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	int npos, rc, quiet, nfail = 0, nsubfail;
 	long jobs = 1, threads = 0;
 	study st;
@@ -488,9 +493,7 @@ int cmd_analyze(int argc, char **argv)
 	if (check_all_effects(&st, subs, nsub))
 		goto out_subs;
 	if (val[O_COLLECT]) {
-		rc = collect(&st, subs, nsub, !val[O_NOGROUP], quiet);
-		if (!val[O_NOREPORT] && report_write(st.out, quiet))
-			rc = rc ? rc : 1;
+		rc = collect(&st, subs, nsub, !val[O_NOGROUP], quiet, !val[O_NOWAIT], val[O_NOREPORT] != NULL);
 		goto out_subs;
 	}
 	if (val[O_SUBJECTS]) {
@@ -568,6 +571,8 @@ int cmd_analyze(int argc, char **argv)
 	w.status = xcalloc(ntodo ? ntodo : 1, sizeof *w.status);
 	w.res = xcalloc(ntodo ? ntodo : 1, sizeof *w.res);
 	w.prog = &prog;
+	w.force = val[O_FORCE] != NULL;
+	w.wait = !val[O_NOWAIT];
 	pthread_mutex_init(&w.lock, NULL);
 	if (ntodo) {
 		long nj = jobs < (long)ntodo ? jobs : (long)ntodo, j;
@@ -592,15 +597,8 @@ int cmd_analyze(int argc, char **argv)
 	}
 	/* the summary counts subjects; a failed table or report step only sets the exit status */
 	nsubfail = nfail;
-	if (ntodo == 0 && groupunit_current(&st, subs, nsub, !val[O_NOGROUP])) {
-		if (!quiet)
-			fprintf(stderr, "splitroi analyze: every subject is up to date; tables left as they are\n");
-		for (i = 0; i < nsub; i++)
-			ncomplete += (size_t)analyze_subject_complete(&st, subs[i]);
-	} else if (groupunit_write(&st, subs, nsub, !val[O_NOGROUP], quiet, &ncomplete)) {
-		nfail++;
-	}
-	if (!val[O_NOREPORT] && report_write(st.out, quiet))
+	if (groupunit_step(&st, subs, nsub, !val[O_NOGROUP], ntodo > 0, !val[O_NOWAIT],
+			   val[O_NOREPORT] != NULL, quiet, &ncomplete))
 		nfail++;
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);

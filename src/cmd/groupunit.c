@@ -1,6 +1,7 @@
 /* groupunit.c - the combined and group tables as one unit: staged, swapped in, with a completion record. */
 #include "groupunit.h"
 
+#include <dirent.h>
 #include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -13,6 +14,8 @@
 #include "../io/fprint.h"
 #include "../io/jdoc.h"
 #include "analyze.h"
+#include "outlock.h"
+#include "report.h"
 #include "subject.h"
 #include "subunit.h"
 
@@ -262,5 +265,49 @@ out:
 	jdoc_free(rec);
 	subunit_remove_tree(stage);
 	free(done);
+	return rc;
+}
+
+int groupunit_step(const study *st, char *const *subs, size_t nsub, int group, int redo,
+		   int wait, int no_report, int quiet, size_t *ncomplete)
+{
+	outlock l;
+	sr_err e;
+	int rc = 0;
+	size_t i;
+	DIR *d;
+	struct dirent *de;
+
+	sr_err_init(&e, NULL, NULL);
+	*ncomplete = 0;
+	if (outlock_take(&l, st->out, "group", wait, "splitroi analyze", &e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+		return 1;
+	}
+	/* only this lock's holder makes temporary files in OUT (staging folders of subjects
+	   aside) and in the subject folders (the report pages) */
+	outlock_clean_stale(st->out, NULL, ".sub-");
+	if ((d = opendir(st->out)) != NULL) {
+		while ((de = readdir(d)) != NULL) {
+			char p[4096];
+
+			if (strncmp(de->d_name, "sub-", 4) != 0)
+				continue;
+			snprintf(p, sizeof p, "%s/%s", st->out, de->d_name);
+			outlock_clean_stale(p, NULL, NULL);
+		}
+		closedir(d);
+	}
+	if (!redo && groupunit_current(st, subs, nsub, group)) {
+		if (!quiet)
+			fprintf(stderr, "splitroi analyze: every subject is up to date; tables left as they are\n");
+		for (i = 0; i < nsub; i++)
+			*ncomplete += (size_t)analyze_subject_complete(st, subs[i]);
+	} else if (groupunit_write(st, subs, nsub, group, quiet, ncomplete)) {
+		rc = 1;
+	}
+	if (!no_report && report_write(st->out, quiet))
+		rc = 1;
+	outlock_release(&l);
 	return rc;
 }

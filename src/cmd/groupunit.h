@@ -31,4 +31,14 @@ int groupunit_current(const study *st, char *const *subs, size_t nsub, int group
 int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, int quiet,
 		    size_t *ncomplete);
 
+/*
+ * analyze's last steps under the group lock (waiting when wait): removes
+ * temporary files dead processes left in OUT and OUT/sub-*, then, when redo
+ * or the unit is not current, groupunit_write (else says the tables are left
+ * as they are, unless quiet), then the report unless no_report. Returns 0, or
+ * 1 when a step failed (said on stderr).
+ */
+int groupunit_step(const study *st, char *const *subs, size_t nsub, int group, int redo,
+		   int wait, int no_report, int quiet, size_t *ncomplete);
+
 #endif

@@ -10,6 +10,9 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
+#include "analyze.h"
+#include "outlock.h"
+
 static int rm_entry(const char *p, const struct stat *sb, int flag, struct FTW *ftw)
 {
 	(void)sb;
@@ -77,5 +80,30 @@ sr_status subunit_analyze(const subject_ctx *ctx, const char *label, subject_res
 	if (!rc)
 		rc = swap_in(stage, final, label, e);
 	subunit_remove_tree(stage);
+	return rc;
+}
+
+sr_status subunit_run(const subject_ctx *ctx, const char *label, int force, int wait,
+		      subject_result *res, int *skipped, sr_err *e)
+{
+	char name[512], prefix[512];
+	outlock l;
+	sr_status rc;
+
+	*skipped = 0;
+	memset(res, 0, sizeof *res);
+	snprintf(name, sizeof name, "sub-%s", label);
+	rc = outlock_take(&l, ctx->st->out, name, wait, "splitroi analyze", e);
+	if (rc)
+		return rc;
+	snprintf(prefix, sizeof prefix, ".sub-%s.tmp.", label);
+	outlock_clean_stale(ctx->st->out, prefix, NULL);
+	if (!force && analyze_subject_complete(ctx->st, label)) {
+		*skipped = 1;
+		outlock_release(&l);
+		return SR_OK;
+	}
+	rc = subunit_analyze(ctx, label, res, e);
+	outlock_release(&l);
 	return rc;
 }

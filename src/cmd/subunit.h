@@ -15,6 +15,15 @@
 sr_status subunit_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
 			  sr_err *e);
 
+/*
+ * The whole job of one subject for analyze: takes the subject's lock
+ * (waiting when wait, saying who holds it), removes staging folders that
+ * dead processes left, and, unless force, skips a subject that another
+ * process completed meanwhile (*skipped = 1); else subunit_analyze.
+ */
+sr_status subunit_run(const subject_ctx *ctx, const char *label, int force, int wait,
+		      subject_result *res, int *skipped, sr_err *e);
+
 /* rm -r of a folder of splitroi's own making (never follows links); a missing folder is fine. */
 void subunit_remove_tree(const char *dir);
 
