@@ -18,6 +18,7 @@
 #include "cmd.h"
 #include "cmdline.h"
 #include "groupunit.h"
+#include "outcheck.h"
 #include "leftout.h"
 #include "progress.h"
 #include "report.h"
@@ -492,6 +493,10 @@ int cmd_analyze(int argc, char **argv)
 	}
 	if (check_all_effects(&st, subs, nsub))
 		goto out_subs;
+	if (outcheck_safe(&st, subs, nsub, &e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+		goto out_subs;
+	}
 	if (val[O_COLLECT]) {
 		rc = collect(&st, subs, nsub, !val[O_NOGROUP], quiet, !val[O_NOWAIT], val[O_NOREPORT] != NULL);
 		goto out_subs;
