@@ -17,6 +17,7 @@
 #include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
+#include "fresh.h"
 #include "groupunit.h"
 #include "outcheck.h"
 #include "leftout.h"
@@ -223,71 +224,16 @@ static int check_all_effects(const study *st, char **subs, size_t nsub)
 
 /* ---- skipping complete subjects ---- */
 
-static double mtime_of(const char *path)
-{
-	struct stat sb;
-
-	if (!path || stat(path, &sb) != 0)
-		return -1;
-	return (double)sb.st_mtim.tv_sec + 1e-9 * (double)sb.st_mtim.tv_nsec;
-}
-
-static double newest_input(const study *st, const char *label)
-{
-	double t = mtime_of(st->path), x;
-	size_t k, ntasks = 1 + st->nmeasures;
-
-	{
-		char *img = study_subject_path(st->parcels, label);
-		char *nm = study_subject_path(st->parcel_names, label);
-
-		if ((x = mtime_of(img)) > t)
-			t = x;
-		if ((x = mtime_of(nm)) > t)
-			t = x;
-		free(img);
-		free(nm);
-	}
-	if ((x = mtime_of(st->mask)) > t)
-		t = x;
-	for (k = 0; k < ntasks; k++) {
-		const char *task = k ? st->measures[k - 1].task : st->loc_task;
-		bids_run *runs;
-		size_t nr, r;
-
-		if (bids_runs(st->bids, label, task, &runs, &nr, NULL))
-			return 1e300;
-		for (r = 0; r < nr; r++) {
-			char *conf = st->nconfounds ? bids_confounds_path(&runs[r], st->confounds_suffix) : NULL;
-
-			if ((x = mtime_of(runs[r].bold)) > t)
-				t = x;
-			if ((x = mtime_of(runs[r].events)) > t)
-				t = x;
-			if ((x = mtime_of(runs[r].sidecar)) > t)
-				t = x;
-			if ((x = mtime_of(conf)) > t)
-				t = x;
-			free(conf);
-		}
-		bids_runs_release(runs, nr);
-	}
-	return t;
-}
-
 int analyze_subject_complete(const study *st, const char *label)
 {
 	char path[4096];
-	double done;
+	struct stat sb;
 
-	snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, label);
-	done = mtime_of(path);
-	if (done < 0)
-		return 0;
 	snprintf(path, sizeof path, "%s/sub-%s/responses.csv", st->out, label);
-	if (mtime_of(path) < 0)
+	if (stat(path, &sb) != 0)
 		return 0;
-	return done >= newest_input(st, label);
+	snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, label);
+	return fresh_matches(st, label, path);
 }
 
 /* ---- running subjects, possibly several at a time ---- */

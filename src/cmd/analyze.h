@@ -13,7 +13,7 @@
  */
 sr_status analyze_study_subjects(const study *st, char ***out, size_t *n, sr_err *e);
 
-/* 1 when OUT/sub-<label>/ holds complete outputs newer than every input and the study file. */
+/* 1 when OUT/sub-<label>/ holds complete outputs made from inputs with the content they have now (fresh.h). */
 int analyze_subject_complete(const study *st, const char *label);
 
 /* Runs the group step on OUT for the study's subjects (those without a table are listed missing); group.c; 0 = ok. */

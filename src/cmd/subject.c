@@ -1091,6 +1091,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	jdoc_set_str(rec, "libraries", buf);
 	jdoc_set_str(rec, "study_file", st->path);
 	jdoc_set_str(rec, "study_text", st->text);
+	if (ctx->fingerprints)
+		jdoc_set(rec, "fingerprints", jdoc_copy(ctx->fingerprints));
 	{
 		jdoc *in = jdoc_object();
 

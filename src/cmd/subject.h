@@ -49,6 +49,7 @@ typedef struct subject_ctx {
 	subject_progress_fn progress;
 	void *progress_ctx;
 	const char *dir;               /* write here instead of OUT/sub-<label> (a staging folder), or NULL */
+	const struct jdoc *fingerprints; /* inputs' fingerprints taken before the analysis (fresh.h), copied into run.json, or NULL */
 } subject_ctx;
 
 /*

@@ -11,6 +11,7 @@
 #include <unistd.h>
 
 #include "analyze.h"
+#include "fresh.h"
 #include "outlock.h"
 
 static int rm_entry(const char *p, const struct stat *sb, int flag, struct FTW *ftw)
@@ -76,7 +77,10 @@ sr_status subunit_analyze(const subject_ctx *ctx, const char *label, subject_res
 	if (mkdir(stage, 0777) != 0)
 		return sr_fail(e, SR_EIO, "%s: cannot create the staging folder: %s", stage, strerror(errno));
 	c.dir = stage;
+	/* fingerprints before reading: an input edited during the analysis makes the record stale */
+	c.fingerprints = fresh_record(ctx->st, label);
 	rc = subject_analyze(&c, label, res, e);
+	jdoc_free((jdoc *)c.fingerprints);
 	if (!rc)
 		rc = swap_in(stage, final, label, e);
 	subunit_remove_tree(stage);

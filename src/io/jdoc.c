@@ -138,3 +138,31 @@ void jdoc_strings_free(char **keys, char **vals, size_t n)
 	free(keys);
 	free(vals);
 }
+
+int jdoc_strings_of(const jdoc *d, char ***keys, char ***vals, size_t *n)
+{
+	json_t *o = J(d), *v;
+	const char *k;
+	size_t cap;
+
+	*keys = *vals = NULL;
+	*n = 0;
+	if (!json_is_object(o))
+		return -1;
+	cap = json_object_size(o) + 1;
+	*keys = xcalloc(cap, sizeof **keys);
+	*vals = xcalloc(cap, sizeof **vals);
+	json_object_foreach(o, k, v) {
+		if (!json_is_string(v))
+			continue;
+		(*keys)[*n] = xstrdup(k);
+		(*vals)[*n] = xstrdup(json_string_value(v));
+		(*n)++;
+	}
+	return 0;
+}
+
+jdoc *jdoc_copy(const jdoc *d)
+{
+	return (jdoc *)json_deep_copy(J(d));
+}

@@ -34,6 +34,10 @@ void jdoc_free(jdoc *d);
 sr_status jdoc_read_strings(const char *path, const char *key, char ***keys, char ***vals,
 			    size_t *n, sr_err *e);
 void jdoc_strings_free(char **keys, char **vals, size_t n);
+/* The string members of object o, as jdoc_read_strings gives them; 0 on success. */
+int jdoc_strings_of(const jdoc *o, char ***keys, char ***vals, size_t *n);
+/* A deep copy of d (the caller owns it). */
+jdoc *jdoc_copy(const jdoc *d);
 /* Versions of the libraries behind the io layer, as "name version; ..." text, into buf. */
 void jdoc_library_versions(char *buf, size_t n);
 
