@@ -17,9 +17,14 @@
 #include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
+#include "fresh.h"
+#include "groupunit.h"
+#include "outcheck.h"
+#include "leftout.h"
 #include "progress.h"
 #include "report.h"
 #include "subject.h"
+#include "subunit.h"
 
 static const cmdline_opt opts[] = {
 	{ "out", "DIR", "write results under DIR instead of the study's 'out'" },
@@ -31,9 +36,10 @@ static const cmdline_opt opts[] = {
 	{ "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
 	{ "collect", NULL, "fit nothing: rebuild OUT/responses.csv from the complete subjects, then the group step" },
 	{ "no-report", NULL, "do not write OUT/report.html and the subject pages" },
+	{ "no-wait", NULL, "stop instead of waiting when another process holds a subject's or the group step's lock" },
 	{ NULL, NULL, NULL },
 };
-enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT };
+enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT, O_NOWAIT };
 
 static const cmdline_spec spec = {
 	"analyze", "STUDY.ini [options]",
@@ -218,156 +224,16 @@ static int check_all_effects(const study *st, char **subs, size_t nsub)
 
 /* ---- skipping complete subjects ---- */
 
-static double mtime_of(const char *path)
-{
-	struct stat sb;
-
-	if (!path || stat(path, &sb) != 0)
-		return -1;
-	return (double)sb.st_mtim.tv_sec + 1e-9 * (double)sb.st_mtim.tv_nsec;
-}
-
-static double newest_input(const study *st, const char *label)
-{
-	double t = mtime_of(st->path), x;
-	size_t k, ntasks = 1 + st->nmeasures;
-
-	{
-		char *img = study_subject_path(st->parcels, label);
-		char *nm = study_subject_path(st->parcel_names, label);
-
-		if ((x = mtime_of(img)) > t)
-			t = x;
-		if ((x = mtime_of(nm)) > t)
-			t = x;
-		free(img);
-		free(nm);
-	}
-	{
-		char *m = study_subject_path(st->mask, label);
-
-		if ((x = mtime_of(m)) > t)
-			t = x;
-		free(m);
-	}
-	for (k = 0; k < ntasks; k++) {
-		const char *task = k ? st->measures[k - 1].task : st->loc_task;
-		bids_run *runs;
-		size_t nr, r;
-
-		if (study_runs(st, label, task, &runs, &nr, NULL))
-			return 1e300;
-		for (r = 0; r < nr; r++) {
-			char *conf = st->nconfounds ? bids_confounds_path(&runs[r], st->confounds_suffix) : NULL;
-
-			if ((x = mtime_of(runs[r].bold)) > t)
-				t = x;
-			if ((x = mtime_of(runs[r].events)) > t)
-				t = x;
-			if ((x = mtime_of(runs[r].sidecar)) > t)
-				t = x;
-			if ((x = mtime_of(runs[r].deriv_sidecar)) > t)
-				t = x;
-			if (st->mask_auto && (x = mtime_of(runs[r].brain_mask)) > t)
-				t = x;
-			if ((x = mtime_of(conf)) > t)
-				t = x;
-			free(conf);
-		}
-		bids_runs_release(runs, nr);
-	}
-	return t;
-}
-
 int analyze_subject_complete(const study *st, const char *label)
 {
 	char path[4096];
-	double done;
+	struct stat sb;
 
-	snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, label);
-	done = mtime_of(path);
-	if (done < 0)
-		return 0;
 	snprintf(path, sizeof path, "%s/sub-%s/responses.csv", st->out, label);
-	if (mtime_of(path) < 0)
+	if (stat(path, &sb) != 0)
 		return 0;
-	return done >= newest_input(st, label);
-}
-
-/* ---- the combined table ---- */
-
-sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *ncomplete,
-			  sr_err *e)
-{
-	afile a;
-	size_t s;
-	sr_status rc;
-	char path[4096];
-	int header_done = 0;
-
-	*ncomplete = 0;
-	snprintf(path, sizeof path, "%s/responses.csv", st->out);
-	rc = afile_open(&a, path, e);
-	if (rc)
-		return rc;
-	for (s = 0; s < nsub; s++) {
-		FILE *f;
-		char line[8192];
-		int first = 1;
-
-		if (!analyze_subject_complete(st, subs[s]))
-			continue;
-		snprintf(path, sizeof path, "%s/sub-%s/responses.csv", st->out, subs[s]);
-		f = fopen(path, "r");
-		if (!f)
-			continue;
-		while (fgets(line, sizeof line, f)) {
-			if (first && header_done) {
-				first = 0;
-				continue;
-			}
-			first = 0;
-			header_done = 1;
-			fputs(line, a.f);
-		}
-		if (ferror(f)) {
-			fclose(f);
-			afile_abort(&a);
-			return sr_fail(e, SR_EIO, "%s: read error", path);
-		}
-		fclose(f);
-		(*ncomplete)++;
-	}
-	if (!header_done) {
-		size_t i;
-
-		for (i = 0; i < subject_ncolumns; i++)
-			fprintf(a.f, "%s%s", i ? "," : "", subject_columns[i]);
-		fputc('\n', a.f);
-	}
-	return afile_commit(&a, e);
-}
-
-/* The combined table exists and is newer than every subject's completion record. */
-static int combined_up_to_date(const study *st, char **subs, size_t nsub)
-{
-	char path[4096];
-	double combined;
-	size_t s;
-
-	snprintf(path, sizeof path, "%s/responses.csv", st->out);
-	combined = mtime_of(path);
-	if (combined < 0)
-		return 0;
-	snprintf(path, sizeof path, "%s/group.csv", st->out);
-	if (mtime_of(path) < combined)
-		return 0;
-	for (s = 0; s < nsub; s++) {
-		snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, subs[s]);
-		if (mtime_of(path) > combined)
-			return 0;
-	}
-	return 1;
+	snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, label);
+	return fresh_matches(st, label, path);
 }
 
 /* ---- running subjects, possibly several at a time ---- */
@@ -379,6 +245,7 @@ typedef struct work {
 	int *status;           /* per subject: 0 ok, 1 failed */
 	subject_result *res;
 	progress *prog;
+	int force, wait;
 	pthread_mutex_t lock;
 } work;
 
@@ -395,8 +262,10 @@ static void *worker(void *arg)
 		pthread_mutex_unlock(&w->lock);
 		if (i >= w->n)
 			break;
+		int skipped;
+
 		sr_err_init(&e, progress_warn, w->prog);
-		if (subject_analyze(w->ctx, w->labels[i], &w->res[i], &e)) {
+		if (subunit_run(w->ctx, w->labels[i], w->force, w->wait, &w->res[i], &skipped, &e)) {
 			progress_clear(w->prog);
 			pthread_mutex_lock(&w->prog->lock);
 			fprintf(stderr, "splitroi analyze: sub-%s failed: %s\n", w->labels[i], e.msg);
@@ -471,17 +340,20 @@ static void print_summary(const study *st, const subject_result *res, const int 
  * incomplete; neither makes this fail, so one failed subject cannot hold back
  * the table of the others.
  */
-static int collect(const study *st, char **subs, size_t nsub, int group, int quiet)
+static int collect(const study *st, char **subs, size_t nsub, int group, int quiet, int wait,
+		   int no_report)
 {
 	size_t i, ncomplete = 0, nmiss = 0;
 	sr_err e;
 	int rc = 0;
 
 	sr_err_init(&e, NULL, NULL);
-	if (afile_mkdirs(st->out, &e) || analyze_combine(st, subs, nsub, &ncomplete, &e)) {
+	if (afile_mkdirs(st->out, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		return 1;
 	}
+	if (groupunit_step(st, subs, nsub, group, 1, wait, no_report, quiet, &ncomplete))
+		rc = 1;
 	if (ncomplete < nsub) {
 		fprintf(stderr, "splitroi analyze: %zu of %zu subjects have no complete, up-to-date outputs:",
 			nsub - ncomplete, nsub);
@@ -492,8 +364,6 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 			}
 		fprintf(stderr, "%s\n", nsub - ncomplete > nmiss ? " ..." : "");
 	}
-	if (group && analyze_group_step(st->out, subs, nsub, quiet))
-		rc = 1;
 	if (!quiet)
 		printf("%zu of %zu subjects complete; tables: %s/responses.csv%s\n", ncomplete, nsub,
 		       st->out, group ? ", group tables" : "");
@@ -502,7 +372,7 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 
 int cmd_analyze(int argc, char **argv)
 {
-	const char *val[10], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	const char *val[12], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	int npos, rc, quiet, nfail = 0, nsubfail;
 	long jobs = 1, threads = 0;
 	study st;
@@ -569,10 +439,12 @@ int cmd_analyze(int argc, char **argv)
 	}
 	if (check_all_effects(&st, subs, nsub))
 		goto out_subs;
+	if (outcheck_safe(&st, subs, nsub, &e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
+		goto out_subs;
+	}
 	if (val[O_COLLECT]) {
-		rc = collect(&st, subs, nsub, !val[O_NOGROUP], quiet);
-		if (!val[O_NOREPORT] && report_write(st.out, quiet))
-			rc = rc ? rc : 1;
+		rc = collect(&st, subs, nsub, !val[O_NOGROUP], quiet, !val[O_NOWAIT], val[O_NOREPORT] != NULL);
 		goto out_subs;
 	}
 	if (val[O_SUBJECTS]) {
@@ -655,6 +527,8 @@ int cmd_analyze(int argc, char **argv)
 	w.status = xcalloc(ntodo ? ntodo : 1, sizeof *w.status);
 	w.res = xcalloc(ntodo ? ntodo : 1, sizeof *w.res);
 	w.prog = &prog;
+	w.force = val[O_FORCE] != NULL;
+	w.wait = !val[O_NOWAIT];
 	pthread_mutex_init(&w.lock, NULL);
 	if (ntodo) {
 		long nj = jobs < (long)ntodo ? jobs : (long)ntodo, j;
@@ -679,24 +553,27 @@ int cmd_analyze(int argc, char **argv)
 	}
 	/* the summary counts subjects; a failed table or report step only sets the exit status */
 	nsubfail = nfail;
-	if (ntodo == 0 && combined_up_to_date(&st, subs, nsub)) {
-		if (!quiet)
-			fprintf(stderr, "splitroi analyze: every subject is up to date; tables left as they are\n");
-		for (i = 0; i < nsub; i++)
-			ncomplete += (size_t)analyze_subject_complete(&st, subs[i]);
-	} else {
-		if (analyze_combine(&st, subs, nsub, &ncomplete, &e)) {
-			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-			nfail++;
-		}
-		if (!val[O_NOGROUP])
-			if (analyze_group_step(st.out, subs, nsub, quiet))
-				nfail++;
-	}
-	if (!val[O_NOREPORT] && report_write(st.out, quiet))
+	if (groupunit_step(&st, subs, nsub, !val[O_NOGROUP], ntodo > 0, !val[O_NOWAIT],
+			   val[O_NOREPORT] != NULL, quiet, &ncomplete))
 		nfail++;
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);
+		{
+			const char **names = xcalloc(ntodo ? ntodo : 1, sizeof *names);
+			const leftout_run **lr = xcalloc(ntodo ? ntodo : 1, sizeof *lr);
+			size_t *nl = xcalloc(ntodo ? ntodo : 1, sizeof *nl), k = 0;
+
+			for (i = 0; i < ntodo; i++)
+				if (ran[i]) {
+					names[k] = todo[i];
+					lr[k] = w.res[i].leftout;
+					nl[k++] = w.res[i].nleftout;
+				}
+			leftout_print(names, lr, nl, k);
+			free(names);
+			free(lr);
+			free(nl);
+		}
 		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",
 		       ncomplete, nsub, ntodo - (size_t)nsubfail, nsubfail, prog.warnings);
 		printf("tables: %s/responses.csv (all subjects), %s/sub-<label>/responses.csv\n", st.out,

@@ -13,12 +13,8 @@
  */
 sr_status analyze_study_subjects(const study *st, char ***out, size_t *n, sr_err *e);
 
-/* 1 when OUT/sub-<label>/ holds complete outputs newer than every input and the study file. */
+/* 1 when OUT/sub-<label>/ holds complete outputs made from inputs with the content they have now (fresh.h). */
 int analyze_subject_complete(const study *st, const char *label);
-
-/* Rewrites OUT/responses.csv from every complete subject's table, in label order. */
-sr_status analyze_combine(const study *st, char **subs, size_t nsub, size_t *ncomplete,
-			  sr_err *e);
 
 /* Runs the group step on OUT for the study's subjects (those without a table are listed missing); group.c; 0 = ok. */
 int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quiet);

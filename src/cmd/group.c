@@ -465,10 +465,11 @@ static int load_subjects(group_ctx *g)
 		}
 		if (stat(path, &st) != 0) {
 			s->status = SUBJ_MISSING;
-			size_t len = strlen(path) + 32;
+			size_t len = strlen(s->label) + 64;
 
+			/* named relative to OUT: analyze runs this step on a snapshot folder */
 			s->reason = xmalloc(len);
-			snprintf(s->reason, len, "%s: no such file", path);
+			snprintf(s->reason, len, "sub-%s/responses.csv: no such file", s->label);
 			warnf("%s", s->reason);
 		} else if (load_table(g, i, path) != 0) {
 			free(path);

@@ -481,7 +481,8 @@ int report_write(const char *out, int quiet)
 
 		for (r = 0; r < resp.nrows; r++)
 			add_unique(&sl, &ns, table_cell(&resp, r, (size_t)c.subject));
-		qsort(sl, ns, sizeof *sl, cmp_str);
+		if (ns)   /* no rows when every subject failed: qsort wants a real array */
+			qsort(sl, ns, sizeof *sl, cmp_str);
 		charts(&b, &sum, &resp, &c, 0, sl, ns, &uid);
 		sb_puts(&b, "<h2 id=\"measured\">Measured tasks</h2>\n<p class=\"note\">fROIs defined on all localizer runs, "
 			    "responses in the other task's runs (split all).</p>\n");

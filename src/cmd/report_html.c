@@ -1,6 +1,7 @@
 /* report_html.c - text buffer, escaping, base64 data URIs and the page frame of the HTML report. */
 #include <math.h>
 #include <stdarg.h>
+#include <errno.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -216,8 +217,10 @@ sr_status rh_write(const char *path, const sbuf *b, sr_err *e)
 	if (rc)
 		return rc;
 	if (fwrite(b->p, 1, b->n, a.f) != b->n) {
+		int err = errno;
+
 		afile_abort(&a);
-		return sr_fail(e, SR_EIO, "%s: write failed", path);
+		return sr_fail(e, SR_EIO, "%s: write failed: %s", path, err ? strerror(err) : "short write");
 	}
 	return afile_commit(&a, e);
 }

@@ -21,6 +21,7 @@
 #include "../io/jdoc.h"
 #include "../io/table.h"
 #include "../version.h"
+#include "leftout.h"
 #include "runfit.h"
 
 const char *const subject_columns[] = {
@@ -279,6 +280,7 @@ void subject_result_release(subject_result *r)
 		free(r->rows[i].effect);
 	}
 	free(r->rows);
+	free(r->leftout);
 	memset(r, 0, sizeof *r);
 }
 
@@ -755,6 +757,7 @@ static jdoc *inputs_record(const task_fit *t)
 				jdoc_push_str(cn, t->res[r].conf_names[k]);
 			jdoc_set(o, "confound_columns", cn);
 		}
+		jdoc_set(o, "voxels", leftout_record(&t->res[r].out));
 		jdoc_push(a, o);
 	}
 	return a;
@@ -860,7 +863,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	clock_gettime(CLOCK_REALTIME, &started);
 	if (strlen(st->out) + strlen(label) + 8 > sizeof dir)
 		return sr_fail(e, SR_EINVAL, "%s: the output folder name is too long", st->out);
-	snprintf(dir, sizeof dir, "%s/sub-%s", st->out, label);
+	if (ctx->dir)
+		snprintf(dir, sizeof dir, "%s", ctx->dir);
+	else
+		snprintf(dir, sizeof dir, "%s/sub-%s", st->out, label);
 	/* the localizer's effect list: the selection contrast first, then the effects */
 	loc_effects = xcalloc(st->nloc_effects + 1, sizeof *loc_effects);
 	loc_effects[0] = st->contrast;
@@ -910,6 +916,13 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			 mask_owned ? &mask_grid_own : ctx->mask_grid, e);
 	if (rc)
 		goto out;
+	/* the parcels too, before any run is fitted (headers only) */
+	if (!st->resample_parcels && !nii_same_grid(&tasks[0].grid[0], &ps->grid, 1e-3, buf, sizeof buf)) {
+		rc = sr_fail(e, SR_EDIM,
+			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
+			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
+		goto out;
+	}
 	/* fit every run of every task once, in parallel */
 	specs = xcalloc(nruns_all, sizeof *specs);
 	results = xcalloc(nruns_all, sizeof *results);
@@ -996,6 +1009,21 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		goto out;
 	}
 
+	{
+		const glm_out **outs = xcalloc(nruns_all ? nruns_all : 1, sizeof *outs);
+		size_t n = 0, r;
+
+		res->leftout = xcalloc(nruns_all ? nruns_all : 1, sizeof *res->leftout);
+		for (i = 0; i < ntasks; i++)
+			for (r = 0; r < tasks[i].nruns; r++) {
+				leftout_from_fit(&res->leftout[n], tasks[i].task, tasks[i].runs[r].label,
+						 &tasks[i].res[r].out);
+				outs[n++] = &tasks[i].res[r].out;
+			}
+		res->nleftout = n;
+		leftout_warn_parcels(label, labels, nvox, ps->n, ps->index, ps->name, outs, n, e);
+		free(outs);
+	}
 	/* the splits of the localizer runs (METHODS.md section 6) */
 	{
 		int nl = (int)tasks[0].nruns;
@@ -1185,6 +1213,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		jdoc_set_str(rec, "smoothing_fwhm_mm", "none");
 	/* the fit's noise model, spelled as the study key (the default applies when the key is absent) */
 	jdoc_set_str(rec, "model", st->ar1 == 2 ? "ar1-adjusted" : st->ar1 == 1 ? "ar1" : "none");
+	if (ctx->fingerprints)
+		jdoc_set(rec, "fingerprints", jdoc_copy(ctx->fingerprints));
 	{
 		jdoc *in = jdoc_object();
 

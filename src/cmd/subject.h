@@ -33,6 +33,8 @@ typedef struct subject_result {
 	size_t nrows, cap;
 	int nloc_runs;
 	double seconds;
+	struct leftout_run *leftout;   /* per run fitted: voxels each rule left out (leftout.h) */
+	size_t nleftout;
 } subject_result;
 
 /* Progress callback: stage text such as "fitting 3 runs". */
@@ -46,6 +48,8 @@ typedef struct subject_ctx {
 	int nthreads;                  /* threads for fitting this subject's runs */
 	subject_progress_fn progress;
 	void *progress_ctx;
+	const char *dir;               /* write here instead of OUT/sub-<label> (a staging folder), or NULL */
+	const struct jdoc *fingerprints; /* inputs' fingerprints taken before the analysis (fresh.h), copied into run.json, or NULL */
 } subject_ctx;
 
 /*

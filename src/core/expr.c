@@ -189,6 +189,11 @@ static int parse(const char *s, size_t off, expr *out, char *msg, size_t msglen)
 				     off + (size_t)(p - s) + 1, buf);
 				goto bad;
 			}
+			if (fabs(w) > EXPR_MAX_FACTOR) {
+				fail(msg, msglen, "position %zu: factor '%s' is beyond %g: the effect's variance would not be computable",
+				     off + (size_t)(p - s) + 1, buf, EXPR_MAX_FACTOR);
+				goto bad;
+			}
 			p = skip_space(skip_space(p + len) + 1);
 		}
 		/* the name */
@@ -224,9 +229,9 @@ static int parse(const char *s, size_t off, expr *out, char *msg, size_t msglen)
 	}
 	/* each factor is finite, but a name given twice can add up past the largest double */
 	for (size_t i = 0; i < out->nterms; i++)
-		if (!isfinite(out->terms[i].weight)) {
-			fail(msg, msglen, "the factors of '%s' add up to more than the largest number",
-			     out->terms[i].name);
+		if (!isfinite(out->terms[i].weight) || fabs(out->terms[i].weight) > EXPR_MAX_FACTOR) {
+			fail(msg, msglen, "the factors of '%s' add up to more than the largest number allowed (%g)",
+			     out->terms[i].name, EXPR_MAX_FACTOR);
 			goto bad;
 		}
 	drop_zero_terms(out);

@@ -4,6 +4,13 @@
 
 #include <stddef.h>
 
+/*
+ * The largest factor magnitude an effect may have (each factor and each
+ * condition's total): a larger one makes c' Cov c overflow or lose all
+ * precision long before it could mean anything in percent signal change.
+ */
+#define EXPR_MAX_FACTOR 1e6
+
 /* One term: weight * condition. */
 typedef struct expr_term {
 	char *name;

@@ -33,6 +33,7 @@
 #include <unistd.h>
 
 #include "mem.h"
+#include "stats.h"
 
 #define GLM_RANK_TOL 1e-10
 #define GLM_ESTIM_TOL 1e-8
@@ -477,6 +478,10 @@ sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
 
 /* ------------------------------------------------------------------ finishing */
 
+const char *const glm_out_rule_names[GLM_OUT_NRULES] = {
+	"mask", "nonfinite", "nonpositive_mean", "constant", "intensity_floor"
+};
+
 typedef struct finish_job {
 	const glm_acc *a;
 	int ar1, ncon;
@@ -603,6 +608,61 @@ static void lag_grams(const glm_model *m, double *Ls, double *Q0)
 		}
 }
 
+/*
+ * Every voxel's temporal mean, the run's reference intensity R and floor,
+ * and the count of voxels each rule of METHODS.md section 3 leaves out: a
+ * pass before the per-voxel fit, since the floor depends on all the means.
+ */
+static void voxel_means(const glm_acc *a, const unsigned char *mask, glm_out *o)
+{
+	const glm_model *m = a->m;
+	int r = m->r, T = m->T, q;
+	size_t v, k = 0;
+	double *pos = xmalloc_array(a->nvox ? a->nvox : 1, sizeof *pos);
+
+	for (v = 0; v < a->nvox; v++) {
+		const double *u = a->acc + (size_t)2 * r * v;
+		double mean;
+
+		if (a->flag[v] & ACC_BAD) {
+			mean = NAN;
+		} else if (a->zsum) {
+			mean = a->zsum[v] / T;
+		} else {
+			double s1 = 0.0;
+
+			for (q = 0; q < r; q++)
+				s1 += m->g1[q] * u[q];
+			mean = (m->has_const ? a->y0[v] : 0.0) + s1 / T;
+		}
+		o->mean[v] = mean;
+		if (isfinite(mean) && mean > 0.0 && (!mask || mask[v]))
+			pos[k++] = mean;
+	}
+	o->ref_intensity = k ? stats_quantile(pos, k, GLM_FLOOR_QUANTILE) : NAN;
+	o->floor = k ? GLM_FLOOR_FRACTION * o->ref_intensity : 0.0;
+	free(pos);
+	memset(o->left_out, 0, sizeof o->left_out);
+	for (v = 0; v < a->nvox; v++) {
+		double mean = o->mean[v];
+		int why = GLM_OUT_NRULES;
+
+		if (mask && !mask[v])
+			why = GLM_OUT_MASK;
+		else if (a->flag[v] & ACC_BAD)
+			why = GLM_OUT_NONFINITE;
+		else if (!(mean > 0.0))
+			why = GLM_OUT_NONPOSITIVE;
+		else if (!(a->flag[v] & ACC_VARIES))
+			why = GLM_OUT_CONSTANT;
+		else if (mean < o->floor)
+			why = GLM_OUT_FLOOR;
+		o->rule[v] = (unsigned char)why;
+		if (why < GLM_OUT_NRULES)
+			o->left_out[why]++;
+	}
+}
+
 static void *finish_range(void *arg)
 {
 	const finish_job *j = arg;
@@ -621,26 +681,14 @@ static void *finish_range(void *arg)
 		double y0 = a->y0[v], shift = m->has_const ? y0 : 0.0, z0 = m->has_const ? 0.0 : y0;
 		double mean, sc, rss, lag, rho, zl = a->zprev[v], sig2, rssw;
 		const double *delta = u;
-		int bad = (a->flag[v] & ACC_BAD) != 0;
 
 		if (v - done >= 4096) {
 			acc_release(a, done, v);
 			done = v;
 		}
 
-		if (a->zsum) {
-			mean = a->zsum[v] / T;
-		} else {
-			double s1 = 0.0;
-
-			for (q = 0; q < r; q++)
-				s1 += m->g1[q] * u[q];
-			mean = shift + s1 / T;
-		}
-		if (bad)
-			mean = NAN;
-		o->mean[v] = mean;
-		o->ok[v] = !bad && mean > 0.0 && (a->flag[v] & ACC_VARIES) && (!j->mask || j->mask[v]);
+		mean = o->mean[v];
+		o->ok[v] = o->rule[v] == GLM_OUT_NRULES;
 		for (c = 0; c < j->ncon; c++) {
 			o->effect[(size_t)c * nvox + v] = NAN;
 			o->var[(size_t)c * nvox + v] = NAN;
@@ -753,6 +801,7 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 	out->var = xcalloc(nvox && ncon ? nvox * (size_t)ncon : 1, sizeof(double));
 	out->rho = xcalloc(nvox ? nvox : 1, sizeof(double));
 	out->mean = xcalloc(nvox ? nvox : 1, sizeof(double));
+	out->rule = xcalloc(nvox ? nvox : 1, 1);
 
 	cq = dup_zero((size_t)ncon * r);
 	gc = dup_zero((size_t)ncon);
@@ -768,6 +817,7 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 	Ls = dup_zero((size_t)r * r);
 	Q0 = dup_zero((size_t)r * r);
 	lag_grams(m, Ls, Q0);
+	voxel_means(a, mask, out);
 
 	if ((size_t)nthreads > nvox / 256 + 1)
 		nthreads = (int)(nvox / 256 + 1);
@@ -824,6 +874,7 @@ void glm_out_release(glm_out *o)
 	free(o->var);
 	free(o->rho);
 	free(o->mean);
+	free(o->rule);
 	memset(o, 0, sizeof *o);
 }
 

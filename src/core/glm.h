@@ -48,6 +48,25 @@ glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox);
 sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e);
 void glm_acc_free(glm_acc *a);
 
+/*
+ * The rules of METHODS.md section 3, in the order a voxel is counted under
+ * the first one it fails (so the counts add up to the voxels left out).
+ */
+enum {
+	GLM_OUT_MASK = 0,     /* outside the brain mask */
+	GLM_OUT_NONFINITE,    /* a sample is NaN or infinite */
+	GLM_OUT_NONPOSITIVE,  /* temporal mean <= 0 */
+	GLM_OUT_CONSTANT,     /* temporal standard deviation 0 */
+	GLM_OUT_FLOOR,        /* mean below GLM_FLOOR_FRACTION of the run's reference intensity */
+	GLM_OUT_NRULES
+};
+/* The intensity floor: this fraction of the run's reference intensity (METHODS.md section 3). */
+#define GLM_FLOOR_FRACTION 0.10
+/* The reference intensity is this quantile of the positive finite means. */
+#define GLM_FLOOR_QUANTILE 0.98
+/* Short names of the rules, for records and messages ("mask", "nonfinite", ...). */
+extern const char *const glm_out_rule_names[GLM_OUT_NRULES];
+
 /* What a finished fit gives per voxel. Arrays owned (glm_out_release). */
 typedef struct glm_out {
 	size_t nvox;
@@ -59,6 +78,10 @@ typedef struct glm_out {
 	double *var;             /* ncon * nvox, likewise */
 	double *rho;             /* nvox: AR(1) coefficient used (0 for OLS), NaN where not ok */
 	double *mean;            /* nvox: temporal mean of the raw series, NaN where not finite */
+	double ref_intensity;    /* the run's reference intensity R (NaN when no voxel has a positive mean) */
+	double floor;            /* GLM_FLOOR_FRACTION * R (0 when R is NaN) */
+	unsigned char *rule;     /* nvox: the first rule the voxel fails, GLM_OUT_NRULES when analyzable */
+	size_t left_out[GLM_OUT_NRULES]; /* voxels left out by each rule (first failed rule) */
 } glm_out;
 
 /* Values of glm_acc_finish's ar1 argument. */
@@ -69,7 +92,10 @@ enum {
 };
 
 /*
- * Finishes the fit after all T volumes: scaling to percent of the voxel mean,
+ * Finishes the fit after all T volumes: the analyzable voxels (METHODS.md
+ * section 3: finite, varying, in the mask, mean > 0 and at least
+ * GLM_FLOOR_FRACTION of the 98th percentile of the finite positive means
+ * inside the mask), scaling to percent of the voxel mean,
  * OLS, then (ar1 = GLM_AR1) Prais-Winsten whitening with the per-voxel rho
  * and the refit. GLM_AR1_ADJUSTED maps the residual ratio rho through the
  * design's table of expected ratios under AR(1) noise before whitening. C is ncon x p, row-major (contrast weights over all columns).

@@ -6,6 +6,7 @@
 
 #include "mem.h"
 #include "qc.h"
+#include "stats.h"
 
 sr_status qc_fd(const double *mp, size_t nt, int degrees, double radius_mm, double *fd, sr_err *e)
 {
@@ -194,16 +195,6 @@ static int cmp_double(const void *a, const void *b)
 	return (x > y) - (x < y);
 }
 
-static double quantile_sorted(const double *s, size_t n, double p)
-{
-	double h = p * (double)(n - 1), f = floor(h);
-	size_t i = (size_t)f;
-
-	if (i + 1 >= n)
-		return s[n - 1];
-	return s[i] + (h - f) * (s[i + 1] - s[i]);
-}
-
 void qc_window(const double *x, size_t n, double plo, double phi, double *lo, double *hi)
 {
 	double *s = xmalloc_array(n ? n : 1, sizeof *s);
@@ -219,8 +210,8 @@ void qc_window(const double *x, size_t n, double plo, double phi, double *lo, do
 		*lo = *hi = s[0];
 	} else {
 		qsort(s, k, sizeof *s, cmp_double);
-		*lo = quantile_sorted(s, k, plo);
-		*hi = quantile_sorted(s, k, phi);
+		*lo = stats_quantile_sorted(s, k, plo);
+		*hi = stats_quantile_sorted(s, k, phi);
 	}
 	free(s);
 }

@@ -279,3 +279,33 @@ void stats_bh(const double *p, size_t n, double *q)
 	}
 	free(it);
 }
+
+double stats_quantile_sorted(const double *s, size_t n, double p)
+{
+	double h, f;
+	size_t i;
+
+	if (n == 0)
+		return NAN;
+	h = p * (double)(n - 1);
+	f = floor(h);
+	i = (size_t)f;
+	if (i + 1 >= n)
+		return s[n - 1];
+	return s[i] + (h - f) * (s[i + 1] - s[i]);
+}
+
+static int cmp_dbl(const void *a, const void *b)
+{
+	double x = *(const double *)a, y = *(const double *)b;
+
+	return (x > y) - (x < y);
+}
+
+double stats_quantile(double *x, size_t n, double p)
+{
+	if (n == 0)
+		return NAN;
+	qsort(x, n, sizeof *x, cmp_dbl);
+	return stats_quantile_sorted(x, n, p);
+}

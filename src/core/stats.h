@@ -29,5 +29,13 @@ double stats_t_quantile(double prob, double df);
  * counted); q may be the same array as p. Allocates a scratch copy.
  */
 void stats_bh(const double *p, size_t n, double *q);
+/*
+ * The p quantile (0..1) of s[0..n-1], sorted ascending, with linear
+ * interpolation between order statistics (numpy's default rule): h = p (n - 1),
+ * s[floor h] + (h - floor h) (s[floor h + 1] - s[floor h]). NaN when n is 0.
+ */
+double stats_quantile_sorted(const double *s, size_t n, double p);
+/* Sorts x (n finite values) ascending in place and returns its p quantile as above. */
+double stats_quantile(double *x, size_t n, double p);
 
 #endif

@@ -4,8 +4,10 @@
 #include <jansson.h>
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <zlib.h>
 
+#include "../core/mem.h"
 #include "afile.h"
 
 struct jdoc;
@@ -90,4 +92,77 @@ void jdoc_free(jdoc *d)
 void jdoc_library_versions(char *buf, size_t n)
 {
 	snprintf(buf, n, "jansson %s; zlib %s", JANSSON_VERSION, zlibVersion());
+}
+
+sr_status jdoc_read_strings(const char *path, const char *key, char ***keys, char ***vals,
+			    size_t *n, sr_err *e)
+{
+	json_error_t je;
+	json_t *root = json_load_file(path, 0, &je), *o, *v;
+	const char *k;
+
+	*keys = *vals = NULL;
+	*n = 0;
+	if (!root) {
+		if (je.line <= 0)
+			return sr_fail(e, SR_EIO, "%s: cannot read: %s", path, je.text);
+		return sr_fail(e, SR_EFORMAT, "%s: line %d, column %d: %s", path, je.line, je.column,
+			       je.text);
+	}
+	o = key ? json_object_get(root, key) : root;
+	if (json_is_object(o)) {
+		size_t cap = json_object_size(o) + 1;
+
+		*keys = xcalloc(cap, sizeof **keys);
+		*vals = xcalloc(cap, sizeof **vals);
+		json_object_foreach(o, k, v) {
+			if (!json_is_string(v))
+				continue;
+			(*keys)[*n] = xstrdup(k);
+			(*vals)[*n] = xstrdup(json_string_value(v));
+			(*n)++;
+		}
+	}
+	json_decref(root);
+	return SR_OK;
+}
+
+void jdoc_strings_free(char **keys, char **vals, size_t n)
+{
+	size_t i;
+
+	for (i = 0; i < n; i++) {
+		free(keys[i]);
+		free(vals[i]);
+	}
+	free(keys);
+	free(vals);
+}
+
+int jdoc_strings_of(const jdoc *d, char ***keys, char ***vals, size_t *n)
+{
+	json_t *o = J(d), *v;
+	const char *k;
+	size_t cap;
+
+	*keys = *vals = NULL;
+	*n = 0;
+	if (!json_is_object(o))
+		return -1;
+	cap = json_object_size(o) + 1;
+	*keys = xcalloc(cap, sizeof **keys);
+	*vals = xcalloc(cap, sizeof **vals);
+	json_object_foreach(o, k, v) {
+		if (!json_is_string(v))
+			continue;
+		(*keys)[*n] = xstrdup(k);
+		(*vals)[*n] = xstrdup(json_string_value(v));
+		(*n)++;
+	}
+	return 0;
+}
+
+jdoc *jdoc_copy(const jdoc *d)
+{
+	return (jdoc *)json_deep_copy(J(d));
 }

@@ -24,6 +24,20 @@ void jdoc_push(jdoc *a, jdoc *child);
 /* Writes the document, indented, atomically. */
 sr_status jdoc_write(const jdoc *d, const char *path, sr_err *e);
 void jdoc_free(jdoc *d);
+/*
+ * Reads the object under key (a top-level key of the JSON object in path, or
+ * the top level itself when key is NULL) as string -> string pairs: *keys and
+ * *vals (n each, xmalloc'ed; free with jdoc_strings_free). Non-string values
+ * are skipped. Errors: unreadable or not JSON (SR_EIO/SR_EFORMAT, naming the
+ * file); an absent key gives n = 0 and SR_OK.
+ */
+sr_status jdoc_read_strings(const char *path, const char *key, char ***keys, char ***vals,
+			    size_t *n, sr_err *e);
+void jdoc_strings_free(char **keys, char **vals, size_t n);
+/* The string members of object o, as jdoc_read_strings gives them; 0 on success. */
+int jdoc_strings_of(const jdoc *o, char ***keys, char ***vals, size_t *n);
+/* A deep copy of d (the caller owns it). */
+jdoc *jdoc_copy(const jdoc *d);
 /* Versions of the libraries behind the io layer, as "name version; ..." text, into buf. */
 void jdoc_library_versions(char *buf, size_t n);
 

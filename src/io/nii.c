@@ -321,6 +321,23 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, gzin 
 			     (long long)rh.dim[4], bytes);
 		goto fail;
 	}
+	if (nvox > NII_MAX_VOXELS) {
+		rc = sr_fail(e, SR_EDIM,
+			     "%s: the header claims %lld x %lld x %lld voxels per volume, more than the limit of %lld (NII_MAX_VOXELS)",
+			     path, (long long)rh.dim[1], (long long)rh.dim[2], (long long)rh.dim[3],
+			     (long long)NII_MAX_VOXELS);
+		goto fail;
+	}
+	/* deflate cannot expand a byte to more than 1032 (RFC 1951's longest match over its
+	   shortest code), so a gzip file can hold at most that many times its size */
+	if (gz && (double)nbytes > NII_GZ_MAX_RATIO * (double)st.st_size) {
+		rc = sr_fail(e, SR_EFORMAT,
+			     "%s: the header claims %.0f bytes of image data (%lld x %lld x %lld x %lld of %d bytes), larger than a gzip file of %lld bytes can hold (at most %.0f): truncated or damaged",
+			     path, (double)nbytes, (long long)rh.dim[1], (long long)rh.dim[2],
+			     (long long)rh.dim[3], (long long)rh.dim[4], bytes, (long long)st.st_size,
+			     NII_GZ_MAX_RATIO * (double)st.st_size);
+		goto fail;
+	}
 	if (!isfinite(rh.vox_offset) || rh.vox_offset < rh.hdr_size ||
 	    rh.vox_offset != floor(rh.vox_offset) || rh.vox_offset > 1e15) {
 		rc = sr_fail(e, SR_EFORMAT, "%s: bad header: vox_offset %g (must be a whole number >= %d)",

@@ -38,9 +38,21 @@ typedef struct nii_info {
 size_t nii_nvox(const nii_grid *g);
 
 /*
+ * Limits on what a header may claim, checked before anything is allocated:
+ * at most NII_MAX_VOXELS voxels per volume (2^26, e.g. 406^3; a 0.5 mm
+ * whole-brain grid has about 4.3e7), and for gzip files at most
+ * NII_GZ_MAX_RATIO bytes of image data per byte of file (deflate's largest
+ * possible expansion), so that a damaged or hostile header is an error naming
+ * the file instead of a huge allocation.
+ */
+#define NII_MAX_VOXELS ((size_t)1 << 26)
+#define NII_GZ_MAX_RATIO 1032.0
+
+/*
  * Reads and checks a header: magic, sizeof_hdr, dims (positive, at most 4 used
- * dimensions, nx*ny*nz*nt*bytes not overflowing and not beyond the file for an
- * uncompressed .nii), datatype supported. Errors name the file.
+ * dimensions, nx*ny*nz*nt*bytes not overflowing, not beyond the file for an
+ * uncompressed .nii, within the limits above), datatype supported. Errors name
+ * the file.
  */
 sr_status nii_read_info(const char *path, nii_info *info, sr_err *e);
 

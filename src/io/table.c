@@ -66,6 +66,19 @@ static int row_is_blank(const parse_state *s)
 	return 1;
 }
 
+typedef struct named {
+	const char *name;
+	size_t pos;
+} named;
+
+static int cmp_named(const void *a, const void *b)
+{
+	const named *x = a, *y = b;
+	int c = strcmp(x->name, y->name);
+
+	return c ? c : (x->pos > y->pos) - (x->pos < y->pos);
+}
+
 static void take_header(parse_state *s, size_t line)
 {
 	table *t = s->t;
@@ -75,15 +88,32 @@ static void take_header(parse_state *s, size_t line)
 		free(s->row[s->nrow - 1]);
 		s->nrow--;
 	}
-	for (size_t i = 0; i < s->nrow; i++)
-		for (size_t j = 0; j < i; j++)
-			if (s->row[i][0] && strcmp(s->row[i], s->row[j]) == 0) {
-				s->failed = 1;
-				sr_fail(s->e, SR_EFORMAT,
-					"%s: line %zu: column '%s' appears twice (columns %zu and %zu)",
-					s->path, line, s->row[i], j + 1, i + 1);
-				return;
+	/* duplicate names by sorting (name, position): linear-logarithmic, since a header
+	   may have 100000 columns; reports the pair a left-to-right scan meets first */
+	{
+		named *v = xmalloc_array(s->nrow ? s->nrow : 1, sizeof *v);
+		size_t i, bi = (size_t)-1, bj = 0;
+
+		for (i = 0; i < s->nrow; i++) {
+			v[i].name = s->row[i];
+			v[i].pos = i;
+		}
+		qsort(v, s->nrow, sizeof *v, cmp_named);
+		for (i = 1; i < s->nrow; i++)
+			if (v[i].name[0] && strcmp(v[i].name, v[i - 1].name) == 0 &&
+			    (i < 2 || strcmp(v[i - 1].name, v[i - 2].name) != 0) && v[i].pos < bi) {
+				bi = v[i].pos;
+				bj = v[i - 1].pos;
 			}
+		free(v);
+		if (bi != (size_t)-1) {
+			s->failed = 1;
+			sr_fail(s->e, SR_EFORMAT,
+				"%s: line %zu: column '%s' appears twice (columns %zu and %zu)",
+				s->path, line, s->row[bi], bj + 1, bi + 1);
+			return;
+		}
+	}
 	t->ncols = s->nrow;
 	t->header = s->row;
 	t->header_line = line;

@@ -24,7 +24,7 @@ DEFAULTS = dict(
     condition_column=None, loc_effects='melody, scrambled, melody - scrambled',
     mem_effects='familiar, novel, familiar - novel', measure=True, names=True, gz=True, signal=True,
     skip_volumes=0, censor_fd=None, confound_patterns=False,
-    smoothing=None, nan_voxels=False)
+    smoothing=None, nan_voxels=False, dim_voxels=0)
 
 PRESETS = {
     # odd-even with ties, an empty parcel, confounds with n/a, int16 storage, a measured task
@@ -42,7 +42,8 @@ PRESETS = {
     # the plain AR(1) (the other presets use the default ar1-adjusted, sessions OLS)
     'mint': dict(seed=14, subjects=('01', '02', '03'), loc_runs=6, select='min_t = 2.5', autocorrelation='ar1',
                  drift_cutoff='none', loc_effects='melody, 0.5*melody + 0.5*scrambled, melody - scrambled',
-                 mem_effects='familiar - novel, 2*novel', measure=True, empty_parcel=False),
+                 mem_effects='familiar - novel, 2*novel', measure=True, empty_parcel=False,
+                 dim_voxels=12),
     # initial volumes dropped, volumes censored by framewise displacement, confounds by pattern
     'scrub': dict(seed=15, confounds=True, skip_volumes=3, censor_fd=0.6, confound_patterns=True,
                   impulses=True),
@@ -236,6 +237,14 @@ def make_study(outdir, **opts):
             y[~brain] = 0.0
             if o['nan_voxels'] and task == 'tones' and ri == 2 and sub not in o['int16_subjects']:
                 y[rng.choice(np.flatnonzero(brain), size=6, replace=False), 3 + ri] = np.nan
+            if o['dim_voxels']:
+                # dim voxels (section 3's intensity floor): the first of parcel 1 with a mean of
+                # 0.01 and a strong response (it would top the fROI), then parcel 2 voxels with
+                # means from 40 to 160 around the floor of about 10% of the 98th percentile
+                y[p1[0]] = y[p1[0]] - y[p1[0]].mean() + 0.01 + 30.0 * srref.regressor(
+                    by.get(list(by)[0], []), tT, tTR, 0.5)
+                for i, w in enumerate(p2[:o['dim_voxels']]):
+                    y[w] = y[w] * (40.0 + 120.0 * i / max(1, o['dim_voxels'] - 1)) / y[w].mean()
             if o['ties'] and task == 'tones' and ri % 2 == 1 and sub == o['subjects'][0]:
                 y[dup_dst] = y[dup_src]     # exact ties in the define t of split A
             data = y.reshape(shape + (tT,), order='F')

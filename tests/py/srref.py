@@ -452,10 +452,17 @@ def design(events, conditions, T, TR, st, confounds=None):
 # ---------------------------------------------------------------- fit (section 4)
 
 def analyzable(data, mask):
+    """Section 3: finite, varying, in the mask, mean > 0 and at least 10% of the run's
+    reference intensity, the 98th percentile (numpy's default interpolation) of the
+    means of the finite voxels with a positive mean inside the mask."""
     fin = np.all(np.isfinite(data), axis=1)
     with np.errstate(invalid='ignore'):
         mean = np.where(fin, data.mean(axis=1), np.nan)
         ok = fin & (mean > 0) & (data.max(axis=1) > data.min(axis=1))
+    inside = np.ones(len(ok), bool) if mask is None else mask
+    pos = mean[fin & (mean > 0) & inside]
+    if pos.size:
+        ok &= mean >= 0.10 * np.percentile(pos, 98)
     if mask is not None:
         ok &= mask
     return ok

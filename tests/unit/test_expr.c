@@ -88,7 +88,9 @@ static void test_merge(void)
 
 	expect_error("a - a", "position 1", "cancel");
 	/* a name given twice: each factor finite, their sum not (IEEE 754: 2e308 overflows to inf) */
-	expect_error("1e308*a + 1e308*a", "'a'", "largest number");
+	expect_error("1e308*a + 1e308*a", "position 1", "beyond");
+	expect_error("1e308*a - b", "position 1", "beyond 1e+06");
+	expect_error("6e5*a + 6e5*a", "'a'", "largest number allowed");
 }
 
 static void test_quotes(void)

@@ -379,6 +379,34 @@ static void test_analyzable(void)
 	      isnan(o.rho[4]) && isnan(o.effect[5]), "not analyzable gives NaN");
 	CHECK(isnan(o.mean[2]) && isnan(o.mean[4]) && o.mean[1] == 100 && o.mean[3] < 0,
 	      "mean NaN exactly where a sample is not finite");
+	CHECK(o.left_out[GLM_OUT_MASK] == 1 && o.left_out[GLM_OUT_NONFINITE] == 2 &&
+	      o.left_out[GLM_OUT_NONPOSITIVE] == 1 && o.left_out[GLM_OUT_CONSTANT] == 1 &&
+	      o.left_out[GLM_OUT_FLOOR] == 0, "each rule's count, first rule failed");
+	glm_out_release(&o);
+	glm_acc_free(a);
+
+	/* the intensity floor: 10% of the 98th percentile of the positive finite means in
+	   the mask. Means 100 (voxel 0), 100 (1), 9.99 (2), 10.5 (3), 1000 (4); voxel 5 is
+	   outside the mask and its mean 1e6 must not count. numpy.percentile([9.99, 10.5,
+	   100, 100, 1000], 98) = 100 + 0.92 * 900 = 928 (h = 0.98 * 4 = 3.92) */
+	a = glm_acc_alloc(m, NV);
+	for (k = 0; k < T; k++) {
+		double d = (k % 2 ? 0.5 : -0.5);
+
+		vol[0] = 100 + d;
+		vol[1] = 100 - d;
+		vol[2] = 9.99 + d * 0.01;
+		vol[3] = 10.5 + d * 0.01;
+		vol[4] = 1000 + d;
+		vol[5] = 1e6 + d;
+		glm_acc_add(a, vol, &e);
+	}
+	glm_acc_finish(a, 0, C, 1, mask, 1, &o, &e);
+	CHECK_CLOSE(o.ref_intensity, 928.0, 1e-9, "reference intensity: numpy.percentile(means, 98)");
+	CHECK_CLOSE(o.floor, 92.8, 1e-9, "intensity floor: a tenth of the reference");
+	CHECK(o.ok[0] && o.ok[1] && !o.ok[2] && !o.ok[3] && o.ok[4] && !o.ok[5] &&
+	      o.left_out[GLM_OUT_FLOOR] == 2 && o.rule[2] == GLM_OUT_FLOOR && o.rule[5] == GLM_OUT_MASK,
+	      "voxels below 10%% of the reference intensity are left out, counted under the floor");
 	glm_out_release(&o);
 	glm_acc_free(a);
 	glm_model_free(m);
