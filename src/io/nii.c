@@ -242,7 +242,7 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFi
 	zf = znzopen(path, "rb", gz);
 	if (znz_isnull(zf))
 		return sr_fail(e, SR_EIO, "%s: cannot open: %s", path, strerror(errno ? errno : EIO));
-	if (gz)
+	if (gz && want_data)
 		gzbuffer(zf->zfptr, NII_GZBUF);
 
 	if ((kind = read_exact(zf, path, raw, 348, what, sizeof what)) != RD_OK) {
