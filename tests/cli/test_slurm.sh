@@ -1,6 +1,8 @@
-# test_slurm.sh - `splitroi slurm` and `analyze --collect`: scripts, submission, and a real
-# single-node SLURM cluster (SPLITROI_TEST_LEVEL=full, as root) whose tables must equal a
-# local `analyze` run byte for byte, also when one subject's data is broken.
+# test_slurm.sh - `splitroi slurm` and `analyze --collect`: scripts, the scheduler's limits,
+# submission, --status, and a real single-node SLURM cluster (SPLITROI_TEST_LEVEL=full, as
+# root): 1,200 subjects accepted under SLURM's default MaxArraySize, and with MaxArraySize 5 a
+# 12-subject study in three arrays whose tables equal a local `analyze` run byte for byte;
+# one subject's data broken, --status names it with its log's last line.
 . "$(dirname "$0")/lib.sh"
 . "$(dirname "$0")/slurm_lib.sh"
 trap 'cluster_stop; rm -rf "$TMP"' EXIT
@@ -29,24 +31,29 @@ expect_out "sh $TMP/mini/res/slurm/submit.sh" "says how to submit them"
 expect_out "sbatch is not on PATH" "says sbatch is missing here"
 S=$TMP/mini/res/slurm
 if [ "$(cat "$S/subjects.txt" 2>/dev/null)" = "$(printf '01\n02')" ]; then ok "subjects.txt lists the two subjects, one a line"; else notok "subjects.txt: $(cat "$S/subjects.txt" 2>&1)"; fi
-if grep -q '^#SBATCH --array=1-2$' "$S/subjects.sbatch" && grep -q -- '--no-group --quiet' "$S/subjects.sbatch" &&
-	grep -q -- '--threads "${SLURM_CPUS_PER_TASK:-1}"' "$S/subjects.sbatch" && ! grep '^exec' "$S/subjects.sbatch" | grep -q -- '--force'; then
-	ok "the array script: 2 tasks, --threads from SLURM, --no-group, no --force"
+if grep -q '^#SBATCH --array=1-2$' "$S/subjects-1.sbatch" && grep -q -- '--no-group --quiet' "$S/subjects-1.sbatch" &&
+	grep -q -- '--threads "${SLURM_CPUS_PER_TASK:-1}"' "$S/subjects-1.sbatch" && ! grep 'analyze' "$S/subjects-1.sbatch" | grep -q -- '--force' &&
+	[ ! -e "$S/subjects-2.sbatch" ]; then
+	ok "one array script: 2 tasks, --threads from SLURM, --no-group, no --force"
 else
-	notok "the array script: $(cat "$S/subjects.sbatch")"
+	notok "the array script: $(cat "$S/subjects-1.sbatch")"
 fi
+expect_out "assuming SLURM's defaults, MaxArraySize 1001 and MaxJobCount 10000" "without scontrol it says it assumes SLURM's defaults"
 if grep -q -- "analyze '$TMP/mini/study.ini' --out '$TMP/mini/res' --collect" "$S/group.sbatch"; then ok "the group script collects"; else notok "group script: $(cat "$S/group.sbatch")"; fi
 # suggested memory for the small grid, 6 runs of 13440 voxels, 2 CPUs: the model in slurm.c
 # gives 1.5 * (10 MiB + 13440 * (81 * 6 + 350 * 2) bytes) = 38 MiB -> one 256 MiB step
-if grep -q '^#SBATCH --mem=256M$' "$S/subjects.sbatch"; then ok "memory suggestion rounds up to 256M"; else notok "mem: $(grep mem "$S/subjects.sbatch")"; fi
+if grep -q '^#SBATCH --mem=256M$' "$S/subjects-1.sbatch"; then ok "memory suggestion rounds up to 256M"; else notok "mem: $(grep mem "$S/subjects-1.sbatch")"; fi
 # the time model (3.3e-8 s a voxel-volume, times 4) asks for seconds here: the 30-minute floor holds
-if grep -q '^#SBATCH --time=0:30:00$' "$S/subjects.sbatch"; then ok "time suggestion keeps its 30-minute floor"; else notok "time: $(grep time "$S/subjects.sbatch")"; fi
+if grep -q '^#SBATCH --time=0:30:00$' "$S/subjects-1.sbatch"; then ok "time suggestion keeps its 30-minute floor"; else notok "time: $(grep time "$S/subjects-1.sbatch")"; fi
 run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/mini/study.ini" --out "$TMP/mini/res" --submit
 expect_status 1 "--submit without sbatch fails"
 expect_err "sh $TMP/mini/res/slurm/submit.sh" "and names the script to run on the cluster"
 
 # a stand-in sbatch that records its arguments and answers like --parsable does
 mkdir -p "$TMP/fakebin"
+# a stand-in scontrol: the limits in $TMP/limits, or fails (as without a cluster) when there are none
+printf '#!/bin/sh\ncat "%s/limits" 2>/dev/null\n' "$TMP" >"$TMP/fakebin/scontrol"
+chmod +x "$TMP/fakebin/scontrol"
 cat >"$TMP/fakebin/sbatch" <<EOF
 #!/bin/sh
 echo "\$*" >>"$TMP/sbatch.calls"
@@ -58,12 +65,12 @@ run env PATH="$TMP/fakebin:$PATH" "$SPLITROI" slurm "$TMP/mini/study.ini" --out 
 expect_status 0 "submission through a stand-in sbatch"
 expect_out "^701 702$" "both job ids parsed from --parsable output (cluster name dropped)"
 if sed -n 2p "$TMP/sbatch.calls" | grep -q -- "--dependency=afterany:701 .*group.sbatch"; then ok "the group job waits on the array with afterany"; else notok "calls: $(cat "$TMP/sbatch.calls")"; fi
-if grep -q '^#SBATCH --cpus-per-task=3$' "$S/subjects.sbatch" && grep -q '^#SBATCH --mem=2G$' "$S/subjects.sbatch" &&
-	grep -q '^#SBATCH --time=45$' "$S/subjects.sbatch" && grep -q '^#SBATCH --partition=short$' "$S/group.sbatch" &&
-	grep -q '^#SBATCH --account=lab1$' "$S/subjects.sbatch"; then
+if grep -q '^#SBATCH --cpus-per-task=3$' "$S/subjects-1.sbatch" && grep -q '^#SBATCH --mem=2G$' "$S/subjects-1.sbatch" &&
+	grep -q '^#SBATCH --time=45$' "$S/subjects-1.sbatch" && grep -q '^#SBATCH --partition=short$' "$S/group.sbatch" &&
+	grep -q '^#SBATCH --account=lab1$' "$S/subjects-1.sbatch"; then
 	ok "--cpus, --mem, --time, --partition, --account reach the scripts"
 else
-	notok "options: $(grep SBATCH "$S/subjects.sbatch" "$S/group.sbatch")"
+	notok "options: $(grep SBATCH "$S/subjects-1.sbatch" "$S/group.sbatch")"
 fi
 cat >"$TMP/fakebin/sbatch" <<EOF
 #!/bin/sh
@@ -73,6 +80,146 @@ EOF
 run env PATH="$TMP/fakebin:$PATH" "$SPLITROI" slurm "$TMP/mini/study.ini" --out "$TMP/mini/res" --submit
 expect_status 1 "a refused submission fails"
 expect_err "sbatch failed" "and says so"
+
+# ---- the scheduler's limits (a stand-in scontrol), arrays, packing, throttling, a refused array ----
+cat >"$TMP/fakebin/sbatch" <<EOF
+#!/bin/sh
+echo "\$*" >>"$TMP/sbatch.calls"
+n=\$(wc -l <"$TMP/sbatch.calls")
+if [ -s "$TMP/sbatch.fail_on" ] && [ "\$n" -eq "\$(cat "$TMP/sbatch.fail_on")" ]; then
+	echo "sbatch: error: Batch job submission failed: Invalid job array specification" >&2
+	exit 1
+fi
+echo "\$((700 + n));testcluster"
+EOF
+printf '#!/bin/sh\necho "$*" >>"%s/scancel.calls"\n' "$TMP" >"$TMP/fakebin/scancel"
+chmod +x "$TMP/fakebin/sbatch" "$TMP/fakebin/scancel"
+FAKE="env PATH=$TMP/fakebin:$PATH"
+study_links "$TMP/mini" 12 "$TMP/s12"
+S12=$TMP/s12/res/slurm
+printf 'ClusterName             = fake\nMaxArraySize            = 5\nMaxJobCount             = 10000\n' >"$TMP/limits"
+rm -f "$TMP/sbatch.calls"
+run $FAKE "$SPLITROI" slurm "$TMP/s12/study.ini" --out "$TMP/s12/res" --submit
+expect_status 0 "12 subjects submitted under MaxArraySize 5"
+expect_out "cluster limits \(scontrol show config\): MaxArraySize 5, MaxJobCount 10000" "the limits are read from scontrol show config"
+expect_out "12 task\(s\) of 1 subject\(s\) in 3 array\(s\) of at most 4 tasks" "12 tasks in three arrays of 4 (array indices 1-4 < MaxArraySize)"
+if [ "$(grep -h '^#SBATCH --array=' "$S12"/subjects-[123].sbatch | tr '\n' ' ')" = "#SBATCH --array=1-4 #SBATCH --array=1-4 #SBATCH --array=1-4 " ] &&
+	grep -q "^1) labels='05' ;;$" "$S12/subjects-2.sbatch" && grep -q "^4) labels='12' ;;$" "$S12/subjects-3.sbatch"; then
+	ok "each array script lists its own four subjects"
+else
+	notok "arrays: $(grep -h -e '--array' -e 'labels=' "$S12"/subjects-*.sbatch | head -20)"
+fi
+if [ "$(wc -l <"$TMP/sbatch.calls")" -eq 4 ] && sed -n 4p "$TMP/sbatch.calls" | grep -q -- "--dependency=afterany:701:702:703 .*group.sbatch$" &&
+	! sed -n 1,3p "$TMP/sbatch.calls" | grep -q -- --dependency; then
+	ok "the arrays are submitted side by side, the group job after all three (afterany)"
+else
+	notok "calls: $(cat "$TMP/sbatch.calls")"
+fi
+if [ "$(grep -c '^70[123] [1-4] [0-9][0-9]$' "$S12/jobs.txt")" -eq 12 ] && grep -q '^702 1 05$' "$S12/jobs.txt" &&
+	grep -q '^704 group$' "$S12/jobs.txt"; then
+	ok "jobs.txt records each subject's job and task"
+else
+	notok "jobs.txt: $(cat "$S12/jobs.txt")"
+fi
+expect_out "submitted: 3 subject array\(s\), job\(s\) 701 702 703 \(12 tasks\), group step as job 704" "and prints the job ids"
+
+# --per-task K: K subjects a task, memory not scaled (one after another), stale arrays removed
+run $FAKE "$SPLITROI" slurm "$TMP/s12/study.ini" --out "$TMP/s12/res" --per-task 5
+expect_status 0 "--per-task 5"
+if [ "$(cat "$S12/subjects.txt")" = "$(printf '01 02 03 04 05\n06 07 08 09 10\n11 12')" ] &&
+	grep -q '^#SBATCH --array=1-3$' "$S12/subjects-1.sbatch" && grep -q "^3) labels='11 12' ;;$" "$S12/subjects-1.sbatch" &&
+	[ ! -e "$S12/subjects-2.sbatch" ] && [ ! -e "$S12/subjects-3.sbatch" ]; then
+	ok "three tasks of 5, 5 and 2 subjects in one array; the old arrays' scripts are gone"
+else
+	notok "per-task: $(cat "$S12/subjects.txt"; ls "$S12")"
+fi
+if grep -q '^#SBATCH --mem=256M$' "$S12/subjects-1.sbatch"; then ok "memory stays the largest subject's (they run one after another)"; else notok "mem: $(grep mem "$S12/subjects-1.sbatch")"; fi
+
+# --max-running N: %N on every array, and each array waits for the one before it
+rm -f "$TMP/sbatch.calls"
+run $FAKE "$SPLITROI" slurm "$TMP/s12/study.ini" --out "$TMP/s12/res" --max-running 2 --submit --quiet
+expect_status 0 "--max-running 2"
+if [ "$(grep -ch '^#SBATCH --array=1-4%2$' "$S12"/subjects-[123].sbatch | tr '\n' ' ')" = "1 1 1 " ] &&
+	sed -n 2p "$TMP/sbatch.calls" | grep -q -- "--dependency=afterany:701 .*subjects-2.sbatch" &&
+	sed -n 3p "$TMP/sbatch.calls" | grep -q -- "--dependency=afterany:702 .*subjects-3.sbatch" &&
+	sed -n 4p "$TMP/sbatch.calls" | grep -q -- "--dependency=afterany:701:702:703 "; then
+	ok "throttled: %2 on each array, the arrays one after another, the group job after all"
+else
+	notok "throttle: $(grep -h -e '--array' "$S12"/subjects-*.sbatch; cat "$TMP/sbatch.calls")"
+fi
+
+# a refused second array: the first is cancelled, the group job never submitted, nothing recorded
+rm -f "$TMP/sbatch.calls" "$TMP/scancel.calls"
+echo 2 >"$TMP/sbatch.fail_on"
+lines=$(wc -l <"$S12/jobs.txt")
+run $FAKE "$SPLITROI" slurm "$TMP/s12/study.ini" --out "$TMP/s12/res" --submit
+expect_status 1 "a refused array fails the submission"
+expect_err "sbatch failed on .*subjects-2.sbatch" "naming the refused script"
+expect_err "cancelled the jobs already submitted: 701; nothing of this study is queued" "and says it cancelled the first array"
+if [ "$(cat "$TMP/scancel.calls" 2>/dev/null)" = "701" ] && [ "$(wc -l <"$TMP/sbatch.calls")" -eq 2 ] &&
+	[ "$(wc -l <"$S12/jobs.txt")" -eq "$lines" ]; then
+	ok "scancel 701 ran; the group job was not submitted; jobs.txt unchanged"
+else
+	notok "scancel: $(cat "$TMP/scancel.calls" 2>&1); sbatch: $(cat "$TMP/sbatch.calls")"
+fi
+# the same through submit.sh (for a cluster this command cannot reach)
+rm -f "$TMP/sbatch.calls" "$TMP/scancel.calls"
+run $FAKE sh "$S12/submit.sh"
+expect_status 1 "submit.sh stops at the refused array"
+if [ "$(cat "$TMP/scancel.calls" 2>/dev/null)" = "701" ] && [ "$(wc -l <"$TMP/sbatch.calls")" -eq 2 ]; then ok "submit.sh cancels the array it had submitted"; else notok "submit.sh: $(cat "$TMP/err")"; fi
+rm -f "$TMP/sbatch.fail_on" "$TMP/sbatch.calls"
+run $FAKE sh "$S12/submit.sh"
+expect_status 0 "submit.sh submits all when sbatch accepts"
+if sed -n 4p "$TMP/sbatch.calls" | grep -q -- "--dependency=afterany:701:702:703 " && grep -q '^703 4 12$' "$S12/jobs.txt" &&
+	[ "$(tail -1 "$S12/jobs.txt")" = "704 group" ]; then
+	ok "submit.sh: group after all arrays, jobs.txt written as --submit does"
+else
+	notok "submit.sh: $(cat "$TMP/sbatch.calls"; tail -3 "$S12/jobs.txt")"
+fi
+
+# MaxJobCount counts every array task: 12 subjects in at most 4 tasks (+1 group job)
+printf 'MaxArraySize            = 1001\nMaxJobCount             = 5\n' >"$TMP/limits"
+run $FAKE "$SPLITROI" slurm "$TMP/s12/study.ini" --out "$TMP/s12/res"
+expect_status 0 "MaxJobCount 5"
+expect_out "12 subjects exceed the 5 jobs the cluster queues at once \(MaxJobCount\): 3 subjects a task" "packs 3 subjects a task by itself"
+if [ "$(wc -l <"$S12/subjects.txt")" -eq 4 ]; then ok "four tasks"; else notok "tasks: $(cat "$S12/subjects.txt")"; fi
+run $FAKE "$SPLITROI" slurm "$TMP/s12/study.ini" --out "$TMP/s12/res" --per-task 1
+expect_status 1 "--per-task 1 cannot fit MaxJobCount 5"
+expect_err "12 tasks exceed the 5 jobs the cluster queues at once; give --per-task 3 or more" "and says what would fit"
+rm -f "$TMP/limits"
+
+# the time suggestion adds up a task's subjects: runs whose headers claim 64x64x40 voxels and
+# 20000 volumes (no data: only headers are read), against the model documented in slurm.c
+cp -r "$TMP/mini" "$TMP/long"
+rm -rf "$TMP/long/res"
+"$PYTHON" - "$TMP/long/data" <<'PY'
+import glob, gzip, sys
+import nibabel as nib, numpy as np
+for f in glob.glob(sys.argv[1] + "/sub-*/func/*_bold.nii.gz"):
+    h = nib.Nifti1Header()
+    h.set_data_shape((64, 64, 40, 20000))
+    h.set_data_dtype(np.float32)
+    h.set_xyzt_units("mm", "sec")
+    h["pixdim"][1:5] = [3, 3, 3, 2]
+    h["vox_offset"] = 352
+    with gzip.open(f, "wb") as g:
+        g.write(h.binaryblock + b"\0" * 4)
+PY
+expect_time() { # K: minutes = ceil(4 * 3.3e-8 s * K subjects * 6 runs * 163840 voxels * 20000 volumes / 60)
+	"$PYTHON" -c "import math; m = math.ceil(4 * 3.3e-8 * $1 * 6 * 64 * 64 * 40 * 20000 / 60); print('%d:%02d:00' % (m // 60, m % 60))"
+}
+expect_mem() { # 1.5 * (10 MiB + 163840 * (81 * 6 runs + 350 * 2 threads)) in whole 256 MiB
+	"$PYTHON" -c "import math; print('%dM' % (256 * math.ceil(1.5 * (10 * 2**20 + 163840 * (81 * 6 + 350 * 2)) / 2**28)))"
+}
+for k in 1 2; do
+	run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/long/study.ini" --out "$TMP/long/res" --per-task $k
+	if [ "$rc" -eq 0 ] && grep -q "^#SBATCH --time=$(expect_time $k)$" "$TMP/long/res/slurm/subjects-1.sbatch" &&
+		grep -q "^#SBATCH --mem=$(expect_mem)$" "$TMP/long/res/slurm/subjects-1.sbatch"; then
+		ok "--per-task $k: --time=$(expect_time $k) (the task's subjects added up), --mem=$(expect_mem) (not scaled)"
+	else
+		notok "--per-task $k: wanted $(expect_time $k) and $(expect_mem): $(grep -e time= -e mem= "$TMP/long/res/slurm/subjects-1.sbatch"; cat "$TMP/err")"
+	fi
+done
 
 # --collect on what is there: nothing complete yet, then one subject
 run "$SPLITROI" analyze "$TMP/mini/study.ini" --out "$TMP/mini/res" --collect --subjects 01
