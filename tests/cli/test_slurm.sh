@@ -238,6 +238,41 @@ run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/mini/study.ini" --out "$TMP/mi
 expect_out "^1 of 2 subjects need analysis; 1 complete" "a second slurm run leaves out the complete subject"
 if [ "$(cat "$S/subjects.txt")" = "02" ]; then ok "the new array holds only sub-02"; else notok "subjects.txt: $(cat "$S/subjects.txt")"; fi
 
+# ---- --status without a cluster: the task script run by hand, a stand-in squeue ----
+cp -r "$TMP/mini" "$TMP/bad"
+rm -rf "$TMP/bad/res"
+bold=$(ls "$TMP"/bad/data/sub-02/func/*task-tones*_bold.nii* | head -1)
+truncate -s 2000 "$bold"
+B=$TMP/bad/res/slurm
+rm -f "$TMP/sbatch.calls"
+run $FAKE "$SPLITROI" slurm "$TMP/bad/study.ini" --out "$TMP/bad/res" --submit --quiet --cpus 1
+read -r barr bgrp <"$TMP/out"
+printf '#!/bin/sh\n[ -s "%s/queue" ] && cat "%s/queue"\nexit 0\n' "$TMP" "$TMP" >"$TMP/fakebin/squeue"
+chmod +x "$TMP/fakebin/squeue"
+printf '%s_1 PENDING\n%s_2 RUNNING\n' "$barr" "$barr" >"$TMP/queue"
+run $FAKE "$SPLITROI" slurm "$TMP/bad/study.ini" --out "$TMP/bad/res" --status
+expect_status 0 "--status while the tasks are queued"
+expect_out "^  running +1$" "the running task is counted (from squeue)"
+expect_out "^pending: sub-01$" "the pending one is named"
+rm -f "$TMP/queue"
+run env SLURM_ARRAY_TASK_ID=1 SLURM_ARRAY_JOB_ID="$barr" bash "$B/subjects-1.sbatch"
+expect_status 0 "task 1 of the array script, run by hand, analyzes sub-01"
+run env SLURM_ARRAY_TASK_ID=2 SLURM_ARRAY_JOB_ID="$barr" bash "$B/subjects-1.sbatch"
+expect_status 1 "task 2 fails on sub-02's cut run"
+expect_out "^sub-02: status 1 " "and says so in the task's own output"
+last=$(tail -2 "$B/logs/sub-02.log" | head -1)
+case $last in *sub-02*) ok "sub-02's log ends with analyze's message about it" ;; *) notok "log: $(cat "$B/logs/sub-02.log")" ;; esac
+run $FAKE "$SPLITROI" slurm "$TMP/bad/study.ini" --out "$TMP/bad/res" --status
+expect_out "^  complete +1$" "--status: one complete"
+expect_out "^  failed +1$" "one failed"
+if grep -qF "failed: sub-02 (job ${barr}_2, log $B/logs/sub-02.log): $last" "$TMP/out"; then
+	ok "the failed subject is named with its job and its log's last line"
+else
+	notok "status: $(cat "$TMP/out"); wanted the line: $last"
+fi
+run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/bad/study.ini" --out "$TMP/bad/res" --status --submit
+expect_status 2 "--status with --submit is a usage error"
+
 # ---- a real cluster ----
 if [ "${SPLITROI_TEST_LEVEL:-}" != full ]; then
 	echo "skip - the SLURM cluster runs only at SPLITROI_TEST_LEVEL=full"
