@@ -316,18 +316,60 @@ else
 	exit 1
 fi
 
+# ---- 1,200 subjects under SLURM's default limits: accepted, the group job after every array ----
+if scontrol show config | grep -Eq '^MaxArraySize += 1001$'; then ok "slurmctld runs with the default MaxArraySize 1001"; else notok "MaxArraySize: $(scontrol show config | grep MaxArraySize)"; fi
+study_links "$TMP/mini" 1200 "$TMP/s1200"
+run "$SPLITROI" slurm "$TMP/s1200/study.ini" --out "$TMP/s1200/res" --submit --cpus 1 --mem 64M --quiet
+expect_status 0 "1,200 subjects submitted to slurmctld"
+read -r -a ids <"$TMP/out"
+if [ "${#ids[@]}" -eq 3 ]; then
+	ok "two arrays (1000 and 200 tasks) and the group job: ${ids[*]}"
+	dep=$(scontrol show job "${ids[2]}" | grep -o 'Dependency=[^ ]*')
+	case $dep in
+	*"afterany:${ids[0]}_*"*"afterany:${ids[1]}_*"*) ok "the group job depends on both arrays ($dep)" ;;
+	*) notok "group job dependency: $dep" ;;
+	esac
+	n=$(squeue -h -r -t all -j "${ids[0]},${ids[1]}" | wc -l)
+	if [ "$n" -eq 1200 ]; then ok "the scheduler holds 1,200 array tasks"; else notok "tasks queued: $n"; fi
+	run "$SPLITROI" slurm "$TMP/s1200/study.ini" --out "$TMP/s1200/res" --status
+	if grep -Eq '^  failed +0$' "$TMP/out" && grep -Eq '^  not started +0$' "$TMP/out"; then
+		ok "--status finds every subject queued, running or complete"
+	else
+		notok "status of the 1,200: $(head -8 "$TMP/out")"
+	fi
+	scancel "${ids[@]}"
+	wait_jobs "${ids[0]},${ids[1]},${ids[2]}" 60 || notok "the 1,200-subject jobs did not leave the queue"
+else
+	notok "job ids: $(cat "$TMP/out" "$TMP/err")"
+fi
+
+# ---- MaxArraySize 5: 12 subjects in three arrays, tables equal to a local run ----
+if cluster_set MaxArraySize 5; then ok "slurmctld reconfigured to MaxArraySize 5"; else notok "MaxArraySize not set: $(scontrol show config | grep MaxArraySize)"; fi
 run "$SPLITROI" simulate --out "$TMP/demo" --subjects 4 --quiet
 expect_status 0 "simulate a 4-subject study"
-run "$SPLITROI" analyze "$TMP/demo/study.ini" --out "$TMP/local" --quiet
-expect_status 0 "local analyze of the same study"
-
-run "$SPLITROI" slurm "$TMP/demo/study.ini" --out "$TMP/onslurm" --submit --cpus 1 --time 10:00 --quiet
-expect_status 0 "splitroi slurm --submit"
-read -r arr grp <"$TMP/out"
-if [ -n "${arr:-}" ] && [ -n "${grp:-}" ] && wait_jobs "$arr,$grp" 600; then
-	ok "the array and the group job finished within 10 minutes"
+study_links "$TMP/demo" 12 "$TMP/d12"
+run "$SPLITROI" analyze "$TMP/d12/study.ini" --out "$TMP/local" --quiet
+expect_status 0 "local analyze of a 12-subject study (its subjects link to the 4)"
+run "$SPLITROI" slurm "$TMP/d12/study.ini" --out "$TMP/onslurm" --cpus 1 --time 10:00
+expect_out "cluster limits \(scontrol show config\): MaxArraySize 5" "splitroi slurm reads MaxArraySize 5 from the cluster"
+expect_out "12 task\(s\) of 1 subject\(s\) in 3 array\(s\)" "and plans three arrays"
+run "$SPLITROI" slurm "$TMP/d12/study.ini" --out "$TMP/onslurm" --submit --cpus 1 --time 10:00 --quiet
+expect_status 0 "splitroi slurm --submit: every array accepted"
+read -r -a ids <"$TMP/out"
+if [ "${#ids[@]}" -eq 4 ]; then
+	dep=$(scontrol show job "${ids[3]}" | grep -o 'Dependency=[^ ]*')
+	case $dep in
+	*"afterany:${ids[0]}_*"*"afterany:${ids[1]}_*"*"afterany:${ids[2]}_*"*) ok "three arrays; the group job depends on all three ($dep)" ;;
+	*) notok "group job dependency: $dep" ;;
+	esac
 else
-	notok "jobs '${arr:-}' '${grp:-}' did not finish: $(cat "$TMP/err")"
+	notok "job ids: $(cat "$TMP/out" "$TMP/err")"
+fi
+all=$(echo "${ids[*]}" | tr ' ' ',')
+if [ "${#ids[@]}" -eq 4 ] && wait_jobs "$all" 600; then
+	ok "the arrays and the group job finished within 10 minutes"
+else
+	notok "jobs '$all' did not finish: $(cat "$TMP/err")"
 	cluster_logs
 fi
 for f in responses.csv group.csv; do
@@ -337,13 +379,16 @@ for f in responses.csv group.csv; do
 		notok "$f differs from the local run: $(cmp "$TMP/local/$f" "$TMP/onslurm/$f" 2>&1); logs: $(tail -5 "$TMP"/onslurm/slurm/logs/* 2>&1 | head -c 1500)"
 	fi
 done
-n=$(ls "$TMP"/onslurm/slurm/logs/sub-*.out 2>/dev/null | wc -l)
-if [ "$n" -eq 4 ]; then ok "one log per subject task"; else notok "subject logs: $n"; fi
+n=$(ls "$TMP"/onslurm/slurm/logs/sub-*.log 2>/dev/null | wc -l)
+if [ "$n" -eq 12 ]; then ok "one log per subject"; else notok "subject logs: $n"; fi
+if grep -qs "^#SBATCH --array=1-4$" "$TMP/onslurm/slurm/subjects-3.sbatch"; then ok "the third array holds four tasks"; else notok "array 3: $(grep array "$TMP"/onslurm/slurm/subjects-*.sbatch)"; fi
 
-run "$SPLITROI" slurm "$TMP/demo/study.ini" --out "$TMP/onslurm" --submit --cpus 1
+run "$SPLITROI" slurm "$TMP/d12/study.ini" --out "$TMP/onslurm" --submit --cpus 1
 expect_status 0 "resubmitting a finished study"
-expect_out "^0 of 4 subjects need analysis" "finds every subject complete"
+expect_out "^0 of 12 subjects need analysis" "finds every subject complete"
 expect_out "submitted: group step as job" "and submits only the group step"
+grp=$(sed -n 's/^submitted: group step as job \([0-9]*\).*/\1/p' "$TMP/out")
+[ -n "$grp" ] && wait_jobs "$grp" 120
 
 # one subject's run cut short: its task fails, the others and the group step do not
 cp -r "$TMP/demo" "$TMP/broken"
@@ -363,7 +408,8 @@ for s in 01 03 04; do
 	[ -s "$TMP/brokenout/sub-$s/run.json" ] && [ -s "$TMP/brokenout/sub-$s/responses.csv" ] && good=$((good + 1))
 done
 if [ "$good" -eq 3 ] && [ ! -e "$TMP/brokenout/sub-02/run.json" ]; then ok "the other three subjects completed, sub-02 did not"; else notok "complete subjects: $good of 3; $(ls "$TMP/brokenout" 2>&1)"; fi
-if grep -qs 'sub-02 failed' "$TMP"/brokenout/slurm/logs/sub-*.out; then ok "sub-02's task log says why it failed"; else notok "no failure in the task logs: $(tail -3 "$TMP"/brokenout/slurm/logs/sub-*.out 2>&1 | head -c 800)"; fi
+L=$TMP/brokenout/slurm/logs/sub-02.log
+if grep -qs 'sub-02 failed' "$L"; then ok "sub-02's log says why it failed"; else notok "no failure in sub-02's log: $(cat "$L" 2>&1 | head -c 800)"; fi
 if [ -s "$TMP/brokenout/group.csv" ] && grep -q '^02,missing' "$TMP/brokenout/group_subjects.csv" &&
 	grep -qs 'sub-02' "$TMP"/brokenout/slurm/logs/group-*.out; then
 	ok "group.csv written; sub-02 listed as missing there and in the group log"
@@ -375,9 +421,17 @@ if awk -F, 'NR > 1 && $NF !~ /incomplete/ { bad = 1 } END { exit bad }' "$TMP/br
 else
 	notok "group rows not marked incomplete: $(head -3 "$TMP/brokenout/group.csv")"
 fi
-# the three good subjects agree with the local run (rows of responses.csv)
-if grep -v '^02,' "$TMP/local/responses.csv" | cmp -s - "$TMP/brokenout/responses.csv"; then
+# the three good subjects agree with the local run (sub-01, 03, 04 of the 12 link to the same data)
+if awk -F, 'NR == 1 || $1 == "01" || $1 == "03" || $1 == "04"' "$TMP/local/responses.csv" | cmp -s - "$TMP/brokenout/responses.csv"; then
 	ok "responses.csv holds exactly the local rows of the three good subjects"
 else
-	notok "responses.csv of the broken study differs from the local rows without sub-02"
+	notok "responses.csv of the broken study differs from the local rows of sub-01, 03 and 04"
+fi
+run "$SPLITROI" slurm "$TMP/broken/study.ini" --out "$TMP/brokenout" --status
+last=$(tail -2 "$L" | head -1)
+if grep -Eq '^  complete +3$' "$TMP/out" && grep -Eq '^  failed +1$' "$TMP/out" &&
+	grep -qF "failed: sub-02 (job ${arr}_2, log $L): $last" "$TMP/out"; then
+	ok "--status: 3 complete, sub-02 failed with its job and its log's last line"
+else
+	notok "status: $(cat "$TMP/out" "$TMP/err"); wanted: $last"
 fi
