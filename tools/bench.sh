@@ -43,3 +43,4 @@ echo "load average: $(cut -d' ' -f1-3 /proc/loadavg) on $(nproc) CPUs (wall time
 printf '%-40s %10.1f MB\n' "uncompressed run" "$(echo "$raw / 1048576" | bc -l)"
 printf '%-40s %10.1f MB\n' "peak RSS of fit" "$(echo "$rss_kb / 1024" | bc -l)"
 printf '%-40s %10.2f   (target <= 0.5)\n' "RSS ratio fit / run" "$(echo "$rss_kb * 1024 / $raw" | bc -l)"
+bash "$HERE/bench_slurm.sh" "$BIN"

@@ -22,6 +22,11 @@
 
 /* Bigger than zlib's 8 KiB default: inflating a run is the slow part of reading it. */
 #define NII_GZBUF (256u * 1024u)
+/*
+ * For a header alone: zlib inflates twice its buffer before it hands out the first bytes, so
+ * its 8 KiB default inflates 16 KiB to read 540; 1 KiB still holds either header version.
+ */
+#define NII_GZBUF_HEADER 1024u
 
 /* Quiets nifticlib once per process, thread safely (its debug level is a library global). */
 static pthread_once_t quiet_once = PTHREAD_ONCE_INIT;
@@ -242,8 +247,8 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, znzFi
 	zf = znzopen(path, "rb", gz);
 	if (znz_isnull(zf))
 		return sr_fail(e, SR_EIO, "%s: cannot open: %s", path, strerror(errno ? errno : EIO));
-	if (gz && want_data)
-		gzbuffer(zf->zfptr, NII_GZBUF);
+	if (gz)
+		gzbuffer(zf->zfptr, want_data ? NII_GZBUF : NII_GZBUF_HEADER);
 
 	if ((kind = read_exact(zf, path, raw, 348, what, sizeof what)) != RD_OK) {
 		rc = header_fail(e, path, kind, 1, what);
