@@ -438,6 +438,7 @@ typedef struct plan {
 	int study_loaded;
 	char **subs, **todo;
 	size_t nsub, ntodo;
+	size_t nqueued;      /* incomplete, but their task is still pending or running */
 	sizes *z;            /* per todo subject */
 	int *z_ok;           /* its headers could be read */
 	sizes worst;
@@ -555,27 +556,174 @@ static int load_study(plan *P, const char *path)
 	return 0;
 }
 
+/* ---- --status ---- */
+
+enum { ST_COMPLETE, ST_FAILED, ST_RUNNING, ST_PENDING, ST_STALE, ST_NOT_STARTED, ST_N };
+static const char *const state_names[ST_N] = { "complete", "failed", "running", "pending",
+					       "out of date", "not started" };
+
+/* One subject's last submission (from jobs.txt) and where it stands. */
+typedef struct substate {
+	long job, task;      /* 0 when never submitted */
+	int state;
+	char line[512];      /* failed: the last line of its log (or why) */
+} substate;
+
+/* A job array task the scheduler reported: "JOB_TASK STATE". */
+typedef struct qentry {
+	long job, task;
+	char state[24];
+} qentry;
+
+static int cmp_qentry(const void *a, const void *b)
+{
+	const qentry *x = a, *y = b;
+
+	if (x->job != y->job)
+		return x->job < y->job ? -1 : 1;
+	return (x->task > y->task) - (x->task < y->task);
+}
+
+static int cmp_label(const void *key, const void *elem)
+{
+	return strcmp(key, *(char *const *)elem);
+}
+
+/* Parses "JOB_TASK<sep>STATE" lines (squeue -o '%i %T', sacct -P) into a sorted list; others are skipped. */
+static qentry *parse_queue(const char *text, size_t *n)
+{
+	qentry *q = NULL;
+	size_t cap = 0;
+	const char *p;
+
+	*n = 0;
+	for (p = text; *p; p += strcspn(p, "\n"), p += *p == '\n') {
+		qentry x;
+		char *end;
+
+		x.job = strtol(p, &end, 10);
+		if (end == p || *end != '_')
+			continue;
+		x.task = strtol(end + 1, &end, 10);
+		if (*end != ' ' && *end != '|')
+			continue;
+		snprintf(x.state, sizeof x.state, "%.*s", (int)strcspn(end + 1, " |+\n"), end + 1);
+		if (*n == cap) {
+			cap = cap ? 2 * cap : 64;
+			q = xrealloc(q, cap * sizeof *q);
+		}
+		q[(*n)++] = x;
+	}
+	if (*n)
+		qsort(q, *n, sizeof *q, cmp_qentry);
+	return q;
+}
+
+static const qentry *find_queue(const qentry *q, size_t n, long job, long tid)
+{
+	qentry key;
+
+	key.job = job;
+	key.task = tid;
+	return n ? bsearch(&key, q, n, sizeof *q, cmp_qentry) : NULL;
+}
+
+/* Reads jobs.txt: each subject's latest submitted job and tid. */
+static void read_record(const plan *P, substate *ss)
+{
+	char path[4096], line[65536];
+	FILE *f;
+
+	snprintf(path, sizeof path, "%s/jobs.txt", P->dir);
+	f = fopen(path, "r");
+	if (!f)
+		return;
+	while (fgets(line, sizeof line, f)) {
+		char *save = NULL, *tok, *end;
+		long job = strtol(line, &end, 10), tid;
+
+		if (end == line || *end != ' ')
+			continue;
+		tid = strtol(end + 1, &end, 10);
+		if (*end != ' ')
+			continue;   /* the group job's line */
+		for (tok = strtok_r(end, " \n", &save); tok; tok = strtok_r(NULL, " \n", &save)) {
+			char **hit = bsearch(tok, P->subs, P->nsub, sizeof *P->subs, cmp_label);
+
+			if (hit) {
+				ss[hit - P->subs].job = job;
+				ss[hit - P->subs].task = tid;
+			}
+		}
+	}
+	fclose(f);
+}
+
+/* The scheduler's view of this study's jobs (squeue by job name); NULL when squeue is not on PATH or fails. */
+static qentry *read_queue(const plan *P, size_t *n)
+{
+	char *q_name = shq(P->name), *cmd = xmalloc(strlen(q_name) + 64);
+	sbuf out = { 0 };
+	qentry *q = NULL;
+
+	*n = 0;
+	sprintf(cmd, "squeue -h -r -o '%%i %%T' --name=%s 2>/dev/null", q_name);
+	if (on_path("squeue") && run_capture(cmd, &out) == 0)
+		q = parse_queue(out.s, n);
+	free(cmd);
+	free(q_name);
+	free(out.s);
+	return q;
+}
+
+/* 1 when the scheduler still has the task as pending or running (not ended). */
+static int is_live(const qentry *x, int *pending)
+{
+	static const char *const running[] = { "RUNNING", "CONFIGURING", "COMPLETING", "SUSPENDED", NULL };
+	size_t i;
+
+	*pending = x && strcmp(x->state, "PENDING") == 0;
+	if (!x || *pending)
+		return *pending;
+	for (i = 0; running[i]; i++)
+		if (strcmp(x->state, running[i]) == 0)
+			return 1;
+	return 0;
+}
+
 /*
  * The subjects without complete, up-to-date outputs (analyze's skip rule) and their
  * sizes from the run headers (each read once). 0 ok, 1 bad input (printed).
  */
 static int find_todo(plan *P)
 {
-	size_t i;
+	size_t i, nq = 0;
+	substate *ss = xcalloc(P->nsub, sizeof *ss);
+	qentry *q;
 	sr_err e;
 
+	/* subjects whose task is still pending or running are not submitted twice */
+	read_record(P, ss);
+	q = read_queue(P, &nq);
 	sr_err_init(&e, NULL, NULL);
 	P->todo = xcalloc(P->nsub, sizeof *P->todo);
 	P->z = xcalloc(P->nsub, sizeof *P->z);
 	P->z_ok = xcalloc(P->nsub, sizeof *P->z_ok);
 	for (i = 0; i < P->nsub; i++) {
 		size_t k = P->ntodo;
+		int pending;
 
 		if (analyze_subject_complete(&P->st, P->subs[i]))
 			continue;
+		if (ss[i].job && is_live(find_queue(q, nq, ss[i].job, ss[i].task), &pending)) {
+			P->nqueued++;
+			continue;
+		}
 		if (!valid_name(P->subs[i])) {
 			fprintf(stderr, "splitroi slurm: %s/sub-%s: a subject label must be letters and digits (BIDS) to go into a job script\n",
 				P->st.bids, P->subs[i]);
+			free(ss);
+			free(q);
 			return 1;
 		}
 		P->todo[P->ntodo++] = P->subs[i];
@@ -594,6 +742,8 @@ static int find_todo(plan *P)
 		if (P->z[k].volumes > P->worst.volumes)
 			P->worst.volumes = P->z[k].volumes;
 	}
+	free(ss);
+	free(q);
 	return 0;
 }
 
@@ -1020,109 +1170,6 @@ out:
 	free(done);
 	return rc;
 }
-/* ---- --status ---- */
-
-enum { ST_COMPLETE, ST_FAILED, ST_RUNNING, ST_PENDING, ST_STALE, ST_NOT_STARTED, ST_N };
-static const char *const state_names[ST_N] = { "complete", "failed", "running", "pending",
-					       "out of date", "not started" };
-
-/* One subject's last submission (from jobs.txt) and where it stands. */
-typedef struct substate {
-	long job, task;      /* 0 when never submitted */
-	int state;
-	char line[512];      /* failed: the last line of its log (or why) */
-} substate;
-
-/* A job array task the scheduler reported: "JOB_TASK STATE". */
-typedef struct qentry {
-	long job, task;
-	char state[24];
-} qentry;
-
-static int cmp_qentry(const void *a, const void *b)
-{
-	const qentry *x = a, *y = b;
-
-	if (x->job != y->job)
-		return x->job < y->job ? -1 : 1;
-	return (x->task > y->task) - (x->task < y->task);
-}
-
-static int cmp_label(const void *key, const void *elem)
-{
-	return strcmp(key, *(char *const *)elem);
-}
-
-/* Parses "JOB_TASK<sep>STATE" lines (squeue -o '%i %T', sacct -P) into a sorted list; others are skipped. */
-static qentry *parse_queue(const char *text, size_t *n)
-{
-	qentry *q = NULL;
-	size_t cap = 0;
-	const char *p;
-
-	*n = 0;
-	for (p = text; *p; p += strcspn(p, "\n"), p += *p == '\n') {
-		qentry x;
-		char *end;
-
-		x.job = strtol(p, &end, 10);
-		if (end == p || *end != '_')
-			continue;
-		x.task = strtol(end + 1, &end, 10);
-		if (*end != ' ' && *end != '|')
-			continue;
-		snprintf(x.state, sizeof x.state, "%.*s", (int)strcspn(end + 1, " |+\n"), end + 1);
-		if (*n == cap) {
-			cap = cap ? 2 * cap : 64;
-			q = xrealloc(q, cap * sizeof *q);
-		}
-		q[(*n)++] = x;
-	}
-	if (*n)
-		qsort(q, *n, sizeof *q, cmp_qentry);
-	return q;
-}
-
-static const qentry *find_queue(const qentry *q, size_t n, long job, long tid)
-{
-	qentry key;
-
-	key.job = job;
-	key.task = tid;
-	return n ? bsearch(&key, q, n, sizeof *q, cmp_qentry) : NULL;
-}
-
-/* Reads jobs.txt: each subject's latest submitted job and tid. */
-static void read_record(const plan *P, substate *ss)
-{
-	char path[4096], line[65536];
-	FILE *f;
-
-	snprintf(path, sizeof path, "%s/jobs.txt", P->dir);
-	f = fopen(path, "r");
-	if (!f)
-		return;
-	while (fgets(line, sizeof line, f)) {
-		char *save = NULL, *tok, *end;
-		long job = strtol(line, &end, 10), tid;
-
-		if (end == line || *end != ' ')
-			continue;
-		tid = strtol(end + 1, &end, 10);
-		if (*end != ' ')
-			continue;   /* the group job's line */
-		for (tok = strtok_r(end, " \n", &save); tok; tok = strtok_r(NULL, " \n", &save)) {
-			char **hit = bsearch(tok, P->subs, P->nsub, sizeof *P->subs, cmp_label);
-
-			if (hit) {
-				ss[hit - P->subs].job = job;
-				ss[hit - P->subs].task = tid;
-			}
-		}
-	}
-	fclose(f);
-}
-
 /*
  * The end of a subject's log: *ended = 1 with *status when the task's trailer line is
  * there, last = the last line before it. 0 when there is no log.
@@ -1167,20 +1214,15 @@ static void classify(const plan *P, size_t i, substate *s, const qentry *q, size
 {
 	const qentry *live = s->job ? find_queue(q, nq, s->job, s->task) : NULL;
 	const qentry *ended = s->job ? find_queue(acct, nacct, s->job, s->task) : NULL;
-	int has_log, done = 0, status = 0;
+	int has_log, done = 0, status = 0, pending;
 	char last[400];
 
 	if (analyze_subject_complete(&P->st, P->subs[i])) {
 		s->state = ST_COMPLETE;
 		return;
 	}
-	if (live && strcmp(live->state, "PENDING") == 0) {
-		s->state = ST_PENDING;
-		return;
-	}
-	if (live && (!strcmp(live->state, "RUNNING") || !strcmp(live->state, "CONFIGURING") ||
-		     !strcmp(live->state, "COMPLETING") || !strcmp(live->state, "SUSPENDED"))) {
-		s->state = ST_RUNNING;
+	if (is_live(live, &pending)) {
+		s->state = pending ? ST_PENDING : ST_RUNNING;
 		return;
 	}
 	if (!ended && live)
@@ -1230,14 +1272,10 @@ static int show_status(const plan *P)
 	qentry *q = NULL, *acct = NULL;
 	sbuf out = { 0 }, ids = { 0 };
 	int have_squeue = on_path("squeue"), have_sacct = on_path("sacct");
-	char *cmd, *q_name = shq(P->name);
+	char *cmd;
 
 	read_record(P, ss);
-	cmd = xmalloc(strlen(q_name) + 64);
-	sprintf(cmd, "squeue -h -r -o '%%i %%T' --name=%s 2>/dev/null", q_name);
-	if (have_squeue && run_capture(cmd, &out) == 0)
-		q = parse_queue(out.s, &nq);
-	free(cmd);
+	q = read_queue(P, &nq);
 	/* the accounting, for tasks the queue no longer shows (time limit, memory, cancelled) */
 	sb_printf(&ids, "%s", "");
 	for (i = 0; i < P->nsub; i++) {
@@ -1281,7 +1319,6 @@ static int show_status(const plan *P)
 	if (count[ST_FAILED] + count[ST_STALE] + count[ST_NOT_STARTED])
 		printf("%zu subject(s) neither complete nor queued; when the queue is empty, submit every incomplete subject again with: splitroi slurm %s --submit\n",
 		       count[ST_FAILED] + count[ST_STALE] + count[ST_NOT_STARTED], P->study_abs);
-	free(q_name);
 	free(out.s);
 	free(ids.s);
 	free(q);
@@ -1322,7 +1359,10 @@ static void print_plan(const plan *P)
 	const limits *L = &P->lim;
 
 	printf("%zu of %zu subjects need analysis; %zu complete and up to date\n", P->ntodo, P->nsub,
-	       P->nsub - P->ntodo);
+	       P->nsub - P->ntodo - P->nqueued);
+	if (P->nqueued)
+		printf("%zu more are still pending or running in the queue: left out, so that none runs twice (see --status)\n",
+		       P->nqueued);
 	if (L->from_cluster)
 		printf("cluster limits (scontrol show config): MaxArraySize %ld, MaxJobCount %ld", L->max_array_size,
 		       L->max_job_count);

@@ -270,6 +270,11 @@ if grep -qF "failed: sub-02 (job ${barr}_2, log $B/logs/sub-02.log): $last" "$TM
 else
 	notok "status: $(cat "$TMP/out"); wanted the line: $last"
 fi
+printf '%s_2 PENDING\n' "$barr" >"$TMP/queue"
+run $FAKE "$SPLITROI" slurm "$TMP/bad/study.ini" --out "$TMP/bad/res"
+expect_out "^0 of 2 subjects need analysis; 1 complete" "a subject whose task is still queued goes into no new array"
+expect_out "^1 more are still pending or running in the queue: left out" "and that is said"
+rm -f "$TMP/queue"
 run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/bad/study.ini" --out "$TMP/bad/res" --status --submit
 expect_status 2 "--status with --submit is a usage error"
 
