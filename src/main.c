@@ -27,7 +27,7 @@ static const struct command {
 	{ "parcels", cmd_parcels, CMD_NEEDS_ARGS, "make parcels from the group's localizer data or from coordinates" },
 	{ "report", cmd_report, CMD_NEEDS_ARGS, "write an HTML report of a study's results" },
 	{ "simulate", cmd_simulate, 0, "write an invented BIDS study with known true effects" },
-	{ "slurm", cmd_slurm, CMD_NEEDS_ARGS, "write (and submit) SLURM jobs: one per subject, then the group step" },
+	{ "slurm", cmd_slurm, CMD_NEEDS_ARGS, "write (and submit) SLURM job arrays of the subjects, then the group step; --status" },
 	{ NULL, NULL, 0, NULL }
 };
 

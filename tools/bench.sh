@@ -90,6 +90,8 @@ printf '%-44s %9.2f %9s   %s\n' "peak RSS of fit / uncompressed run" "$(echo "${
 echo "t maps of fit with ISA-L and with zlib: $same; correlation with numpy's t map: $agree"
 echo "load average: $(cut -d' ' -f1-3 /proc/loadavg) on $(nproc) CPUs (wall times need an idle machine)"
 
+bash "$HERE/bench_slurm.sh" "$BIN"
+
 if [ "${BENCH_STANDARD:-0}" != 1 ]; then
 	echo "standard-grid subject: skipped (BENCH_STANDARD=1 runs it: 6 runs of 91x109x91x200, about 1.5 GB)"
 	exit 0

@@ -1,4 +1,4 @@
-/* slurm.c - `splitroi slurm`: a study as SLURM jobs, one array task per subject, then the group step. */
+/* slurm.c - `splitroi slurm`: a study as SLURM job arrays within the cluster's limits, then the group step; --status. */
 #include <errno.h>
 #include <math.h>
 #include <stdarg.h>
@@ -23,30 +23,47 @@ static const cmdline_opt opts[] = {
 	{ "out", "DIR", "results folder (default: the study's 'out'), as for analyze" },
 	{ "partition", "NAME", "SLURM partition for every job (default: the cluster's default)" },
 	{ "account", "NAME", "SLURM account to charge" },
-	{ "time", "LIMIT", "time limit per subject, SLURM syntax, e.g. 30:00 or 2:00:00 (default: suggested)" },
-	{ "mem", "SIZE", "memory per subject task, e.g. 800M or 4G (default: suggested from the run sizes)" },
-	{ "cpus", "N", "CPUs per subject task, used as analyze --threads (default 2)" },
+	{ "time", "LIMIT", "time limit per array task, SLURM syntax, e.g. 30:00 or 2:00:00 (default: suggested)" },
+	{ "mem", "SIZE", "memory per array task, e.g. 800M or 4G (default: suggested from the run sizes)" },
+	{ "cpus", "N", "CPUs per array task, used as analyze --threads (default 2)" },
+	{ "per-task", "K", "subjects one after another in each array task (default 1, more when the queue limits need it)" },
+	{ "max-running", "N", "at most N tasks of the study run at once (SLURM's %N; several arrays then run one after another)" },
+	{ "array-size", "N", "most tasks in one array (default: the cluster's MaxArraySize - 1, else SLURM's default 1000)" },
 	{ "out-scripts", "DIR", "where the scripts and logs go (default OUT/slurm)" },
-	{ "submit", NULL, "submit both jobs with sbatch (the group job waits for every subject task)" },
+	{ "submit", NULL, "submit the arrays and the group job with sbatch (the group job waits for every array)" },
+	{ "status", NULL, "print where the study stands: complete, failed (with the log's last line), running, pending, not started" },
 	{ "splitroi", "PATH", "the splitroi binary the jobs run (default: this one)" },
 	{ "quiet", NULL, "print only the job ids (with --submit) and errors" },
 	{ NULL, NULL, NULL },
 };
-enum { O_OUT, O_PARTITION, O_ACCOUNT, O_TIME, O_MEM, O_CPUS, O_SCRIPTS, O_SUBMIT, O_BIN, O_QUIET,
-       O_N };
+enum { O_OUT, O_PARTITION, O_ACCOUNT, O_TIME, O_MEM, O_CPUS, O_PER_TASK, O_MAX_RUNNING, O_ARRAY_SIZE,
+       O_SCRIPTS, O_SUBMIT, O_STATUS, O_BIN, O_QUIET, O_N };
 
 static const cmdline_spec spec = {
 	"slurm", "STUDY.ini [options]",
-	"Writes SLURM batch scripts for a study: a job array with one task per subject\n"
-	"whose outputs are missing or out of date (each runs 'splitroi analyze STUDY\n"
-	"--subjects LABEL --no-group'), and a group job that waits for the whole array\n"
-	"(afterany: a failed subject does not hold it back) and runs 'splitroi analyze\n"
-	"STUDY --collect', which rebuilds OUT/responses.csv and the group tables from\n"
-	"the complete subjects and names the missing ones. Memory per task is suggested\n"
-	"from the largest subject's runs. Run the command again after a failure: only\n"
-	"subjects without complete outputs are submitted again.",
+	"Writes SLURM batch scripts for a study: job arrays whose tasks each analyze one\n"
+	"subject (or --per-task K, one after another) whose outputs are missing or out of\n"
+	"date ('splitroi analyze STUDY --subjects LABEL --no-group'), split so that every\n"
+	"array fits the cluster's MaxArraySize and the whole study its MaxJobCount (read\n"
+	"with 'scontrol show config'; SLURM's defaults when that cannot be run), and a\n"
+	"group job that waits for every array (afterany: a failed subject does not hold it\n"
+	"back) and runs 'splitroi analyze STUDY --collect', which rebuilds\n"
+	"OUT/responses.csv and the group tables from the complete subjects. Memory per\n"
+	"task is suggested from the largest subject's runs, time from the task's subjects.\n"
+	"Each subject's output goes to OUT/slurm/logs/sub-LABEL.log. --status reports\n"
+	"where the study stands. Run the command again after a failure: only subjects\n"
+	"without complete outputs are submitted again.",
 	opts,
 };
+
+/* SLURM's defaults (slurm.conf(5)): MaxArraySize 1001 (indices 0-1000), MaxJobCount 10000. */
+#define SLURM_DEFAULT_MAX_ARRAY_SIZE 1001
+#define SLURM_DEFAULT_MAX_JOB_COUNT 10000
+/*
+ * sbatch refuses batch scripts over 4 MB by default (SchedulerParameters=max_script_size);
+ * each array script lists its tasks' labels, so an array closes before 1 MB of them.
+ */
+#define ARRAY_LABEL_BYTES (1024 * 1024)
 
 /*
  * Memory and time per subject task, measured with GNU time (`/usr/bin/time -f %M`)
@@ -200,14 +217,6 @@ static long suggest_mem_mib(const sizes *z, long cpus)
 	return (long)mib;
 }
 
-/* The time model above with 4x headroom, at least 30 minutes; in minutes. */
-static long suggest_time_min(const sizes *z)
-{
-	long min = (long)ceil(4.0 * TIME_PER_VOXEL_VOLUME_S * z->volumes / 60.0);
-
-	return min < 30 ? 30 : min;
-}
-
 /* SLURM's memory syntax: digits with an optional K, M, G or T. */
 static int valid_mem(const char *s)
 {
@@ -316,19 +325,702 @@ static void sb_printf(sbuf *b, const char *fmt, ...)
 	b->n += (size_t)need;
 }
 
-/* The #SBATCH lines both jobs share. */
-static void sbatch_common(sbuf *b, const char *const *val, const char *name, const char *logs,
-			  const char *log_pattern)
+/* Runs cmd through the shell, its standard output into out (reset first). Returns its exit status, -1 if it did not run. */
+static int run_capture(const char *cmd, sbuf *out)
 {
-	sb_printf(b, "#SBATCH --job-name=%s\n", name);
-	if (val[O_PARTITION])
-		sb_printf(b, "#SBATCH --partition=%s\n", val[O_PARTITION]);
-	if (val[O_ACCOUNT])
-		sb_printf(b, "#SBATCH --account=%s\n", val[O_ACCOUNT]);
-	/* #SBATCH lines are not shell: no quoting, so the log folder must be free of spaces (checked) */
-	sb_printf(b, "#SBATCH --output=%s/%s\n", logs, log_pattern);
+	char buf[4096];
+	size_t k;
+	FILE *p;
+	int st;
+
+	out->n = 0;
+	sb_printf(out, "%s", "");
+	fflush(stdout);
+	p = popen(cmd, "r");
+	if (!p)
+		return -1;
+	while ((k = fread(buf, 1, sizeof buf - 1, p)) > 0) {
+		buf[k] = 0;
+		sb_printf(out, "%s", buf);
+	}
+	st = pclose(p);
+	if (st == -1 || !WIFEXITED(st))
+		return -1;
+	return WEXITSTATUS(st);
 }
 
+/* The cluster's limits on what may be queued. */
+typedef struct limits {
+	long max_array_size;   /* MaxArraySize: array indices 0 .. this - 1 */
+	long max_job_count;    /* MaxJobCount: every array task counts as a job */
+	long max_submit;       /* MaxSubmitJobs of the user's associations; 0 = none known */
+	int from_cluster;      /* 1 when read from `scontrol show config` */
+} limits;
+
+/* The number after "key = " on a line of `scontrol show config`; -1 when absent or not a number. */
+static long config_value(const char *text, const char *key)
+{
+	size_t klen = strlen(key);
+	const char *p;
+
+	for (p = text; p && *p; p = strchr(p, '\n'), p = p ? p + 1 : NULL) {
+		const char *v = p + klen;
+
+		if (strncmp(p, key, klen) != 0 || (*v != ' ' && *v != '='))
+			continue;
+		v += strspn(v, " =");
+		if (*v < '0' || *v > '9')
+			return -1;
+		return strtol(v, NULL, 10);
+	}
+	return -1;
+}
+
+/*
+ * Reads MaxArraySize and MaxJobCount from `scontrol show config`, and, when accounting
+ * goes through slurmdbd, the smallest MaxSubmitJobs of the user's associations.
+ * Without scontrol (or when it fails) SLURM's defaults stand.
+ */
+static void read_limits(limits *L)
+{
+	sbuf out = { 0 };
+	long v;
+
+	L->max_array_size = SLURM_DEFAULT_MAX_ARRAY_SIZE;
+	L->max_job_count = SLURM_DEFAULT_MAX_JOB_COUNT;
+	L->max_submit = 0;
+	L->from_cluster = 0;
+	if (!on_path("scontrol") || run_capture("scontrol show config 2>/dev/null", &out) != 0) {
+		free(out.s);
+		return;
+	}
+	v = config_value(out.s, "MaxArraySize");
+	if (v >= 0) {
+		L->max_array_size = v;
+		L->from_cluster = 1;
+	}
+	v = config_value(out.s, "MaxJobCount");
+	if (v > 0)
+		L->max_job_count = v;
+	v = config_value(out.s, "MaxSubmitJobs");
+	if (v > 0)
+		L->max_submit = v;
+	if (strstr(out.s, "accounting_storage/slurmdbd") && on_path("sacctmgr") &&
+	    run_capture("timeout 20 sacctmgr -n -P show assoc where user=\"$(id -un)\" format=MaxSubmit 2>/dev/null",
+			&out) == 0) {
+		const char *p;
+
+		for (p = out.s; *p; p += strcspn(p, "\n"), p += *p == '\n') {
+			v = (*p >= '0' && *p <= '9') ? strtol(p, NULL, 10) : 0;
+			if (v > 0 && (L->max_submit == 0 || v < L->max_submit))
+				L->max_submit = v;
+		}
+	}
+	free(out.s);
+}
+
+/* One array task: todo[first .. first + n), run one after another. */
+typedef struct task {
+	size_t first, n;
+} task;
+
+/* One job array: tasks[first .. first + n), its task k (1-based) being tasks[first + k - 1]. */
+typedef struct array {
+	size_t first, n;
+} array;
+
+/* Everything one run of the command decides and writes. */
+typedef struct plan {
+	const char *val[O_N];
+	int quiet;
+	long cpus, per_task, max_running, array_size;
+	study st;
+	int study_loaded;
+	char **subs, **todo;
+	size_t nsub, ntodo;
+	size_t nqueued;      /* incomplete, but their task is still pending or running */
+	sizes *z;            /* per todo subject */
+	int *z_ok;           /* its headers could be read */
+	sizes worst;
+	const char *largest;
+	limits lim;
+	task *tasks;
+	size_t ntasks;
+	array *arrays;
+	size_t narrays;
+	char *study_abs, *dir, *logs, *bin, *name, *q_bin, *q_study, *q_out;
+	char memtxt[32], timetxt[32];
+	double task_seconds; /* the longest task's suggested time */
+} plan;
+
+static void plan_release(plan *P)
+{
+	free(P->z);
+	free(P->z_ok);
+	free(P->tasks);
+	free(P->arrays);
+	free(P->study_abs);
+	free(P->dir);
+	free(P->logs);
+	free(P->bin);
+	free(P->name);
+	free(P->q_bin);
+	free(P->q_study);
+	free(P->q_out);
+	free(P->todo);
+	bids_strings_free(P->subs, P->nsub);
+	if (P->study_loaded)
+		study_release(&P->st);
+}
+
+/* Checks the option values; 0 ok, 2 usage error (printed). */
+static int check_options(plan *P)
+{
+	const char *const *val = P->val;
+
+	P->cpus = 2;
+	P->per_task = 0;
+	P->max_running = 0;
+	P->array_size = 0;
+	if (val[O_CPUS] && cmdline_int("slurm", "cpus", val[O_CPUS], 1, 256, &P->cpus))
+		return 2;
+	if (val[O_PER_TASK] && cmdline_int("slurm", "per-task", val[O_PER_TASK], 1, 1000000, &P->per_task))
+		return 2;
+	if (val[O_MAX_RUNNING] && cmdline_int("slurm", "max-running", val[O_MAX_RUNNING], 1, 100000000, &P->max_running))
+		return 2;
+	if (val[O_ARRAY_SIZE] && cmdline_int("slurm", "array-size", val[O_ARRAY_SIZE], 1, 100000000, &P->array_size))
+		return 2;
+	if (val[O_MEM] && !valid_mem(val[O_MEM])) {
+		cmdline_error("slurm", "--mem '%s': give whole units, e.g. 800M or 4G", val[O_MEM]);
+		return 2;
+	}
+	if (val[O_TIME] && !valid_time(val[O_TIME])) {
+		cmdline_error("slurm", "--time '%s': give minutes, MM:SS, HH:MM:SS or D-HH:MM:SS", val[O_TIME]);
+		return 2;
+	}
+	if ((val[O_PARTITION] && !valid_name(val[O_PARTITION])) ||
+	    (val[O_ACCOUNT] && !valid_name(val[O_ACCOUNT]))) {
+		int part = val[O_PARTITION] && !valid_name(val[O_PARTITION]);
+
+		cmdline_error("slurm", "--%s '%s': use letters, digits, '.', '_' and '-' only",
+			      part ? "partition" : "account", part ? val[O_PARTITION] : val[O_ACCOUNT]);
+		return 2;
+	}
+	if (val[O_STATUS] && val[O_SUBMIT]) {
+		cmdline_error("slurm", "--status only reads; give it without --submit");
+		return 2;
+	}
+	P->quiet = val[O_QUIET] != NULL;
+	return 0;
+}
+
+/* Loads the study, its subjects and the folders; 0 ok, 1 bad input (printed). */
+static int load_study(plan *P, const char *path)
+{
+	study_problems probs = { 0 };
+	sr_err e;
+	size_t i;
+
+	if (study_load(path, &P->st, &probs) != SR_OK) {
+		for (i = 0; i < probs.n; i++)
+			fprintf(stderr, "splitroi slurm: %s\n", probs.msg[i]);
+		study_problems_release(&probs);
+		return 1;
+	}
+	study_problems_release(&probs);
+	P->study_loaded = 1;
+	if (P->val[O_OUT] || P->st.out[0] != '/') {
+		char *a = absolute(P->val[O_OUT] ? P->val[O_OUT] : P->st.out);
+
+		free(P->st.out);
+		P->st.out = a;
+	}
+	P->study_abs = absolute(path);
+	sr_err_init(&e, NULL, NULL);
+	if (analyze_study_subjects(&P->st, &P->subs, &P->nsub, &e)) {
+		fprintf(stderr, "splitroi slurm: %s\n", e.msg);
+		return 1;
+	}
+	if (P->nsub == 0) {
+		fprintf(stderr, "splitroi slurm: %s: no subjects (sub-*) found\n", P->st.bids);
+		return 1;
+	}
+	P->dir = P->val[O_SCRIPTS] ? absolute(P->val[O_SCRIPTS]) : NULL;
+	if (!P->dir) {
+		P->dir = xmalloc(strlen(P->st.out) + 8);
+		sprintf(P->dir, "%s/slurm", P->st.out);
+	}
+	P->logs = xmalloc(strlen(P->dir) + 8);
+	sprintf(P->logs, "%s/logs", P->dir);
+	P->name = job_name(P->study_abs);
+	return 0;
+}
+
+/* ---- --status ---- */
+
+enum { ST_COMPLETE, ST_FAILED, ST_RUNNING, ST_PENDING, ST_STALE, ST_NOT_STARTED, ST_N };
+static const char *const state_names[ST_N] = { "complete", "failed", "running", "pending",
+					       "out of date", "not started" };
+
+/* One subject's last submission (from jobs.txt) and where it stands. */
+typedef struct substate {
+	long job, task;      /* 0 when never submitted */
+	int state;
+	char line[512];      /* failed: the last line of its log (or why) */
+} substate;
+
+/* A job array task the scheduler reported: "JOB_TASK STATE". */
+typedef struct qentry {
+	long job, task;
+	char state[24];
+} qentry;
+
+static int cmp_qentry(const void *a, const void *b)
+{
+	const qentry *x = a, *y = b;
+
+	if (x->job != y->job)
+		return x->job < y->job ? -1 : 1;
+	return (x->task > y->task) - (x->task < y->task);
+}
+
+static int cmp_label(const void *key, const void *elem)
+{
+	return strcmp(key, *(char *const *)elem);
+}
+
+/* Parses "JOB_TASK<sep>STATE" lines (squeue -o '%i %T', sacct -P) into a sorted list; others are skipped. */
+static qentry *parse_queue(const char *text, size_t *n)
+{
+	qentry *q = NULL;
+	size_t cap = 0;
+	const char *p;
+
+	*n = 0;
+	for (p = text; *p; p += strcspn(p, "\n"), p += *p == '\n') {
+		qentry x;
+		char *end;
+
+		x.job = strtol(p, &end, 10);
+		if (end == p || *end != '_')
+			continue;
+		x.task = strtol(end + 1, &end, 10);
+		if (*end != ' ' && *end != '|')
+			continue;
+		snprintf(x.state, sizeof x.state, "%.*s", (int)strcspn(end + 1, " |+\n"), end + 1);
+		if (*n == cap) {
+			cap = cap ? 2 * cap : 64;
+			q = xrealloc(q, cap * sizeof *q);
+		}
+		q[(*n)++] = x;
+	}
+	if (*n)
+		qsort(q, *n, sizeof *q, cmp_qentry);
+	return q;
+}
+
+static const qentry *find_queue(const qentry *q, size_t n, long job, long tid)
+{
+	qentry key;
+
+	key.job = job;
+	key.task = tid;
+	return n ? bsearch(&key, q, n, sizeof *q, cmp_qentry) : NULL;
+}
+
+/* Reads jobs.txt: each subject's latest submitted job and tid. */
+static void read_record(const plan *P, substate *ss)
+{
+	char path[4096], line[65536];
+	FILE *f;
+
+	snprintf(path, sizeof path, "%s/jobs.txt", P->dir);
+	f = fopen(path, "r");
+	if (!f)
+		return;
+	while (fgets(line, sizeof line, f)) {
+		char *save = NULL, *tok, *end;
+		long job = strtol(line, &end, 10), tid;
+
+		if (end == line || *end != ' ')
+			continue;
+		tid = strtol(end + 1, &end, 10);
+		if (*end != ' ')
+			continue;   /* the group job's line */
+		for (tok = strtok_r(end, " \n", &save); tok; tok = strtok_r(NULL, " \n", &save)) {
+			char **hit = bsearch(tok, P->subs, P->nsub, sizeof *P->subs, cmp_label);
+
+			if (hit) {
+				ss[hit - P->subs].job = job;
+				ss[hit - P->subs].task = tid;
+			}
+		}
+	}
+	fclose(f);
+}
+
+/* The scheduler's view of this study's jobs (squeue by job name); NULL when squeue is not on PATH or fails. */
+static qentry *read_queue(const plan *P, size_t *n)
+{
+	char *q_name = shq(P->name), *cmd = xmalloc(strlen(q_name) + 64);
+	sbuf out = { 0 };
+	qentry *q = NULL;
+
+	*n = 0;
+	sprintf(cmd, "squeue -h -r -o '%%i %%T' --name=%s 2>/dev/null", q_name);
+	if (on_path("squeue") && run_capture(cmd, &out) == 0)
+		q = parse_queue(out.s, n);
+	free(cmd);
+	free(q_name);
+	free(out.s);
+	return q;
+}
+
+/* 1 when the scheduler still has the task as pending or running (not ended). */
+static int is_live(const qentry *x, int *pending)
+{
+	static const char *const running[] = { "RUNNING", "CONFIGURING", "COMPLETING", "SUSPENDED", NULL };
+	size_t i;
+
+	*pending = x && strcmp(x->state, "PENDING") == 0;
+	if (!x || *pending)
+		return *pending;
+	for (i = 0; running[i]; i++)
+		if (strcmp(x->state, running[i]) == 0)
+			return 1;
+	return 0;
+}
+
+/*
+ * The subjects without complete, up-to-date outputs (analyze's skip rule) and their
+ * sizes from the run headers (each read once). 0 ok, 1 bad input (printed).
+ */
+static int find_todo(plan *P)
+{
+	size_t i, nq = 0;
+	substate *ss = xcalloc(P->nsub, sizeof *ss);
+	qentry *q;
+	sr_err e;
+
+	/* subjects whose task is still pending or running are not submitted twice */
+	read_record(P, ss);
+	q = read_queue(P, &nq);
+	sr_err_init(&e, NULL, NULL);
+	P->todo = xcalloc(P->nsub, sizeof *P->todo);
+	P->z = xcalloc(P->nsub, sizeof *P->z);
+	P->z_ok = xcalloc(P->nsub, sizeof *P->z_ok);
+	for (i = 0; i < P->nsub; i++) {
+		size_t k = P->ntodo;
+		int pending;
+
+		if (analyze_subject_complete(&P->st, P->subs[i]))
+			continue;
+		if (ss[i].job && is_live(find_queue(q, nq, ss[i].job, ss[i].task), &pending)) {
+			P->nqueued++;
+			continue;
+		}
+		if (!valid_name(P->subs[i])) {
+			fprintf(stderr, "splitroi slurm: %s/sub-%s: a subject label must be letters and digits (BIDS) to go into a job script\n",
+				P->st.bids, P->subs[i]);
+			free(ss);
+			free(q);
+			return 1;
+		}
+		P->todo[P->ntodo++] = P->subs[i];
+		if (subject_sizes(&P->st, P->subs[i], &P->z[k], &e)) {
+			/* one bad subject must not hold back the others: its task reports the error */
+			fprintf(stderr, "splitroi slurm: warning: sub-%s: %s (left in the array; not used for --mem)\n",
+				P->subs[i], e.msg);
+			continue;
+		}
+		P->z_ok[k] = 1;
+		if (P->z[k].voxels * P->z[k].runs > P->worst.voxels * P->worst.runs) {
+			P->worst.voxels = P->z[k].voxels;
+			P->worst.runs = P->z[k].runs;
+			P->largest = P->subs[i];
+		}
+		if (P->z[k].volumes > P->worst.volumes)
+			P->worst.volumes = P->z[k].volumes;
+	}
+	free(ss);
+	free(q);
+	return 0;
+}
+
+/*
+ * Packs the subjects into tasks (K a task) and the tasks into arrays that fit the
+ * cluster's limits. 0 ok, 1 when the study cannot fit as asked (printed).
+ */
+static int pack(plan *P)
+{
+	const limits *L = &P->lim;
+	long budget = L->max_job_count;
+	size_t i, k, bytes = 0;
+
+	if (L->max_submit > 0 && L->max_submit < budget)
+		budget = L->max_submit;
+	budget -= 1;   /* the group job */
+	if (!P->array_size)
+		P->array_size = L->max_array_size - 1;
+	if (P->array_size < 1) {
+		fprintf(stderr, "splitroi slurm: the cluster takes no job arrays (MaxArraySize = %ld); ask its administrators, or give --array-size\n",
+			L->max_array_size);
+		return 1;
+	}
+	if (budget < 1) {
+		fprintf(stderr, "splitroi slurm: the cluster queues at most %ld job(s) for you: no room for the subjects and the group job\n",
+			budget + 1);
+		return 1;
+	}
+	if (!P->per_task) {
+		P->per_task = 1;
+		if (P->ntodo > (size_t)budget) {
+			P->per_task = (long)((P->ntodo + (size_t)budget - 1) / (size_t)budget);
+			if (!P->quiet)
+				printf("%zu subjects exceed the %ld jobs the cluster queues at once (%s): %ld subjects a task\n",
+				       P->ntodo, budget + 1, L->max_submit > 0 && L->max_submit <= L->max_job_count ? "MaxSubmitJobs" : "MaxJobCount",
+				       P->per_task);
+		}
+	}
+	P->ntasks = (P->ntodo + (size_t)P->per_task - 1) / (size_t)P->per_task;
+	if (P->ntasks > (size_t)budget) {
+		fprintf(stderr, "splitroi slurm: %zu tasks exceed the %ld jobs the cluster queues at once; give --per-task %zu or more\n",
+			P->ntasks, budget + 1, (P->ntodo + (size_t)budget - 1) / (size_t)budget);
+		return 1;
+	}
+	P->tasks = xcalloc(P->ntasks ? P->ntasks : 1, sizeof *P->tasks);
+	P->arrays = xcalloc(P->ntasks ? P->ntasks : 1, sizeof *P->arrays);
+	for (i = 0; i < P->ntasks; i++) {
+		size_t tb = 0;
+
+		P->tasks[i].first = i * (size_t)P->per_task;
+		P->tasks[i].n = P->ntodo - P->tasks[i].first < (size_t)P->per_task ? P->ntodo - P->tasks[i].first : (size_t)P->per_task;
+		for (k = 0; k < P->tasks[i].n; k++)
+			tb += strlen(P->todo[P->tasks[i].first + k]) + 1;
+		if (P->narrays == 0 || P->arrays[P->narrays - 1].n == (size_t)P->array_size ||
+		    bytes + tb > ARRAY_LABEL_BYTES) {
+			P->arrays[P->narrays].first = i;
+			P->narrays++;
+			bytes = 0;
+		}
+		P->arrays[P->narrays - 1].n++;
+		bytes += tb;
+	}
+	return 0;
+}
+
+/*
+ * Memory: the largest subject's by the model (subjects of a task run one after another,
+ * so K of them need no more); time: the longest task's subjects added up, 4x headroom,
+ * at least 30 minutes.
+ */
+static void suggest(plan *P)
+{
+	size_t i, k;
+
+	if (P->val[O_MEM])
+		snprintf(P->memtxt, sizeof P->memtxt, "%s", P->val[O_MEM]);
+	else
+		snprintf(P->memtxt, sizeof P->memtxt, "%ldM", suggest_mem_mib(&P->worst, P->cpus));
+	P->task_seconds = 0;
+	for (i = 0; i < P->ntasks; i++) {
+		double s = 0;
+
+		for (k = P->tasks[i].first; k < P->tasks[i].first + P->tasks[i].n; k++)
+			s += 4.0 * TIME_PER_VOXEL_VOLUME_S * (P->z_ok[k] ? P->z[k].volumes : P->worst.volumes);
+		if (s > P->task_seconds)
+			P->task_seconds = s;
+	}
+	if (P->val[O_TIME]) {
+		snprintf(P->timetxt, sizeof P->timetxt, "%s", P->val[O_TIME]);
+	} else {
+		long min = (long)ceil(P->task_seconds / 60.0);
+
+		if (min < 30)
+			min = 30;
+		snprintf(P->timetxt, sizeof P->timetxt, "%ld:%02ld:00", min / 60, min % 60);
+	}
+}
+/* The #SBATCH lines every job shares. */
+static void sbatch_common(sbuf *b, const plan *P, const char *log_pattern)
+{
+	sb_printf(b, "#SBATCH --job-name=%s\n", P->name);
+	if (P->val[O_PARTITION])
+		sb_printf(b, "#SBATCH --partition=%s\n", P->val[O_PARTITION]);
+	if (P->val[O_ACCOUNT])
+		sb_printf(b, "#SBATCH --account=%s\n", P->val[O_ACCOUNT]);
+	/* #SBATCH lines are not shell: no quoting, so the log folder must be free of spaces (checked) */
+	sb_printf(b, "#SBATCH --output=%s/%s\n", P->logs, log_pattern);
+}
+
+/* The path of array a's script (1-based in the name). Caller frees. */
+static char *array_script(const plan *P, size_t a)
+{
+	char *p = xmalloc(strlen(P->dir) + 48);
+
+	sprintf(p, "%s/subjects-%zu.sbatch", P->dir, a + 1);
+	return p;
+}
+
+/* Array a's script: its tasks' labels in a case list (sbatch keeps its own copy, so a rewrite cannot move a queued task). */
+static sr_status write_array(const plan *P, size_t a, sbuf *b, sr_err *e)
+{
+	const array *A = &P->arrays[a];
+	const task *t0 = &P->tasks[A->first], *tl = &P->tasks[A->first + A->n - 1];
+	char *path = array_script(P, a), *q_logs = shq(P->logs);
+	size_t t, k;
+	sr_status rc;
+
+	b->n = 0;
+	sb_printf(b, "#!/bin/bash\n# written by splitroi slurm for %s\n", P->study_abs);
+	sb_printf(b, "# array %zu of %zu: tasks %zu-%zu of %zu, sub-%s to sub-%s, %ld subject(s) a task\n", a + 1,
+		  P->narrays, A->first + 1, A->first + A->n, P->ntasks, P->todo[t0->first],
+		  P->todo[tl->first + tl->n - 1], P->per_task);
+	sbatch_common(b, P, "task-%A_%a.out");
+	sb_printf(b, "#SBATCH --array=1-%zu", A->n);
+	if (P->max_running)
+		sb_printf(b, "%%%ld", P->max_running);
+	sb_printf(b, "\n#SBATCH --ntasks=1\n#SBATCH --cpus-per-task=%ld\n", P->cpus);
+	sb_printf(b, "#SBATCH --mem=%s\n#SBATCH --time=%s\n", P->memtxt, P->timetxt);
+	if (!P->val[O_MEM])
+		sb_printf(b, "# --mem suggested for sub-%s (%.0f voxels x %.0f runs): peak measured model plus 50%%\n",
+			  P->largest ? P->largest : "?", P->worst.voxels, P->worst.runs);
+	if (P->max_running && P->narrays > 1)
+		sb_printf(b, "# --max-running %ld: this array waits for the one before it, so no more run at once\n",
+			  P->max_running);
+	sb_printf(b, "set -u\ncase ${SLURM_ARRAY_TASK_ID:-} in\n");
+	for (t = 0; t < A->n; t++) {
+		const task *T = &P->tasks[A->first + t];
+
+		sb_printf(b, "%zu) labels='", t + 1);
+		for (k = 0; k < T->n; k++)
+			sb_printf(b, "%s%s", k ? " " : "", P->todo[T->first + k]);
+		sb_printf(b, "' ;;\n");
+	}
+	sb_printf(b,
+		  "*) echo \"splitroi slurm: this array has no task '${SLURM_ARRAY_TASK_ID:-}'\" >&2; exit 1 ;;\n"
+		  "esac\n"
+		  "logs=%s\n"
+		  "failed=0\n"
+		  "for label in $labels; do\n"
+		  "\tlog=$logs/sub-$label.log\n"
+		  "\techo \"sub-$label: job ${SLURM_ARRAY_JOB_ID:-?}_$SLURM_ARRAY_TASK_ID on $(hostname) with ${SLURM_CPUS_PER_TASK:-1} CPUs, $(date -u '+%%Y-%%m-%%d %%H:%%M:%%S') UTC\" >\"$log\"\n"
+		  "\t# no --force: a subject already complete and up to date is skipped\n"
+		  "\t%s analyze %s --out %s --subjects \"$label\" --threads \"${SLURM_CPUS_PER_TASK:-1}\" --no-group --quiet >>\"$log\" 2>&1\n"
+		  "\tstatus=$?\n"
+		  "\techo \"splitroi slurm: sub-$label ended with status $status\" >>\"$log\"\n"
+		  "\techo \"sub-$label: status $status (log: $log)\"\n"
+		  "\t[ \"$status\" -eq 0 ] || failed=$((failed + 1))\n"
+		  "done\n"
+		  "[ \"$failed\" -eq 0 ]\n",
+		  q_logs, P->q_bin, P->q_study, P->q_out);
+	rc = write_file(path, b->s, 0, e);
+	free(path);
+	free(q_logs);
+	return rc;
+}
+
+/* subjects.txt (line k: the labels of task k over all arrays) and every array's script; stale scripts removed. */
+static sr_status write_arrays(const plan *P, sbuf *b, sr_err *e)
+{
+	char path[4096];
+	size_t i, k;
+	sr_status rc;
+
+	snprintf(path, sizeof path, "%s/subjects.txt", P->dir);
+	b->n = 0;
+	sb_printf(b, "%s", "");
+	for (i = 0; i < P->ntasks; i++)
+		for (k = 0; k < P->tasks[i].n; k++)
+			sb_printf(b, "%s%s", P->todo[P->tasks[i].first + k], k + 1 < P->tasks[i].n ? " " : "\n");
+	rc = write_file(path, b->s, 0, e);
+	for (i = 0; !rc && i < P->narrays; i++)
+		rc = write_array(P, i, b, e);
+	if (rc)
+		return rc;
+	/* arrays of an earlier, larger plan (and the single script of earlier versions) */
+	for (i = P->narrays;; i++) {
+		char *p = array_script(P, i);
+		int gone = unlink(p) != 0;
+
+		free(p);
+		if (gone)
+			break;
+	}
+	snprintf(path, sizeof path, "%s/subjects.sbatch", P->dir);
+	unlink(path);
+	return SR_OK;
+}
+
+static sr_status write_group(const plan *P, sbuf *b, sr_err *e)
+{
+	char path[4096];
+
+	snprintf(path, sizeof path, "%s/group.sbatch", P->dir);
+	b->n = 0;
+	sb_printf(b, "#!/bin/bash\n# written by splitroi slurm for %s: the combined and group tables\n", P->study_abs);
+	sbatch_common(b, P, "group-%j.out");
+	sb_printf(b, "#SBATCH --ntasks=1\n#SBATCH --cpus-per-task=1\n#SBATCH --mem=1G\n#SBATCH --time=30:00\n");
+	sb_printf(b, "set -u\nexec %s analyze %s --out %s --collect\n", P->q_bin, P->q_study, P->q_out);
+	return write_file(path, b->s, 0, e);
+}
+
+/*
+ * submit.sh: submits every array, then the group job after all of them, and records
+ * the job ids in jobs.txt as --submit does; a refused array cancels those before it.
+ */
+static sr_status write_submit_sh(const plan *P, sbuf *b, sr_err *e)
+{
+	char path[4096], *q_rec, *q;
+	size_t a;
+
+	snprintf(path, sizeof path, "%s/jobs.txt", P->dir);
+	q_rec = shq(path);
+	snprintf(path, sizeof path, "%s/submit.sh", P->dir);
+	b->n = 0;
+	sb_printf(b, "#!/bin/sh\n# written by splitroi slurm: submits the %zu subject array(s), then the group step after all of them\n"
+		  "set -u\nrecord=%s\nsubmitted=''\n"
+		  "fail() {\n"
+		  "\tif [ -n \"$submitted\" ]; then scancel $submitted && echo \"submit.sh: cancelled jobs$submitted\" >&2; fi\n"
+		  "\techo \"submit.sh: sbatch refused $1; nothing of this study is left queued by this script\" >&2\n"
+		  "\texit 1\n}\n",
+		  P->narrays, q_rec);
+	for (a = 0; a < P->narrays; a++) {
+		char *s = array_script(P, a);
+
+		q = shq(s);
+		sb_printf(b, "a%zu=$(sbatch --parsable ", a + 1);
+		if (P->max_running && a > 0)
+			sb_printf(b, "--dependency=afterany:$a%zu ", a);
+		sb_printf(b, "%s) || fail %s\na%zu=${a%zu%%%%;*}\nsubmitted=\"$submitted $a%zu\"\n", q, q, a + 1, a + 1, a + 1);
+		free(q);
+		free(s);
+	}
+	snprintf(path, sizeof path, "%s/group.sbatch", P->dir);
+	q = shq(path);
+	sb_printf(b, "group=$(sbatch --parsable ");
+	if (P->narrays) {
+		sb_printf(b, "--dependency=afterany");
+		for (a = 0; a < P->narrays; a++)
+			sb_printf(b, ":$a%zu", a + 1);
+		sb_printf(b, " ");
+	}
+	sb_printf(b, "%s) || fail %s\ngroup=${group%%%%;*}\n", q, q);
+	free(q);
+	for (a = 0; a < P->narrays; a++) {
+		char *s = array_script(P, a);
+
+		q = shq(s);
+		sb_printf(b, "sed -n \"s/^\\([0-9]*\\)) labels='\\(.*\\)' ;;\\$/$a%zu \\1 \\2/p\" %s >>\"$record\"\n", a + 1, q);
+		free(q);
+		free(s);
+	}
+	sb_printf(b, "echo \"$group group\" >>\"$record\"\n");
+	sb_printf(b, "echo \"subjects: job(s)$submitted (%zu tasks); group step: job $group\"\n", P->ntasks);
+	snprintf(path, sizeof path, "%s/submit.sh", P->dir);
+	free(q_rec);
+	return write_file(path, b->s, 1, e);
+}
 /*
  * Runs `sbatch --parsable [dep] script`, reads the job id ("123" or "123;cluster")
  * into id. Returns 0 ok; prints sbatch's own message otherwise.
@@ -336,63 +1028,410 @@ static void sbatch_common(sbuf *b, const char *const *val, const char *name, con
 static int submit(const char *dep, const char *script, char *id, size_t idlen)
 {
 	char *q = shq(script), *cmd;
-	FILE *p;
-	char line[256] = "";
+	sbuf out = { 0 };
 	int st;
 	size_t k;
 
 	cmd = xmalloc(strlen(q) + (dep ? strlen(dep) : 0) + 64);
-	sprintf(cmd, "sbatch --parsable %s%s%s", dep ? "--dependency=" : "", dep ? dep : "",
-		dep ? " " : "");
-	strcat(cmd, q);
+	sprintf(cmd, "sbatch --parsable %s%s%s%s", dep ? "--dependency=" : "", dep ? dep : "", dep ? " " : "", q);
 	free(q);
-	fflush(stdout);
-	p = popen(cmd, "r");
+	st = run_capture(cmd, &out);
 	free(cmd);
-	if (!p) {
-		fprintf(stderr, "splitroi slurm: cannot run sbatch: %s\n", strerror(errno));
+	if (st != 0) {
+		fprintf(stderr, "splitroi slurm: sbatch failed on %s (exit %d)\n", script, st);
+		free(out.s);
 		return 1;
 	}
-	if (!fgets(line, sizeof line, p))
-		line[0] = 0;
-	while (fgetc(p) != EOF)
-		;
-	st = pclose(p);
-	if (st == -1 || !WIFEXITED(st) || WEXITSTATUS(st) != 0) {
-		fprintf(stderr, "splitroi slurm: sbatch failed on %s (exit %d)\n", script,
-			st != -1 && WIFEXITED(st) ? WEXITSTATUS(st) : -1);
-		return 1;
-	}
-	k = strspn(line, "0123456789");
+	k = strspn(out.s, "0123456789");
 	if (k == 0 || k >= idlen) {
-		fprintf(stderr, "splitroi slurm: sbatch printed no job id for %s (got '%.60s')\n", script,
-			line);
+		fprintf(stderr, "splitroi slurm: sbatch printed no job id for %s (got '%.60s')\n", script, out.s);
+		free(out.s);
 		return 1;
 	}
-	memcpy(id, line, k);
+	memcpy(id, out.s, k);
 	id[k] = 0;
+	free(out.s);
 	return 0;
+}
+
+/* Cancels the jobs in ids (space-separated) after a refused submission, and says what is left. */
+static void cancel_submitted(const char *ids)
+{
+	char *cmd;
+
+	if (!*ids) {
+		fprintf(stderr, "splitroi slurm: nothing of this study was queued\n");
+		return;
+	}
+	cmd = xmalloc(strlen(ids) + 32);
+	sprintf(cmd, "scancel%s", ids);
+	fflush(stdout);
+	if (on_path("scancel") && system(cmd) == 0)
+		fprintf(stderr, "splitroi slurm: cancelled the jobs already submitted:%s; nothing of this study is queued\n", ids);
+	else
+		fprintf(stderr, "splitroi slurm: could not cancel them: jobs%s are still queued (scancel%s)\n", ids, ids);
+	free(cmd);
+}
+
+/* Appends what was submitted to jobs.txt: "JOB TASK LABEL..." a task, "JOB group" (the record --status reads). */
+static sr_status record_jobs(const plan *P, char (*ids)[32], const char *grp, sbuf *b, sr_err *e)
+{
+	char path[4096];
+	FILE *f;
+	size_t a, t, k;
+
+	snprintf(path, sizeof path, "%s/jobs.txt", P->dir);
+	b->n = 0;
+	sb_printf(b, "%s", "");
+	f = fopen(path, "r");
+	if (f) {
+		char buf[8192];
+		size_t n;
+
+		while ((n = fread(buf, 1, sizeof buf - 1, f)) > 0) {
+			buf[n] = 0;
+			sb_printf(b, "%s", buf);
+		}
+		fclose(f);
+	}
+	for (a = 0; a < P->narrays; a++)
+		for (t = 0; t < P->arrays[a].n; t++) {
+			const task *T = &P->tasks[P->arrays[a].first + t];
+
+			sb_printf(b, "%s %zu", ids[a], t + 1);
+			for (k = 0; k < T->n; k++)
+				sb_printf(b, " %s", P->todo[T->first + k]);
+			sb_printf(b, "\n");
+		}
+	sb_printf(b, "%s group\n", grp);
+	return write_file(path, b->s, 0, e);
+}
+
+/* --submit: every array (in turn when throttled), then the group job after all; 0 ok, 1 failed (printed). */
+static int submit_all(const plan *P, sbuf *b)
+{
+	char (*ids)[32] = xcalloc(P->narrays + 1, sizeof *ids), grp[32], *dep, *done;
+	size_t a, cap = 32 * (P->narrays + 2);
+	int rc = 1;
+	sr_err e;
+
+	dep = xmalloc(cap);
+	done = xmalloc(cap);
+	done[0] = 0;
+	for (a = 0; a < P->narrays; a++) {
+		char *s = array_script(P, a);
+		int bad;
+
+		if (P->max_running && a > 0)
+			snprintf(dep, cap, "afterany:%s", ids[a - 1]);
+		bad = submit(P->max_running && a > 0 ? dep : NULL, s, ids[a], sizeof ids[a]);
+		free(s);
+		if (bad) {
+			cancel_submitted(done);
+			goto out;
+		}
+		strcat(done, " ");
+		strcat(done, ids[a]);
+	}
+	snprintf(dep, cap, "afterany");
+	for (a = 0; a < P->narrays; a++)
+		strcat(strcat(dep, ":"), ids[a]);
+	{
+		char path[4096];
+
+		snprintf(path, sizeof path, "%s/group.sbatch", P->dir);
+		if (submit(P->narrays ? dep : NULL, path, grp, sizeof grp)) {
+			cancel_submitted(done);
+			goto out;
+		}
+	}
+	sr_err_init(&e, NULL, NULL);
+	if (record_jobs(P, ids, grp, b, &e))
+		fprintf(stderr, "splitroi slurm: warning: %s (--status cannot tell queued subjects)\n", e.msg);
+	if (P->quiet) {
+		printf("%s %s\n", P->narrays ? done + 1 : "-", grp);
+	} else if (P->narrays) {
+		char *commas = xstrdup(done + 1), *c;
+
+		for (c = commas; *c; c++)
+			if (*c == ' ')
+				*c = ',';
+		printf("submitted: %zu subject array(s), job(s)%s (%zu tasks), group step as job %s (after all of them)\n"
+		       "logs: %s\nwatch: squeue -j %s,%s\nstatus: splitroi slurm %s --status\n",
+		       P->narrays, done, P->ntasks, grp, P->logs, commas, grp, P->study_abs);
+		free(commas);
+	} else {
+		printf("submitted: group step as job %s\n", grp);
+	}
+	rc = 0;
+out:
+	free(ids);
+	free(dep);
+	free(done);
+	return rc;
+}
+/*
+ * The end of a subject's log: *ended = 1 with *status when the task's trailer line is
+ * there, last = the last line before it. 0 when there is no log.
+ */
+static int read_log_tail(const plan *P, const char *label, int *ended, int *status, char *last, size_t len)
+{
+	char path[4096], buf[8192], *lines[2] = { NULL, NULL }, *p;
+	FILE *f;
+	long size;
+	size_t n;
+
+	snprintf(path, sizeof path, "%s/sub-%s.log", P->logs, label);
+	f = fopen(path, "r");
+	if (!f)
+		return 0;
+	if (fseek(f, 0, SEEK_END) == 0 && (size = ftell(f)) > (long)sizeof buf - 1)
+		fseek(f, size - (long)sizeof buf + 1, SEEK_SET);
+	else
+		rewind(f);
+	n = fread(buf, 1, sizeof buf - 1, f);
+	fclose(f);
+	buf[n] = 0;
+	/* the last two non-empty lines */
+	for (p = strtok(buf, "\n"); p; p = strtok(NULL, "\n")) {
+		lines[0] = lines[1];
+		lines[1] = p;
+	}
+	*ended = 0;
+	last[0] = 0;
+	if (lines[1] && strncmp(lines[1], "splitroi slurm: sub-", 20) == 0 && strstr(lines[1], " ended with status ")) {
+		*ended = 1;
+		*status = atoi(strstr(lines[1], " ended with status ") + 19);
+		lines[1] = lines[0];
+	}
+	snprintf(last, len, "%s", lines[1] ? lines[1] : "(empty log)");
+	return 1;
+}
+
+/* Where one subject stands, from its outputs, the queue, its log and the accounting. */
+static void classify(const plan *P, size_t i, substate *s, const qentry *q, size_t nq, const qentry *acct,
+		     size_t nacct)
+{
+	const qentry *live = s->job ? find_queue(q, nq, s->job, s->task) : NULL;
+	const qentry *ended = s->job ? find_queue(acct, nacct, s->job, s->task) : NULL;
+	int has_log, done = 0, status = 0, pending;
+	char last[400];
+
+	if (analyze_subject_complete(&P->st, P->subs[i])) {
+		s->state = ST_COMPLETE;
+		return;
+	}
+	if (is_live(live, &pending)) {
+		s->state = pending ? ST_PENDING : ST_RUNNING;
+		return;
+	}
+	if (!ended && live)
+		ended = live;   /* squeue still shows a job that ended a moment ago */
+	has_log = read_log_tail(P, P->subs[i], &done, &status, last, sizeof last);
+	if (!has_log) {
+		s->state = ST_NOT_STARTED;
+		if (ended)
+			snprintf(s->line, sizeof s->line, "job %ld_%ld %s before it started", s->job, s->task, ended->state);
+		return;
+	}
+	if (done && status == 0) {
+		s->state = ST_STALE;
+		return;
+	}
+	s->state = ST_FAILED;
+	if (done)
+		snprintf(s->line, sizeof s->line, "%s", last);
+	else
+		snprintf(s->line, sizeof s->line, "ended without a result (%s); last: %s",
+			 ended ? ended->state : "killed or still running outside the record", last);
+}
+
+/* The label list of one state, at most 20 labels. */
+static void print_labels(const plan *P, const substate *ss, int state, size_t count)
+{
+	size_t i, shown = 0;
+
+	if (!count || state == ST_FAILED || state == ST_COMPLETE)
+		return;
+	printf("%s:", state_names[state]);
+	for (i = 0; i < P->nsub && shown < 20; i++)
+		if (ss[i].state == state) {
+			printf(" sub-%s", P->subs[i]);
+			shown++;
+		}
+	if (count > shown)
+		printf(" and %zu more", count - shown);
+	printf("\n");
+}
+
+/* --status: prints where every subject stands; 0 (a report), 1 when the study cannot be read. */
+static int show_status(const plan *P)
+{
+	substate *ss = xcalloc(P->nsub, sizeof *ss);
+	size_t i, nq = 0, nacct = 0, count[ST_N] = { 0 };
+	qentry *q = NULL, *acct = NULL;
+	sbuf out = { 0 }, ids = { 0 };
+	int have_squeue = on_path("squeue"), have_sacct = on_path("sacct");
+	char *cmd;
+
+	read_record(P, ss);
+	q = read_queue(P, &nq);
+	/* the accounting, for tasks the queue no longer shows (time limit, memory, cancelled) */
+	sb_printf(&ids, "%s", "");
+	for (i = 0; i < P->nsub; i++) {
+		char one[32];
+
+		if (!ss[i].job || find_queue(q, nq, ss[i].job, ss[i].task) || ids.n > 60000)
+			continue;
+		snprintf(one, sizeof one, ",%ld,", ss[i].job);
+		if (!strstr(ids.s, one))
+			sb_printf(&ids, "%s%ld,", ids.n ? "" : ",", ss[i].job);
+	}
+	if (have_sacct && ids.n) {
+		cmd = xmalloc(ids.n + 64);
+		ids.s[ids.n - 1] = 0;
+		sprintf(cmd, "sacct -n -X -P -o JobID,State -j %s 2>/dev/null", ids.s + 1);
+		if (run_capture(cmd, &out) == 0)
+			acct = parse_queue(out.s, &nacct);
+		free(cmd);
+	}
+	for (i = 0; i < P->nsub; i++) {
+		classify(P, i, &ss[i], q, nq, acct, nacct);
+		count[ss[i].state]++;
+	}
+	printf("%s: %zu subjects\n", P->study_abs, P->nsub);
+	for (i = 0; i < ST_N; i++)
+		if (count[i] || i != ST_STALE)
+			printf("  %-12s %zu\n", state_names[i], count[i]);
+	if (!have_squeue)
+		printf("(squeue is not on PATH: queued tasks cannot be seen from here)\n");
+	for (i = 0; i < P->nsub; i++) {
+		char job[64] = "";
+
+		if (ss[i].state != ST_FAILED)
+			continue;
+		if (ss[i].job)
+			snprintf(job, sizeof job, "job %ld_%ld, ", ss[i].job, ss[i].task);
+		printf("failed: sub-%s (%slog %s/sub-%s.log): %s\n", P->subs[i], job, P->logs, P->subs[i], ss[i].line);
+	}
+	for (i = ST_RUNNING; i < ST_N; i++)
+		print_labels(P, ss, (int)i, count[i]);
+	if (count[ST_FAILED] + count[ST_STALE] + count[ST_NOT_STARTED])
+		printf("%zu subject(s) neither complete nor queued; when the queue is empty, submit every incomplete subject again with: splitroi slurm %s --submit\n",
+		       count[ST_FAILED] + count[ST_STALE] + count[ST_NOT_STARTED], P->study_abs);
+	free(out.s);
+	free(ids.s);
+	free(q);
+	free(acct);
+	free(ss);
+	return 0;
+}
+/* ---- the command ---- */
+
+/* The scripts folder, the binary and the quoted paths; 0 ok, 1 bad input (printed). */
+static int prepare_paths(plan *P, const char *argv0)
+{
+	sr_err e;
+
+	if (strpbrk(P->logs, " \t\n\"'\\%")) {
+		fprintf(stderr, "splitroi slurm: %s: #SBATCH lines cannot quote, so the scripts folder may not hold spaces, quotes, '\\' or '%%' (see --out-scripts)\n",
+			P->logs);
+		return 1;
+	}
+	sr_err_init(&e, NULL, NULL);
+	if (afile_mkdirs(P->logs, &e)) {
+		fprintf(stderr, "splitroi slurm: %s\n", e.msg);
+		return 1;
+	}
+	P->bin = P->val[O_BIN] ? absolute(P->val[O_BIN]) : self_path(argv0);
+	if (access(P->bin, X_OK) != 0)
+		fprintf(stderr, "splitroi slurm: warning: %s is not an executable here; the jobs will run it on the nodes\n",
+			P->bin);
+	P->q_bin = shq(P->bin);
+	P->q_study = shq(P->study_abs);
+	P->q_out = shq(P->st.out);
+	return 0;
+}
+
+/* What was written and how it fits the cluster. */
+static void print_plan(const plan *P)
+{
+	const limits *L = &P->lim;
+
+	printf("%zu of %zu subjects need analysis; %zu complete and up to date\n", P->ntodo, P->nsub,
+	       P->nsub - P->ntodo - P->nqueued);
+	if (P->nqueued)
+		printf("%zu more are still pending or running in the queue: left out, so that none runs twice (see --status)\n",
+		       P->nqueued);
+	if (L->from_cluster)
+		printf("cluster limits (scontrol show config): MaxArraySize %ld, MaxJobCount %ld", L->max_array_size,
+		       L->max_job_count);
+	else
+		printf("scontrol could not be run here: assuming SLURM's defaults, MaxArraySize %ld and MaxJobCount %ld (--array-size sets the array size)",
+		       L->max_array_size, L->max_job_count);
+	if (L->max_submit > 0)
+		printf(", MaxSubmitJobs %ld", L->max_submit);
+	printf("\n");
+	if (P->ntodo) {
+		printf("%zu task(s) of %ld subject(s) in %zu array(s) of at most %ld tasks", P->ntasks, P->per_task,
+		       P->narrays, P->array_size);
+		if (P->max_running)
+			printf(", at most %ld running at once", P->max_running);
+		printf("\nper task: %s CPUs, --mem=%s%s, --time=%s%s\n", P->val[O_CPUS] ? P->val[O_CPUS] : "2",
+		       P->memtxt, P->val[O_MEM] ? "" : " (suggested)", P->timetxt,
+		       P->val[O_TIME] ? "" : " (suggested)");
+	}
+	if (P->narrays > 1)
+		printf("wrote %s/subjects.txt, subjects-1.sbatch to subjects-%zu.sbatch, group.sbatch, submit.sh there\n",
+		       P->dir, P->narrays);
+	else if (P->narrays)
+		printf("wrote %s/subjects.txt, subjects-1.sbatch, group.sbatch, submit.sh there\n", P->dir);
+	else
+		printf("wrote %s/group.sbatch and submit.sh\n", P->dir);
+}
+
+/* Writes the scripts and submits them when asked; 0 ok, 1 failed (printed). */
+static int write_and_submit(plan *P)
+{
+	sbuf b = { 0 };
+	sr_err e;
+	int rc = 1;
+
+	sr_err_init(&e, NULL, NULL);
+	if (write_arrays(P, &b, &e) || write_group(P, &b, &e) || write_submit_sh(P, &b, &e)) {
+		fprintf(stderr, "splitroi slurm: %s\n", e.msg);
+		goto out;
+	}
+	if (!P->quiet)
+		print_plan(P);
+	if (P->val[O_SUBMIT]) {
+		if (!on_path("sbatch")) {
+			fprintf(stderr, "splitroi slurm: sbatch is not on PATH: the scripts are written; on a machine of the cluster run\n"
+				"  sh %s/submit.sh\n", P->dir);
+			goto out;
+		}
+		rc = submit_all(P, &b);
+		goto out;
+	}
+	if (!P->quiet) {
+		printf("submit with:  sh %s/submit.sh\n", P->dir);
+		if (!on_path("sbatch"))
+			printf("sbatch is not on PATH here: run that on a login node of the cluster\n");
+	}
+	rc = 0;
+out:
+	free(b.s);
+	return rc;
 }
 
 int cmd_slurm(int argc, char **argv)
 {
-	const char *val[O_N], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
-	int npos, rc, quiet;
-	long cpus = 2, mem_mib = 0, time_min = 0;
-	study st;
-	study_problems probs = { 0 };
-	char **subs = NULL, **todo = NULL;
-	size_t nsub = 0, ntodo = 0, i;
-	char *study_abs = NULL, *dir = NULL, *logs = NULL, *bin = NULL, *name = NULL;
-	char path[4096], memtxt[32], timetxt[32];
-	char *q_bin = NULL, *q_study = NULL, *q_out = NULL, *q_list = NULL;
-	char *subject_script = NULL, *group_script = NULL, *submit_script = NULL;
-	sbuf b = { 0 };
-	sizes worst = { 0 };
-	const char *largest = NULL;
-	sr_err e;
+	const char **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	int npos, rc;
+	plan P;
 
-	rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
+	memset(&P, 0, sizeof P);
+	rc = cmdline_parse(&spec, argc, argv, P.val, pos, &npos);
 	if (rc) {
 		free(pos);
 		return rc == 1 ? 0 : 2;
@@ -402,252 +1441,28 @@ int cmd_slurm(int argc, char **argv)
 		free(pos);
 		return 2;
 	}
-	rc = 2;
-	if (val[O_CPUS] && cmdline_int("slurm", "cpus", val[O_CPUS], 1, 256, &cpus))
-		goto out_pos;
-	if (val[O_MEM] && !valid_mem(val[O_MEM])) {
-		cmdline_error("slurm", "--mem '%s': give whole units, e.g. 800M or 4G", val[O_MEM]);
-		goto out_pos;
+	rc = check_options(&P);
+	if (rc)
+		goto out;
+	rc = load_study(&P, pos[0]);
+	if (rc)
+		goto out;
+	if (P.val[O_STATUS]) {
+		rc = show_status(&P);
+		goto out;
 	}
-	if (val[O_TIME] && !valid_time(val[O_TIME])) {
-		cmdline_error("slurm", "--time '%s': give minutes, MM:SS, HH:MM:SS or D-HH:MM:SS", val[O_TIME]);
-		goto out_pos;
-	}
-	if ((val[O_PARTITION] && !valid_name(val[O_PARTITION])) ||
-	    (val[O_ACCOUNT] && !valid_name(val[O_ACCOUNT]))) {
-		cmdline_error("slurm", "--%s '%s': use letters, digits, '.', '_' and '-' only",
-			      val[O_PARTITION] && !valid_name(val[O_PARTITION]) ? "partition" : "account",
-			      val[O_PARTITION] && !valid_name(val[O_PARTITION]) ? val[O_PARTITION] : val[O_ACCOUNT]);
-		goto out_pos;
-	}
-	quiet = val[O_QUIET] != NULL;
-	rc = 1;
-	if (study_load(pos[0], &st, &probs) != SR_OK) {
-		for (i = 0; i < probs.n; i++)
-			fprintf(stderr, "splitroi slurm: %s\n", probs.msg[i]);
-		study_problems_release(&probs);
-		goto out_pos;
-	}
-	study_problems_release(&probs);
-	if (val[O_OUT]) {
-		free(st.out);
-		st.out = absolute(val[O_OUT]);
-	} else if (st.out[0] != '/') {
-		char *a = absolute(st.out);
-
-		free(st.out);
-		st.out = a;
-	}
-	study_abs = absolute(pos[0]);
-	sr_err_init(&e, NULL, NULL);
-	if (analyze_study_subjects(&st, &subs, &nsub, &e)) {
-		fprintf(stderr, "splitroi slurm: %s\n", e.msg);
-		goto out_study;
-	}
-	if (nsub == 0) {
-		fprintf(stderr, "splitroi slurm: %s: no subjects (sub-*) found\n", st.bids);
-		goto out_study;
-	}
-	/* the array holds only subjects without complete, up-to-date outputs (analyze's skip rule) */
-	todo = xcalloc(nsub, sizeof *todo);
-	for (i = 0; i < nsub; i++) {
-		sizes z;
-
-		if (analyze_subject_complete(&st, subs[i]))
-			continue;
-		if (subject_sizes(&st, subs[i], &z, &e)) {
-			/* one bad subject must not hold back the others: its task reports the error */
-			fprintf(stderr, "splitroi slurm: warning: sub-%s: %s (left in the array; not used for --mem)\n",
-				subs[i], e.msg);
-			todo[ntodo++] = subs[i];
-			continue;
-		}
-		if (z.voxels * z.runs > worst.voxels * worst.runs) {
-			worst = z;
-			largest = subs[i];
-		}
-		if (z.volumes > worst.volumes)
-			worst.volumes = z.volumes;
-		todo[ntodo++] = subs[i];
-	}
-	dir = val[O_SCRIPTS] ? absolute(val[O_SCRIPTS]) : NULL;
-	if (!dir) {
-		dir = xmalloc(strlen(st.out) + 8);
-		sprintf(dir, "%s/slurm", st.out);
-	}
-	logs = xmalloc(strlen(dir) + 8);
-	sprintf(logs, "%s/logs", dir);
-	if (strpbrk(logs, " \t\n\"'\\%")) {
-		fprintf(stderr, "splitroi slurm: %s: #SBATCH lines cannot quote, so the scripts folder may not hold spaces, quotes, '\\' or '%%' (see --out-scripts)\n",
-			logs);
-		goto out_study;
-	}
-	if (afile_mkdirs(logs, &e)) {
-		fprintf(stderr, "splitroi slurm: %s\n", e.msg);
-		goto out_study;
-	}
-	bin = val[O_BIN] ? absolute(val[O_BIN]) : self_path(argv[0]);
-	if (access(bin, X_OK) != 0)
-		fprintf(stderr, "splitroi slurm: warning: %s is not an executable here; the jobs will run it on the nodes\n",
-			bin);
-	name = job_name(study_abs);
-	q_bin = shq(bin);
-	q_study = shq(study_abs);
-	q_out = shq(st.out);
-
-	if (val[O_MEM])
-		snprintf(memtxt, sizeof memtxt, "%s", val[O_MEM]);
-	else {
-		mem_mib = suggest_mem_mib(&worst, cpus);
-		snprintf(memtxt, sizeof memtxt, "%ldM", mem_mib);
-	}
-	if (val[O_TIME])
-		snprintf(timetxt, sizeof timetxt, "%s", val[O_TIME]);
-	else {
-		time_min = suggest_time_min(&worst);
-		snprintf(timetxt, sizeof timetxt, "%ld:%02ld:00", time_min / 60, time_min % 60);
-	}
-
-	/* the subjects list: line k is array task k */
-	snprintf(path, sizeof path, "%s/subjects.txt", dir);
-	b.n = 0;
-	sb_printf(&b, "%s", "");
-	for (i = 0; i < ntodo; i++)
-		sb_printf(&b, "%s\n", todo[i]);
-	if (write_file(path, b.s, 0, &e)) {
-		fprintf(stderr, "splitroi slurm: %s\n", e.msg);
-		goto out_study;
-	}
-	q_list = shq(path);
-
-	/* the per-subject array */
-	subject_script = xmalloc(strlen(dir) + 32);
-	sprintf(subject_script, "%s/subjects.sbatch", dir);
-	b.n = 0;
-	sb_printf(&b, "#!/bin/bash\n# written by splitroi slurm for %s: one array task per subject\n", study_abs);
-	sbatch_common(&b, val, name, logs, "sub-%A_%a.out");
-	sb_printf(&b, "#SBATCH --array=1-%zu\n#SBATCH --ntasks=1\n#SBATCH --cpus-per-task=%ld\n", ntodo ? ntodo : 1, cpus);
-	sb_printf(&b, "#SBATCH --mem=%s\n#SBATCH --time=%s\n", memtxt, timetxt);
-	if (!val[O_MEM])
-		sb_printf(&b, "# --mem suggested for sub-%s (%.0f voxels x %.0f runs): peak measured model plus 50%%\n",
-			  largest ? largest : "?", worst.voxels, worst.runs);
-	if (!ntodo)
-		sb_printf(&b, "# every subject was complete and up to date when this was written: submit.sh skips this array\n");
-	sb_printf(&b,
-		  "set -u\n"
-		  "label=$(sed -n \"${SLURM_ARRAY_TASK_ID}p\" %s)\n"
-		  "if [ -z \"$label\" ]; then\n"
-		  "\techo \"splitroi slurm: no subject on line $SLURM_ARRAY_TASK_ID of \"%s >&2\n"
-		  "\texit 1\n"
-		  "fi\n"
-		  "echo \"sub-$label on $(hostname) with ${SLURM_CPUS_PER_TASK:-1} CPUs\"\n"
-		  "# no --force: a subject already complete and up to date is skipped\n"
-		  "exec %s analyze %s --out %s --subjects \"$label\" --threads \"${SLURM_CPUS_PER_TASK:-1}\" --no-group --quiet\n",
-		  q_list, q_list, q_bin, q_study, q_out);
-	if (write_file(subject_script, b.s, 0, &e)) {
-		fprintf(stderr, "splitroi slurm: %s\n", e.msg);
-		goto out_study;
-	}
-
-	/* the group step */
-	group_script = xmalloc(strlen(dir) + 32);
-	sprintf(group_script, "%s/group.sbatch", dir);
-	b.n = 0;
-	sb_printf(&b, "#!/bin/bash\n# written by splitroi slurm for %s: the combined and group tables\n", study_abs);
-	sbatch_common(&b, val, name, logs, "group-%j.out");
-	sb_printf(&b, "#SBATCH --ntasks=1\n#SBATCH --cpus-per-task=1\n#SBATCH --mem=1G\n#SBATCH --time=30:00\n");
-	sb_printf(&b, "set -u\nexec %s analyze %s --out %s --collect\n", q_bin, q_study, q_out);
-	if (write_file(group_script, b.s, 0, &e)) {
-		fprintf(stderr, "splitroi slurm: %s\n", e.msg);
-		goto out_study;
-	}
-
-	/* a script that submits both, for a cluster this command cannot reach */
-	{
-		char *q_sub = shq(subject_script), *q_grp = shq(group_script);
-
-		submit_script = xmalloc(strlen(dir) + 32);
-		sprintf(submit_script, "%s/submit.sh", dir);
-		b.n = 0;
-		sb_printf(&b, "#!/bin/sh\n# written by splitroi slurm: submits the subject array, then the group step after it\nset -e\n");
-		if (ntodo)
-			sb_printf(&b,
-				  "array=$(sbatch --parsable %s)\n"
-				  "array=${array%%%%;*}\n"
-				  "group=$(sbatch --parsable --dependency=afterany:$array %s)\n"
-				  "echo \"subjects: job $array (%zu tasks); group step: job ${group%%%%;*}\"\n",
-				  q_sub, q_grp, ntodo);
-		else
-			sb_printf(&b, "group=$(sbatch --parsable %s)\necho \"group step: job ${group%%%%;*}\"\n", q_grp);
-		free(q_sub);
-		free(q_grp);
-		if (write_file(submit_script, b.s, 1, &e)) {
-			fprintf(stderr, "splitroi slurm: %s\n", e.msg);
-			goto out_study;
-		}
-	}
-
-	if (!quiet) {
-		printf("%zu of %zu subjects need analysis; %zu complete and up to date\n", ntodo, nsub, nsub - ntodo);
-		if (ntodo)
-			printf("per subject: %s CPUs, --mem=%s%s, --time=%s%s\n", val[O_CPUS] ? val[O_CPUS] : "2",
-			       memtxt, val[O_MEM] ? "" : " (suggested)", timetxt, val[O_TIME] ? "" : " (suggested)");
-		printf("wrote %s/subjects.txt, %s, %s, %s\n", dir, subject_script, group_script, submit_script);
-	}
-	rc = 0;
-	if (val[O_SUBMIT]) {
-		char arr[64] = "", grp[64] = "", dep[96];
-
-		if (!on_path("sbatch")) {
-			fprintf(stderr, "splitroi slurm: sbatch is not on PATH: the scripts are written; on a machine of the cluster run\n"
-				"  sh %s\n", submit_script);
-			rc = 1;
-			goto out_study;
-		}
-		if (ntodo && submit(NULL, subject_script, arr, sizeof arr)) {
-			rc = 1;
-			goto out_study;
-		}
-		snprintf(dep, sizeof dep, "afterany:%s", arr);
-		if (submit(ntodo ? dep : NULL, group_script, grp, sizeof grp)) {
-			if (ntodo)
-				fprintf(stderr, "splitroi slurm: the subject array (job %s) is submitted; submit the group step with\n"
-					"  sbatch --dependency=%s %s\n", arr, dep, group_script);
-			rc = 1;
-			goto out_study;
-		}
-		if (quiet)
-			printf("%s %s\n", ntodo ? arr : "-", grp);
-		else if (ntodo)
-			printf("submitted: subjects as job array %s (%zu tasks), group step as job %s (after the array)\n"
-			       "logs: %s\nwatch: squeue -j %s,%s\n", arr, ntodo, grp, logs, arr, grp);
-		else
-			printf("submitted: group step as job %s\n", grp);
-	} else if (!quiet) {
-		printf("submit with:  sh %s\n", submit_script);
-		printf("(or: sbatch --parsable %s, then sbatch --dependency=afterany:<that job id> %s)\n",
-		       subject_script, group_script);
-		if (!on_path("sbatch"))
-			printf("sbatch is not on PATH here: run that on a login node of the cluster\n");
-	}
-out_study:
-	free(b.s);
-	free(q_bin);
-	free(q_study);
-	free(q_out);
-	free(q_list);
-	free(subject_script);
-	free(group_script);
-	free(submit_script);
-	free(name);
-	free(bin);
-	free(logs);
-	free(dir);
-	free(study_abs);
-	free(todo);
-	bids_strings_free(subs, nsub);
-	study_release(&st);
-out_pos:
+	read_limits(&P.lim);
+	rc = find_todo(&P);
+	if (!rc)
+		rc = pack(&P);
+	if (!rc)
+		rc = prepare_paths(&P, argv[0]);
+	if (rc)
+		goto out;
+	suggest(&P);
+	rc = write_and_submit(&P);
+out:
+	plan_release(&P);
 	free(pos);
 	return rc;
 }

@@ -7,6 +7,8 @@
 #   cluster_start DIR        starts the cluster; exports SLURM_CONF; 0 ok, 1 failed (logs printed)
 #   cluster_stop             stops what cluster_start started (safe to call twice)
 #   cluster_logs             prints the daemons' logs on stderr
+#   cluster_set KEY VALUE    sets one slurm.conf parameter (MaxArraySize, ...) and has slurmctld
+#                            read it again; 0 ok, 1 when scontrol does not show the new value
 
 CLUSTER_DIR=""
 
@@ -171,4 +173,43 @@ EOF
 	sinfo -N -l >&2 2>&1
 	cluster_logs
 	return 1
+}
+
+cluster_set() {
+	local key=$1 value=$2 i
+	sed -i "/^$key=/d" "$SLURM_CONF"
+	echo "$key=$value" >>"$SLURM_CONF"
+	scontrol reconfigure >/dev/null 2>&1 || return 1
+	for i in $(seq 20); do
+		scontrol show config 2>/dev/null | grep -Eq "^$key +=  *$value\$" && return 0
+		sleep 0.5
+	done
+	return 1
+}
+
+# study_links SRC N DEST: a study of N subjects (labels 0-padded to the width of N) at DEST
+# whose BIDS files are symbolic links to SRC's subjects, taken in turn; the study file and
+# parcels are copied. Many subjects in a second, for the tests and tools/bench_slurm.sh.
+study_links() {
+	/usr/bin/python3 - "$1" "$2" "$3" <<'PY'
+import os, shutil, sys
+src, n, dst = os.path.abspath(sys.argv[1]), int(sys.argv[2]), sys.argv[3]
+data = os.path.join(src, "data")
+subs = sorted(d for d in os.listdir(data) if d.startswith("sub-"))
+os.makedirs(os.path.join(dst, "data"), exist_ok=True)
+for f in os.listdir(src):
+    if os.path.isfile(os.path.join(src, f)):
+        shutil.copy(os.path.join(src, f), dst)
+for f in os.listdir(data):
+    if os.path.isfile(os.path.join(data, f)):
+        shutil.copy(os.path.join(data, f), os.path.join(dst, "data"))
+w = len(str(n))
+for i in range(n):
+    s = subs[i % len(subs)]
+    new = "sub-%0*d" % (w, i + 1)
+    func = os.path.join(dst, "data", new, "func")
+    os.makedirs(func)
+    for f in os.listdir(os.path.join(data, s, "func")):
+        os.symlink(os.path.join(data, s, "func", f), os.path.join(func, new + f[len(s):]))
+PY
 }
