@@ -23,10 +23,6 @@
 
 /* Bigger than zlib's 8 KiB default: inflating a run is the slow part of reading it. */
 #define NII_GZBUF (256u * 1024u)
-/*
- * For a header alone: zlib inflates twice its buffer before it hands out the first bytes, so
- * its 8 KiB default inflates 16 KiB to read 540; 1 KiB still holds either header version.
- */
 
 /* Quiets nifticlib once per process, thread safely (its debug level is a library global). */
 static pthread_once_t quiet_once = PTHREAD_ONCE_INIT;
