@@ -514,10 +514,8 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 	text = runrec_ini_get(pg->rec.study_text, "model", "confounds");
 	conf = words(text, &nconf);
 	free(text);
-	/* when in the volume the model samples: volume_time (older files: slice_reference) */
+	/* when in the volume the model samples: volume_time */
 	text = runrec_ini_get(pg->rec.study_text, "model", "volume_time");
-	if (!text)
-		text = runrec_ini_get(pg->rec.study_text, "model", "slice_reference");
 	if (text && strtod(text, NULL) >= 0 && strtod(text, NULL) <= 1)
 		vt = strtod(text, NULL);
 	free(text);

@@ -272,12 +272,10 @@ qc_col_kind qc_column_kind(const char *name, char *const *confounds, size_t ncon
 	size_t i;
 	const char *d = NULL;
 
-	if (!strcmp(name, "baseline") || !strcmp(name, "constant"))
+	if (!strcmp(name, "baseline"))
 		return QC_COL_BASELINE;
 	if (!strncmp(name, "cos_", 4))
 		d = name + 4;
-	else if (!strncmp(name, "drift_", 6))
-		d = name + 6;
 	if (d && *d) {
 		const char *q = d;
 

@@ -78,12 +78,12 @@ void qc_edge(const unsigned char *mask, size_t nx, size_t ny, unsigned char *edg
  */
 double qc_low_fence(const double *x, size_t n, double k);
 
-/* What a design-matrix column models, from its name (old and new names both understood). */
+/* What a design-matrix column models, from its name (io/designcsv's column names). */
 typedef enum qc_col_kind { QC_COL_CONDITION, QC_COL_CONFOUND, QC_COL_DRIFT, QC_COL_BASELINE } qc_col_kind;
 
 /*
- * The kind of a design column: "baseline" or "constant" is the baseline,
- * "cos_<n>" or "drift_<n>" a drift (cosine) column, a name among the nconf
+ * The kind of a design column: "baseline" is the baseline, "cos_<n>" a
+ * drift (cosine) column, a name among the nconf
  * confound names a confound, anything else a condition.
  */
 qc_col_kind qc_column_kind(const char *name, char *const *confounds, size_t nconf);

@@ -151,7 +151,7 @@ for name, svg in figs:
         cols = next(csv.reader(f))
     got = re.findall(r'<g class="trace" data-kind="([a-z]+)" data-column="([^"]+)">(.*?)</g>', svg, re.S)
     # kinds by name, understood here on their own: the intercept, cosine drifts, listed confounds
-    want = ['baseline' if c in ('constant', 'baseline') else 'drifts' if re.fullmatch(r'(drift|cos)_\d+', c)
+    want = ['baseline' if c == 'baseline' else 'drifts' if re.fullmatch(r'cos_\d+', c)
             else 'confounds' if c in conf else 'conditions' for c in cols]
     if [g[1] for g in got] != cols or [g[0] for g in got] != want:
         bad.append((name, 'columns/kinds', [g[:2] for g in got][:3]))
