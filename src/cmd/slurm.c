@@ -182,7 +182,7 @@ static sr_status subject_sizes(const study *st, const char *label, sizes *z, sr_
 		const char *task = t ? st->measures[t - 1].task : st->loc_task;
 		bids_run *runs;
 		size_t nr, r;
-		sr_status rc = bids_runs(st->bids, label, task, &runs, &nr, e);
+		sr_status rc = study_runs(st, label, task, &runs, &nr, e);
 
 		if (rc)
 			return rc;

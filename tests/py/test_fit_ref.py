@@ -141,11 +141,11 @@ with tempfile.TemporaryDirectory() as d:
     meta = json.load(open(os.path.join(out, "fit.json")))
     report(meta["conditions"] == ["melody", "scrambled"] and meta["effects"][2] == "melody-scrambled",
            "fit.json lists sorted conditions and the effect")
-    report(meta["options"]["model"] == "ar1-adjusted", "the default model is ar1-adjusted, and fit.json says so")
+    report(meta["options"]["autocorrelation"] == "ar1-adjusted", "the default model is ar1-adjusted, and fit.json says so")
     outp = os.path.join(d, "out_plain")
     p = fit([runs[0][0], "--out", outp, "--confounds", conf[0], "--confound-columns", "trans_x rot_z",
              "--effect", "melody - scrambled", "--autocorrelation", "ar1", "--quiet"])
-    report(p.returncode == 0 and json.load(open(os.path.join(outp, "fit.json")))["options"]["model"] == "ar1",
+    report(p.returncode == 0 and json.load(open(os.path.join(outp, "fit.json")))["options"]["autocorrelation"] == "ar1",
            "--model ar1 (the plain AR(1)) stays selectable")
     tol = 2e-6  # maps are float32
     per_run = []
