@@ -8,7 +8,8 @@
  * One option of a command. `arg` names the value ("N", "DIR") or is NULL for a flag.
  * A renamed option is a row { "old-name", CMDLINE_RENAMED, "new-name" } after the live
  * ones (so that the enum of indexes stays as it was): it is not shown in the help, and
- * giving it is a usage error that names the new option.
+ * giving it is a usage error that names the new option. The values array needs a slot
+ * for these rows as well.
  */
 #define CMDLINE_RENAMED "\x01renamed"
 typedef struct cmdline_opt {

@@ -43,7 +43,8 @@ static const cmdline_opt opts[] = {
 	{ NULL, NULL, NULL },
 };
 enum { O_OUT, O_EVENTS, O_CONDCOL, O_EFFECT, O_TR, O_CONF, O_CONFCOLS, O_MODEL, O_DRIFT, O_SLICE,
-       O_SMOOTH, O_MASK, O_THREADS, O_QUIET, O_STUDY, O_SUBJECT, O_TASK, O_N };
+       O_SMOOTH, O_MASK, O_THREADS, O_QUIET, O_STUDY, O_SUBJECT, O_TASK,
+       O_OLD_MODEL, O_OLD_VOLUME_TIME, O_N }; /* the renamed rows have slots too: cmdline_parse clears every row */
 
 static const cmdline_spec spec = {
 	"fit", "RUN_bold.nii[.gz]... --out DIR [options]\n"
