@@ -1256,6 +1256,8 @@ out:
 	parcel_set_release(&own_ps);
 	free(own_image);
 	free(own_names);
+	free(mask_owned);
+	free(mask_path_own);
 	if (rc) {
 		/* the table may already be written when the completion record fails */
 		snprintf(path, sizeof path, "%s/run.json", dir);
