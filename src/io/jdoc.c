@@ -94,12 +94,29 @@ void jdoc_library_versions(char *buf, size_t n)
 	snprintf(buf, n, "jansson %s; zlib %s", JANSSON_VERSION, zlibVersion());
 }
 
+/* The string members of object o as parallel malloc'ed arrays (other members skipped). */
+static void string_members(json_t *o, char ***keys, char ***vals, size_t *n)
+{
+	size_t cap = json_object_size(o) + 1;
+	const char *k;
+	json_t *v;
+
+	*keys = xcalloc(cap, sizeof **keys);
+	*vals = xcalloc(cap, sizeof **vals);
+	json_object_foreach(o, k, v) {
+		if (!json_is_string(v))
+			continue;
+		(*keys)[*n] = xstrdup(k);
+		(*vals)[*n] = xstrdup(json_string_value(v));
+		(*n)++;
+	}
+}
+
 sr_status jdoc_read_strings(const char *path, const char *key, char ***keys, char ***vals,
 			    size_t *n, sr_err *e)
 {
 	json_error_t je;
-	json_t *root = json_load_file(path, 0, &je), *o, *v;
-	const char *k;
+	json_t *root = json_load_file(path, 0, &je), *o;
 
 	*keys = *vals = NULL;
 	*n = 0;
@@ -110,19 +127,8 @@ sr_status jdoc_read_strings(const char *path, const char *key, char ***keys, cha
 			       je.text);
 	}
 	o = key ? json_object_get(root, key) : root;
-	if (json_is_object(o)) {
-		size_t cap = json_object_size(o) + 1;
-
-		*keys = xcalloc(cap, sizeof **keys);
-		*vals = xcalloc(cap, sizeof **vals);
-		json_object_foreach(o, k, v) {
-			if (!json_is_string(v))
-				continue;
-			(*keys)[*n] = xstrdup(k);
-			(*vals)[*n] = xstrdup(json_string_value(v));
-			(*n)++;
-		}
-	}
+	if (json_is_object(o))
+		string_members(o, keys, vals, n);
 	json_decref(root);
 	return SR_OK;
 }
@@ -141,24 +147,13 @@ void jdoc_strings_free(char **keys, char **vals, size_t n)
 
 int jdoc_strings_of(const jdoc *d, char ***keys, char ***vals, size_t *n)
 {
-	json_t *o = J(d), *v;
-	const char *k;
-	size_t cap;
+	json_t *o = J(d);
 
 	*keys = *vals = NULL;
 	*n = 0;
 	if (!json_is_object(o))
 		return -1;
-	cap = json_object_size(o) + 1;
-	*keys = xcalloc(cap, sizeof **keys);
-	*vals = xcalloc(cap, sizeof **vals);
-	json_object_foreach(o, k, v) {
-		if (!json_is_string(v))
-			continue;
-		(*keys)[*n] = xstrdup(k);
-		(*vals)[*n] = xstrdup(json_string_value(v));
-		(*n)++;
-	}
+	string_members(o, keys, vals, n);
 	return 0;
 }
 

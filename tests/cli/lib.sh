@@ -19,3 +19,11 @@ expect_err() {
 expect_out() {
 	if grep -Eq -- "$1" "$TMP/out"; then ok "$2"; else notok "$2: stdout lacks /$1/: $(head -c 400 "$TMP/out")"; fi
 }
+# analyzed_study PRESET: a tests/py/make_study.py study in $TMP/s, analyzed (no report); cds there
+analyzed_study() {
+	"${PYTHON:-/usr/bin/python3}" "$(dirname "${BASH_SOURCE[0]}")/../py/make_study.py" "$TMP/s" "$1" >/dev/null ||
+		{ notok "make_study.py failed"; exit 1; }
+	cd "$TMP/s" || exit 1
+	run "$SPLITROI" analyze study.ini --quiet --no-report
+	expect_status 0 "the study runs"
+}
