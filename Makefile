@@ -85,8 +85,9 @@ deps-build:
 	@bash tools/deps.sh build
 
 # Every test: unit binaries, command-line scripts, Python reference checks.
+# T=glm (or T="glm nii") runs only the test files whose names contain a word.
 test: all $(TEST_BIN) $(TOOL_BIN)
-	@BUILD=$(BUILD) PYTHON=$(PYTHON) bash tests/run.sh
+	@BUILD=$(BUILD) PYTHON=$(PYTHON) SPLITROI_TESTS="$(T)" bash tests/run.sh
 
 # The targets that install packages first run a second make for the rest, so that
 # nothing it does depends on what the machine had when this file was read.

@@ -3,20 +3,33 @@
 # the "ok" / "not ok" lines they print. A test that exits non-zero without
 # reporting a failure counts as one failure. Last line: "N passed, N failed".
 # Usage: tests/run.sh [unit|cli|py]...   (default: all three)
+# SPLITROI_TESTS="glm nii" runs only the tests whose file name contains one of
+# the words (`make check T=glm` sets it): test_glm, test_glm_ref.py, ...
 set -u
 BUILD=${BUILD:-build}
 PYTHON=${PYTHON:-/usr/bin/python3}
 export SPLITROI="$PWD/$BUILD/splitroi" PYTHON BUILD
 export SPLITROI_TEST_LEVEL=${SPLITROI_TEST_LEVEL:-full}
 kinds=${*:-unit cli py}
-passed=0 failed=0 skipped=0
+passed=0 failed=0 skipped=0 ran=0
 failures=()
 log=$(mktemp)
 trap 'rm -f "$log"' EXIT
 
+wanted() { # file name: is it among SPLITROI_TESTS (all when that is empty)?
+	local w
+	[ -z "${SPLITROI_TESTS:-}" ] && return 0
+	for w in ${SPLITROI_TESTS//,/ }; do
+		case $1 in *"$w"*) return 0 ;; esac
+	done
+	return 1
+}
+
 run_one() { # name, command...
 	local name=$1 rc
 	shift
+	wanted "$name" || return 0
+	ran=$((ran + 1))
 	local start=$(date +%s)
 	"$@" >"$log" 2>&1
 	rc=$?
@@ -60,6 +73,10 @@ for kind in $kinds; do
 		done ;;
 	esac
 done
+if [ "$ran" -eq 0 ] && [ -n "${SPLITROI_TESTS:-}" ]; then
+	echo "not ok - no test file matches \"$SPLITROI_TESTS\" (T=)"
+	failed=$((failed + 1))
+fi
 if [ ${#failures[@]} -gt 0 ]; then
 	echo "failing: ${failures[*]}"
 fi

@@ -177,240 +177,221 @@ static sr_status header_fail(sr_err *e, const char *path, int kind, int version,
 }
 
 /*
- * Opens path, reads and checks the header, fills info and (optionally) r.
- * On success *zfp is positioned at vox_offset when want_data, else closed.
+ * Opens path plainly first (errno gives the reason; two bytes tell gzip from plain):
+ * a regular file of at least 2 bytes. Fills *st and *is_gz.
  */
-static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, gzin **zfp,
-			     int want_data, int *is_gz, sr_err *e)
+static sr_status probe_file(const char *path, struct stat *st, int *is_gz, sr_err *e)
 {
-	unsigned char raw[sizeof(nifti_2_header)];
 	unsigned char magic2[2] = {0, 0};
-	char what[512];
-	struct stat st;
-	FILE *f;
-	gzin *zf = NULL;
-	raw_hdr rh;
-	int gz;
-	int bytes, kind;
-	uint32_t s0;
-	size_t nvox, nbytes;
-	sr_status rc = SR_OK;
+	FILE *f = fopen(path, "rb");
 
-	pthread_once(&quiet_once, quiet_nifti);
-	memset(&rh, 0, sizeof rh);
-	memset(info, 0, sizeof *info);
-	*zfp = NULL;
-	/* Open plainly first: errno gives the reason, and two bytes tell gzip from plain. */
-	f = fopen(path, "rb");
 	if (!f)
 		return sr_fail(e, SR_EIO, "%s: cannot open: %s", path, strerror(errno));
-	if (fstat(fileno(f), &st) != 0 || !S_ISREG(st.st_mode)) {
+	if (fstat(fileno(f), st) != 0 || !S_ISREG(st->st_mode)) {
 		fclose(f);
 		return sr_fail(e, SR_EIO, "%s: cannot open: not a regular file", path);
 	}
 	if (fread(magic2, 1, 2, f) != 2) {
 		fclose(f);
 		return sr_fail(e, SR_EFORMAT, "%s: not a NIfTI file: %lld bytes, too short for a header",
-			       path, (long long)st.st_size);
+			       path, (long long)st->st_size);
 	}
 	fclose(f);
-	gz = magic2[0] == 0x1f && magic2[1] == 0x8b;
-	*is_gz = gz;
-	rc = gzin_open(path, inflater(), &zf, e);
-	if (rc != SR_OK)
-		return rc;
+	*is_gz = magic2[0] == 0x1f && magic2[1] == 0x8b;
+	return SR_OK;
+}
 
-	if ((kind = read_exact(zf, raw, 348, what, sizeof what)) != RD_OK) {
-		rc = header_fail(e, path, kind, 1, what);
-		goto fail;
-	}
+/* Reads the NIfTI-1 or NIfTI-2 header at the start of zf into rh (native byte order). */
+static sr_status read_raw_header(gzin *zf, const char *path, raw_hdr *rh, sr_err *e)
+{
+	unsigned char raw[sizeof(nifti_2_header)];
+	char what[512];
+	uint32_t s0;
+	int kind;
+
+	if ((kind = read_exact(zf, raw, 348, what, sizeof what)) != RD_OK)
+		return header_fail(e, path, kind, 1, what);
 	memcpy(&s0, raw, 4);
 	if (s0 == 348 || bswap32(s0) == 348) {
 		nifti_1_header h1;
 
-		rh.version = 1;
-		rh.swapped = s0 != 348;
-		rh.hdr_size = 348;
-		if (memcmp(raw + 344, "ni1", 4) == 0) {
-			rc = sr_fail(e, SR_EFORMAT,
-				     "%s: a NIfTI-1 header/image pair (.hdr/.img) is not supported; "
-				     "use a single .nii or .nii.gz file", path);
-			goto fail;
-		}
-		if (memcmp(raw + 344, "n+1", 4) != 0) {
-			rc = sr_fail(e, SR_EFORMAT, "%s: not a NIfTI-1 file: bad magic (expected \"n+1\")",
-				     path);
-			goto fail;
-		}
+		rh->version = 1;
+		rh->swapped = s0 != 348;
+		rh->hdr_size = 348;
+		if (memcmp(raw + 344, "ni1", 4) == 0)
+			return sr_fail(e, SR_EFORMAT,
+				       "%s: a NIfTI-1 header/image pair (.hdr/.img) is not supported; "
+				       "use a single .nii or .nii.gz file", path);
+		if (memcmp(raw + 344, "n+1", 4) != 0)
+			return sr_fail(e, SR_EFORMAT,
+				       "%s: not a NIfTI-1 file: bad magic (expected \"n+1\")", path);
 		memcpy(&h1, raw, sizeof h1);
-		if (rh.swapped)
+		if (rh->swapped)
 			swap_nifti_header(&h1, 1);
-		from_n1(&h1, &rh);
-	} else if (s0 == 540 || bswap32(s0) == 540) {
+		from_n1(&h1, rh);
+		return SR_OK;
+	}
+	if (s0 == 540 || bswap32(s0) == 540) {
 		nifti_2_header h2;
 
-		rh.version = 2;
-		rh.swapped = s0 != 540;
-		rh.hdr_size = 540;
-		if ((kind = read_exact(zf, raw + 348, 540 - 348, what, sizeof what)) != RD_OK) {
-			rc = header_fail(e, path, kind, 2, what);
-			goto fail;
-		}
-		if (memcmp(raw + 4, "ni2", 4) == 0) {
-			rc = sr_fail(e, SR_EFORMAT,
-				     "%s: a NIfTI-2 header/image pair is not supported; "
-				     "use a single .nii or .nii.gz file", path);
-			goto fail;
-		}
-		if (memcmp(raw + 4, "n+2", 4) != 0) {
-			rc = sr_fail(e, SR_EFORMAT, "%s: not a NIfTI-2 file: bad magic (expected \"n+2\")",
-				     path);
-			goto fail;
-		}
+		rh->version = 2;
+		rh->swapped = s0 != 540;
+		rh->hdr_size = 540;
+		if ((kind = read_exact(zf, raw + 348, 540 - 348, what, sizeof what)) != RD_OK)
+			return header_fail(e, path, kind, 2, what);
+		if (memcmp(raw + 4, "ni2", 4) == 0)
+			return sr_fail(e, SR_EFORMAT,
+				       "%s: a NIfTI-2 header/image pair is not supported; "
+				       "use a single .nii or .nii.gz file", path);
+		if (memcmp(raw + 4, "n+2", 4) != 0)
+			return sr_fail(e, SR_EFORMAT,
+				       "%s: not a NIfTI-2 file: bad magic (expected \"n+2\")", path);
 		memcpy(&h2, raw, sizeof h2);
-		if (rh.swapped)
+		if (rh->swapped)
 			swap_nifti_header(&h2, 2);
-		from_n2(&h2, &rh);
-	} else {
-		rc = sr_fail(e, SR_EFORMAT,
-			     "%s: not a NIfTI file: sizeof_hdr is %u (expected 348 or 540)", path,
-			     (unsigned)s0);
-		goto fail;
+		from_n2(&h2, rh);
+		return SR_OK;
 	}
+	return sr_fail(e, SR_EFORMAT, "%s: not a NIfTI file: sizeof_hdr is %u (expected 348 or 540)",
+		       path, (unsigned)s0);
+}
 
-	/* Dimensions: dim[0] counts them; each used one at least 1; beyond the 4th all 1. */
-	if (rh.dim[0] < 1 || rh.dim[0] > 7) {
-		rc = sr_fail(e, SR_EFORMAT, "%s: bad header: dim[0] is %lld (expected 1 to 7)", path,
-			     (long long)rh.dim[0]);
-		goto fail;
-	}
-	for (int i = 1; i <= rh.dim[0]; i++) {
-		if (rh.dim[i] < 1) {
-			rc = sr_fail(e, SR_EFORMAT, "%s: bad header: dim[%d] is %lld (must be positive)",
-				     path, i, (long long)rh.dim[i]);
-			goto fail;
-		}
-	}
-	for (int i = (int)rh.dim[0] + 1; i < 8; i++)
-		rh.dim[i] = 1;
-	for (int i = 5; i <= rh.dim[0]; i++) {
-		if (rh.dim[i] > 1) {
-			rc = sr_fail(e, SR_EDIM,
-				     "%s: a %d-D image (dim[%d] = %lld); only 3-D and 4-D images are "
-				     "supported", path, i, i, (long long)rh.dim[i]);
-			goto fail;
-		}
-	}
-	bytes = dtype_bytes(rh.datatype);
+/* Dimensions: dim[0] counts them; each used one at least 1; beyond the 4th all 1. */
+static sr_status check_dims(raw_hdr *rh, const char *path, sr_err *e)
+{
+	if (rh->dim[0] < 1 || rh->dim[0] > 7)
+		return sr_fail(e, SR_EFORMAT, "%s: bad header: dim[0] is %lld (expected 1 to 7)", path,
+			       (long long)rh->dim[0]);
+	for (int i = 1; i <= rh->dim[0]; i++)
+		if (rh->dim[i] < 1)
+			return sr_fail(e, SR_EFORMAT,
+				       "%s: bad header: dim[%d] is %lld (must be positive)", path, i,
+				       (long long)rh->dim[i]);
+	for (int i = (int)rh->dim[0] + 1; i < 8; i++)
+		rh->dim[i] = 1;
+	for (int i = 5; i <= rh->dim[0]; i++)
+		if (rh->dim[i] > 1)
+			return sr_fail(e, SR_EDIM,
+				       "%s: a %d-D image (dim[%d] = %lld); only 3-D and 4-D images are "
+				       "supported", path, i, i, (long long)rh->dim[i]);
+	return SR_OK;
+}
+
+/*
+ * The sizes the header decides, bounded before anything is allocated: the datatype
+ * is one we read, the product of the dimensions does not overflow, a volume is within
+ * NII_MAX_VOXELS, a gzip file can hold the data, and the data lie inside a plain file.
+ */
+static sr_status check_sizes(const raw_hdr *rh, const struct stat *st, int gz, const char *path,
+			     sr_err *e)
+{
+	int bytes = dtype_bytes(rh->datatype);
+	size_t nvox, nbytes;
+
 	if (!bytes) {
-		const char *name = nifti_datatype_string(rh.datatype);
+		const char *name = nifti_datatype_string(rh->datatype);
 
-		rc = sr_fail(e, SR_EFORMAT,
-			     "%s: unsupported datatype %d (%s); supported: uint8, int8, int16, uint16, "
-			     "int32, uint32, int64, uint64, float32, float64",
-			     path, rh.datatype, name ? name : "unknown");
-		goto fail;
+		return sr_fail(e, SR_EFORMAT,
+			       "%s: unsupported datatype %d (%s); supported: uint8, int8, int16, uint16, "
+			       "int32, uint32, int64, uint64, float32, float64",
+			       path, rh->datatype, name ? name : "unknown");
 	}
-	if (sr_mul_size((size_t)rh.dim[1], (size_t)rh.dim[2], &nvox) ||
-	    sr_mul_size(nvox, (size_t)rh.dim[3], &nvox) ||
-	    sr_mul_size(nvox, (size_t)rh.dim[4], &nbytes) ||
-	    sr_mul_size(nbytes, (size_t)bytes, &nbytes) || nbytes > (size_t)INT64_MAX / 2) {
-		rc = sr_fail(e, SR_EDIM,
-			     "%s: image too large: %lld x %lld x %lld x %lld voxels of %d bytes overflows",
-			     path, (long long)rh.dim[1], (long long)rh.dim[2], (long long)rh.dim[3],
-			     (long long)rh.dim[4], bytes);
-		goto fail;
-	}
-	if (nvox > NII_MAX_VOXELS) {
-		rc = sr_fail(e, SR_EDIM,
-			     "%s: the header claims %lld x %lld x %lld voxels per volume, more than the limit of %lld (NII_MAX_VOXELS)",
-			     path, (long long)rh.dim[1], (long long)rh.dim[2], (long long)rh.dim[3],
-			     (long long)NII_MAX_VOXELS);
-		goto fail;
-	}
+	if (sr_mul_size((size_t)rh->dim[1], (size_t)rh->dim[2], &nvox) ||
+	    sr_mul_size(nvox, (size_t)rh->dim[3], &nvox) ||
+	    sr_mul_size(nvox, (size_t)rh->dim[4], &nbytes) ||
+	    sr_mul_size(nbytes, (size_t)bytes, &nbytes) || nbytes > (size_t)INT64_MAX / 2)
+		return sr_fail(e, SR_EDIM,
+			       "%s: image too large: %lld x %lld x %lld x %lld voxels of %d bytes overflows",
+			       path, (long long)rh->dim[1], (long long)rh->dim[2], (long long)rh->dim[3],
+			       (long long)rh->dim[4], bytes);
+	if (nvox > NII_MAX_VOXELS)
+		return sr_fail(e, SR_EDIM,
+			       "%s: the header claims %lld x %lld x %lld voxels per volume, more than the limit of %lld (NII_MAX_VOXELS)",
+			       path, (long long)rh->dim[1], (long long)rh->dim[2], (long long)rh->dim[3],
+			       (long long)NII_MAX_VOXELS);
 	/* deflate cannot expand a byte to more than 1032 (RFC 1951's longest match over its
 	   shortest code), so a gzip file can hold at most that many times its size */
-	if (gz && (double)nbytes > NII_GZ_MAX_RATIO * (double)st.st_size) {
-		rc = sr_fail(e, SR_EFORMAT,
-			     "%s: the header claims %.0f bytes of image data (%lld x %lld x %lld x %lld of %d bytes), larger than a gzip file of %lld bytes can hold (at most %.0f): truncated or damaged",
-			     path, (double)nbytes, (long long)rh.dim[1], (long long)rh.dim[2],
-			     (long long)rh.dim[3], (long long)rh.dim[4], bytes, (long long)st.st_size,
-			     NII_GZ_MAX_RATIO * (double)st.st_size);
-		goto fail;
-	}
-	if (!isfinite(rh.vox_offset) || rh.vox_offset < rh.hdr_size ||
-	    rh.vox_offset != floor(rh.vox_offset) || rh.vox_offset > 1e15) {
-		rc = sr_fail(e, SR_EFORMAT, "%s: bad header: vox_offset %g (must be a whole number >= %d)",
-			     path, rh.vox_offset, rh.hdr_size);
-		goto fail;
-	}
-	if (!gz && (double)st.st_size < rh.vox_offset + (double)nbytes) {
-		rc = sr_fail(e, SR_EIO,
-			     "%s: truncated: expected %.0f bytes (%.0f of header and %zu of image data) "
-			     "but the file has %lld",
-			     path, rh.vox_offset + (double)nbytes, rh.vox_offset, nbytes,
-			     (long long)st.st_size);
-		goto fail;
-	}
+	if (gz && (double)nbytes > NII_GZ_MAX_RATIO * (double)st->st_size)
+		return sr_fail(e, SR_EFORMAT,
+			       "%s: the header claims %.0f bytes of image data (%lld x %lld x %lld x %lld of %d bytes), larger than a gzip file of %lld bytes can hold (at most %.0f): truncated or damaged",
+			       path, (double)nbytes, (long long)rh->dim[1], (long long)rh->dim[2],
+			       (long long)rh->dim[3], (long long)rh->dim[4], bytes,
+			       (long long)st->st_size, NII_GZ_MAX_RATIO * (double)st->st_size);
+	if (!isfinite(rh->vox_offset) || rh->vox_offset < rh->hdr_size ||
+	    rh->vox_offset != floor(rh->vox_offset) || rh->vox_offset > 1e15)
+		return sr_fail(e, SR_EFORMAT,
+			       "%s: bad header: vox_offset %g (must be a whole number >= %d)", path,
+			       rh->vox_offset, rh->hdr_size);
+	if (!gz && (double)st->st_size < rh->vox_offset + (double)nbytes)
+		return sr_fail(e, SR_EIO,
+			       "%s: truncated: expected %.0f bytes (%.0f of header and %zu of image data) "
+			       "but the file has %lld",
+			       path, rh->vox_offset + (double)nbytes, rh->vox_offset, nbytes,
+			       (long long)st->st_size);
+	return SR_OK;
+}
 
-	/* The grid. */
-	{
-		nii_grid *g = &info->grid;
-		double f_mm = space_factor(rh.xyzt_units);
-		double qfac = rh.pixdim[0] < 0 ? -1.0 : 1.0;
+/* The grid and its affine in mm: sform, else qform, else NIfTI "method 1" scaling. */
+static sr_status fill_grid(const raw_hdr *rh, nii_grid *g, const char *path, sr_err *e)
+{
+	double f_mm = space_factor(rh->xyzt_units);
+	double qfac = rh->pixdim[0] < 0 ? -1.0 : 1.0;
 
-		g->nx = rh.dim[1], g->ny = rh.dim[2], g->nz = rh.dim[3];
-		g->dx = fabs(rh.pixdim[1]) * f_mm;
-		g->dy = fabs(rh.pixdim[2]) * f_mm;
-		g->dz = fabs(rh.pixdim[3]) * f_mm;
-		g->qform_code = rh.qform_code;
-		g->sform_code = rh.sform_code;
-		g->quatern_b = rh.qb, g->quatern_c = rh.qc, g->quatern_d = rh.qd;
-		g->qoffset_x = rh.qx, g->qoffset_y = rh.qy, g->qoffset_z = rh.qz;
-		g->qfac = qfac;
-		memcpy(g->srow, rh.srow, sizeof g->srow);
-		g->xyz_units = XYZT_TO_SPACE(rh.xyzt_units);
-		if (rh.sform_code > 0) {
-			for (int i = 0; i < 3; i++)
-				for (int j = 0; j < 4; j++)
-					g->affine[i][j] = rh.srow[i][j] * f_mm;
-		} else if (rh.qform_code > 0) {
-			nifti_dmat44 m = nifti_quatern_to_dmat44(rh.qb, rh.qc, rh.qd, rh.qx, rh.qy,
-								 rh.qz, fabs(rh.pixdim[1]),
-								 fabs(rh.pixdim[2]),
-								 fabs(rh.pixdim[3]), qfac);
-			for (int i = 0; i < 3; i++)
-				for (int j = 0; j < 4; j++)
-					g->affine[i][j] = m.m[i][j] * f_mm;
-		} else {
-			/* NIfTI "method 1": plain scaling, no offset. */
-			memset(g->affine, 0, sizeof g->affine);
-			g->affine[0][0] = g->dx;
-			g->affine[1][1] = g->dy;
-			g->affine[2][2] = g->dz;
-		}
+	g->nx = rh->dim[1], g->ny = rh->dim[2], g->nz = rh->dim[3];
+	g->dx = fabs(rh->pixdim[1]) * f_mm;
+	g->dy = fabs(rh->pixdim[2]) * f_mm;
+	g->dz = fabs(rh->pixdim[3]) * f_mm;
+	g->qform_code = rh->qform_code;
+	g->sform_code = rh->sform_code;
+	g->quatern_b = rh->qb, g->quatern_c = rh->qc, g->quatern_d = rh->qd;
+	g->qoffset_x = rh->qx, g->qoffset_y = rh->qy, g->qoffset_z = rh->qz;
+	g->qfac = qfac;
+	memcpy(g->srow, rh->srow, sizeof g->srow);
+	g->xyz_units = XYZT_TO_SPACE(rh->xyzt_units);
+	if (rh->sform_code > 0) {
 		for (int i = 0; i < 3; i++)
 			for (int j = 0; j < 4; j++)
-				if (!isfinite(g->affine[i][j])) {
-					rc = sr_fail(e, SR_EFORMAT, "%s: bad header: non-finite %s",
-						     path, rh.sform_code > 0 ? "sform" : "qform");
-					goto fail;
-				}
+				g->affine[i][j] = rh->srow[i][j] * f_mm;
+	} else if (rh->qform_code > 0) {
+		nifti_dmat44 m = nifti_quatern_to_dmat44(rh->qb, rh->qc, rh->qd, rh->qx, rh->qy,
+							 rh->qz, fabs(rh->pixdim[1]),
+							 fabs(rh->pixdim[2]), fabs(rh->pixdim[3]),
+							 qfac);
+		for (int i = 0; i < 3; i++)
+			for (int j = 0; j < 4; j++)
+				g->affine[i][j] = m.m[i][j] * f_mm;
+	} else {
+		/* NIfTI "method 1": plain scaling, no offset. */
+		memset(g->affine, 0, sizeof g->affine);
+		g->affine[0][0] = g->dx;
+		g->affine[1][1] = g->dy;
+		g->affine[2][2] = g->dz;
 	}
-	{
-		int nd = (int)rh.dim[0];
+	for (int i = 0; i < 3; i++)
+		for (int j = 0; j < 4; j++)
+			if (!isfinite(g->affine[i][j]))
+				return sr_fail(e, SR_EFORMAT, "%s: bad header: non-finite %s", path,
+					       rh->sform_code > 0 ? "sform" : "qform");
+	return SR_OK;
+}
 
-		while (nd > 3 && rh.dim[nd] == 1)
-			nd--;
-		info->ndim = nd < 3 ? 3 : nd;
-	}
-	info->nt = rh.dim[4];
-	info->datatype = rh.datatype;
-	info->nifti_version = rh.version;
+/* The rest of info: dimensionality, volumes, datatype, scaling and TR. */
+static void fill_info(const raw_hdr *rh, nii_info *info)
+{
+	int nd = (int)rh->dim[0];
+	double t = rh->pixdim[4];
+	int tu = XYZT_TO_TIME(rh->xyzt_units);
+
+	while (nd > 3 && rh->dim[nd] == 1)
+		nd--;
+	info->ndim = nd < 3 ? 3 : nd;
+	info->nt = rh->dim[4];
+	info->datatype = rh->datatype;
+	info->nifti_version = rh->version;
 	/* METHODS.md 1 and 11: slope 0 or non-finite is no scaling; bad inter is 0. */
-	if (isfinite(rh.slope) && rh.slope != 0) {
-		info->slope = rh.slope;
-		info->inter = isfinite(rh.inter) ? rh.inter : 0.0;
+	if (isfinite(rh->slope) && rh->slope != 0) {
+		info->slope = rh->slope;
+		info->inter = isfinite(rh->inter) ? rh->inter : 0.0;
 	} else {
 		info->slope = 1.0;
 		info->inter = 0.0;
@@ -419,38 +400,69 @@ static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, gzin 
 	 * METHODS.md 11: pixdim[4] <= 0 is absent; time code 0 is seconds.
 	 * Hz/ppm/rad units describe a 4th axis that is not time: no TR.
 	 */
-	{
-		double t = rh.pixdim[4];
-		int tu = XYZT_TO_TIME(rh.xyzt_units);
+	if (!isfinite(t) || t <= 0 || rh->dim[0] < 4)
+		t = 0; /* a 3-D image has no time axis, whatever pixdim[4] holds */
+	else if (tu == NIFTI_UNITS_MSEC)
+		t /= 1000.0;
+	else if (tu == NIFTI_UNITS_USEC)
+		t /= 1e6;
+	else if (tu != 0 && tu != NIFTI_UNITS_SEC)
+		t = 0;
+	info->tr = t;
+}
 
-		if (!isfinite(t) || t <= 0 || rh.dim[0] < 4)
-			t = 0; /* a 3-D image has no time axis, whatever pixdim[4] holds */
-		else if (tu == NIFTI_UNITS_MSEC)
-			t /= 1000.0;
-		else if (tu == NIFTI_UNITS_USEC)
-			t /= 1e6;
-		else if (tu != 0 && tu != NIFTI_UNITS_SEC)
-			t = 0;
-		info->tr = t;
-	}
+/* Skips from the end of the header to the image data (vox_offset counts from the start). */
+static sr_status seek_data(gzin *zf, const raw_hdr *rh, const char *path, sr_err *e)
+{
+	char what[512];
+	int kind = gzin_skip(zf, (uint64_t)rh->vox_offset - (uint64_t)rh->hdr_size, what,
+			     sizeof what);
+
+	if (kind == GZIN_OK)
+		return SR_OK;
+	if (kind == GZIN_CORRUPT)
+		return sr_fail(e, SR_EIO, "%s: corrupt gzip data before the image (%s)", path, what);
+	if (kind == GZIN_ERROR)
+		return sr_fail(e, SR_EIO, "%s: read error: %s", path, what);
+	return sr_fail(e, SR_EIO, "%s: truncated: image data at offset %.0f not reached", path,
+		       rh->vox_offset);
+}
+
+/*
+ * Opens path, reads and checks the header, fills info and (optionally) r.
+ * On success *zfp is positioned at vox_offset when want_data, else closed.
+ */
+static sr_status open_header(const char *path, nii_info *info, raw_hdr *r, gzin **zfp,
+			     int want_data, int *is_gz, sr_err *e)
+{
+	struct stat st;
+	gzin *zf = NULL;
+	raw_hdr rh;
+	sr_status rc;
+
+	pthread_once(&quiet_once, quiet_nifti);
+	memset(&rh, 0, sizeof rh);
+	memset(info, 0, sizeof *info);
+	*zfp = NULL;
+	rc = probe_file(path, &st, is_gz, e);
+	if (rc == SR_OK)
+		rc = gzin_open(path, inflater(), &zf, e);
+	if (rc != SR_OK)
+		return rc;
+	if ((rc = read_raw_header(zf, path, &rh, e)) != SR_OK ||
+	    (rc = check_dims(&rh, path, e)) != SR_OK ||
+	    (rc = check_sizes(&rh, &st, *is_gz, path, e)) != SR_OK ||
+	    (rc = fill_grid(&rh, &info->grid, path, e)) != SR_OK)
+		goto fail;
+	fill_info(&rh, info);
 	if (r)
 		*r = rh;
 	if (!want_data) {
 		gzin_close(zf);
 		return SR_OK;
 	}
-	/* on to the image data: vox_offset counts from the start, the header has been read */
-	kind = gzin_skip(zf, (uint64_t)rh.vox_offset - (uint64_t)rh.hdr_size, what, sizeof what);
-	if (kind != GZIN_OK) {
-		if (kind == GZIN_CORRUPT)
-			rc = sr_fail(e, SR_EIO, "%s: corrupt gzip data before the image (%s)", path, what);
-		else if (kind == GZIN_ERROR)
-			rc = sr_fail(e, SR_EIO, "%s: read error: %s", path, what);
-		else
-			rc = sr_fail(e, SR_EIO, "%s: truncated: image data at offset %.0f not reached",
-				     path, rh.vox_offset);
+	if ((rc = seek_data(zf, &rh, path, e)) != SR_OK)
 		goto fail;
-	}
 	*zfp = zf;
 	return SR_OK;
 fail:
