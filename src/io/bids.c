@@ -400,20 +400,17 @@ static void find_events(const char *raw, const char *subject, const char *sessio
 		free(dirs[k]);
 }
 
-/* Adds the matching BOLD files of one func/ folder. */
-static sr_status scan_func(const char *func, const char *subject, const char *session,
-			   const char *task, const bids_src *src, run_list *L, str_set *descs,
-			   sr_err *e)
+/* The BOLD file names of one func/ folder, sorted; *n of them (none when it cannot be opened). */
+static char **list_bold_names(const char *func, size_t *n)
 {
 	DIR *d = opendir(func);
 	struct dirent *de;
 	char **names = NULL;
 	size_t nn = 0, cap = 0;
-	sr_status st = SR_OK;
-	const char *want_desc = src->desc ? src->desc : "preproc";
 
+	*n = 0;
 	if (!d)
-		return SR_OK;
+		return NULL;
 	while ((de = readdir(d)) != NULL) {
 		if (bold_stem(de->d_name) == 0)
 			continue;
@@ -426,147 +423,186 @@ static sr_status scan_func(const char *func, const char *subject, const char *se
 	closedir(d);
 	if (nn)
 		qsort(names, nn, sizeof *names, cmp_str);
-	for (size_t i = 0; i < nn && !st; i++) {
-		const char *name = names[i], *rv, *sv;
-		size_t stem = bold_stem(name);
-		long rlen, slen;
-		int index = -1;
-		struct stat sb;
-		char *path = str_printf("%s/%s", func, name);
-		bids_run *r;
+	*n = nn;
+	return names;
+}
 
-		if (!entity_is(name, stem, "task", task)) {
-			free(path);
-			continue;
-		}
-		/* A run that cannot be read (a link to data not fetched, a link loop, a device)
-		   must not vanish from the splits: that would change which runs are odd. */
-		if (stat(path, &sb) != 0) {
-			st = sr_fail(e, SR_EIO, "cannot access %s: %s", path, strerror(errno));
-			free(path);
-			break;
-		}
-		if (!S_ISREG(sb.st_mode)) {
-			st = sr_fail(e, SR_EIO, "%s is not a regular file (a BOLD run must be a NIfTI file); remove it or fix the link",
-				     path);
-			free(path);
-			break;
-		}
-		if (!entity_is(name, stem, "sub", subject) || !entity_is(name, stem, "ses", session)) {
-			sr_warnf(e, "ignoring %s: its sub-/ses- entities do not match its folder", path);
-			free(path);
-			continue;
-		}
-		if (src->deriv) {
-			const char *dv;
-			long dlen = entity(name, stem, "desc", &dv);
+/* The run entity as a number in *index (-1 without one); an error when it is not a number. */
+static sr_status run_index_of(const char *name, size_t stem, const char *path, int *index,
+			      sr_err *e)
+{
+	const char *rv;
+	long rlen = entity(name, stem, "run", &rv), v = 0;
 
-			if (dlen >= 0)
-				set_add(descs, dv, (size_t)dlen);
-			else
-				set_add(descs, "(none)", 6);
-			if (!entity_is(name, stem, "desc", want_desc) ||
-			    (src->res && !entity_is(name, stem, "res", src->res)) ||
-			    (src->space && !entity_is(name, stem, "space", src->space))) {
-				free(path);
-				continue;
-			}
-		}
-		/* Both .nii and .nii.gz of one run: analysing both would count the run twice. */
-		if (i + 1 < nn && bold_stem(names[i + 1]) == stem &&
-		    strncmp(names[i + 1], name, stem) == 0) {
-			st = sr_fail(e, SR_EFORMAT, "%s: both %s and %s exist; keep one", func, name,
-				     names[i + 1]);
-			free(path);
-			break;
-		}
-		rlen = entity(name, stem, "run", &rv);
-		if (rlen >= 0) {
-			long v = 0;
+	*index = -1;
+	if (rlen < 0)
+		return SR_OK;
+	if (rlen == 0 || rlen > 9)
+		return sr_fail(e, SR_EFORMAT, "%s: the run entity must be a number", path);
+	for (long k = 0; k < rlen; k++) {
+		if (rv[k] < '0' || rv[k] > '9')
+			return sr_fail(e, SR_EFORMAT, "%s: the run entity 'run-%.*s' is not a number",
+				       path, (int)rlen, rv);
+		v = 10 * v + (rv[k] - '0');
+	}
+	*index = (int)v;
+	return SR_OK;
+}
 
-			if (rlen == 0 || rlen > 9) {
-				st = sr_fail(e, SR_EFORMAT, "%s: the run entity must be a number", path);
-				free(path);
-				break;
-			}
-			for (long k = 0; k < rlen; k++) {
-				if (rv[k] < '0' || rv[k] > '9') {
-					st = sr_fail(e, SR_EFORMAT,
-						     "%s: the run entity 'run-%.*s' is not a number",
-						     path, (int)rlen, rv);
-					break;
-				}
-				v = 10 * v + (rv[k] - '0');
-			}
-			if (st) {
-				free(path);
-				break;
-			}
-			index = (int)v;
-		}
-		if (L->n == L->cap) {
-			L->cap = L->cap ? 2 * L->cap : 16;
-			L->r = xrealloc(L->r, L->cap * sizeof *L->r);
-		}
-		r = &L->r[L->n++];
-		memset(r, 0, sizeof *r);
-		r->bold = path;
-		r->subject = xstrdup(subject);
-		r->session = session ? xstrdup(session) : NULL;
-		r->task = xstrdup(task);
-		r->run_index = index;
-		slen = entity(name, stem, "space", &sv);
-		if (slen >= 0)
-			r->space = str_printf("%.*s", (int)slen, sv);
-		if (src->deriv) {
-			char *rs = raw_stem(name, stem), *rawfunc, *mstem;
+/* Frees *p and sets it to NULL unless it names a file. */
+static void keep_if_file(char **p)
+{
+	if (*p && !is_file(*p)) {
+		free(*p);
+		*p = NULL;
+	}
+}
 
-			rawfunc = session ? str_printf("%s/sub-%s/ses-%s/func", src->raw, subject, session)
-					  : str_printf("%s/sub-%s/func", src->raw, subject);
-			/* never read: the name the raw BOLD has, from which raw sidecars are inherited */
-			r->raw_bold = str_printf("%s/%s_bold.nii.gz", rawfunc, rs);
-			r->sidecar = str_printf("%s/%s_bold.json", rawfunc, rs);
-			r->deriv_sidecar = str_printf("%s/%.*s_bold.json", func, (int)stem, name);
-			r->confounds = str_printf("%s/%s_desc-confounds_timeseries.tsv", func, rs);
-			if (!is_file(r->confounds)) {
-				char *old = str_printf("%s/%s_desc-confounds_regressors.tsv", func, rs);
+/* A derivative run's other files: the raw names (events, sidecar), confounds, brain mask. */
+static void fill_deriv_paths(bids_run *r, const char *name, size_t stem, const char *func,
+			     const bids_src *src)
+{
+	char *rs = raw_stem(name, stem), *rawfunc, *mstem;
 
-				if (is_file(old)) {
-					free(r->confounds);
-					r->confounds = old;
-				} else {
-					free(old);
-				}
-			}
-			mstem = with_desc(name, stem, "brain");
-			r->brain_mask = str_printf("%s/%s_mask.nii.gz", func, mstem);
-			if (!is_file(r->brain_mask)) {
-				free(r->brain_mask);
-				r->brain_mask = str_printf("%s/%s_mask.nii", func, mstem);
-				if (!is_file(r->brain_mask)) {
-					free(r->brain_mask);
-					r->brain_mask = NULL;
-				}
-			}
-			free(mstem);
-			find_events(src->raw, subject, session, rs, &r->events, &r->events_exist);
-			free(rawfunc);
-			free(rs);
-			if (!is_file(r->deriv_sidecar)) {
-				free(r->deriv_sidecar);
-				r->deriv_sidecar = NULL;
-			}
+	rawfunc = r->session ? str_printf("%s/sub-%s/ses-%s/func", src->raw, r->subject, r->session)
+			     : str_printf("%s/sub-%s/func", src->raw, r->subject);
+	/* never read: the name the raw BOLD has, from which raw sidecars are inherited */
+	r->raw_bold = str_printf("%s/%s_bold.nii.gz", rawfunc, rs);
+	r->sidecar = str_printf("%s/%s_bold.json", rawfunc, rs);
+	r->deriv_sidecar = str_printf("%s/%.*s_bold.json", func, (int)stem, name);
+	r->confounds = str_printf("%s/%s_desc-confounds_timeseries.tsv", func, rs);
+	if (!is_file(r->confounds)) {
+		char *old = str_printf("%s/%s_desc-confounds_regressors.tsv", func, rs);
+
+		if (is_file(old)) {
+			free(r->confounds);
+			r->confounds = old;
 		} else {
-			char *rs = str_printf("%.*s", (int)stem, name);
+			free(old);
+		}
+	}
+	mstem = with_desc(name, stem, "brain");
+	r->brain_mask = str_printf("%s/%s_mask.nii.gz", func, mstem);
+	if (!is_file(r->brain_mask)) {
+		free(r->brain_mask);
+		r->brain_mask = str_printf("%s/%s_mask.nii", func, mstem);
+		keep_if_file(&r->brain_mask);
+	}
+	free(mstem);
+	find_events(src->raw, r->subject, r->session, rs, &r->events, &r->events_exist);
+	free(rawfunc);
+	free(rs);
+	keep_if_file(&r->deriv_sidecar);
+}
 
-			find_events(src->raw, subject, session, rs, &r->events, &r->events_exist);
-			r->sidecar = str_printf("%s/%s_bold.json", func, rs);
-			free(rs);
+/* Appends a run for the BOLD file path (name in func) and finds its other files. */
+static void add_run(run_list *L, char *path, const char *name, size_t stem, int index,
+		    const char *func, const char *subject, const char *session, const char *task,
+		    const bids_src *src)
+{
+	const char *sv;
+	long slen;
+	bids_run *r;
+
+	if (L->n == L->cap) {
+		L->cap = L->cap ? 2 * L->cap : 16;
+		L->r = xrealloc(L->r, L->cap * sizeof *L->r);
+	}
+	r = &L->r[L->n++];
+	memset(r, 0, sizeof *r);
+	r->bold = path;
+	r->subject = xstrdup(subject);
+	r->session = session ? xstrdup(session) : NULL;
+	r->task = xstrdup(task);
+	r->run_index = index;
+	slen = entity(name, stem, "space", &sv);
+	if (slen >= 0)
+		r->space = str_printf("%.*s", (int)slen, sv);
+	if (src->deriv) {
+		fill_deriv_paths(r, name, stem, func, src);
+	} else {
+		char *rs = str_printf("%.*s", (int)stem, name);
+
+		find_events(src->raw, subject, session, rs, &r->events, &r->events_exist);
+		r->sidecar = str_printf("%s/%s_bold.json", func, rs);
+		free(rs);
+	}
+	keep_if_file(&r->sidecar);
+}
+
+/*
+ * Whether the BOLD file names[i] of func is a run to add (*want 1) or to skip (0).
+ * A run that cannot be read is an error, never skipped.
+ */
+static sr_status bold_wanted(char **names, size_t nn, size_t i, const char *path,
+			     const char *func, const char *subject, const char *session,
+			     const char *task, const bids_src *src, str_set *descs, int *want,
+			     sr_err *e)
+{
+	const char *name = names[i];
+	size_t stem = bold_stem(name);
+	struct stat sb;
+
+	*want = 0;
+	if (!entity_is(name, stem, "task", task))
+		return SR_OK;
+	/* A run that cannot be read (a link to data not fetched, a link loop, a device)
+	   must not vanish from the splits: that would change which runs are odd. */
+	if (stat(path, &sb) != 0)
+		return sr_fail(e, SR_EIO, "cannot access %s: %s", path, strerror(errno));
+	if (!S_ISREG(sb.st_mode))
+		return sr_fail(e, SR_EIO, "%s is not a regular file (a BOLD run must be a NIfTI file); remove it or fix the link",
+			       path);
+	if (!entity_is(name, stem, "sub", subject) || !entity_is(name, stem, "ses", session)) {
+		sr_warnf(e, "ignoring %s: its sub-/ses- entities do not match its folder", path);
+		return SR_OK;
+	}
+	if (src->deriv) {
+		const char *dv;
+		long dlen = entity(name, stem, "desc", &dv);
+
+		if (dlen >= 0)
+			set_add(descs, dv, (size_t)dlen);
+		else
+			set_add(descs, "(none)", 6);
+		if (!entity_is(name, stem, "desc", src->desc ? src->desc : "preproc") ||
+		    (src->res && !entity_is(name, stem, "res", src->res)) ||
+		    (src->space && !entity_is(name, stem, "space", src->space)))
+			return SR_OK;
+	}
+	/* Both .nii and .nii.gz of one run: analysing both would count the run twice. */
+	if (i + 1 < nn && bold_stem(names[i + 1]) == stem && strncmp(names[i + 1], name, stem) == 0)
+		return sr_fail(e, SR_EFORMAT, "%s: both %s and %s exist; keep one", func, name,
+			       names[i + 1]);
+	*want = 1;
+	return SR_OK;
+}
+
+/* Adds the matching BOLD files of one func/ folder. */
+static sr_status scan_func(const char *func, const char *subject, const char *session,
+			   const char *task, const bids_src *src, run_list *L, str_set *descs,
+			   sr_err *e)
+{
+	size_t nn;
+	char **names = list_bold_names(func, &nn);
+	sr_status st = SR_OK;
+
+	for (size_t i = 0; i < nn; i++) {
+		char *path = str_printf("%s/%s", func, names[i]);
+		size_t stem = bold_stem(names[i]);
+		int index = -1, want;
+
+		st = bold_wanted(names, nn, i, path, func, subject, session, task, src, descs, &want,
+				 e);
+		if (!st && want)
+			st = run_index_of(names[i], stem, path, &index, e);
+		if (st || !want) {
+			free(path);
+			if (st)
+				break;
+			continue;
 		}
-		if (!is_file(r->sidecar)) {
-			free(r->sidecar);
-			r->sidecar = NULL;
-		}
+		add_run(L, path, names[i], stem, index, func, subject, session, task, src);
 	}
 	bids_strings_free(names, nn);
 	return st;
