@@ -466,8 +466,12 @@ static void check_names(checker *c, const char *section, const char *key, const 
 			const expr *fx, size_t nfx, const strlist *known, char **subs, size_t nsub,
 			task_seen *seen, size_t stride, strlist *reported)
 {
-	size_t i, k, j, s;
+	size_t i, k, j, s, nruns = 0;
 
+	for (s = 0; s < nsub; s++)
+		nruns += seen[s * stride].nruns;
+	if (nruns == 0)
+		return;  /* "has no runs of task" is said for every subject; the names cannot be known */
 	for (i = 0; i < nfx; i++) {
 		for (k = 0; k < fx[i].nterms; k++) {
 			const char *name = fx[i].terms[k].name;

@@ -165,6 +165,17 @@ expect_status 1 "a task with no runs for a subject"
 expect_err "sub-02 has no runs of task memory" "the subject without runs of the task is named"
 
 fresh
+rm "$V"/data/sub-0*/func/*_task-memory_*
+run "$SPLITROI" check "$V/study.ini"
+expect_status 1 "a task no subject has runs of"
+expect_err "sub-01 has no runs of task memory" "the missing runs are named"
+if grep -q "unknown to every subject" "$TMP/err"; then
+	notok "no effect is called unknown when no subject has runs of its task: $(grep -m1 unknown "$TMP/err")"
+else
+	ok "no effect is called unknown when no subject has runs of its task"
+fi
+
+fresh
 sed -i 's/^mask = mask.nii.gz/mask = mask.nii.gz\nsubjects = 01 sub-05/' "$V/study.ini"
 run "$SPLITROI" check "$V/study.ini"
 expect_status 1 "a listed subject missing from the dataset"
