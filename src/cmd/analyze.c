@@ -15,6 +15,7 @@
 #include "../io/study.h"
 #include "../io/table.h"
 #include "analyze.h"
+#include "mapout.h"
 #include "cmd.h"
 #include "cmdline.h"
 #include "fresh.h"
@@ -491,7 +492,8 @@ int cmd_analyze(int argc, char **argv)
 		free(md);
 		mask_grid = mi.grid;
 	}
-	if (afile_mkdirs(st.out, &e)) {
+	if (afile_mkdirs(st.out, &e) ||
+	    mapout_dataset_description(st.out, st.bids, st.derivatives, argc, argv, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_parcels;
 	}
