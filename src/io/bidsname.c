@@ -15,38 +15,107 @@ int bidsname_valid_value(const char *s)
 	return 1;
 }
 
-int bidsname_make(const bids_entities *b, const char *suffix, const char *ext, char *buf,
-		  size_t len)
+/* The BIDS specification's entity table, in its order (Appendix: Entity table). */
+static const char *const spec_keys[] = {
+	"sub", "ses", "sample", "task", "tracksys", "acq", "nuc", "voi", "ce", "trc", "stain", "rec",
+	"dir", "run", "mod", "echo", "flip", "inv", "mt", "part", "proc", "hemi", "space", "split",
+	"recording", "chunk", "seg", "res", "den", "label", "desc",
+};
+enum { NSPEC = sizeof spec_keys / sizeof spec_keys[0] };
+
+int bidsname_rank(const char *key)
 {
-	/* the specification's entity table order, restricted to the entities written here */
-	const char *key[] = { "sub", "ses", "task", "acq", "run", "space", "res", "label", "desc" };
-	const char *val[] = { b->sub, b->ses, b->task, b->acq, b->run, b->space, b->res, b->label,
-			      b->desc };
+	int i;
+
+	for (i = 0; i < NSPEC; i++)
+		if (strcmp(key, spec_keys[i]) == 0)
+			return i;
+	return -1;
+}
+
+int bidsname_parse(const char *stem, bidsname_kv *kv, size_t max, size_t *n)
+{
+	const char *p = stem;
+
+	*n = 0;
+	while (*p) {
+		const char *end = strchr(p, '_'), *dash;
+		size_t len = end ? (size_t)(end - p) : strlen(p), kl, vl;
+
+		dash = memchr(p, '-', len);
+		if (!dash || *n >= max)
+			return -1;
+		kl = (size_t)(dash - p);
+		vl = len - kl - 1;
+		if (kl == 0 || kl >= sizeof kv->key || vl == 0 || vl >= sizeof kv->value)
+			return -1;
+		memcpy(kv[*n].key, p, kl);
+		kv[*n].key[kl] = '\0';
+		memcpy(kv[*n].value, dash + 1, vl);
+		kv[*n].value[vl] = '\0';
+		if (bidsname_rank(kv[*n].key) < 0 || !bidsname_valid_value(kv[*n].value))
+			return -1;
+		(*n)++;
+		p += len;
+		if (*p == '_')
+			p++;
+	}
+	return 0;
+}
+
+int bidsname_build(const bidsname_kv *kv, size_t n, const char *suffix, const char *ext, char *buf,
+		   size_t len)
+{
 	size_t used = 0, i;
-	int n;
+	int r, k;
 
 	if (!len)
 		return -1;
 	buf[0] = '\0';
 	if (!bidsname_valid_value(suffix))
 		return -1;
-	for (i = 0; i < sizeof key / sizeof key[0]; i++) {
-		if (!val[i] || !*val[i])
-			continue;
-		if (!bidsname_valid_value(val[i]))
-			goto fail;
-		n = snprintf(buf + used, len - used, "%s-%s_", key[i], val[i]);
-		if (n < 0 || (size_t)n >= len - used)
-			goto fail;
-		used += (size_t)n;
-	}
-	n = snprintf(buf + used, len - used, "%s%s", suffix, ext ? ext : "");
-	if (n < 0 || (size_t)n >= len - used)
+	for (i = 0; i < n; i++)
+		if (bidsname_rank(kv[i].key) < 0 || !bidsname_valid_value(kv[i].value))
+			return -1;
+	for (r = 0; r < NSPEC; r++)
+		for (i = 0, k = 0; i < n; i++) {
+			if (strcmp(kv[i].key, spec_keys[r]) != 0)
+				continue;
+			if (k++)
+				goto fail;   /* a key given twice */
+			if ((size_t)snprintf(buf + used, len - used, "%s-%s_", kv[i].key, kv[i].value) >= len - used)
+				goto fail;
+			used += strlen(buf + used);
+		}
+	if ((size_t)snprintf(buf + used, len - used, "%s%s", suffix, ext ? ext : "") >= len - used)
 		goto fail;
 	return 0;
 fail:
 	buf[0] = '\0';
 	return -1;
+}
+
+int bidsname_make(const bids_entities *b, const char *suffix, const char *ext, char *buf,
+		  size_t len)
+{
+	const char *key[] = { "sub", "ses", "task", "acq", "run", "space", "res", "label", "desc" };
+	const char *val[] = { b->sub, b->ses, b->task, b->acq, b->run, b->space, b->res, b->label,
+			      b->desc };
+	bidsname_kv kv[9];
+	size_t i, n = 0;
+
+	if (len)
+		buf[0] = '\0';
+	for (i = 0; i < sizeof key / sizeof key[0]; i++) {
+		if (!val[i] || !*val[i])
+			continue;
+		if (strlen(val[i]) >= sizeof kv[n].value)
+			return -1;
+		snprintf(kv[n].key, sizeof kv[n].key, "%s", key[i]);
+		snprintf(kv[n].value, sizeof kv[n].value, "%s", val[i]);
+		n++;
+	}
+	return bidsname_build(kv, n, suffix, ext, buf, len);
 }
 
 void bidsname_value(const char *text, char *buf, size_t len)

@@ -23,6 +23,31 @@ typedef struct bids_entities {
 int bidsname_make(const bids_entities *b, const char *suffix, const char *ext, char *buf,
 		  size_t len);
 
+/* One key-value pair of a file name. */
+typedef struct bidsname_kv {
+	char key[16];
+	char value[128];
+} bidsname_kv;
+
+/*
+ * Splits a name without suffix and extension ("sub-01_task-tones_run-1") into
+ * its key-value pairs (at most max into kv, count in *n). -1 when a part is
+ * not key-value, a key is not in the specification's entity table or a value
+ * is not alphanumeric or too long.
+ */
+int bidsname_parse(const char *stem, bidsname_kv *kv, size_t max, size_t *n);
+
+/* Position of key in the specification's entity table (0 for sub), -1 when it is not an entity. */
+int bidsname_rank(const char *key);
+
+/*
+ * Like bidsname_make for any entities of the table: kv (n pairs, any order,
+ * each key at most once) written in the specification's order, then _SUFFIX
+ * and ext. 0, or -1 as bidsname_make (and for a key that is not an entity).
+ */
+int bidsname_build(const bidsname_kv *kv, size_t n, const char *suffix, const char *ext, char *buf,
+		   size_t len);
+
 /* 1 when s is a non-empty string of ASCII letters and digits (a BIDS label). */
 int bidsname_valid_value(const char *s);
 
