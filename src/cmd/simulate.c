@@ -720,9 +720,9 @@ static sr_status simulate_subject(const struct opts *o, struct subject *s, const
 		topmean[p - 1] = sim_top_mean(s->nvox, s->labels, s->w, p, 1000, s->scratch,
 					      &ntop[p - 1], &npar[p - 1]);
 	}
-	truth_rows(truth, o, s, sub + 4, 0, topmean, ntop, npar);
+	truth_rows(truth, o, s, sub, 0, topmean, ntop, npar);
 	if (o->sc->meas_task)
-		truth_rows(truth, o, s, sub + 4, 1, topmean, ntop, npar);
+		truth_rows(truth, o, s, sub, 1, topmean, ntop, npar);
 	for (run = 1; run <= o->runs; run++) {
 		st = simulate_run(o, s, g, subj, sub, 0, run, e);
 		if (st != SR_OK)

@@ -233,7 +233,7 @@ expect_status 0 "analyze one subject alone"
 run "$SPLITROI" analyze "$TMP/mini/study.ini" --out "$TMP/mini/res" --collect --quiet
 expect_status 0 "--collect with one subject missing still succeeds"
 expect_err "1 of 2 subjects .* sub-02" "--collect names the incomplete subject"
-if [ -s "$TMP/mini/res/group.csv" ] && grep -q '^02,missing' "$TMP/mini/res/group_subjects.csv"; then
+if [ -s "$TMP/mini/res/group.csv" ] && grep -q '^sub-02,missing' "$TMP/mini/res/group_subjects.csv"; then
 	ok "--collect writes group.csv and lists sub-02 as missing"
 else
 	notok "--collect tables: $(ls "$TMP/mini/res"; cat "$TMP/mini/res/group_subjects.csv" 2>&1)"
@@ -431,7 +431,7 @@ else
 	notok "group rows not marked incomplete: $(head -3 "$TMP/brokenout/group.csv")"
 fi
 # the three good subjects agree with the local run (sub-01, 03, 04 of the 12 link to the same data)
-if awk -F, 'NR == 1 || $1 == "01" || $1 == "03" || $1 == "04"' "$TMP/local/responses.csv" | cmp -s - "$TMP/brokenout/responses.csv"; then
+if awk -F, 'NR == 1 || $1 == "sub-01" || $1 == "sub-03" || $1 == "sub-04"' "$TMP/local/responses.csv" | cmp -s - "$TMP/brokenout/responses.csv"; then
 	ok "responses.csv holds exactly the local rows of the three good subjects"
 else
 	notok "responses.csv of the broken study differs from the local rows of sub-01, 03 and 04"
