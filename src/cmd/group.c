@@ -1161,7 +1161,7 @@ static void by_write_row(csvout *c, const group_ctx *g, const byrow *b, const ch
 }
 
 /* BH over the parcels of each (split, task, effect, level) family of the rows. */
-static void by_fdr(const group_ctx *g, byrow *rows, size_t n)
+static void by_fdr(const group_ctx *g, byrow *rows, size_t n, size_t nlev)
 {
 	strtab fams = { 0 };
 	size_t *fam = xmalloc_array(n ? n : 1, sizeof *fam), r, f;
@@ -1179,7 +1179,7 @@ static void by_fdr(const group_ctx *g, byrow *rows, size_t n)
 
 		for (r = 0; r < n; r++)
 			if (fam[r] == f)
-				p[m++] = rows[r].w.na || rows[r].w.nb ? rows[r].w.p : rows[r].s.p;
+				p[m++] = rows[r].level == nlev ? rows[r].w.p : rows[r].s.p;
 		stats_bh(p, m, q);
 		m = 0;
 		for (r = 0; r < n; r++)
@@ -1260,7 +1260,7 @@ static int write_by(group_ctx *g, const char *col, sr_err *e)
 			}
 		}
 	}
-	by_fdr(g, rows, nrow);
+	by_fdr(g, rows, nrow, nlev);
 	wide_part(col, part, sizeof part);
 	snprintf(name, sizeof name, "group_by_%s.csv", part);
 	path = path_join(g->out, name);
