@@ -419,7 +419,7 @@ done
 if [ "$good" -eq 3 ] && [ ! -e "$TMP/brokenout/sub-02/run.json" ]; then ok "the other three subjects completed, sub-02 did not"; else notok "complete subjects: $good of 3; $(ls "$TMP/brokenout" 2>&1)"; fi
 L=$TMP/brokenout/slurm/logs/sub-02.log
 if grep -qs 'sub-02 failed' "$L"; then ok "sub-02's log says why it failed"; else notok "no failure in sub-02's log: $(cat "$L" 2>&1 | head -c 800)"; fi
-if [ -s "$TMP/brokenout/group.csv" ] && grep -q '^02,missing' "$TMP/brokenout/group_subjects.csv" &&
+if [ -s "$TMP/brokenout/group.csv" ] && grep -q '^sub-02,missing' "$TMP/brokenout/group_subjects.csv" &&
 	grep -qs 'sub-02' "$TMP"/brokenout/slurm/logs/group-*.out; then
 	ok "group.csv written; sub-02 listed as missing there and in the group log"
 else
