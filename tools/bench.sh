@@ -57,12 +57,12 @@ for i in $(seq "$REPEAT"); do
 done
 agree=$("$PY" -c "
 import sys, glob, numpy as np, nibabel as nib
-a = np.load(sys.argv[1]); b = np.asarray(nib.load(glob.glob(sys.argv[2] + '/*melody-scrambled_t.nii.gz')[0]).dataobj)
+a = np.load(sys.argv[1]); b = np.asarray(nib.load(glob.glob(sys.argv[2] + '/*_desc-melodyMinusScrambled_tstat.nii.gz')[0]).dataobj)
 ok = np.isfinite(a) & np.isfinite(b)
 print('%.6f' % np.corrcoef(a[ok], b[ok])[0, 1])" "$DIR/ref_t.npy" "$DIR/out")
 same=different
-cmp -s "$DIR/out/sub-01_task-tones_run-1_melody-scrambled_t.nii.gz" \
-	"$DIR/outz/sub-01_task-tones_run-1_melody-scrambled_t.nii.gz" && same=identical
+cmp -s "$DIR/out/sub-01_task-tones_run-1_desc-melodyMinusScrambled_tstat.nii.gz" \
+	"$DIR/outz/sub-01_task-tones_run-1_desc-melodyMinusScrambled_tstat.nii.gz" && same=identical
 
 row() { printf '%-44s %9s %9s %9s\n' "$@"; }
 num() { printf '%.3f' "$1"; }

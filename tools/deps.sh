@@ -11,8 +11,9 @@ mode=${1:-test}
 build_pkgs="build-essential pkg-config zlib1g-dev libnifti2-dev liblapacke-dev libopenblas-dev
 libcsv-dev libinih-dev libjansson-dev libpng-dev libisal-dev"
 # The reference checks run scipy, statsmodels, numpy, nibabel and pandas through /usr/bin/python3;
-# tests/cli/test_threads.sh runs valgrind's helgrind.
-test_pkgs="python3-numpy python3-scipy python3-statsmodels python3-nibabel python3-pandas valgrind"
+# tests/cli/test_threads.sh runs valgrind's helgrind; tests/py/test_bids_outputs.py reads the
+# tables with R (read.csv, merge, t.test; it skips without R).
+test_pkgs="python3-numpy python3-scipy python3-statsmodels python3-nibabel python3-pandas valgrind r-base-core"
 # isal (its igzip program) and libdeflate-tools are only for `make bench`, which times
 # them beside the fit (it sets SPLITROI_DEPS_BENCH=1).
 if [ "${SPLITROI_DEPS_BENCH:-0}" = 1 ]; then

@@ -15,6 +15,7 @@
 #include "../io/study.h"
 #include "../io/table.h"
 #include "analyze.h"
+#include "mapout.h"
 #include "cmd.h"
 #include "cmdline.h"
 #include "fresh.h"
@@ -46,7 +47,9 @@ static const cmdline_spec spec = {
 	"Runs the whole job on a study: fits every run of every subject, defines each\n"
 	"subject's fROIs inside the parcels on one half of the localizer runs, measures\n"
 	"the responses on the other half (and in the measured tasks), and writes\n"
-	"OUT/sub-<label>/responses.csv, the combined OUT/responses.csv, maps per split,\n"
+	"OUT/sub-<label>/responses.csv, the combined OUT/responses.csv, the maps per\n"
+	"split under OUT/sub-<label>/func/ (a BIDS Derivatives dataset, with\n"
+	"OUT/dataset_description.json),\n"
 	"and the group table. Subjects whose outputs are complete and newer than their\n"
 	"inputs are skipped (see --force). --collect is the last step of a run split\n"
 	"into one job per subject (see 'splitroi slurm').",
@@ -491,7 +494,8 @@ int cmd_analyze(int argc, char **argv)
 		free(md);
 		mask_grid = mi.grid;
 	}
-	if (afile_mkdirs(st.out, &e)) {
+	if (afile_mkdirs(st.out, &e) ||
+	    mapout_dataset_description(st.out, st.bids, st.derivatives, argc, argv, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_parcels;
 	}

@@ -17,6 +17,8 @@ sr_status analyze_study_subjects(const study *st, char ***out, size_t *n, sr_err
 int analyze_subject_complete(const study *st, const char *label);
 
 /* Runs the group step on OUT for the study's subjects (those without a table are listed missing); group.c; 0 = ok. */
-int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quiet);
+/* participants: the study's participants.tsv path (it may be absent), or NULL. */
+int analyze_group_step(const char *out, char *const *subs, size_t nsub, const char *participants,
+		       int quiet);
 
 #endif

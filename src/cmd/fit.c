@@ -9,11 +9,13 @@
 #include "../core/expr.h"
 #include "../core/mem.h"
 #include "../io/bids.h"
+#include "../io/bidsname.h"
 #include "../io/afile.h"
 #include "../io/designcsv.h"
 #include "../io/events.h"
 #include "../io/jdoc.h"
 #include "../io/nii.h"
+#include <nifti1.h>
 #include "../io/study.h"
 #include "../version.h"
 #include "cmd.h"
@@ -56,8 +58,10 @@ static const cmdline_spec spec = {
 	"unless --autocorrelation ar1; none for OLS) in one streamed pass over the volumes.\n"
 	"Writes, per run and, with several runs, combined over them (fixed effects), an effect\n"
 	"map (percent signal change) and a t map for every condition and effect:\n"
-	"  DIR/<run>_<effect>_effect.nii.gz, DIR/<run>_<effect>_t.nii.gz,\n"
-	"  DIR/combined_<effect>_effect.nii.gz, DIR/combined_<effect>_t.nii.gz,\n"
+	"  DIR/<run entities>_desc-<effect>_effect.nii.gz and _tstat.nii.gz (with\n"
+	"  JSON sidecars; <effect> in letters and digits: melody - scrambled gives\n"
+	"  melodyMinusScrambled), the combination over runs under the entities the\n"
+	"  runs share (no run-),\n"
 	"each run's design matrix as DIR/<run>_design.csv, and DIR/fit.json recording\n"
 	"inputs, options, rank and df. <run> is the file name without _bold.nii[.gz].\n"
 	"With --study the subject's runs of the task are found in the study's BIDS\n"
@@ -139,15 +143,51 @@ static char *beside(const char *bold, const char *suffix)
 }
 
 /* An effect's name usable in a file name. */
-static char *file_label(const char *text)
+/*
+ * The map's path: the run's entities (kv, n; bids 0 when its name is not a
+ * BIDS name, then base is used as it is) with desc-<effect> and the suffix
+ * (effect or tstat).
+ */
+static char *map_path(const char *dir, const bidsname_kv *kv, size_t n, int bids, const char *base,
+		      const char *effval, const char *kind)
 {
-	char *s = xstrdup(text), *p;
+	bidsname_kv all[40];
+	char name[4096];
+	char *path;
+	size_t i, m = 0;
 
-	for (p = s; *p; p++)
-		if (!((*p >= 'a' && *p <= 'z') || (*p >= 'A' && *p <= 'Z') || (*p >= '0' && *p <= '9') ||
-		      *p == '.' || *p == '_' || *p == '-' || *p == '+'))
-			*p = '_';
-	return s;
+	for (i = 0; bids && i < n && m < 39; i++)
+		if (strcmp(kv[i].key, "desc") != 0)
+			all[m++] = kv[i];
+	snprintf(all[m].key, sizeof all[m].key, "desc");
+	snprintf(all[m].value, sizeof all[m].value, "%s", effval);
+	m++;
+	if (!bids || bidsname_build(all, m, kind, ".nii.gz", name, sizeof name))
+		snprintf(name, sizeof name, "%s_desc-%s_%s.nii.gz", base, effval, kind);
+	path = xmalloc(strlen(dir) + strlen(name) + 2);
+	sprintf(path, "%s/%s", dir, name);
+	return path;
+}
+
+/* The pairs every run shares (the run entity left out): the combined maps' entities. */
+static size_t common_entities(bidsname_kv (*kv)[40], const size_t *n, int nrun, bidsname_kv *out)
+{
+	size_t i, j, m = 0;
+	int r;
+
+	for (i = 0; i < n[0]; i++) {
+		int all = strcmp(kv[0][i].key, "run") != 0;
+
+		for (r = 1; all && r < nrun; r++) {
+			for (j = 0; j < n[r]; j++)
+				if (strcmp(kv[r][j].key, kv[0][i].key) == 0 && strcmp(kv[r][j].value, kv[0][i].value) == 0)
+					break;
+			all = j < n[r];
+		}
+		if (all)
+			out[m++] = kv[0][i];
+	}
+	return m;
 }
 
 static int cmp_str(const void *a, const void *b)
@@ -203,6 +243,7 @@ typedef struct map_ctx {
 	int njobs, next, nrun;
 	const runfit_result *res;
 	size_t nvox;
+	char *const *labels;   /* the effects' names */
 	pthread_mutex_t mu;
 } map_ctx;
 
@@ -237,6 +278,55 @@ static void map_values(const map_ctx *m, const map_job *j, double *x, double *tm
 	}
 }
 
+/* The df of job j's t map: its run's, or the sum over the runs where the effect is estimable. */
+static double job_df(const map_ctx *m, const map_job *j)
+{
+	double df = 0;
+	int r;
+
+	if (j->run >= 0)
+		return m->res[j->run].out.df;
+	for (r = 0; r < m->nrun; r++)
+		if (m->res[r].out.estimable[j->c])
+			df += m->res[r].out.df;
+	return df;
+}
+
+/* One map (t: NIFTI_INTENT_TTEST with its df) and its JSON sidecar; 1 on failure (j->err). */
+static int write_one(const map_ctx *m, map_job *j, const float *f, char *desc, size_t n)
+{
+	double df = job_df(m, j);
+	size_t len = strlen(j->path);
+	char *side;
+	jdoc *d;
+	int bad;
+
+	if (j->is_t)
+		snprintf(desc, n, "splitroi t, df %g", df);
+	else
+		snprintf(desc, n, "splitroi effect (percent signal change)");
+	if (nii_write_stat(j->path, &m->res[0].info.grid, f, 1, 0.0,
+			   j->is_t ? NIFTI_INTENT_TTEST : NIFTI_INTENT_NONE, j->is_t ? df : 0.0, desc,
+			   &j->err) != SR_OK)
+		return 1;
+	side = xmalloc(len + 8);
+	snprintf(side, len + 8, "%.*s.json", (int)(len > 7 ? len - 7 : len), j->path);   /* .nii.gz -> .json */
+	d = jdoc_object();
+	jdoc_set_str(d, "Description", j->is_t ? "t map of the effect" : "effect map");
+	jdoc_set_str(d, "Effect", m->labels[j->c]);
+	jdoc_set_str(d, "Runs", j->run >= 0 ? "one run" : "fixed-effects combination of the runs");
+	if (j->is_t) {
+		jdoc_set_str(d, "Statistic", "t");
+		jdoc_set_num(d, "DegreesOfFreedom", df);
+	} else {
+		jdoc_set_str(d, "Units", "percent signal change");
+	}
+	bad = jdoc_write(d, side, &j->err) != SR_OK;
+	jdoc_free(d);
+	free(side);
+	return bad;
+}
+
 /* Writes maps until none is left; maps are independent, so the order does not matter. */
 static void *map_worker(void *arg)
 {
@@ -257,9 +347,8 @@ static void *map_worker(void *arg)
 		map_values(m, j, x, tmp);
 		for (v = 0; v < m->nvox; v++)
 			f[v] = isfinite(x[v]) ? (float)x[v] : NAN;
-		snprintf(desc, sizeof desc, "splitroi %s", j->is_t ? "t" : "effect (percent signal change)");
 		sr_err_init(&j->err, NULL, NULL);
-		j->failed = nii_write_float(j->path, &m->res[0].info.grid, f, 1, 0.0, desc, &j->err) != SR_OK;
+		j->failed = write_one(m, j, f, desc, sizeof desc);
 	}
 	free(x);
 	free(tmp);
@@ -269,7 +358,7 @@ static void *map_worker(void *arg)
 
 /* Writes every map with up to nthreads threads; returns 0, or 1 after printing the failures. */
 static int write_maps(map_job *jobs, int njobs, const runfit_result *res, int nrun, size_t nvox,
-		      int nthreads, jdoc *files)
+		      char *const *labels, int nthreads, jdoc *files)
 {
 	map_ctx m;
 	pthread_t *th;
@@ -282,6 +371,7 @@ static int write_maps(map_job *jobs, int njobs, const runfit_result *res, int nr
 	m.nrun = nrun;
 	m.res = res;
 	m.nvox = nvox;
+	m.labels = labels;
 	pthread_mutex_init(&m.mu, NULL);
 	if (nw < 1)
 		nw = 1;
@@ -305,15 +395,6 @@ static int write_maps(map_job *jobs, int njobs, const runfit_result *res, int nr
 		}
 	}
 	return rc;
-}
-
-/* DIR/BASE_LABEL_KIND.nii.gz */
-static char *map_path(const char *dir, const char *base, const char *label, const char *kind)
-{
-	char *path = xmalloc(strlen(dir) + strlen(base) + strlen(label) + strlen(kind) + 16);
-
-	sprintf(path, "%s/%s_%s_%s.nii.gz", dir, base, label, kind);
-	return path;
 }
 
 /* The design matrix with named columns (io/designcsv: full precision, refittable exactly). */
@@ -500,7 +581,7 @@ int cmd_fit(int argc, char **argv)
 {
 	const char *val[O_N + 1], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	char **events = NULL, **confs = NULL, **ccols = NULL, **conds = NULL;
-	int npos = 0, nev = 0, nconf = 0, nccol = 0, ncond = 0, nrun, r, c, j, rc, model = GLM_AR1_ADJUSTED;
+	int k, npos = 0, nev = 0, nconf = 0, nccol = 0, ncond = 0, nrun, r, c, j, rc, model = GLM_AR1_ADJUSTED;
 	long threads;
 	double drift = 128.0, sref = 0.5, fwhm = 0.0, *tr = NULL, *C = NULL;
 	expr *fx = NULL;
@@ -798,24 +879,53 @@ int cmd_fit(int argc, char **argv)
 	/* with one run the combination is that run: its maps are not written twice */
 	njobs = 2 * neff * (nrun > 1 ? nrun + 1 : 1);
 	jobs = xcalloc((size_t)njobs, sizeof *jobs);
-	for (r = 0; r < (nrun > 1 ? nrun + 1 : 1); r++) {
-		char *base = r < nrun ? run_base(pos[r]) : xstrdup("combined");
+	{
+		/* names: each run's entities with desc-<effect>; the combination has those all runs share */
+		bidsname_kv (*kv)[40] = xcalloc((size_t)nrun + 1, sizeof *kv);
+		size_t *nkv = xcalloc((size_t)nrun + 1, sizeof *nkv);
+		char (*effval)[128] = xcalloc((size_t)neff, sizeof *effval);
+		int bids = 1;
 
 		for (c = 0; c < neff; c++) {
-			char *lab = file_label(labels[c]);
-			int k;
-
-			for (k = 0; k < 2; k++) {
-				map_job *jb = &jobs[(r * neff + c) * 2 + k];
-
-				jb->run = r < nrun ? r : -1;
-				jb->c = c;
-				jb->is_t = k;
-				jb->path = map_path(val[O_OUT], base, lab, k ? "t" : "effect");
-			}
-			free(lab);
+			bidsname_value(labels[c], effval[c], sizeof effval[c]);
+			for (k = 0; k < c; k++)
+				if (strcmp(effval[c], effval[k]) == 0) {
+					cmdline_error("fit", "effects '%s' and '%s' would have the same file name (desc-%s)",
+						      labels[k], labels[c], effval[c]);
+					free(kv);
+					free(nkv);
+					free(effval);
+					goto out;
+				}
 		}
-		free(base);
+		for (r = 0; r < nrun; r++) {
+			char *base = run_base(pos[r]);
+
+			if (bidsname_parse(base, kv[r], 39, &nkv[r]))
+				bids = 0;
+			free(base);
+		}
+		if (bids && nrun > 1)
+			nkv[nrun] = common_entities(kv, nkv, nrun, kv[nrun]);
+		for (r = 0; r < (nrun > 1 ? nrun + 1 : 1); r++) {
+			char *base = r < nrun ? run_base(pos[r]) : xstrdup("combined");
+			int rb = bids && (r < nrun || nkv[nrun] > 0);
+
+			for (c = 0; c < neff; c++)
+				for (k = 0; k < 2; k++) {
+					map_job *jb = &jobs[(r * neff + c) * 2 + k];
+
+					jb->run = r < nrun ? r : -1;
+					jb->c = c;
+					jb->is_t = k;
+					jb->path = map_path(val[O_OUT], kv[r], nkv[r], rb, base, effval[c],
+							    k ? "tstat" : "effect");
+				}
+			free(base);
+		}
+		free(kv);
+		free(nkv);
+		free(effval);
 	}
 	for (r = 0; r < nrun; r++) {
 		char *base = run_base(pos[r]);
@@ -851,7 +961,7 @@ int cmd_fit(int argc, char **argv)
 		if (c)
 			goto out;
 	}
-	if (write_maps(jobs, njobs, res, nrun, nvox, (int)threads, files))
+	if (write_maps(jobs, njobs, res, nrun, nvox, labels, (int)threads, files))
 		goto out;
 	{
 		jdoc *opt = jdoc_object(), *cl = jdoc_array(), *el = jdoc_array(), *cc = jdoc_array();

@@ -13,12 +13,15 @@
 #include "../core/mem.h"
 #include "../core/stats.h"
 #include "../core/text.h"
+#include "../io/bidsname.h"
 #include "../io/csvout.h"
+#include "../io/jdoc.h"
 #include "../io/table.h"
 #include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
 #include "report.h"
+#include "tabledict.h"
 
 /* set while analyze runs the group step: analyze writes the report itself afterwards */
 static int in_analyze;
@@ -28,10 +31,12 @@ static const cmdline_opt group_opts[] = {
 	{ "exclude", "FILE", "TSV/CSV with columns subject and reason: subjects left out on purpose" },
 	{ "paired", "A:B[,C:D]", "also test the per-subject difference A - B of two effects of one task" },
 	{ "alpha", "Q", "FDR level that marks rows in the summary (default 0.05)" },
+	{ "participants", "FILE", "participants.tsv whose columns are joined by participant_id (default: the one at the root of the dataset named in OUT/dataset_description.json)" },
+	{ "by", "COLUMN", "also the statistics per level of this participants.tsv column, and a Welch t test when it has two levels (OUT/group_by_COLUMN.csv)" },
 	{ "quiet", NULL, "print no summary" },
 	{ NULL, NULL, NULL }
 };
-enum { OPT_SUBJECTS, OPT_EXCLUDE, OPT_PAIRED, OPT_ALPHA, OPT_QUIET, NOPT };
+enum { OPT_SUBJECTS, OPT_EXCLUDE, OPT_PAIRED, OPT_ALPHA, OPT_PARTICIPANTS, OPT_BY, OPT_QUIET, NOPT };
 
 static const cmdline_spec group_spec = {
 	"group", "OUT [options]",
@@ -41,9 +46,14 @@ static const cmdline_spec group_spec = {
 	"Benjamini-Hochberg q over the parcels of each split, task and effect.\n"
 	"Writes OUT/group.csv, OUT/group_subjects.csv (who was used, missing or\n"
 	"excluded), OUT/responses_wide.csv (one row per subject) and\n"
-	"OUT/responses_wide_columns.csv (what each wide column holds). A subject\n"
+	"OUT/responses_wide_columns.csv (what each wide column holds), each with a\n"
+	"JSON data dictionary beside it. The columns of participants.tsv are joined\n"
+	"into group_subjects.csv and responses_wide.csv by participant_id. --by\n"
+	"COLUMN adds OUT/group_by_COLUMN.csv: the tests per level of that column,\n"
+	"and a two-sample Welch t test when it has exactly two levels. A subject\n"
 	"whose table is missing or unreadable is left out and the group rows are\n"
-	"marked incomplete; a table with bad content is an error.",
+	"marked incomplete; a table with bad content is an error. Research\n"
+	"software: not for clinical or presurgical decisions.",
 	group_opts
 };
 
@@ -173,6 +183,13 @@ typedef struct group_ctx {
 	size_t nrows;
 	double alpha;
 	int quiet;
+	/* participants.tsv: its columns but participant_id, and each subject's row (-1: none) */
+	table ptab;
+	int have_ptab;
+	int *pcol;
+	char **pname;
+	size_t npcols;
+	long *prow;
 } group_ctx;
 
 static void warnf(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
@@ -234,6 +251,7 @@ static int cmp_subject(const void *a, const void *b)
 /* analyze's group step hands its subject labels over as they are: never joined into one string */
 static char *const *step_subjects;
 static size_t step_nsubjects;
+static const char *step_participants;   /* the study's participants.tsv, for the group step */
 
 /* Subjects: the sub-<label> folders of OUT (sorted), or the --subjects list in its order. */
 static int find_subjects(group_ctx *g, const char *list)
@@ -488,6 +506,129 @@ static int load_subjects(group_ctx *g)
 	return 0;
 }
 
+/* ---- participants.tsv ---- */
+
+/* The participants.tsv of the dataset OUT/dataset_description.json names (file:// URLs), or NULL. */
+static char *participants_from_description(const char *out)
+{
+	char *dd = path_join(out, "dataset_description.json"), **urls = NULL, *found = NULL;
+	size_t n = 0, i;
+	sr_err e;
+	struct stat st;
+
+	sr_err_init(&e, NULL, NULL);
+	if (stat(dd, &st) == 0 && jdoc_read_array_member(dd, "SourceDatasets", "URL", &urls, &n, &e) == SR_OK)
+		for (i = 0; i < n && !found; i++)
+			if (strncmp(urls[i], "file://", 7) == 0)   /* the raw dataset comes first */
+				found = path_join(urls[i] + 7, "participants.tsv");
+	jdoc_values_free(urls, n);
+	free(dd);
+	return found;
+}
+
+/*
+ * Reads participants.tsv and finds each subject's row by participant_id. An
+ * absent file or subject is a warning (empty cells); a file without a
+ * participant_id column, or one that cannot be parsed, is an error.
+ */
+static int load_participants(group_ctx *g, const char *path)
+{
+	sr_err e;
+	struct stat st;
+	int cid, c;
+	size_t i, r;
+
+	g->prow = xmalloc_array(g->nsubj ? g->nsubj : 1, sizeof *g->prow);
+	for (i = 0; i < g->nsubj; i++)
+		g->prow[i] = -1;
+	if (!path) {
+		warnf("no participants.tsv (OUT/dataset_description.json names no dataset; give --participants FILE): no participant columns");
+		return 0;
+	}
+	if (stat(path, &st) != 0) {
+		warnf("%s: no such file: no participant columns", path);
+		return 0;
+	}
+	sr_err_init(&e, NULL, NULL);
+	if (table_read(path, '\t', &g->ptab, &e) != SR_OK) {
+		cmdline_error("group", "%s", e.msg);
+		return 1;
+	}
+	g->have_ptab = 1;
+	cid = table_col(&g->ptab, "participant_id");
+	if (cid < 0) {
+		cmdline_error("group", "%s: line %zu: no column 'participant_id'", path, g->ptab.header_line);
+		return 1;
+	}
+	g->pcol = xmalloc_array(g->ptab.ncols ? g->ptab.ncols : 1, sizeof *g->pcol);
+	g->pname = xmalloc_array(g->ptab.ncols ? g->ptab.ncols : 1, sizeof *g->pname);
+	for (c = 0; c < (int)g->ptab.ncols; c++) {
+		const char *h = g->ptab.header[c];
+
+		if (c == cid)
+			continue;
+		if (strcmp(h, "subject") == 0 || strcmp(h, "status") == 0 || strcmp(h, "reason") == 0) {
+			warnf("%s: column '%s' is left out (the tables have a column of that name)", path, h);
+			continue;
+		}
+		g->pcol[g->npcols] = c;
+		g->pname[g->npcols++] = g->ptab.header[c];
+	}
+	for (r = 0; r < g->ptab.nrows; r++) {
+		const char *id = table_cell(&g->ptab, r, (size_t)cid);
+		size_t k = find_subject(g, strip_sub(id));
+
+		if (strncmp(id, "sub-", 4) != 0)
+			warnf("%s: line %zu: participant_id '%s' does not start with sub-", path, g->ptab.line[r], id);
+		if (k == (size_t)-1)
+			continue;
+		if (g->prow[k] >= 0) {
+			cmdline_error("group", "%s: line %zu: a second row for %s", path, g->ptab.line[r], id);
+			return 1;
+		}
+		g->prow[k] = (long)r;
+	}
+	for (i = 0; i < g->nsubj; i++)
+		if (g->prow[i] < 0)
+			warnf("%s: no row for sub-%s: its participant columns are empty", path, g->subj[i].label);
+	return 0;
+}
+
+/* Subject s's value of participant column k ("" when absent or n/a). */
+static const char *pcell(const group_ctx *g, size_t s, size_t k)
+{
+	const char *v;
+
+	if (!g->have_ptab || g->prow[s] < 0)
+		return "";
+	v = table_cell(&g->ptab, (size_t)g->prow[s], (size_t)g->pcol[k]);
+	return strcmp(v, "n/a") == 0 ? "" : v;
+}
+
+/* The participant_id of subject s ("sub-<label>") into buf. */
+static const char *pid(const group_ctx *g, size_t s, char *buf, size_t n)
+{
+	snprintf(buf, n, "sub-%s", g->subj[s].label);
+	return buf;
+}
+
+/* The header: first (nfirst names), the participant columns, then rest (nrest); xmalloc'ed array. */
+static const char **with_participants(const group_ctx *g, const char *const *first, size_t nfirst,
+				      const char *const *rest, size_t nrest, size_t *n)
+{
+	const char **h = xmalloc_array(nfirst + g->npcols + nrest + 1, sizeof *h);
+	size_t i;
+
+	*n = 0;
+	for (i = 0; i < nfirst; i++)
+		h[(*n)++] = first[i];
+	for (i = 0; i < g->npcols; i++)
+		h[(*n)++] = g->pname[i];
+	for (i = 0; i < nrest; i++)
+		h[(*n)++] = rest[i];
+	return h;
+}
+
 /* --paired A:B[,C:D]: adds difference cells "A vs B" where a task has both effects. */
 static int parse_pairs(const char *spec, char ***pairs, size_t *npairs)
 {
@@ -695,9 +836,9 @@ static void row_note(const group_ctx *g, const grow *r, char *buf, size_t n)
 
 static int write_group(group_ctx *g, sr_err *e)
 {
-	static const char *const head[] = { "parcel", "split", "measure_task", "effect", "test", "n",
-					    "mean", "sd", "sem", "t", "df", "p", "cohen_d", "q_fdr",
-					    "mean_n_voxels", "note" };
+	static const char *const head[] = { "parcel", "split", "split_kind", "part", "measure_task",
+					    "effect", "test", "n", "mean", "sd", "sem", "t", "df", "p",
+					    "cohen_d", "q_fdr", "mean_n_voxels", "note" };
 	csvout c;
 	char *path = path_join(g->out, "group.csv");
 	size_t r;
@@ -710,10 +851,13 @@ static int write_group(group_ctx *g, sr_err *e)
 	for (r = 0; r < g->nrows; r++) {
 		const grow *w = &g->rows[r];
 		const cell *cl = &g->cells[w->cell];
-		char note[256];
+		char note[256], kind[128], part[128];
 
+		bidsname_split_parts(g->splits.s[cl->split], kind, sizeof kind, part, sizeof part);
 		csvout_str(&c, g->parcels.s[cl->parcel]);
 		csvout_str(&c, g->splits.s[cl->split]);
+		csvout_str(&c, kind);
+		csvout_str(&c, part);
 		csvout_str(&c, g->tasks.s[cl->task]);
 		csvout_str(&c, g->effects.s[cl->effect]);
 		csvout_str(&c, cl->paired ? "paired" : "one-sample");
@@ -731,28 +875,41 @@ static int write_group(group_ctx *g, sr_err *e)
 		csvout_str(&c, note);
 		csvout_endrow(&c);
 	}
-	return csvout_commit(&c, e) == SR_OK ? 0 : 1;
+	if (csvout_commit(&c, e) != SR_OK)
+		return 1;
+	path = path_join(g->out, "group.csv");
+	st = tabledict_write(path, head, sizeof head / sizeof head[0], NULL, 0, e);
+	free(path);
+	return st == SR_OK ? 0 : 1;
 }
 
 static int write_subjects(group_ctx *g, sr_err *e)
 {
-	static const char *const head[] = { "subject", "status", "reason" };
+	static const char *const first[] = { "subject", "status", "reason" };
 	csvout c;
-	char *path = path_join(g->out, "group_subjects.csv");
-	size_t i;
+	char *path = path_join(g->out, "group_subjects.csv"), id[512];
+	size_t i, k, nh;
+	const char **head = with_participants(g, first, 3, NULL, 0, &nh);
 	sr_status st;
 
-	st = csvout_open(&c, path, head, 3, e);
-	free(path);
+	st = csvout_open(&c, path, head, nh, e);
 	if (st != SR_OK)
-		return 1;
+		goto out;
 	for (i = 0; i < g->nsubj; i++) {
-		csvout_str(&c, g->subj[i].label);
+		csvout_str(&c, pid(g, i, id, sizeof id));
 		csvout_str(&c, subj_status_name[g->subj[i].status]);
 		csvout_str(&c, g->subj[i].reason ? g->subj[i].reason : "");
+		for (k = 0; k < g->npcols; k++)
+			csvout_str(&c, pcell(g, i, k));
 		csvout_endrow(&c);
 	}
-	return csvout_commit(&c, e) == SR_OK ? 0 : 1;
+	st = csvout_commit(&c, e);
+	if (st == SR_OK)
+		st = tabledict_write(path, head, nh, g->pname, g->npcols, e);
+out:
+	free(path);
+	free(head);
+	return st == SR_OK ? 0 : 1;
 }
 
 /*
@@ -814,8 +971,10 @@ static const char *split_suffix(const char *split)
 
 static int write_wide(group_ctx *g, sr_err *e)
 {
-	static const char *const dhead[] = { "column", "parcel", "split", "measure_task", "effect" };
-	size_t r, i, ncol = 0, s, k;
+	static const char *const dhead[] = { "column", "parcel", "split", "split_kind", "part",
+					     "measure_task", "effect" };
+	size_t r, i, ncol = 0, s, k, nh = 0;
+	const char **head = NULL;
 	size_t *cols = xmalloc_array(g->nrows ? g->nrows : 1, sizeof *cols);
 	char **names = xmalloc_array(g->nrows + 1, sizeof *names);
 	strtab seen = { 0 }, used = { 0 };
@@ -862,22 +1021,32 @@ static int write_wide(group_ctx *g, sr_err *e)
 		names[i + 1] = xstrdup(cand);
 	}
 
+	for (k = 0; k < g->npcols; k++)
+		if (strtab_find(&used, g->pname[k]) != (size_t)-1) {
+			sr_fail(e, SR_EFORMAT, "participants.tsv column '%s' has the name of a responses_wide.csv column", g->pname[k]);
+			goto out;
+		}
+	head = with_participants(g, (const char *const *)names, 1, (const char *const *)names + 1, ncol, &nh);
 	path = path_join(g->out, "responses_wide.csv");
-	if (csvout_open(&c, path, (const char *const *)names, ncol + 1, e) != SR_OK) {
+	if (csvout_open(&c, path, head, nh, e) != SR_OK) {
 		free(path);
 		goto out;
 	}
 	free(path);
 	for (s = 0; s < g->nsubj; s++) {
+		char id[512];
+
 		if (g->subj[s].status != SUBJ_USED)
 			continue;
-		csvout_str(&c, g->subj[s].label);
+		csvout_str(&c, pid(g, s, id, sizeof id));
+		for (k = 0; k < g->npcols; k++)
+			csvout_str(&c, pcell(g, s, k));
 		for (i = 0; i < ncol; i++)
 			csvout_num(&c, g->cells[cols[i]].v[s]);
 		csvout_endrow(&c);
 	}
 	path = path_join(g->out, "responses_wide_columns.csv");
-	if (csvout_open(&d, path, dhead, 5, e) != SR_OK) {
+	if (csvout_open(&d, path, dhead, 7, e) != SR_OK) {
 		free(path);
 		csvout_abort(&c);
 		goto out;
@@ -885,10 +1054,14 @@ static int write_wide(group_ctx *g, sr_err *e)
 	free(path);
 	for (i = 0; i < ncol; i++) {
 		const cell *cl = &g->cells[cols[i]];
+		char kind[128], part[128];
 
+		bidsname_split_parts(g->splits.s[cl->split], kind, sizeof kind, part, sizeof part);
 		csvout_str(&d, names[i + 1]);
 		csvout_str(&d, g->parcels.s[cl->parcel]);
 		csvout_str(&d, g->splits.s[cl->split]);
+		csvout_str(&d, kind);
+		csvout_str(&d, part);
 		csvout_str(&d, g->tasks.s[cl->task]);
 		csvout_str(&d, g->effects.s[cl->effect]);
 		csvout_endrow(&d);
@@ -899,14 +1072,220 @@ static int write_wide(group_ctx *g, sr_err *e)
 	}
 	if (csvout_commit(&d, e) != SR_OK)
 		goto out;
+	path = path_join(g->out, "responses_wide.csv");
+	if (tabledict_write(path, head, nh, g->pname, g->npcols, e) != SR_OK) {
+		free(path);
+		goto out;
+	}
+	free(path);
+	path = path_join(g->out, "responses_wide_columns.csv");
+	if (tabledict_write(path, dhead, 7, NULL, 0, e) != SR_OK) {
+		free(path);
+		goto out;
+	}
+	free(path);
 	rc = 0;
 out:
+	free(head);
 	for (k = 0; k < ncol + 1; k++)
 		free(names[k]);
 	free(names);
 	free(cols);
 	strtab_release(&seen);
 	strtab_release(&used);
+	return rc;
+}
+
+/* ---- group --by COLUMN: per level, and Welch between two levels ---- */
+
+static int cmp_cstr(const void *a, const void *b)
+{
+	return strcmp(*(char *const *)a, *(char *const *)b);
+}
+
+/* One group_by row's numbers, from a one-sample or a Welch test. */
+typedef struct byrow {
+	size_t cell, level;   /* level == nlevels: the Welch row */
+	stats_one s;
+	stats_two w;
+	double q;
+} byrow;
+
+static void by_write_row(csvout *c, const group_ctx *g, const byrow *b, const char *col,
+			 char **levels, size_t nlev)
+{
+	const cell *cl = &g->cells[b->cell];
+	char kind[128], part[128], lev[1024];
+	int welch = b->level == nlev;
+
+	bidsname_split_parts(g->splits.s[cl->split], kind, sizeof kind, part, sizeof part);
+	if (welch)
+		snprintf(lev, sizeof lev, "%s - %s", levels[0], levels[1]);
+	else
+		snprintf(lev, sizeof lev, "%s", levels[b->level]);
+	csvout_str(c, g->parcels.s[cl->parcel]);
+	csvout_str(c, g->splits.s[cl->split]);
+	csvout_str(c, kind);
+	csvout_str(c, part);
+	csvout_str(c, g->tasks.s[cl->task]);
+	csvout_str(c, g->effects.s[cl->effect]);
+	csvout_str(c, col);
+	csvout_str(c, lev);
+	csvout_str(c, welch ? "welch" : cl->paired ? "paired" : "one-sample");
+	if (welch) {
+		csvout_int(c, (long long)(b->w.na + b->w.nb));
+		csvout_int(c, (long long)b->w.na);
+		csvout_int(c, (long long)b->w.nb);
+		csvout_num(c, b->w.diff);
+		csvout_empty(c);
+		csvout_num(c, b->w.sem);
+		csvout_num(c, b->w.t);
+		csvout_num(c, b->w.df);
+		csvout_num(c, b->w.p);
+		csvout_num(c, b->w.d);
+	} else {
+		csvout_int(c, (long long)b->s.n);
+		csvout_empty(c);
+		csvout_empty(c);
+		csvout_num(c, b->s.mean);
+		csvout_num(c, b->s.sd);
+		csvout_num(c, b->s.sem);
+		csvout_num(c, b->s.t);
+		csvout_num(c, b->s.df);
+		csvout_num(c, b->s.p);
+		csvout_num(c, b->s.d);
+	}
+	csvout_num(c, b->q);
+	csvout_str(c, g->nmissing ? "incomplete" : "");
+	csvout_endrow(c);
+}
+
+/* BH over the parcels of each (split, task, effect, level) family of the rows. */
+static void by_fdr(const group_ctx *g, byrow *rows, size_t n, size_t nlev)
+{
+	strtab fams = { 0 };
+	size_t *fam = xmalloc_array(n ? n : 1, sizeof *fam), r, f;
+	double *p = xmalloc_array(n ? n : 1, sizeof *p), *q = xmalloc_array(n ? n : 1, sizeof *q);
+
+	for (r = 0; r < n; r++) {
+		const cell *c = &g->cells[rows[r].cell];
+		char key[128];
+
+		snprintf(key, sizeof key, "%zu,%zu,%zu,%zu", c->split, c->task, c->effect, rows[r].level);
+		fam[r] = strtab_add(&fams, key);
+	}
+	for (f = 0; f < fams.n; f++) {
+		size_t m = 0;
+
+		for (r = 0; r < n; r++)
+			if (fam[r] == f)
+				p[m++] = rows[r].level == nlev ? rows[r].w.p : rows[r].s.p;
+		stats_bh(p, m, q);
+		m = 0;
+		for (r = 0; r < n; r++)
+			if (fam[r] == f)
+				rows[r].q = q[m++];
+	}
+	strtab_release(&fams);
+	free(fam);
+	free(p);
+	free(q);
+}
+
+static int write_by(group_ctx *g, const char *col, sr_err *e)
+{
+	static const char *const head[] = { "parcel", "split", "split_kind", "part", "measure_task",
+					    "effect", "by", "level", "test", "n", "n_a", "n_b", "mean",
+					    "sd", "sem", "t", "df", "p", "cohen_d", "q_fdr", "note" };
+	size_t k, s, r, l, nlev = 0, nrow = 0, *lev_of = xmalloc_array(g->nsubj ? g->nsubj : 1, sizeof *lev_of);
+	char **levels = xmalloc_array(g->nsubj + 1, sizeof *levels), name[1100], part[1024], *path;
+	double *x = xmalloc_array(g->nsubj ? g->nsubj : 1, sizeof *x);
+	double *y = xmalloc_array(g->nsubj ? g->nsubj : 1, sizeof *y);
+	byrow *rows = NULL;
+	csvout c;
+	int rc = 1;
+
+	for (k = 0; k < g->npcols && strcmp(g->pname[k], col) != 0; k++)
+		;
+	if (k == g->npcols) {
+		sr_fail(e, SR_EINVAL, "%s: --by %s: participants.tsv has no such column%s", g->out, col,
+			g->have_ptab ? "" : " (no participants.tsv was read)");
+		goto out;
+	}
+	for (s = 0; s < g->nsubj; s++) {
+		const char *v = pcell(g, s, k);
+
+		lev_of[s] = (size_t)-1;
+		if (g->subj[s].status != SUBJ_USED)
+			continue;
+		if (!*v) {
+			warnf("--by %s: sub-%s has no value: left out of group_by_%s.csv", col, g->subj[s].label, col);
+			continue;
+		}
+		for (l = 0; l < nlev && strcmp(levels[l], v) != 0; l++)
+			;
+		if (l == nlev)
+			levels[nlev++] = (char *)v;
+	}
+	if (nlev == 0) {
+		sr_fail(e, SR_EINVAL, "--by %s: no subject used has a value in that column", col);
+		goto out;
+	}
+	qsort(levels, nlev, sizeof *levels, cmp_cstr);
+	for (s = 0; s < g->nsubj; s++)
+		if (g->subj[s].status == SUBJ_USED && *pcell(g, s, k))
+			for (l = 0; l < nlev; l++)
+				if (strcmp(levels[l], pcell(g, s, k)) == 0)
+					lev_of[s] = l;
+	rows = xmalloc_array(g->nrows * (nlev + 1) + 1, sizeof *rows);
+	for (r = 0; r < g->nrows; r++) {
+		const cell *cl = &g->cells[g->rows[r].cell];
+
+		for (l = 0; l < nlev + (nlev == 2); l++) {
+			byrow *b = &rows[nrow++];
+
+			memset(b, 0, sizeof *b);
+			b->cell = g->rows[r].cell;
+			b->level = l;
+			if (l < nlev) {
+				for (s = 0; s < g->nsubj; s++)
+					x[s] = lev_of[s] == l ? cl->v[s] : NAN;
+				stats_one_sample(x, g->nsubj, &b->s);
+			} else {
+				for (s = 0; s < g->nsubj; s++) {
+					x[s] = lev_of[s] == 0 ? cl->v[s] : NAN;
+					y[s] = lev_of[s] == 1 ? cl->v[s] : NAN;
+				}
+				stats_welch(x, g->nsubj, y, g->nsubj, &b->w);
+			}
+		}
+	}
+	by_fdr(g, rows, nrow, nlev);
+	wide_part(col, part, sizeof part);
+	snprintf(name, sizeof name, "group_by_%s.csv", part);
+	path = path_join(g->out, name);
+	if (csvout_open(&c, path, head, sizeof head / sizeof head[0], e) != SR_OK) {
+		free(path);
+		goto out;
+	}
+	for (r = 0; r < nrow; r++)
+		by_write_row(&c, g, &rows[r], col, levels, nlev);
+	if (csvout_commit(&c, e) != SR_OK ||
+	    tabledict_write(path, head, sizeof head / sizeof head[0], NULL, 0, e) != SR_OK) {
+		free(path);
+		goto out;
+	}
+	if (!g->quiet)
+		printf("wrote %s: %zu level%s of %s%s\n", path, nlev, nlev == 1 ? "" : "s", col,
+		       nlev == 2 ? ", Welch t test between them" : "");
+	free(path);
+	rc = 0;
+out:
+	free(rows);
+	free(levels);
+	free(lev_of);
+	free(x);
+	free(y);
 	return rc;
 }
 
@@ -1041,6 +1420,11 @@ static void group_release(group_ctx *g)
 	strtab_release(&g->tasks);
 	strtab_release(&g->effects);
 	strtab_release(&g->keys);
+	if (g->have_ptab)
+		table_release(&g->ptab);
+	free(g->pcol);
+	free(g->pname);
+	free(g->prow);
 }
 
 int cmd_group(int argc, char **argv)
@@ -1095,6 +1479,15 @@ int cmd_group(int argc, char **argv)
 		goto out;
 	if ((rc = load_subjects(&g)) != 0)
 		goto out;
+	{
+		char *pp = val[OPT_PARTICIPANTS] ? xstrdup(val[OPT_PARTICIPANTS]) :
+			   step_participants ? xstrdup(step_participants) : participants_from_description(g.out);
+
+		rc = load_participants(&g, pp);
+		free(pp);
+		if (rc)
+			goto out;
+	}
 	if (g.ncells == 0) {
 		cmdline_error("group", "%s: the tables hold no odd-even:mean, leave-one-out:mean or all rows",
 			      g.out);
@@ -1105,7 +1498,8 @@ int cmd_group(int argc, char **argv)
 		goto out;
 	compute(&g);
 	sr_err_init(&e, NULL, NULL);
-	if (write_group(&g, &e) || write_subjects(&g, &e) || write_wide(&g, &e)) {
+	if (write_group(&g, &e) || write_subjects(&g, &e) || write_wide(&g, &e) ||
+	    (val[OPT_BY] && write_by(&g, val[OPT_BY], &e))) {
 		cmdline_error("group", "%s", e.msg);
 		rc = 1;
 		goto out;
@@ -1135,7 +1529,8 @@ out:
 }
 
 /* analyze's last step: the same command on the study's out folder (quiet: no summary). */
-int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quiet)
+int analyze_group_step(const char *out, char *const *subs, size_t nsub, const char *participants,
+		       int quiet)
 {
 	/* the study's list, not the sub-* folders: a subject whose job failed before
 	   writing anything is then listed as missing instead of passing unnoticed */
@@ -1149,9 +1544,11 @@ int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quie
 	argv[argc] = NULL;
 	step_subjects = nsub ? subs : NULL;
 	step_nsubjects = nsub;
+	step_participants = participants;
 	in_analyze = 1;
 	rc = cmd_group(argc, argv);
 	in_analyze = 0;
+	step_participants = NULL;
 	step_subjects = NULL;
 	step_nsubjects = 0;
 	return rc;

@@ -18,13 +18,16 @@
 #include "report.h"
 #include "subject.h"
 #include "subunit.h"
+#include "tabledict.h"
 
 /* Every table of the unit, in the order they are renamed into place. */
 static const char *const tables[] = {
 	"group.csv", "group_subjects.csv", "responses_wide.csv", "responses_wide_columns.csv",
-	"responses.csv",
+	"group.json", "group_subjects.json", "responses_wide.json", "responses_wide_columns.json",
+	"responses.json", "responses.csv",
 };
-enum { NTABLES = sizeof tables / sizeof tables[0], NGROUP_TABLES = NTABLES - 1 };
+/* the last two (responses.json, responses.csv) are made without the group step too */
+enum { NTABLES = sizeof tables / sizeof tables[0], NGROUP_TABLES = NTABLES - 2 };
 
 static int lookup(char **keys, char **vals, size_t n, const char *k, const char **v)
 {
@@ -172,7 +175,12 @@ static sr_status combine(const char *stage, char *const *subs, const unsigned ch
 			fprintf(a.f, "%s%s", i ? "," : "", subject_columns[i]);
 		fputc('\n', a.f);
 	}
-	return afile_commit(&a, e);
+	rc = afile_commit(&a, e);
+	if (!rc) {
+		snprintf(path, sizeof path, "%s/responses.csv", stage);
+		rc = tabledict_write(path, subject_columns, subject_ncolumns, NULL, 0, e);
+	}
+	return rc;
 }
 
 int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, int quiet,
@@ -227,7 +235,8 @@ int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, 
 	}
 	if (combine(stage, subs, done, nsub, &e))
 		goto fail;
-	if (group && analyze_group_step(stage, subs, nsub, quiet)) {
+	snprintf(path, sizeof path, "%s/participants.tsv", st->bids);
+	if (group && analyze_group_step(stage, subs, nsub, path, quiet)) {
 		sr_fail(&e, SR_EIO, "the group step failed; the earlier tables are left as they were");
 		goto fail;
 	}

@@ -367,8 +367,11 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 
 				if (strcmp(st, "missing") && strcmp(st, "unreadable"))
 					continue;
+				const char *lab = table_cell(&t, r, (size_t)cs);
+
+				/* the table holds participant_id (sub-<label>); older tables the bare label */
 				sb_puts(b, "<li><b class=\"sub\">sub-");
-				sb_esc(b, table_cell(&t, r, (size_t)cs));
+				sb_esc(b, strncmp(lab, "sub-", 4) == 0 ? lab + 4 : lab);
 				sb_puts(b, "</b> ");
 				sb_esc(b, st);
 				if (cr >= 0 && *table_cell(&t, r, (size_t)cr)) {

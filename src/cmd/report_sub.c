@@ -169,38 +169,63 @@ static void load_parcels(page *pg)
 		}
 }
 
-/* Loads the fROI and t maps: the localizer's splits first, then all-<task>. */
+/*
+ * Loads the fROI label images (func/sub-<l>_task-<t>_desc-<split>_dseg.nii.gz)
+ * and the t maps beside them (..._tstat.nii.gz): the localizer's splits
+ * first, then the definitions of measured tasks (desc-all<task>). The token
+ * shown is the desc entity's value.
+ */
 static void load_maps(page *pg, sr_err *e)
 {
-	char mdir[4200], path[8400];
+	char mdir[4200], path[8400], prefix[256];
 	char **tok;
 	size_t n, i, pass;
 
-	snprintf(mdir, sizeof mdir, "%s/maps", pg->dir);
-	tok = list_dir(mdir, "froi_", ".nii.gz", &n);
+	snprintf(mdir, sizeof mdir, "%s/func", pg->dir);
+	snprintf(prefix, sizeof prefix, "sub-%s_", pg->label);
+	tok = list_dir(mdir, prefix, "_dseg.nii.gz", &n);
 	for (pass = 0; pass < 2; pass++)
 		for (i = 0; i < n; i++) {
-			int is_all = strncmp(tok[i], "all-", 4) == 0;
+			const char *desc = strstr(tok[i], "desc-");
+			int is_all;
 			double *d;
 			lmap *m;
 
+			desc = desc ? desc + 5 : tok[i];
+			is_all = strncmp(desc, "all", 3) == 0;
 			if (is_all != (int)pass)
 				continue;
-			snprintf(path, sizeof path, "%s/froi_%s.nii.gz", mdir, tok[i]);
+			snprintf(path, sizeof path, "%s/%s%s_dseg.nii.gz", mdir, prefix, tok[i]);
 			d = read_on_grid(pg, path, e);
 			if (!d)
 				continue;
 			pg->maps = xrealloc(pg->maps, (pg->nmaps + 1) * sizeof *pg->maps);
 			m = &pg->maps[pg->nmaps++];
-			m->token = xstrdup(tok[i]);
+			m->token = xstrdup(desc);
 			m->lab = to_labels(d, pg->nvox);
 			free(d);
-			snprintf(path, sizeof path, "%s/localizer-t_%s.nii.gz", mdir, tok[i]);
+			snprintf(path, sizeof path, "%s/%s%s_tstat.nii.gz", mdir, prefix, tok[i]);
 			m->t = read_on_grid(pg, path, e);
 			if (!is_all)
 				pg->ndefine = pg->nmaps;
 		}
 	free_list(tok, n);
+}
+
+/* The mean image: the first func/sub-<l>_*_boldref.nii.gz in name order, into path; 0 if none. */
+static int boldref_path(const page *pg, char *path, size_t len)
+{
+	char mdir[4200], prefix[256];
+	char **tok;
+	size_t n;
+
+	snprintf(mdir, sizeof mdir, "%s/func", pg->dir);
+	snprintf(prefix, sizeof prefix, "sub-%s_", pg->label);
+	tok = list_dir(mdir, prefix, "_boldref.nii.gz", &n);
+	if (n)
+		snprintf(path, len, "%s/%s%s_boldref.nii.gz", mdir, prefix, tok[0]);
+	free_list(tok, n);
+	return n > 0;
 }
 
 /* Upscaled RGB rendering of slice k: gray background, then overlays chosen by mode. */
@@ -831,20 +856,20 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 	s->split_kind = split ? split : xstrdup("odd-even");
 	s->study_file = pg.rec.study_file ? xstrdup(pg.rec.study_file) : NULL;
 	sr_err_init(&note, NULL, NULL);
-	snprintf(path, sizeof path, "%s/maps/mean-bold.nii.gz", pg.dir);
-	if (nii_read_3d(path, &in, &pg.bold, &note)) {
+	if (!boldref_path(&pg, path, sizeof path) || nii_read_3d(path, &in, &pg.bold, &note)) {
 		/* no background: take the grid from the first fROI map */
 		char **tok;
 		size_t n;
-		char mdir[4200];
+		char mdir[4200], prefix[256];
 
-		snprintf(mdir, sizeof mdir, "%s/maps", pg.dir);
-		tok = list_dir(mdir, "froi_", ".nii.gz", &n);
-		if (!n || (snprintf(path, sizeof path, "%s/froi_%s.nii.gz", mdir, tok[0]),
+		snprintf(mdir, sizeof mdir, "%s/func", pg.dir);
+		snprintf(prefix, sizeof prefix, "sub-%s_", label);
+		tok = list_dir(mdir, prefix, "_dseg.nii.gz", &n);
+		if (!n || (snprintf(path, sizeof path, "%s/%s%s_dseg.nii.gz", mdir, prefix, tok[0]),
 			   nii_read_info(path, &in, NULL))) {
 			free_list(tok, n);
 			page_release(&pg);
-			return sr_fail(e, SR_EIO, "%s: no maps to show (mean-bold.nii.gz and froi_*.nii.gz missing)",
+			return sr_fail(e, SR_EIO, "%s: no maps to show (the _boldref.nii.gz and _dseg.nii.gz images are missing)",
 				       mdir);
 		}
 		free_list(tok, n);
@@ -895,7 +920,7 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 	overlap(&pg, s, &b);
 	sb_puts(&b, "<h2 id=\"frois\">fROIs on the mean functional image</h2>\n");
 	if (!pg.bold)
-		sb_puts(&b, "<p class=\"note\">maps/mean-bold.nii.gz is missing: slices drawn on a gray field.</p>\n");
+		sb_puts(&b, "<p class=\"note\">The mean image (func/*_boldref.nii.gz) is missing: slices drawn on a gray field.</p>\n");
 	if (!pg.parcels)
 		sb_puts(&b, "<p class=\"note\">The parcel image is missing or on another grid: no parcel outline.</p>\n");
 	orientation_note(&pg, &b);

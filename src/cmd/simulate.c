@@ -85,11 +85,12 @@ static const cmdline_opt opts[] = {
 	{ "int16", NULL, "store runs as int16 with scl_slope instead of float32" },
 	{ "scenario", "NAME", "auditory (default), visual, numbers or motor" },
 	{ "parcel-grid", "NAME", "same (default) or fine (half the voxel size: needs resampling)" },
+	{ "groups", "SCALE", "two groups in participants.tsv's group column: odd subjects control, even subjects patient, whose effects are SCALE times as large" },
 	{ "quiet", NULL, "print nothing but errors" },
 	{ NULL, NULL, NULL }
 };
 enum { O_OUT, O_SUBJECTS, O_SEED, O_GRID, O_VOLUMES, O_TR, O_NOISE, O_AR1, O_RUNS, O_NULL,
-       O_INT16, O_SCENARIO, O_PGRID, O_QUIET, O_N };
+       O_INT16, O_SCENARIO, O_PGRID, O_GROUPS, O_QUIET, O_N };
 
 static const cmdline_spec spec = {
 	"simulate", "--out DIR [options]",
@@ -111,6 +112,7 @@ struct opts {
 	uint64_t seed;
 	int standard, null, int16, quiet, fine;
 	double tr, noise, rho;
+	double group_scale;   /* 0: one group; else the patients' (even subjects') effect factor */
 	const struct scenario *sc;
 };
 
@@ -228,6 +230,12 @@ static int parse(int argc, char **argv, struct opts *o)
 		}
 		if (!o->sc)
 			return bad_name("scenario", v[O_SCENARIO], names, NSCENARIOS);
+	}
+	if (v[O_GROUPS] && cmdline_double("simulate", "groups", v[O_GROUPS], 0, 100, &o->group_scale) != 0)
+		return 2;
+	if (v[O_GROUPS] && !(o->group_scale > 0)) {
+		cmdline_error("simulate", "--groups wants a positive scale, got %s", v[O_GROUPS]);
+		return 2;
 	}
 	o->null = v[O_NULL] != NULL;
 	o->int16 = v[O_INT16] != NULL;
@@ -356,11 +364,12 @@ static sr_status write_top(const struct opts *o, const char *data, sr_err *e)
 		if (st != SR_OK)
 			return st;
 	}
-	cap = 32 + (size_t)o->subjects * 16;
+	cap = 32 + (size_t)o->subjects * 32;
 	text = xmalloc(cap);
-	len += (size_t)snprintf(text + len, cap - len, "participant_id\n");
+	len += (size_t)snprintf(text + len, cap - len, "participant_id%s\n", o->group_scale > 0 ? "\tgroup" : "");
 	for (s = 1; s <= o->subjects; s++)
-		len += (size_t)snprintf(text + len, cap - len, "sub-%0*ld\n", o->subjects > 99 ? 3 : 2, s);
+		len += (size_t)snprintf(text + len, cap - len, "sub-%0*ld%s\n", o->subjects > 99 ? 3 : 2, s,
+					o->group_scale > 0 ? (s % 2 ? "\tcontrol" : "\tpatient") : "");
 	p = path_join(data, "participants.tsv");
 	st = write_text(p, text, e);
 	free(p);
@@ -706,12 +715,14 @@ static sr_status simulate_subject(const struct opts *o, struct subject *s, const
 		double f = 1.0 + 0.15 * sim_rng_normal(&r);
 
 		s->factor[p - 1] = f < 0.5 ? 0.5 : f;
+		if (o->group_scale > 0 && subj % 2 == 0)   /* --groups: the patients' effects scaled */
+			s->factor[p - 1] *= o->group_scale;
 		topmean[p - 1] = sim_top_mean(s->nvox, s->labels, s->w, p, 1000, s->scratch,
 					      &ntop[p - 1], &npar[p - 1]);
 	}
-	truth_rows(truth, o, s, sub + 4, 0, topmean, ntop, npar);
+	truth_rows(truth, o, s, sub, 0, topmean, ntop, npar);
 	if (o->sc->meas_task)
-		truth_rows(truth, o, s, sub + 4, 1, topmean, ntop, npar);
+		truth_rows(truth, o, s, sub, 1, topmean, ntop, npar);
 	for (run = 1; run <= o->runs; run++) {
 		st = simulate_run(o, s, g, subj, sub, 0, run, e);
 		if (st != SR_OK)

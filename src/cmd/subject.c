@@ -15,6 +15,7 @@
 #include "../core/roi.h"
 #include "../io/afile.h"
 #include "../io/bids.h"
+#include "../io/bidsname.h"
 #include "../io/csvout.h"
 #include "../io/designcsv.h"
 #include "../io/events.h"
@@ -22,11 +23,13 @@
 #include "../io/table.h"
 #include "../version.h"
 #include "leftout.h"
+#include "mapout.h"
+#include "tabledict.h"
 #include "runfit.h"
 
 const char *const subject_columns[] = {
-	"subject", "parcel", "split", "define_runs", "measure_task", "measure_runs",
-	"effect", "value", "n_voxels", "n_candidates",
+	"subject", "parcel", "split", "split_kind", "part", "define_runs", "measure_task",
+	"measure_runs", "effect", "value", "n_voxels", "n_candidates",
 };
 const size_t subject_ncolumns = sizeof subject_columns / sizeof subject_columns[0];
 
@@ -290,16 +293,22 @@ sr_status subject_write_rows(const char *path, const char *subject, const respon
 	csvout c;
 	sr_status rc;
 	size_t i;
+	char pid[512], kind[128], part[128];
 
 	rc = csvout_open(&c, path, subject_columns, subject_ncolumns, e);
 	if (rc)
 		return rc;
+	/* the subject column is the BIDS participant_id, so that it stays text and joins participants.tsv */
+	snprintf(pid, sizeof pid, "sub-%s", subject);
 	for (i = 0; i < n; i++) {
 		const response_row *w = &rows[i];
 
-		csvout_str(&c, subject);
+		bidsname_split_parts(w->split, kind, sizeof kind, part, sizeof part);
+		csvout_str(&c, pid);
 		csvout_str(&c, w->parcel);
 		csvout_str(&c, w->split);
+		csvout_str(&c, kind);
+		csvout_str(&c, part);
 		csvout_str(&c, w->define_runs);
 		csvout_str(&c, w->measure_task);
 		csvout_str(&c, w->measure_runs);
@@ -309,7 +318,8 @@ sr_status subject_write_rows(const char *path, const char *subject, const respon
 		csvout_num(&c, w->n_candidates);
 		csvout_endrow(&c);
 	}
-	return csvout_commit(&c, e);
+	rc = csvout_commit(&c, e);
+	return rc ? rc : tabledict_write(path, subject_columns, subject_ncolumns, NULL, 0, e);
 }
 
 /* ---- one task's runs, conditions and contrasts ---- */
@@ -517,7 +527,6 @@ static void task_specs(const study *st, const task_fit *t, const unsigned char *
 
 typedef struct split {
 	char name[96];     /* table label, e.g. "odd-even:A" */
-	char token[96];    /* file name part, e.g. "odd-even-A" */
 	int ndef, nmeas;
 	int *def, *meas;   /* run positions */
 } split;
@@ -667,24 +676,52 @@ static double froi_mean(const froi_set *f, int p, const double *E)
 	return n ? s / (double)n : NAN;
 }
 
-/* Writes the define t map and fROI labels of one split under dir/maps/. */
-static sr_status write_maps(const char *dir, const char *token, const nii_grid *g, size_t nvox,
-			    const froi_set *f, sr_err *e)
+/* The fixed-effects df of a map over the runs at pos (METHODS.md 5): the sum of the runs' df. */
+static double ffx_df(const task_fit *t, const int *pos, int n)
 {
-	char path[4096 + 256];
-	float *tf = xmalloc_array(nvox, sizeof *tf);
-	size_t v;
-	sr_status rc;
+	double df = 0;
+	int i;
 
-	for (v = 0; v < nvox; v++)
-		tf[v] = isfinite(f->t[v]) ? (float)f->t[v] : NAN;
-	snprintf(path, sizeof path, "%s/maps/localizer-t_%s.nii.gz", dir, token);
-	rc = nii_write_float(path, g, tf, 1, 0, "splitroi localizer t", e);
-	free(tf);
-	if (rc)
-		return rc;
-	snprintf(path, sizeof path, "%s/maps/froi_%s.nii.gz", dir, token);
-	return nii_write_labels(path, g, f->froi, "splitroi fROI labels", e);
+	for (i = 0; i < n; i++)
+		df += t->res[pos[i]].out.df;
+	return df;
+}
+
+/* The selection rule in words, for the label image's sidecar. */
+static void rule_text(const study *st, char *buf, size_t n)
+{
+	if (st->select == SELECT_TOP_VOXELS)
+		snprintf(buf, n, "top %g voxels by localizer t", st->select_value);
+	else if (st->select == SELECT_MIN_T)
+		snprintf(buf, n, "voxels with localizer t of at least %g", st->select_value);
+	else
+		snprintf(buf, n, "top %s percent of the parcel's candidate voxels by localizer t",
+			 st->top_percent_text ? st->top_percent_text : "10");
+}
+
+/* Writes the define t map and fROI labels of one split under dir/func/ (mapout.h). */
+static sr_status write_maps(const char *dir, const study *st, const char *label,
+			    const task_fit *loc, const char *split_name, const char *mtask, const char *def,
+			    const char *meas, double df, const nii_grid *g, size_t nvox,
+			    const parcel_set *ps, const froi_set *f, sr_err *e)
+{
+	mapout_info m;
+	char rule[256];
+
+	rule_text(st, rule, sizeof rule);
+	memset(&m, 0, sizeof m);
+	m.subject = label;
+	m.task = loc->task;
+	m.space = loc->nruns ? loc->runs[0].space : NULL;
+	m.res = st->derivatives ? st->res : NULL;
+	m.split = split_name;
+	m.measure_task = mtask;
+	m.define_runs = def;
+	m.measure_runs = meas;
+	m.contrast = st->contrast.text;
+	m.df = df;
+	m.rule = rule;
+	return mapout_split(dir, &m, g, nvox, f->t, f->froi, ps->n, ps->index, ps->name, e);
 }
 
 static double now_seconds(void)
@@ -764,18 +801,27 @@ static jdoc *inputs_record(const task_fit *t)
 }
 
 /* The first localizer run's temporal mean (the report's background) and every run's design. */
-static sr_status write_run_files(const char *dir, const task_fit *tasks, size_t ntasks,
-				 const study *st, const nii_grid *g, size_t nvox, sr_err *e)
+static sr_status write_run_files(const char *dir, const char *label, const task_fit *tasks,
+				 size_t ntasks, const study *st, const nii_grid *g, size_t nvox, sr_err *e)
 {
 	char path[4096 + 256];
 	float *m = xmalloc_array(nvox, sizeof *m);
 	size_t i, v;
 	sr_status rc;
 
+	mapout_info mi;
+
 	for (v = 0; v < nvox; v++)
 		m[v] = isfinite(tasks[0].res[0].out.mean[v]) ? (float)tasks[0].res[0].out.mean[v] : 0.0f;
-	snprintf(path, sizeof path, "%s/maps/mean-bold.nii.gz", dir);
-	rc = nii_write_float(path, g, m, 1, 0, "splitroi temporal mean, first localizer run", e);
+	memset(&mi, 0, sizeof mi);
+	mi.subject = label;
+	mi.task = tasks[0].task;
+	mi.space = tasks[0].runs[0].space;
+	mi.res = st->derivatives ? st->res : NULL;
+	if (tasks[0].runs[0].run_index >= 0)
+		snprintf(path, sizeof path, "%d", tasks[0].runs[0].run_index);
+	rc = mapout_boldref(dir, &mi, tasks[0].runs[0].session,
+			    tasks[0].runs[0].run_index >= 0 ? path : NULL, tasks[0].runs[0].bold, g, m, e);
 	free(m);
 	for (i = 0; !rc && i < ntasks; i++) {
 		size_t r;
@@ -1041,7 +1087,6 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				int r, nodd = (nl + 1) / 2, neven = nl / 2;
 
 				snprintf(splits[s].name, sizeof splits[s].name, "odd-even:%c", 'A' + s);
-				snprintf(splits[s].token, sizeof splits[s].token, "odd-even-%c", 'A' + s);
 				splits[s].def = xcalloc((size_t)nl, sizeof(int));
 				splits[s].meas = xcalloc((size_t)nl, sizeof(int));
 				for (r = 0; r < nl; r++) {
@@ -1062,8 +1107,6 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				int r;
 
 				snprintf(splits[s].name, sizeof splits[s].name, "leave-one-out:%s",
-					 tasks[0].runs[s].label);
-				snprintf(splits[s].token, sizeof splits[s].token, "leave-one-out-%s",
 					 tasks[0].runs[s].label);
 				splits[s].def = xcalloc((size_t)nl, sizeof(int));
 				splits[s].meas = xcalloc(1, sizeof(int));
@@ -1125,7 +1168,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 						loc->effects[j].text, val[cell], nv[cell], nc[cell]);
 				}
 			}
-			rc = write_maps(dir, splits[s].token, &grid, nvox, &f, e);
+			rc = write_maps(dir, st, label, loc, splits[s].name, NULL, def, meas,
+					ffx_df(loc, splits[s].def, splits[s].ndef), &grid, nvox, ps, &f, e);
 			froi_release(&f);
 			if (rc)
 				break;
@@ -1178,8 +1222,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 						mt->missing[j] ? NAN : froi_mean(&f, p, E), (double)f.count[p],
 						(double)f.ncand[p]);
 			}
-			snprintf(buf, sizeof buf, "all-%s", mt->task);
-			rc = write_maps(dir, buf, &grid, nvox, &f, e);
+			rc = write_maps(dir, st, label, loc, "all", mt->task, all, meas,
+					ffx_df(loc, lpos, (int)loc->nruns), &grid, nvox, ps, &f, e);
 			froi_release(&f);
 			free(lpos);
 			free(mpos);
@@ -1192,7 +1236,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 	}
 	progress(ctx, label, "writing tables");
-	rc = write_run_files(dir, tasks, ntasks, st, &grid, nvox, e);
+	rc = write_run_files(dir, label, tasks, ntasks, st, &grid, nvox, e);
 	if (rc)
 		goto out;
 	snprintf(path, sizeof path, "%s/responses.csv", dir);

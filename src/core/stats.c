@@ -309,3 +309,29 @@ double stats_quantile(double *x, size_t n, double p)
 	qsort(x, n, sizeof *x, cmp_dbl);
 	return stats_quantile_sorted(x, n, p);
 }
+
+void stats_welch(const double *a, size_t na, const double *b, size_t nb, stats_two *out)
+{
+	stats_one sa, sb;
+	double qa, qb;
+
+	stats_one_sample(a, na, &sa);
+	stats_one_sample(b, nb, &sb);
+	out->na = sa.n;
+	out->nb = sb.n;
+	out->diff = out->sem = out->t = out->df = out->p = out->d = NAN;
+	if (sa.n == 0 || sb.n == 0)
+		return;
+	out->diff = sa.mean - sb.mean;
+	if (sa.n < 2 || sb.n < 2)
+		return;
+	qa = sa.sd * sa.sd / (double)sa.n;
+	qb = sb.sd * sb.sd / (double)sb.n;
+	if (!(qa + qb > 0))
+		return;
+	out->sem = sqrt(qa + qb);
+	out->t = out->diff / out->sem;
+	out->df = (qa + qb) * (qa + qb) / (qa * qa / (double)(sa.n - 1) + qb * qb / (double)(sb.n - 1));
+	out->p = stats_t_p2(out->t, out->df);
+	out->d = out->diff / sqrt(0.5 * (sa.sd * sa.sd + sb.sd * sb.sd));
+}

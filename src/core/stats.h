@@ -16,6 +16,23 @@ typedef struct stats_one {
  * not infinite). Pure; thread safe.
  */
 void stats_one_sample(const double *x, size_t n, stats_one *out);
+/* A two-sample Welch t test: a - b. */
+typedef struct stats_two {
+	size_t na, nb;                      /* finite values of each sample */
+	double diff, sem, t, df, p, d;      /* NaN where undefined */
+} stats_two;
+
+/*
+ * Welch's two-sample t test of the finite values of a against those of b
+ * (Welch 1947, Biometrika 34:28-35): diff = mean a - mean b, sem =
+ * sqrt(va/na + vb/nb) (variances with n - 1), t = diff / sem, df by the
+ * Welch-Satterthwaite formula (va/na + vb/nb)^2 / ((va/na)^2/(na-1) +
+ * (vb/nb)^2/(nb-1)), two-sided p from t(df), and d = diff / sqrt((va + vb) / 2).
+ * Needs at least 2 values in each sample and some spread (else t, df, p, d
+ * NaN; diff is set when both samples have a value). Pure; thread safe.
+ */
+void stats_welch(const double *a, size_t na, const double *b, size_t nb, stats_two *out);
+
 /*
  * Two-sided p = P(|T_df| >= |t|), accurate in relative terms far into the
  * tail (computed from the upper tail, never as 1 - cdf). df may be any

@@ -133,6 +133,44 @@ sr_status jdoc_read_strings(const char *path, const char *key, char ***keys, cha
 	return SR_OK;
 }
 
+sr_status jdoc_read_array_member(const char *path, const char *key, const char *member,
+				 char ***vals, size_t *n, sr_err *e)
+{
+	json_error_t je;
+	json_t *root = json_load_file(path, 0, &je), *a, *el;
+	size_t i;
+
+	*vals = NULL;
+	*n = 0;
+	if (!root) {
+		if (je.line <= 0)
+			return sr_fail(e, SR_EIO, "%s: cannot read: %s", path, je.text);
+		return sr_fail(e, SR_EFORMAT, "%s: line %d, column %d: %s", path, je.line, je.column,
+			       je.text);
+	}
+	a = json_is_object(root) ? json_object_get(root, key) : NULL;
+	if (json_is_array(a)) {
+		*vals = xcalloc(json_array_size(a) + 1, sizeof **vals);
+		json_array_foreach(a, i, el) {
+			json_t *v = json_is_object(el) ? json_object_get(el, member) : NULL;
+
+			if (json_is_string(v))
+				(*vals)[(*n)++] = xstrdup(json_string_value(v));
+		}
+	}
+	json_decref(root);
+	return SR_OK;
+}
+
+void jdoc_values_free(char **vals, size_t n)
+{
+	size_t i;
+
+	for (i = 0; i < n; i++)
+		free(vals[i]);
+	free(vals);
+}
+
 void jdoc_strings_free(char **keys, char **vals, size_t n)
 {
 	size_t i;

@@ -652,7 +652,7 @@ typedef struct nii_out {
 /* The NIfTI-1 header for grid g; pixdim, srow and qoffset go back in the grid's stored units. */
 static sr_status make_header(nifti_1_header *h, const char *path, const nii_grid *g, int64_t nt,
 			     double tr, int datatype, int bitpix, double slope, double inter,
-			     int intent, const char *description, sr_err *e)
+			     int intent, double intent_p1, const char *description, sr_err *e)
 {
 	double f_mm;
 
@@ -674,6 +674,7 @@ static sr_status make_header(nifti_1_header *h, const char *path, const nii_grid
 	h->datatype = (short)datatype;
 	h->bitpix = (short)bitpix;
 	h->intent_code = (short)intent;
+	h->intent_p1 = (float)intent_p1;
 	h->pixdim[0] = g->qfac < 0 ? -1.0f : 1.0f;
 	h->pixdim[1] = (float)(g->dx / f_mm);
 	h->pixdim[2] = (float)(g->dy / f_mm);
@@ -786,12 +787,18 @@ static sr_status out_commit(nii_out *o, sr_err *e)
 sr_status nii_write_float(const char *path, const nii_grid *g, const float *data, int64_t nt,
 			  double tr, const char *description, sr_err *e)
 {
+	return nii_write_stat(path, g, data, nt, tr, NIFTI_INTENT_NONE, 0.0, description, e);
+}
+
+sr_status nii_write_stat(const char *path, const nii_grid *g, const float *data, int64_t nt,
+			 double tr, int intent, double intent_p1, const char *description, sr_err *e)
+{
 	nifti_1_header h;
 	nii_out o;
 	size_t n;
 	sr_status rc;
 
-	rc = make_header(&h, path, g, nt, tr, NIFTI_TYPE_FLOAT32, 32, 0.0, 0.0, NIFTI_INTENT_NONE,
+	rc = make_header(&h, path, g, nt, tr, NIFTI_TYPE_FLOAT32, 32, 0.0, 0.0, intent, intent_p1,
 			 description, e);
 	if (rc != SR_OK)
 		return rc;
@@ -817,7 +824,7 @@ sr_status nii_write_labels(const char *path, const nii_grid *g, const int32_t *l
 	sr_status rc;
 
 	rc = make_header(&h, path, g, 1, 0.0, NIFTI_TYPE_INT32, 32, 0.0, 0.0, NIFTI_INTENT_LABEL,
-			 description, e);
+			 0.0, description, e);
 	if (rc != SR_OK)
 		return rc;
 	if (sr_mul_size(nii_nvox(g), sizeof *labels, &n))
@@ -861,7 +868,7 @@ sr_status nii_writer_open(const char *path, const nii_grid *g, int64_t nt, doubl
 	if (datatype == NIFTI_TYPE_FLOAT32)
 		slope = 0.0, inter = 0.0; /* slope 0: the stored values are the values */
 	rc = make_header(&h, path, g, nt, tr, datatype, (int)bytes * 8, slope, inter,
-			 NIFTI_INTENT_NONE, NULL, e);
+			 NIFTI_INTENT_NONE, 0.0, NULL, e);
 	if (rc != SR_OK)
 		return rc;
 	if (sr_mul_size(nii_nvox(g), bytes, &n))

@@ -98,7 +98,14 @@ sr_status nii_read_3d(const char *path, nii_info *info, double **data, sr_err *e
 sr_status nii_write_float(const char *path, const nii_grid *g, const float *data, int64_t nt,
 			  double tr, const char *description, sr_err *e);
 
-/* Writes an int32 label image (3-D) on grid g, atomically as above. */
+/*
+ * nii_write_float with a NIfTI intent: intent (NIFTI_INTENT_TTEST = 3 for a t
+ * map) and its first parameter (the t map's degrees of freedom) in the header.
+ */
+sr_status nii_write_stat(const char *path, const nii_grid *g, const float *data, int64_t nt,
+			 double tr, int intent, double intent_p1, const char *description, sr_err *e);
+
+/* Writes an int32 label image (3-D, NIFTI_INTENT_LABEL) on grid g, atomically as above. */
 sr_status nii_write_labels(const char *path, const nii_grid *g, const int32_t *labels,
 			   const char *description, sr_err *e);
 

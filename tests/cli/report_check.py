@@ -189,8 +189,8 @@ check(subt is not None and subt['rows'], 'study page has the overlap table')
 bad, flags_ok, recomputed = [], True, []
 for r, flag in zip(subt['rows'] if subt else [], subt['flags'] if subt else []):
     sub = r[0][4:]
-    d = os.path.join(out, 'sub-' + sub, 'maps')
-    halves = sorted(f for f in glob.glob(os.path.join(d, 'froi_*.nii.gz')) if not os.path.basename(f).startswith('froi_all-'))
+    d = os.path.join(out, 'sub-' + sub, 'func')
+    halves = sorted(f for f in glob.glob(os.path.join(d, 'sub-%s_*_dseg.nii.gz' % sub)) if '_desc-all' not in os.path.basename(f))
     maps = [np.asarray(nib.load(f).dataobj) for f in halves]
     rj = json.load(open(os.path.join(out, 'sub-' + sub, 'run.json')))
     names_path = None

@@ -53,17 +53,18 @@ xx, yy, zz = np.meshgrid(np.arange(nx), np.arange(ny), np.arange(nz), indexing='
 brain = np.exp(-(((xx - 10) / 8.0) ** 2 + ((yy - 12) / 10.0) ** 2 + ((zz - 5) / 5.0) ** 2))
 subjects = ['01', '02', '03']
 names = {3: 'left auditory', 7: 'right auditory'}
-resp_cols = ['subject', 'parcel', 'split', 'define_runs', 'measure_task', 'measure_runs', 'effect',
-             'value', 'n_voxels', 'n_candidates']
+resp_cols = ['subject', 'parcel', 'split', 'split_kind', 'part', 'define_runs', 'measure_task',
+             'measure_runs', 'effect', 'value', 'n_voxels', 'n_candidates']
 all_rows = []
-tokens = ['leave-one-out-1', 'leave-one-out-2', 'leave-one-out-3'] if loo else ['odd-even-A', 'odd-even-B']
+# the desc entity of each split's maps (README "Outputs")
+tokens = ['leaveoneout1', 'leaveoneout2', 'leaveoneout3'] if loo else ['oddevenA', 'oddevenB']
 for si, sub in enumerate(subjects):
     d = os.path.join(out, 'sub-' + sub)
-    os.makedirs(os.path.join(d, 'maps'), exist_ok=True)
+    os.makedirs(os.path.join(d, 'func'), exist_ok=True)
     os.makedirs(os.path.join(d, 'design'), exist_ok=True)
     mean = (1000 * brain + rng.normal(0, 20, brain.shape)).astype(np.float32)
-    nib.save(nib.Nifti1Image(mean, aff), os.path.join(d, 'maps', 'mean-bold.nii.gz'))
-    for ti, tok in enumerate(tokens + ['all-memory']):
+    nib.save(nib.Nifti1Image(mean, aff), os.path.join(d, 'func', 'sub-%s_task-tones_run-1_boldref.nii.gz' % sub))
+    for ti, tok in enumerate(tokens + ['allmemory']):
         t = (6 * np.exp(-(((xx - 6) / 2.5) ** 2 + ((yy - 9) / 3.0) ** 2 + ((zz - 4) / 2.0) ** 2))
              + 5 * np.exp(-(((xx - 14) / 2.5) ** 2 + ((yy - 13) / 3.0) ** 2 + ((zz - 5) / 2.0) ** 2))
              + rng.normal(0, 1.0, brain.shape)).astype(np.float32)
@@ -75,9 +76,10 @@ for si, sub in enumerate(subjects):
                 continue
             thr = np.quantile(t[inside], 0.9)
             fr[inside & (t >= thr)] = lab
-        if not tok.startswith('all-'):
-            nib.save(nib.Nifti1Image(t, aff), os.path.join(d, 'maps', 'localizer-t_%s.nii.gz' % tok))
-        nib.save(nib.Nifti1Image(fr, aff), os.path.join(d, 'maps', 'froi_%s.nii.gz' % tok))
+        stem = os.path.join(d, 'func', 'sub-%s_task-tones_desc-%s_' % (sub, tok))
+        if not tok.startswith('all'):
+            nib.save(nib.Nifti1Image(t, aff), stem + 'tstat.nii.gz')
+        nib.save(nib.Nifti1Image(fr, aff), stem + 'dseg.nii.gz')
     inputs = {}
     for task, nruns in (('tones', 3 if loo else 2), ('memory', 1)):
         inputs[task] = []
@@ -112,12 +114,14 @@ for si, sub in enumerate(subjects):
     for lab in (3, 7):
         for eff, base in (('melody', 1.2), ('scrambled', 0.5), ('melody-scrambled', 0.7)):
             for sp in ([kind + ':A', kind + ':B'] if not loo else [kind + ':%d' % k for k in (1, 2, 3)]) + [kind + ':mean']:
-                rows.append([sub, names[lab], sp, '1', 'tones', '2', eff, '%.6f' % (base + rng.normal(0, .3)), '27', '270'])
+                rows.append(['sub-' + sub, names[lab], sp, kind, sp.split(':')[1], '1', 'tones', '2', eff,
+                             '%.6f' % (base + rng.normal(0, .3)), '27', '270'])
         for eff, base in (('familiar', .9), ('novel', .6), ('familiar-novel', .3)):
-            rows.append([sub, names[lab], 'all', '1 2', 'memory', '1', eff, '%.6f' % (base + rng.normal(0, .3)), '27', '270'])
+            rows.append(['sub-' + sub, names[lab], 'all', 'all', 'all', '1 2', 'memory', '1', eff,
+                         '%.6f' % (base + rng.normal(0, .3)), '27', '270'])
     # one empty value (a subject without that estimate)
     if sub == '03':
-        rows[0][7] = ''
+        rows[0][resp_cols.index('value')] = ''
     with open(os.path.join(d, 'responses.csv'), 'w', newline='') as f:
         w = csv.writer(f, lineterminator='\n')
         w.writerow(resp_cols)

@@ -101,7 +101,7 @@ sub = open(sp, encoding='utf-8').read()
 tab = re.search(r'<table id="responses">(.*?)</table>', sub, re.S).group(1)
 head = re.findall(r'<th>(.*?)</th>', tab)
 cells = [re.findall(r'<td[^>]*>(.*?)</td>', r) for r in re.findall(r'<tr>(.*?)</tr>', tab)[1:]]
-check(cells and all(c[head.index('subject')] == s1 for c in cells), 'the subject page shows subject %s as written' % s1)
+check(cells and all(c[head.index('subject')] == 'sub-' + s1 for c in cells), 'the subject page shows subject sub-%s as written in its table' % s1)
 srows = rows(os.path.join(out, 'sub-' + s1, 'responses.csv'))
 bad = []
 for r in srows:
@@ -117,7 +117,7 @@ check(not bad and any(r['split'].endswith(':mean') for r in srows),
       ':mean rows list the runs of each split they average, defining and measuring runs apart (%s)' % bad[:1])
 check(any('|' in c[head.index('define_runs')] for c in cells), 'the report shows those run lists')
 
-aff = nib.load(os.path.join(out, 'sub-' + s1, 'maps', 'mean-bold.nii.gz')).affine
+aff = nib.load(glob.glob(os.path.join(out, 'sub-' + s1, 'func', '*_boldref.nii.gz'))[0]).affine
 opp = {'R': 'L', 'L': 'R', 'A': 'P', 'P': 'A', 'S': 'I', 'I': 'S'}
 
 
@@ -202,7 +202,7 @@ lps = os.path.join(tmp, 'lps')
 shutil.rmtree(lps, ignore_errors=True)
 shutil.copytree(out, lps)
 flip = np.diag([-1.0, -1.0, 1.0, 1.0])
-for f in glob.glob(os.path.join(lps, 'sub-*', 'maps', '*.nii.gz')):
+for f in glob.glob(os.path.join(lps, 'sub-*', 'func', '*.nii.gz')):
     im = nib.load(f)
     nx, ny = im.shape[:2]
     # the same voxels stored in reverse along i and j: world positions unchanged, axes now point L and P
@@ -210,7 +210,7 @@ for f in glob.glob(os.path.join(lps, 'sub-*', 'maps', '*.nii.gz')):
     nib.save(nib.Nifti1Image(np.asarray(im.dataobj)[::-1, ::-1], a2), f)
 r = subprocess.run([os.environ.get('SPLITROI', 'splitroi'), 'report', '--quiet', lps], capture_output=True, text=True)
 lsub = open(os.path.join(lps, 'sub-' + s1, 'report.html'), encoding='utf-8').read()
-letters_ok(lsub, nib.load(os.path.join(lps, 'sub-' + s1, 'maps', 'mean-bold.nii.gz')).affine, 'LPS copy')
+letters_ok(lsub, nib.load(glob.glob(os.path.join(lps, 'sub-' + s1, 'func', '*_boldref.nii.gz'))[0]).affine, 'LPS copy')
 check('parcel outline' not in re.sub(r'no parcel outline', '', lsub),
       'LPS copy (parcels now on another grid): no caption mentions a parcel outline')
 sys.exit(1 if failed else 0)

@@ -27,11 +27,11 @@ expect_err "sub-02 failed: .*sub-02_task-tones_run-03_bold.nii.gz" "header bomb:
 import csv, sys, os
 d = sys.argv[1]
 rows = list(csv.DictReader(open(d + '/responses.csv')))
-assert rows and {r['subject'] for r in rows} == {'01'}, {r['subject'] for r in rows}
+assert rows and {r['subject'] for r in rows} == {'sub-01'}, {r['subject'] for r in rows}
 g = open(d + '/group.csv').read()
 assert 'incomplete' in g, g[:300]
 subs = {r['subject']: r['status'] for r in csv.DictReader(open(d + '/group_subjects.csv'))}
-assert subs.get('sub-01', subs.get('01')) == 'used' and subs.get('sub-02', subs.get('02')) == 'missing', subs
+assert subs.get('sub-01') == 'used' and subs.get('sub-02') == 'missing', subs
 PYEOF
 
 # a gzip bomb: a small .nii.gz that inflates to far more than the deflate format allows for

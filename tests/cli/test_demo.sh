@@ -15,6 +15,27 @@ else
 	notok "the demo's manifest lacks study.ini or results/responses.csv"
 fi
 
+# every map of the demo results is found by its BIDS entities (the parser of tests/py/test_bids_outputs.py)
+"${PYTHON:-/usr/bin/python3}" - "$TMP/demo/results" "$ROOT/tests/py" <<'PYEOF' >"$TMP/ent" 2>&1
+import glob, os, sys
+sys.path.insert(0, sys.argv[2])
+from test_bids_outputs import parse_bids
+out = sys.argv[1]
+index, bad = [], []
+for f in glob.glob(os.path.join(out, 'sub-*', 'func', '*')):
+    p = parse_bids(os.path.basename(f))
+    (index.append(p) if p else bad.append(f))
+subs = sorted(os.path.basename(d)[4:] for d in glob.glob(os.path.join(out, 'sub-*')))
+want = [(s, d, k) for s in subs for d in ('oddevenA', 'oddevenB', 'allmemory') for k in ('tstat', 'dseg')]
+found = [(e.get('sub'), e.get('desc'), suf) for e, suf, ext in index if ext == '.nii.gz']
+refs = [e['sub'] for e, suf, ext in index if suf == 'boldref' and ext == '.nii.gz']
+miss = [w for w in want if found.count(w) != 1] + [s for s in subs if refs.count(s) != 1]
+print(len(index), 'files', bad[:3], miss[:3])
+sys.exit(0 if index and not bad and not miss and len(subs) == 2 else 1)
+PYEOF
+[ $? = 0 ] && ok "every map of the demo results is found by its entities ($(cat "$TMP/ent"))" ||
+	notok "demo maps not all found by their entities: $(tail -c 400 "$TMP/ent")"
+
 # a user's study file, parcels folder and a file inside the demo's own results folder
 echo "[study]" >"$TMP/demo/my_study.ini"
 mkdir -p "$TMP/demo/my_parcels" "$TMP/demo/results/notes"

@@ -19,7 +19,7 @@ done
 import csv, sys
 d = sys.argv[1]
 subs = {r['subject'] for r in csv.DictReader(open(d + '/responses.csv'))}
-used = {r['subject'].replace('sub-', '') for r in csv.DictReader(open(d + '/group_subjects.csv')) if r['status'] == 'used'}
+used = {r['subject'] for r in csv.DictReader(open(d + '/group_subjects.csv')) if r['status'] == 'used'}
 assert subs == used, (subs, used)
 n = {r['n'] for r in csv.DictReader(open(d + '/group.csv')) if r['parcel'] == 'left_core'}
 assert n == {str(len(subs))}, (n, subs)

@@ -81,7 +81,7 @@ expect_err "sub-02/responses.csv: line 3, column 8 \(value\): 'abc' is not a num
 	"the message names file, line and column"
 cmp -s "$TMP/res/group.csv" "$TMP/group.before" && ok "a failed run leaves group.csv as it was" \
 	|| notok "a failed run leaves group.csv as it was"
-ls "$TMP/res" | grep -q -v -E '^(sub-0[123]|group.csv|group_subjects.csv|responses_wide.csv|responses_wide_columns.csv)$' \
+ls "$TMP/res" | grep -q -v -E '^(sub-0[123]|(group|group_subjects|responses_wide|responses_wide_columns)\.(csv|json))$' \
 	&& notok "no temporary files left: $(ls "$TMP/res")" || ok "no temporary files left behind"
 
 table 02 0.7 1.2
@@ -110,13 +110,13 @@ expect_err "sub-02/responses.csv: no such file" "the missing table is named"
 expect_out "INCOMPLETE, 1 missing: 02" "the summary says the group is incomplete"
 grep -q ',incomplete' "$TMP/res/group.csv" && ok "group.csv rows carry the incomplete marker" \
 	|| notok "group.csv rows carry the incomplete marker"
-grep -q '^02,missing,' "$TMP/res/group_subjects.csv" && ok "group_subjects.csv lists 02 as missing" \
+grep -q '^sub-02,missing,' "$TMP/res/group_subjects.csv" && ok "group_subjects.csv lists 02 as missing" \
 	|| notok "group_subjects.csv lists 02 as missing"
 
 # An unreadable table (here a folder where the file should be): listed, left out, exit 0.
 mkdir -p "$TMP/res/sub-04/responses.csv"
 run "$SPLITROI" group "$TMP/res"
 expect_status 0 "an unreadable table does not stop the group step"
-grep -q '^04,unreadable,' "$TMP/res/group_subjects.csv" && ok "group_subjects.csv lists 04 as unreadable" \
+grep -q '^sub-04,unreadable,' "$TMP/res/group_subjects.csv" && ok "group_subjects.csv lists 04 as unreadable" \
 	|| notok "group_subjects.csv lists 04 as unreadable: $(cat "$TMP/res/group_subjects.csv")"
 expect_out "INCOMPLETE, 2 missing: 02 04" "the summary counts the unreadable subject as missing"

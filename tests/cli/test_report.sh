@@ -36,10 +36,10 @@ expect_status 0 "report on a leave-one-out results folder"
 "$PY" "$HERE/report_check.py" "$TMP/loo"
 
 # a subject whose maps are gone: the others still get pages, the exit status says it failed
-rm -rf "$TMP/oe/sub-02/maps"
+rm -rf "$TMP/oe/sub-02/func"
 run "$SPLITROI" report "$TMP/oe"
 expect_status 1 "a subject without maps makes report fail"
-expect_err "sub-02: .*maps" "the message names the subject and the missing maps"
+expect_err "sub-02: .*func: no maps to show" "the message names the subject and the missing maps"
 [ -s "$TMP/oe/report.html" ] && ok "the study page is still written" || notok "the study page is missing"
 [ ! -e "$TMP/oe/sub-02/report.html" ] && ok "the failed subject's old page is removed" || notok "a stale sub-02 page is left"
 grep -q 'href="sub-02/report.html"' "$TMP/oe/report.html" && notok "the study page links to the missing sub-02 page" || ok "no link to the missing page"

@@ -146,9 +146,9 @@ ok(len(rows) == 2 * 4 * 6, "truth.csv has a row per subject, parcel and effect (
 ctrl = [float(r["value"]) for r in rows if r["parcel"] == "occipital_control"]
 ok(ctrl and all(v == 0 for v in ctrl), "the control parcel's truth is zero")
 v = {(r["subject"], r["parcel"], r["effect"]): float(r["value"]) for r in rows}
-ok(abs(v[("01", "left_auditory", "melody-scrambled")] - (v[("01", "left_auditory", "melody")] - v[("01", "left_auditory", "scrambled")])) < 1e-8,
+ok(abs(v[("sub-01", "left_auditory", "melody-scrambled")] - (v[("sub-01", "left_auditory", "melody")] - v[("sub-01", "left_auditory", "scrambled")])) < 1e-8,
    "a contrast's truth is the difference of its conditions")
-ok(v[("01", "left_auditory", "melody")] > v[("01", "left_auditory", "scrambled")] > 0, "melody > scrambled > 0 in auditory parcels")
+ok(v[("sub-01", "left_auditory", "melody")] > v[("sub-01", "left_auditory", "scrambled")] > 0, "melody > scrambled > 0 in auditory parcels")
 with open(os.path.join(null, "truth.csv"), newline="") as f:
     ok(all(float(r["value"]) == 0 for r in csv.DictReader(f)), "--null: every true effect is zero")
 EOF

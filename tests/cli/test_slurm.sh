@@ -233,7 +233,7 @@ expect_status 0 "analyze one subject alone"
 run "$SPLITROI" analyze "$TMP/mini/study.ini" --out "$TMP/mini/res" --collect --quiet
 expect_status 0 "--collect with one subject missing still succeeds"
 expect_err "1 of 2 subjects .* sub-02" "--collect names the incomplete subject"
-if [ -s "$TMP/mini/res/group.csv" ] && grep -q '^02,missing' "$TMP/mini/res/group_subjects.csv"; then
+if [ -s "$TMP/mini/res/group.csv" ] && grep -q '^sub-02,missing' "$TMP/mini/res/group_subjects.csv"; then
 	ok "--collect writes group.csv and lists sub-02 as missing"
 else
 	notok "--collect tables: $(ls "$TMP/mini/res"; cat "$TMP/mini/res/group_subjects.csv" 2>&1)"
@@ -419,7 +419,7 @@ done
 if [ "$good" -eq 3 ] && [ ! -e "$TMP/brokenout/sub-02/run.json" ]; then ok "the other three subjects completed, sub-02 did not"; else notok "complete subjects: $good of 3; $(ls "$TMP/brokenout" 2>&1)"; fi
 L=$TMP/brokenout/slurm/logs/sub-02.log
 if grep -qs 'sub-02 failed' "$L"; then ok "sub-02's log says why it failed"; else notok "no failure in sub-02's log: $(cat "$L" 2>&1 | head -c 800)"; fi
-if [ -s "$TMP/brokenout/group.csv" ] && grep -q '^02,missing' "$TMP/brokenout/group_subjects.csv" &&
+if [ -s "$TMP/brokenout/group.csv" ] && grep -q '^sub-02,missing' "$TMP/brokenout/group_subjects.csv" &&
 	grep -qs 'sub-02' "$TMP"/brokenout/slurm/logs/group-*.out; then
 	ok "group.csv written; sub-02 listed as missing there and in the group log"
 else
@@ -431,7 +431,7 @@ else
 	notok "group rows not marked incomplete: $(head -3 "$TMP/brokenout/group.csv")"
 fi
 # the three good subjects agree with the local run (sub-01, 03, 04 of the 12 link to the same data)
-if awk -F, 'NR == 1 || $1 == "01" || $1 == "03" || $1 == "04"' "$TMP/local/responses.csv" | cmp -s - "$TMP/brokenout/responses.csv"; then
+if awk -F, 'NR == 1 || $1 == "sub-01" || $1 == "sub-03" || $1 == "sub-04"' "$TMP/local/responses.csv" | cmp -s - "$TMP/brokenout/responses.csv"; then
 	ok "responses.csv holds exactly the local rows of the three good subjects"
 else
 	notok "responses.csv of the broken study differs from the local rows of sub-01, 03 and 04"

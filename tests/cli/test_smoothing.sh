@@ -40,7 +40,7 @@ fi
 # the smoothed effect map is smoother: its voxel-to-voxel differences shrink
 "$PY" - "$TMP/f0" "$TMP/f6" <<'PYEOF' >"$TMP/out" 2>&1
 import sys, glob, numpy as np, nibabel as nib
-a, b = (np.asanyarray(nib.load(glob.glob(d + "/*_melody_t.nii.gz")[0]).dataobj) for d in sys.argv[1:])
+a, b = (np.asanyarray(nib.load(glob.glob(d + "/*_desc-melody_tstat.nii.gz")[0]).dataobj) for d in sys.argv[1:])
 ra, rb = (np.nanstd(np.diff(x, axis=0)) for x in (a, b))
 print("rough", ra, rb)
 sys.exit(0 if rb < 0.7 * ra else 1)
@@ -48,7 +48,7 @@ PYEOF
 rc=$?
 expect_status 0 "smoothing makes the t map smoother (neighbour differences: $(cat "$TMP/out"))"
 run "$SPLITROI" fit "$RUN" --out "$TMP/f6b" --smoothing-fwhm 6 --quiet --threads 3
-if cmp -s "$TMP/f6/sub-01_task-tones_run-1_melody_t.nii.gz" "$TMP/f6b/sub-01_task-tones_run-1_melody_t.nii.gz"; then
+if cmp -s "$TMP/f6/sub-01_task-tones_run-1_desc-melody_tstat.nii.gz" "$TMP/f6b/sub-01_task-tones_run-1_desc-melody_tstat.nii.gz"; then
 	ok "smoothed maps do not depend on the thread count"
 else
 	notok "smoothed maps do not depend on the thread count"

@@ -34,7 +34,7 @@ expect_err "sub-02: waiting for pid $holder on host testhost" "lock held: the wa
 "$PY" - results <<'PYEOF' && ok "lock held: the tables are complete after the wait" || notok "lock held: incomplete tables after the wait"
 import csv, sys
 subs = {r['subject'] for r in csv.DictReader(open(sys.argv[1] + '/responses.csv'))}
-assert subs == {'01', '02'}, subs
+assert subs == {'sub-01', 'sub-02'}, subs
 assert 'incomplete' not in open(sys.argv[1] + '/group.csv').read()
 PYEOF
 wait "$holder" 2>/dev/null
@@ -48,6 +48,6 @@ wait $p1; r1=$?; wait $p2; r2=$?
 import csv, sys
 d = sys.argv[1]
 subs = {r['subject'] for r in csv.DictReader(open(d + '/responses.csv'))}
-used = {r['subject'].replace('sub-', '') for r in csv.DictReader(open(d + '/group_subjects.csv')) if r['status'] == 'used'}
-assert subs == used == {'01', '02'}, (subs, used)
+used = {r['subject'] for r in csv.DictReader(open(d + '/group_subjects.csv')) if r['status'] == 'used'}
+assert subs == used == {'sub-01', 'sub-02'}, (subs, used)
 PYEOF

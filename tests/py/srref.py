@@ -724,7 +724,7 @@ def analyze_subject(st, sub, loc_eff, measures):
     rows = []
 
     def mk(p, split, druns, mtask, mruns, eff, value, nvox):
-        rows.append({'subject': sub, 'parcel': pname[p], 'split': split,
+        rows.append({'subject': 'sub-' + sub, 'parcel': pname[p], 'split': split,   # participant_id
                      'define_runs': druns if isinstance(druns, str) else '+'.join(r['label'] for r in druns),
                      'measure_task': mtask,
                      'measure_runs': mruns if isinstance(mruns, str) else '+'.join(r['label'] for r in mruns),

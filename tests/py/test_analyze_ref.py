@@ -150,7 +150,7 @@ def check_study(tmp, preset):
     # the per-subject tables hold exactly that subject's rows
     per = []
     for sp in sorted(glob.glob(os.path.join(out, 'sub-*', 'responses.csv'))):
-        sub = os.path.basename(os.path.dirname(sp))[4:]
+        sub = os.path.basename(os.path.dirname(sp))   # the participant_id, as the tables hold it
         rows = list(csv.DictReader(open(sp, newline='')))
         per.append(all(r['subject'] == sub for r in rows) and
                    len(rows) == sum(1 for r in got if r['subject'] == sub))

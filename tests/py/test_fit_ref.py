@@ -123,6 +123,15 @@ def reference(data, X, C, model="ar1-adjusted"):
     return out_e, out_t
 
 
+# The desc entity fit gives each effect (README "Fitting runs without a study file").
+DESC = {"melody": "melody", "scrambled": "scrambled", "melody-scrambled": "melodyMinusScrambled"}
+
+
+def mapname(base, lab, kind):
+    """fit's map name: the run's entities (the combination: those all runs share), desc-<effect>, effect or tstat."""
+    return f"{base}_desc-{DESC[lab]}_{'tstat' if kind == 't' else 'effect'}.nii.gz"
+
+
 def load_map(path):
     a = np.asarray(nib.load(path).dataobj, dtype=np.float64)
     return a.transpose(2, 1, 0).reshape(-1)
@@ -164,15 +173,15 @@ with tempfile.TemporaryDirectory() as d:
         re, rt = reference(data, X, C)
         ok = True
         for c, lab in enumerate(["melody", "scrambled", "melody-scrambled"]):
-            me = load_map(os.path.join(out, f"{base}_{lab}_effect.nii.gz"))
-            mt = load_map(os.path.join(out, f"{base}_{lab}_t.nii.gz"))
+            me = load_map(os.path.join(out, mapname(base, lab, "effect")))
+            mt = load_map(os.path.join(out, mapname(base, lab, "t")))
             ok &= relerr(me, re[c], 1e-3) < tol and relerr(mt, rt[c], 1e-3) < tol
         report(ok, f"run {i + 1} effect and t maps equal statsmodels GLS (bias-adjusted AR(1)) to float32 precision")
         if i == 0:
             pe, pt = reference(data, X, C, model="ar1")
             ok = True
             for c, lab in enumerate(["melody", "scrambled", "melody-scrambled"]):
-                mt = load_map(os.path.join(outp, f"{base}_{lab}_t.nii.gz"))
+                mt = load_map(os.path.join(outp, mapname(base, lab, "t")))
                 ok &= relerr(mt, pt[c], 1e-3) < tol
             report(ok and relerr(pt[2], rt[2], 1e-3) > 1e-3,
                    "--model ar1 t maps equal statsmodels GLS with rho from OLS residuals (and differ from the default)")
@@ -183,8 +192,8 @@ with tempfile.TemporaryDirectory() as d:
     for c, lab in enumerate(["melody", "scrambled", "melody-scrambled"]):
         E = (per_run[0][0][c] + per_run[1][0][c]) / 2
         V = ((per_run[0][0][c] / per_run[0][1][c]) ** 2 + (per_run[1][0][c] / per_run[1][1][c]) ** 2) / 4
-        ok &= relerr(load_map(os.path.join(out, f"combined_{lab}_effect.nii.gz")), E, 1e-3) < tol
-        ok &= relerr(load_map(os.path.join(out, f"combined_{lab}_t.nii.gz")), E / np.sqrt(V), 1e-3) < tol
+        ok &= relerr(load_map(os.path.join(out, mapname("sub-01_task-tones", lab, "effect"))), E, 1e-3) < tol
+        ok &= relerr(load_map(os.path.join(out, mapname("sub-01_task-tones", lab, "t"))), E / np.sqrt(V), 1e-3) < tol
     report(ok, "combined maps equal the fixed-effects mean and t computed from the reference")
     report(meta["combined_df"] == meta["runs"][0]["df"] + meta["runs"][1]["df"], "combined df is the sum")
 
@@ -201,18 +210,18 @@ with tempfile.TemporaryDirectory() as d:
     p1 = fit([bold, "--out", o1, "--quiet"])
     p2 = fit([fl, "--out", o2, "--quiet"])
     report(p1.returncode == 0 and p2.returncode == 0, "int16 and float runs fit")
-    m1 = load_map(os.path.join(o1, "sub-02_task-tones_run-1_melody_t.nii.gz"))
-    m2 = load_map(os.path.join(o2, "sub-02_task-tones_run-1_melody_t.nii.gz"))
+    m1 = load_map(os.path.join(o1, mapname("sub-02_task-tones_run-1", "melody", "t")))
+    m2 = load_map(os.path.join(o2, mapname("sub-02_task-tones_run-1", "melody", "t")))
     report(relerr(m1, m2, 1e-3) < 1e-6 and np.sum(np.isfinite(m1)) > 50,
            "int16 with scl_slope 0.125, scl_inter 3 gives the maps of the equivalent float run")
 
     # threads do not change the maps
     o3 = os.path.join(d, "o_t1")
     fit([bold, "--out", o3, "--quiet", "--threads", "1"])
-    a = open(os.path.join(o1, "sub-02_task-tones_run-1_melody_effect.nii.gz"), "rb").read()
-    b = open(os.path.join(o3, "sub-02_task-tones_run-1_melody_effect.nii.gz"), "rb").read()
-    report(nib.load(os.path.join(o3, "sub-02_task-tones_run-1_melody_effect.nii.gz")).get_fdata().tobytes() ==
-           nib.load(os.path.join(o1, "sub-02_task-tones_run-1_melody_effect.nii.gz")).get_fdata().tobytes(),
+    a = open(os.path.join(o1, mapname("sub-02_task-tones_run-1", "melody", "effect")), "rb").read()
+    b = open(os.path.join(o3, mapname("sub-02_task-tones_run-1", "melody", "effect")), "rb").read()
+    report(nib.load(os.path.join(o3, mapname("sub-02_task-tones_run-1", "melody", "effect"))).get_fdata().tobytes() ==
+           nib.load(os.path.join(o1, mapname("sub-02_task-tones_run-1", "melody", "effect"))).get_fdata().tobytes(),
            "maps identical for 1 and the default number of threads")
 
     # errors name what is wrong, and leave no fit.json behind
@@ -270,9 +279,9 @@ with tempfile.TemporaryDirectory() as d:
            meta["runs"][1]["estimable"].get("scrambled") is False and
            meta["runs"][1]["estimable"].get("melody") is True,
            "a condition with no event in a run warns and is not estimable there")
-    one = load_map(os.path.join(om, "sub-01_task-tones_run-1_scrambled_effect.nii.gz"))
-    comb = load_map(os.path.join(om, "combined_scrambled_effect.nii.gz"))
-    nanrun = load_map(os.path.join(om, "sub-01_task-tones_run-2_melody-scrambled_t.nii.gz"))
+    one = load_map(os.path.join(om, mapname("sub-01_task-tones_run-1", "scrambled", "effect")))
+    comb = load_map(os.path.join(om, mapname("sub-01_task-tones", "scrambled", "effect")))
+    nanrun = load_map(os.path.join(om, mapname("sub-01_task-tones_run-2", "melody-scrambled", "t")))
     report(np.array_equal(one, comb, equal_nan=True) and np.all(np.isnan(nanrun)),
            "the combined map of a condition missing in one run is the other run's; its contrast is NaN there")
 
@@ -299,7 +308,7 @@ with tempfile.TemporaryDirectory() as d:
                      "--confounds", ",".join(b.replace("_bold.nii.gz", "_confounds.tsv") for b in bolds),
                      "--confound-columns", "trans_x rot_z"])
     same = p.returncode == 0
-    for f in ("combined_melody-scrambled_t.nii.gz", "sub-01_task-tones_run-2_melody_effect.nii.gz"):
+    for f in (mapname("sub-01_task-tones", "melody-scrambled", "t"), mapname("sub-01_task-tones_run-2", "melody", "effect")):
         same = same and os.path.exists(os.path.join(os1, f)) and np.array_equal(
             load_map(os.path.join(os1, f)), load_map(os.path.join(os2, f)), equal_nan=True)
     report(same, "fit --study gives the maps of the explicit command (runs, confounds, OLS, drift cutoff, effects)")

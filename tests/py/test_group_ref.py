@@ -210,7 +210,7 @@ def main():
            "pandas reads group.csv with numeric columns")
         wide = pd.read_csv(os.path.join(out, "responses_wide.csv"), dtype={"subject": str})
         cols = pd.read_csv(os.path.join(out, "responses_wide_columns.csv"))
-        ok(list(wide["subject"]) == subjects, "wide table: one row per subject in label order")
+        ok(list(wide["subject"]) == ["sub-" + s for s in subjects], "wide table: one row per subject (participant_id) in label order")
         ok(all(re.fullmatch(r"[A-Za-z][A-Za-z0-9_.]*", c) for c in wide.columns) and
            len(set(wide.columns)) == len(wide.columns),
            "wide column names are letters, digits, '_' and '.', unique, starting with a letter")
@@ -256,8 +256,8 @@ def main():
         check_rows(read_group(out), data, kept, "subject 02 excluded")
         with open(os.path.join(out, "group_subjects.csv"), newline="") as f:
             st = {r["subject"]: r for r in csv.DictReader(f)}
-        ok(st["02"]["status"] == "excluded" and st["02"]["reason"] == "moved more than 3 mm" and
-           st["01"]["status"] == "used", "group_subjects.csv lists the exclusion with its reason")
+        ok(st["sub-02"]["status"] == "excluded" and st["sub-02"]["reason"] == "moved more than 3 mm" and
+           st["sub-01"]["status"] == "used", "group_subjects.csv lists the exclusion with its reason")
         res = run([out, "--subjects", "sub-01,03 05"])
         ok(res.returncode == 0, "--subjects subset runs")
         check_rows(read_group(out), data, ["01", "03", "05"], "subset 01 03 05")
@@ -272,7 +272,7 @@ def main():
         check_rows(rows, data, subjects, "with sub-10 missing")
         with open(os.path.join(out, "group_subjects.csv"), newline="") as f:
             st = {r["subject"]: r for r in csv.DictReader(f)}
-        ok(st["10"]["status"] == "missing", "group_subjects.csv lists sub-10 as missing")
+        ok(st["sub-10"]["status"] == "missing", "group_subjects.csv lists sub-10 as missing")
         shutil.rmtree(os.path.join(out, "sub-10"))
         res = run([out])
         ok(all("incomplete" not in r["note"] for r in read_group(out)), "complete again without sub-10")

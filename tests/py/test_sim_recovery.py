@@ -132,7 +132,7 @@ def main():
                 order = cand[np.lexsort((cand, -t[cand]))][:k]
                 for eff, w in (("melody", [1, 0]), ("scrambled", [0, 1]), ("melody-scrambled", [1, -1])):
                     est = np.mean([np.array(w) @ fits[i][0] for i in mr], axis=0)[order].mean()
-                    tv = truth[("%02d" % s, pname, "tones", eff)]
+                    tv = truth[(sub, pname, "tones", eff)]
                     if pname == "occipital_control":
                         nulls.append(est)
                     else:
@@ -155,7 +155,7 @@ def main():
             order = cand[np.lexsort((cand, -t[cand]))][:k]
             for eff, w in (("familiar", [1, 0]), ("novel", [0, 1]), ("familiar-novel", [1, -1])):
                 est = np.mean([np.array(w) @ f[0] for f in mfits], axis=0)[order].mean()
-                tv = truth[("%02d" % s, pname, "memory", eff)]
+                tv = truth[(sub, pname, "memory", eff)]
                 (nulls if pname == "occipital_control" else mdiffs).append(est if pname == "occipital_control" else est - tv)
     mdiffs = np.array(mdiffs)
     print("# memory recovery: mean error %.3f, sd %.3f, max |error| %.3f (n=%d)"

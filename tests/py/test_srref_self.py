@@ -188,9 +188,9 @@ with tempfile.TemporaryDirectory() as tmp:
     ini = make_study.make_study(os.path.join(tmp, 's'), seed=22, measure=False)
     rows = [r for r in srref.analyze(ini) if r['split'] == 'odd-even:mean' and r['effect'] == 'melody-scrambled']
     v = {(r['subject'], r['parcel']): r['value'] for r in rows}
-    check(all(v[(s, 'left_core')] > v[(s, '3')] + 0.3 for s in ('01', '02')),
+    check(all(v[(s, 'left_core')] > v[(s, '3')] + 0.3 for s in ('sub-01', 'sub-02')),
           'held-out melody-scrambled larger in the selective parcel than in the flat one')
-    check(all(math.isnan(v[(s, 'top_slab')]) for s in ('01', '02')) and
+    check(all(math.isnan(v[(s, 'top_slab')]) for s in ('sub-01', 'sub-02')) and
           all(r['n_voxels'] == 0 for r in rows if r['parcel'] == 'top_slab'),
           'a parcel in zero background has no candidates: empty value, n_voxels 0')
     # readers: int16 with scl_slope/scl_inter equals nibabel's scaled read; TR from header units and

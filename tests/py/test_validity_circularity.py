@@ -25,6 +25,7 @@ except ImportError as exc:  # pragma: no cover
 
 NSUB, SEED, VOLUMES = 40, 21, 80
 EFF = "melody-scrambled"
+EFF_DESC = "melodyMinusScrambled"   # its desc entity in fit's file names
 SPLITS = {"A": ((1, 3), (2, 4)), "B": ((2, 4), (1, 3))}  # odd-even: define runs, measure runs
 
 
@@ -52,16 +53,17 @@ def main():
 
     cv, circ, agree = [], [], []
     for s in subs:
-        odir = os.path.join(out, "fit-" + s)
+        lab = s[4:]   # s is the participant_id, sub-<label>
+        odir = os.path.join(out, "fit-" + lab)
         # the study's own model keys (AR(1), drift cutoff, confounds) and effects, every run
-        if not vl.run(["fit", "--study", study, "--subject", s, "--task", "tones", "--out", odir,
+        if not vl.run(["fit", "--study", study, "--subject", lab, "--task", "tones", "--out", odir,
                        "--threads", vl.JOBS],
-                      "fit sub-%s" % s, ck):
+                      "fit %s" % s, ck):
             ck.finish()
-        eff = {k: img(os.path.join(odir, "sub-%s_task-tones_run-%02d_%s_effect.nii.gz" % (s, k, EFF)))
+        eff = {k: img(os.path.join(odir, "%s_task-tones_run-%02d_desc-%s_effect.nii.gz" % (s, k, EFF_DESC)))
                for k in range(1, 5)}
         for h, (drun, mrun) in SPLITS.items():
-            froi = img(os.path.join(out, "results", "sub-" + s, "maps", "froi_odd-even-%s.nii.gz" % h))
+            froi = img(os.path.join(out, "results", s, "func", "%s_task-tones_desc-oddeven%s_dseg.nii.gz" % (s, h)))
             for pi, p in names.items():
                 m = froi == pi
                 c = np.mean([eff[k][m].mean() for k in drun])  # selected and measured on the same runs

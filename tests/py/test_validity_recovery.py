@@ -65,15 +65,15 @@ def main():
     subs = sorted({r["subject"] for r in truth_rows})
     weight = {}
     for s in subs:
-        fdir = os.path.join(clean, "data", "sub-" + s, "func")
-        base = os.path.join(fdir, "sub-%s_task-tones_run-01" % s)
+        fdir = os.path.join(clean, "data", s, "func")   # s is the participant_id, sub-<label>
+        base = os.path.join(fdir, "%s_task-tones_run-01" % s)
         odir = os.path.join(tmp, "fit-" + s)
         if not vl.run(["fit", base + "_bold.nii.gz", "--out", odir, "--autocorrelation", "none", "--threads", vl.JOBS,
                        "--confounds", base + "_desc-confounds_timeseries.tsv",
                        "--confound-columns", "motion_tx,motion_ty,motion_tz,motion_rx,motion_ry,motion_rz"],
-                      "noise-free fit of sub-%s" % s, ck):
+                      "noise-free fit of %s" % s, ck):
             ck.finish()
-        mel = img(os.path.join(odir, "sub-%s_task-tones_run-01_melody_effect.nii.gz" % s)).astype(float)
+        mel = img(os.path.join(odir, "%s_task-tones_run-01_desc-melody_effect.nii.gz" % s)).astype(float)
         w = np.zeros_like(mel)
         for p in ACTIVE:
             peak = float(truth[(s, p, "tones", "melody")]["peak_value"])
@@ -87,9 +87,11 @@ def main():
     def selected_weight(s, p, task):
         pi = pidx[p]
         if task == "tones":  # odd-even:mean averages the A and B fROIs' values
-            return np.mean([weight[s][img(os.path.join(noisy, "results", "sub-" + s, "maps",
-                                                       "froi_odd-even-%s.nii.gz" % h)) == pi].mean() for h in "AB"])
-        return weight[s][img(os.path.join(noisy, "results", "sub-" + s, "maps", "froi_all-memory.nii.gz")) == pi].mean()
+            return np.mean([weight[s][img(os.path.join(noisy, "results", s, "func",
+                                                       "%s_task-tones_desc-oddeven%s_dseg.nii.gz" % (s, h))) == pi].mean()
+                            for h in "AB"])
+        return weight[s][img(os.path.join(noisy, "results", s, "func",
+                                          "%s_task-tones_desc-allmemory_dseg.nii.gz" % s)) == pi].mean()
 
     nchecks = len(ACTIVE) * len(ROWS)
     # Threshold for the unbiasedness checks: the mean error over n subjects divided by its standard

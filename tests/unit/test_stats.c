@@ -195,8 +195,38 @@ static void bh(void)
 	}
 }
 
+static void welch(void)
+{
+	/* References: scipy.stats.ttest_ind(a, b, equal_var=False), scipy 1.10.1 (t, p), and the
+	 * Welch-Satterthwaite df computed with numpy from the sample variances (ddof 1). */
+	const double a[] = { 0.5, 1.2, 0.8, -0.1, 0.9, 1.5, 0.3, 0.7 };
+	const double b[] = { 0.1, -0.4, NAN, 0.35, 0.0, -0.2, 0.6 };
+	const double a2[] = { 3.1, 2.9 }, b2[] = { 1.0, 1.5, 0.5, 2.0 };
+	const double same[] = { 1.0, 1.0 }, one[] = { 2.0 };
+	stats_two w;
+
+	stats_welch(a, 8, b, 7, &w);
+	CHECK(w.na == 8 && w.nb == 6, "Welch counts the finite values (%zu, %zu)", w.na, w.nb);
+	CHECK_CLOSE(w.t, 2.806139264659676, 1e-12, "Welch t (scipy)");
+	CHECK_CLOSE(w.p, 0.01586560146118523, 1e-9, "Welch two-sided p (scipy)");
+	CHECK_CLOSE(w.df, 11.997286507565088, 1e-12, "Welch-Satterthwaite df (numpy)");
+	CHECK_CLOSE(w.diff, 0.725 - 0.075, 1e-12, "Welch difference of means");
+	stats_welch(a2, 2, b2, 4, &w);
+	CHECK_CLOSE(w.t, 5.1792680485033955, 1e-12, "Welch t, n = 2 and 4 (scipy)");
+	CHECK_CLOSE(w.p, 0.00939282347509639, 1e-9, "Welch p, n = 2 and 4 (scipy)");
+	/* by hand: mean 3 vs 1.25, variances 0.02 and 0.41667: d = 1.75 / sqrt(0.21833) */
+	CHECK_CLOSE(w.d, 1.75 / sqrt(0.5 * (0.02 + 5.0 / 12.0)), 1e-12, "Welch d over the root mean variance");
+	stats_welch(same, 2, same, 2, &w);
+	CHECK(isnan(w.t) && isnan(w.df) && isnan(w.p) && w.diff == 0.0, "no spread: t, df, p NaN");
+	stats_welch(one, 1, a, 8, &w);
+	CHECK(isnan(w.t) && w.na == 1 && isfinite(w.diff), "one value in a sample: t NaN, diff kept");
+	stats_welch(NULL, 0, a, 8, &w);
+	CHECK(isnan(w.diff) && w.na == 0, "an empty sample: everything NaN");
+}
+
 int main(void)
 {
+	welch();
 	one_sample_worked_example();
 	one_sample_edges();
 	t_distribution();
