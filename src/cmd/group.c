@@ -22,6 +22,8 @@
 
 /* set while analyze runs the group step: analyze writes the report itself afterwards */
 static int in_analyze;
+/* during analyze's step: the folder the tables are moved to, named in place of the staging folder */
+static const char *step_shown_out;
 
 static const cmdline_opt group_opts[] = {
 	{ "subjects", "LIST", "only these subjects (labels, with or without sub-, comma or space separated)" },
@@ -1016,7 +1018,7 @@ static void summary(const group_ctx *g)
 	       "subjects; 'A vs B' rows test the per-subject difference A - B.\n",
 	       marker, g->alpha, nsig, g->nrows);
 	printf("wrote %s/group.csv, group_subjects.csv, responses_wide.csv, responses_wide_columns.csv\n",
-	       g->out);
+	       step_shown_out ? step_shown_out : g->out);
 	free(cellt);
 }
 
@@ -1135,7 +1137,7 @@ out:
 }
 
 /* analyze's last step: the same command on the study's out folder (quiet: no summary). */
-int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quiet)
+int analyze_group_step(const char *out, const char *shown, char *const *subs, size_t nsub, int quiet)
 {
 	/* the study's list, not the sub-* folders: a subject whose job failed before
 	   writing anything is then listed as missing instead of passing unnoticed */
@@ -1150,7 +1152,9 @@ int analyze_group_step(const char *out, char *const *subs, size_t nsub, int quie
 	step_subjects = nsub ? subs : NULL;
 	step_nsubjects = nsub;
 	in_analyze = 1;
+	step_shown_out = shown;
 	rc = cmd_group(argc, argv);
+	step_shown_out = NULL;
 	in_analyze = 0;
 	step_subjects = NULL;
 	step_nsubjects = 0;
