@@ -41,8 +41,11 @@ LIB_SRC := $(sort $(wildcard src/core/*.c src/io/*.c src/cmd/*.c))
 LIB_OBJ := $(LIB_SRC:%.c=$(BUILD)/%.o)
 TEST_SRC := $(sort $(wildcard tests/unit/test_*.c))
 TEST_BIN := $(TEST_SRC:tests/unit/%.c=$(BUILD)/tests/%)
-# Helper programs the Python and command-line tests drive (tests/tools/*.c).
-TOOL_SRC := $(sort $(wildcard tests/tools/*.c))
+# Helper programs the Python and command-line tests drive (tests/tools/*.c); the
+# tests/tools/*_shim.c are LD_PRELOAD libraries instead (shared objects, no library).
+SHIM_SRC := $(sort $(wildcard tests/tools/*_shim.c))
+SHIM_BIN := $(SHIM_SRC:tests/tools/%.c=$(BUILD)/tests/tools/%.so)
+TOOL_SRC := $(filter-out $(SHIM_SRC),$(sort $(wildcard tests/tools/*.c)))
 TOOL_BIN := $(TOOL_SRC:tests/tools/%.c=$(BUILD)/tests/tools/%)
 
 .PHONY: all deps deps-build need-libs check check-asan check-valgrind test demo bench calibrate install uninstall clean
@@ -76,6 +79,11 @@ $(BUILD)/tests/tools/%: tests/tools/%.c $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
 
+# No sanitizer flags: a preloaded library cannot bring its own ASan runtime.
+$(BUILD)/tests/tools/%_shim.so: tests/tools/%_shim.c
+	@mkdir -p $(dir $@)
+	$(CC) -std=c11 -O2 -g $(WARN) -fPIC -shared -o $@ $< -ldl
+
 # Installs the Debian packages (only those missing): deps-build what the build and
 # the demo need, deps also what the tests need.
 deps:
@@ -85,7 +93,7 @@ deps-build:
 	@bash tools/deps.sh build
 
 # Every test: unit binaries, command-line scripts, Python reference checks.
-test: all $(TEST_BIN) $(TOOL_BIN)
+test: all $(TEST_BIN) $(TOOL_BIN) $(SHIM_BIN)
 	@BUILD=$(BUILD) PYTHON=$(PYTHON) bash tests/run.sh
 
 # The targets that install packages first run a second make for the rest, so that
