@@ -41,11 +41,19 @@ LIB_SRC := $(sort $(wildcard src/core/*.c src/io/*.c src/cmd/*.c))
 LIB_OBJ := $(LIB_SRC:%.c=$(BUILD)/%.o)
 TEST_SRC := $(sort $(wildcard tests/unit/test_*.c))
 TEST_BIN := $(TEST_SRC:tests/unit/%.c=$(BUILD)/tests/%)
-# Helper programs the Python and command-line tests drive (tests/tools/*.c).
-TOOL_SRC := $(sort $(wildcard tests/tools/*.c))
+# Helper programs the Python and command-line tests drive (tests/tools/*.c); the
+# tests/tools/*_shim.c are LD_PRELOAD libraries instead (shared objects, no library).
+SHIM_SRC := $(sort $(wildcard tests/tools/*_shim.c))
+SHIM_BIN := $(SHIM_SRC:tests/tools/%.c=$(BUILD)/tests/tools/%.so)
+TOOL_SRC := $(filter-out $(SHIM_SRC),$(sort $(wildcard tests/tools/*.c)))
 TOOL_BIN := $(TOOL_SRC:tests/tools/%.c=$(BUILD)/tests/tools/%)
+# The afl++ harnesses (tests/fuzz/fuzz_*.c), built by make test with the normal compiler so that
+# tests/cli/test_fuzz_harnesses.sh runs them on their seeds; make fuzz builds them for afl++.
+FUZZ_SRC := $(sort $(wildcard tests/fuzz/fuzz_*.c))
+FUZZ_BIN := $(FUZZ_SRC:tests/fuzz/%.c=$(BUILD)/tests/fuzz/%)
+FUZZ_SECONDS ?= 900
 
-.PHONY: all deps deps-build need-libs check check-asan check-valgrind test demo bench calibrate install uninstall clean
+.PHONY: all deps deps-build need-libs check check-asan check-valgrind test demo bench calibrate fuzz install uninstall clean
 all: $(BUILD)/splitroi
 
 # Stops a build on a machine without the libraries with the one command that fixes it,
@@ -76,6 +84,15 @@ $(BUILD)/tests/tools/%: tests/tools/%.c $(BUILD)/libsplitroi.a
 	@mkdir -p $(dir $@)
 	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
 
+$(BUILD)/tests/fuzz/%: tests/fuzz/%.c tests/fuzz/fuzz_common.h $(BUILD)/libsplitroi.a
+	@mkdir -p $(dir $@)
+	$(CC) $(CFLAGS_ALL) -Isrc -o $@ $< $(BUILD)/libsplitroi.a $(LIBS)
+
+# No sanitizer flags: a preloaded library cannot bring its own ASan runtime.
+$(BUILD)/tests/tools/%_shim.so: tests/tools/%_shim.c
+	@mkdir -p $(dir $@)
+	$(CC) -std=c11 -O2 -g $(WARN) -fPIC -shared -o $@ $< -ldl
+
 # Installs the Debian packages (only those missing): deps-build what the build and
 # the demo need, deps also what the tests need.
 deps:
@@ -86,7 +103,7 @@ deps-build:
 
 # Every test: unit binaries, command-line scripts, Python reference checks.
 # T=glm (or T="glm nii") runs only the test files whose names contain a word.
-test: all $(TEST_BIN) $(TOOL_BIN)
+test: all $(TEST_BIN) $(TOOL_BIN) $(SHIM_BIN) $(FUZZ_BIN)
 	@BUILD=$(BUILD) PYTHON=$(PYTHON) SPLITROI_TESTS="$(T)" bash tests/run.sh
 
 # The targets that install packages first run a second make for the rest, so that
@@ -119,6 +136,12 @@ bench: deps
 calibrate: all $(BUILD)/tests/tools/glmtool
 	@$(PYTHON) tools/calibrate.py --glmtool $(BUILD)/tests/tools/glmtool --research --assert --markdown
 
+# afl++ on each harness of tests/fuzz/ (NIfTI, events/TSV, study file) for FUZZ_SECONDS each
+# (default 900), all at once, built under ASan in build-fuzz/; not part of make check. Installs
+# afl++ when missing (as root). FUZZ_HARNESSES=nii chooses some. Findings: build-fuzz/out/.
+fuzz:
+	@FUZZ_SECONDS=$(FUZZ_SECONDS) bash tools/fuzz.sh $(FUZZ_HARNESSES)
+
 install: all
 	install -d $(DESTDIR)$(PREFIX)/bin
 	install -m 755 $(BUILD)/splitroi $(DESTDIR)$(PREFIX)/bin/splitroi
@@ -127,6 +150,6 @@ uninstall:
 	rm -f $(DESTDIR)$(PREFIX)/bin/splitroi
 
 clean:
-	rm -rf build build-asan
+	rm -rf build build-asan build-fuzz
 
 -include $(LIB_OBJ:.o=.d) $(BUILD)/src/main.d

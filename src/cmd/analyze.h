@@ -16,9 +16,10 @@ sr_status analyze_study_subjects(const study *st, char ***out, size_t *n, sr_err
 /* 1 when OUT/sub-<label>/ holds complete outputs made from inputs with the content they have now (fresh.h). */
 int analyze_subject_complete(const study *st, const char *label);
 
-/* Runs the group step on OUT for the study's subjects (those without a table are listed missing); group.c; 0 = ok. */
-/* participants: the study's participants.tsv path (it may be absent), or NULL. */
-int analyze_group_step(const char *out, char *const *subs, size_t nsub, const char *participants,
-		       int quiet);
+/* Runs the group step on OUT for the study's subjects (those without a table are listed missing); group.c; 0 = ok.
+ * shown: the folder its "wrote" line names (the tables are staged in OUT and moved there), or NULL for OUT.
+ * participants: the study's participants.tsv path (it may be absent), or NULL. */
+int analyze_group_step(const char *out, const char *shown, char *const *subs, size_t nsub,
+		       const char *participants, int quiet);
 
 #endif

@@ -25,6 +25,8 @@
 
 /* set while analyze runs the group step: analyze writes the report itself afterwards */
 static int in_analyze;
+/* during analyze's step: the folder the tables are moved to, named in place of the staging folder */
+static const char *step_shown_out;
 
 static const cmdline_opt group_opts[] = {
 	{ "subjects", "LIST", "only these subjects (labels, with or without sub-, comma or space separated)" },
@@ -1395,7 +1397,7 @@ static void summary(const group_ctx *g)
 	       "subjects; 'A vs B' rows test the per-subject difference A - B.\n",
 	       marker, g->alpha, nsig, g->nrows);
 	printf("wrote %s/group.csv, group_subjects.csv, responses_wide.csv, responses_wide_columns.csv\n",
-	       g->out);
+	       step_shown_out ? step_shown_out : g->out);
 	free(cellt);
 }
 
@@ -1529,8 +1531,8 @@ out:
 }
 
 /* analyze's last step: the same command on the study's out folder (quiet: no summary). */
-int analyze_group_step(const char *out, char *const *subs, size_t nsub, const char *participants,
-		       int quiet)
+int analyze_group_step(const char *out, const char *shown, char *const *subs, size_t nsub,
+		       const char *participants, int quiet)
 {
 	/* the study's list, not the sub-* folders: a subject whose job failed before
 	   writing anything is then listed as missing instead of passing unnoticed */
@@ -1546,7 +1548,9 @@ int analyze_group_step(const char *out, char *const *subs, size_t nsub, const ch
 	step_nsubjects = nsub;
 	step_participants = participants;
 	in_analyze = 1;
+	step_shown_out = shown;
 	rc = cmd_group(argc, argv);
+	step_shown_out = NULL;
 	in_analyze = 0;
 	step_participants = NULL;
 	step_subjects = NULL;

@@ -236,7 +236,7 @@ int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, 
 	if (combine(stage, subs, done, nsub, &e))
 		goto fail;
 	snprintf(path, sizeof path, "%s/participants.tsv", st->bids);
-	if (group && analyze_group_step(stage, subs, nsub, path, quiet)) {
+	if (group && analyze_group_step(stage, st->out, subs, nsub, path, quiet)) {
 		sr_fail(&e, SR_EIO, "the group step failed; the earlier tables are left as they were");
 		goto fail;
 	}

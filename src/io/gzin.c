@@ -33,6 +33,7 @@ struct gzin {
 	z_stream zs;
 #ifdef SR_HAVE_ISAL
 	struct inflate_state *st;
+	int member_head;             /* ISA-L has not yet seen this member's header flags */
 #endif
 	int ended;                   /* GZIN_END or a failure was returned: nothing more to read */
 };
@@ -70,6 +71,7 @@ static int engine_reset(gzin *z)
 			isal_inflate_reset(z->st);
 		}
 		z->st->crc_flag = ISAL_GZIP; /* parse the header, check CRC-32 and length */
+		z->member_head = 1;
 		return 0;
 	}
 #endif
@@ -198,6 +200,20 @@ static int engine_run(gzin *z, unsigned char *out, uint32_t room, uint32_t *prod
 		struct inflate_state *st = z->st;
 		int rc;
 
+		/* reserved header flag bits (RFC 1952, FLG bits 5-7): zlib refuses them; ISA-L reads
+		   past them and ends the member early or runs out of input (afl++ found it), so a
+		   member with them is refused here as zlib refuses it */
+		if (z->member_head) {
+			if (z->avail < 4 && !z->eof)
+				(void)refill(z);   /* a read error shows on the next refill */
+			if (z->avail >= 4 && (z->next[3] & 0xE0)) {
+				*produced = 0;
+				snprintf(what, whatlen, "isa-l: unknown header flags set");
+				return ENG_BAD_WRAPPER;
+			}
+			if (z->avail >= 4 || z->eof)
+				z->member_head = 0;
+		}
 		st->next_in = z->next;
 		st->avail_in = (uint32_t)z->avail;
 		st->next_out = out;
@@ -316,6 +332,37 @@ read_error:
 	return GZIN_ERROR;
 }
 
+/*
+ * ISA-L and zlib find damage at different points: zlib refuses reserved header flags that
+ * ISA-L reads past, and checks the CRC-32 as soon as its 4 bytes are in, where ISA-L waits
+ * for the whole trailer (so a cut trailer is "short" to one, "corrupt" to the other). So
+ * that a file gets one verdict whichever inflater is built in, ISA-L's failures are read
+ * again from the start by zlib, whose verdict and message are given (afl++ found the two
+ * disagreeing). Only on the failure path; if zlib reads the file cleanly, ISA-L's stays.
+ */
+static enum gzin_result zlib_verdict(const gzin *z, enum gzin_result r, char *what, size_t whatlen)
+{
+	unsigned char *scratch;
+	char zwhat[512];
+	gzin *zz;
+	sr_err e;
+	enum gzin_result zr;
+
+	sr_err_init(&e, NULL, NULL);
+	if (gzin_open(z->path, GZIN_ZLIB, &zz, &e) != SR_OK)
+		return r;
+	scratch = xmalloc(65536);
+	do
+		zr = read_gz(zz, scratch, 65536, &(size_t){ 0 }, zwhat, sizeof zwhat);
+	while (zr == GZIN_OK);
+	free(scratch);
+	gzin_close(zz);
+	if (zr != GZIN_SHORT && zr != GZIN_CORRUPT)
+		return r;
+	snprintf(what, whatlen, "%s", zwhat);
+	return zr;
+}
+
 enum gzin_result gzin_read(gzin *z, void *buf, size_t n, size_t *got, char *what, size_t whatlen)
 {
 	size_t dummy;
@@ -334,6 +381,8 @@ enum gzin_result gzin_read(gzin *z, void *buf, size_t n, size_t *got, char *what
 		r = read_plain(z, buf, n, got, what, whatlen);
 	else
 		r = read_gz(z, buf, n, got, what, whatlen);
+	if ((r == GZIN_SHORT || r == GZIN_CORRUPT) && z->backend == GZIN_ISAL)
+		r = zlib_verdict(z, r, what, whatlen);
 	if (r != GZIN_OK)
 		z->ended = 1;
 	return r;

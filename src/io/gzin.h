@@ -8,7 +8,10 @@
  * does not accept the stream's wrapper. Both check every member's CRC-32 and
  * length; concatenated members are read as one stream, and bytes after a
  * member that do not start another are ignored (as zlib's gzread does), so the
- * two give the same bytes or the same verdict on every file.
+ * two give the same bytes or the same verdict on every file: ISA-L refuses
+ * reserved header flags as zlib does, and a failure under ISA-L is read again
+ * by zlib, whose verdict and message are returned (the two find damage at
+ * different points).
  *
  * Not thread safe per reader; separate readers are independent.
  */

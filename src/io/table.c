@@ -48,8 +48,8 @@ static void on_field(void *data, size_t len, void *ctx)
 	if (len)
 		memcpy(f, data, len);
 	f[len] = '\0';
-	for (size_t i = 0; i < len; i++)
-		if (f[i] == '\n')
+	for (size_t i = 0; i < len; i++)   /* line breaks: LF, CRLF, or a CR alone */
+		if (f[i] == '\n' || (f[i] == '\r' && (i + 1 == len || f[i + 1] != '\n')))
 			s->row_newlines++;
 	if (s->nrow == s->caprow) {
 		s->caprow = s->caprow ? 2 * s->caprow : 16;
@@ -219,15 +219,32 @@ static char choose_delim(const char *path, char delim)
 	return '\t';
 }
 
+/*
+ * Bytes up to and including the end of the line at b: LF, CRLF, or a CR alone (as old
+ * spreadsheet exports end lines; libcsv ends a row there too, so lines are counted alike).
+ */
+static size_t line_length(const char *b, size_t n)
+{
+	for (size_t i = 0; i < n; i++) {
+		if (b[i] == '\n')
+			return i + 1;
+		if (b[i] == '\r' && (i + 1 == n || b[i + 1] != '\n'))
+			return i + 1;
+	}
+	return n;
+}
+
 /* Line on which the unclosed quoted field began: the parser still holds its text. */
 static size_t open_quote_line(const parse_state *s, const struct csv_parser *p)
 {
 	size_t nl = 0, n = p->entry_pos;
 
-	if (n && p->entry_buf[n - 1] == '\n')
+	const unsigned char *b = p->entry_buf;
+
+	if (n && (b[n - 1] == '\n' || b[n - 1] == '\r'))
 		n--;
 	for (size_t i = 0; i < n; i++)
-		if (p->entry_buf[i] == '\n')
+		if (b[i] == '\n' || (b[i] == '\r' && b[i + 1] != '\n'))
 			nl++;
 	return s->cur_line > nl ? s->cur_line - nl : 1;
 }
@@ -260,8 +277,7 @@ sr_status table_read(const char *path, char delim, table *t, sr_err *e)
 	if (len >= 3 && memcmp(buf, "\xEF\xBB\xBF", 3) == 0)
 		pos = 3;
 	while (pos < len && !s.failed) {
-		const char *nl = memchr(buf + pos, '\n', len - pos);
-		size_t seg = nl ? (size_t)(nl - (buf + pos)) + 1 : len - pos;
+		size_t seg = line_length(buf + pos, len - pos);
 
 		s.cur_line++;
 		if (csv_parse(&p, buf + pos, seg, on_field, on_row, &s) != seg && !s.failed) {

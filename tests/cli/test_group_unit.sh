@@ -29,3 +29,8 @@ run "$SPLITROI" analyze study.ini --no-report
 expect_err "tables left as they are" "consistent tables: the rerun says so"
 [ "$before" = "$(stat -c %Y.%y results/group.csv results/responses.csv)" ] && ok "consistent tables: not rewritten" || notok "consistent tables were rewritten"
 ls -a results | grep -q '\.tmp' && notok "staging left behind: $(ls -a results | tr '\n' ' ')" || ok "no staging files left behind"
+# the summary names the folder the tables were moved to, not the staging folder they were written in
+run "$SPLITROI" analyze study.ini --no-report --force
+expect_status 0 "a redo that prints its summary"
+expect_out "^wrote $PWD/results/group\.csv, group_subjects\.csv" "the 'wrote' line names OUT/group.csv"
+grep -q '\.tables\.tmp\.' "$TMP/out" && notok "the summary names the staging folder: $(grep -m1 tables.tmp "$TMP/out")" || ok "the summary does not name the staging folder"

@@ -67,3 +67,10 @@ if [ $(($(date +%s) - start)) -le 15 ]; then ok "a 1 MB events line is rejected 
 fresh
 sed -i 's/^effects = melody, scrambled,/effects = 1e308*melody + 1e308*melody, scrambled,/' "$V/study.ini"
 both "effect weights that overflow" "study\.ini: line [0-9]+: effects: (the factors of 'melody' add up to more than the largest number|position 1: factor '1e308' is beyond)"
+
+# lines ended by a carriage return alone (as old spreadsheet exports write them): libcsv
+# ends a row at each, but the reader counted only line feeds, so every row was "line 1"
+# (afl++ found it through the row-order check of tests/fuzz/fuzz_events.c)
+fresh
+py "p = '$F/sub-01_task-tones_run-02_events.tsv'; L = open(p).read().rstrip('\n').split('\n'); L[2] = '\t'.join(L[2].split('\t')[:1] + ['-1'] + L[2].split('\t')[2:]); open(p, 'w', newline='').write('\r'.join(L) + '\r')"
+both "a negative duration on line 3 of a file with CR line ends" "run-02_events\.tsv: line 3, column 2 \(duration\): negative duration"

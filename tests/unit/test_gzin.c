@@ -227,6 +227,25 @@ int main(void)
 	p = write_file("isize.gz", cut, nall);
 	both("wrong length in a member's trailer", p, NULL, 0, GZIN_CORRUPT);
 
+	/* reserved header flag bits: zlib refuses them, ISA-L read past them and then ran out
+	   of input, "short" instead of "corrupt" (afl++ found it); in the first member and in
+	   the second */
+	memcpy(cut, all, nall);
+	cut[3] |= 0x20;
+	p = write_file("flags1.gz", cut, nall);
+	both("reserved header flags in the first member", p, NULL, 0, GZIN_CORRUPT);
+	memcpy(cut, all, nall);
+	cut[n1 + 3] |= 0x40;
+	p = write_file("flags2.gz", cut, nall);
+	both("reserved header flags in the second member", p, NULL, 0, GZIN_CORRUPT);
+
+	/* a wrong CRC-32 and the length cut off: zlib checks the CRC as soon as it is in,
+	   ISA-L waited for the whole trailer and said "short" */
+	memcpy(cut, all, nall);
+	cut[n1 + n2 + n3 - 8] ^= 0x55;
+	p = write_file("crccut.gz", cut, n1 + n2 + n3 - 4);
+	both("wrong CRC-32 with the length cut off", p, NULL, 0, GZIN_CORRUPT);
+
 	/* damaged deflate data in the middle */
 	memcpy(cut, all, nall);
 	for (i = 0; i < 64; i++)
