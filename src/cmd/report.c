@@ -265,7 +265,7 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
  * (NULL-terminated) lead in that order, so the key numbers stay in view of a
  * narrow window, then the others as in the file.
  */
-static void table_html(sbuf *b, const table *t, const char *id, const char *const *first)
+void table_html(sbuf *b, const table *t, const char *id, const char *const *first)
 {
 	size_t r, c, k, n = 0, *order = xmalloc_array(t->ncols ? t->ncols : 1, sizeof *order);
 	unsigned char *used = xcalloc(t->ncols ? t->ncols : 1, 1);
@@ -394,6 +394,27 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 	}
 }
 
+/* The group summary of reliability.csv (reliability_group.csv) as a table. */
+static void reliability_section(sbuf *b, const char *out)
+{
+	static const char *const lead[] = { "localizer", "parcel", "split", "measure", "n", "median", "min",
+					    "max", NULL };
+	char path[8192];
+	table t;
+
+	sb_puts(b, "<h2 id=\"reliability-h\">Reliability of the fROIs</h2>\n<p class=\"note\">" RELIABILITY_NOTE
+		   " Per parcel over subjects: median, minimum and maximum (reliability_group.csv).</p>\n");
+	snprintf(path, sizeof path, "%s/reliability_group.csv", out);
+	if (table_read(path, ',', &t, NULL) != SR_OK) {
+		sb_puts(b, "<p class=\"note\">No reliability_group.csv in this folder (run the group step).</p>\n");
+		return;
+	}
+	sb_puts(b, "<div class=\"wide\">");
+	table_html(b, &t, "reliability", lead);
+	sb_puts(b, "</div>\n");
+	table_release(&t);
+}
+
 int report_write(const char *out, int quiet)
 {
 	char **labels, path[8192];
@@ -439,7 +460,7 @@ int report_write(const char *out, int quiet)
 	incomplete_banner(&b, out, &group, have_group);
 	sb_puts(&b, "<nav class=\"toc\"><a href=\"#cv\">cross-validated responses</a> &middot; "
 		    "<a href=\"#measured\">measured tasks</a> &middot; <a href=\"#overlap\">fROI sizes and overlap</a> &middot; "
-		    "<a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
+		    "<a href=\"#reliability-h\">reliability</a> &middot; <a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
 	for (i = 0; i < nsub; i++) {
 		if (!subs[i].ok) {
 			/* no link to a page that was not written (or is stale) */
@@ -495,6 +516,7 @@ int report_write(const char *out, int quiet)
 		    "sizes the mean over folds).</p>\n<p class=\"note\" id=\"overlap-rule\"><b>Overlap flag:</b> " QC_OVERLAP_RULE "</p>\n"
 		    "<p class=\"note\">A run is flagged for motion when its mean framewise displacement exceeds the study's fd_threshold.</p>\n");
 	subjects_table(&b, subs, nsub);
+	reliability_section(&b, out);
 	sb_puts(&b, "<h2 id=\"group-h\">Group table</h2>\n");
 	if (have_group) {
 		sb_puts(&b, "<p class=\"note\">From group.csv: one-sample tests over subjects; q_fdr is the Benjamini&ndash;Hochberg "

@@ -14,6 +14,12 @@
  */
 int report_write(const char *out, int quiet);
 
+/* What reliability.csv holds, in the words of the report pages. */
+#define RELIABILITY_NOTE "t_correlation: Pearson's r of the define t of the localizer's halves over the parcel's " \
+	"voxels with finite t in both (leave-one-out: the mean over all pairs of folds); dice: the overlap of the " \
+	"halves' fROIs, likewise; n_above: parcel voxels with define t above 3.1 (a mean over the splits on :mean rows)."
+
+
 /* ---- report_html.c: a growing text buffer and the page frame ---- */
 
 typedef struct sbuf {
@@ -92,6 +98,10 @@ typedef struct rsub {
 	char *study_file;        /* as the run record names it, NULL when absent */
 	int ok;                  /* page written */
 } rsub;
+
+struct table;
+/* A CSV as an HTML table with the given id; the columns in first (NULL-terminated) lead. */
+void table_html(sbuf *b, const struct table *t, const char *id, const char *const *first);
 
 /* Writes OUT/sub-<label>/report.html and fills s. Problems go to e (returns nonzero). */
 sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e);

@@ -281,6 +281,7 @@ void subject_result_release(subject_result *r)
 	}
 	free(r->rows);
 	free(r->leftout);
+	reliab_table_release(&r->rel);
 	memset(r, 0, sizeof *r);
 }
 
@@ -687,6 +688,24 @@ static sr_status write_maps(const char *dir, const char *token, const nii_grid *
 	return nii_write_labels(path, g, f->froi, "splitroi fROI labels", e);
 }
 
+/*
+ * Copies a split's define t, rounded to float32 as the map file holds it (so
+ * reliability.csv can be recomputed from the maps), and its fROI labels.
+ */
+static void keep_split(const froi_set *f, size_t nvox, double **t, int32_t **froi)
+{
+	size_t v;
+
+	*t = xmalloc_array(nvox ? nvox : 1, sizeof **t);
+	*froi = xmalloc_array(nvox ? nvox : 1, sizeof **froi);
+	for (v = 0; v < nvox; v++) {
+		float x = isfinite(f->t[v]) ? (float)f->t[v] : NAN;
+
+		(*t)[v] = isfinite(x) ? (double)x : NAN;
+	}
+	memcpy(*froi, f->froi, nvox * sizeof **froi);
+}
+
 static double now_seconds(void)
 {
 	struct timespec ts;
@@ -887,6 +906,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	remove(path);
 	snprintf(path, sizeof path, "%s/responses.csv", dir);
 	remove(path);
+	snprintf(path, sizeof path, "%s/reliability.csv", dir);
+	remove(path);
 	memset(&own_ps, 0, sizeof own_ps);
 	if (!ps) {
 		/* parcels made for each subject, e.g. without that subject's own data */
@@ -1085,6 +1106,11 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		double *nc = xcalloc(cells, sizeof *nc);
 		double *E = xmalloc_array(nvox, sizeof *E);
 		char def[1024], meas[1024], all[1024], mdef[4096] = "", mmeas[4096] = "";
+		/* per split, for reliability.csv: the define t as written (float32) and the fROI */
+		size_t nsk = (size_t)(nsplits ? nsplits : 1);
+		double **keep_t = xcalloc(nsk, sizeof *keep_t);
+		int32_t **keep_f = xcalloc(nsk, sizeof *keep_f);
+		char **keep_name = xcalloc(nsk, sizeof *keep_name), **keep_def = xcalloc(nsk, sizeof *keep_def);
 
 		all_runs_list(loc, all, sizeof all);
 		for (s = 0; s < nsplits; s++) {
@@ -1093,6 +1119,9 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			define_frois(st, loc, splits[s].def, splits[s].ndef, splits[s].meas, splits[s].nmeas,
 				     NULL, labels, ps, nvox, &f);
 			run_list(loc, splits[s].def, splits[s].ndef, def, sizeof def);
+			keep_split(&f, nvox, &keep_t[s], &keep_f[s]);
+			keep_name[s] = xstrdup(splits[s].name);
+			keep_def[s] = xstrdup(def);
 			run_list(loc, splits[s].meas, splits[s].nmeas, meas, sizeof meas);
 			/* the :mean rows name what they average: the splits' run lists joined by '|' */
 			snprintf(mdef + strlen(mdef), sizeof mdef - strlen(mdef), "%s%s", s ? "|" : "", def);
@@ -1152,6 +1181,22 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				}
 			}
 		}
+		if (!rc && nsplits > 0)
+			reliab_add_splits(&res->rel, st->loc_task, (const char *const *)keep_name,
+					  (const char *const *)keep_def,
+					  st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean", mdef,
+					  (const double *const *)keep_t, (const int32_t *const *)keep_f,
+					  (size_t)nsplits, labels, nvox, ps->index, ps->name, ps->n, lost);
+		for (s = 0; s < nsplits; s++) {
+			free(keep_t[s]);
+			free(keep_f[s]);
+			free(keep_name[s]);
+			free(keep_def[s]);
+		}
+		free(keep_t);
+		free(keep_f);
+		free(keep_name);
+		free(keep_def);
 		/* measured tasks: fROIs from all localizer runs (and a map of that definition) */
 		for (i = 1; !rc && i < ntasks; i++) {
 			const task_fit *mt = &tasks[i];
@@ -1197,6 +1242,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		goto out;
 	snprintf(path, sizeof path, "%s/responses.csv", dir);
 	rc = subject_write_rows(path, label, res->rows, res->nrows, e);
+	if (rc)
+		goto out;
+	snprintf(path, sizeof path, "%s/reliability.csv", dir);
+	rc = reliab_table_write(path, label, &res->rel, e);
 	if (rc)
 		goto out;
 	res->seconds = now_seconds() - t0;
@@ -1263,6 +1312,8 @@ out:
 		snprintf(path, sizeof path, "%s/run.json", dir);
 		remove(path);
 		snprintf(path, sizeof path, "%s/responses.csv", dir);
+		remove(path);
+		snprintf(path, sizeof path, "%s/reliability.csv", dir);
 		remove(path);
 	}
 	return rc;

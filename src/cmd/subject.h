@@ -8,6 +8,7 @@
 #include "../core/err.h"
 #include "../io/nii.h"
 #include "../io/study.h"
+#include "reliability.h"
 
 /* The study's parcels as read from file, with their names. Read once, shared read-only. */
 typedef struct parcel_set {
@@ -35,6 +36,7 @@ typedef struct subject_result {
 	double seconds;
 	struct leftout_run *leftout;   /* per run fitted: voxels each rule left out (leftout.h) */
 	size_t nleftout;
+	reliab_table rel;              /* reliability.csv rows */
 } subject_result;
 
 /* Progress callback: stage text such as "fitting 3 runs". */
