@@ -47,8 +47,9 @@ static const cmdline_spec spec = {
 	"subject's fROIs inside the parcels on one half of the localizer runs, measures\n"
 	"the responses on the other half (and in the measured tasks), and writes\n"
 	"OUT/sub-<label>/responses.csv, the combined OUT/responses.csv, maps per split,\n"
-	"reliability.csv (agreement of the localizer's halves per parcel) and the group\n"
-	"tables. Subjects whose outputs are complete and newer than their\n"
+	"reliability.csv (agreement of the localizer's halves per parcel),\n"
+	"timecourses.csv (FIR response time courses per fROI) and the group tables.\n"
+	"Subjects whose outputs are complete and newer than their\n"
 	"inputs are skipped (see --force). --collect is the last step of a run split\n"
 	"into one job per subject (see 'splitroi slurm').",
 	opts,
@@ -234,6 +235,9 @@ int analyze_subject_complete(const study *st, const char *label)
 	if (stat(path, &sb) != 0)
 		return 0;
 	snprintf(path, sizeof path, "%s/sub-%s/reliability.csv", st->out, label);
+	if (stat(path, &sb) != 0)
+		return 0;
+	snprintf(path, sizeof path, "%s/sub-%s/timecourses.csv", st->out, label);
 	if (stat(path, &sb) != 0)
 		return 0;
 	snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, label);

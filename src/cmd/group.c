@@ -20,6 +20,7 @@
 #include "cmdline.h"
 #include "reliability.h"
 #include "report.h"
+#include "timecourse.h"
 
 /* set while analyze runs the group step: analyze writes the report itself afterwards */
 static int in_analyze;
@@ -194,7 +195,7 @@ static void warn_sink(void *ctx, const char *msg)
 	warnf("%s", msg);
 }
 
-/* reliability_group.csv over the subjects used (reliability.c). */
+/* reliability_group.csv and timecourses_group.csv over the subjects used (reliability.c, timecourse.c). */
 static int write_reliability(const group_ctx *g, sr_err *e)
 {
 	char **labels = xmalloc_array(g->nsubj ? g->nsubj : 1, sizeof *labels);
@@ -205,7 +206,7 @@ static int write_reliability(const group_ctx *g, sr_err *e)
 		if (g->subj[i].status == SUBJ_USED)
 			labels[n++] = g->subj[i].label;
 	e->warn = warn_sink;
-	rc = reliab_group_write(g->out, labels, n, e) != SR_OK;
+	rc = reliab_group_write(g->out, labels, n, e) != SR_OK || tc_group_write(g->out, labels, n, e) != SR_OK;
 	e->warn = NULL;
 	free(labels);
 	return rc;
@@ -1039,7 +1040,7 @@ static void summary(const group_ctx *g)
 	       "split, task and effect (%zu of %zu rows). p: two-sided t test against 0 across\n"
 	       "subjects; 'A vs B' rows test the per-subject difference A - B.\n",
 	       marker, g->alpha, nsig, g->nrows);
-	printf("wrote %s/group.csv, group_subjects.csv, responses_wide.csv, responses_wide_columns.csv, reliability_group.csv\n",
+	printf("wrote %s/group.csv, group_subjects.csv, responses_wide.csv, responses_wide_columns.csv, reliability_group.csv, timecourses_group.csv\n",
 	       g->out);
 	free(cellt);
 }

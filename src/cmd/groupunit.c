@@ -19,22 +19,23 @@
 #include "reliability.h"
 #include "subject.h"
 #include "subunit.h"
+#include "timecourse.h"
 
 /* Every table of the unit, in the order they are renamed into place. */
 static const char *const tables[] = {
 	"group.csv", "group_subjects.csv", "responses_wide.csv", "responses_wide_columns.csv",
-	"reliability_group.csv",
-	"responses.csv", "reliability.csv",
+	"reliability_group.csv", "timecourses_group.csv",
+	"responses.csv", "reliability.csv", "timecourses.csv",
 };
 /* the per-subject tables that the last NSUB_TABLES of tables[] combine, and their columns */
-static const char *const sub_tables[] = { "responses.csv", "reliability.csv" };
+static const char *const sub_tables[] = { "responses.csv", "reliability.csv", "timecourses.csv" };
 enum { NSUB_TABLES = sizeof sub_tables / sizeof sub_tables[0] };
 enum { NTABLES = sizeof tables / sizeof tables[0], NGROUP_TABLES = NTABLES - NSUB_TABLES };
 
 static void sub_columns(size_t k, const char *const **cols, size_t *n)
 {
-	*cols = k == 0 ? subject_columns : reliab_columns;
-	*n = k == 0 ? subject_ncolumns : reliab_ncolumns;
+	*cols = k == 0 ? subject_columns : k == 1 ? reliab_columns : tc_columns;
+	*n = k == 0 ? subject_ncolumns : k == 1 ? reliab_ncolumns : tc_ncolumns;
 }
 
 static int lookup(char **keys, char **vals, size_t n, const char *k, const char **v)

@@ -10,6 +10,7 @@
 #include <sys/stat.h>
 #include <time.h>
 
+#include "../core/fir.h"
 #include "../core/mem.h"
 #include "../core/resample.h"
 #include "../core/roi.h"
@@ -282,6 +283,7 @@ void subject_result_release(subject_result *r)
 	free(r->rows);
 	free(r->leftout);
 	reliab_table_release(&r->rel);
+	tc_table_release(&r->tc);
 	memset(r, 0, sizeof *r);
 }
 
@@ -689,6 +691,103 @@ static sr_status write_maps(const char *dir, const char *token, const nii_grid *
 }
 
 /*
+ * The voxels whose series the fit keeps for the time courses: every parcel
+ * voxel on the data grid g (the parcels resampled when the study says so).
+ * *pos (nvox) gets each voxel's place in the list, -1 elsewhere.
+ */
+static size_t *keep_voxels(const study *st, const parcel_set *ps, const nii_grid *g, size_t *nkeep,
+			   int32_t **pos)
+{
+	size_t nvox = nii_nvox(g), v, n = 0;
+	int32_t *lab = NULL;
+	const int32_t *use = NULL;
+	size_t *keep;
+	char buf[256];
+
+	*pos = xmalloc_array(nvox ? nvox : 1, sizeof **pos);
+	for (v = 0; v < nvox; v++)
+		(*pos)[v] = -1;
+	if (nii_same_grid(g, &ps->grid, 1e-3, buf, sizeof buf)) {
+		use = ps->labels;
+	} else if (st->resample_parcels) {
+		int64_t sn[3] = { ps->grid.nx, ps->grid.ny, ps->grid.nz };
+		int64_t tn[3] = { g->nx, g->ny, g->nz };
+
+		lab = xmalloc_array(nvox ? nvox : 1, sizeof *lab);
+		if (resample_nearest(ps->labels, sn, ps->grid.affine, lab, tn, g->affine) == 0)
+			use = lab;
+	}
+	keep = xmalloc_array(nvox ? nvox : 1, sizeof *keep);
+	for (v = 0; use && v < nvox; v++)
+		if (use[v] != 0 && n < INT32_MAX) {
+			(*pos)[v] = (int32_t)n;
+			keep[n++] = v;
+		}
+	free(lab);
+	*nkeep = n;
+	return keep;
+}
+
+/* The conditions of t named by effects first..ne-1 (weight non-zero), as flags over t's conditions. */
+static unsigned char *tc_conditions(const task_fit *t, int first)
+{
+	unsigned char *use = xcalloc((size_t)(t->ncond ? t->ncond : 1), 1);
+	int j, c;
+
+	for (j = first; j < t->ne; j++)
+		for (c = 0; c < t->ncond; c++)
+			if (t->C[(size_t)j * (size_t)t->ncond + (size_t)c] != 0)
+				use[c] = 1;
+	return use;
+}
+
+/* FIR time courses of every parcel's fROI f over runs mpos of t: out[p][c][b] (np * ncond * nbins). */
+static void tc_split(const study *st, const task_fit *t, const int *mpos, int nm, const froi_set *f,
+		     int np, const int32_t *pos, int nbins, double *out, sr_err *e)
+{
+	const runfit_result **runs = xmalloc_array((size_t)(nm ? nm : 1), sizeof *runs);
+	double *tr = xmalloc_array((size_t)(nm ? nm : 1), sizeof *tr);
+	size_t per = (size_t)t->ncond * (size_t)nbins;
+	int i, p;
+
+	for (i = 0; i < nm; i++) {
+		runs[i] = &t->res[mpos[i]];
+		tr[i] = t->tr[mpos[i]];
+		if (fabs(tr[i] - tr[0]) > 1e-6) {
+			/* bins of one TR: runs of other TRs would mix bin widths */
+			sr_warnf(e, "%s: TR %g s differs from %g s of %s; the time courses of task '%s' over these runs are left empty",
+				 t->runs[mpos[i]].bold, tr[i], tr[0], t->runs[mpos[0]].bold, t->task);
+			for (size_t j = 0; j < (size_t)np * per; j++)
+				out[j] = NAN;
+			free(runs);
+			free(tr);
+			return;
+		}
+	}
+	for (p = 0; p < np; p++)
+		tc_froi(runs, tr, nm, f->chosen + f->start[p], f->count[p], pos, t->ncond, nbins,
+			st->volume_time, out + (size_t)p * per, e);
+	free(runs);
+	free(tr);
+}
+
+/* Adds the rows of one split's time courses (tc_split's out) for the conditions flagged in use. */
+static void tc_rows(subject_result *res, const char *loc, const parcel_set *ps, const char *sname,
+		    const task_fit *t, const unsigned char *use, int nbins, double tr, const double *v)
+{
+	int p, c, b;
+
+	for (p = 0; p < ps->n; p++)
+		for (c = 0; c < t->ncond; c++) {
+			if (!use[c])
+				continue;
+			for (b = 0; b < nbins; b++)
+				tc_table_add(&res->tc, loc, ps->name[p], sname, t->task, t->conds[c], b * tr,
+					     v[((size_t)p * (size_t)t->ncond + (size_t)c) * (size_t)nbins + (size_t)b]);
+		}
+}
+
+/*
  * Copies a split's define t, rounded to float32 as the map file holds it (so
  * reliability.csv can be recomputed from the maps), and its fROI labels.
  */
@@ -877,6 +976,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	split *splits = NULL;
 	int nsplits = 0, s, p, j;
 	jdoc *rec = NULL;
+	size_t *keep = NULL, nkeep = 0;
+	int32_t *keep_pos = NULL;
 
 	memset(res, 0, sizeof *res);
 	clock_gettime(CLOCK_REALTIME, &started);
@@ -907,6 +1008,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	snprintf(path, sizeof path, "%s/responses.csv", dir);
 	remove(path);
 	snprintf(path, sizeof path, "%s/reliability.csv", dir);
+	remove(path);
+	snprintf(path, sizeof path, "%s/timecourses.csv", dir);
 	remove(path);
 	memset(&own_ps, 0, sizeof own_ps);
 	if (!ps) {
@@ -944,7 +1047,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
 		goto out;
 	}
-	/* fit every run of every task once, in parallel */
+	/* fit every run of every task once, in parallel; the parcels' series are kept for the time courses */
+	keep = keep_voxels(st, ps, &tasks[0].grid[0], &nkeep, &keep_pos);
 	specs = xcalloc(nruns_all, sizeof *specs);
 	results = xcalloc(nruns_all, sizeof *results);
 	errs = xcalloc(nruns_all, sizeof *errs);
@@ -954,6 +1058,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		for (i = 0; i < ntasks; i++) {
 			task_specs(st, &tasks[i], mask_owned ? mask_owned : ctx->mask, specs + at);
 			at += tasks[i].nruns;
+		}
+		for (i = 0; i < nruns_all; i++) {
+			specs[i].keep = keep;
+			specs[i].nkeep = nkeep;
 		}
 	}
 	for (i = 0; i < nruns_all; i++)
@@ -1111,6 +1219,11 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		double **keep_t = xcalloc(nsk, sizeof *keep_t);
 		int32_t **keep_f = xcalloc(nsk, sizeof *keep_f);
 		char **keep_name = xcalloc(nsk, sizeof *keep_name), **keep_def = xcalloc(nsk, sizeof *keep_def);
+		/* per split, parcel, condition and bin: the time courses, for the :mean rows */
+		int tcb = fir_nbins(st->timecourse_window, loc->tr[0]);
+		size_t tcper = (size_t)(ps->n ? ps->n : 1) * (size_t)(loc->ncond ? loc->ncond : 1) * (size_t)tcb;
+		double *tcv = xcalloc(nsk * tcper, sizeof *tcv);
+		unsigned char *tcuse = tc_conditions(loc, 1);
 
 		all_runs_list(loc, all, sizeof all);
 		for (s = 0; s < nsplits; s++) {
@@ -1122,6 +1235,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			keep_split(&f, nvox, &keep_t[s], &keep_f[s]);
 			keep_name[s] = xstrdup(splits[s].name);
 			keep_def[s] = xstrdup(def);
+			tc_split(st, loc, splits[s].meas, splits[s].nmeas, &f, ps->n, keep_pos, tcb,
+				 tcv + (size_t)s * tcper, e);
+			tc_rows(res, st->loc_task, ps, splits[s].name, loc, tcuse, tcb, loc->tr[0],
+				tcv + (size_t)s * tcper);
 			run_list(loc, splits[s].meas, splits[s].nmeas, meas, sizeof meas);
 			/* the :mean rows name what they average: the splits' run lists joined by '|' */
 			snprintf(mdef + strlen(mdef), sizeof mdef - strlen(mdef), "%s%s", s ? "|" : "", def);
@@ -1181,6 +1298,24 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				}
 			}
 		}
+		if (!rc && nsplits > 0) {
+			/* the :mean time course: the splits' mean, empty where any split's is */
+			double *mv = xmalloc_array(tcper, sizeof *mv);
+
+			for (size_t q = 0; q < tcper; q++) {
+				double sv = 0;
+
+				for (s = 0; s < nsplits; s++)
+					sv += tcv[(size_t)s * tcper + q];
+				mv[q] = sv / nsplits;   /* NaN when any split's is */
+			}
+			tc_rows(res, st->loc_task, ps,
+				st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean", loc, tcuse, tcb,
+				loc->tr[0], mv);
+			free(mv);
+		}
+		free(tcv);
+		free(tcuse);
 		if (!rc && nsplits > 0)
 			reliab_add_splits(&res->rel, st->loc_task, (const char *const *)keep_name,
 					  (const char *const *)keep_def,
@@ -1223,6 +1358,17 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 						mt->missing[j] ? NAN : froi_mean(&f, p, E), (double)f.count[p],
 						(double)f.ncand[p]);
 			}
+			{
+				int nb = fir_nbins(st->timecourse_window, mt->tr[0]);
+				double *tv = xmalloc_array((size_t)(ps->n ? ps->n : 1) * (size_t)(mt->ncond ? mt->ncond : 1) *
+							   (size_t)nb, sizeof *tv);
+				unsigned char *use = tc_conditions(mt, 0);
+
+				tc_split(st, mt, mpos, (int)mt->nruns, &f, ps->n, keep_pos, nb, tv, e);
+				tc_rows(res, st->loc_task, ps, "all", mt, use, nb, mt->tr[0], tv);
+				free(tv);
+				free(use);
+			}
 			snprintf(buf, sizeof buf, "all-%s", mt->task);
 			rc = write_maps(dir, buf, &grid, nvox, &f, e);
 			froi_release(&f);
@@ -1246,6 +1392,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		goto out;
 	snprintf(path, sizeof path, "%s/reliability.csv", dir);
 	rc = reliab_table_write(path, label, &res->rel, e);
+	if (rc)
+		goto out;
+	snprintf(path, sizeof path, "%s/timecourses.csv", dir);
+	rc = tc_table_write(path, label, &res->tc, e);
 	if (rc)
 		goto out;
 	res->seconds = now_seconds() - t0;
@@ -1301,6 +1451,8 @@ out:
 	free(tasks);
 	free(loc_effects);
 	free(labels_owned);
+	free(keep);
+	free(keep_pos);
 	free(lost);
 	parcel_set_release(&own_ps);
 	free(own_image);
@@ -1314,6 +1466,8 @@ out:
 		snprintf(path, sizeof path, "%s/responses.csv", dir);
 		remove(path);
 		snprintf(path, sizeof path, "%s/reliability.csv", dir);
+		remove(path);
+		snprintf(path, sizeof path, "%s/timecourses.csv", dir);
 		remove(path);
 	}
 	return rc;

@@ -9,6 +9,7 @@
 #include "../io/nii.h"
 #include "../io/study.h"
 #include "reliability.h"
+#include "timecourse.h"
 
 /* The study's parcels as read from file, with their names. Read once, shared read-only. */
 typedef struct parcel_set {
@@ -37,6 +38,7 @@ typedef struct subject_result {
 	struct leftout_run *leftout;   /* per run fitted: voxels each rule left out (leftout.h) */
 	size_t nleftout;
 	reliab_table rel;              /* reliability.csv rows */
+	tc_table tc;                   /* timecourses.csv rows */
 } subject_result;
 
 /* Progress callback: stage text such as "fitting 3 runs". */
