@@ -63,6 +63,24 @@ typedef struct rs_bar {
  */
 void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars,
 	     size_t n, double ylo, double yhi);
+/* One condition's time course: group mean +- sem per bin, and each subject's curve (NaN = gap). */
+typedef struct rs_curve {
+	const char *label;
+	const double *mean, *sem;   /* nb values */
+	const double *subj;         /* nsubj x nb, row by row */
+	size_t nsubj;
+} rs_curve;
+
+/*
+ * Time courses against time after onset (s): per condition a band of mean
+ * +- sem, the mean as a thick line (solid, dashed, dotted: they differ without
+ * colour) and every subject as a thin line of the same hue. ylo..yhi (NaN
+ * for none) is the range its family shares (one task's charts).
+ */
+void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb, const rs_curve *c,
+	       size_t nc, double ylo, double yhi);
+/* Widens lo..hi to hold the curves (bands and subjects); ylo..yhi of rs_curves share it in a family. */
+void rs_curves_range(const rs_curve *c, size_t nc, size_t nb, double *lo, double *hi);
 /* Framewise displacement per volume against time, with the threshold line. */
 void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double threshold);
 /* A horizontal colour bar for viridis from lo to hi with labelled ticks. */

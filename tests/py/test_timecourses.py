@@ -177,4 +177,17 @@ with tempfile.TemporaryDirectory() as tmp:
        "the parcel that never responds stays flat: max |group mean| %.3f < half the weakest true peak %.3f"
        % (max(flat), min(true_peaks)))
 
+    # 3. the report draws them: one chart per parcel, split kind and task, a thin line per subject
+    import re
+    with open(os.path.join(res, "report.html")) as f:
+        html = f.read()
+    charts = re.findall(r'<svg class="chart" id="tc\d+".*?</svg>', html, re.S)
+    keys = set((k[0], k[1], k[2]) for k in curves)
+    nsub = len([d for d in os.listdir(res) if d.startswith("sub-")])
+    ok(len(charts) == len(keys) and all(c.count('class="subject"') == 2 * nsub and
+                                        c.count('class="mean"') == 2 and c.count('class="band"') == 2
+                                        for c in charts),
+       "report: %d time-course charts (one per parcel, split kind, task), each with mean, band and %d subject lines "
+       "per condition" % (len(charts), nsub))
+
 sys.exit(1 if failures else 0)
