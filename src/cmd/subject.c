@@ -26,7 +26,7 @@
 #include "runfit.h"
 
 const char *const subject_columns[] = {
-	"subject", "parcel", "split", "define_runs", "measure_task", "measure_runs",
+	"subject", "localizer", "parcel", "split", "define_runs", "measure_task", "measure_runs",
 	"effect", "value", "n_voxels", "n_candidates",
 };
 const size_t subject_ncolumns = sizeof subject_columns / sizeof subject_columns[0];
@@ -244,7 +244,7 @@ fail:
 
 /* ---- rows ---- */
 
-static void add_row(subject_result *r, const char *parcel, const char *split, const char *def,
+static void add_row(subject_result *r, const char *loc, const char *parcel, const char *split, const char *def,
 		    const char *task, const char *meas, const char *effect, double value,
 		    double nvox, double ncand)
 {
@@ -255,6 +255,7 @@ static void add_row(subject_result *r, const char *parcel, const char *split, co
 		r->rows = xrealloc(r->rows, r->cap * sizeof *r->rows);
 	}
 	w = &r->rows[r->nrows++];
+	w->localizer = xstrdup(loc);
 	w->parcel = xstrdup(parcel);
 	w->split = xstrdup(split);
 	w->define_runs = xstrdup(def);
@@ -273,6 +274,7 @@ void subject_result_release(subject_result *r)
 	if (!r)
 		return;
 	for (i = 0; i < r->nrows; i++) {
+		free(r->rows[i].localizer);
 		free(r->rows[i].parcel);
 		free(r->rows[i].split);
 		free(r->rows[i].define_runs);
@@ -301,6 +303,7 @@ sr_status subject_write_rows(const char *path, const char *subject, const respon
 		const response_row *w = &rows[i];
 
 		csvout_str(&c, subject);
+		csvout_str(&c, w->localizer);
 		csvout_str(&c, w->parcel);
 		csvout_str(&c, w->split);
 		csvout_str(&c, w->define_runs);
@@ -757,6 +760,20 @@ static void tc_split(const study *st, const task_fit *t, const int *mpos, int nm
 			/* bins of one TR: runs of other TRs would mix bin widths */
 			sr_warnf(e, "%s: TR %g s differs from %g s of %s; the time courses of task '%s' over these runs are left empty",
 				 t->runs[mpos[i]].bold, tr[i], tr[0], t->runs[mpos[0]].bold, t->task);
+			for (size_t j = 0; j < (size_t)np * per; j++)
+				out[j] = NAN;
+			free(runs);
+			free(tr);
+			return;
+		}
+	}
+	for (i = 0; i < nm; i++) {
+		int cols = t->ncond * nbins + runs[i]->d.p - runs[i]->d.ncond;
+
+		if (runs[i]->d.T <= cols) {
+			/* said once per split here, rather than once per parcel by the fit */
+			sr_warnf(e, "%s: %d volumes cannot fit the %d columns of the time-course model (timecourse_window = %g s); the time courses of task '%s' over these runs are left empty",
+				 t->runs[mpos[i]].bold, runs[i]->d.T, cols, st->timecourse_window, t->task);
 			for (size_t j = 0; j < (size_t)np * per; j++)
 				out[j] = NAN;
 			free(runs);
@@ -1267,7 +1284,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				for (j = 1; j < ne; j++) {
 					size_t cell = ((size_t)s * (size_t)ps->n + (size_t)p) * (size_t)ne + (size_t)j;
 
-					add_row(res, ps->name[p], splits[s].name, def, loc->task, meas,
+					add_row(res, st->loc_task, ps->name[p], splits[s].name, def, loc->task, meas,
 						loc->effects[j].text, val[cell], nv[cell], nc[cell]);
 				}
 			}
@@ -1293,7 +1310,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 						sn += nv[cell];
 						sc += nc[cell];
 					}
-					add_row(res, ps->name[p], kind, mdef, loc->task, mmeas, loc->effects[j].text,
+					add_row(res, st->loc_task, ps->name[p], kind, mdef, loc->task, mmeas, loc->effects[j].text,
 						bad ? NAN : sv / nsplits, sn / nsplits, sc / nsplits);
 				}
 			}
@@ -1354,7 +1371,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			for (j = 0; j < mt->ne; j++) {
 				ffx_map(mt, mpos, (int)mt->nruns, j, nvox, E, NULL);
 				for (p = 0; p < ps->n; p++)
-					add_row(res, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
+					add_row(res, st->loc_task, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
 						mt->missing[j] ? NAN : froi_mean(&f, p, E), (double)f.count[p],
 						(double)f.ncand[p]);
 			}

@@ -23,6 +23,7 @@ typedef struct parcel_set {
 
 /* One row of responses.csv (METHODS.md section 10). */
 typedef struct response_row {
+	char *localizer;      /* the localizer whose fROIs these are (the task label of an unnamed [localizer]) */
 	char *parcel, *split, *define_runs, *measure_task, *measure_runs, *effect;
 	double value;         /* NaN = empty */
 	double n_voxels;      /* whole for single splits, a mean for ":mean" rows */
