@@ -751,7 +751,7 @@ static void tc_split(const study *st, const task_fit *t, const int *mpos, int nm
 	const runfit_result **runs = xmalloc_array((size_t)(nm ? nm : 1), sizeof *runs);
 	double *tr = xmalloc_array((size_t)(nm ? nm : 1), sizeof *tr);
 	size_t per = (size_t)t->ncond * (size_t)nbins;
-	int i, p;
+	int i;
 
 	for (i = 0; i < nm; i++) {
 		runs[i] = &t->res[mpos[i]];
@@ -781,9 +781,8 @@ static void tc_split(const study *st, const task_fit *t, const int *mpos, int nm
 			return;
 		}
 	}
-	for (p = 0; p < np; p++)
-		tc_froi(runs, tr, nm, f->chosen + f->start[p], f->count[p], pos, t->ncond, nbins,
-			st->volume_time, out + (size_t)p * per, e);
+	tc_frois(runs, tr, nm, f->chosen, f->start, f->count, np, pos, t->ncond, nbins, st->volume_time,
+		 out, e);
 	free(runs);
 	free(tr);
 }

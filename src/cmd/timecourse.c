@@ -101,35 +101,36 @@ static int froi_series(const runfit_result *r, const size_t *vox, size_t nv, con
 	return n > 0;
 }
 
-void tc_froi(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
-	     size_t nv, const int32_t *pos, int ncond, int nbins, double volume_time, double *out,
-	     sr_err *e)
+void tc_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
+	      const size_t *start, const size_t *count, int nf, const int32_t *pos, int ncond,
+	      int nbins, double volume_time, double *out, sr_err *e)
 {
-	size_t nb = (size_t)ncond * (size_t)nbins, j;
-	double *sum = xcalloc(nb ? nb : 1, sizeof *sum), *beta = xmalloc_array(nb ? nb : 1, sizeof *beta);
-	int *cnt = xcalloc(nb ? nb : 1, sizeof *cnt), i;
+	size_t per = (size_t)ncond * (size_t)nbins, nb = per * (size_t)(nf > 0 ? nf : 1), j;
+	double *sum = xcalloc(nb, sizeof *sum), *beta = xmalloc_array(nb, sizeof *beta);
+	int *cnt = xcalloc(nb, sizeof *cnt), i, f;
 
 	for (i = 0; i < nruns; i++) {
 		const runfit_result *r = run[i];
+		size_t T = (size_t)r->d.T;
 		double *y;
 		sr_err fe;
 
-		if (!r->series || !r->d.X)
+		if (!r->series || !r->d.X || nf <= 0)
 			continue;
-		y = xmalloc_array((size_t)r->d.T, sizeof *y);
+		y = xmalloc_array(T * (size_t)nf, sizeof *y);
+		for (f = 0; f < nf; f++)
+			if (!froi_series(r, vox + start[f], count[f], pos, y + (size_t)f * T))
+				y[(size_t)f * T] = NAN;   /* no voxel here: fir_fit_many skips it */
 		sr_err_init(&fe, NULL, NULL);
-		if (froi_series(r, vox, nv, pos, y)) {
-			if (fir_fit(r->d.T, tr[i], volume_time, r->ev, r->nev, ncond, nbins,
-				    r->d.X + (size_t)r->d.T * (size_t)r->d.ncond, r->d.p - r->d.ncond, y, beta,
-				    &fe) != SR_OK) {
-				sr_warnf(e, "time course: %s; the run is left out", fe.msg);
-			} else {
-				for (j = 0; j < nb; j++)
-					if (isfinite(beta[j])) {
-						sum[j] += beta[j];
-						cnt[j]++;
-					}
-			}
+		if (fir_fit_many(r->d.T, tr[i], volume_time, r->ev, r->nev, ncond, nbins,
+				 r->d.X + T * (size_t)r->d.ncond, r->d.p - r->d.ncond, y, nf, beta, &fe) != SR_OK) {
+			sr_warnf(e, "time course: %s; the run is left out", fe.msg);
+		} else {
+			for (j = 0; j < nb; j++)
+				if (isfinite(beta[j])) {
+					sum[j] += beta[j];
+					cnt[j]++;
+				}
 		}
 		free(y);
 	}

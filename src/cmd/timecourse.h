@@ -30,19 +30,20 @@ void tc_table_release(tc_table *tb);
 sr_status tc_table_write(const char *path, const char *subject, const tc_table *tb, sr_err *e);
 
 /*
- * The time course of one fROI (nv voxels vox[] of the data grid; pos[v] is
- * voxel v's place among the runs' kept series, -1 when not kept) over the
- * nruns fitted runs run[i] (TR tr[i]): per run, the mean over the fROI's
- * voxels analyzable in that run of the series scaled to 100 * y / mean(y)
- * (METHODS.md section 3), fitted by fir_fit with the run's own confound,
- * drift and constant columns; then the mean over the runs with a value, per
- * bin. out gets ncond * nbins values (conditions in the task's order, bins
- * ascending), NaN where no run gives one. A run whose FIR design cannot be
- * fitted (too few volumes) is left out with a warning.
+ * The time courses of nf fROIs (fROI i: count[i] voxels vox[start[i]..] of
+ * the data grid; pos[v] is voxel v's place among the runs' kept series, -1
+ * when not kept) over the nruns fitted runs run[r] (TR tr[r]): per run, the
+ * mean over each fROI's voxels analyzable in that run of the series scaled
+ * to 100 * y / mean(y) (METHODS.md section 3), fitted by fir_fit_many with
+ * the run's own confound, drift and constant columns (one factorisation per
+ * run); then the mean over the runs with a value, per bin. out gets nf x
+ * ncond x nbins values (conditions in the task's order, bins ascending), NaN
+ * where no run gives one. A run whose FIR design cannot be fitted is left
+ * out with a warning.
  */
-void tc_froi(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
-	     size_t nv, const int32_t *pos, int ncond, int nbins, double volume_time, double *out,
-	     sr_err *e);
+void tc_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
+	      const size_t *start, const size_t *count, int nf, const int32_t *pos, int ncond,
+	      int nbins, double volume_time, double *out, sr_err *e);
 
 /*
  * The group table: reads OUT/sub-<label>/timecourses.csv of the n labels and

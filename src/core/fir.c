@@ -47,6 +47,13 @@ sr_status fir_fit(int T, double tr, double volume_time, const design_event *ev, 
 		  int ncond, int nbins, const double *nuis, int nnuis, const double *y, double *beta,
 		  sr_err *e)
 {
+	return fir_fit_many(T, tr, volume_time, ev, nev, ncond, nbins, nuis, nnuis, y, 1, beta, e);
+}
+
+sr_status fir_fit_many(int T, double tr, double volume_time, const design_event *ev, size_t nev,
+		       int ncond, int nbins, const double *nuis, int nnuis, const double *y, int ny,
+		       double *beta, sr_err *e)
+{
 	int nf = ncond * nbins, p = nf + nnuis, c;
 	double *X = xmalloc_array((size_t)T * (size_t)(p ? p : 1), sizeof *X);
 	double *b = xmalloc_array((size_t)(p ? p : 1), sizeof *b);
@@ -58,9 +65,17 @@ sr_status fir_fit(int T, double tr, double volume_time, const design_event *ev, 
 	if (nnuis)
 		memcpy(X + (size_t)T * (size_t)nf, nuis, (size_t)T * (size_t)nnuis * sizeof *X);
 	st = glm_model_make(X, T, p, &m, e);
-	if (st == SR_OK) {
-		glm_ols_solve(m, y, b);
-		memcpy(beta, b, (size_t)nf * sizeof *beta);
+	for (int i = 0; st == SR_OK && i < ny; i++) {
+		double *bi = beta + (size_t)i * (size_t)nf;
+		int j;
+
+		if (isnan(y[(size_t)i * (size_t)T])) {
+			for (j = 0; j < nf; j++)
+				bi[j] = NAN;
+			continue;
+		}
+		glm_ols_solve(m, y + (size_t)i * (size_t)T, b);
+		memcpy(bi, b, (size_t)nf * sizeof *bi);
 	}
 	glm_model_free(m);
 	free(X);

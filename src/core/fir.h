@@ -31,5 +31,13 @@ void fir_columns(int T, double tr, double volume_time, const design_event *ev, s
 sr_status fir_fit(int T, double tr, double volume_time, const design_event *ev, size_t nev,
 		  int ncond, int nbins, const double *nuis, int nnuis, const double *y, double *beta,
 		  sr_err *e);
+/*
+ * The same for ny series at once (y: ny x T, series by series; beta: ny x
+ * ncond * nbins): one design and one factorisation for all of them. A series
+ * whose first value is NaN is skipped (its beta stays NaN).
+ */
+sr_status fir_fit_many(int T, double tr, double volume_time, const design_event *ev, size_t nev,
+		       int ncond, int nbins, const double *nuis, int nnuis, const double *y, int ny,
+		       double *beta, sr_err *e);
 
 #endif
