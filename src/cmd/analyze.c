@@ -49,8 +49,9 @@ static const cmdline_spec spec = {
 	"the responses on the other half (and in the measured tasks), and writes\n"
 	"OUT/sub-<label>/responses.csv, the combined OUT/responses.csv, the maps per\n"
 	"split under OUT/sub-<label>/func/ (a BIDS Derivatives dataset, with\n"
-	"OUT/dataset_description.json),\n"
-	"and the group table. Subjects whose outputs are complete and newer than their\n"
+	"OUT/dataset_description.json), reliability.csv (agreement of the\n"
+	"localizer's halves per parcel), timecourses.csv (FIR response time courses\n"
+	"per fROI) and the group tables. Subjects whose outputs are complete and newer than their\n"
 	"inputs are skipped (see --force). --collect is the last step of a run split\n"
 	"into one job per subject (see 'splitroi slurm').",
 	opts,
@@ -233,6 +234,12 @@ int analyze_subject_complete(const study *st, const char *label)
 	struct stat sb;
 
 	snprintf(path, sizeof path, "%s/sub-%s/responses.csv", st->out, label);
+	if (stat(path, &sb) != 0)
+		return 0;
+	snprintf(path, sizeof path, "%s/sub-%s/reliability.csv", st->out, label);
+	if (stat(path, &sb) != 0)
+		return 0;
+	snprintf(path, sizeof path, "%s/sub-%s/timecourses.csv", st->out, label);
 	if (stat(path, &sb) != 0)
 		return 0;
 	snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, label);

@@ -849,7 +849,8 @@ static int run_check(checker *c, char **subs, size_t nsub)
 			}
 		}
 	}
-	printf("localizer splits (%s)\n", st->split == SPLIT_ODD_EVEN ? "odd-even" : "leave-one-out");
+	printf("localizer splits (%s); time courses: bins of one TR from 0 to %g s after onset\n",
+	       st->split == SPLIT_ODD_EVEN ? "odd-even" : "leave-one-out", st->timecourse_window);
 	for (s = 0; s < nsub; s++)
 		print_splits(c, subs[s], &seen[s * ntasks]);
 	for (t = 0; t < ntasks; t++) {

@@ -20,8 +20,10 @@
 #include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
+#include "reliability.h"
 #include "report.h"
 #include "tabledict.h"
+#include "timecourse.h"
 
 /* set while analyze runs the group step: analyze writes the report itself afterwards */
 static int in_analyze;
@@ -204,6 +206,29 @@ static void warnf(const char *fmt, ...)
 	vfprintf(stderr, fmt, ap);
 	va_end(ap);
 	fputc('\n', stderr);
+}
+
+static void warn_sink(void *ctx, const char *msg)
+{
+	(void)ctx;
+	warnf("%s", msg);
+}
+
+/* reliability_group.csv and timecourses_group.csv over the subjects used (reliability.c, timecourse.c). */
+static int write_reliability(const group_ctx *g, sr_err *e)
+{
+	char **labels = xmalloc_array(g->nsubj ? g->nsubj : 1, sizeof *labels);
+	size_t i, n = 0;
+	int rc;
+
+	for (i = 0; i < g->nsubj; i++)
+		if (g->subj[i].status == SUBJ_USED)
+			labels[n++] = g->subj[i].label;
+	e->warn = warn_sink;
+	rc = reliab_group_write(g->out, labels, n, e) != SR_OK || tc_group_write(g->out, labels, n, e) != SR_OK;
+	e->warn = NULL;
+	free(labels);
+	return rc;
 }
 
 static char *path_join(const char *a, const char *b)
@@ -1396,7 +1421,7 @@ static void summary(const group_ctx *g)
 	       "split, task and effect (%zu of %zu rows). p: two-sided t test against 0 across\n"
 	       "subjects; 'A vs B' rows test the per-subject difference A - B.\n",
 	       marker, g->alpha, nsig, g->nrows);
-	printf("wrote %s/group.csv, group_subjects.csv, responses_wide.csv, responses_wide_columns.csv\n",
+	printf("wrote %s/group.csv, group_subjects.csv, responses_wide.csv, responses_wide_columns.csv, reliability_group.csv, timecourses_group.csv\n",
 	       step_shown_out ? step_shown_out : g->out);
 	free(cellt);
 }
@@ -1501,7 +1526,7 @@ int cmd_group(int argc, char **argv)
 	compute(&g);
 	sr_err_init(&e, NULL, NULL);
 	if (write_group(&g, &e) || write_subjects(&g, &e) || write_wide(&g, &e) ||
-	    (val[OPT_BY] && write_by(&g, val[OPT_BY], &e))) {
+	    (val[OPT_BY] && write_by(&g, val[OPT_BY], &e)) || write_reliability(&g, &e)) {
 		cmdline_error("group", "%s", e.msg);
 		rc = 1;
 		goto out;

@@ -16,18 +16,32 @@
 #include "analyze.h"
 #include "outlock.h"
 #include "report.h"
+#include "reliability.h"
 #include "subject.h"
 #include "subunit.h"
 #include "tabledict.h"
+#include "timecourse.h"
 
 /* Every table of the unit, in the order they are renamed into place. */
 static const char *const tables[] = {
 	"group.csv", "group_subjects.csv", "responses_wide.csv", "responses_wide_columns.csv",
 	"group.json", "group_subjects.json", "responses_wide.json", "responses_wide_columns.json",
-	"responses.json", "responses.csv",
+	"reliability_group.csv", "timecourses_group.csv", "reliability_group.json",
+	"timecourses_group.json",
+	"responses.json", "reliability.json", "timecourses.json",
+	"responses.csv", "reliability.csv", "timecourses.csv",
 };
-/* the last two (responses.json, responses.csv) are made without the group step too */
-enum { NTABLES = sizeof tables / sizeof tables[0], NGROUP_TABLES = NTABLES - 2 };
+/* the per-subject tables that the last 2 NSUB_TABLES of tables[] combine (with their
+   dictionaries), and their columns; these are made without the group step too */
+static const char *const sub_tables[] = { "responses.csv", "reliability.csv", "timecourses.csv" };
+enum { NSUB_TABLES = sizeof sub_tables / sizeof sub_tables[0] };
+enum { NTABLES = sizeof tables / sizeof tables[0], NGROUP_TABLES = NTABLES - 2 * NSUB_TABLES };
+
+static void sub_columns(size_t k, const char *const **cols, size_t *n)
+{
+	*cols = k == 0 ? subject_columns : k == 1 ? reliab_columns : tc_columns;
+	*n = k == 0 ? subject_ncolumns : k == 1 ? reliab_ncolumns : tc_ncolumns;
+}
 
 static int lookup(char **keys, char **vals, size_t n, const char *k, const char **v)
 {
@@ -123,9 +137,10 @@ static sr_status snapshot(const char *src, const char *dst, sr_err *e)
 	return SR_OK;
 }
 
-/* The combined table from the snapshot's subject tables, in label order. */
-static sr_status combine(const char *stage, char *const *subs, const unsigned char *done,
-			 size_t nsub, sr_err *e)
+/* The combined table `name` (columns cols) from the snapshot's subject tables, in label order. */
+static sr_status combine(const char *stage, const char *name, const char *const *cols,
+			 size_t ncols, char *const *subs, const unsigned char *done, size_t nsub,
+			 sr_err *e)
 {
 	afile a;
 	size_t s;
@@ -133,7 +148,7 @@ static sr_status combine(const char *stage, char *const *subs, const unsigned ch
 	char path[4096];
 	int header_done = 0;
 
-	snprintf(path, sizeof path, "%s/responses.csv", stage);
+	snprintf(path, sizeof path, "%s/%s", stage, name);
 	rc = afile_open(&a, path, e);
 	if (rc)
 		return rc;
@@ -144,7 +159,7 @@ static sr_status combine(const char *stage, char *const *subs, const unsigned ch
 
 		if (!done[s])
 			continue;
-		snprintf(path, sizeof path, "%s/sub-%s/responses.csv", stage, subs[s]);
+		snprintf(path, sizeof path, "%s/sub-%s/%s", stage, subs[s], name);
 		f = fopen(path, "r");
 		if (!f) {
 			afile_abort(&a);
@@ -171,14 +186,14 @@ static sr_status combine(const char *stage, char *const *subs, const unsigned ch
 	if (!header_done) {
 		size_t i;
 
-		for (i = 0; i < subject_ncolumns; i++)
-			fprintf(a.f, "%s%s", i ? "," : "", subject_columns[i]);
+		for (i = 0; i < ncols; i++)
+			fprintf(a.f, "%s%s", i ? "," : "", cols[i]);
 		fputc('\n', a.f);
 	}
 	rc = afile_commit(&a, e);
 	if (!rc) {
-		snprintf(path, sizeof path, "%s/responses.csv", stage);
-		rc = tabledict_write(path, subject_columns, subject_ncolumns, NULL, 0, e);
+		snprintf(path, sizeof path, "%s/%s", stage, name);
+		rc = tabledict_write(path, cols, ncols, NULL, 0, e);
 	}
 	return rc;
 }
@@ -221,20 +236,28 @@ int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, 
 			done[i] = 0;
 		if (done[i]) {
 			snprintf(dst, sizeof dst, "%s/sub-%s", stage, subs[i]);
-			snprintf(path, sizeof path, "%s/sub-%s/responses.csv", st->out, subs[i]);
-			if (mkdir(dst, 0777) != 0 ||
-			    (snprintf(dst, sizeof dst, "%s/sub-%s/responses.csv", stage, subs[i]),
-			     snapshot(path, dst, &e))) {
-				if (!e.code)
-					sr_fail(&e, SR_EIO, "%s: cannot create: %s", dst, strerror(errno));
+			if (mkdir(dst, 0777) != 0) {
+				sr_fail(&e, SR_EIO, "%s: cannot create: %s", dst, strerror(errno));
 				goto fail;
+			}
+			for (size_t k = 0; k < NSUB_TABLES; k++) {
+				snprintf(path, sizeof path, "%s/sub-%s/%s", st->out, subs[i], sub_tables[k]);
+				snprintf(dst, sizeof dst, "%s/sub-%s/%s", stage, subs[i], sub_tables[k]);
+				if (snapshot(path, dst, &e))
+					goto fail;
 			}
 			(*ncomplete)++;
 		}
 		jdoc_set_str(js, subs[i], done[i] ? fp : "missing");
 	}
-	if (combine(stage, subs, done, nsub, &e))
-		goto fail;
+	for (i = 0; i < NSUB_TABLES; i++) {
+		const char *const *cols;
+		size_t ncols;
+
+		sub_columns(i, &cols, &ncols);
+		if (combine(stage, sub_tables[i], cols, ncols, subs, done, nsub, &e))
+			goto fail;
+	}
 	snprintf(path, sizeof path, "%s/participants.tsv", st->bids);
 	if (group && analyze_group_step(stage, st->out, subs, nsub, path, quiet)) {
 		sr_fail(&e, SR_EIO, "the group step failed; the earlier tables are left as they were");

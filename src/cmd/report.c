@@ -265,7 +265,7 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
  * (NULL-terminated) lead in that order, so the key numbers stay in view of a
  * narrow window, then the others as in the file.
  */
-static void table_html(sbuf *b, const table *t, const char *id, const char *const *first)
+void table_html(sbuf *b, const table *t, const char *id, const char *const *first)
 {
 	size_t r, c, k, n = 0, *order = xmalloc_array(t->ncols ? t->ncols : 1, sizeof *order);
 	unsigned char *used = xcalloc(t->ncols ? t->ncols : 1, 1);
@@ -397,6 +397,211 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 	}
 }
 
+/* Index of s in v[0..n) sorted by cmp_str, or -1. */
+static long find_sorted(char **v, size_t n, const char *s)
+{
+	char **hit = n ? bsearch(&s, v, n, sizeof *v, cmp_str) : NULL;
+
+	return hit ? (long)(hit - v) : -1;
+}
+
+/* One chart of the time courses: a parcel, split kind and task, with its conditions. */
+typedef struct tc_chart {
+	char *parcel, *split, *task;
+	char **cond;
+	size_t ncond;
+} tc_chart;
+
+/* The charts of timecourses_group.csv, in its row order. */
+static tc_chart *tc_charts(const table *g, const int *col, size_t *n)
+{
+	tc_chart *ch = NULL;
+	size_t r, k;
+
+	*n = 0;
+	for (r = 0; r < g->nrows; r++) {
+		const char *p = table_cell(g, r, (size_t)col[0]), *s = table_cell(g, r, (size_t)col[1]);
+		const char *t = table_cell(g, r, (size_t)col[2]), *c = table_cell(g, r, (size_t)col[3]);
+
+		for (k = 0; k < *n; k++)
+			if (!strcmp(ch[k].parcel, p) && !strcmp(ch[k].split, s) && !strcmp(ch[k].task, t))
+				break;
+		if (k == *n) {
+			ch = xrealloc(ch, (*n + 1) * sizeof *ch);
+			memset(&ch[*n], 0, sizeof *ch);
+			ch[*n].parcel = xstrdup(p);
+			ch[*n].split = xstrdup(s);
+			ch[*n].task = xstrdup(t);
+			(*n)++;
+		}
+		if (find(ch[k].cond, ch[k].ncond, c) < 0)
+			add_unique(&ch[k].cond, &ch[k].ncond, c);
+	}
+	return ch;
+}
+
+/* The curves of one chart's condition: group mean and sem, and each subject's values. */
+static void tc_fill(const table *g, const int *gc, const table *all, const int *ac, const tc_chart *ch,
+		    const char *cond, char **times, size_t nb, char **subs, size_t ns, double *mean,
+		    double *sem, double *subj)
+{
+	size_t r, i;
+
+	for (i = 0; i < nb; i++)
+		mean[i] = sem[i] = NAN;
+	for (i = 0; i < nb * ns; i++)
+		subj[i] = NAN;
+	for (r = 0; r < g->nrows; r++) {
+		long ti;
+
+		if (strcmp(table_cell(g, r, (size_t)gc[0]), ch->parcel) || strcmp(table_cell(g, r, (size_t)gc[1]), ch->split) ||
+		    strcmp(table_cell(g, r, (size_t)gc[2]), ch->task) || strcmp(table_cell(g, r, (size_t)gc[3]), cond) ||
+		    (ti = find(times, nb, table_cell(g, r, (size_t)gc[4]))) < 0)
+			continue;
+		mean[ti] = strtod(table_cell(g, r, (size_t)gc[5]), NULL);
+		sem[ti] = *table_cell(g, r, (size_t)gc[6]) ? strtod(table_cell(g, r, (size_t)gc[6]), NULL) : NAN;
+		if (!*table_cell(g, r, (size_t)gc[5]))
+			mean[ti] = NAN;
+	}
+	for (r = 0; all && r < all->nrows; r++) {
+		long ti, si;
+		const char *v;
+
+		if (strcmp(table_cell(all, r, (size_t)ac[0]), ch->parcel) || strcmp(table_cell(all, r, (size_t)ac[1]), ch->split) ||
+		    strcmp(table_cell(all, r, (size_t)ac[2]), ch->task) || strcmp(table_cell(all, r, (size_t)ac[3]), cond) ||
+		    (ti = find(times, nb, table_cell(all, r, (size_t)ac[4]))) < 0 ||
+		    (si = find_sorted(subs, ns, table_cell(all, r, (size_t)ac[6]))) < 0)
+			continue;
+		v = table_cell(all, r, (size_t)ac[5]);
+		subj[(size_t)si * nb + (size_t)ti] = *v ? strtod(v, NULL) : NAN;
+	}
+}
+
+/* Response time courses: one chart per parcel, split kind and task (timecourses_group.csv, timecourses.csv). */
+static void timecourse_section(sbuf *b, const char *out, int *uid)
+{
+	static const char *const gn[] = { "parcel", "split", "measure_task", "condition", "time", "mean", "sem" };
+	static const char *const an[] = { "parcel", "split", "measure_task", "condition", "time", "value", "subject" };
+	char path[8192], **times = NULL, **subs = NULL;
+	size_t nb = 0, ns = 0, nch, k, r, q;
+	int gc[7], ac[7], have_all, i;
+	table g, all;
+	tc_chart *ch;
+	rs_curve **cvs;
+	double *tv;
+
+	sb_puts(b, "<h2 id=\"timecourses-h\">Response time courses</h2>\n<p class=\"note\">Finite-impulse-response "
+		   "estimates per bin of one TR after each event's onset, in percent signal change, on the measure runs of each "
+		   "split (cross-validated: the mean of the splits; measured tasks: fROIs from all localizer runs). Thick line: "
+		   "mean over subjects; band: &#177;1 standard error; thin lines: one per subject.</p>\n");
+	snprintf(path, sizeof path, "%s/timecourses_group.csv", out);
+	if (table_read(path, ',', &g, NULL) != SR_OK) {
+		sb_puts(b, "<p class=\"note\">No timecourses_group.csv in this folder (run the group step).</p>\n");
+		return;
+	}
+	snprintf(path, sizeof path, "%s/timecourses.csv", out);
+	have_all = table_read(path, ',', &all, NULL) == SR_OK;
+	for (i = 0; i < 7; i++) {
+		gc[i] = table_col(&g, gn[i]);
+		ac[i] = have_all ? table_col(&all, an[i]) : 0;
+		if (gc[i] < 0 || ac[i] < 0) {
+			sb_puts(b, "<p class=\"note\">The time-course tables lack columns; nothing drawn.</p>\n");
+			table_release(&g);
+			if (have_all)
+				table_release(&all);
+			return;
+		}
+	}
+	for (r = 0; r < g.nrows; r++)
+		if (find(times, nb, table_cell(&g, r, (size_t)gc[4])) < 0)
+			add_unique(&times, &nb, table_cell(&g, r, (size_t)gc[4]));
+	for (r = 0; have_all && r < all.nrows; r++)   /* rows come subject by subject */
+		if (!ns || strcmp(subs[ns - 1], table_cell(&all, r, (size_t)ac[6])) != 0)
+			add_unique(&subs, &ns, table_cell(&all, r, (size_t)ac[6]));
+	if (ns)
+		qsort(subs, ns, sizeof *subs, cmp_str);
+	ch = tc_charts(&g, gc, &nch);
+	cvs = xcalloc(nch ? nch : 1, sizeof *cvs);
+	tv = xmalloc_array(nb ? nb : 1, sizeof *tv);
+	for (q = 0; q < nb; q++)
+		tv[q] = strtod(times[q], NULL);
+	for (k = 0; k < nch; k++) {
+		rs_curve *cv = cvs[k] = xcalloc(ch[k].ncond ? ch[k].ncond : 1, sizeof *cv);
+
+		for (q = 0; q < ch[k].ncond; q++) {
+			double *mean = xmalloc_array(nb ? nb : 1, sizeof *mean);
+			double *sem = xmalloc_array(nb ? nb : 1, sizeof *sem);
+			double *subj = xmalloc_array((nb * ns) > 0 ? nb * ns : 1, sizeof *subj);
+
+			tc_fill(&g, gc, have_all ? &all : NULL, ac, &ch[k], ch[k].cond[q], times, nb, subs, ns, mean,
+				sem, subj);
+			cv[q].label = ch[k].cond[q];
+			cv[q].mean = mean;
+			cv[q].sem = sem;
+			cv[q].subj = subj;
+			cv[q].nsubj = ns;
+		}
+	}
+	sb_puts(b, "<div class=\"charts\">\n");
+	for (k = 0; k < nch; k++) {
+		rs_curve *cv = cvs[k];
+		double lo = 0, hi = 0;
+		char title[1024];
+		size_t o;
+
+		/* one y-range per task and split kind, so a flat parcel looks flat */
+		for (o = 0; o < nch; o++)
+			if (!strcmp(ch[o].task, ch[k].task) && !strcmp(ch[o].split, ch[k].split))
+				rs_curves_range(cvs[o], ch[o].ncond, nb, &lo, &hi);
+		snprintf(title, sizeof title, "%s, %s (%s)", ch[k].parcel, ch[k].task, ch[k].split);
+		rs_curves(b, ++*uid, title, tv, nb, cv, ch[k].ncond, lo, hi);
+	}
+	for (k = 0; k < nch; k++) {
+		rs_curve *cv = cvs[k];
+
+		for (q = 0; q < ch[k].ncond; q++) {
+			free((double *)cv[q].mean);
+			free((double *)cv[q].sem);
+			free((double *)cv[q].subj);
+		}
+		free(cv);
+		free(ch[k].parcel);
+		free(ch[k].split);
+		free(ch[k].task);
+		free_strs(ch[k].cond, ch[k].ncond);
+	}
+	sb_puts(b, "</div>\n");
+	free(ch);
+	free(cvs);
+	free(tv);
+	free_strs(times, nb);
+	free_strs(subs, ns);
+	table_release(&g);
+	if (have_all)
+		table_release(&all);
+}
+
+/* The group summary of reliability.csv (reliability_group.csv) as a table. */
+static void reliability_section(sbuf *b, const char *out)
+{
+	static const char *const lead[] = { "localizer", "parcel", "split", "measure", "n", "median", "min",
+					    "max", NULL };
+	char path[8192];
+	table t;
+
+	sb_puts(b, "<h2 id=\"reliability-h\">Reliability of the fROIs</h2>\n<p class=\"note\">" RELIABILITY_NOTE
+		   " Per parcel over subjects: median, minimum and maximum (reliability_group.csv).</p>\n");
+	snprintf(path, sizeof path, "%s/reliability_group.csv", out);
+	if (table_read(path, ',', &t, NULL) != SR_OK) {
+		sb_puts(b, "<p class=\"note\">No reliability_group.csv in this folder (run the group step).</p>\n");
+		return;
+	}
+	sb_puts(b, "<div class=\"wide\">");
+	table_html(b, &t, "reliability", lead);
+	sb_puts(b, "</div>\n");
+	table_release(&t);
+}
+
 int report_write(const char *out, int quiet)
 {
 	char **labels, path[8192];
@@ -442,7 +647,7 @@ int report_write(const char *out, int quiet)
 	incomplete_banner(&b, out, &group, have_group);
 	sb_puts(&b, "<nav class=\"toc\"><a href=\"#cv\">cross-validated responses</a> &middot; "
 		    "<a href=\"#measured\">measured tasks</a> &middot; <a href=\"#overlap\">fROI sizes and overlap</a> &middot; "
-		    "<a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
+		    "<a href=\"#timecourses-h\">time courses</a> &middot; <a href=\"#reliability-h\">reliability</a> &middot; <a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
 	for (i = 0; i < nsub; i++) {
 		if (!subs[i].ok) {
 			/* no link to a page that was not written (or is stale) */
@@ -498,6 +703,8 @@ int report_write(const char *out, int quiet)
 		    "sizes the mean over folds).</p>\n<p class=\"note\" id=\"overlap-rule\"><b>Overlap flag:</b> " QC_OVERLAP_RULE "</p>\n"
 		    "<p class=\"note\">A run is flagged for motion when its mean framewise displacement exceeds the study's fd_threshold.</p>\n");
 	subjects_table(&b, subs, nsub);
+	timecourse_section(&b, out, &uid);
+	reliability_section(&b, out);
 	sb_puts(&b, "<h2 id=\"group-h\">Group table</h2>\n");
 	if (have_group) {
 		sb_puts(&b, "<p class=\"note\">From group.csv: one-sample tests over subjects; q_fdr is the Benjamini&ndash;Hochberg "

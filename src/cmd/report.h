@@ -14,6 +14,12 @@
  */
 int report_write(const char *out, int quiet);
 
+/* What reliability.csv holds, in the words of the report pages. */
+#define RELIABILITY_NOTE "t_correlation: Pearson's r of the define t of the localizer's halves over the parcel's " \
+	"voxels with finite t in both (leave-one-out: the mean over all pairs of folds); dice: the overlap of the " \
+	"halves' fROIs, likewise; n_above: parcel voxels with define t above 3.1 (a mean over the splits on :mean rows)."
+
+
 /* ---- report_html.c: a growing text buffer and the page frame ---- */
 
 typedef struct sbuf {
@@ -57,6 +63,24 @@ typedef struct rs_bar {
  */
 void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars,
 	     size_t n, double ylo, double yhi);
+/* One condition's time course: group mean +- sem per bin, and each subject's curve (NaN = gap). */
+typedef struct rs_curve {
+	const char *label;
+	const double *mean, *sem;   /* nb values */
+	const double *subj;         /* nsubj x nb, row by row */
+	size_t nsubj;
+} rs_curve;
+
+/*
+ * Time courses against time after onset (s): per condition a band of mean
+ * +- sem, the mean as a thick line (solid, dashed, dotted: they differ without
+ * colour) and every subject as a thin line of the same hue. ylo..yhi (NaN
+ * for none) is the range its family shares (one task's charts).
+ */
+void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb, const rs_curve *c,
+	       size_t nc, double ylo, double yhi);
+/* Widens lo..hi to hold the curves (bands and subjects); ylo..yhi of rs_curves share it in a family. */
+void rs_curves_range(const rs_curve *c, size_t nc, size_t nb, double *lo, double *hi);
 /* Framewise displacement per volume against time, with the threshold line. */
 void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double threshold);
 /* A horizontal colour bar for viridis from lo to hi with labelled ticks. */
@@ -92,6 +116,10 @@ typedef struct rsub {
 	char *study_file;        /* as the run record names it, NULL when absent */
 	int ok;                  /* page written */
 } rsub;
+
+struct table;
+/* A CSV as an HTML table with the given id; the columns in first (NULL-terminated) lead. */
+void table_html(sbuf *b, const struct table *t, const char *id, const char *const *first);
 
 /* Writes OUT/sub-<label>/report.html and fills s. Problems go to e (returns nonzero). */
 sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e);

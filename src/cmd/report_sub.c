@@ -918,6 +918,24 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		    "halves (for leave-one-out: the mean over all pairs of folds).</p>\n<p class=\"note\" id=\"overlap-rule\">"
 		    "<b>Overlap flag:</b> " QC_OVERLAP_RULE "</p>\n");
 	overlap(&pg, s, &b);
+	{
+		static const char *const lead[] = { "localizer", "parcel", "split", "t_correlation", "dice", "n_above",
+						    "n_voxels", "froi_voxels", NULL };
+		table rt;
+		char rpath[8192];
+
+		sb_puts(&b, "<h2 id=\"reliability-h\">Reliability of the fROIs</h2>\n<p class=\"note\">" RELIABILITY_NOTE
+			    " From reliability.csv.</p>\n");
+		snprintf(rpath, sizeof rpath, "%s/sub-%s/reliability.csv", out, label);
+		if (table_read(rpath, ',', &rt, NULL) == SR_OK) {
+			sb_puts(&b, "<div class=\"wide\">");
+			table_html(&b, &rt, "reliability", lead);
+			sb_puts(&b, "</div>\n");
+			table_release(&rt);
+		} else {
+			sb_puts(&b, "<p class=\"note\">No reliability.csv for this subject (analyze it again).</p>\n");
+		}
+	}
 	sb_puts(&b, "<h2 id=\"frois\">fROIs on the mean functional image</h2>\n");
 	if (!pg.bold)
 		sb_puts(&b, "<p class=\"note\">The mean image (func/*_boldref.nii.gz) is missing: slices drawn on a gray field.</p>\n");

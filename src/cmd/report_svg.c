@@ -1,8 +1,10 @@
 /* report_svg.c - the report's charts as inline SVG: bars with dots, FD traces, colour bar, design. */
 #include <math.h>
 #include <stdio.h>
+#include <stdlib.h>
 #include <string.h>
 
+#include "../core/mem.h"
 #include "../core/qc.h"
 #include "report.h"
 
@@ -334,5 +336,121 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 	sb_printf(b, "<text class=\"axis\" x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 		  (left + w - right) / 2, y + 32, have_tr ? "time (s)" : "volume");
 #undef XPIX
+	sb_puts(b, "</svg>\n");
+}
+
+/* The path of one curve (gaps at NaN). */
+static void curve_path(sbuf *b, const double *y, size_t nb, const double *time, double tx0, double tx1,
+		       double x0, double x1, double lo, double hi, double top, double bottom)
+{
+	size_t i;
+	int pen = 0;
+
+	for (i = 0; i < nb; i++) {
+		double x, yy;
+
+		if (!isfinite(y[i])) {
+			pen = 0;
+			continue;
+		}
+		x = x0 + (time[i] - tx0) / (tx1 > tx0 ? tx1 - tx0 : 1) * (x1 - x0);
+		yy = bottom - (y[i] - lo) / (hi - lo) * (bottom - top);
+		sb_printf(b, "%s%.1f %.1f", pen ? " L" : " M", x, yy);
+		pen = 1;
+	}
+}
+
+void rs_curves_range(const rs_curve *c, size_t nc, size_t nb, double *lo, double *hi)
+{
+	size_t k, i, s;
+
+	for (k = 0; k < nc; k++)
+		for (i = 0; i < nb; i++) {
+			double m = c[k].mean[i], e = isfinite(c[k].sem[i]) ? c[k].sem[i] : 0;
+
+			if (isfinite(m)) {
+				*lo = fmin(*lo, m - e);
+				*hi = fmax(*hi, m + e);
+			}
+			for (s = 0; s < c[k].nsubj; s++)
+				if (isfinite(c[k].subj[s * nb + i])) {
+					*lo = fmin(*lo, c[k].subj[s * nb + i]);
+					*hi = fmax(*hi, c[k].subj[s * nb + i]);
+				}
+		}
+}
+
+void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb, const rs_curve *c,
+	       size_t nc, double ylo, double yhi)
+{
+	static const char *const hue[] = { "#8a3b12", "#2f4a63", "#4b5a1e", "#6b3d7a", "#39424e" };
+	static const char *const dash[] = { "", "6 3", "2 3", "8 3 2 3", "1 1" };
+	const double left = 62, right = 130, top = 30, bottom = 50, w = 460, h = 240;
+	double lo = 0, hi = 0, tlo, thi, tx0 = nb ? time[0] : 0, tx1 = nb ? time[nb - 1] : 1;
+	size_t k, i, s;
+
+	rs_curves_range(c, nc, nb, &lo, &hi);
+	if (isfinite(ylo))
+		lo = fmin(lo, ylo);
+	if (isfinite(yhi))
+		hi = fmax(hi, yhi);
+	if (hi - lo < 1e-9)
+		hi = lo + 1;
+	sb_printf(b, "<svg class=\"chart\" id=\"tc%d\" xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" "
+		  "viewBox=\"0 0 %.0f %.0f\" role=\"img\"><title>", id, w, h, w, h);
+	sb_esc(b, title);
+	sb_printf(b, "</title><text x=\"%.0f\" y=\"18\" font-size=\"13\" font-weight=\"bold\">", left);
+	sb_esc(b, title);
+	sb_puts(b, "</text>\n");
+	yaxis(b, lo, hi, left, w - right, top, h - bottom, "percent signal change", &tlo, &thi, NULL);
+	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>\n", left,
+		  h - bottom, w - right, h - bottom);
+	for (i = 0; i < nb; i++) {
+		double x = left + (time[i] - tx0) / (tx1 > tx0 ? tx1 - tx0 : 1) * (w - right - left);
+		char t[32];
+
+		qc_format(time[i], time[i] == floor(time[i]) ? 0 : 1, t, sizeof t);
+		sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>", x,
+			  h - bottom + 15, t);
+	}
+	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">time after onset (s)</text>\n",
+		  (left + w - right) / 2, h - bottom + 32);
+	for (k = 0; k < nc; k++) {
+		const char *col = hue[k % 5];
+		double *up = xmalloc_array(nb ? nb : 1, sizeof *up), *dn = xmalloc_array(nb ? nb : 1, sizeof *dn);
+
+		for (s = 0; s < c[k].nsubj; s++) {
+			sb_printf(b, "<path class=\"subject\" fill=\"none\" stroke=\"%s\" stroke-width=\"0.8\" stroke-opacity=\"0.35\" d=\"", col);
+			curve_path(b, c[k].subj + s * nb, nb, time, tx0, tx1, left, w - right, tlo, thi, top, h - bottom);
+			sb_puts(b, "\"/>\n");
+		}
+		/* the band: up the upper edge, back along the lower one (bins with a mean and a sem) */
+		for (i = 0; i < nb; i++) {
+			int have = isfinite(c[k].mean[i]) && isfinite(c[k].sem[i]);
+
+			up[i] = have ? c[k].mean[i] + c[k].sem[i] : NAN;
+			dn[i] = have ? c[k].mean[i] - c[k].sem[i] : NAN;
+		}
+		sb_printf(b, "<path class=\"band\" fill=\"%s\" fill-opacity=\"0.18\" stroke=\"none\" d=\"", col);
+		curve_path(b, up, nb, time, tx0, tx1, left, w - right, tlo, thi, top, h - bottom);
+		for (i = nb; i-- > 0;)
+			if (isfinite(dn[i]))
+				sb_printf(b, " L%.1f %.1f",
+					  left + (time[i] - tx0) / (tx1 > tx0 ? tx1 - tx0 : 1) * (w - right - left),
+					  h - bottom - (dn[i] - tlo) / (thi - tlo) * (h - bottom - top));
+		sb_puts(b, " Z\"/>\n");
+		sb_printf(b, "<path class=\"mean\" fill=\"none\" stroke=\"%s\" stroke-width=\"2.4\"%s%s%s d=\"", col,
+			  dash[k % 5][0] ? " stroke-dasharray=\"" : "", dash[k % 5], dash[k % 5][0] ? "\"" : "");
+		curve_path(b, c[k].mean, nb, time, tx0, tx1, left, w - right, tlo, thi, top, h - bottom);
+		sb_puts(b, "\"/>\n");
+		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"2.4\"%s%s%s/>"
+			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\">", w - right + 10, top + 10 + 18.0 * k,
+			  w - right + 34, top + 10 + 18.0 * k, col, dash[k % 5][0] ? " stroke-dasharray=\"" : "",
+			  dash[k % 5], dash[k % 5][0] ? "\"" : "", w - right + 38, top + 14 + 18.0 * k);
+		sb_esc(b, c[k].label);
+		sb_puts(b, "</text>\n");
+		free(up);
+		free(dn);
+	}
 	sb_puts(b, "</svg>\n");
 }

@@ -28,6 +28,9 @@ typedef struct vol_queue {
 	int T;
 	size_t nvox;
 	double *slot[QUEUE_SLOTS];
+	const size_t *keep;    /* voxels copied into series as volumes are fitted */
+	size_t nkeep;
+	double *series;
 	int head, count, stop, failed;
 	sr_err err;
 	pthread_mutex_t mu;
@@ -97,6 +100,8 @@ static sr_status stream_fit(vol_queue *q, glm_acc *acc, sr_err *e)
 			break;
 		}
 		pthread_mutex_unlock(&q->mu);
+		for (size_t i2 = 0; i2 < q->nkeep; i2++)
+			q->series[(size_t)k * q->nkeep + i2] = q->slot[q->head][q->keep[i2]];
 		st = glm_acc_add(acc, q->slot[q->head], e);
 		pthread_mutex_lock(&q->mu);
 		q->head = (q->head + 1) % QUEUE_SLOTS;
@@ -422,6 +427,18 @@ sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_resul
 	q.s = s;
 	q.T = T;
 	q.nvox = nvox;
+	if (spec->keep && spec->nkeep) {
+		for (size_t i2 = 0; i2 < spec->nkeep; i2++)
+			if (spec->keep[i2] >= nvox) {
+				st = sr_fail(e, SR_EINVAL, "%s: a kept voxel lies outside the run's grid", spec->bold);
+				goto out;
+			}
+		res->series = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series);
+		res->nkeep = spec->nkeep;
+		q.keep = spec->keep;
+		q.nkeep = spec->nkeep;
+		q.series = res->series;
+	}
 	st = stream_fit(&q, acc, e);
 	if (st != SR_OK)
 		goto out;
@@ -442,7 +459,12 @@ out:
 	smooth_plan_free(q.sm);
 	glm_acc_free(acc);
 	glm_model_free(m);
-	free(ev);
+	if (st == SR_OK) {
+		res->ev = ev;   /* the time courses build their own columns from the same events */
+		res->nev = nev;
+	} else {
+		free(ev);
+	}
 	free(conf);
 	free(Cp);
 	if (st != SR_OK)
@@ -529,6 +551,11 @@ void runfit_result_release(runfit_result *r)
 			free(*p);
 	free(r->conf_names);
 	free(r->censored);
+	free(r->series);
+	free(r->ev);
 	r->conf_names = NULL;
 	r->censored = NULL;
+	r->series = NULL;
+	r->ev = NULL;
+	r->nkeep = r->nev = 0;
 }

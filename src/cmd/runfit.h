@@ -32,6 +32,8 @@ typedef struct runfit_spec {
 	int ncon;
 	const unsigned char *mask;     /* nvox, optional brain mask on the data grid */
 	double smoothing_fwhm;         /* mm; 0 = no smoothing (METHODS.md section 2b) */
+	const size_t *keep;            /* nkeep voxels whose series are kept (res->series), or NULL */
+	size_t nkeep;
 } runfit_spec;
 
 typedef struct runfit_result {
@@ -44,6 +46,11 @@ typedef struct runfit_result {
 	int *censored;                 /* their volume indices in the stored run (0-based) */
 	int nearly_events;             /* events wholly before the first kept volume, dropped */
 	size_t nnonfinite;             /* voxels (in the mask) with a NaN or infinite value, left out */
+	double *series;                /* T x nkeep (volume k at k * nkeep): the kept voxels' values as fitted
+					  (after skipping and smoothing, before scaling), or NULL */
+	size_t nkeep;
+	design_event *ev;              /* the events the design used (onsets shifted by skip_volumes) */
+	size_t nev;
 } runfit_result;
 
 /*

@@ -10,6 +10,7 @@
 #include <sys/stat.h>
 #include <time.h>
 
+#include "../core/fir.h"
 #include "../core/mem.h"
 #include "../core/resample.h"
 #include "../core/roi.h"
@@ -28,8 +29,8 @@
 #include "runfit.h"
 
 const char *const subject_columns[] = {
-	"subject", "parcel", "split", "split_kind", "part", "define_runs", "measure_task",
-	"measure_runs", "effect", "value", "n_voxels", "n_candidates",
+	"subject", "localizer", "parcel", "split", "split_kind", "part", "define_runs",
+	"measure_task", "measure_runs", "effect", "value", "n_voxels", "n_candidates",
 };
 const size_t subject_ncolumns = sizeof subject_columns / sizeof subject_columns[0];
 
@@ -246,7 +247,7 @@ fail:
 
 /* ---- rows ---- */
 
-static void add_row(subject_result *r, const char *parcel, const char *split, const char *def,
+static void add_row(subject_result *r, const char *loc, const char *parcel, const char *split, const char *def,
 		    const char *task, const char *meas, const char *effect, double value,
 		    double nvox, double ncand)
 {
@@ -257,6 +258,7 @@ static void add_row(subject_result *r, const char *parcel, const char *split, co
 		r->rows = xrealloc(r->rows, r->cap * sizeof *r->rows);
 	}
 	w = &r->rows[r->nrows++];
+	w->localizer = xstrdup(loc);
 	w->parcel = xstrdup(parcel);
 	w->split = xstrdup(split);
 	w->define_runs = xstrdup(def);
@@ -275,6 +277,7 @@ void subject_result_release(subject_result *r)
 	if (!r)
 		return;
 	for (i = 0; i < r->nrows; i++) {
+		free(r->rows[i].localizer);
 		free(r->rows[i].parcel);
 		free(r->rows[i].split);
 		free(r->rows[i].define_runs);
@@ -284,6 +287,8 @@ void subject_result_release(subject_result *r)
 	}
 	free(r->rows);
 	free(r->leftout);
+	reliab_table_release(&r->rel);
+	tc_table_release(&r->tc);
 	memset(r, 0, sizeof *r);
 }
 
@@ -305,6 +310,7 @@ sr_status subject_write_rows(const char *path, const char *subject, const respon
 
 		bidsname_split_parts(w->split, kind, sizeof kind, part, sizeof part);
 		csvout_str(&c, pid);
+		csvout_str(&c, w->localizer);
 		csvout_str(&c, w->parcel);
 		csvout_str(&c, w->split);
 		csvout_str(&c, kind);
@@ -724,6 +730,134 @@ static sr_status write_maps(const char *dir, const study *st, const char *label,
 	return mapout_split(dir, &m, g, nvox, f->t, f->froi, ps->n, ps->index, ps->name, e);
 }
 
+/*
+ * The voxels whose series the fit keeps for the time courses: every parcel
+ * voxel on the data grid g (the parcels resampled when the study says so).
+ * *pos (nvox) gets each voxel's place in the list, -1 elsewhere.
+ */
+static size_t *keep_voxels(const study *st, const parcel_set *ps, const nii_grid *g, size_t *nkeep,
+			   int32_t **pos)
+{
+	size_t nvox = nii_nvox(g), v, n = 0;
+	int32_t *lab = NULL;
+	const int32_t *use = NULL;
+	size_t *keep;
+	char buf[256];
+
+	*pos = xmalloc_array(nvox ? nvox : 1, sizeof **pos);
+	for (v = 0; v < nvox; v++)
+		(*pos)[v] = -1;
+	if (nii_same_grid(g, &ps->grid, 1e-3, buf, sizeof buf)) {
+		use = ps->labels;
+	} else if (st->resample_parcels) {
+		int64_t sn[3] = { ps->grid.nx, ps->grid.ny, ps->grid.nz };
+		int64_t tn[3] = { g->nx, g->ny, g->nz };
+
+		lab = xmalloc_array(nvox ? nvox : 1, sizeof *lab);
+		if (resample_nearest(ps->labels, sn, ps->grid.affine, lab, tn, g->affine) == 0)
+			use = lab;
+	}
+	keep = xmalloc_array(nvox ? nvox : 1, sizeof *keep);
+	for (v = 0; use && v < nvox; v++)
+		if (use[v] != 0 && n < INT32_MAX) {
+			(*pos)[v] = (int32_t)n;
+			keep[n++] = v;
+		}
+	free(lab);
+	*nkeep = n;
+	return keep;
+}
+
+/* The conditions of t named by effects first..ne-1 (weight non-zero), as flags over t's conditions. */
+static unsigned char *tc_conditions(const task_fit *t, int first)
+{
+	unsigned char *use = xcalloc((size_t)(t->ncond ? t->ncond : 1), 1);
+	int j, c;
+
+	for (j = first; j < t->ne; j++)
+		for (c = 0; c < t->ncond; c++)
+			if (t->C[(size_t)j * (size_t)t->ncond + (size_t)c] != 0)
+				use[c] = 1;
+	return use;
+}
+
+/* FIR time courses of every parcel's fROI f over runs mpos of t: out[p][c][b] (np * ncond * nbins). */
+static void tc_split(const study *st, const task_fit *t, const int *mpos, int nm, const froi_set *f,
+		     int np, const int32_t *pos, int nbins, double *out, sr_err *e)
+{
+	const runfit_result **runs = xmalloc_array((size_t)(nm ? nm : 1), sizeof *runs);
+	double *tr = xmalloc_array((size_t)(nm ? nm : 1), sizeof *tr);
+	size_t per = (size_t)t->ncond * (size_t)nbins;
+	int i;
+
+	for (i = 0; i < nm; i++) {
+		runs[i] = &t->res[mpos[i]];
+		tr[i] = t->tr[mpos[i]];
+		if (fabs(tr[i] - tr[0]) > 1e-6) {
+			/* bins of one TR: runs of other TRs would mix bin widths */
+			sr_warnf(e, "%s: TR %g s differs from %g s of %s; the time courses of task '%s' over these runs are left empty",
+				 t->runs[mpos[i]].bold, tr[i], tr[0], t->runs[mpos[0]].bold, t->task);
+			for (size_t j = 0; j < (size_t)np * per; j++)
+				out[j] = NAN;
+			free(runs);
+			free(tr);
+			return;
+		}
+	}
+	for (i = 0; i < nm; i++) {
+		int cols = t->ncond * nbins + runs[i]->d.p - runs[i]->d.ncond;
+
+		if (runs[i]->d.T <= cols) {
+			/* said once per split here, rather than once per parcel by the fit */
+			sr_warnf(e, "%s: %d volumes cannot fit the %d columns of the time-course model (timecourse_window = %g s); the time courses of task '%s' over these runs are left empty",
+				 t->runs[mpos[i]].bold, runs[i]->d.T, cols, st->timecourse_window, t->task);
+			for (size_t j = 0; j < (size_t)np * per; j++)
+				out[j] = NAN;
+			free(runs);
+			free(tr);
+			return;
+		}
+	}
+	tc_frois(runs, tr, nm, f->chosen, f->start, f->count, np, pos, t->ncond, nbins, st->volume_time,
+		 out, e);
+	free(runs);
+	free(tr);
+}
+
+/* Adds the rows of one split's time courses (tc_split's out) for the conditions flagged in use. */
+static void tc_rows(subject_result *res, const char *loc, const parcel_set *ps, const char *sname,
+		    const task_fit *t, const unsigned char *use, int nbins, double tr, const double *v)
+{
+	int p, c, b;
+
+	for (p = 0; p < ps->n; p++)
+		for (c = 0; c < t->ncond; c++) {
+			if (!use[c])
+				continue;
+			for (b = 0; b < nbins; b++)
+				tc_table_add(&res->tc, loc, ps->name[p], sname, t->task, t->conds[c], b * tr,
+					     v[((size_t)p * (size_t)t->ncond + (size_t)c) * (size_t)nbins + (size_t)b]);
+		}
+}
+
+/*
+ * Copies a split's define t, rounded to float32 as the map file holds it (so
+ * reliability.csv can be recomputed from the maps), and its fROI labels.
+ */
+static void keep_split(const froi_set *f, size_t nvox, double **t, int32_t **froi)
+{
+	size_t v;
+
+	*t = xmalloc_array(nvox ? nvox : 1, sizeof **t);
+	*froi = xmalloc_array(nvox ? nvox : 1, sizeof **froi);
+	for (v = 0; v < nvox; v++) {
+		float x = isfinite(f->t[v]) ? (float)f->t[v] : NAN;
+
+		(*t)[v] = isfinite(x) ? (double)x : NAN;
+	}
+	memcpy(*froi, f->froi, nvox * sizeof **froi);
+}
+
 static double now_seconds(void)
 {
 	struct timespec ts;
@@ -904,6 +1038,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	split *splits = NULL;
 	int nsplits = 0, s, p, j;
 	jdoc *rec = NULL;
+	size_t *keep = NULL, nkeep = 0;
+	int32_t *keep_pos = NULL;
 
 	memset(res, 0, sizeof *res);
 	clock_gettime(CLOCK_REALTIME, &started);
@@ -932,6 +1068,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	snprintf(path, sizeof path, "%s/run.json", dir);
 	remove(path);
 	snprintf(path, sizeof path, "%s/responses.csv", dir);
+	remove(path);
+	snprintf(path, sizeof path, "%s/reliability.csv", dir);
+	remove(path);
+	snprintf(path, sizeof path, "%s/timecourses.csv", dir);
 	remove(path);
 	memset(&own_ps, 0, sizeof own_ps);
 	if (!ps) {
@@ -969,7 +1109,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
 		goto out;
 	}
-	/* fit every run of every task once, in parallel */
+	/* fit every run of every task once, in parallel; the parcels' series are kept for the time courses */
+	keep = keep_voxels(st, ps, &tasks[0].grid[0], &nkeep, &keep_pos);
 	specs = xcalloc(nruns_all, sizeof *specs);
 	results = xcalloc(nruns_all, sizeof *results);
 	errs = xcalloc(nruns_all, sizeof *errs);
@@ -979,6 +1120,10 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		for (i = 0; i < ntasks; i++) {
 			task_specs(st, &tasks[i], mask_owned ? mask_owned : ctx->mask, specs + at);
 			at += tasks[i].nruns;
+		}
+		for (i = 0; i < nruns_all; i++) {
+			specs[i].keep = keep;
+			specs[i].nkeep = nkeep;
 		}
 	}
 	for (i = 0; i < nruns_all; i++)
@@ -1128,6 +1273,16 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		double *nc = xcalloc(cells, sizeof *nc);
 		double *E = xmalloc_array(nvox, sizeof *E);
 		char def[1024], meas[1024], all[1024], mdef[4096] = "", mmeas[4096] = "";
+		/* per split, for reliability.csv: the define t as written (float32) and the fROI */
+		size_t nsk = (size_t)(nsplits ? nsplits : 1);
+		double **keep_t = xcalloc(nsk, sizeof *keep_t);
+		int32_t **keep_f = xcalloc(nsk, sizeof *keep_f);
+		char **keep_name = xcalloc(nsk, sizeof *keep_name), **keep_def = xcalloc(nsk, sizeof *keep_def);
+		/* per split, parcel, condition and bin: the time courses, for the :mean rows */
+		int tcb = fir_nbins(st->timecourse_window, loc->tr[0]);
+		size_t tcper = (size_t)(ps->n ? ps->n : 1) * (size_t)(loc->ncond ? loc->ncond : 1) * (size_t)tcb;
+		double *tcv = xcalloc(nsk * tcper, sizeof *tcv);
+		unsigned char *tcuse = tc_conditions(loc, 1);
 
 		all_runs_list(loc, all, sizeof all);
 		for (s = 0; s < nsplits; s++) {
@@ -1136,6 +1291,13 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			define_frois(st, loc, splits[s].def, splits[s].ndef, splits[s].meas, splits[s].nmeas,
 				     NULL, labels, ps, nvox, &f);
 			run_list(loc, splits[s].def, splits[s].ndef, def, sizeof def);
+			keep_split(&f, nvox, &keep_t[s], &keep_f[s]);
+			keep_name[s] = xstrdup(splits[s].name);
+			keep_def[s] = xstrdup(def);
+			tc_split(st, loc, splits[s].meas, splits[s].nmeas, &f, ps->n, keep_pos, tcb,
+				 tcv + (size_t)s * tcper, e);
+			tc_rows(res, st->loc_task, ps, splits[s].name, loc, tcuse, tcb, loc->tr[0],
+				tcv + (size_t)s * tcper);
 			run_list(loc, splits[s].meas, splits[s].nmeas, meas, sizeof meas);
 			/* the :mean rows name what they average: the splits' run lists joined by '|' */
 			snprintf(mdef + strlen(mdef), sizeof mdef - strlen(mdef), "%s%s", s ? "|" : "", def);
@@ -1164,7 +1326,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				for (j = 1; j < ne; j++) {
 					size_t cell = ((size_t)s * (size_t)ps->n + (size_t)p) * (size_t)ne + (size_t)j;
 
-					add_row(res, ps->name[p], splits[s].name, def, loc->task, meas,
+					add_row(res, st->loc_task, ps->name[p], splits[s].name, def, loc->task, meas,
 						loc->effects[j].text, val[cell], nv[cell], nc[cell]);
 				}
 			}
@@ -1191,11 +1353,45 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 						sn += nv[cell];
 						sc += nc[cell];
 					}
-					add_row(res, ps->name[p], kind, mdef, loc->task, mmeas, loc->effects[j].text,
+					add_row(res, st->loc_task, ps->name[p], kind, mdef, loc->task, mmeas, loc->effects[j].text,
 						bad ? NAN : sv / nsplits, sn / nsplits, sc / nsplits);
 				}
 			}
 		}
+		if (!rc && nsplits > 0) {
+			/* the :mean time course: the splits' mean, empty where any split's is */
+			double *mv = xmalloc_array(tcper, sizeof *mv);
+
+			for (size_t q = 0; q < tcper; q++) {
+				double sv = 0;
+
+				for (s = 0; s < nsplits; s++)
+					sv += tcv[(size_t)s * tcper + q];
+				mv[q] = sv / nsplits;   /* NaN when any split's is */
+			}
+			tc_rows(res, st->loc_task, ps,
+				st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean", loc, tcuse, tcb,
+				loc->tr[0], mv);
+			free(mv);
+		}
+		free(tcv);
+		free(tcuse);
+		if (!rc && nsplits > 0)
+			reliab_add_splits(&res->rel, st->loc_task, (const char *const *)keep_name,
+					  (const char *const *)keep_def,
+					  st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean", mdef,
+					  (const double *const *)keep_t, (const int32_t *const *)keep_f,
+					  (size_t)nsplits, labels, nvox, ps->index, ps->name, ps->n, lost);
+		for (s = 0; s < nsplits; s++) {
+			free(keep_t[s]);
+			free(keep_f[s]);
+			free(keep_name[s]);
+			free(keep_def[s]);
+		}
+		free(keep_t);
+		free(keep_f);
+		free(keep_name);
+		free(keep_def);
 		/* measured tasks: fROIs from all localizer runs (and a map of that definition) */
 		for (i = 1; !rc && i < ntasks; i++) {
 			const task_fit *mt = &tasks[i];
@@ -1218,9 +1414,20 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			for (j = 0; j < mt->ne; j++) {
 				ffx_map(mt, mpos, (int)mt->nruns, j, nvox, E, NULL);
 				for (p = 0; p < ps->n; p++)
-					add_row(res, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
+					add_row(res, st->loc_task, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
 						mt->missing[j] ? NAN : froi_mean(&f, p, E), (double)f.count[p],
 						(double)f.ncand[p]);
+			}
+			{
+				int nb = fir_nbins(st->timecourse_window, mt->tr[0]);
+				double *tv = xmalloc_array((size_t)(ps->n ? ps->n : 1) * (size_t)(mt->ncond ? mt->ncond : 1) *
+							   (size_t)nb, sizeof *tv);
+				unsigned char *use = tc_conditions(mt, 0);
+
+				tc_split(st, mt, mpos, (int)mt->nruns, &f, ps->n, keep_pos, nb, tv, e);
+				tc_rows(res, st->loc_task, ps, "all", mt, use, nb, mt->tr[0], tv);
+				free(tv);
+				free(use);
 			}
 			rc = write_maps(dir, st, label, loc, "all", mt->task, all, meas,
 					ffx_df(loc, lpos, (int)loc->nruns), &grid, nvox, ps, &f, e);
@@ -1241,6 +1448,14 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		goto out;
 	snprintf(path, sizeof path, "%s/responses.csv", dir);
 	rc = subject_write_rows(path, label, res->rows, res->nrows, e);
+	if (rc)
+		goto out;
+	snprintf(path, sizeof path, "%s/reliability.csv", dir);
+	rc = reliab_table_write(path, label, &res->rel, e);
+	if (rc)
+		goto out;
+	snprintf(path, sizeof path, "%s/timecourses.csv", dir);
+	rc = tc_table_write(path, label, &res->tc, e);
 	if (rc)
 		goto out;
 	res->seconds = now_seconds() - t0;
@@ -1296,6 +1511,8 @@ out:
 	free(tasks);
 	free(loc_effects);
 	free(labels_owned);
+	free(keep);
+	free(keep_pos);
 	free(lost);
 	parcel_set_release(&own_ps);
 	free(own_image);
@@ -1307,6 +1524,10 @@ out:
 		snprintf(path, sizeof path, "%s/run.json", dir);
 		remove(path);
 		snprintf(path, sizeof path, "%s/responses.csv", dir);
+		remove(path);
+		snprintf(path, sizeof path, "%s/reliability.csv", dir);
+		remove(path);
+		snprintf(path, sizeof path, "%s/timecourses.csv", dir);
 		remove(path);
 	}
 	return rc;

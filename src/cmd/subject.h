@@ -8,6 +8,8 @@
 #include "../core/err.h"
 #include "../io/nii.h"
 #include "../io/study.h"
+#include "reliability.h"
+#include "timecourse.h"
 
 /* The study's parcels as read from file, with their names. Read once, shared read-only. */
 typedef struct parcel_set {
@@ -21,6 +23,7 @@ typedef struct parcel_set {
 
 /* One row of responses.csv (METHODS.md section 10). */
 typedef struct response_row {
+	char *localizer;      /* the localizer whose fROIs these are (the task label of an unnamed [localizer]) */
 	char *parcel, *split, *define_runs, *measure_task, *measure_runs, *effect;
 	double value;         /* NaN = empty */
 	double n_voxels;      /* whole for single splits, a mean for ":mean" rows */
@@ -35,6 +38,8 @@ typedef struct subject_result {
 	double seconds;
 	struct leftout_run *leftout;   /* per run fitted: voxels each rule left out (leftout.h) */
 	size_t nleftout;
+	reliab_table rel;              /* reliability.csv rows */
+	tc_table tc;                   /* timecourses.csv rows */
 } subject_result;
 
 /* Progress callback: stage text such as "fitting 3 runs". */

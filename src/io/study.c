@@ -368,7 +368,7 @@ static const char *const keys_localizer[] = { "task", "contrast", "split", "effe
 static const char *const keys_parcels[] = { "image", "names", "top_percent", "top_voxels",
 					    "min_t", "resample" };
 static const char *const keys_model[] = { "autocorrelation", "drift_cutoff", "volume_time",
-					  "smoothing_fwhm",
+					  "smoothing_fwhm", "timecourse_window",
 					  "confounds", "confounds_suffix", "motion",
 					  "motion_units", "fd_threshold", "skip_volumes", "censor_fd" };
 static const char *const keys_measure[] = { "task", "effects" };
@@ -1030,6 +1030,16 @@ static void load_model(struct loader *ld, study *s)
 			s->smoothing_fwhm = v;
 		else
 			prob(ld, e->line, "smoothing_fwhm: '%s' is not a FWHM in mm (a number from 0 to 1000) or none",
+			     e->value);
+	}
+	s->timecourse_window = 20;
+	e = get(ld, "model", "timecourse_window");
+	if (e) {
+		/* bins of one TR from 0 s; beyond two minutes an event-related window is surely a mistake */
+		if (parse_number(e->value, &v) && v > 0 && v <= 120)
+			s->timecourse_window = v;
+		else
+			prob(ld, e->line, "timecourse_window: '%s' is not a number of seconds in (0, 120]",
 			     e->value);
 	}
 	s->confounds = name_list(ld, get(ld, "model", "confounds"), &s->nconfounds);

@@ -47,6 +47,7 @@ typedef struct study {
 	double drift_cutoff;              /* seconds; 0 = none */
 	double volume_time;
 	double smoothing_fwhm;            /* mm, METHODS.md section 2b; 0 = none */
+	double timecourse_window;         /* seconds after onset of the response time courses (FIR) */
 	char **confounds;
 	size_t nconfounds;
 	char *confounds_suffix;
@@ -109,6 +110,7 @@ char *study_text_get(const char *text, const char *section, const char *key);
  * Defaults: subjects all, split odd-even, effects = the contrast's conditions
  * then the contrast, condition_column trial_type, top_percent 10, resample
  * no, autocorrelation ar1-adjusted, drift_cutoff 128, volume_time 0.5, smoothing_fwhm none,
+ * timecourse_window 20,
  * confounds_suffix _confounds.tsv, motion_units mm_rad, fd_threshold 0.5.
  * top_percent_text is NULL unless the selection is top_percent.
  */

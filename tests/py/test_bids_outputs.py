@@ -223,7 +223,7 @@ def check_tables(out, sim):
     report(d['value'].get('Units') == 'percent signal change', 'responses.json: value in percent signal change')
 
     resp = pd.read_csv(os.path.join(out, 'responses.csv'))
-    want = ['subject', 'parcel', 'split', 'split_kind', 'part', 'define_runs', 'measure_task',
+    want = ['subject', 'localizer', 'parcel', 'split', 'split_kind', 'part', 'define_runs', 'measure_task',
             'measure_runs', 'effect', 'value', 'n_voxels', 'n_candidates']
     report(list(resp.columns) == want, 'responses.csv columns: split_kind and part right after split', list(resp.columns))
     kind = resp.split.str.split(':').str[0]

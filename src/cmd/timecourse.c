@@ -1,0 +1,367 @@
+/* timecourse.c - FIR time courses of the fROIs and their tables (numerics in core/fir). */
+#include "timecourse.h"
+
+#include <math.h>
+#include <stdio.h>
+#include <stdlib.h>
+#include <string.h>
+#include <sys/stat.h>
+
+#include "../core/fir.h"
+#include "../core/mem.h"
+#include "../io/bidsname.h"
+#include "../io/csvout.h"
+#include "../io/table.h"
+#include "tabledict.h"
+
+const char *const tc_columns[] = {
+	"subject", "localizer", "parcel", "split", "split_kind", "part", "measure_task", "condition",
+	"time", "value",
+};
+const size_t tc_ncolumns = sizeof tc_columns / sizeof tc_columns[0];
+
+void tc_table_add(tc_table *tb, const char *localizer, const char *parcel, const char *split,
+		  const char *task, const char *condition, double time, double value)
+{
+	tc_row *w;
+
+	if (tb->n == tb->cap) {
+		tb->cap = tb->cap ? 2 * tb->cap : 256;
+		tb->rows = xrealloc(tb->rows, tb->cap * sizeof *tb->rows);
+	}
+	w = &tb->rows[tb->n++];
+	w->localizer = xstrdup(localizer);
+	w->parcel = xstrdup(parcel);
+	w->split = xstrdup(split);
+	w->task = xstrdup(task);
+	w->condition = xstrdup(condition);
+	w->time = time;
+	w->value = value;
+}
+
+void tc_table_release(tc_table *tb)
+{
+	size_t i;
+
+	if (!tb)
+		return;
+	for (i = 0; i < tb->n; i++) {
+		free(tb->rows[i].localizer);
+		free(tb->rows[i].parcel);
+		free(tb->rows[i].split);
+		free(tb->rows[i].task);
+		free(tb->rows[i].condition);
+	}
+	free(tb->rows);
+	memset(tb, 0, sizeof *tb);
+}
+
+sr_status tc_table_write(const char *path, const char *subject, const tc_table *tb, sr_err *e)
+{
+	csvout c;
+	size_t i;
+	char pid[512], kind[128], part[128];
+	sr_status rc = csvout_open(&c, path, tc_columns, tc_ncolumns, e);
+
+	if (rc)
+		return rc;
+	snprintf(pid, sizeof pid, "sub-%s", subject);   /* participant_id, as in responses.csv */
+	for (i = 0; i < tb->n; i++) {
+		const tc_row *w = &tb->rows[i];
+
+		bidsname_split_parts(w->split, kind, sizeof kind, part, sizeof part);
+		csvout_str(&c, pid);
+		csvout_str(&c, w->localizer);
+		csvout_str(&c, w->parcel);
+		csvout_str(&c, w->split);
+		csvout_str(&c, kind);
+		csvout_str(&c, part);
+		csvout_str(&c, w->task);
+		csvout_str(&c, w->condition);
+		csvout_num(&c, w->time);
+		csvout_num(&c, w->value);
+		csvout_endrow(&c);
+	}
+	rc = csvout_commit(&c, e);
+	return rc ? rc : tabledict_write(path, tc_columns, tc_ncolumns, NULL, 0, e);
+}
+
+/* The fROI's mean scaled series in one run; 0 when no voxel of it is analyzable there. */
+static int froi_series(const runfit_result *r, const size_t *vox, size_t nv, const int32_t *pos,
+		       double *y)
+{
+	int T = r->d.T, k;
+	size_t i, n = 0;
+
+	for (k = 0; k < T; k++)
+		y[k] = 0;
+	for (i = 0; i < nv; i++) {
+		size_t v = vox[i];
+		double m = r->out.mean[v];
+
+		if (pos[v] < 0 || !r->out.ok[v] || !(m > 0) || !isfinite(m))
+			continue;
+		for (k = 0; k < T; k++)
+			y[k] += 100.0 * r->series[(size_t)k * r->nkeep + (size_t)pos[v]] / m;
+		n++;
+	}
+	for (k = 0; k < T; k++)
+		y[k] /= (double)(n ? n : 1);
+	return n > 0;
+}
+
+void tc_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
+	      const size_t *start, const size_t *count, int nf, const int32_t *pos, int ncond,
+	      int nbins, double volume_time, double *out, sr_err *e)
+{
+	size_t per = (size_t)ncond * (size_t)nbins, nb = per * (size_t)(nf > 0 ? nf : 1), j;
+	double *sum = xcalloc(nb, sizeof *sum), *beta = xmalloc_array(nb, sizeof *beta);
+	int *cnt = xcalloc(nb, sizeof *cnt), i, f;
+
+	for (i = 0; i < nruns; i++) {
+		const runfit_result *r = run[i];
+		size_t T = (size_t)r->d.T;
+		double *y;
+		sr_err fe;
+
+		if (!r->series || !r->d.X || nf <= 0)
+			continue;
+		y = xmalloc_array(T * (size_t)nf, sizeof *y);
+		for (f = 0; f < nf; f++)
+			if (!froi_series(r, vox + start[f], count[f], pos, y + (size_t)f * T))
+				y[(size_t)f * T] = NAN;   /* no voxel here: fir_fit_many skips it */
+		sr_err_init(&fe, NULL, NULL);
+		if (fir_fit_many(r->d.T, tr[i], volume_time, r->ev, r->nev, ncond, nbins,
+				 r->d.X + T * (size_t)r->d.ncond, r->d.p - r->d.ncond, y, nf, beta, &fe) != SR_OK) {
+			sr_warnf(e, "time course: %s; the run is left out", fe.msg);
+		} else {
+			for (j = 0; j < nb; j++)
+				if (isfinite(beta[j])) {
+					sum[j] += beta[j];
+					cnt[j]++;
+				}
+		}
+		free(y);
+	}
+	for (j = 0; j < nb; j++)
+		out[j] = cnt[j] ? sum[j] / cnt[j] : NAN;
+	free(sum);
+	free(beta);
+	free(cnt);
+}
+
+/* ---- the group table ---- */
+
+typedef struct tkey {
+	char *localizer, *parcel, *split, *task, *condition, *time;
+	double *v;
+	size_t n;
+} tkey;
+
+typedef struct tkeys {
+	tkey *k;
+	size_t n, cap;
+	/* open addressing over the keys' joined text */
+	size_t *slot, nslot;
+} tkeys;
+
+static uint64_t hash_of(const char *const *f, int n)
+{
+	uint64_t h = 1469598103934665603ULL;
+	int i;
+
+	for (i = 0; i < n; i++) {
+		const char *s;
+
+		for (s = f[i]; *s; s++)
+			h = (h ^ (unsigned char)*s) * 1099511628211ULL;
+		h = (h ^ 0x1f) * 1099511628211ULL;
+	}
+	return h;
+}
+
+static int key_is(const tkey *k, const char *const *f)
+{
+	return !strcmp(k->localizer, f[0]) && !strcmp(k->parcel, f[1]) && !strcmp(k->split, f[2]) &&
+	       !strcmp(k->task, f[3]) && !strcmp(k->condition, f[4]) && !strcmp(k->time, f[5]);
+}
+
+static void rehash(tkeys *ks)
+{
+	size_t i;
+
+	free(ks->slot);
+	ks->nslot = ks->nslot ? 2 * ks->nslot : 1024;
+	ks->slot = xmalloc_array(ks->nslot, sizeof *ks->slot);
+	for (i = 0; i < ks->nslot; i++)
+		ks->slot[i] = (size_t)-1;
+	for (i = 0; i < ks->n; i++) {
+		const char *f[6] = { ks->k[i].localizer, ks->k[i].parcel, ks->k[i].split, ks->k[i].task,
+				     ks->k[i].condition, ks->k[i].time };
+		size_t h = (size_t)(hash_of(f, 6) % ks->nslot);
+
+		while (ks->slot[h] != (size_t)-1)
+			h = (h + 1) % ks->nslot;
+		ks->slot[h] = i;
+	}
+}
+
+static tkey *key_get(tkeys *ks, const char *const *f)
+{
+	size_t h;
+	tkey *k;
+
+	if (2 * (ks->n + 1) > ks->nslot)
+		rehash(ks);
+	h = (size_t)(hash_of(f, 6) % ks->nslot);
+	while (ks->slot[h] != (size_t)-1) {
+		if (key_is(&ks->k[ks->slot[h]], f))
+			return &ks->k[ks->slot[h]];
+		h = (h + 1) % ks->nslot;
+	}
+	if (ks->n == ks->cap) {
+		ks->cap = ks->cap ? 2 * ks->cap : 256;
+		ks->k = xrealloc(ks->k, ks->cap * sizeof *ks->k);
+	}
+	ks->slot[h] = ks->n;
+	k = &ks->k[ks->n++];
+	memset(k, 0, sizeof *k);
+	k->localizer = xstrdup(f[0]);
+	k->parcel = xstrdup(f[1]);
+	k->split = xstrdup(f[2]);
+	k->task = xstrdup(f[3]);
+	k->condition = xstrdup(f[4]);
+	k->time = xstrdup(f[5]);
+	return k;
+}
+
+static int summary_split(const char *s)
+{
+	size_t len = strlen(s);
+
+	return strcmp(s, "all") == 0 || (len >= 5 && strcmp(s + len - 5, ":mean") == 0);
+}
+
+static sr_status read_subject(const char *path, tkeys *ks, sr_err *e)
+{
+	static const char *const names[] = { "localizer", "parcel", "split", "measure_task", "condition",
+					     "time", "value" };
+	table t;
+	int col[7], m;
+	size_t r;
+	sr_status rc = table_read(path, ',', &t, e);
+
+	if (rc)
+		return rc;
+	for (m = 0; m < 7; m++)
+		if ((col[m] = table_col(&t, names[m])) < 0) {
+			rc = sr_fail(e, SR_EFORMAT, "%s: no column '%s'", path, names[m]);
+			table_release(&t);
+			return rc;
+		}
+	for (r = 0; r < t.nrows && !rc; r++) {
+		const char *f[6];
+		double x;
+		int na;
+		tkey *k;
+
+		for (m = 0; m < 6; m++)
+			f[m] = table_cell(&t, r, (size_t)col[m]);
+		if (!summary_split(f[2]))
+			continue;
+		rc = table_number(&t, r, (size_t)col[6], &x, &na, 1, e);
+		if (rc || !isfinite(x))
+			continue;
+		k = key_get(ks, f);
+		k->v = xrealloc(k->v, (k->n + 1) * sizeof *k->v);
+		k->v[k->n++] = x;
+	}
+	table_release(&t);
+	return rc;
+}
+
+static sr_status write_group(const char *path, const tkeys *ks, sr_err *e)
+{
+	static const char *const head[] = { "localizer", "parcel", "split", "split_kind", "part",
+					    "measure_task", "condition", "time", "n", "mean", "sem" };
+	csvout c;
+	size_t i, j;
+	char kind[128], part[128];
+	sr_status rc = csvout_open(&c, path, head, sizeof head / sizeof head[0], e);
+
+	if (rc)
+		return rc;
+	for (i = 0; i < ks->n; i++) {
+		const tkey *k = &ks->k[i];
+		double mean = 0, ss = 0;
+
+		for (j = 0; j < k->n; j++)
+			mean += k->v[j];
+		mean = k->n ? mean / (double)k->n : NAN;
+		for (j = 0; j < k->n; j++)
+			ss += (k->v[j] - mean) * (k->v[j] - mean);
+		bidsname_split_parts(k->split, kind, sizeof kind, part, sizeof part);
+		csvout_str(&c, k->localizer);
+		csvout_str(&c, k->parcel);
+		csvout_str(&c, k->split);
+		csvout_str(&c, kind);
+		csvout_str(&c, part);
+		csvout_str(&c, k->task);
+		csvout_str(&c, k->condition);
+		csvout_str(&c, k->time);
+		csvout_int(&c, (long long)k->n);
+		csvout_num(&c, mean);
+		csvout_num(&c, k->n > 1 ? sqrt(ss / (double)(k->n - 1)) / sqrt((double)k->n) : NAN);
+		csvout_endrow(&c);
+	}
+	rc = csvout_commit(&c, e);
+	return rc ? rc : tabledict_write(path, head, sizeof head / sizeof head[0], NULL, 0, e);
+}
+
+sr_status tc_group_write(const char *out, char *const *labels, size_t n, sr_err *e)
+{
+	tkeys ks;
+	size_t i, have = 0;
+	char path[4096 + 64];
+	struct stat sb;
+	sr_status rc = SR_OK;
+
+	memset(&ks, 0, sizeof ks);
+	for (i = 0; i < n; i++) {
+		snprintf(path, sizeof path, "%s/sub-%s/timecourses.csv", out, labels[i]);
+		have += stat(path, &sb) == 0;
+	}
+	if (have == 0) {
+		/* tables made by hand or by an older version: no summary, and none left from before */
+		snprintf(path, sizeof path, "%s/timecourses_group.json", out);
+		remove(path);
+		snprintf(path, sizeof path, "%s/timecourses_group.csv", out);
+		remove(path);
+		return SR_OK;
+	}
+	for (i = 0; i < n && !rc; i++) {
+		snprintf(path, sizeof path, "%s/sub-%s/timecourses.csv", out, labels[i]);
+		if (stat(path, &sb) != 0) {
+			sr_warnf(e, "sub-%s/timecourses.csv: no such file; the subject is left out of timecourses_group.csv",
+				 labels[i]);
+			continue;
+		}
+		rc = read_subject(path, &ks, e);
+	}
+	if (!rc) {
+		snprintf(path, sizeof path, "%s/timecourses_group.csv", out);
+		rc = write_group(path, &ks, e);
+	}
+	for (i = 0; i < ks.n; i++) {
+		free(ks.k[i].localizer);
+		free(ks.k[i].parcel);
+		free(ks.k[i].split);
+		free(ks.k[i].task);
+		free(ks.k[i].condition);
+		free(ks.k[i].time);
+		free(ks.k[i].v);
+	}
+	free(ks.k);
+	free(ks.slot);
+	return rc;
+}
