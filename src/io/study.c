@@ -371,7 +371,7 @@ static const char *const keys_model[] = { "autocorrelation", "drift_cutoff", "vo
 					  "smoothing_fwhm", "timecourse_window",
 					  "confounds", "confounds_suffix", "motion",
 					  "motion_units", "fd_threshold", "skip_volumes", "censor_fd" };
-static const char *const keys_measure[] = { "task", "effects" };
+static const char *const keys_measure[] = { "task", "effects", "localizers" };
 /* keys that were renamed (old, new): an old key is an error that names the new one */
 static const char *const keys_renamed[][2] = { { "slice_reference", "volume_time" } };
 
@@ -386,22 +386,30 @@ static const struct {
 	{ keys_measure, sizeof keys_measure / sizeof *keys_measure },
 };
 
-/* The kind of a section name; for "measure NAME" *name points at NAME (else NULL). */
+/*
+ * The kind of a section name; for "measure NAME", "localizer NAME" and
+ * "parcels NAME" *name points at NAME (else NULL).
+ */
 static enum sec_kind section_kind(const char *s, const char **name)
 {
+	static const enum sec_kind named[] = { SEC_LOCALIZER, SEC_PARCELS, SEC_MEASURE };
 	size_t i;
 
 	*name = NULL;
 	for (i = 0; i < SEC_MEASURE; i++)
 		if (strcmp(s, section_names[i]) == 0)
 			return (enum sec_kind)i;
-	if (strncmp(s, "measure", 7) == 0 && isspace((unsigned char)s[7])) {
-		const char *p = s + 7;
+	for (i = 0; i < sizeof named / sizeof *named; i++) {
+		size_t n = strlen(section_names[named[i]]);
 
-		while (isspace((unsigned char)*p))
-			p++;
-		*name = p;
-		return SEC_MEASURE;
+		if (strncmp(s, section_names[named[i]], n) == 0 && isspace((unsigned char)s[n])) {
+			const char *p = s + n;
+
+			while (isspace((unsigned char)*p))
+				p++;
+			*name = p;
+			return named[i];
+		}
 	}
 	return SEC_NONE;
 }
@@ -463,6 +471,11 @@ static void check_names(struct loader *ld)
 				prob(ld, ld->sec[i].line,
 				     "measure name '%s' may hold only letters, digits, '_', '-' and '.'",
 				     mname);
+		} else if ((k == SEC_LOCALIZER || k == SEC_PARCELS) && mname) {
+			if (!valid_label(mname))
+				prob(ld, ld->sec[i].line,
+				     "localizer name '%s' may hold only letters and digits (it goes into table cells and file names)",
+				     mname);
 		} else if (k == SEC_NONE) {
 			char word[64];
 			const char *near, *rest;
@@ -482,7 +495,7 @@ static void check_names(struct loader *ld)
 				     ld->sec[i].name, near);
 			else
 				prob(ld, ld->sec[i].line,
-				     "unknown section [%s] (sections: study, localizer, parcels, model, measure NAME)",
+				     "unknown section [%s] (sections: study, localizer [NAME], parcels [NAME], model, measure NAME)",
 				     ld->sec[i].name);
 		}
 	}
@@ -571,6 +584,14 @@ static size_t section_line(const struct loader *ld, const char *section)
 		if (strcmp(ld->sec[i].name, section) == 0)
 			return ld->sec[i].line;
 	return 0;
+}
+
+/* The line of section/key, else fallback. */
+static size_t study_line_of(const struct loader *ld, const char *section, const char *key, size_t fallback)
+{
+	const struct entry *e = get(ld, section, key);
+
+	return e ? e->line : fallback;
 }
 
 /* Reports a required key that is missing or empty. */
@@ -859,50 +880,52 @@ static void load_study(struct loader *ld, study *s)
 	}
 }
 
-static void load_localizer(struct loader *ld, study *s)
+/* One localizer section sec into L; its condition_column into *condcol (xmalloc'ed). */
+static void load_localizer(struct loader *ld, const char *sec, study_localizer *L, char **condcol)
 {
 	static const char *const splits[] = { "odd-even", "leave-one-out" };
 	const struct entry *e;
 	char msg[512];
 	int have_contrast = 0;
 
-	s->loc_task = task_key(ld, "localizer");
-	e = get(ld, "localizer", "contrast");
+	L->task = task_key(ld, sec);
+	e = get(ld, sec, "contrast");
 	if (!val(e)) {
-		missing(ld, "localizer", "contrast", "the localizer contrast, e.g. melody - scrambled");
-	} else if (expr_parse(e->value, &s->contrast, msg, sizeof msg) != 0) {
+		missing(ld, sec, "contrast", "the localizer contrast, e.g. melody - scrambled");
+	} else if (expr_parse(e->value, &L->contrast, msg, sizeof msg) != 0) {
 		prob(ld, e->line, "contrast: %s", msg);
 	} else {
 		have_contrast = 1;
 	}
-	s->split = (enum study_split)choice(ld, get(ld, "localizer", "split"), splits, 2,
+	L->split = (enum study_split)choice(ld, get(ld, sec, "split"), splits, 2,
 					    SPLIT_ODD_EVEN);
-	e = get(ld, "localizer", "condition_column");
+	e = get(ld, sec, "condition_column");
 	if (e && !val(e))
 		prob(ld, e->line, "condition_column is empty (the events column naming the condition)");
-	s->condition_column = xstrdup(val(e) ? e->value : "trial_type");
-	e = get(ld, "localizer", "effects");
+	*condcol = xstrdup(val(e) ? e->value : "trial_type");
+	e = get(ld, sec, "effects");
 	if (e && !val(e)) {
 		prob(ld, e->line, "effects is empty (leave the key out for the default)");
 	} else if (e) {
-		s->loc_effects = effects_key(ld, e, &s->nloc_effects);
+		L->effects = effects_key(ld, e, &L->neffects);
 	} else if (have_contrast) {
-		size_t i, n = s->contrast.nterms;
+		size_t i, n = L->contrast.nterms;
 		int same = 0;
 
-		s->loc_effects = xcalloc(n + 1, sizeof *s->loc_effects);
+		L->effects = xcalloc(n + 1, sizeof *L->effects);
 		for (i = 0; i < n; i++) {
-			term_expr(s->contrast.terms[i].name, &s->loc_effects[i]);
-			if (strcmp(s->loc_effects[i].text, s->contrast.text) == 0)
+			term_expr(L->contrast.terms[i].name, &L->effects[i]);
+			if (strcmp(L->effects[i].text, L->contrast.text) == 0)
 				same = 1;
 		}
 		if (!same)
-			expr_parse(s->contrast.text, &s->loc_effects[n++], msg, sizeof msg);
-		s->nloc_effects = n;
+			expr_parse(L->contrast.text, &L->effects[n++], msg, sizeof msg);
+		L->neffects = n;
 	}
 }
 
-static void load_parcels(struct loader *ld, study *s)
+/* One parcels section sec into L. */
+static void load_parcels(struct loader *ld, const char *sec, study_localizer *L)
 {
 	static const char *const resample[] = { "no", "nearest" };
 	const struct entry *e, *sel[3];
@@ -912,19 +935,19 @@ static void load_parcels(struct loader *ld, study *s)
 
 	int need = !(ld->flags & STUDY_PARCELS_OPTIONAL);
 
-	e = get(ld, "parcels", "image");
+	e = get(ld, sec, "image");
 	if (!val(e)) {
 		if (need)
-			missing(ld, "parcels", "image", "the parcel label image");
+			missing(ld, sec, "image", "the parcel label image");
 	} else {
 		/* with {subject}, each subject's file is checked when it is read */
-		s->parcels = path_key(ld, e, need && !study_per_subject(e->value) ? 1 : 0);
+		L->parcels = path_key(ld, e, need && !study_per_subject(e->value) ? 1 : 0);
 	}
-	e = get(ld, "parcels", "names");
-	s->parcel_names = path_key(ld, e, need && !(e && study_per_subject(e->value)) ? 1 : 0);
-	s->resample_parcels = choice(ld, get(ld, "parcels", "resample"), resample, 2, 0);
+	e = get(ld, sec, "names");
+	L->parcel_names = path_key(ld, e, need && !(e && study_per_subject(e->value)) ? 1 : 0);
+	L->resample_parcels = choice(ld, get(ld, sec, "resample"), resample, 2, 0);
 	for (i = 0; i < 3; i++) {
-		sel[i] = get(ld, "parcels", selkey[i]);
+		sel[i] = get(ld, sec, selkey[i]);
 		if (sel[i]) {
 			nsel++;
 			if (which < 0)
@@ -942,10 +965,10 @@ static void load_parcels(struct loader *ld, study *s)
 		prob(ld, sel[which]->line, "give only one of top_percent, top_voxels, min_t; found %s",
 		     where);
 	}
-	s->select = SELECT_TOP_PERCENT;
-	s->select_value = 10;
+	L->select = SELECT_TOP_PERCENT;
+	L->select_value = 10;
 	if (which < 0) {
-		s->top_percent_text = xstrdup("10");
+		L->top_percent_text = xstrdup("10");
 		return;
 	}
 	e = sel[which];
@@ -957,8 +980,8 @@ static void load_parcels(struct loader *ld, study *s)
 			     e->value);
 			return;
 		}
-		s->top_percent_text = xstrdup(e->value);
-		s->select_value = p;
+		L->top_percent_text = xstrdup(e->value);
+		L->select_value = p;
 	} else if (which == 1) {
 		const char *p = e->value;
 		double v = 0;
@@ -969,8 +992,8 @@ static void load_parcels(struct loader *ld, study *s)
 			prob(ld, e->line, "top_voxels: '%s' is not a whole number of voxels >= 1", e->value);
 			return;
 		}
-		s->select = SELECT_TOP_VOXELS;
-		s->select_value = v;
+		L->select = SELECT_TOP_VOXELS;
+		L->select_value = v;
 	} else {
 		double v;
 
@@ -978,9 +1001,138 @@ static void load_parcels(struct loader *ld, study *s)
 			prob(ld, e->line, "min_t: '%s' is not a finite number", e->value);
 			return;
 		}
-		s->select = SELECT_MIN_T;
-		s->select_value = v;
+		L->select = SELECT_MIN_T;
+		L->select_value = v;
 	}
+}
+
+/* The index of the section of kind k named name (NULL: the unnamed one), or -1. */
+static long find_section(const struct loader *ld, enum sec_kind k, const char *name)
+{
+	size_t i;
+
+	for (i = 0; i < ld->nsec; i++) {
+		const char *nm;
+
+		if (section_kind(ld->sec[i].name, &nm) != k)
+			continue;
+		if ((!nm && !name) || (nm && name && strcmp(nm, name) == 0))
+			return (long)i;
+	}
+	return -1;
+}
+
+static void localizer_release(study_localizer *L)
+{
+	free(L->name);
+	free(L->label);
+	free(L->task);
+	expr_release(&L->contrast);
+	expr_list_free(L->effects, L->neffects);
+	free(L->parcels);
+	free(L->parcel_names);
+	free(L->top_percent_text);
+	memset(L, 0, sizeof *L);
+}
+
+/* Points the flat [localizer]/[parcels] fields of s at L (borrowed). */
+static void alias_localizer(study *s, const study_localizer *L)
+{
+	s->loc_task = L->task;
+	s->contrast = L->contrast;
+	s->split = L->split;
+	s->loc_effects = L->effects;
+	s->nloc_effects = L->neffects;
+	s->parcels = L->parcels;
+	s->parcel_names = L->parcel_names;
+	s->select = L->select;
+	s->top_percent_text = L->top_percent_text;
+	s->select_value = L->select_value;
+	s->resample_parcels = L->resample_parcels;
+}
+
+/* Adds the localizer of section index si (-1: none in the file) and its parcels. */
+static void add_localizer(struct loader *ld, study *s, long si, const char *name, char **condcol)
+{
+	study_localizer *L;
+	long pi = find_section(ld, SEC_PARCELS, name);
+
+	s->locs = xrealloc(s->locs, (s->nlocs + 1) * sizeof *s->locs);
+	L = &s->locs[s->nlocs++];
+	memset(L, 0, sizeof *L);
+	L->name = name ? xstrdup(name) : NULL;
+	L->line = si >= 0 ? ld->sec[si].line : 0;
+	load_localizer(ld, si >= 0 ? ld->sec[si].name : "localizer", L, condcol);
+	if (name && pi < 0)
+		prob(ld, L->line, "[localizer %s] has no [parcels %s] section (its parcels and selection rule)",
+		     name, name);
+	else
+		load_parcels(ld, pi >= 0 ? ld->sec[pi].name : "parcels", L);
+	L->label = xstrdup(name ? name : L->task ? L->task : "");
+}
+
+/* 1 when the file has a [localizer NAME] section. */
+static int any_named(const struct loader *ld)
+{
+	size_t i;
+
+	for (i = 0; i < ld->nsec; i++) {
+		const char *nm;
+
+		if (section_kind(ld->sec[i].name, &nm) == SEC_LOCALIZER && nm)
+			return 1;
+	}
+	return 0;
+}
+
+/*
+ * Every localizer with its parcels: the unnamed [localizer] and [parcels],
+ * or [localizer NAME] and [parcels NAME] pairs, never both forms.
+ */
+static void load_localizers(struct loader *ld, study *s)
+{
+	size_t i, j, first_unnamed = 0, first_named = 0;
+
+	for (i = 0; i < ld->nsec; i++) {
+		const char *nm;
+		enum sec_kind k = section_kind(ld->sec[i].name, &nm);
+		char *cc = NULL;
+
+		if (k == SEC_PARCELS && nm && find_section(ld, SEC_LOCALIZER, nm) < 0)
+			prob(ld, ld->sec[i].line, "[parcels %s] has no [localizer %s] section", nm, nm);
+		if (k == SEC_PARCELS && !nm && find_section(ld, SEC_LOCALIZER, NULL) < 0 && any_named(ld))
+			prob(ld, ld->sec[i].line,
+			     "an unnamed [parcels] section goes with the unnamed [localizer]; with named localizers write [parcels NAME]");
+		if (k != SEC_LOCALIZER)
+			continue;
+		if (nm && !first_named)
+			first_named = ld->sec[i].line;
+		if (!nm && !first_unnamed)
+			first_unnamed = ld->sec[i].line;
+		for (j = 0; j < s->nlocs; j++)
+			if ((!nm && !s->locs[j].name) || (nm && s->locs[j].name && strcmp(nm, s->locs[j].name) == 0))
+				break;
+		if (j < s->nlocs)
+			continue;   /* a repeated section, reported */
+		add_localizer(ld, s, (long)i, nm, &cc);
+		if (!s->condition_column) {
+			s->condition_column = cc;
+		} else {
+			if (strcmp(cc, s->condition_column) != 0)
+				prob(ld, study_line_of(ld, ld->sec[i].name, "condition_column", ld->sec[i].line),
+				     "condition_column '%s' differs from the first localizer's '%s': every task is read with one events column",
+				     cc, s->condition_column);
+			free(cc);
+		}
+	}
+	if (first_named && first_unnamed)
+		prob(ld, first_named > first_unnamed ? first_named : first_unnamed,
+		     "the unnamed [localizer] (line %zu) and named [localizer NAME] sections (line %zu) cannot be mixed: name every localizer, each with its [parcels NAME]",
+		     first_unnamed, first_named);
+	if (s->nlocs == 0)
+		add_localizer(ld, s, -1, NULL, &s->condition_column);
+	s->named_localizers = first_named > 0;
+	alias_localizer(s, &s->locs[0]);
 }
 
 static void load_model(struct loader *ld, study *s)
@@ -1078,6 +1230,72 @@ static void load_model(struct loader *ld, study *s)
 	}
 }
 
+/*
+ * The measure's localizers key (default: every localizer); a localizer's own
+ * task cannot be measured in that localizer's fROIs (its held-out runs do that).
+ */
+static void measure_localizers(struct loader *ld, const study *s, study_measure *m, const char *sec)
+{
+	const struct entry *e = get(ld, sec, "localizers");
+	size_t i, j, k;
+
+	if (e && !val(e)) {
+		prob(ld, e->line, "localizers is empty (leave the key out for every localizer)");
+		e = NULL;
+	}
+	if (val(e)) {
+		char **w = words(e->value, &k);
+
+		for (i = 0; i < k; i++) {
+			for (j = 0; j < s->nlocs; j++)
+				if (strcmp(w[i], s->locs[j].label) == 0)
+					break;
+			if (j == s->nlocs) {
+				char known[512] = "";
+				size_t used = 0;
+
+				for (j = 0; j < s->nlocs && used < sizeof known; j++)
+					used += (size_t)snprintf(known + used, sizeof known - used, "%s%s",
+								 j ? ", " : "", s->locs[j].label);
+				prob(ld, e->line, "localizers: '%s' is not a localizer of this study (localizers: %s)",
+				     w[i], known);
+				continue;
+			}
+			for (j = 0; j < m->nlocalizers; j++)
+				if (strcmp(m->localizers[j], w[i]) == 0)
+					break;
+			if (j < m->nlocalizers) {
+				prob(ld, e->line, "localizers: '%s' is listed twice", w[i]);
+				continue;
+			}
+			m->localizers = xrealloc(m->localizers, (m->nlocalizers + 1) * sizeof *m->localizers);
+			m->localizers[m->nlocalizers++] = xstrdup(w[i]);
+		}
+		free_words(w, k);
+	} else {
+		m->localizers = xcalloc(s->nlocs ? s->nlocs : 1, sizeof *m->localizers);
+		for (j = 0; j < s->nlocs; j++)
+			m->localizers[m->nlocalizers++] = xstrdup(s->locs[j].label);
+	}
+	for (j = 0; m->task && j < s->nlocs; j++) {
+		const study_localizer *L = &s->locs[j];
+
+		for (k = 0; k < m->nlocalizers; k++)
+			if (strcmp(m->localizers[k], L->label) == 0)
+				break;
+		if (k == m->nlocalizers || !L->task || strcmp(L->task, m->task) != 0)
+			continue;
+		if (s->nlocs == 1)
+			prob(ld, get(ld, sec, "task")->line,
+			     "task '%s' is the localizer task: measure its effects in held-out runs with [localizer] effects",
+			     m->task);
+		else
+			prob(ld, e ? e->line : get(ld, sec, "task")->line,
+			     "task '%s' is the task of localizer '%s': measure it there with [localizer %s] effects, and list only the other localizers here (localizers = ...)",
+			     m->task, L->label, L->label);
+	}
+}
+
 static void load_measures(struct loader *ld, study *s)
 {
 	size_t i, j;
@@ -1104,10 +1322,7 @@ static void load_measures(struct loader *ld, study *s)
 			missing(ld, ld->sec[i].name, "effects", "what to measure, e.g. familiar, novel");
 		else
 			m->effects = effects_key(ld, e, &m->neffects);
-		if (m->task && s->loc_task && strcmp(m->task, s->loc_task) == 0)
-			prob(ld, get(ld, ld->sec[i].name, "task")->line,
-			     "task '%s' is the localizer task: measure its effects in held-out runs with [localizer] effects",
-			     m->task);
+		measure_localizers(ld, s, m, ld->sec[i].name);
 		for (j = 0; m->task && j + 1 < s->nmeasures; j++)
 			if (s->measures[j].task && strcmp(s->measures[j].task, m->task) == 0)
 				prob(ld, get(ld, ld->sec[i].name, "task")->line,
@@ -1223,8 +1438,7 @@ sr_status study_load_flags(const char *path, study *s, study_problems *probs, un
 	s->path = xstrdup(path);
 	s->text = text;
 	load_study(&ld, s);
-	load_localizer(&ld, s);
-	load_parcels(&ld, s);
+	load_localizers(&ld, s);
 	load_model(&ld, s);
 	load_measures(&ld, s);
 	s->keys = xcalloc(ld.nent ? ld.nent : 1, sizeof *s->keys);
@@ -1300,13 +1514,11 @@ void study_release(study *s)
 	free(s->desc);
 	free(s->res);
 	free_words(s->subjects, s->nsubjects);
-	free(s->loc_task);
-	expr_release(&s->contrast);
-	expr_list_free(s->loc_effects, s->nloc_effects);
+	/* the flat localizer fields alias locs[0] */
+	for (i = 0; i < s->nlocs; i++)
+		localizer_release(&s->locs[i]);
+	free(s->locs);
 	free(s->condition_column);
-	free(s->parcels);
-	free(s->parcel_names);
-	free(s->top_percent_text);
 	free_words(s->confounds, s->nconfounds);
 	free(s->confounds_suffix);
 	free_words(s->motion, s->nmotion);
@@ -1314,6 +1526,7 @@ void study_release(study *s)
 		free(s->measures[i].name);
 		free(s->measures[i].task);
 		expr_list_free(s->measures[i].effects, s->measures[i].neffects);
+		free_words(s->measures[i].localizers, s->measures[i].nlocalizers);
 	}
 	free(s->measures);
 	for (i = 0; i < s->nkeys; i++) {
@@ -1322,6 +1535,33 @@ void study_release(study *s)
 	}
 	free(s->keys);
 	memset(s, 0, sizeof *s);
+}
+
+void study_use_localizer(const study *s, size_t i, study *view)
+{
+	size_t j, k;
+
+	*view = *s;
+	alias_localizer(view, &s->locs[i]);
+	view->measures = xcalloc(s->nmeasures ? s->nmeasures : 1, sizeof *view->measures);
+	view->nmeasures = 0;
+	for (j = 0; j < s->nmeasures; j++)
+		for (k = 0; k < s->measures[j].nlocalizers; k++)
+			if (strcmp(s->measures[j].localizers[k], s->locs[i].label) == 0) {
+				view->measures[view->nmeasures++] = s->measures[j];
+				break;
+			}
+}
+
+void study_view_release(study *view)
+{
+	free(view->measures);
+	memset(view, 0, sizeof *view);
+}
+
+const char *study_loc_label(const study *s, size_t i)
+{
+	return s->locs[i].label;
 }
 
 void study_bids_src(const study *s, bids_src *src)

@@ -17,7 +17,29 @@ typedef struct study_measure {
 	char *task;
 	expr *effects;
 	size_t neffects;
+	char **localizers; /* labels (study_localizer.label) of the localizers whose fROIs it uses: every one by default */
+	size_t nlocalizers;
 } study_measure;
+
+/*
+ * One localizer with its parcels: a [localizer NAME] and [parcels NAME] pair,
+ * or the unnamed [localizer] and [parcels] (INTERFACE.md "Several localizers").
+ */
+typedef struct study_localizer {
+	char *name;                       /* NAME of [localizer NAME]; NULL for the unnamed form */
+	char *label;                      /* the tables' localizer column: name, else the task label */
+	size_t line;                      /* line of its [localizer] header (0 when absent) */
+	char *task;
+	expr contrast;
+	enum study_split split;
+	expr *effects;
+	size_t neffects;
+	char *parcels, *parcel_names;     /* names NULL when empty */
+	enum study_select select;
+	char *top_percent_text;
+	double select_value;
+	int resample_parcels;
+} study_localizer;
 
 /* Everything the study file says, paths made absolute (relative to the file's folder). */
 typedef struct study {
@@ -29,6 +51,12 @@ typedef struct study {
 	char *space, *desc, *res;         /* its entity filters, NULL when not given (desc: preproc) */
 	char **subjects;   /* NULL = all */
 	size_t nsubjects;
+	/* every localizer in file order (nlocs >= 1 after a good load); the flat
+	   [localizer]/[parcels] fields below alias locs[0] (study_use_localizer
+	   makes a view of another one) */
+	study_localizer *locs;
+	size_t nlocs;
+	int named_localizers;             /* 1: [localizer NAME] sections; 0: the unnamed form */
 	/* [localizer] */
 	char *loc_task;
 	expr contrast;
@@ -116,6 +144,16 @@ char *study_text_get(const char *text, const char *section, const char *key);
  */
 sr_status study_load(const char *path, study *s, study_problems *probs);
 void study_release(study *s);
+
+/*
+ * A view of s with localizer i in the flat [localizer]/[parcels] fields and
+ * only the measures that use it (strings borrowed from s). Release it with
+ * study_view_release (it frees the view's measure array only).
+ */
+void study_use_localizer(const study *s, size_t i, study *view);
+void study_view_release(study *view);
+/* The localizer column of localizer i: its name, else its task label. */
+const char *study_loc_label(const study *s, size_t i);
 
 /* Flags for study_load_flags. */
 enum {

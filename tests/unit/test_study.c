@@ -84,6 +84,106 @@ static char *valid_with(const char *study_extra, const char *localizer, const ch
 #define LOC "task = tones\ncontrast = melody - scrambled"
 #define PAR "image = parcels.nii.gz"
 
+/* A study with two named localizers (INTERFACE.md "Several localizers"); extra goes at the end. */
+static char *two_localizers(const char *seeing_parcels, const char *extra)
+{
+	static char buf[4096];
+
+	snprintf(buf, sizeof buf,
+		 "[study]\nbids = data\nout = results\n"              /* lines 1-3 */
+		 "[localizer hearing]\ntask = tones\ncontrast = melody - scrambled\n"   /* 4-6 */
+		 "[parcels hearing]\nimage = parcels.nii.gz\ntop_percent = 5\n"          /* 7-9 */
+		 "[localizer seeing]\ntask = shapes\ncontrast = faces - houses\n"        /* 10-12 */
+		 "split = leave-one-out\neffects = faces, houses\n"                      /* 13-14 */
+		 "%s"
+		 "%s",
+		 seeing_parcels, extra);
+	return buf;
+}
+
+#define SEEING_PAR "[parcels seeing]\nimage = parcels.nii.gz\nnames = parcels.tsv\ntop_voxels = 50\n" /* 15-18 */
+
+static void test_localizers(void)
+{
+	study s, v;
+	char *all;
+	size_t n;
+
+	/* the unnamed form is one localizer labelled by its task */
+	CHECK(load(valid_with("", LOC, PAR, ""), &s, &all, &n) == SR_OK, "unnamed: loads: %s", all);
+	free(all);
+	CHECK(s.nlocs == 1 && !s.named_localizers && s.locs[0].name == NULL &&
+	      strcmp(s.locs[0].label, "tones") == 0 && s.loc_task == s.locs[0].task,
+	      "unnamed: one localizer labelled 'tones', flat fields alias it");
+	study_release(&s);
+
+	CHECK(load(two_localizers(SEEING_PAR,
+				  "[measure memory]\ntask = memory\neffects = familiar, novel\n"
+				  "[measure hear]\ntask = tones\neffects = melody\nlocalizers = seeing\n"),
+		   &s, &all, &n) == SR_OK, "two: loads: %s", all);
+	free(all);
+	CHECK(s.nlocs == 2 && s.named_localizers, "two: two named localizers (%zu)", s.nlocs);
+	if (s.nlocs == 2) {
+		const study_localizer *h = &s.locs[0], *g = &s.locs[1];
+
+		CHECK(strcmp(h->label, "hearing") == 0 && strcmp(h->task, "tones") == 0 && h->line == 4 &&
+		      h->split == SPLIT_ODD_EVEN && h->select == SELECT_TOP_PERCENT && h->select_value == 5 &&
+		      h->neffects == 3 && h->parcel_names == NULL,
+		      "two: hearing's task, split, rule and default effects");
+		CHECK(strcmp(g->label, "seeing") == 0 && strcmp(g->task, "shapes") == 0 && g->line == 10 &&
+		      g->split == SPLIT_LEAVE_ONE_OUT && g->select == SELECT_TOP_VOXELS &&
+		      g->select_value == 50 && g->neffects == 2 && g->parcel_names != NULL &&
+		      g->contrast.nterms == 2,
+		      "two: seeing's task, split, rule, effects and names");
+		CHECK(s.nmeasures == 2 && s.measures[0].nlocalizers == 2 &&
+		      strcmp(s.measures[0].localizers[1], "seeing") == 0 && s.measures[1].nlocalizers == 1 &&
+		      strcmp(s.measures[1].localizers[0], "seeing") == 0,
+		      "two: measures default to every localizer, or the ones listed");
+		study_use_localizer(&s, 1, &v);
+		CHECK(strcmp(v.loc_task, "shapes") == 0 && v.split == SPLIT_LEAVE_ONE_OUT && v.nmeasures == 2 &&
+		      strcmp(study_loc_label(&s, 1), "seeing") == 0,
+		      "two: the view of seeing has its task, split and both measures");
+		study_view_release(&v);
+		study_use_localizer(&s, 0, &v);
+		CHECK(strcmp(v.loc_task, "tones") == 0 && v.nmeasures == 1 &&
+		      strcmp(v.measures[0].name, "memory") == 0,
+		      "two: the view of hearing keeps only the measure that uses it");
+		study_view_release(&v);
+	}
+	study_release(&s);
+
+	expect_problem(two_localizers("", ""), "line 10: [localizer seeing] has no [parcels seeing]", NULL,
+		       "named localizer without parcels");
+	expect_problem(two_localizers(SEEING_PAR, "[parcels other]\nimage = parcels.nii.gz\n"),
+		       "line 19: [parcels other] has no [localizer other]", NULL, "parcels without localizer");
+	expect_problem(two_localizers(SEEING_PAR, "[localizer]\ntask = x\ncontrast = a - b\n"),
+		       "line 19: the unnamed [localizer] (line 19) and named", "cannot be mixed",
+		       "named and unnamed mixed");
+	expect_problem(two_localizers(SEEING_PAR, "[parcels]\nimage = parcels.nii.gz\n"),
+		       "line 19: an unnamed [parcels] section goes with the unnamed [localizer]", NULL,
+		       "unnamed parcels with named localizers");
+	expect_problem(two_localizers(SEEING_PAR, "[measure m]\ntask = memory\neffects = novel\nlocalizers = hearing smelling\n"),
+		       "line 22: localizers: 'smelling' is not a localizer of this study", "hearing, seeing",
+		       "unknown localizer name");
+	expect_problem(two_localizers(SEEING_PAR, "[measure m]\ntask = tones\neffects = melody\n"),
+		       "line 20: task 'tones' is the task of localizer 'hearing'", "localizers =",
+		       "a localizer's task in its own fROIs");
+	expect_problem(two_localizers(SEEING_PAR, "[measure m]\ntask = memory\neffects = novel\nlocalizers = seeing seeing\n"),
+		       "line 22: localizers: 'seeing' is listed twice", NULL, "localizer listed twice");
+	expect_problem(valid_with("", LOC, PAR, "[measure m]\ntask = memory\neffects = novel\nlocalizers = other\n"),
+		       "localizers: 'other' is not a localizer of this study (localizers: tones)", NULL,
+		       "unnamed: unknown localizer name");
+	expect_problem(two_localizers(SEEING_PAR, "[localizer see_ing]\ntask = x\ncontrast = a - b\n"),
+		       "line 19: localizer name 'see_ing' may hold only letters and digits", NULL,
+		       "localizer name not alphanumeric");
+	expect_problem(two_localizers(SEEING_PAR, "[localizer seeing]\ntask = x\n"),
+		       "line 19: section [localizer seeing] repeated (first on line 10)", NULL,
+		       "localizer repeated");
+	expect_problem(two_localizers("[parcels seeing]\nimage = parcels.nii.gz\ncondition_column = x\n", ""),
+		       "line 17: key 'condition_column' belongs in [localizer], not [parcels seeing]", NULL,
+		       "keys checked in named sections");
+}
+
 static void test_good(void)
 {
 	study s;
@@ -474,6 +574,7 @@ int main(void)
 	test_required();
 	test_values();
 	test_files();
+	test_localizers();
 
 	unlink(ini);
 	snprintf(path, sizeof path, "%s/parcels.nii.gz", dir);
