@@ -20,6 +20,14 @@ int mapout_name(const mapout_info *m, const char *kind, const char *ext, char *b
 	bids_entities b;
 
 	bidsname_split(m->split, m->measure_task, desc, sizeof desc);
+	if (m->localizer) {
+		/* several localizers: desc-<localizer><split> keeps their maps apart */
+		char one[256];
+
+		bidsname_value(m->localizer, one, sizeof one);
+		snprintf(one + strlen(one), sizeof one - strlen(one), "%s", desc);
+		snprintf(desc, sizeof desc, "%s", one);
+	}
 	memset(&b, 0, sizeof b);
 	b.sub = m->subject;
 	b.task = m->task;
@@ -51,6 +59,8 @@ static jdoc *split_sidecar(const mapout_info *m, const char *what)
 	bidsname_split_parts(m->split, kind, sizeof kind, part, sizeof part);
 	jdoc_set_str(d, "Description", what);
 	jdoc_set_str(d, "Split", m->split);
+	if (m->localizer)
+		jdoc_set_str(d, "Localizer", m->localizer);
 	jdoc_set_str(d, "SplitKind", kind);
 	jdoc_set_str(d, "Part", part);
 	jdoc_set_str(d, "LocalizerTask", m->task);

@@ -19,6 +19,7 @@ typedef struct mapout_info {
 	const char *contrast;      /* the selection contrast */
 	double df;                 /* the t map's fixed-effects degrees of freedom (sum over define runs) */
 	const char *rule;          /* the selection rule, e.g. "top 10 percent" */
+	const char *localizer;     /* with several localizers, its name, put before the split in desc-; else NULL */
 } mapout_info;
 
 /*

@@ -338,6 +338,7 @@ typedef struct task_fit {
 	int ncond;
 	const expr *effects;        /* ne effects */
 	int ne;
+	int coff;                   /* effect 0's place in the fit's contrasts (role_view), 0 for the task itself */
 	double *C;                  /* ne x ncond weights */
 	unsigned char *missing;     /* ne: names a condition this subject lacks */
 	runfit_result *res;         /* nruns, after fitting */
@@ -571,8 +572,8 @@ static void ffx_map(const task_fit *t, const int *pos, int n, int c, size_t nvox
 	for (i = 0; i < n; i++) {
 		const glm_out *o = &t->res[pos[i]].out;
 
-		ef[i] = o->effect + (size_t)c * nvox;
-		va[i] = o->var + (size_t)c * nvox;
+		ef[i] = o->effect + (size_t)(c + t->coff) * nvox;
+		va[i] = o->var + (size_t)(c + t->coff) * nvox;
 		df[i] = o->df;
 	}
 	glm_ffx(nvox, n, ef, va, df, E, NULL, tmap, NULL);
@@ -706,7 +707,7 @@ static void rule_text(const study *st, char *buf, size_t n)
 }
 
 /* Writes the define t map and fROI labels of one split under dir/func/ (mapout.h). */
-static sr_status write_maps(const char *dir, const study *st, const char *label,
+static sr_status write_maps(const char *dir, const study *st, const char *lname, const char *label,
 			    const task_fit *loc, const char *split_name, const char *mtask, const char *def,
 			    const char *meas, double df, const nii_grid *g, size_t nvox,
 			    const parcel_set *ps, const froi_set *f, sr_err *e)
@@ -717,6 +718,7 @@ static sr_status write_maps(const char *dir, const study *st, const char *label,
 	rule_text(st, rule, sizeof rule);
 	memset(&m, 0, sizeof m);
 	m.subject = label;
+	m.localizer = lname;
 	m.task = loc->task;
 	m.space = loc->nruns ? loc->runs[0].space : NULL;
 	m.res = st->derivatives ? st->res : NULL;
@@ -1012,218 +1014,32 @@ static sr_status check_grids(const task_fit *tasks, size_t ntasks, const char *m
 	return SR_OK;
 }
 
-sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
-			  sr_err *e)
+/*
+ * One localizer's part of a subject (METHODS.md 6-8): its splits, define t,
+ * fROIs, cross-validated rows, reliability and time courses, then its
+ * measured tasks in fROIs from all its runs; rows carry lname, maps the
+ * localizer name mapname (NULL with one localizer).
+ */
+static sr_status loc_pass(const study *st, const char *lname, const char *mapname, const task_fit *loc,
+			  const task_fit *mts, size_t nmeas, const parcel_set *ps, const int32_t *labels,
+			  const unsigned char *lost, const int32_t *keep_pos, const nii_grid *gridp, size_t nvox,
+			  const char *dir, const char *label, int *nloc_runs, subject_result *res, sr_err *e)
 {
-	const study *st = ctx->st;
-	const parcel_set *ps = ctx->parcels;
-	unsigned char *mask_owned = NULL;
-	nii_grid mask_grid_own;
-	char *mask_path_own = NULL;
-	parcel_set own_ps;
-	char *own_image = NULL, *own_names = NULL;
-	task_fit *tasks;
-	size_t ntasks = 1 + st->nmeasures, i, nvox = 0, nruns_all = 0;
-	expr *loc_effects;
-	runfit_spec *specs = NULL;
-	runfit_result *results = NULL;
-	sr_err *errs = NULL;
-	int32_t *labels = NULL, *labels_owned = NULL;
-	unsigned char *lost = NULL;    /* per parcel: no voxel left after resampling */
-	nii_grid grid;
-	char dir[2048], path[4096], buf[1024];
-	double t0 = now_seconds();
-	struct timespec started;
-	sr_status rc = SR_OK;
 	split *splits = NULL;
 	int nsplits = 0, s, p, j;
-	jdoc *rec = NULL;
-	size_t *keep = NULL, nkeep = 0;
-	int32_t *keep_pos = NULL;
+	size_t i;
+	nii_grid grid = *gridp;
+	sr_status rc = SR_OK;
 
-	memset(res, 0, sizeof *res);
-	clock_gettime(CLOCK_REALTIME, &started);
-	if (strlen(st->out) + strlen(label) + 8 > sizeof dir)
-		return sr_fail(e, SR_EINVAL, "%s: the output folder name is too long", st->out);
-	if (ctx->dir)
-		snprintf(dir, sizeof dir, "%s", ctx->dir);
-	else
-		snprintf(dir, sizeof dir, "%s/sub-%s", st->out, label);
-	/* the localizer's effect list: the selection contrast first, then the effects */
-	loc_effects = xcalloc(st->nloc_effects + 1, sizeof *loc_effects);
-	loc_effects[0] = st->contrast;
-	for (i = 0; i < st->nloc_effects; i++)
-		loc_effects[i + 1] = st->loc_effects[i];
-	tasks = xcalloc(ntasks, sizeof *tasks);
-	tasks[0].task = st->loc_task;
-	tasks[0].effects = loc_effects;
-	tasks[0].ne = (int)st->nloc_effects + 1;
-	for (i = 0; i < st->nmeasures; i++) {
-		tasks[i + 1].task = st->measures[i].task;
-		tasks[i + 1].effects = st->measures[i].effects;
-		tasks[i + 1].ne = (int)st->measures[i].neffects;
-	}
-	/* a redo starts by withdrawing the old completion record and table, so that an
-	   interrupted or failed redo never leaves results that look current */
-	snprintf(path, sizeof path, "%s/run.json", dir);
-	remove(path);
-	snprintf(path, sizeof path, "%s/responses.csv", dir);
-	remove(path);
-	snprintf(path, sizeof path, "%s/reliability.csv", dir);
-	remove(path);
-	snprintf(path, sizeof path, "%s/timecourses.csv", dir);
-	remove(path);
-	memset(&own_ps, 0, sizeof own_ps);
-	if (!ps) {
-		/* parcels made for each subject, e.g. without that subject's own data */
-		own_image = study_subject_path(st->parcels, label);
-		own_names = study_subject_path(st->parcel_names, label);
-		rc = parcel_set_load(own_image, own_names, &own_ps, e);
-		if (rc) {
-			free(own_image);
-			free(own_names);
-			return rc;
-		}
-		ps = &own_ps;
-	}
-	progress(ctx, label, "finding runs");
-	for (i = 0; i < ntasks; i++) {
-		rc = task_prepare(st, label, &tasks[i], e);
-		if (rc)
-			goto out;
-		nruns_all += tasks[i].nruns;
-	}
-	if (!ctx->mask && study_mask_per_subject(st)) {
-		rc = own_mask(st, label, tasks, ntasks, &mask_owned, &mask_grid_own, &mask_path_own, e);
-		if (rc)
-			goto out;
-	}
-	rc = check_grids(tasks, ntasks, mask_owned ? mask_path_own : st->mask,
-			 mask_owned ? &mask_grid_own : ctx->mask_grid, e);
-	if (rc)
-		goto out;
-	/* the parcels too, before any run is fitted (headers only) */
-	if (!st->resample_parcels && !nii_same_grid(&tasks[0].grid[0], &ps->grid, 1e-3, buf, sizeof buf)) {
-		rc = sr_fail(e, SR_EDIM,
-			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
-			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
-		goto out;
-	}
-	/* fit every run of every task once, in parallel; the parcels' series are kept for the time courses */
-	keep = keep_voxels(st, ps, &tasks[0].grid[0], &nkeep, &keep_pos);
-	specs = xcalloc(nruns_all, sizeof *specs);
-	results = xcalloc(nruns_all, sizeof *results);
-	errs = xcalloc(nruns_all, sizeof *errs);
-	{
-		size_t at = 0;
-
-		for (i = 0; i < ntasks; i++) {
-			task_specs(st, &tasks[i], mask_owned ? mask_owned : ctx->mask, specs + at);
-			at += tasks[i].nruns;
-		}
-		for (i = 0; i < nruns_all; i++) {
-			specs[i].keep = keep;
-			specs[i].nkeep = nkeep;
-		}
-	}
-	for (i = 0; i < nruns_all; i++)
-		sr_err_init(&errs[i], e->warn, e->warn_ctx);
-	snprintf(buf, sizeof buf, "fitting %zu runs", nruns_all);
-	progress(ctx, label, buf);
-	rc = runfit_many(specs, (int)nruns_all, ctx->nthreads, results, errs);
-	if (rc) {
-		for (i = 0; i < nruns_all; i++)
-			if (errs[i].code) {
-				sr_fail(e, errs[i].code, "%s", errs[i].msg);
-				break;
-			}
-		goto out;
-	}
-	{
-		size_t at = 0;
-
-		for (i = 0; i < ntasks; i++) {
-			tasks[i].res = xcalloc(tasks[i].nruns, sizeof *tasks[i].res);
-			memcpy(tasks[i].res, results + at, tasks[i].nruns * sizeof *results);
-			at += tasks[i].nruns;
-		}
-		free(results);
-		results = NULL;
-	}
-	/* one grid for all of the subject's runs */
-	grid = tasks[0].res[0].info.grid;
-	nvox = nii_nvox(&grid);
-	for (i = 0; i < ntasks; i++)
-		warn_estimability(&tasks[i], e);
-	if (st->drift_cutoff > 0) {
-		int warned = 0;
-
-		/* a pipeline's cosine columns next to the model's own drift basis model the drift twice */
-		for (i = 0; i < ntasks && !warned; i++)
-			for (size_t r = 0; r < tasks[i].nruns && !warned; r++)
-				for (int k = 0; k < tasks[i].res[r].d.nconf && !warned; k++) {
-					const char *nm = tasks[i].res[r].conf_names[k];
-
-					if (strncasecmp(nm, "cosine", 6) == 0 || strncasecmp(nm, "drift", 5) == 0) {
-						sr_warnf(e, "subject %s: confound column '%s' of %s is a cosine drift basis, and the model adds its own (drift_cutoff = %g s): drop the column or set drift_cutoff = none",
-							 label, nm, tasks[i].confpath[r], st->drift_cutoff);
-						warned = 1;
-					}
-				}
-	}
-	if (nii_same_grid(&grid, &ps->grid, 1e-3, buf, sizeof buf)) {
-		labels = ps->labels;
-	} else if (st->resample_parcels) {
-		int64_t sn[3] = { ps->grid.nx, ps->grid.ny, ps->grid.nz };
-		int64_t tn[3] = { grid.nx, grid.ny, grid.nz };
-
-		labels_owned = xmalloc_array(nvox, sizeof *labels_owned);
-		if (resample_nearest(ps->labels, sn, ps->grid.affine, labels_owned, tn, grid.affine)) {
-			rc = sr_fail(e, SR_EDIM, "%s: the parcel grid's affine is singular",
-				     own_image ? own_image : st->parcels);
-			goto out;
-		}
-		labels = labels_owned;
-		lost = lost_parcels(ps, labels, nvox);
-		for (p = 0; p < ps->n; p++)
-			if (lost[p])
-				sr_warnf(e, "subject %s: parcel %s (label %d) has no voxel on the data grid after nearest-neighbour resampling of %s; its rows are empty",
-					 label, ps->name[p], (int)ps->index[p], own_image ? own_image : st->parcels);
-	} else if (parcels_template_on_raw(st, &ps->grid, own_image ? own_image : st->parcels)) {
-		rc = sr_fail(e, SR_EDIM, "%s: the parcels are not on the data grid of %s (%s): " PARCELS_RAW_NOTE,
-			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
-		goto out;
-	} else {
-		rc = sr_fail(e, SR_EDIM,
-			     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
-			     own_image ? own_image : st->parcels, tasks[0].runs[0].bold, buf);
-		goto out;
-	}
-
-	{
-		const glm_out **outs = xcalloc(nruns_all ? nruns_all : 1, sizeof *outs);
-		size_t n = 0, r;
-
-		res->leftout = xcalloc(nruns_all ? nruns_all : 1, sizeof *res->leftout);
-		for (i = 0; i < ntasks; i++)
-			for (r = 0; r < tasks[i].nruns; r++) {
-				leftout_from_fit(&res->leftout[n], tasks[i].task, tasks[i].runs[r].label,
-						 &tasks[i].res[r].out);
-				outs[n++] = &tasks[i].res[r].out;
-			}
-		res->nleftout = n;
-		leftout_warn_parcels(label, labels, nvox, ps->n, ps->index, ps->name, outs, n, e);
-		free(outs);
-	}
 	/* the splits of the localizer runs (METHODS.md section 6) */
 	{
-		int nl = (int)tasks[0].nruns;
+		int nl = (int)loc->nruns;
 
-		res->nloc_runs = nl;
+		*nloc_runs = nl;
 		if (nl < 2) {
 			sr_warnf(e, "subject %s has %d run of task '%s': no cross-validated rows%s",
 				 label, nl, st->loc_task,
-				 ntasks > 1 ? "; measured-task rows are still made" :
+				 nmeas > 0 ? "; measured-task rows are still made" :
 				 " and the study measures no other task, so the subject's table is empty");
 		} else if (st->split == SPLIT_ODD_EVEN) {
 			nsplits = 2;
@@ -1252,7 +1068,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				int r;
 
 				snprintf(splits[s].name, sizeof splits[s].name, "leave-one-out:%s",
-					 tasks[0].runs[s].label);
+					 loc->runs[s].label);
 				splits[s].def = xcalloc((size_t)nl, sizeof(int));
 				splits[s].meas = xcalloc(1, sizeof(int));
 				for (r = 0; r < nl; r++)
@@ -1262,9 +1078,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			}
 		}
 	}
-	progress(ctx, label, "defining fROIs");
 	{
-		const task_fit *loc = &tasks[0];
 		int ne = loc->ne;
 		/* per split, parcel and effect: value, n_voxels, n_candidates for the :mean rows */
 		size_t cells = (size_t)(nsplits ? nsplits : 1) * (size_t)(ps->n ? ps->n : 1) * (size_t)ne;
@@ -1296,7 +1110,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			keep_def[s] = xstrdup(def);
 			tc_split(st, loc, splits[s].meas, splits[s].nmeas, &f, ps->n, keep_pos, tcb,
 				 tcv + (size_t)s * tcper, e);
-			tc_rows(res, st->loc_task, ps, splits[s].name, loc, tcuse, tcb, loc->tr[0],
+			tc_rows(res, lname, ps, splits[s].name, loc, tcuse, tcb, loc->tr[0],
 				tcv + (size_t)s * tcper);
 			run_list(loc, splits[s].meas, splits[s].nmeas, meas, sizeof meas);
 			/* the :mean rows name what they average: the splits' run lists joined by '|' */
@@ -1326,11 +1140,11 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				for (j = 1; j < ne; j++) {
 					size_t cell = ((size_t)s * (size_t)ps->n + (size_t)p) * (size_t)ne + (size_t)j;
 
-					add_row(res, st->loc_task, ps->name[p], splits[s].name, def, loc->task, meas,
+					add_row(res, lname, ps->name[p], splits[s].name, def, loc->task, meas,
 						loc->effects[j].text, val[cell], nv[cell], nc[cell]);
 				}
 			}
-			rc = write_maps(dir, st, label, loc, splits[s].name, NULL, def, meas,
+			rc = write_maps(dir, st, mapname, label, loc, splits[s].name, NULL, def, meas,
 					ffx_df(loc, splits[s].def, splits[s].ndef), &grid, nvox, ps, &f, e);
 			froi_release(&f);
 			if (rc)
@@ -1353,7 +1167,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 						sn += nv[cell];
 						sc += nc[cell];
 					}
-					add_row(res, st->loc_task, ps->name[p], kind, mdef, loc->task, mmeas, loc->effects[j].text,
+					add_row(res, lname, ps->name[p], kind, mdef, loc->task, mmeas, loc->effects[j].text,
 						bad ? NAN : sv / nsplits, sn / nsplits, sc / nsplits);
 				}
 			}
@@ -1369,7 +1183,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 					sv += tcv[(size_t)s * tcper + q];
 				mv[q] = sv / nsplits;   /* NaN when any split's is */
 			}
-			tc_rows(res, st->loc_task, ps,
+			tc_rows(res, lname, ps,
 				st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean", loc, tcuse, tcb,
 				loc->tr[0], mv);
 			free(mv);
@@ -1377,7 +1191,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		free(tcv);
 		free(tcuse);
 		if (!rc && nsplits > 0)
-			reliab_add_splits(&res->rel, st->loc_task, (const char *const *)keep_name,
+			reliab_add_splits(&res->rel, lname, (const char *const *)keep_name,
 					  (const char *const *)keep_def,
 					  st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean", mdef,
 					  (const double *const *)keep_t, (const int32_t *const *)keep_f,
@@ -1393,8 +1207,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		free(keep_name);
 		free(keep_def);
 		/* measured tasks: fROIs from all localizer runs (and a map of that definition) */
-		for (i = 1; !rc && i < ntasks; i++) {
-			const task_fit *mt = &tasks[i];
+		for (i = 0; !rc && i < nmeas; i++) {
+			const task_fit *mt = &mts[i];
 			int *lpos = xmalloc_array(loc->nruns, sizeof *lpos);
 			int *mpos = xmalloc_array(mt->nruns, sizeof *mpos);
 			froi_set f;
@@ -1414,7 +1228,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			for (j = 0; j < mt->ne; j++) {
 				ffx_map(mt, mpos, (int)mt->nruns, j, nvox, E, NULL);
 				for (p = 0; p < ps->n; p++)
-					add_row(res, st->loc_task, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
+					add_row(res, lname, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
 						mt->missing[j] ? NAN : froi_mean(&f, p, E), (double)f.count[p],
 						(double)f.ncand[p]);
 			}
@@ -1425,11 +1239,11 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 				unsigned char *use = tc_conditions(mt, 0);
 
 				tc_split(st, mt, mpos, (int)mt->nruns, &f, ps->n, keep_pos, nb, tv, e);
-				tc_rows(res, st->loc_task, ps, "all", mt, use, nb, mt->tr[0], tv);
+				tc_rows(res, lname, ps, "all", mt, use, nb, mt->tr[0], tv);
 				free(tv);
 				free(use);
 			}
-			rc = write_maps(dir, st, label, loc, "all", mt->task, all, meas,
+			rc = write_maps(dir, st, mapname, label, loc, "all", mt->task, all, meas,
 					ffx_df(loc, lpos, (int)loc->nruns), &grid, nvox, ps, &f, e);
 			froi_release(&f);
 			free(lpos);
@@ -1439,25 +1253,332 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		free(nv);
 		free(nc);
 		free(E);
-		if (rc)
-			goto out;
 	}
+	for (s = 0; s < nsplits; s++) {
+		free(splits[s].def);
+		free(splits[s].meas);
+	}
+	free(splits);
+	return rc;
+}
+
+/* What one localizer needs in a subject: its study view, parcels on the data grid, its tasks' roles. */
+typedef struct loc_setup {
+	study view;                /* study_use_localizer */
+	parcel_set own_ps;         /* parcels made for this subject ({subject}), or not read here */
+	const parcel_set *ps;
+	char *own_image, *own_names;
+	int32_t *labels_owned;
+	const int32_t *labels;     /* on the data grid */
+	unsigned char *lost;       /* per parcel: no voxel left after resampling */
+	size_t task;               /* its task in the subject's task list */
+	int off;                   /* its effects' place in that task's effect list */
+	size_t *mtask;             /* per measure of the view: task index and effect offset */
+	int *moff;
+} loc_setup;
+
+static void loc_setup_release(loc_setup *L)
+{
+	study_view_release(&L->view);
+	parcel_set_release(&L->own_ps);
+	free(L->own_image);
+	free(L->own_names);
+	free(L->labels_owned);
+	free(L->lost);
+	free(L->mtask);
+	free(L->moff);
+	memset(L, 0, sizeof *L);
+}
+
+/* Appends n effects for task to the subject's task list (a task appears once); returns its offset. */
+static int task_role(task_fit **tasks, size_t *ntasks, expr ***eff, const char *task, const expr *e, int n,
+		     size_t *which)
+{
+	size_t i;
+	int off;
+
+	for (i = 0; i < *ntasks; i++)
+		if (strcmp((*tasks)[i].task, task) == 0)
+			break;
+	if (i == *ntasks) {
+		*tasks = xrealloc(*tasks, (*ntasks + 1) * sizeof **tasks);
+		*eff = xrealloc(*eff, (*ntasks + 1) * sizeof **eff);
+		memset(&(*tasks)[i], 0, sizeof **tasks);
+		(*eff)[i] = NULL;
+		(*tasks)[i].task = task;
+		(*ntasks)++;
+	}
+	off = (*tasks)[i].ne;
+	(*eff)[i] = xrealloc((*eff)[i], (size_t)(off + n + 1) * sizeof ***eff);
+	memcpy((*eff)[i] + off, e, (size_t)n * sizeof *e);
+	(*tasks)[i].ne = off + n;
+	(*tasks)[i].effects = (*eff)[i];
+	*which = i;
+	return off;
+}
+
+/*
+ * The subject's tasks, each once however many localizers and measures use
+ * it: the first localizer's task, the measured tasks, the other localizers'
+ * tasks; each task's effects are its roles' effects one after another (a
+ * localizer's selection contrast, then its effects). locef holds each
+ * localizer's [contrast, effects...] list; eff each task's (both freed by the caller).
+ */
+static void build_tasks(const study *st, loc_setup *L, expr **locef, task_fit **tasks, size_t *ntasks,
+			expr ***eff)
+{
+	size_t i, j, k, *mt = xcalloc(st->nmeasures + 1, sizeof *mt);
+	int *mo = xcalloc(st->nmeasures + 1, sizeof *mo);
+
+	for (i = 0; i < st->nlocs; i++) {
+		const study_localizer *l = &st->locs[i];
+
+		locef[i] = xcalloc(l->neffects + 1, sizeof **locef);
+		locef[i][0] = l->contrast;
+		for (j = 0; j < l->neffects; j++)
+			locef[i][j + 1] = l->effects[j];
+	}
+	L[0].off = task_role(tasks, ntasks, eff, st->locs[0].task, locef[0], (int)st->locs[0].neffects + 1,
+			     &L[0].task);
+	for (j = 0; j < st->nmeasures; j++)
+		mo[j] = task_role(tasks, ntasks, eff, st->measures[j].task, st->measures[j].effects,
+				  (int)st->measures[j].neffects, &mt[j]);
+	for (i = 1; i < st->nlocs; i++)
+		L[i].off = task_role(tasks, ntasks, eff, st->locs[i].task, locef[i],
+				     (int)st->locs[i].neffects + 1, &L[i].task);
+	for (i = 0; i < st->nlocs; i++) {
+		L[i].mtask = xcalloc(L[i].view.nmeasures + 1, sizeof *L[i].mtask);
+		L[i].moff = xcalloc(L[i].view.nmeasures + 1, sizeof *L[i].moff);
+		for (k = 0; k < L[i].view.nmeasures; k++)
+			for (j = 0; j < st->nmeasures; j++)
+				if (strcmp(st->measures[j].name, L[i].view.measures[k].name) == 0) {
+					L[i].mtask[k] = mt[j];
+					L[i].moff[k] = mo[j];
+				}
+	}
+	free(mt);
+	free(mo);
+}
+
+/* A task seen through one role: its effects off..off+n-1 as effects 0..n-1. */
+static task_fit role_view(const task_fit *t, int off, int n)
+{
+	task_fit v = *t;
+
+	v.coff = t->coff + off;
+	v.effects = t->effects + off;
+	v.ne = n;
+	v.C = t->C + (size_t)off * (size_t)(t->ncond ? t->ncond : 1);
+	v.missing = t->missing + off;
+	return v;
+}
+
+/* The voxels whose series the fit keeps: every localizer's parcel voxels (keep_voxels over the union). */
+static size_t *keep_all(const loc_setup *L, size_t nl, const nii_grid *g, size_t *nkeep, int32_t **pos)
+{
+	size_t nvox = nii_nvox(g), v, n = 0, i;
+	size_t *keep;
+
+	if (nl == 1)
+		return keep_voxels(&L[0].view, L[0].ps, g, nkeep, pos);
+	*pos = xmalloc_array(nvox ? nvox : 1, sizeof **pos);
+	for (v = 0; v < nvox; v++)
+		(*pos)[v] = -1;
+	for (i = 0; i < nl; i++) {
+		int32_t *p1;
+		size_t k, nk, *kv = keep_voxels(&L[i].view, L[i].ps, g, &nk, &p1);
+
+		for (k = 0; k < nk; k++)
+			(*pos)[kv[k]] = 0;
+		free(kv);
+		free(p1);
+	}
+	keep = xmalloc_array(nvox ? nvox : 1, sizeof *keep);
+	for (v = 0; v < nvox; v++)
+		if ((*pos)[v] == 0 && n < INT32_MAX) {
+			(*pos)[v] = (int32_t)n;
+			keep[n++] = v;
+		} else {
+			(*pos)[v] = -1;
+		}
+	*nkeep = n;
+	return keep;
+}
+
+/* The localizer's parcels on the data grid (resampled when the study says so), with the lost ones. */
+static sr_status loc_labels(loc_setup *L, const nii_grid *grid, size_t nvox, const char *label,
+			    const char *first_bold, sr_err *e)
+{
+	const study *st = &L->view;
+	const parcel_set *ps = L->ps;
+	const char *img = L->own_image ? L->own_image : st->parcels;
+	char buf[1024];
+	int p;
+
+	if (nii_same_grid(grid, &ps->grid, 1e-3, buf, sizeof buf)) {
+		L->labels = ps->labels;
+		return SR_OK;
+	}
+	if (st->resample_parcels) {
+		int64_t sn[3] = { ps->grid.nx, ps->grid.ny, ps->grid.nz };
+		int64_t tn[3] = { grid->nx, grid->ny, grid->nz };
+
+		L->labels_owned = xmalloc_array(nvox, sizeof *L->labels_owned);
+		if (resample_nearest(ps->labels, sn, ps->grid.affine, L->labels_owned, tn, grid->affine))
+			return sr_fail(e, SR_EDIM, "%s: the parcel grid's affine is singular", img);
+		L->labels = L->labels_owned;
+		L->lost = lost_parcels(ps, L->labels, nvox);
+		for (p = 0; p < ps->n; p++)
+			if (L->lost[p])
+				sr_warnf(e, "subject %s: parcel %s (label %d) has no voxel on the data grid after nearest-neighbour resampling of %s; its rows are empty",
+					 label, ps->name[p], (int)ps->index[p], img);
+		return SR_OK;
+	}
+	if (parcels_template_on_raw(st, &ps->grid, img))
+		return sr_fail(e, SR_EDIM, "%s: the parcels are not on the data grid of %s (%s): " PARCELS_RAW_NOTE,
+			       img, first_bold, buf);
+	return sr_fail(e, SR_EDIM,
+		       "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
+		       img, first_bold, buf);
+}
+
+/* Each localizer's view and parcels (ctx->parcels for the first unless per subject; else read here). */
+static sr_status loc_setups(const subject_ctx *ctx, const char *label, loc_setup *L, sr_err *e)
+{
+	const study *st = ctx->st;
+	size_t i;
+	sr_status rc;
+
+	for (i = 0; i < st->nlocs; i++) {
+		study_use_localizer(st, i, &L[i].view);
+		if (i == 0 && ctx->parcels) {
+			L[i].ps = ctx->parcels;
+			continue;
+		}
+		/* parcels made for each subject, e.g. without that subject's own data */
+		L[i].own_image = study_subject_path(L[i].view.parcels, label);
+		L[i].own_names = study_subject_path(L[i].view.parcel_names, label);
+		if (!study_per_subject(L[i].view.parcels) && !study_per_subject(L[i].view.parcel_names)) {
+			free(L[i].own_image);
+			L[i].own_image = NULL;
+		}
+		rc = parcel_set_load(L[i].own_image ? L[i].own_image : L[i].view.parcels,
+				     L[i].own_names, &L[i].own_ps, e);
+		if (rc)
+			return rc;
+		L[i].ps = &L[i].own_ps;
+	}
+	return SR_OK;
+}
+
+/* Fits every run of every task once, in parallel, keeping the parcels' series for the time courses. */
+static sr_status fit_all(const subject_ctx *ctx, const char *label, task_fit *tasks, size_t ntasks,
+			 size_t nruns_all, const unsigned char *mask, const size_t *keep, size_t nkeep,
+			 sr_err *e)
+{
+	const study *st = ctx->st;
+	runfit_spec *specs = xcalloc(nruns_all, sizeof *specs);
+	runfit_result *results = xcalloc(nruns_all, sizeof *results);
+	sr_err *errs = xcalloc(nruns_all, sizeof *errs);
+	size_t i, at = 0;
+	char buf[128];
+	sr_status rc;
+
+	for (i = 0; i < ntasks; i++) {
+		task_specs(st, &tasks[i], mask, specs + at);
+		at += tasks[i].nruns;
+	}
+	for (i = 0; i < nruns_all; i++) {
+		specs[i].keep = keep;
+		specs[i].nkeep = nkeep;
+		sr_err_init(&errs[i], e->warn, e->warn_ctx);
+	}
+	snprintf(buf, sizeof buf, "fitting %zu runs", nruns_all);
+	progress(ctx, label, buf);
+	rc = runfit_many(specs, (int)nruns_all, ctx->nthreads, results, errs);
+	if (rc) {
+		for (i = 0; i < nruns_all; i++)
+			if (errs[i].code) {
+				sr_fail(e, errs[i].code, "%s", errs[i].msg);
+				break;
+			}
+		for (i = 0; i < nruns_all; i++)
+			runfit_result_release(&results[i]);
+	} else {
+		for (i = 0, at = 0; i < ntasks; i++) {
+			tasks[i].res = xcalloc(tasks[i].nruns, sizeof *tasks[i].res);
+			memcpy(tasks[i].res, results + at, tasks[i].nruns * sizeof *results);
+			at += tasks[i].nruns;
+		}
+	}
+	free(results);
+	free(specs);
+	free(errs);
+	return rc;
+}
+
+/* A warning when a confound column is a cosine drift basis next to the model's own. */
+static void warn_drift(const study *st, const char *label, const task_fit *tasks, size_t ntasks, sr_err *e)
+{
+	size_t i, r;
+
+	if (st->drift_cutoff <= 0)
+		return;
+	for (i = 0; i < ntasks; i++)
+		for (r = 0; r < tasks[i].nruns; r++)
+			for (int k = 0; k < tasks[i].res[r].d.nconf; k++) {
+				const char *nm = tasks[i].res[r].conf_names[k];
+
+				if (strncasecmp(nm, "cosine", 6) == 0 || strncasecmp(nm, "drift", 5) == 0) {
+					sr_warnf(e, "subject %s: confound column '%s' of %s is a cosine drift basis, and the model adds its own (drift_cutoff = %g s): drop the column or set drift_cutoff = none",
+						 label, nm, tasks[i].confpath[r], st->drift_cutoff);
+					return;
+				}
+			}
+}
+
+/* Withdraws the subject's completion record and tables (before a redo, and after a failure). */
+static void withdraw(const char *dir)
+{
+	static const char *const files[] = { "run.json", "responses.csv", "reliability.csv",
+					      "timecourses.csv" };
+	char path[4096];
+	size_t i;
+
+	for (i = 0; i < sizeof files / sizeof *files; i++) {
+		snprintf(path, sizeof path, "%s/%s", dir, files[i]);
+		remove(path);
+	}
+}
+
+/* The tables and run.json (written last: its presence marks the subject complete). */
+static sr_status write_outputs(const subject_ctx *ctx, const char *dir, const char *label,
+			       const task_fit *tasks, size_t ntasks, const loc_setup *L,
+			       const nii_grid *grid, size_t nvox, struct timespec started, double t0,
+			       subject_result *res, sr_err *e)
+{
+	const study *st = ctx->st;
+	char path[4096], buf[1024];
+	jdoc *rec;
+	size_t i;
+	sr_status rc;
+
 	progress(ctx, label, "writing tables");
-	rc = write_run_files(dir, label, tasks, ntasks, st, &grid, nvox, e);
+	rc = write_run_files(dir, label, tasks, ntasks, st, grid, nvox, e);
 	if (rc)
-		goto out;
+		return rc;
 	snprintf(path, sizeof path, "%s/responses.csv", dir);
 	rc = subject_write_rows(path, label, res->rows, res->nrows, e);
 	if (rc)
-		goto out;
+		return rc;
 	snprintf(path, sizeof path, "%s/reliability.csv", dir);
 	rc = reliab_table_write(path, label, &res->rel, e);
 	if (rc)
-		goto out;
+		return rc;
 	snprintf(path, sizeof path, "%s/timecourses.csv", dir);
 	rc = tc_table_write(path, label, &res->tc, e);
 	if (rc)
-		goto out;
+		return rc;
 	res->seconds = now_seconds() - t0;
 	rec = jdoc_object();
 	jdoc_set_str(rec, "subject", label);
@@ -1475,17 +1596,26 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 	if (ctx->fingerprints)
 		jdoc_set(rec, "fingerprints", jdoc_copy(ctx->fingerprints));
 	{
+		/* every run fitted, once: by task, however many localizers use it */
 		jdoc *in = jdoc_object();
 
 		for (i = 0; i < ntasks; i++)
 			jdoc_set(in, tasks[i].task, inputs_record(&tasks[i]));
 		jdoc_set(rec, "inputs", in);
 	}
-	jdoc_set_str(rec, "parcels", own_image ? own_image : st->parcels);
+	jdoc_set_str(rec, "parcels", L[0].own_image ? L[0].own_image : st->parcels);
+	if (st->nlocs > 1) {
+		jdoc *lp = jdoc_object();
+
+		for (i = 0; i < st->nlocs; i++)
+			jdoc_set_str(lp, study_loc_label(st, i), L[i].own_image ? L[i].own_image : st->locs[i].parcels);
+		jdoc_set(rec, "localizer_parcels", lp);
+	}
 	jdoc_set_int(rec, "rows", (long long)res->nrows);
 	jdoc_set_num(rec, "seconds", res->seconds);
 	snprintf(path, sizeof path, "%s/run.json", dir);
 	rc = jdoc_write(rec, path, e);
+	jdoc_free(rec);
 	if (!rc) {
 		/* the skip rule compares this time with the inputs': an input changed while
 		   this subject ran (after it was read) must count as newer than the results */
@@ -1493,43 +1623,142 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 
 		utimensat(AT_FDCWD, path, when, 0);
 	}
-out:
-	jdoc_free(rec);
-	if (results)
-		for (i = 0; i < nruns_all; i++)
-			runfit_result_release(&results[i]);
-	free(results);
-	free(specs);
-	free(errs);
-	for (s = 0; s < nsplits; s++) {
-		free(splits[s].def);
-		free(splits[s].meas);
-	}
-	free(splits);
+	return rc;
+}
+
+/* Voxels each rule left out, per run fitted, and the parcels they emptied (leftout.h). */
+static void record_leftout(const char *label, const task_fit *tasks, size_t ntasks, size_t nruns_all,
+			   const loc_setup *L, size_t nl, size_t nvox, subject_result *res, sr_err *e)
+{
+	const glm_out **outs = xcalloc(nruns_all ? nruns_all : 1, sizeof *outs);
+	size_t n = 0, r, i;
+
+	res->leftout = xcalloc(nruns_all ? nruns_all : 1, sizeof *res->leftout);
 	for (i = 0; i < ntasks; i++)
+		for (r = 0; r < tasks[i].nruns; r++) {
+			leftout_from_fit(&res->leftout[n], tasks[i].task, tasks[i].runs[r].label,
+					 &tasks[i].res[r].out);
+			outs[n++] = &tasks[i].res[r].out;
+		}
+	res->nleftout = n;
+	for (i = 0; i < nl; i++)
+		leftout_warn_parcels(label, L[i].labels, nvox, L[i].ps->n, L[i].ps->index, L[i].ps->name,
+				     outs, n, e);
+	free(outs);
+}
+
+sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
+			  sr_err *e)
+{
+	const study *st = ctx->st;
+	size_t nl = st->nlocs, ntasks = 0, i, k, nvox = 0, nruns_all = 0, nkeep = 0;
+	loc_setup *L = xcalloc(nl, sizeof *L);
+	expr **locef = xcalloc(nl, sizeof *locef), **eff = NULL;
+	task_fit *tasks = NULL;
+	unsigned char *mask_owned = NULL;
+	nii_grid mask_grid_own, grid;
+	char *mask_path_own = NULL;
+	char dir[2048], buf[1024];
+	double t0 = now_seconds();
+	struct timespec started;
+	sr_status rc = SR_OK;
+	size_t *keep = NULL;
+	int32_t *keep_pos = NULL;
+
+	memset(res, 0, sizeof *res);
+	clock_gettime(CLOCK_REALTIME, &started);
+	if (strlen(st->out) + strlen(label) + 8 > sizeof dir) {
+		rc = sr_fail(e, SR_EINVAL, "%s: the output folder name is too long", st->out);
+		goto out;
+	}
+	if (ctx->dir)
+		snprintf(dir, sizeof dir, "%s", ctx->dir);
+	else
+		snprintf(dir, sizeof dir, "%s/sub-%s", st->out, label);
+	/* a redo starts by withdrawing the old completion record and table, so that an
+	   interrupted or failed redo never leaves results that look current */
+	withdraw(dir);
+	rc = loc_setups(ctx, label, L, e);
+	if (rc)
+		goto out;
+	build_tasks(st, L, locef, &tasks, &ntasks, &eff);
+	progress(ctx, label, "finding runs");
+	for (i = 0; i < ntasks; i++) {
+		rc = task_prepare(st, label, &tasks[i], e);
+		if (rc)
+			goto out;
+		nruns_all += tasks[i].nruns;
+	}
+	if (!ctx->mask && study_mask_per_subject(st)) {
+		rc = own_mask(st, label, tasks, ntasks, &mask_owned, &mask_grid_own, &mask_path_own, e);
+		if (rc)
+			goto out;
+	}
+	rc = check_grids(tasks, ntasks, mask_owned ? mask_path_own : st->mask,
+			 mask_owned ? &mask_grid_own : ctx->mask_grid, e);
+	if (rc)
+		goto out;
+	/* the parcels too, before any run is fitted (headers only) */
+	for (i = 0; i < nl; i++)
+		if (!L[i].view.resample_parcels &&
+		    !nii_same_grid(&tasks[0].grid[0], &L[i].ps->grid, 1e-3, buf, sizeof buf)) {
+			rc = sr_fail(e, SR_EDIM,
+				     "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
+				     L[i].own_image ? L[i].own_image : L[i].view.parcels, tasks[0].runs[0].bold, buf);
+			goto out;
+		}
+	keep = keep_all(L, nl, &tasks[0].grid[0], &nkeep, &keep_pos);
+	rc = fit_all(ctx, label, tasks, ntasks, nruns_all, mask_owned ? mask_owned : ctx->mask, keep, nkeep, e);
+	if (rc)
+		goto out;
+	/* one grid for all of the subject's runs */
+	grid = tasks[0].res[0].info.grid;
+	nvox = nii_nvox(&grid);
+	for (i = 0; i < ntasks; i++)
+		warn_estimability(&tasks[i], e);
+	warn_drift(st, label, tasks, ntasks, e);
+	for (i = 0; i < nl; i++) {
+		rc = loc_labels(&L[i], &grid, nvox, label, tasks[0].runs[0].bold, e);
+		if (rc)
+			goto out;
+	}
+	record_leftout(label, tasks, ntasks, nruns_all, L, nl, nvox, res, e);
+	progress(ctx, label, "defining fROIs");
+	for (i = 0; !rc && i < nl; i++) {
+		const study_localizer *sl = &st->locs[i];
+		task_fit loc = role_view(&tasks[L[i].task], L[i].off, (int)sl->neffects + 1);
+		task_fit *meas = xcalloc(L[i].view.nmeasures + 1, sizeof *meas);
+		int nlr = 0;
+
+		for (k = 0; k < L[i].view.nmeasures; k++)
+			meas[k] = role_view(&tasks[L[i].mtask[k]], L[i].moff[k], (int)L[i].view.measures[k].neffects);
+		rc = loc_pass(&L[i].view, sl->label, nl > 1 ? sl->label : NULL, &loc, meas, L[i].view.nmeasures,
+			      L[i].ps, L[i].labels, L[i].lost, keep_pos, &grid, nvox, dir, label, &nlr, res, e);
+		if (i == 0)
+			res->nloc_runs = nlr;
+		free(meas);
+	}
+	if (!rc)
+		rc = write_outputs(ctx, dir, label, tasks, ntasks, L, &grid, nvox, started, t0, res, e);
+out:
+	for (i = 0; i < ntasks; i++) {
 		task_release(&tasks[i]);
+		free(eff[i]);
+	}
 	free(tasks);
-	free(loc_effects);
-	free(labels_owned);
+	free(eff);
+	for (i = 0; i < nl; i++) {
+		free(locef[i]);
+		loc_setup_release(&L[i]);
+	}
+	free(locef);
+	free(L);
 	free(keep);
 	free(keep_pos);
-	free(lost);
-	parcel_set_release(&own_ps);
-	free(own_image);
-	free(own_names);
 	free(mask_owned);
 	free(mask_path_own);
-	if (rc) {
-		/* the table may already be written when the completion record fails */
-		snprintf(path, sizeof path, "%s/run.json", dir);
-		remove(path);
-		snprintf(path, sizeof path, "%s/responses.csv", dir);
-		remove(path);
-		snprintf(path, sizeof path, "%s/reliability.csv", dir);
-		remove(path);
-		snprintf(path, sizeof path, "%s/timecourses.csv", dir);
-		remove(path);
-	}
+	if (rc)
+		withdraw(dir);   /* the table may already be written when the completion record fails */
 	return rc;
 }
 
