@@ -160,9 +160,9 @@ typedef struct subject {
 	char *reason;      /* NULL or owned text */
 } subject;
 
-/* One (parcel, split, task, effect): a value per subject. */
+/* One (localizer, parcel, split, task, effect): a value per subject. */
 typedef struct cell {
-	size_t parcel, split, task, effect;
+	size_t loc, parcel, split, task, effect;
 	int paired;
 	double *v;         /* nsubj values, NaN = none */
 	double *nvox;      /* nsubj fROI sizes, NaN = none */
@@ -180,7 +180,7 @@ typedef struct group_ctx {
 	const char *out;
 	subject *subj;
 	size_t nsubj, nused, nmissing, nexcluded;
-	strtab parcels, splits, tasks, effects, keys;
+	strtab locs, parcels, splits, tasks, effects, keys;
 	cell *cells;
 	size_t ncells, capcells;
 	grow *rows;
@@ -375,12 +375,12 @@ static int read_exclusions(group_ctx *g, const char *path)
 	return 0;
 }
 
-static cell *cell_get(group_ctx *g, size_t p, size_t s, size_t t, size_t ef, int create)
+static cell *cell_get(group_ctx *g, size_t l, size_t p, size_t s, size_t t, size_t ef, int create)
 {
-	char key[128];
+	char key[160];
 	size_t i;
 
-	snprintf(key, sizeof key, "%zu,%zu,%zu,%zu", p, s, t, ef);
+	snprintf(key, sizeof key, "%zu,%zu,%zu,%zu,%zu", l, p, s, t, ef);
 	if (!create) {
 		i = strtab_find(&g->keys, key);
 		return i == (size_t)-1 ? NULL : &g->cells[i];
@@ -395,6 +395,7 @@ static cell *cell_get(group_ctx *g, size_t p, size_t s, size_t t, size_t ef, int
 			g->cells = xrealloc(g->cells, g->capcells * sizeof *g->cells);
 		}
 		c = &g->cells[g->ncells++];
+		c->loc = l;
 		c->parcel = p;
 		c->split = s;
 		c->task = t;
@@ -413,7 +414,7 @@ static cell *cell_get(group_ctx *g, size_t p, size_t s, size_t t, size_t ef, int
 static int load_table(group_ctx *g, size_t si, const char *path)
 {
 	static const char *const need[] = { "subject", "parcel", "split", "measure_task", "effect", "value" };
-	int col[6], cvox;
+	int col[6], cvox, cloc;
 	table t;
 	sr_err e;
 	size_t r, k;
@@ -439,6 +440,7 @@ static int load_table(group_ctx *g, size_t si, const char *path)
 		}
 	}
 	cvox = table_col(&t, "n_voxels");
+	cloc = table_col(&t, "localizer");   /* tables from before several localizers have none */
 	if (t.nrows == 0)
 		warnf("%s: the table has no rows", path);
 	for (r = 0; r < t.nrows; r++) {
@@ -472,11 +474,13 @@ static int load_table(group_ctx *g, size_t si, const char *path)
 			}
 		if (!tested_split(spl))
 			continue;
-		c = cell_get(g, strtab_add(&g->parcels, par), strtab_add(&g->splits, spl),
+		c = cell_get(g, strtab_add(&g->locs, cloc >= 0 ? table_cell(&t, r, (size_t)cloc) : ""),
+			     strtab_add(&g->parcels, par), strtab_add(&g->splits, spl),
 			     strtab_add(&g->tasks, tsk), strtab_add(&g->effects, eff), 1);
 		if (c->seen[si]) {
-			cmdline_error("group", "%s: line %zu: a second row for parcel '%s', split '%s', task '%s', "
-				      "effect '%s'", path, t.line[r], par, spl, tsk, eff);
+			cmdline_error("group", "%s: line %zu: a second row for localizer '%s', parcel '%s', split '%s', task '%s', "
+				      "effect '%s'", path, t.line[r], cloc >= 0 ? table_cell(&t, r, (size_t)cloc) : "",
+				      par, spl, tsk, eff);
 			table_release(&t);
 			return 1;
 		}
@@ -735,12 +739,12 @@ static int make_pairs(group_ctx *g, char **pairs, size_t npairs)
 
 			if (g->cells[i].effect != ea || g->cells[i].paired)
 				continue;
-			b = cell_get(g, g->cells[i].parcel, g->cells[i].split, g->cells[i].task, eb, 0);
+			b = cell_get(g, g->cells[i].loc, g->cells[i].parcel, g->cells[i].split, g->cells[i].task, eb, 0);
 			if (!b)
 				continue;
 			bi = (size_t)(b - g->cells);
 			/* creating a cell may move the array: index, not pointers, across it */
-			d = cell_get(g, g->cells[i].parcel, g->cells[i].split, g->cells[i].task, ep, 1);
+			d = cell_get(g, g->cells[i].loc, g->cells[i].parcel, g->cells[i].split, g->cells[i].task, ep, 1);
 			b = &g->cells[bi];
 			d->paired = 1;
 			for (s = 0; s < g->nsubj; s++) {
@@ -760,7 +764,7 @@ static int make_pairs(group_ctx *g, char **pairs, size_t npairs)
 /* ---- statistics ---- */
 
 typedef struct sortkey {
-	size_t k[4];
+	size_t k[5];
 	size_t cell;
 } sortkey;
 
@@ -769,7 +773,7 @@ static int cmp_key(const void *a, const void *b)
 	const sortkey *x = a, *y = b;
 	int i;
 
-	for (i = 0; i < 4; i++)
+	for (i = 0; i < 5; i++)
 		if (x->k[i] != y->k[i])
 			return x->k[i] < y->k[i] ? -1 : 1;
 	return 0;
@@ -782,10 +786,11 @@ static void compute(group_ctx *g)
 	double *p, *q;
 
 	for (i = 0; i < g->ncells; i++) {
-		keys[i].k[0] = g->cells[i].parcel;
-		keys[i].k[1] = g->cells[i].split;
-		keys[i].k[2] = g->cells[i].task;
-		keys[i].k[3] = g->cells[i].effect;
+		keys[i].k[0] = g->cells[i].loc;
+		keys[i].k[1] = g->cells[i].parcel;
+		keys[i].k[2] = g->cells[i].split;
+		keys[i].k[3] = g->cells[i].task;
+		keys[i].k[4] = g->cells[i].effect;
 		keys[i].cell = i;
 	}
 	qsort(keys, g->ncells, sizeof *keys, cmp_key);
@@ -808,7 +813,7 @@ static void compute(group_ctx *g)
 		g->rows[r].mean_nvox = nv ? sv / (double)nv : NAN;
 		fam[r] = (size_t)-1;
 	}
-	/* Families: (split kind, task, effect); BH over their parcels (METHODS.md 9, 11). */
+	/* Families: (localizer, split kind, task, effect); BH over their parcels (METHODS.md 9, 11). */
 	{
 		strtab fams = { 0 };
 
@@ -816,7 +821,7 @@ static void compute(group_ctx *g)
 			const cell *c = &g->cells[g->rows[r].cell];
 			char key[96];
 
-			snprintf(key, sizeof key, "%zu,%zu,%zu", c->split, c->task, c->effect);
+			snprintf(key, sizeof key, "%zu,%zu,%zu,%zu", c->loc, c->split, c->task, c->effect);
 			fam[r] = strtab_add(&fams, key);
 		}
 		nfam = fams.n;
@@ -863,7 +868,7 @@ static void row_note(const group_ctx *g, const grow *r, char *buf, size_t n)
 
 static int write_group(group_ctx *g, sr_err *e)
 {
-	static const char *const head[] = { "parcel", "split", "split_kind", "part", "measure_task",
+	static const char *const head[] = { "localizer", "parcel", "split", "split_kind", "part", "measure_task",
 					    "effect", "test", "n", "mean", "sd", "sem", "t", "df", "p",
 					    "cohen_d", "q_fdr", "mean_n_voxels", "note" };
 	csvout c;
@@ -881,6 +886,7 @@ static int write_group(group_ctx *g, sr_err *e)
 		char note[256], kind[128], part[128];
 
 		bidsname_split_parts(g->splits.s[cl->split], kind, sizeof kind, part, sizeof part);
+		csvout_str(&c, g->locs.s[cl->loc]);
 		csvout_str(&c, g->parcels.s[cl->parcel]);
 		csvout_str(&c, g->splits.s[cl->split]);
 		csvout_str(&c, kind);
@@ -998,7 +1004,7 @@ static const char *split_suffix(const char *split)
 
 static int write_wide(group_ctx *g, sr_err *e)
 {
-	static const char *const dhead[] = { "column", "parcel", "split", "split_kind", "part",
+	static const char *const dhead[] = { "column", "localizer", "parcel", "split", "split_kind", "part",
 					     "measure_task", "effect" };
 	size_t r, i, ncol = 0, s, k, nh = 0;
 	const char **head = NULL;
@@ -1018,7 +1024,7 @@ static int write_wide(group_ctx *g, sr_err *e)
 		if (cl->paired)
 			continue;
 		cols[ncol++] = g->rows[r].cell;
-		snprintf(key, sizeof key, "%zu,%zu,%zu", cl->parcel, cl->task, cl->effect);
+		snprintf(key, sizeof key, "%zu,%zu,%zu,%zu", cl->loc, cl->parcel, cl->task, cl->effect);
 		if (strtab_find(&seen, key) != (size_t)-1) {
 			snprintf(key + strlen(key), sizeof key - strlen(key), ",dup");
 			strtab_add(&seen, key);
@@ -1030,16 +1036,22 @@ static int write_wide(group_ctx *g, sr_err *e)
 	strtab_add(&used, "subject");
 	for (i = 0; i < ncol; i++) {
 		const cell *cl = &g->cells[cols[i]];
-		char key[96], a[1024], b[1024], cc[1024], full[3200], cand[3300];
+		char key[96], a[1024], b[1024], cc[1024], full[3200], cand[3300], lp[1100] = "";
 		int dup, nth = 1;
 
-		snprintf(key, sizeof key, "%zu,%zu,%zu,dup", cl->parcel, cl->task, cl->effect);
+		snprintf(key, sizeof key, "%zu,%zu,%zu,%zu,dup", cl->loc, cl->parcel, cl->task, cl->effect);
 		dup = strtab_find(&seen, key) != (size_t)-1;
+		if (g->locs.n > 1) {
+			/* several localizers: their parcels may share names, so the localizer leads */
+			wide_part(g->locs.s[cl->loc], a, sizeof a);
+			snprintf(lp, sizeof lp, "%s.", a);
+		}
 		wide_part(g->parcels.s[cl->parcel], a, sizeof a);
 		wide_part(g->tasks.s[cl->task], b, sizeof b);
 		wide_part(g->effects.s[cl->effect], cc, sizeof cc);
-		snprintf(full, sizeof full, "%s%s.%s.%s%s%s",
-			 ((a[0] >= 'a' && a[0] <= 'z') || (a[0] >= 'A' && a[0] <= 'Z')) ? "" : "X", a, b, cc,
+		snprintf(full, sizeof full, "%s%s%s.%s.%s%s%s",
+			 ((lp[0] ? lp[0] : a[0]) >= 'a' && (lp[0] ? lp[0] : a[0]) <= 'z') ||
+			 ((lp[0] ? lp[0] : a[0]) >= 'A' && (lp[0] ? lp[0] : a[0]) <= 'Z') ? "" : "X", lp, a, b, cc,
 			 dup ? "." : "", dup ? split_suffix(g->splits.s[cl->split]) : "");
 		snprintf(cand, sizeof cand, "%s", full);
 		while (strtab_find(&used, cand) != (size_t)-1)
@@ -1073,7 +1085,7 @@ static int write_wide(group_ctx *g, sr_err *e)
 		csvout_endrow(&c);
 	}
 	path = path_join(g->out, "responses_wide_columns.csv");
-	if (csvout_open(&d, path, dhead, 7, e) != SR_OK) {
+	if (csvout_open(&d, path, dhead, 8, e) != SR_OK) {
 		free(path);
 		csvout_abort(&c);
 		goto out;
@@ -1085,6 +1097,7 @@ static int write_wide(group_ctx *g, sr_err *e)
 
 		bidsname_split_parts(g->splits.s[cl->split], kind, sizeof kind, part, sizeof part);
 		csvout_str(&d, names[i + 1]);
+		csvout_str(&d, g->locs.s[cl->loc]);
 		csvout_str(&d, g->parcels.s[cl->parcel]);
 		csvout_str(&d, g->splits.s[cl->split]);
 		csvout_str(&d, kind);
@@ -1106,7 +1119,7 @@ static int write_wide(group_ctx *g, sr_err *e)
 	}
 	free(path);
 	path = path_join(g->out, "responses_wide_columns.csv");
-	if (tabledict_write(path, dhead, 7, NULL, 0, e) != SR_OK) {
+	if (tabledict_write(path, dhead, 8, NULL, 0, e) != SR_OK) {
 		free(path);
 		goto out;
 	}
@@ -1150,6 +1163,7 @@ static void by_write_row(csvout *c, const group_ctx *g, const byrow *b, const ch
 		snprintf(lev, sizeof lev, "%s - %s", levels[0], levels[1]);
 	else
 		snprintf(lev, sizeof lev, "%s", levels[b->level]);
+	csvout_str(c, g->locs.s[cl->loc]);
 	csvout_str(c, g->parcels.s[cl->parcel]);
 	csvout_str(c, g->splits.s[cl->split]);
 	csvout_str(c, kind);
@@ -1198,7 +1212,7 @@ static void by_fdr(const group_ctx *g, byrow *rows, size_t n, size_t nlev)
 		const cell *c = &g->cells[rows[r].cell];
 		char key[128];
 
-		snprintf(key, sizeof key, "%zu,%zu,%zu,%zu", c->split, c->task, c->effect, rows[r].level);
+		snprintf(key, sizeof key, "%zu,%zu,%zu,%zu,%zu", c->loc, c->split, c->task, c->effect, rows[r].level);
 		fam[r] = strtab_add(&fams, key);
 	}
 	for (f = 0; f < fams.n; f++) {
@@ -1221,7 +1235,7 @@ static void by_fdr(const group_ctx *g, byrow *rows, size_t n, size_t nlev)
 
 static int write_by(group_ctx *g, const char *col, sr_err *e)
 {
-	static const char *const head[] = { "parcel", "split", "split_kind", "part", "measure_task",
+	static const char *const head[] = { "localizer", "parcel", "split", "split_kind", "part", "measure_task",
 					    "effect", "by", "level", "test", "n", "n_a", "n_b", "mean",
 					    "sd", "sem", "t", "df", "p", "cohen_d", "q_fdr", "note" };
 	size_t k, s, r, l, nlev = 0, nrow = 0, *lev_of = xmalloc_array(g->nsubj ? g->nsubj : 1, sizeof *lev_of);
@@ -1362,7 +1376,10 @@ static void summary(const group_ctx *g)
 		const grow *w = &g->rows[r];
 		const cell *cl = &g->cells[w->cell];
 
-		snprintf(cellt[r][SC_PARCEL], 64, "%s", g->parcels.s[cl->parcel]);
+		if (g->locs.n > 1)   /* several localizers: which one's fROI */
+			snprintf(cellt[r][SC_PARCEL], 64, "%s/%s", g->locs.s[cl->loc], g->parcels.s[cl->parcel]);
+		else
+			snprintf(cellt[r][SC_PARCEL], 64, "%s", g->parcels.s[cl->parcel]);
 		snprintf(cellt[r][SC_SPLIT], 64, "%s", g->splits.s[cl->split]);
 		snprintf(cellt[r][SC_TASK], 64, "%s", g->tasks.s[cl->task]);
 		snprintf(cellt[r][SC_EFFECT], 64, "%s", g->effects.s[cl->effect]);
@@ -1442,6 +1459,7 @@ static void group_release(group_ctx *g)
 	}
 	free(g->cells);
 	free(g->rows);
+	strtab_release(&g->locs);
 	strtab_release(&g->parcels);
 	strtab_release(&g->splits);
 	strtab_release(&g->tasks);
