@@ -478,9 +478,12 @@ static int load_table(group_ctx *g, size_t si, const char *path)
 			     strtab_add(&g->parcels, par), strtab_add(&g->splits, spl),
 			     strtab_add(&g->tasks, tsk), strtab_add(&g->effects, eff), 1);
 		if (c->seen[si]) {
-			cmdline_error("group", "%s: line %zu: a second row for localizer '%s', parcel '%s', split '%s', task '%s', "
-				      "effect '%s'", path, t.line[r], cloc >= 0 ? table_cell(&t, r, (size_t)cloc) : "",
-				      par, spl, tsk, eff);
+			char lw[600] = "";
+
+			if (cloc >= 0)
+				snprintf(lw, sizeof lw, "localizer '%s', ", table_cell(&t, r, (size_t)cloc));
+			cmdline_error("group", "%s: line %zu: a second row for %sparcel '%s', split '%s', task '%s', "
+				      "effect '%s'", path, t.line[r], lw, par, spl, tsk, eff);
 			table_release(&t);
 			return 1;
 		}
