@@ -777,6 +777,108 @@ static void check_mask(checker *c, const data_grid *grids, size_t ngrids)
 	}
 }
 
+/*
+ * A localizer after the first (several localizers): its task's runs (checked
+ * here when no earlier localizer or measure has that task), its splits, the
+ * conditions its contrast and effects name, and its parcels.
+ */
+static void check_localizer(checker *c, size_t l, char **subs, size_t nsub, const data_grid *grids,
+			    size_t ngrids)
+{
+	const study *whole = c->st;
+	study v;
+	task_seen *seen = xcalloc(nsub ? nsub : 1, sizeof *seen);
+	strlist known = { 0 }, reported = { 0 };
+	char section[512];
+	size_t s, k;
+	int done = strcmp(whole->locs[l].task, whole->loc_task) == 0;
+
+	for (k = 0; k < whole->nmeasures && !done; k++)
+		done = strcmp(whole->measures[k].task, whole->locs[l].task) == 0;
+	for (k = 1; k < l && !done; k++)
+		done = strcmp(whole->locs[k].task, whole->locs[l].task) == 0;
+	study_use_localizer(whole, l, &v);
+	c->st = &v;
+	for (s = 0; s < nsub; s++) {
+		task_seen *ts = &seen[s];
+		nii_grid ref;
+		int have_ref = 0;
+		char ref_path[1024] = "";
+		sr_err e;
+
+		sr_err_init(&e, on_warn, c);
+		if (study_runs(&v, subs[s], v.loc_task, &ts->runs, &ts->nruns, &e) != SR_OK) {
+			problem(c, e.msg);
+			continue;
+		}
+		if (!done) {
+			printf("sub-%s\n  task %s (localizer %s): %zu run%s\n", subs[s], v.loc_task,
+			       study_loc_label(whole, l), ts->nruns, ts->nruns == 1 ? "" : "s");
+			if (ts->nruns == 0) {
+				char msg[1024];
+
+				snprintf(msg, sizeof msg, "%s: sub-%s has no runs of task %s (localizer %s)",
+					 v.derivatives ? v.derivatives : v.bids, subs[s], v.loc_task,
+					 study_loc_label(whole, l));
+				problem(c, msg);
+			}
+		}
+		/* a task not seen yet gets each run's checks; else only its events' conditions */
+		for (size_t r = 0; r < ts->nruns; r++) {
+			event_list ev;
+			sr_err quiet;
+
+			if (!done) {
+				check_run(c, &ts->runs[r], ts, &ref, &have_ref, ref_path, sizeof ref_path);
+				continue;
+			}
+			sr_err_init(&quiet, NULL, NULL);   /* the earlier check of these runs said it */
+			if (ts->runs[r].events_exist &&
+			    events_read(ts->runs[r].events, v.condition_column, &ev, &quiet) == SR_OK) {
+				for (size_t q = 0; q < ev.n; q++)
+					sl_add_unique(&ts->conds, ev.ev[q].condition);
+				events_release(&ev);
+			}
+		}
+	}
+	printf("localizer %s splits (%s)\n", study_loc_label(whole, l),
+	       v.split == SPLIT_ODD_EVEN ? "odd-even" : "leave-one-out");
+	for (s = 0; s < nsub; s++) {
+		print_splits(c, subs[s], &seen[s]);
+		for (k = 0; k < seen[s].conds.n; k++)
+			sl_add_unique(&known, seen[s].conds.s[k]);
+	}
+	if (known.n)
+		qsort(known.s, known.n, sizeof *known.s, cmp_str);
+	snprintf(section, sizeof section, "localizer %s", study_loc_label(whole, l));
+	check_names(c, section, "contrast", v.loc_task, &v.contrast, 1, &known, subs, nsub, seen, 1, &reported);
+	check_names(c, section, "effects", v.loc_task, v.loc_effects, v.nloc_effects, &known, subs, nsub, seen, 1,
+		    &reported);
+	if (study_per_subject(v.parcels) || study_per_subject(v.parcel_names)) {
+		for (s = 0; s < nsub; s++) {
+			study one = v;
+
+			one.parcels = study_subject_path(v.parcels, subs[s]);
+			one.parcel_names = study_subject_path(v.parcel_names, subs[s]);
+			c->st = &one;
+			check_parcels(c, grids, ngrids);
+			free(one.parcels);
+			free(one.parcel_names);
+		}
+	} else {
+		check_parcels(c, grids, ngrids);
+	}
+	c->st = whole;
+	study_view_release(&v);
+	sl_free(&known);
+	sl_free(&reported);
+	for (s = 0; s < nsub; s++) {
+		bids_runs_release(seen[s].runs, seen[s].nruns);
+		sl_free(&seen[s].conds);
+	}
+	free(seen);
+}
+
 /* ---- the command ---- */
 
 static int run_check(checker *c, char **subs, size_t nsub)
@@ -849,8 +951,13 @@ static int run_check(checker *c, char **subs, size_t nsub)
 			}
 		}
 	}
-	printf("localizer splits (%s); time courses: bins of one TR from 0 to %g s after onset\n",
-	       st->split == SPLIT_ODD_EVEN ? "odd-even" : "leave-one-out", st->timecourse_window);
+	if (st->nlocs > 1)
+		printf("localizer %s splits (%s); time courses: bins of one TR from 0 to %g s after onset\n",
+		       study_loc_label(st, 0), st->split == SPLIT_ODD_EVEN ? "odd-even" : "leave-one-out",
+		       st->timecourse_window);
+	else
+		printf("localizer splits (%s); time courses: bins of one TR from 0 to %g s after onset\n",
+		       st->split == SPLIT_ODD_EVEN ? "odd-even" : "leave-one-out", st->timecourse_window);
 	for (s = 0; s < nsub; s++)
 		print_splits(c, subs[s], &seen[s * ntasks]);
 	for (t = 0; t < ntasks; t++) {
@@ -900,6 +1007,8 @@ static int run_check(checker *c, char **subs, size_t nsub)
 	} else {
 		check_parcels(c, grids, ngrids);
 	}
+	for (size_t l = 1; l < st->nlocs; l++)
+		check_localizer(c, l, subs, nsub, grids, ngrids);
 	if (study_mask_per_subject(st)) {
 		for (s = 0; s < nsub; s++) {
 			char **paths = NULL;

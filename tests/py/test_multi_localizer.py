@@ -164,6 +164,17 @@ def main():
     ok(os.path.exists(os.path.join(one, "sub-01_task-tones_desc-oddevenA_tstat.nii.gz")),
        "a one-localizer study keeps its map names (desc-<split>)")
 
+    # check lists every localizer's splits and checks each one's contrast
+    rc, out = run("check", multi)
+    ok(rc == 0 and "localizer hearing splits (odd-even)" in out and "localizer pitch splits (leave-one-out)" in out
+       and "localizer seeing splits (odd-even)" in out and "sub-02 leave-one-out:3: define on runs 1+2+4" in out,
+       "check lists the splits of every localizer")
+    typo = study("typo", "[localizer hearing]" + open(multi).read().split("[localizer hearing]", 1)[1].replace(
+        "contrast = familiar - novel", "contrast = familiar - nvel"))
+    rc, out = run("check", typo)
+    ok(rc != 0 and "names condition 'nvel'" in out and typo + ": line" in out,
+       "check finds an unknown condition in a later localizer's contrast, naming the line")
+
     # 4. a bad study stops before any output
     bad = study("bad", named("hearing", HL, HP) + "[localizer]\n" + SL + "\n" + model)
     rc, out = run("analyze", "--quiet", bad)
