@@ -405,6 +405,62 @@ static long find_sorted(char **v, size_t n, const char *s)
 	return hit ? (long)(hit - v) : -1;
 }
 
+/*
+ * The localizers of a table's localizer column in row order, or none (*n = 0)
+ * when it has no such column or only one localizer: then the report draws the
+ * table as one, as with a single localizer.
+ */
+static char **table_localizers(const table *t, size_t *n)
+{
+	char **v = NULL;
+	int c = table_col(t, "localizer");
+	size_t r;
+
+	*n = 0;
+	for (r = 0; c >= 0 && r < t->nrows; r++)
+		if (find(v, *n, table_cell(t, r, (size_t)c)) < 0)
+			add_unique(&v, n, table_cell(t, r, (size_t)c));
+	if (*n < 2) {
+		free_strs(v, *n);
+		*n = 0;
+		return NULL;
+	}
+	return v;
+}
+
+/* The rows of t whose localizer is loc, as a view borrowing t's cells (table_view_release). */
+static void table_where_localizer(const table *t, const char *loc, table *view)
+{
+	int c = table_col(t, "localizer");
+	size_t r, n = 0;
+
+	*view = *t;
+	view->cells = xmalloc_array(t->nrows * t->ncols + 1, sizeof *view->cells);
+	view->line = xmalloc_array(t->nrows + 1, sizeof *view->line);
+	for (r = 0; r < t->nrows; r++) {
+		if (c >= 0 && strcmp(table_cell(t, r, (size_t)c), loc) != 0)
+			continue;
+		memcpy(view->cells + n * t->ncols, t->cells + r * t->ncols, t->ncols * sizeof *view->cells);
+		view->line[n++] = t->line[r];
+	}
+	view->nrows = n;
+}
+
+static void table_view_release(table *view)
+{
+	free(view->cells);
+	free(view->line);
+	memset(view, 0, sizeof *view);
+}
+
+/* A heading per localizer, for a report of several. */
+static void localizer_heading(sbuf *b, const char *loc)
+{
+	sb_puts(b, "<h3 class=\"localizer\">Localizer ");
+	sb_esc(b, loc);
+	sb_puts(b, "</h3>\n");
+}
+
 /* One chart of the time courses: a parcel, split kind and task, with its conditions. */
 typedef struct tc_chart {
 	char *parcel, *split, *task;
@@ -477,18 +533,17 @@ static void tc_fill(const table *g, const int *gc, const table *all, const int *
 	}
 }
 
+static void tc_draw(sbuf *b, const table *g, const table *allp, const int *gc, const int *ac, int *uid);
+
 /* Response time courses: one chart per parcel, split kind and task (timecourses_group.csv, timecourses.csv). */
 static void timecourse_section(sbuf *b, const char *out, int *uid)
 {
 	static const char *const gn[] = { "parcel", "split", "measure_task", "condition", "time", "mean", "sem" };
 	static const char *const an[] = { "parcel", "split", "measure_task", "condition", "time", "value", "subject" };
-	char path[8192], **times = NULL, **subs = NULL;
-	size_t nb = 0, ns = 0, nch, k, r, q;
+	char path[8192], **locs;
+	size_t nl, l;
 	int gc[7], ac[7], have_all, i;
 	table g, all;
-	tc_chart *ch;
-	rs_curve **cvs;
-	double *tv;
 
 	sb_puts(b, "<h2 id=\"timecourses-h\">Response time courses</h2>\n<p class=\"note\">Finite-impulse-response "
 		   "estimates per bin of one TR after each event's onset, in percent signal change, on the measure runs of each "
@@ -512,6 +567,38 @@ static void timecourse_section(sbuf *b, const char *out, int *uid)
 			return;
 		}
 	}
+	locs = table_localizers(&g, &nl);
+	if (nl == 0)
+		tc_draw(b, &g, have_all ? &all : NULL, gc, ac, uid);
+	for (l = 0; l < nl; l++) {
+		table gv, av;
+
+		localizer_heading(b, locs[l]);
+		table_where_localizer(&g, locs[l], &gv);
+		if (have_all)
+			table_where_localizer(&all, locs[l], &av);
+		tc_draw(b, &gv, have_all ? &av : NULL, gc, ac, uid);
+		table_view_release(&gv);
+		if (have_all)
+			table_view_release(&av);
+	}
+	free_strs(locs, nl);
+	table_release(&g);
+	if (have_all)
+		table_release(&all);
+}
+
+/* The charts of one set of time-course rows (all of them, or one localizer's). */
+static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, const int *ac, int *uid)
+{
+	char **times = NULL, **subs = NULL;
+	size_t nb = 0, ns = 0, nch, k, r, q;
+	int have_all = allp != NULL;
+	const table g = *gp, all = allp ? *allp : *gp;
+	tc_chart *ch;
+	rs_curve **cvs;
+	double *tv;
+
 	for (r = 0; r < g.nrows; r++)
 		if (find(times, nb, table_cell(&g, r, (size_t)gc[4])) < 0)
 			add_unique(&times, &nb, table_cell(&g, r, (size_t)gc[4]));
@@ -576,9 +663,6 @@ static void timecourse_section(sbuf *b, const char *out, int *uid)
 	free(tv);
 	free_strs(times, nb);
 	free_strs(subs, ns);
-	table_release(&g);
-	if (have_all)
-		table_release(&all);
 }
 
 /* The group summary of reliability.csv (reliability_group.csv) as a table. */
@@ -684,17 +768,31 @@ int report_write(const char *out, int quiet)
 		    "responses measured in the others, averaged over the splits. Bars: mean over subjects; whiskers: &#177;1 standard "
 		    "error of the mean; circles: one per subject, in subject order from left to right.</p>\n");
 	if (have_resp) {
-		char **sl = NULL;
-		size_t ns = 0, r;
+		char **sl = NULL, **locs;
+		size_t ns = 0, r, nl;
 
 		for (r = 0; r < resp.nrows; r++)
 			add_unique(&sl, &ns, table_cell(&resp, r, (size_t)c.subject));
 		if (ns)   /* no rows when every subject failed: qsort wants a real array */
 			qsort(sl, ns, sizeof *sl, cmp_str);
-		charts(&b, &sum, &resp, &c, 0, sl, ns, &uid);
-		sb_puts(&b, "<h2 id=\"measured\">Measured tasks</h2>\n<p class=\"note\">fROIs defined on all localizer runs, "
-			    "responses in the other task's runs (split all).</p>\n");
-		charts(&b, &sum, &resp, &c, 1, sl, ns, &uid);
+		locs = table_localizers(&resp, &nl);
+		for (int measured = 0; measured < 2; measured++) {
+			if (measured)
+				sb_puts(&b, "<h2 id=\"measured\">Measured tasks</h2>\n<p class=\"note\">fROIs defined on all localizer runs, "
+					    "responses in the other task's runs (split all).</p>\n");
+			if (nl == 0)
+				charts(&b, &sum, &resp, &c, measured, sl, ns, &uid);
+			for (size_t l = 0; l < nl; l++) {
+				table v;
+
+				/* several localizers: each one's fROIs apart (their parcels may share names) */
+				localizer_heading(&b, locs[l]);
+				table_where_localizer(&resp, locs[l], &v);
+				charts(&b, &sum, &v, &c, measured, sl, ns, &uid);
+				table_view_release(&v);
+			}
+		}
+		free_strs(locs, nl);
 		free_strs(sl, ns);
 	}
 	sb_puts(&sum, "</tbody></table>\n");
@@ -711,10 +809,14 @@ int report_write(const char *out, int quiet)
 			    "adjusted p value.</p>\n");
 		sb_puts(&b, "<div class=\"wide\" id=\"group-box\">");
 		/* the note (e.g. incomplete) leads with the key numbers, so it is never scrolled away */
-		static const char *const lead[] = { "parcel", "split", "measure_task", "effect", "note", "n", "mean",
+		static const char *const lead[] = { "localizer", "parcel", "split", "measure_task", "effect", "note", "n", "mean",
 						    "sem", "t", "df", "p", "q_fdr", "cohen_d", NULL };
+		size_t ngl;
+		char **gl = table_localizers(&group, &ngl);
 
-		table_html(&b, &group, "group", lead);
+		/* the localizer leads only when there are several (else it follows the numbers) */
+		table_html(&b, &group, "group", ngl ? lead : lead + 1);
+		free_strs(gl, ngl);
 		sb_puts(&b, "</div>\n");
 		table_release(&group);
 	} else {

@@ -1,5 +1,6 @@
 /* report_sub.c - one subject's report page: fROI slices, t maps, overlap, design matrices, motion. */
 #include <dirent.h>
+#include <ctype.h>
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -175,14 +176,51 @@ static void load_parcels(page *pg)
  * first, then the definitions of measured tasks (desc-all<task>). The token
  * shown is the desc entity's value.
  */
+/*
+ * The first of several named localizers of a study text ([localizer NAME])
+ * into buf, or "" with one localizer (named or not). With several, their
+ * maps' desc- starts with the name (mapout.h).
+ */
+static void first_named_localizer(const char *text, char *buf, size_t len)
+{
+	const char *p = text;
+	int seen = 0;
+
+	buf[0] = '\0';
+	while (p && *p) {
+		const char *q = p + strspn(p, " \t");
+
+		if (strncmp(q, "[localizer", 10) == 0 && (q[10] == ' ' || q[10] == '\t')) {
+			size_t k = 0;
+
+			q += 10;
+			q += strspn(q, " \t");
+			while (k + 1 < len && (isalnum((unsigned char)q[k])))
+				k++;
+			if (seen++ == 0) {
+				memcpy(buf, q, k);
+				buf[k] = '\0';
+			}
+		}
+		p = strchr(p, '\n');
+		if (p)
+			p++;
+	}
+	if (seen < 2)
+		buf[0] = '\0';
+}
+
 static void load_maps(page *pg, sr_err *e)
 {
-	char mdir[4200], path[8400], prefix[256];
+	char mdir[4200], path[8400], prefix[256], loc0[64];
 	char **tok;
-	size_t n, i, pass;
+	size_t n, i, pass, l0;
 
 	snprintf(mdir, sizeof mdir, "%s/func", pg->dir);
 	snprintf(prefix, sizeof prefix, "sub-%s_", pg->label);
+	/* several localizers: the splits of the first one are the halves compared here */
+	first_named_localizer(pg->rec.study_text, loc0, sizeof loc0);
+	l0 = strlen(loc0);
 	tok = list_dir(mdir, prefix, "_dseg.nii.gz", &n);
 	for (pass = 0; pass < 2; pass++)
 		for (i = 0; i < n; i++) {
@@ -192,7 +230,10 @@ static void load_maps(page *pg, sr_err *e)
 			lmap *m;
 
 			desc = desc ? desc + 5 : tok[i];
-			is_all = strncmp(desc, "all", 3) == 0;
+			if (l0)
+				is_all = strncmp(desc, loc0, l0) != 0 || strncmp(desc + l0, "all", 3) == 0;
+			else
+				is_all = strncmp(desc, "all", 3) == 0;
 			if (is_all != (int)pass)
 				continue;
 			snprintf(path, sizeof path, "%s/%s%s_dseg.nii.gz", mdir, prefix, tok[i]);
@@ -852,7 +893,14 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 	rc = runrec_read(path, &pg.rec, e);
 	if (rc)
 		return rc;
-	split = runrec_ini_get(pg.rec.study_text, "localizer", "split");
+	{
+		/* several localizers: the first one's split (its splits are the page's halves) */
+		char loc0[64], sec[96];
+
+		first_named_localizer(pg.rec.study_text, loc0, sizeof loc0);
+		snprintf(sec, sizeof sec, "localizer%s%s", loc0[0] ? " " : "", loc0);
+		split = runrec_ini_get(pg.rec.study_text, sec, "split");
+	}
 	s->split_kind = split ? split : xstrdup("odd-even");
 	s->study_file = pg.rec.study_file ? xstrdup(pg.rec.study_file) : NULL;
 	sr_err_init(&note, NULL, NULL);

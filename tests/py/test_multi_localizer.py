@@ -164,6 +164,14 @@ def main():
     ok(os.path.exists(os.path.join(one, "sub-01_task-tones_desc-oddevenA_tstat.nii.gz")),
        "a one-localizer study keeps its map names (desc-<split>)")
 
+    # the report: a heading per localizer in each section it draws (responses, measured tasks, time courses)
+    html = open(os.path.join(mres, "report.html")).read()
+    for name in ("hearing", "pitch", "seeing"):
+        ok(html.count('<h3 class="localizer">Localizer %s</h3>' % name) == 3,
+           "the report has localizer %s's headings (cross-validated, measured, time courses)" % name)
+    one = open(os.path.join(sim, "res_hearing", "report.html")).read()
+    ok('class="localizer"' not in one, "a one-localizer report has no localizer headings")
+
     # check lists every localizer's splits and checks each one's contrast
     rc, out = run("check", multi)
     ok(rc == 0 and "localizer hearing splits (odd-even)" in out and "localizer pitch splits (leave-one-out)" in out
