@@ -288,9 +288,10 @@ static void *worker(void *arg)
 }
 
 /* The aligned summary on stdout: per parcel, mean fROI size and the cross-validated effects. */
-static void print_summary(const study *st, const subject_result *res, const int *ran, size_t n)
+static void print_summary_loc(const study *st, size_t li, const subject_result *res, const int *ran, size_t n)
 {
-	const char *kind = st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean";
+	const study_localizer *L = &st->locs[li];
+	const char *kind = L->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean";
 	size_t i, k;
 	char **parcels = NULL;
 	size_t np = 0;
@@ -298,17 +299,20 @@ static void print_summary(const study *st, const subject_result *res, const int 
 	/* only parcels with cross-validated rows: none when no subject has two localizer runs */
 	for (i = 0; i < n; i++)
 		for (k = 0; ran[i] && k < res[i].nrows; k++)
-			if (strcmp(res[i].rows[k].split, kind) == 0 &&
+			if (strcmp(res[i].rows[k].split, kind) == 0 && strcmp(res[i].rows[k].localizer, L->label) == 0 &&
 			    !has_label(parcels, np, res[i].rows[k].parcel)) {
 				parcels = xrealloc(parcels, (np + 1) * sizeof *parcels);
 				parcels[np++] = res[i].rows[k].parcel;
 			}
 	if (!np)
 		return;
-	printf("\ncross-validated responses (%s), mean over subjects analyzed now:\n", kind);
+	if (st->nlocs > 1)
+		printf("\nlocalizer %s: cross-validated responses (%s), mean over subjects analyzed now:\n", L->label, kind);
+	else
+		printf("\ncross-validated responses (%s), mean over subjects analyzed now:\n", kind);
 	printf("  %-22s %10s  %-28s %10s %4s\n", "parcel", "fROI size", "effect", "mean", "n");
 	for (k = 0; k < np; k++) {
-		size_t j, ne = st->nloc_effects;
+		size_t j, ne = L->neffects;
 
 		for (j = 0; j < ne; j++) {
 			double sv = 0, sn = 0;
@@ -321,7 +325,7 @@ static void print_summary(const study *st, const subject_result *res, const int 
 					const response_row *w = &res[i].rows[r];
 
 					if (strcmp(w->parcel, parcels[k]) || strcmp(w->split, kind) ||
-					    strcmp(w->effect, st->loc_effects[j].text))
+					    strcmp(w->localizer, L->label) || strcmp(w->effect, L->effects[j].text))
 						continue;
 					sn += w->n_voxels;
 					cntv++;
@@ -335,13 +339,20 @@ static void print_summary(const study *st, const subject_result *res, const int 
 				continue;
 			if (cnt)
 				printf("  %-22s %10.1f  %-28s %9.3f%% %4zu\n", j ? "" : parcels[k],
-				       sn / (double)cntv, st->loc_effects[j].text, sv / (double)cnt, cnt);
+				       sn / (double)cntv, L->effects[j].text, sv / (double)cnt, cnt);
 			else
 				printf("  %-22s %10.1f  %-28s %10s %4zu\n", j ? "" : parcels[k],
-				       sn / (double)cntv, st->loc_effects[j].text, "-", cnt);
+				       sn / (double)cntv, L->effects[j].text, "-", cnt);
 		}
 	}
 	free(parcels);
+}
+
+/* The summary of every localizer. */
+static void print_summary(const study *st, const subject_result *res, const int *ran, size_t n)
+{
+	for (size_t li = 0; li < st->nlocs; li++)
+		print_summary_loc(st, li, res, ran, n);
 }
 
 /*
