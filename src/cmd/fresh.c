@@ -23,14 +23,20 @@ static void add(jdoc *o, const char *path)
 jdoc *fresh_record(const study *st, const char *label)
 {
 	jdoc *o = jdoc_object();
-	size_t k, ntasks = 1 + st->nmeasures;
-	char *img = study_subject_path(st->parcels, label);
-	char *nm = study_subject_path(st->parcel_names, label);
+	/* the first localizer's task, the measured tasks, then the other localizers' tasks */
+	size_t k, ntasks = 1 + st->nmeasures + (st->nlocs ? st->nlocs - 1 : 0);
 
-	add(o, img);
-	add(o, nm);
-	free(img);
-	free(nm);
+	for (k = 0; k < (st->nlocs ? st->nlocs : 1); k++) {
+		const char *pi = st->nlocs ? st->locs[k].parcels : st->parcels;
+		const char *pn = st->nlocs ? st->locs[k].parcel_names : st->parcel_names;
+		char *img = study_subject_path(pi, label);
+		char *nm = study_subject_path(pn, label);
+
+		add(o, img);
+		add(o, nm);
+		free(img);
+		free(nm);
+	}
 	if (!st->mask_auto) {
 		char *m = study_subject_path(st->mask, label);
 
@@ -38,7 +44,8 @@ jdoc *fresh_record(const study *st, const char *label)
 		free(m);
 	}
 	for (k = 0; k < ntasks; k++) {
-		const char *task = k ? st->measures[k - 1].task : st->loc_task;
+		const char *task = k == 0 ? st->loc_task : k <= st->nmeasures ? st->measures[k - 1].task :
+				   st->locs[k - st->nmeasures].task;
 		bids_run *runs;
 		size_t nr, r;
 

@@ -93,7 +93,11 @@ def main():
             f.write(head.replace("out = results", "out = res_" + name) + text)
         return path
 
-    multi = study("multi", named("hearing", HL, HP) + named("pitch", PL, PP) + named("seeing", SL, SP) +
+    # seeing's parcel names from a copy of the table, so that a change to it alone can be made below
+    with open(os.path.join(sim, "parcels.tsv")) as f, open(os.path.join(sim, "parcels_seeing.tsv"), "w") as g:
+        g.write(f.read())
+    multi = study("multi", named("hearing", HL, HP) + named("pitch", PL, PP) +
+                  named("seeing", SL, SP.replace("parcels.tsv", "parcels_seeing.tsv")) +
                   model + MM + "localizers = hearing pitch\n" + MT + "localizers = seeing\n")
     singles = {
         "hearing": (study("hearing", "[localizer]\n" + HL + "\n[parcels]\n" + HP + "\n" + model + MM), "tones"),
@@ -182,6 +186,20 @@ def main():
     rc, out = run("check", typo)
     ok(rc != 0 and "names condition 'nvel'" in out and typo + ": line" in out,
        "check finds an unknown condition in a later localizer's contrast, naming the line")
+
+    # a later localizer's parcels count for the freshness of a subject's results
+    rc, out = run("analyze", multi)
+    ok(rc == 0 and out.count("up to date, skipped") == 3, "a second analyze skips the 3 complete subjects")
+    names = open(os.path.join(sim, "parcels_seeing.tsv")).read()
+    with open(os.path.join(sim, "parcels_seeing.tsv"), "w") as f:
+        f.write(names.replace("occipital_control", "occipital_other"))
+    rc, out = run("analyze", multi)
+    hm, rm = rows(os.path.join(mres, "responses.csv"))
+    li, pi = hm.index("localizer"), hm.index("parcel")
+    ok(rc == 0 and "up to date" not in out and
+       any(r[li] == "seeing" and r[pi] == "occipital_other" for r in rm) and
+       not any(r[li] != "seeing" and r[pi] == "occipital_other" for r in rm),
+       "after seeing's parcel table changes, analyze redoes the subjects and only seeing's rows change name")
 
     # 4. a bad study stops before any output
     bad = study("bad", named("hearing", HL, HP) + "[localizer]\n" + SL + "\n" + model)
