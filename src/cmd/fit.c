@@ -497,6 +497,12 @@ static int load_study_inputs(const char *path, const char *subject, const char *
 				fx = st.measures[i].effects;
 				nfx = st.measures[i].neffects;
 			}
+		/* a later localizer's task (several localizers): its effects */
+		for (i = 1; !fx && i < st.nlocs; i++)
+			if (strcmp(st.locs[i].task, task) == 0) {
+				fx = st.locs[i].effects;
+				nfx = st.locs[i].neffects;
+			}
 	}
 	if (strncmp(subject, "sub-", 4) == 0)
 		subject += 4;

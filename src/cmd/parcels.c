@@ -471,6 +471,12 @@ static int from_study(const char *path, const char *const *val, sr_err *e)
 		return 1;
 	}
 	study_problems_release(&probs);
+	if (st.nlocs > 1) {
+		/* which localizer's maps would be ambiguous: say so rather than pick one */
+		sr_fail(e, SR_ESTUDY, "%s: the study has %zu localizers; make each one's parcels from a study file with that localizer alone",
+			path, st.nlocs);
+		goto fail;
+	}
 	if (analyze_study_subjects(&st, &subs, &nsub, e) != SR_OK)
 		goto fail;
 	if (nsub == 0 || (loo && nsub < 2)) {

@@ -18,12 +18,17 @@ named) and each is analyzed apart. Then:
    fitted once, and names each localizer's parcels;
 3. the maps of localizer X carry X in desc- (desc-<X><split>) and hold the
    same voxels as the single run's maps (desc-<split>);
-4. a bad study (named and unnamed localizers mixed) stops analyze with the
+4. the report has a heading per localizer; check lists every localizer's
+   splits and finds a typo in a later localizer's contrast; a later
+   localizer's parcel table counts for freshness; parcels refuses several
+   localizers; fit --task finds a later localizer's effects;
+5. a bad study (named and unnamed localizers mixed) stops analyze with the
    file and line, before any output folder is made.
 """
 import csv
 import json
 import os
+import shutil
 import subprocess
 import sys
 import tempfile
@@ -201,7 +206,19 @@ def main():
        not any(r[li] != "seeing" and r[pi] == "occipital_other" for r in rm),
        "after seeing's parcel table changes, analyze redoes the subjects and only seeing's rows change name")
 
-    # 4. a bad study stops before any output
+    # the parcels command refuses a study of several localizers (which one's maps?); fit finds a later one's effects
+    rc, out = run("parcels", multi, "--out", os.path.join(tmp, "pp"))
+    ok(rc != 0 and "has 3 localizers" in out and not os.path.exists(os.path.join(tmp, "pp", "parcels.nii.gz")),
+       "parcels on a several-localizer study fails saying why")
+    two = study("fitonly", named("hearing", HL, HP) +
+                named("seeing", SL.replace("effects = familiar, novel", "effects = novel - familiar"), SP) + model)
+    rc, out = run("fit", "--study", two, "--subject", "01", "--task", "memory", "--out", os.path.join(tmp, "fit"),
+                  "--quiet")
+    made = sorted(os.listdir(os.path.join(tmp, "fit"))) if os.path.isdir(os.path.join(tmp, "fit")) else []
+    ok(rc == 0 and "sub-01_task-memory_desc-novelMinusFamiliar_effect.nii.gz" in made,
+       "fit --task of a later localizer fits its effects (%s)" % out.strip()[:120])
+
+    # 5. a bad study stops before any output
     bad = study("bad", named("hearing", HL, HP) + "[localizer]\n" + SL + "\n" + model)
     rc, out = run("analyze", "--quiet", bad)
     ok(rc != 0 and bad + ": line" in out and "cannot be mixed" in out,
@@ -209,6 +226,7 @@ def main():
     ok(not os.path.exists(os.path.join(sim, "res_bad")), "and makes no output folder")
     rc, out = run("check", bad)
     ok(rc != 0 and "cannot be mixed" in out, "check reports it too")
+    shutil.rmtree(tmp, ignore_errors=True)
 
 
 main()
