@@ -1014,6 +1014,128 @@ static sr_status check_grids(const task_fit *tasks, size_t ntasks, const char *m
 	return SR_OK;
 }
 
+static void free_splits(split *splits, int n)
+{
+	for (int s = 0; s < n; s++) {
+		free(splits[s].def);
+		free(splits[s].meas);
+	}
+	free(splits);
+}
+
+/* The splits of the localizer runs (METHODS.md section 6); *nsplits 0 with fewer than 2 runs. */
+static split *make_splits(const study *st, const task_fit *loc, size_t nmeas, const char *label, int *nsplits,
+			  sr_err *e)
+{
+	split *splits = NULL;
+	int s;
+
+	int nl = (int)loc->nruns;
+
+		if (nl < 2) {
+		sr_warnf(e, "subject %s has %d run of task '%s': no cross-validated rows%s",
+			 label, nl, st->loc_task,
+			 nmeas > 0 ? "; measured-task rows are still made" :
+			 " and the study measures no other task, so the subject's table is empty");
+	} else if (st->split == SPLIT_ODD_EVEN) {
+		*nsplits = 2;
+		splits = xcalloc(2, sizeof *splits);
+		for (s = 0; s < 2; s++) {
+			int r, nodd = (nl + 1) / 2, neven = nl / 2;
+
+			snprintf(splits[s].name, sizeof splits[s].name, "odd-even:%c", 'A' + s);
+			splits[s].def = xcalloc((size_t)nl, sizeof(int));
+			splits[s].meas = xcalloc((size_t)nl, sizeof(int));
+			for (r = 0; r < nl; r++) {
+				int odd = (r % 2) == 0;   /* 1st, 3rd, ... in run order */
+
+				if (odd == (s == 0))
+					splits[s].def[splits[s].ndef++] = r;
+				else
+					splits[s].meas[splits[s].nmeas++] = r;
+			}
+			(void)nodd;
+			(void)neven;
+		}
+	} else {
+		*nsplits = nl;
+		splits = xcalloc((size_t)nl, sizeof *splits);
+		for (s = 0; s < nl; s++) {
+			int r;
+
+			snprintf(splits[s].name, sizeof splits[s].name, "leave-one-out:%s",
+				 loc->runs[s].label);
+			splits[s].def = xcalloc((size_t)nl, sizeof(int));
+			splits[s].meas = xcalloc(1, sizeof(int));
+			for (r = 0; r < nl; r++)
+				if (r != s)
+					splits[s].def[splits[s].ndef++] = r;
+			splits[s].meas[splits[s].nmeas++] = s;
+		}
+	}
+	return splits;
+}
+
+/* Measured tasks: fROIs from all localizer runs (and a map of that definition), rows split all. */
+static sr_status measured_rows(const study *st, const char *lname, const char *mapname, const task_fit *loc,
+			       const task_fit *mts, size_t nmeas, const parcel_set *ps, const int32_t *labels,
+			       const unsigned char *lost, const int32_t *keep_pos, const nii_grid *gp, size_t nvox,
+			       const char *dir, const char *label, subject_result *res, sr_err *e)
+{
+	double *E = xmalloc_array(nvox, sizeof *E);
+	char meas[1024], all[1024];
+	nii_grid grid = *gp;
+	sr_status rc = SR_OK;
+	size_t i;
+	int p, j;
+
+	all_runs_list(loc, all, sizeof all);
+	for (i = 0; !rc && i < nmeas; i++) {
+		const task_fit *mt = &mts[i];
+		int *lpos = xmalloc_array(loc->nruns, sizeof *lpos);
+		int *mpos = xmalloc_array(mt->nruns, sizeof *mpos);
+		froi_set f;
+		size_t r;
+
+		for (r = 0; r < loc->nruns; r++)
+			lpos[r] = (int)r;
+		for (r = 0; r < mt->nruns; r++)
+			mpos[r] = (int)r;
+		define_frois(st, loc, lpos, (int)loc->nruns, NULL, 0, mt, labels, ps, nvox, &f);
+		all_runs_list(mt, meas, sizeof meas);
+		for (p = 0; p < ps->n; p++) {
+			if (f.count[p] == 0 && !(lost && lost[p]))
+				sr_warnf(e, "subject %s, parcel %s, task %s: the fROI defined on all localizer runs is empty",
+					 label, ps->name[p], mt->task);
+		}
+		for (j = 0; j < mt->ne; j++) {
+			ffx_map(mt, mpos, (int)mt->nruns, j, nvox, E, NULL);
+			for (p = 0; p < ps->n; p++)
+				add_row(res, lname, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
+					mt->missing[j] ? NAN : froi_mean(&f, p, E), (double)f.count[p],
+					(double)f.ncand[p]);
+		}
+		{
+			int nb = fir_nbins(st->timecourse_window, mt->tr[0]);
+			double *tv = xmalloc_array((size_t)(ps->n ? ps->n : 1) * (size_t)(mt->ncond ? mt->ncond : 1) *
+						   (size_t)nb, sizeof *tv);
+			unsigned char *use = tc_conditions(mt, 0);
+
+			tc_split(st, mt, mpos, (int)mt->nruns, &f, ps->n, keep_pos, nb, tv, e);
+			tc_rows(res, lname, ps, "all", mt, use, nb, mt->tr[0], tv);
+			free(tv);
+			free(use);
+		}
+		rc = write_maps(dir, st, mapname, label, loc, "all", mt->task, all, meas,
+				ffx_df(loc, lpos, (int)loc->nruns), &grid, nvox, ps, &f, e);
+		froi_release(&f);
+		free(lpos);
+		free(mpos);
+	}
+	free(E);
+	return rc;
+}
+
 /*
  * One localizer's part of a subject (METHODS.md 6-8): its splits, define t,
  * fROIs, cross-validated rows, reliability and time courses, then its
@@ -1027,57 +1149,11 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 {
 	split *splits = NULL;
 	int nsplits = 0, s, p, j;
-	size_t i;
 	nii_grid grid = *gridp;
 	sr_status rc = SR_OK;
 
-	/* the splits of the localizer runs (METHODS.md section 6) */
-	{
-		int nl = (int)loc->nruns;
-
-		*nloc_runs = nl;
-		if (nl < 2) {
-			sr_warnf(e, "subject %s has %d run of task '%s': no cross-validated rows%s",
-				 label, nl, st->loc_task,
-				 nmeas > 0 ? "; measured-task rows are still made" :
-				 " and the study measures no other task, so the subject's table is empty");
-		} else if (st->split == SPLIT_ODD_EVEN) {
-			nsplits = 2;
-			splits = xcalloc(2, sizeof *splits);
-			for (s = 0; s < 2; s++) {
-				int r, nodd = (nl + 1) / 2, neven = nl / 2;
-
-				snprintf(splits[s].name, sizeof splits[s].name, "odd-even:%c", 'A' + s);
-				splits[s].def = xcalloc((size_t)nl, sizeof(int));
-				splits[s].meas = xcalloc((size_t)nl, sizeof(int));
-				for (r = 0; r < nl; r++) {
-					int odd = (r % 2) == 0;   /* 1st, 3rd, ... in run order */
-
-					if (odd == (s == 0))
-						splits[s].def[splits[s].ndef++] = r;
-					else
-						splits[s].meas[splits[s].nmeas++] = r;
-				}
-				(void)nodd;
-				(void)neven;
-			}
-		} else {
-			nsplits = nl;
-			splits = xcalloc((size_t)nl, sizeof *splits);
-			for (s = 0; s < nl; s++) {
-				int r;
-
-				snprintf(splits[s].name, sizeof splits[s].name, "leave-one-out:%s",
-					 loc->runs[s].label);
-				splits[s].def = xcalloc((size_t)nl, sizeof(int));
-				splits[s].meas = xcalloc(1, sizeof(int));
-				for (r = 0; r < nl; r++)
-					if (r != s)
-						splits[s].def[splits[s].ndef++] = r;
-				splits[s].meas[splits[s].nmeas++] = s;
-			}
-		}
-	}
+	*nloc_runs = (int)loc->nruns;
+	splits = make_splits(st, loc, nmeas, label, &nsplits, e);
 	{
 		int ne = loc->ne;
 		/* per split, parcel and effect: value, n_voxels, n_candidates for the :mean rows */
@@ -1086,7 +1162,7 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 		double *nv = xcalloc(cells, sizeof *nv);
 		double *nc = xcalloc(cells, sizeof *nc);
 		double *E = xmalloc_array(nvox, sizeof *E);
-		char def[1024], meas[1024], all[1024], mdef[4096] = "", mmeas[4096] = "";
+		char def[1024], meas[1024], mdef[4096] = "", mmeas[4096] = "";
 		/* per split, for reliability.csv: the define t as written (float32) and the fROI */
 		size_t nsk = (size_t)(nsplits ? nsplits : 1);
 		double **keep_t = xcalloc(nsk, sizeof *keep_t);
@@ -1098,7 +1174,6 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 		double *tcv = xcalloc(nsk * tcper, sizeof *tcv);
 		unsigned char *tcuse = tc_conditions(loc, 1);
 
-		all_runs_list(loc, all, sizeof all);
 		for (s = 0; s < nsplits; s++) {
 			froi_set f;
 
@@ -1206,59 +1281,15 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 		free(keep_f);
 		free(keep_name);
 		free(keep_def);
-		/* measured tasks: fROIs from all localizer runs (and a map of that definition) */
-		for (i = 0; !rc && i < nmeas; i++) {
-			const task_fit *mt = &mts[i];
-			int *lpos = xmalloc_array(loc->nruns, sizeof *lpos);
-			int *mpos = xmalloc_array(mt->nruns, sizeof *mpos);
-			froi_set f;
-			size_t r;
-
-			for (r = 0; r < loc->nruns; r++)
-				lpos[r] = (int)r;
-			for (r = 0; r < mt->nruns; r++)
-				mpos[r] = (int)r;
-			define_frois(st, loc, lpos, (int)loc->nruns, NULL, 0, mt, labels, ps, nvox, &f);
-			all_runs_list(mt, meas, sizeof meas);
-			for (p = 0; p < ps->n; p++) {
-				if (f.count[p] == 0 && !(lost && lost[p]))
-					sr_warnf(e, "subject %s, parcel %s, task %s: the fROI defined on all localizer runs is empty",
-						 label, ps->name[p], mt->task);
-			}
-			for (j = 0; j < mt->ne; j++) {
-				ffx_map(mt, mpos, (int)mt->nruns, j, nvox, E, NULL);
-				for (p = 0; p < ps->n; p++)
-					add_row(res, lname, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
-						mt->missing[j] ? NAN : froi_mean(&f, p, E), (double)f.count[p],
-						(double)f.ncand[p]);
-			}
-			{
-				int nb = fir_nbins(st->timecourse_window, mt->tr[0]);
-				double *tv = xmalloc_array((size_t)(ps->n ? ps->n : 1) * (size_t)(mt->ncond ? mt->ncond : 1) *
-							   (size_t)nb, sizeof *tv);
-				unsigned char *use = tc_conditions(mt, 0);
-
-				tc_split(st, mt, mpos, (int)mt->nruns, &f, ps->n, keep_pos, nb, tv, e);
-				tc_rows(res, lname, ps, "all", mt, use, nb, mt->tr[0], tv);
-				free(tv);
-				free(use);
-			}
-			rc = write_maps(dir, st, mapname, label, loc, "all", mt->task, all, meas,
-					ffx_df(loc, lpos, (int)loc->nruns), &grid, nvox, ps, &f, e);
-			froi_release(&f);
-			free(lpos);
-			free(mpos);
-		}
+		if (!rc)
+			rc = measured_rows(st, lname, mapname, loc, mts, nmeas, ps, labels, lost, keep_pos, &grid, nvox,
+					   dir, label, res, e);
 		free(val);
 		free(nv);
 		free(nc);
 		free(E);
 	}
-	for (s = 0; s < nsplits; s++) {
-		free(splits[s].def);
-		free(splits[s].meas);
-	}
-	free(splits);
+	free_splits(splits, nsplits);
 	return rc;
 }
 
