@@ -6,7 +6,8 @@ ROOT=$(cd "$(dirname "$0")/../.." && pwd)
 # example file, then the simulate options that make its data
 examples="visual_odd_even.ini:--scenario=visual
 numbers_leave_one_out.ini:--scenario=numbers
-motor_top_voxels_resampled.ini:--scenario=motor --parcel-grid=fine"
+motor_top_voxels_resampled.ini:--scenario=motor --parcel-grid=fine
+auditory_two_localizers.ini:--scenario=auditory"
 
 n=0
 while IFS=: read -r file args; do
