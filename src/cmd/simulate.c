@@ -86,11 +86,12 @@ static const cmdline_opt opts[] = {
 	{ "scenario", "NAME", "auditory (default), visual, numbers or motor" },
 	{ "parcel-grid", "NAME", "same (default) or fine (half the voxel size: needs resampling)" },
 	{ "groups", "SCALE", "two groups in participants.tsv's group column: odd subjects control, even subjects patient, whose effects are SCALE times as large" },
+	{ "two-localizers", NULL, "study.ini with both tasks as localizers (named by their tasks), each measured in the other's fROIs; the same truth holds for both" },
 	{ "quiet", NULL, "print nothing but errors" },
 	{ NULL, NULL, NULL }
 };
 enum { O_OUT, O_SUBJECTS, O_SEED, O_GRID, O_VOLUMES, O_TR, O_NOISE, O_AR1, O_RUNS, O_NULL,
-       O_INT16, O_SCENARIO, O_PGRID, O_GROUPS, O_QUIET, O_N };
+       O_INT16, O_SCENARIO, O_PGRID, O_GROUPS, O_TWO_LOC, O_QUIET, O_N };
 
 static const cmdline_spec spec = {
 	"simulate", "--out DIR [options]",
@@ -111,6 +112,7 @@ struct opts {
 	long subjects, volumes, runs;
 	uint64_t seed;
 	int standard, null, int16, quiet, fine;
+	int two_loc;          /* --two-localizers: both tasks localizers in study.ini */
 	double tr, noise, rho;
 	double group_scale;   /* 0: one group; else the patients' (even subjects') effect factor */
 	const struct scenario *sc;
@@ -239,6 +241,12 @@ static int parse(int argc, char **argv, struct opts *o)
 	}
 	o->null = v[O_NULL] != NULL;
 	o->int16 = v[O_INT16] != NULL;
+	o->two_loc = v[O_TWO_LOC] != NULL;
+	if (o->two_loc && !o->sc->meas_task) {
+		cmdline_error("simulate", "--two-localizers needs a scenario with a second task; %s has one",
+			      o->sc->name);
+		return 2;
+	}
 	o->quiet = v[O_QUIET] != NULL;
 	if (o->volumes * o->tr < 100.0) {
 		cmdline_error("simulate", "runs of %ld volumes at TR %g s last %g s; at least 100 s are needed for two blocks",
@@ -433,35 +441,89 @@ static sr_status write_parcels(const struct opts *o, const sim_head *h, sr_err *
 	return st;
 }
 
+/* The [model] section of study.ini. */
+static void write_model(char *text, size_t cap, size_t *len)
+{
+	int j;
+
+#define ADDM(...) (*len += (size_t)snprintf(text + *len, cap - *len, __VA_ARGS__))
+	ADDM("\n[model]\nautocorrelation = ar1-adjusted\ndrift_cutoff = 128\nvolume_time = 0.5\n");
+	ADDM("confounds =");
+	for (j = 0; j < 6; j++)
+		ADDM(" %s", motion_names[j]);
+	ADDM("\nmotion =");
+	for (j = 0; j < 6; j++)
+		ADDM(" %s", motion_names[j]);
+	ADDM("\nconfounds_suffix = %s\n", CONFOUNDS_SUFFIX);
+}
+
+/*
+ * --two-localizers: both tasks are localizers on the same parcels, named by their
+ * tasks; the first by its contrast, the second by both its conditions (both respond in
+ * the simulator's regions); each task is measured in the other's fROIs. The regions
+ * and their weights are the same for both, so truth.csv holds for both.
+ */
+static void write_two_localizers(const struct opts *o, char *text, size_t cap, size_t *len)
+{
+	const struct scenario *sc = o->sc;
+	const char *task[2] = { sc->loc_task, sc->meas_task };
+	const char *const *cond[2] = { sc->loc_cond, sc->meas_cond };
+
+	for (int k = 0; k < 2; k++) {
+		ADDM("[localizer %s]\ntask = %s\ncontrast = %s %s %s\nsplit = odd-even\n", task[k],
+		     task[k], cond[k][0], k ? "+" : "-", cond[k][1]);
+		ADDM("effects = %s, %s, %s - %s\n\n", cond[k][0], cond[k][1], cond[k][0], cond[k][1]);
+		ADDM("[parcels %s]\nimage = parcels.nii.gz\nnames = parcels.tsv\ntop_percent = 10\n",
+		     task[k]);
+		if (o->fine)
+			ADDM("resample = nearest\n");
+		if (k == 0)
+			ADDM("\n");
+	}
+}
+
+/* --two-localizers, after [model]: each task measured in the other localizer's fROIs. */
+static void write_cross_measures(const struct opts *o, char *text, size_t cap, size_t *len)
+{
+	const struct scenario *sc = o->sc;
+	const char *task[2] = { sc->loc_task, sc->meas_task };
+	const char *const *cond[2] = { sc->loc_cond, sc->meas_cond };
+
+	for (int k = 0; k < 2; k++) {
+		ADDM("\n[measure %s]\ntask = %s\nlocalizers = %s\n", task[1 - k], task[1 - k], task[k]);
+		ADDM("effects = %s, %s, %s - %s\n", cond[1 - k][0], cond[1 - k][1], cond[1 - k][0],
+		     cond[1 - k][1]);
+	}
+#undef ADDM
+}
+
 static sr_status write_study(const struct opts *o, sr_err *e)
 {
 	const struct scenario *sc = o->sc;
 	char text[4096], *p;
 	size_t len = 0;
 	sr_status st;
-	int j;
 
 #define ADD(...) (len += (size_t)snprintf(text + len, sizeof text - len, __VA_ARGS__))
 	ADD("; study.ini - made by splitroi simulate (%s, seed %llu)\n", sc->title,
 	    (unsigned long long)o->seed);
 	ADD("; run with: splitroi analyze study.ini; compare the results with truth.csv\n\n");
 	ADD("[study]\nbids = data\nout = results\nsubjects = all\n\n");
-	ADD("[localizer]\ntask = %s\ncontrast = %s - %s\nsplit = odd-even\n", sc->loc_task,
-	    sc->loc_cond[0], sc->loc_cond[1]);
-	ADD("effects = %s, %s, %s - %s\n\n", sc->loc_cond[0], sc->loc_cond[1], sc->loc_cond[0],
-	    sc->loc_cond[1]);
-	ADD("[parcels]\nimage = parcels.nii.gz\nnames = parcels.tsv\ntop_percent = 10\n");
-	if (o->fine)
-		ADD("resample = nearest\n");
-	ADD("\n[model]\nautocorrelation = ar1-adjusted\ndrift_cutoff = 128\nvolume_time = 0.5\n");
-	ADD("confounds =");
-	for (j = 0; j < 6; j++)
-		ADD(" %s", motion_names[j]);
-	ADD("\nmotion =");
-	for (j = 0; j < 6; j++)
-		ADD(" %s", motion_names[j]);
-	ADD("\nconfounds_suffix = %s\n", CONFOUNDS_SUFFIX);
-	if (sc->meas_task) {
+	if (o->two_loc) {
+		write_two_localizers(o, text, sizeof text, &len);
+	} else {
+		ADD("[localizer]\ntask = %s\ncontrast = %s - %s\nsplit = odd-even\n", sc->loc_task,
+		    sc->loc_cond[0], sc->loc_cond[1]);
+		ADD("effects = %s, %s, %s - %s\n\n", sc->loc_cond[0], sc->loc_cond[1], sc->loc_cond[0],
+		    sc->loc_cond[1]);
+		ADD("[parcels]\nimage = parcels.nii.gz\nnames = parcels.tsv\ntop_percent = 10\n");
+		if (o->fine)
+			ADD("resample = nearest\n");
+	}
+	write_model(text, sizeof text, &len);
+	if (o->two_loc)
+		write_cross_measures(o, text, sizeof text, &len);
+	if (sc->meas_task && !o->two_loc) {
 		ADD("\n[measure %s]\ntask = %s\n", sc->meas_task, sc->meas_task);
 		ADD("effects = %s, %s, %s - %s\n", sc->meas_cond[0], sc->meas_cond[1],
 		    sc->meas_cond[0], sc->meas_cond[1]);

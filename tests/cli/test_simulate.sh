@@ -207,3 +207,19 @@ grep -q '^contrast = scenes - objects' "$TMP/o/study.ini" && ok "study.ini has t
 run "$SPLITROI" check "$TMP/a/study.ini"
 expect_status 0 "splitroi check accepts the simulated study.ini"
 expect_out "no problems found" "check finds no problem in the simulated study"
+
+# --two-localizers: the study file names both tasks as localizers, each measured in the other's fROIs
+run "$SPLITROI" simulate --out "$TMP/two" --subjects 2 --volumes 50 --quiet --two-localizers
+expect_status 0 "simulate --two-localizers"
+if grep -q '^\[localizer tones\]' "$TMP/two/study.ini" && grep -q '^\[localizer memory\]' "$TMP/two/study.ini" &&
+	grep -q '^localizers = memory' "$TMP/two/study.ini" && ! grep -q '^\[localizer\]' "$TMP/two/study.ini"; then
+	ok "the two-localizer study.ini has both named localizers and the cross measures"
+else
+	notok "the two-localizer study.ini: $(head -c 600 "$TMP/two/study.ini")"
+fi
+run "$SPLITROI" check "$TMP/two/study.ini"
+expect_status 0 "check accepts the two-localizer study"
+expect_out "localizer memory" "check lists the second localizer"
+run "$SPLITROI" simulate --out "$TMP/two-visual" --scenario visual --two-localizers --quiet
+expect_status 2 "--two-localizers with a one-task scenario is a usage error"
+expect_err "needs a scenario with a second task" "and says why"

@@ -1,9 +1,9 @@
 # test_validity_two_localizers.py - validity of the several-localizer path: with two localizers in one study, each one's cross-validated values and the other task measured in its fROIs recover the simulator's truth, and null data stay null.
-# A simulated auditory study (14 subjects, seed 5; 4 tones runs, 2 memory runs, which odd-even
-# splits one and one) is analyzed with one study file holding two localizers on the same parcels:
-# `hearing` (tones, melody - scrambled) and `recall` (memory, familiar + novel: both conditions
-# respond in the simulator's regions), each task measured in the other's fROIs ([measure ...]
-# localizers = ...). The simulator places one active region per parcel and scales every effect by
+# A simulated auditory study (`simulate --two-localizers`: 14 subjects, seed 5; 4 tones runs, 2
+# memory runs, which odd-even splits one and one) is analyzed with the study file simulate writes:
+# two localizers on the same parcels, `tones` (melody - scrambled) and `memory` (familiar + novel:
+# both conditions respond in the simulator's regions), each task measured in the other's fROIs
+# ([measure ...] localizers = ...). The simulator places one active region per parcel and scales every effect by
 # the same region weights, so truth.csv (the oracle top-10% fROI of each parcel) is the target for
 # both localizers' fROIs. Estimates run a few percent low (a noisy selection admits a few weaker
 # voxels; see test_validity_recovery.py), hence the tolerance below. A second study of the same
@@ -19,31 +19,6 @@ import validity_lib as vl  # noqa: E402
 NSUB, SEED = 14, 5
 ACTIVE = ("left_auditory", "right_auditory", "frontal_pitch")
 NULL_PARCEL = "occipital_control"
-
-
-def two_localizer_study(root, ck):
-    """The simulator's study.ini with its localizer and parcels sections named, and a second localizer."""
-    src = os.path.join(root, "study.ini")
-    text = open(src).read()
-    head = text.split("[localizer]")[0]
-    model = "[model]" + text.split("[model]")[1].split("[measure")[0]
-    parcels = "image = parcels.nii.gz\nnames = parcels.tsv\ntop_percent = 10\n"
-    body = (
-        "[localizer hearing]\ntask = tones\ncontrast = melody - scrambled\nsplit = odd-even\n"
-        "effects = melody, scrambled, melody - scrambled\n\n"
-        "[parcels hearing]\n" + parcels + "\n"
-        "[localizer recall]\ntask = memory\ncontrast = familiar + novel\nsplit = odd-even\n"
-        "effects = familiar, novel, familiar - novel\n\n"
-        "[parcels recall]\n" + parcels + "\n" + model + "\n"
-        "[measure memory]\ntask = memory\neffects = familiar, novel, familiar - novel\n"
-        "localizers = hearing\n\n"
-        "[measure tones]\ntask = tones\neffects = melody, scrambled, melody - scrambled\n"
-        "localizers = recall\n")
-    dst = os.path.join(root, "two.ini")
-    with open(dst, "w") as f:
-        f.write(head + body)
-    ck.check("[localizer]" not in head, "the study head holds no localizer section")
-    return dst
 
 
 def truth_means(root):
@@ -62,26 +37,27 @@ def main():
     ck = vl.Checker("test_validity_two_localizers")
     tmp = tempfile.mkdtemp()
     real, null = os.path.join(tmp, "real"), os.path.join(tmp, "null")
-    common = ("--subjects", NSUB, "--seed", SEED, "--runs", 4)
+    common = ("--subjects", NSUB, "--seed", SEED, "--runs", 4, "--two-localizers")
     if not (vl.simulate(real, ck, *common) and vl.simulate(null, ck, *common, "--null")):
         ck.finish()
-    # recall splits the memory runs odd-even: it needs two of them
+    # the memory localizer splits its runs odd-even: it needs two of them
     runs = [f for f in os.listdir(os.path.join(real, "data", "sub-01", "func"))
             if "task-memory" in f and f.endswith("_bold.nii.gz")]
     if len(runs) < 2:
         ck.check(False, "sub-01 has memory runs to split (%d)" % len(runs))
         ck.finish()
-    studies = {}
     for root in (real, null):
-        studies[root] = two_localizer_study(root, ck)
-        if not vl.analyze(studies[root], ck):
+        text = open(os.path.join(root, "study.ini")).read()
+        ck.check("[localizer tones]" in text and "[localizer memory]" in text and "[localizer]" not in text,
+                 "simulate --two-localizers writes two named localizers")
+        if not vl.analyze(os.path.join(root, "study.ini"), ck):
             ck.finish()
 
     # 1. recovery: group means of both localizers' rows against the truth
     want = truth_means(real)
     grp = vl.read_csv(os.path.join(real, "results", "group.csv"))
-    plan = [("hearing", "odd-even:mean", "tones"), ("hearing", "all", "memory"),
-            ("recall", "odd-even:mean", "memory"), ("recall", "all", "tones")]
+    plan = [("tones", "odd-even:mean", "tones"), ("tones", "all", "memory"),
+            ("memory", "odd-even:mean", "memory"), ("memory", "all", "tones")]
     worst, n, seen = 0.0, 0, set()
     for r in grp:
         key = (r["localizer"], r["split"], r["measure_task"])
@@ -116,7 +92,7 @@ def main():
     ngrp = vl.read_csv(os.path.join(null, "results", "group.csv"))
     locs = set(r["localizer"] for r in ngrp)
     bad = null_ok(ngrp, ACTIVE + (NULL_PARCEL,))
-    ck.check(locs == {"hearing", "recall"} and not bad,
+    ck.check(locs == {"tones", "memory"} and not bad,
              "null data stay null in every parcel of both localizers (p >= 0.001, |mean| <= 0.3): %s"
              % bad[:3])
     ck.finish()
