@@ -37,7 +37,7 @@ ISAL_LIBS = $(eval ISAL_LIBS := $(if $(filter no,$(ISAL)),,$(shell pkg-config --
 CFLAGS_ALL += $(ISAL_CFLAGS)
 LIBS += $(ISAL_LIBS)
 
-LIB_SRC := $(sort $(wildcard src/core/*.c src/io/*.c src/cmd/*.c))
+LIB_SRC := $(sort $(wildcard src/core/*.c src/io/*.c src/report/*.c src/pipeline/*.c src/cmd/*.c))
 LIB_OBJ := $(LIB_SRC:%.c=$(BUILD)/%.o)
 TEST_SRC := $(sort $(wildcard tests/unit/test_*.c))
 TEST_BIN := $(TEST_SRC:tests/unit/%.c=$(BUILD)/tests/%)

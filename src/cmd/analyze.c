@@ -15,17 +15,18 @@
 #include "../io/study.h"
 #include "../io/table.h"
 #include "analyze.h"
-#include "mapout.h"
+#include "../pipeline/mapout.h"
 #include "cmd.h"
 #include "cmdline.h"
-#include "fresh.h"
-#include "groupunit.h"
-#include "outcheck.h"
-#include "leftout.h"
+#include "../pipeline/fresh.h"
+#include "../pipeline/groupunit.h"
+#include "../pipeline/outcheck.h"
+#include "../pipeline/leftout.h"
 #include "progress.h"
-#include "report.h"
-#include "subject.h"
-#include "subunit.h"
+#include "../report/report.h"
+#include "../pipeline/studyset.h"
+#include "../pipeline/subject.h"
+#include "../pipeline/subunit.h"
 
 static const cmdline_opt opts[] = {
 	{ "out", "DIR", "write results under DIR instead of the study's 'out'" },
@@ -95,36 +96,6 @@ static char **split_labels(const char *text, size_t *n)
 static int cmp_str(const void *a, const void *b)
 {
 	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
-sr_status analyze_study_subjects(const study *st, char ***out, size_t *n, sr_err *e)
-{
-	char **found;
-	size_t nfound, i;
-	sr_status rc;
-
-	rc = bids_subjects(st->bids, &found, &nfound, e);
-	if (rc)
-		return rc;
-	if (!st->subjects) {
-		*out = found;
-		*n = nfound;
-		return SR_OK;
-	}
-	for (i = 0; i < st->nsubjects; i++)
-		if (!has_label(found, nfound, st->subjects[i])) {
-			sr_fail(e, SR_ESTUDY, "%s: subject '%s' is not in %s", st->path, st->subjects[i],
-				st->bids);
-			bids_strings_free(found, nfound);
-			return SR_ESTUDY;
-		}
-	bids_strings_free(found, nfound);
-	*out = xcalloc(st->nsubjects ? st->nsubjects : 1, sizeof **out);
-	for (i = 0; i < st->nsubjects; i++)
-		(*out)[i] = xstrdup(st->subjects[i]);
-	*n = st->nsubjects;
-	qsort(*out, *n, sizeof **out, cmp_str);
-	return SR_OK;
 }
 
 /* ---- conditions named in effects must exist for some subject (METHODS.md section 11) ---- */
@@ -224,26 +195,6 @@ static int check_all_effects(const study *st, char **subs, size_t nsub)
 		free(conds);
 	}
 	return bad;
-}
-
-/* ---- skipping complete subjects ---- */
-
-int analyze_subject_complete(const study *st, const char *label)
-{
-	char path[4096];
-	struct stat sb;
-
-	snprintf(path, sizeof path, "%s/sub-%s/responses.csv", st->out, label);
-	if (stat(path, &sb) != 0)
-		return 0;
-	snprintf(path, sizeof path, "%s/sub-%s/reliability.csv", st->out, label);
-	if (stat(path, &sb) != 0)
-		return 0;
-	snprintf(path, sizeof path, "%s/sub-%s/timecourses.csv", st->out, label);
-	if (stat(path, &sb) != 0)
-		return 0;
-	snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, label);
-	return fresh_matches(st, label, path);
 }
 
 /* ---- running subjects, possibly several at a time ---- */
@@ -379,7 +330,7 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 		fprintf(stderr, "splitroi analyze: %zu of %zu subjects have no complete, up-to-date outputs:",
 			nsub - ncomplete, nsub);
 		for (i = 0; i < nsub && nmiss < 20; i++)
-			if (!analyze_subject_complete(st, subs[i])) {
+			if (!studyset_complete(st, subs[i])) {
 				fprintf(stderr, " sub-%s", subs[i]);
 				nmiss++;
 			}
@@ -450,7 +401,7 @@ int cmd_analyze(int argc, char **argv)
 	}
 	sr_err_init(&e, NULL, NULL);
 	rc = 1;
-	if (analyze_study_subjects(&st, &subs, &nsub, &e)) {
+	if (studyset_subjects(&st, &subs, &nsub, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_study;
 	}
@@ -522,7 +473,7 @@ int cmd_analyze(int argc, char **argv)
 		size_t kept = 0;
 
 		for (i = 0; i < ntodo; i++) {
-			if (!val[O_FORCE] && analyze_subject_complete(&st, todo[i])) {
+			if (!val[O_FORCE] && studyset_complete(&st, todo[i])) {
 				if (!quiet)
 					fprintf(stderr, "splitroi analyze: sub-%s: up to date, skipped (--force redoes it)\n",
 						todo[i]);

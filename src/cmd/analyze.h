@@ -1,4 +1,4 @@
-/* analyze.h - pieces of `analyze` that other commands reuse (skip rule, combined table). */
+/* analyze.h - the group step that analyze runs after its subjects (defined in group.c). */
 #ifndef SR_ANALYZE_H
 #define SR_ANALYZE_H
 
@@ -6,15 +6,6 @@
 
 #include "../core/err.h"
 #include "../io/study.h"
-
-/*
- * The study's subjects: its `subjects` list (each must exist under bids) or every
- * sub-* folder, sorted. Caller frees with bids_strings_free.
- */
-sr_status analyze_study_subjects(const study *st, char ***out, size_t *n, sr_err *e);
-
-/* 1 when OUT/sub-<label>/ holds complete outputs made from inputs with the content they have now (fresh.h). */
-int analyze_subject_complete(const study *st, const char *label);
 
 /* Runs the group step on OUT for the study's subjects (those without a table are listed missing); group.c; 0 = ok.
  * shown: the folder its "wrote" line names (the tables are staged in OUT and moved there), or NULL for OUT.

@@ -14,8 +14,8 @@
 #include "../io/table.h"
 #include "cmd.h"
 #include "cmdline.h"
-#include "runfit.h"
-#include "subject.h"
+#include "../pipeline/runfit.h"
+#include "../pipeline/subject.h"
 
 enum { O_SUBJECTS, O_HEADERS_ONLY, O_NOPTS };
 

@@ -20,7 +20,7 @@
 #include "../version.h"
 #include "cmd.h"
 #include "cmdline.h"
-#include "runfit.h"
+#include "../pipeline/runfit.h"
 
 static const cmdline_opt opts[] = {
 	{ "out", "DIR", "write the maps, design tables and fit.json into DIR (required)" },

@@ -20,10 +20,10 @@
 #include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
-#include "reliability.h"
-#include "report.h"
-#include "tabledict.h"
-#include "timecourse.h"
+#include "../pipeline/reliability.h"
+#include "../report/report.h"
+#include "../pipeline/tabledict.h"
+#include "../pipeline/timecourse.h"
 
 /* set while analyze runs the group step: analyze writes the report itself afterwards */
 static int in_analyze;

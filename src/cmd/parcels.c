@@ -17,7 +17,8 @@
 #include "analyze.h"
 #include "cmd.h"
 #include "cmdline.h"
-#include "subject.h"
+#include "../pipeline/studyset.h"
+#include "../pipeline/subject.h"
 
 enum {
 	OPT_OUT, OPT_P, OPT_T, OPT_FWHM, OPT_MINSIZE, OPT_MINSHARE, OPT_CONN, OPT_FLOOR, OPT_LOO,
@@ -477,7 +478,7 @@ static int from_study(const char *path, const char *const *val, sr_err *e)
 			path, st.nlocs);
 		goto fail;
 	}
-	if (analyze_study_subjects(&st, &subs, &nsub, e) != SR_OK)
+	if (studyset_subjects(&st, &subs, &nsub, e) != SR_OK)
 		goto fail;
 	if (nsub == 0 || (loo && nsub < 2)) {
 		sr_fail(e, SR_ESTUDY, "%s: %s", st.bids,

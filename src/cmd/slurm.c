@@ -15,7 +15,7 @@
 #include "../io/bids.h"
 #include "../io/nii.h"
 #include "../io/study.h"
-#include "analyze.h"
+#include "../pipeline/studyset.h"
 #include "cmd.h"
 #include "cmdline.h"
 
@@ -537,7 +537,7 @@ static int load_study(plan *P, const char *path)
 	}
 	P->study_abs = absolute(path);
 	sr_err_init(&e, NULL, NULL);
-	if (analyze_study_subjects(&P->st, &P->subs, &P->nsub, &e)) {
+	if (studyset_subjects(&P->st, &P->subs, &P->nsub, &e)) {
 		fprintf(stderr, "splitroi slurm: %s\n", e.msg);
 		return 1;
 	}
@@ -713,7 +713,7 @@ static int find_todo(plan *P)
 		size_t k = P->ntodo;
 		int pending;
 
-		if (analyze_subject_complete(&P->st, P->subs[i]))
+		if (studyset_complete(&P->st, P->subs[i]))
 			continue;
 		if (ss[i].job && is_live(find_queue(q, nq, ss[i].job, ss[i].task), &pending)) {
 			P->nqueued++;
@@ -1217,7 +1217,7 @@ static void classify(const plan *P, size_t i, substate *s, const qentry *q, size
 	int has_log, done = 0, status = 0, pending;
 	char last[400];
 
-	if (analyze_subject_complete(&P->st, P->subs[i])) {
+	if (studyset_complete(&P->st, P->subs[i])) {
 		s->state = ST_COMPLETE;
 		return;
 	}

@@ -6,7 +6,7 @@
 # every rename is tried, and once more after the last one; otherwise a fixed subset: the first
 # and the last, every rename of the group step, every subject's swap into place, and every
 # fourth of the rest. A dead process's temporary files are removed by a rerun only once they
-# are a minute old (src/cmd/outlock.h), so the test ages them before each rerun.
+# are a minute old (src/pipeline/outlock.h), so the test ages them before each rerun.
 . "$(dirname "$0")/lib.sh"
 BUILD=${BUILD:-build}
 SHIM=$(cd "$(dirname "$SPLITROI")" && pwd)/tests/tools/renamekill_shim.so

@@ -1,7 +1,7 @@
 /* test_report.c - the report's text helpers: base64 (RFC 4648 test vectors) and HTML escaping. */
 #include <string.h>
 
-#include "cmd/report.h"
+#include "report/report.h"
 #include "testlib.h"
 
 static void b64(const char *in, const char *want)

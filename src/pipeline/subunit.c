@@ -10,9 +10,9 @@
 #include <sys/stat.h>
 #include <unistd.h>
 
-#include "analyze.h"
 #include "fresh.h"
 #include "outlock.h"
+#include "studyset.h"
 
 static int rm_entry(const char *p, const struct stat *sb, int flag, struct FTW *ftw)
 {
@@ -102,7 +102,7 @@ sr_status subunit_run(const subject_ctx *ctx, const char *label, int force, int 
 		return rc;
 	snprintf(prefix, sizeof prefix, ".sub-%s.tmp.", label);
 	outlock_clean_stale(ctx->st->out, prefix, NULL);
-	if (!force && analyze_subject_complete(ctx->st, label)) {
+	if (!force && studyset_complete(ctx->st, label)) {
 		*skipped = 1;
 		outlock_release(&l);
 		return SR_OK;

@@ -13,9 +13,10 @@
 #include "../io/afile.h"
 #include "../io/fprint.h"
 #include "../io/jdoc.h"
-#include "analyze.h"
+#include "../cmd/analyze.h"
 #include "outlock.h"
-#include "report.h"
+#include "studyset.h"
+#include "../report/report.h"
 #include "reliability.h"
 #include "subject.h"
 #include "subunit.h"
@@ -81,7 +82,7 @@ int groupunit_current(const study *st, char *const *subs, size_t nsub, int group
 	if (jdoc_read_strings(path, "subjects", &k, &v, &n, &e) || n != nsub)
 		goto out;
 	for (i = 0; i < nsub; i++) {
-		int done = analyze_subject_complete(st, subs[i]);
+		int done = studyset_complete(st, subs[i]);
 
 		if (!lookup(k, v, n, subs[i], &want))
 			goto out;
@@ -230,7 +231,7 @@ int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, 
 	jdoc_set_str(rec, "about", "completion record of the combined and group tables (splitroi analyze)");
 	jdoc_set_str(rec, "group", group ? "yes" : "no");
 	for (i = 0; i < nsub; i++) {
-		done[i] = (unsigned char)analyze_subject_complete(st, subs[i]);
+		done[i] = (unsigned char)studyset_complete(st, subs[i]);
 		snprintf(path, sizeof path, "%s/sub-%s/run.json", st->out, subs[i]);
 		if (done[i] && !print_of(path, fp, sizeof fp))
 			done[i] = 0;
@@ -334,7 +335,7 @@ int groupunit_step(const study *st, char *const *subs, size_t nsub, int group, i
 		if (!quiet)
 			fprintf(stderr, "splitroi analyze: every subject is up to date; tables left as they are\n");
 		for (i = 0; i < nsub; i++)
-			*ncomplete += (size_t)analyze_subject_complete(st, subs[i]);
+			*ncomplete += (size_t)studyset_complete(st, subs[i]);
 	} else if (groupunit_write(st, subs, nsub, group, quiet, ncomplete)) {
 		rc = 1;
 	}
