@@ -980,18 +980,11 @@ static const char *split_suffix(const char *split)
 	return "all";
 }
 
-static int write_wide(group_ctx *g, sr_err *e)
+/* The wide columns: the non-paired rows' cells in cols, their names after "subject" in names (also in used). */
+static size_t wide_columns(const group_ctx *g, size_t *cols, char **names, strtab *used)
 {
-	static const char *const dhead[] = { "column", "localizer", "parcel", "split", "split_kind", "part",
-					     "measure_task", "effect" };
-	size_t r, i, ncol = 0, s, k, nh = 0;
-	const char **head = NULL;
-	size_t *cols = xmalloc_array(g->nrows ? g->nrows : 1, sizeof *cols);
-	char **names = xmalloc_array(g->nrows + 1, sizeof *names);
-	strtab seen = { 0 }, used = { 0 };
-	csvout c, d;
-	char *path;
-	int rc = 1;
+	size_t r, i, ncol = 0;
+	strtab seen = { 0 };
 
 	/* Columns: the non-paired rows, in group.csv order. A (parcel, task, effect) met under
 	 * more than one split kind gets the split as a fourth part. */
@@ -1011,7 +1004,7 @@ static int write_wide(group_ctx *g, sr_err *e)
 		}
 	}
 	names[0] = xstrdup("subject");
-	strtab_add(&used, "subject");
+	strtab_add(used, "subject");
 	for (i = 0; i < ncol; i++) {
 		const cell *cl = &g->cells[cols[i]];
 		char key[96], a[1024], b[1024], cc[1024], full[3200], cand[3300], lp[1100] = "";
@@ -1032,12 +1025,30 @@ static int write_wide(group_ctx *g, sr_err *e)
 			 ((lp[0] ? lp[0] : a[0]) >= 'A' && (lp[0] ? lp[0] : a[0]) <= 'Z') ? "" : "X", lp, a, b, cc,
 			 dup ? "." : "", dup ? split_suffix(g->splits.s[cl->split]) : "");
 		snprintf(cand, sizeof cand, "%s", full);
-		while (strtab_find(&used, cand) != (size_t)-1)
+		while (strtab_find(used, cand) != (size_t)-1)
 			snprintf(cand, sizeof cand, "%s_%d", full, ++nth);
-		strtab_add(&used, cand);
+		strtab_add(used, cand);
 		names[i + 1] = xstrdup(cand);
 	}
 
+	strtab_release(&seen);
+	return ncol;
+}
+
+static int write_wide(group_ctx *g, sr_err *e)
+{
+	static const char *const dhead[] = { "column", "localizer", "parcel", "split", "split_kind", "part",
+					     "measure_task", "effect" };
+	size_t i, ncol, s, k, nh = 0;
+	const char **head = NULL;
+	size_t *cols = xmalloc_array(g->nrows ? g->nrows : 1, sizeof *cols);
+	char **names = xmalloc_array(g->nrows + 1, sizeof *names);
+	strtab used = { 0 };
+	csvout c, d;
+	char *path;
+	int rc = 1;
+
+	ncol = wide_columns(g, cols, names, &used);
 	for (k = 0; k < g->npcols; k++)
 		if (strtab_find(&used, g->pname[k]) != (size_t)-1) {
 			sr_fail(e, SR_EFORMAT, "participants.tsv column '%s' has the name of a responses_wide.csv column", g->pname[k]);
@@ -1109,7 +1120,6 @@ out:
 		free(names[k]);
 	free(names);
 	free(cols);
-	strtab_release(&seen);
 	strtab_release(&used);
 	return rc;
 }
