@@ -14,7 +14,6 @@
 #include "../io/nii.h"
 #include "../io/study.h"
 #include "../io/table.h"
-#include "analyze.h"
 #include "../pipeline/mapout.h"
 #include "cmd.h"
 #include "cmdline.h"

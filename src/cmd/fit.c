@@ -22,31 +22,32 @@
 #include "cmdline.h"
 #include "../pipeline/runfit.h"
 
-static const cmdline_opt opts[] = {
-	{ "out", "DIR", "write the maps, design tables and fit.json into DIR (required)" },
-	{ "events", "LIST", "events files, comma separated, one per run (default: _events.tsv beside each run)" },
-	{ "condition-column", "NAME", "events column holding the condition (default trial_type)" },
-	{ "effect", "LIST", "extra effects, comma separated, e.g. \"melody - scrambled\" (each condition is always fitted)" },
-	{ "tr", "S", "repetition time in seconds (default: the _bold.json sidecar, else the header)" },
-	{ "confounds", "LIST", "confounds TSV files, comma separated, one per run" },
-	{ "confound-columns", "NAMES", "confound columns to use, space or comma separated" },
-	{ "autocorrelation", "M", "ar1-adjusted (default: AR(1) with bias-adjusted rho), ar1, or none (OLS), as in the study file" },
-	{ "drift-cutoff", "S", "cosine drift cutoff in seconds (default 128), or none" },
-	{ "volume-time", "F", "fraction of the TR at which a volume counts as acquired (default 0.5)" },
-	{ "smoothing-fwhm", "MM", "smooth each volume with a Gaussian of MM mm FWHM inside the data (default none)" },
-	{ "mask", "FILE", "optional 3-D brain mask on the data grid (non-zero = inside)" },
-	{ "threads", "N", "threads (default: the CPU count); results do not depend on N" },
-	{ "quiet", NULL, "no summary line (warnings still shown)" },
-	{ "study", "STUDY.ini", "take runs, events, TR, confounds, model and effects from a study file" },
-	{ "subject", "LABEL", "with --study: the subject (label without sub-)" },
-	{ "task", "TASK", "with --study: the task (default: the localizer task)" },
-	{ "model", CMDLINE_RENAMED, "autocorrelation" },
-	{ "slice-reference", CMDLINE_RENAMED, "volume-time" },
-	{ NULL, NULL, NULL },
-};
 enum { O_OUT, O_EVENTS, O_CONDCOL, O_EFFECT, O_TR, O_CONF, O_CONFCOLS, O_MODEL, O_DRIFT, O_SLICE,
        O_SMOOTH, O_MASK, O_THREADS, O_QUIET, O_STUDY, O_SUBJECT, O_TASK,
        O_OLD_MODEL, O_OLD_VOLUME_TIME, O_N }; /* the renamed rows have slots too: cmdline_parse clears every row */
+
+static const cmdline_opt opts[O_N + 1] = {
+	[O_OUT] = { "out", "DIR", "write the maps, design tables and fit.json into DIR (required)" },
+	[O_EVENTS] = { "events", "LIST", "events files, comma separated, one per run (default: _events.tsv beside each run)" },
+	[O_CONDCOL] = { "condition-column", "NAME", "events column holding the condition (default trial_type)" },
+	[O_EFFECT] = { "effect", "LIST", "extra effects, comma separated, e.g. \"melody - scrambled\" (each condition is always fitted)" },
+	[O_TR] = { "tr", "S", "repetition time in seconds (default: the _bold.json sidecar, else the header)" },
+	[O_CONF] = { "confounds", "LIST", "confounds TSV files, comma separated, one per run" },
+	[O_CONFCOLS] = { "confound-columns", "NAMES", "confound columns to use, space or comma separated" },
+	[O_MODEL] = { "autocorrelation", "M", "ar1-adjusted (default: AR(1) with bias-adjusted rho), ar1, or none (OLS), as in the study file" },
+	[O_DRIFT] = { "drift-cutoff", "S", "cosine drift cutoff in seconds (default 128), or none" },
+	[O_SLICE] = { "volume-time", "F", "fraction of the TR at which a volume counts as acquired (default 0.5)" },
+	[O_SMOOTH] = { "smoothing-fwhm", "MM", "smooth each volume with a Gaussian of MM mm FWHM inside the data (default none)" },
+	[O_MASK] = { "mask", "FILE", "optional 3-D brain mask on the data grid (non-zero = inside)" },
+	[O_THREADS] = { "threads", "N", "threads (default: the CPU count); results do not depend on N" },
+	[O_QUIET] = { "quiet", NULL, "no summary line (warnings still shown)" },
+	[O_STUDY] = { "study", "STUDY.ini", "take runs, events, TR, confounds, model and effects from a study file" },
+	[O_SUBJECT] = { "subject", "LABEL", "with --study: the subject (label without sub-)" },
+	[O_TASK] = { "task", "TASK", "with --study: the task (default: the localizer task)" },
+	[O_OLD_MODEL] = { "model", CMDLINE_RENAMED, "autocorrelation" },
+	[O_OLD_VOLUME_TIME] = { "slice-reference", CMDLINE_RENAMED, "volume-time" },
+	[O_N] = { NULL, NULL, NULL },
+};
 
 static const cmdline_spec spec = {
 	"fit", "RUN_bold.nii[.gz]... --out DIR [options]\n"

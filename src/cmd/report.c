@@ -7,11 +7,12 @@
 #include "cmd.h"
 #include "cmdline.h"
 
-static const cmdline_opt opts[] = {
-	{ "quiet", NULL, "no summary line" },
-	{ NULL, NULL, NULL },
+enum { O_QUIET, O_N };
+
+static const cmdline_opt opts[O_N + 1] = {
+	[O_QUIET] = { "quiet", NULL, "no summary line" },
+	[O_N] = { NULL, NULL, NULL },
 };
-enum { O_QUIET };
 
 static const cmdline_spec spec = {
 	"report", "OUT [options]",
@@ -26,7 +27,7 @@ static const cmdline_spec spec = {
 
 int cmd_report(int argc, char **argv)
 {
-	const char *val[2], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	const char *val[O_N], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	int npos, rc;
 	struct stat sb;
 

@@ -71,27 +71,28 @@ static const struct scenario scenarios[] = {
 };
 #define NSCENARIOS (sizeof scenarios / sizeof scenarios[0])
 
-static const cmdline_opt opts[] = {
-	{ "out", "DIR", "folder to create for the study (required; must be new or empty)" },
-	{ "subjects", "N", "number of subjects (default 8)" },
-	{ "seed", "N", "random seed; same seed, same bytes (default 1)" },
-	{ "grid", "NAME", "small (24x28x20, 3 mm; default) or standard (91x109x91, 2 mm)" },
-	{ "volumes", "N", "volumes per run (default 120)" },
-	{ "tr", "S", "repetition time in seconds (default 2)" },
-	{ "noise", "SD", "noise standard deviation, percent of baseline (default 0.7)" },
-	{ "ar1", "RHO", "lag-1 autocorrelation of the noise (default 0.3)" },
-	{ "runs", "N", "localizer runs per subject (default 4; measured task: 2)" },
-	{ "null", NULL, "no true effects anywhere" },
-	{ "int16", NULL, "store runs as int16 with scl_slope instead of float32" },
-	{ "scenario", "NAME", "auditory (default), visual, numbers or motor" },
-	{ "parcel-grid", "NAME", "same (default) or fine (half the voxel size: needs resampling)" },
-	{ "groups", "SCALE", "two groups in participants.tsv's group column: odd subjects control, even subjects patient, whose effects are SCALE times as large" },
-	{ "two-localizers", NULL, "study.ini with both tasks as localizers (named by their tasks), each measured in the other's fROIs; the same truth holds for both" },
-	{ "quiet", NULL, "print nothing but errors" },
-	{ NULL, NULL, NULL }
-};
 enum { O_OUT, O_SUBJECTS, O_SEED, O_GRID, O_VOLUMES, O_TR, O_NOISE, O_AR1, O_RUNS, O_NULL,
        O_INT16, O_SCENARIO, O_PGRID, O_GROUPS, O_TWO_LOC, O_QUIET, O_N };
+
+static const cmdline_opt opts[O_N + 1] = {
+	[O_OUT] = { "out", "DIR", "folder to create for the study (required; must be new or empty)" },
+	[O_SUBJECTS] = { "subjects", "N", "number of subjects (default 8)" },
+	[O_SEED] = { "seed", "N", "random seed; same seed, same bytes (default 1)" },
+	[O_GRID] = { "grid", "NAME", "small (24x28x20, 3 mm; default) or standard (91x109x91, 2 mm)" },
+	[O_VOLUMES] = { "volumes", "N", "volumes per run (default 120)" },
+	[O_TR] = { "tr", "S", "repetition time in seconds (default 2)" },
+	[O_NOISE] = { "noise", "SD", "noise standard deviation, percent of baseline (default 0.7)" },
+	[O_AR1] = { "ar1", "RHO", "lag-1 autocorrelation of the noise (default 0.3)" },
+	[O_RUNS] = { "runs", "N", "localizer runs per subject (default 4; measured task: 2)" },
+	[O_NULL] = { "null", NULL, "no true effects anywhere" },
+	[O_INT16] = { "int16", NULL, "store runs as int16 with scl_slope instead of float32" },
+	[O_SCENARIO] = { "scenario", "NAME", "auditory (default), visual, numbers or motor" },
+	[O_PGRID] = { "parcel-grid", "NAME", "same (default) or fine (half the voxel size: needs resampling)" },
+	[O_GROUPS] = { "groups", "SCALE", "two groups in participants.tsv's group column: odd subjects control, even subjects patient, whose effects are SCALE times as large" },
+	[O_TWO_LOC] = { "two-localizers", NULL, "study.ini with both tasks as localizers (named by their tasks), each measured in the other's fROIs; the same truth holds for both" },
+	[O_QUIET] = { "quiet", NULL, "print nothing but errors" },
+	[O_N] = { NULL, NULL, NULL },
+};
 
 static const cmdline_spec spec = {
 	"simulate", "--out DIR [options]",

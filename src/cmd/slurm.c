@@ -19,25 +19,26 @@
 #include "cmd.h"
 #include "cmdline.h"
 
-static const cmdline_opt opts[] = {
-	{ "out", "DIR", "results folder (default: the study's 'out'), as for analyze" },
-	{ "partition", "NAME", "SLURM partition for every job (default: the cluster's default)" },
-	{ "account", "NAME", "SLURM account to charge" },
-	{ "time", "LIMIT", "time limit per array task, SLURM syntax, e.g. 30:00 or 2:00:00 (default: suggested)" },
-	{ "mem", "SIZE", "memory per array task, e.g. 800M or 4G (default: suggested from the run sizes)" },
-	{ "cpus", "N", "CPUs per array task, used as analyze --threads (default 2)" },
-	{ "per-task", "K", "subjects one after another in each array task (default 1, more when the queue limits need it)" },
-	{ "max-running", "N", "at most N tasks of the study run at once (SLURM's %N; several arrays then run one after another)" },
-	{ "array-size", "N", "most tasks in one array (default: the cluster's MaxArraySize - 1, else SLURM's default 1000)" },
-	{ "out-scripts", "DIR", "where the scripts and logs go (default OUT/slurm)" },
-	{ "submit", NULL, "submit the arrays and the group job with sbatch (the group job waits for every array)" },
-	{ "status", NULL, "print where the study stands: complete, failed (with the log's last line), running, pending, not started" },
-	{ "splitroi", "PATH", "the splitroi binary the jobs run (default: this one)" },
-	{ "quiet", NULL, "print only the job ids (with --submit) and errors" },
-	{ NULL, NULL, NULL },
-};
 enum { O_OUT, O_PARTITION, O_ACCOUNT, O_TIME, O_MEM, O_CPUS, O_PER_TASK, O_MAX_RUNNING, O_ARRAY_SIZE,
        O_SCRIPTS, O_SUBMIT, O_STATUS, O_BIN, O_QUIET, O_N };
+
+static const cmdline_opt opts[O_N + 1] = {
+	[O_OUT] = { "out", "DIR", "results folder (default: the study's 'out'), as for analyze" },
+	[O_PARTITION] = { "partition", "NAME", "SLURM partition for every job (default: the cluster's default)" },
+	[O_ACCOUNT] = { "account", "NAME", "SLURM account to charge" },
+	[O_TIME] = { "time", "LIMIT", "time limit per array task, SLURM syntax, e.g. 30:00 or 2:00:00 (default: suggested)" },
+	[O_MEM] = { "mem", "SIZE", "memory per array task, e.g. 800M or 4G (default: suggested from the run sizes)" },
+	[O_CPUS] = { "cpus", "N", "CPUs per array task, used as analyze --threads (default 2)" },
+	[O_PER_TASK] = { "per-task", "K", "subjects one after another in each array task (default 1, more when the queue limits need it)" },
+	[O_MAX_RUNNING] = { "max-running", "N", "at most N tasks of the study run at once (SLURM's %N; several arrays then run one after another)" },
+	[O_ARRAY_SIZE] = { "array-size", "N", "most tasks in one array (default: the cluster's MaxArraySize - 1, else SLURM's default 1000)" },
+	[O_SCRIPTS] = { "out-scripts", "DIR", "where the scripts and logs go (default OUT/slurm)" },
+	[O_SUBMIT] = { "submit", NULL, "submit the arrays and the group job with sbatch (the group job waits for every array)" },
+	[O_STATUS] = { "status", NULL, "print where the study stands: complete, failed (with the log's last line), running, pending, not started" },
+	[O_BIN] = { "splitroi", "PATH", "the splitroi binary the jobs run (default: this one)" },
+	[O_QUIET] = { "quiet", NULL, "print only the job ids (with --submit) and errors" },
+	[O_N] = { NULL, NULL, NULL },
+};
 
 static const cmdline_spec spec = {
 	"slurm", "STUDY.ini [options]",

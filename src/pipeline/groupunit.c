@@ -13,10 +13,10 @@
 #include "../io/afile.h"
 #include "../io/fprint.h"
 #include "../io/jdoc.h"
-#include "../cmd/analyze.h"
 #include "outlock.h"
 #include "studyset.h"
 #include "../report/report.h"
+#include "groupstat.h"
 #include "reliability.h"
 #include "subject.h"
 #include "subunit.h"
@@ -199,6 +199,24 @@ static sr_status combine(const char *stage, const char *name, const char *const 
 	return rc;
 }
 
+/* The group stage on the staging folder for the study's subjects (those without a table are listed
+ * missing, not passed over); its "wrote" line names the out folder the tables are moved to. */
+static int group_step(const char *stage, const char *shown, char *const *subs, size_t nsub,
+		      const char *participants, int quiet)
+{
+	groupstat_opts o = { 0 };
+
+	o.out = stage;
+	o.shown = shown;
+	o.subjects = subs;
+	o.nsubjects = nsub;
+	o.participants = participants;
+	o.alpha = 0.05;
+	o.quiet = quiet;
+	o.in_analyze = 1;
+	return groupstat_run(&o);
+}
+
 int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, int quiet,
 		    size_t *ncomplete)
 {
@@ -260,7 +278,7 @@ int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, 
 			goto fail;
 	}
 	snprintf(path, sizeof path, "%s/participants.tsv", st->bids);
-	if (group && analyze_group_step(stage, st->out, subs, nsub, path, quiet)) {
+	if (group && group_step(stage, st->out, subs, nsub, path, quiet)) {
 		sr_fail(&e, SR_EIO, "the group step failed; the earlier tables are left as they were");
 		goto fail;
 	}
