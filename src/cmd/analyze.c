@@ -24,24 +24,26 @@
 #include "../pipeline/leftout.h"
 #include "progress.h"
 #include "../report/report.h"
+#include "../pipeline/studycheck.h"
 #include "../pipeline/studyset.h"
 #include "../pipeline/subject.h"
 #include "../pipeline/subunit.h"
 
-static const cmdline_opt opts[] = {
-	{ "out", "DIR", "write results under DIR instead of the study's 'out'" },
-	{ "subjects", "LIST", "analyze only these subjects (labels, comma or space separated)" },
-	{ "jobs", "N", "analyze N subjects at a time (default 1); tables do not depend on N" },
-	{ "threads", "N", "threads for fitting one subject's runs (default: the CPU count / jobs)" },
-	{ "force", NULL, "redo subjects whose outputs are complete and up to date" },
-	{ "no-group", NULL, "skip the group step (per-subject tables only)" },
-	{ "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
-	{ "collect", NULL, "fit nothing: rebuild OUT/responses.csv from the complete subjects, then the group step" },
-	{ "no-report", NULL, "do not write OUT/report.html and the subject pages" },
-	{ "no-wait", NULL, "stop instead of waiting when another process holds a subject's or the group step's lock" },
-	{ NULL, NULL, NULL },
+enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT, O_NOWAIT, O_NOPTS };
+
+static const cmdline_opt opts[O_NOPTS + 1] = {
+	[O_OUT] = { "out", "DIR", "write results under DIR instead of the study's 'out'" },
+	[O_SUBJECTS] = { "subjects", "LIST", "analyze only these subjects (labels, comma or space separated)" },
+	[O_JOBS] = { "jobs", "N", "analyze N subjects at a time (default 1); tables do not depend on N" },
+	[O_THREADS] = { "threads", "N", "threads for fitting one subject's runs (default: the CPU count / jobs)" },
+	[O_FORCE] = { "force", NULL, "redo subjects whose outputs are complete and up to date" },
+	[O_NOGROUP] = { "no-group", NULL, "skip the group step (per-subject tables only)" },
+	[O_QUIET] = { "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
+	[O_COLLECT] = { "collect", NULL, "fit nothing: rebuild OUT/responses.csv from the complete subjects, then the group step" },
+	[O_NOREPORT] = { "no-report", NULL, "do not write OUT/report.html and the subject pages" },
+	[O_NOWAIT] = { "no-wait", NULL, "stop instead of waiting when another process holds a subject's or the group step's lock" },
+	[O_NOPTS] = { NULL, NULL, NULL },
 };
-enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT, O_NOWAIT };
 
 static const cmdline_spec spec = {
 	"analyze", "STUDY.ini [options]",
@@ -68,29 +70,6 @@ static int has_label(char **v, size_t n, const char *s)
 		if (strcmp(v[i], s) == 0)
 			return 1;
 	return 0;
-}
-
-/* Splits "01, 02 07" into labels (without "sub-"). */
-static char **split_labels(const char *text, size_t *n)
-{
-	char *copy = xstrdup(text), *tok, *save = NULL;
-	char **v = NULL;
-	size_t cap = 0;
-
-	*n = 0;
-	for (tok = strtok_r(copy, ", \t", &save); tok; tok = strtok_r(NULL, ", \t", &save)) {
-		if (strncmp(tok, "sub-", 4) == 0)
-			tok += 4;
-		if (!*tok || has_label(v, *n, tok))
-			continue;
-		if (*n == cap) {
-			cap = cap ? 2 * cap : 8;
-			v = xrealloc(v, cap * sizeof *v);
-		}
-		v[(*n)++] = xstrdup(tok);
-	}
-	free(copy);
-	return v;
 }
 
 static int cmp_str(const void *a, const void *b)
@@ -342,9 +321,18 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 	return rc;
 }
 
+/* Prints each problem as analyze's error and empties the list. */
+static void print_problems(study_problems *probs)
+{
+	for (size_t i = 0; i < probs->n; i++)
+		fprintf(stderr, "splitroi analyze: %s\n", probs->msg[i]);
+	study_problems_release(probs);
+	memset(probs, 0, sizeof *probs);
+}
+
 int cmd_analyze(int argc, char **argv)
 {
-	const char *val[12], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	const char *val[O_NOPTS + 1] = { NULL }, **pos = xcalloc((size_t)argc + 1, sizeof *pos);
 	int npos, rc, quiet, nfail = 0, nsubfail;
 	long jobs = 1, threads = 0;
 	study st;
@@ -382,9 +370,7 @@ int cmd_analyze(int argc, char **argv)
 		return 2;
 	}
 	if (study_load(pos[0], &st, &probs) != SR_OK) {
-		for (i = 0; i < probs.n; i++)
-			fprintf(stderr, "splitroi analyze: %s\n", probs.msg[i]);
-		study_problems_release(&probs);
+		print_problems(&probs);
 		free(pos);
 		return 1;
 	}
@@ -401,12 +387,8 @@ int cmd_analyze(int argc, char **argv)
 	}
 	sr_err_init(&e, NULL, NULL);
 	rc = 1;
-	if (studyset_subjects(&st, &subs, &nsub, &e)) {
-		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-		goto out_study;
-	}
-	if (nsub == 0) {
-		fprintf(stderr, "splitroi analyze: %s: no subjects (sub-*) found\n", st.bids);
+	if (studycheck_subjects(&st, &subs, &nsub, &probs)) {
+		print_problems(&probs);
 		goto out_subs;
 	}
 	if (check_all_effects(&st, subs, nsub))
@@ -420,14 +402,11 @@ int cmd_analyze(int argc, char **argv)
 		goto out_subs;
 	}
 	if (val[O_SUBJECTS]) {
-		todo = split_labels(val[O_SUBJECTS], &ntodo);
-		for (i = 0; i < ntodo; i++)
-			if (!has_label(subs, nsub, todo[i])) {
-				fprintf(stderr, "splitroi analyze: subject '%s' is not in the study (%zu subjects: %s%s)\n",
-					todo[i], nsub, subs[0], nsub > 1 ? " ..." : "");
-				rc = 2;
-				goto out_subs;
-			}
+		if (studycheck_only(subs, nsub, val[O_SUBJECTS], &todo, &ntodo, &probs)) {
+			print_problems(&probs);
+			rc = 2;
+			goto out_subs;
+		}
 	} else {
 		ntodo = nsub;
 		todo = xcalloc(nsub, sizeof *todo);
@@ -566,7 +545,6 @@ out_prog:
 out_subs:
 	bids_strings_free(todo, ntodo);
 	bids_strings_free(subs, nsub);
-out_study:
 	study_release(&st);
 	return rc;
 }
