@@ -330,10 +330,145 @@ static void print_problems(study_problems *probs)
 	memset(probs, 0, sizeof *probs);
 }
 
+/* The parcels (one set for all subjects unless per subject) and the study's one mask; warnings through e. */
+static int load_shared(const study *st, parcel_set *ps, unsigned char **mask, nii_grid *mask_grid, sr_err *e)
+{
+	memset(ps, 0, sizeof *ps);
+	*mask = NULL;
+	if (!study_per_subject(st->parcels) && !study_per_subject(st->parcel_names) &&
+	    parcel_set_load(st->parcels, st->parcel_names, ps, e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e->msg);
+		return 1;
+	}
+	if (ps->labels && parcels_template_on_raw(st, &ps->grid, st->parcels))
+		sr_warnf(e, "%s: " PARCELS_RAW_NOTE, st->parcels);
+	if (st->derivatives && !bids_is_derivative(st->derivatives))
+		sr_warnf(e, "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
+			 st->derivatives);
+	if (st->mask && !study_mask_per_subject(st)) {
+		nii_info mi;
+		double *md;
+		size_t v, nv;
+
+		if (nii_read_3d(st->mask, &mi, &md, e)) {
+			fprintf(stderr, "splitroi analyze: %s\n", e->msg);
+			return 1;
+		}
+		nv = nii_nvox(&mi.grid);
+		*mask = xmalloc(nv);
+		for (v = 0; v < nv; v++)
+			(*mask)[v] = isfinite(md[v]) && md[v] != 0;
+		free(md);
+		*mask_grid = mi.grid;
+	}
+	return 0;
+}
+
+/* Drops (and frees) the subjects whose outputs are complete and up to date, unless force; returns how many are left. */
+static size_t skip_fresh(const study *st, char **todo, size_t ntodo, int force, int quiet)
+{
+	size_t i, kept = 0;
+
+	for (i = 0; i < ntodo; i++) {
+		if (!force && studyset_complete(st, todo[i])) {
+			if (!quiet)
+				fprintf(stderr, "splitroi analyze: sub-%s: up to date, skipped (--force redoes it)\n",
+					todo[i]);
+			free(todo[i]);
+			continue;
+		}
+		todo[kept++] = todo[i];
+	}
+	return kept;
+}
+
+/* The work list of the subjects in todo. */
+static void work_init(work *w, const subject_ctx *ctx, char **todo, size_t ntodo, progress *prog, int force,
+		      int wait)
+{
+	memset(w, 0, sizeof *w);
+	w->ctx = ctx;
+	w->labels = todo;
+	w->n = ntodo;
+	w->status = xcalloc(ntodo ? ntodo : 1, sizeof *w->status);
+	w->res = xcalloc(ntodo ? ntodo : 1, sizeof *w->res);
+	w->prog = prog;
+	w->force = force;
+	w->wait = wait;
+	pthread_mutex_init(&w->lock, NULL);
+}
+
+/* Runs w's subjects on up to jobs threads (in this thread when one cannot start). */
+static void run_workers(work *w, long jobs)
+{
+	long nj, j;
+	pthread_t *tid;
+
+	if (!w->n)
+		return;
+	nj = jobs < (long)w->n ? jobs : (long)w->n;
+	tid = xcalloc((size_t)nj, sizeof *tid);
+	for (j = 0; j < nj; j++)
+		if (pthread_create(&tid[j], NULL, worker, w) != 0) {
+			tid[j] = 0;
+			worker(w);
+		}
+	for (j = 0; j < nj; j++)
+		if (tid[j])
+			pthread_join(tid[j], NULL);
+	free(tid);
+}
+
+/* The left-out-run lines of the subjects that ran. */
+static void print_leftout(char **todo, const subject_result *res, const int *ran, size_t ntodo)
+{
+	const char **names = xcalloc(ntodo ? ntodo : 1, sizeof *names);
+	const leftout_run **lr = xcalloc(ntodo ? ntodo : 1, sizeof *lr);
+	size_t *nl = xcalloc(ntodo ? ntodo : 1, sizeof *nl), k = 0, i;
+
+	for (i = 0; i < ntodo; i++)
+		if (ran[i]) {
+			names[k] = todo[i];
+			lr[k] = res[i].leftout;
+			nl[k++] = res[i].nleftout;
+		}
+	leftout_print(names, lr, nl, k);
+	free(names);
+	free(lr);
+	free(nl);
+}
+
+/* The options: -1 to go on (the study file in pos[0]), else the exit status. */
+static int parse_options(int argc, char **argv, const char **val, const char **pos, long *jobs, long *threads)
+{
+	int npos, rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
+
+	if (rc)
+		return rc == 1 ? 0 : 2;
+	if (npos != 1) {
+		cmdline_error("analyze", npos ? "give one study file" : "which study? usage: splitroi analyze STUDY.ini");
+		return 2;
+	}
+	if ((val[O_JOBS] && cmdline_int("analyze", "jobs", val[O_JOBS], 1, 256, jobs)) ||
+	    (val[O_THREADS] && cmdline_int("analyze", "threads", val[O_THREADS], 1, 256, threads))) {
+		return 2;
+	}
+	if (val[O_COLLECT] && (val[O_SUBJECTS] || val[O_FORCE] || val[O_JOBS] || val[O_THREADS])) {
+		cmdline_error("analyze", "--collect fits nothing: it takes no --subjects, --force, --jobs or --threads");
+		return 2;
+	}
+	if (!*threads) {
+		long ncpu = sysconf(_SC_NPROCESSORS_ONLN);
+
+		*threads = ncpu > *jobs ? ncpu / *jobs : 1;
+	}
+	return -1;
+}
+
 int cmd_analyze(int argc, char **argv)
 {
 	const char *val[O_NOPTS + 1] = { NULL }, **pos = xcalloc((size_t)argc + 1, sizeof *pos);
-	int npos, rc, quiet, nfail = 0, nsubfail;
+	int rc, quiet, nfail = 0, nsubfail;
 	long jobs = 1, threads = 0;
 	study st;
 	study_problems probs = { 0 };
@@ -348,27 +483,12 @@ int cmd_analyze(int argc, char **argv)
 	work w;
 	int *ran = NULL;
 
-	rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
-	if (rc) {
+	rc = parse_options(argc, argv, val, pos, &jobs, &threads);
+	if (rc >= 0) {
 		free(pos);
-		return rc == 1 ? 0 : 2;
-	}
-	if (npos != 1) {
-		cmdline_error("analyze", npos ? "give one study file" : "which study? usage: splitroi analyze STUDY.ini");
-		free(pos);
-		return 2;
-	}
-	if ((val[O_JOBS] && cmdline_int("analyze", "jobs", val[O_JOBS], 1, 256, &jobs)) ||
-	    (val[O_THREADS] && cmdline_int("analyze", "threads", val[O_THREADS], 1, 256, &threads))) {
-		free(pos);
-		return 2;
+		return rc;
 	}
 	quiet = val[O_QUIET] != NULL;
-	if (val[O_COLLECT] && (val[O_SUBJECTS] || val[O_FORCE] || val[O_JOBS] || val[O_THREADS])) {
-		cmdline_error("analyze", "--collect fits nothing: it takes no --subjects, --force, --jobs or --threads");
-		free(pos);
-		return 2;
-	}
 	if (study_load(pos[0], &st, &probs) != SR_OK) {
 		print_problems(&probs);
 		free(pos);
@@ -379,11 +499,6 @@ int cmd_analyze(int argc, char **argv)
 	if (val[O_OUT]) {
 		free(st.out);
 		st.out = xstrdup(val[O_OUT]);
-	}
-	if (!threads) {
-		long ncpu = sysconf(_SC_NPROCESSORS_ONLN);
-
-		threads = ncpu > jobs ? ncpu / jobs : 1;
 	}
 	sr_err_init(&e, NULL, NULL);
 	rc = 1;
@@ -415,54 +530,14 @@ int cmd_analyze(int argc, char **argv)
 	}
 	progress_init(&prog, "analyze", 0, quiet);
 	sr_err_init(&e, progress_warn, &prog);
-	memset(&ps, 0, sizeof ps);
-	if (!study_per_subject(st.parcels) && !study_per_subject(st.parcel_names) &&
-	    parcel_set_load(st.parcels, st.parcel_names, &ps, &e)) {
-		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-		goto out_prog;
-	}
-	if (ps.labels && parcels_template_on_raw(&st, &ps.grid, st.parcels))
-		sr_warnf(&e, "%s: " PARCELS_RAW_NOTE, st.parcels);
-	if (st.derivatives && !bids_is_derivative(st.derivatives))
-		sr_warnf(&e, "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
-			 st.derivatives);
-	if (st.mask && !study_mask_per_subject(&st)) {
-		nii_info mi;
-		double *md;
-		size_t v, nv;
-
-		if (nii_read_3d(st.mask, &mi, &md, &e)) {
-			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-			goto out_parcels;
-		}
-		nv = nii_nvox(&mi.grid);
-		mask = xmalloc(nv);
-		for (v = 0; v < nv; v++)
-			mask[v] = isfinite(md[v]) && md[v] != 0;
-		free(md);
-		mask_grid = mi.grid;
-	}
+	if (load_shared(&st, &ps, &mask, &mask_grid, &e))
+		goto out_parcels;
 	if (afile_mkdirs(st.out, &e) ||
 	    mapout_dataset_description(st.out, st.bids, st.derivatives, argc, argv, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_parcels;
 	}
-	/* skip what is complete and up to date */
-	{
-		size_t kept = 0;
-
-		for (i = 0; i < ntodo; i++) {
-			if (!val[O_FORCE] && studyset_complete(&st, todo[i])) {
-				if (!quiet)
-					fprintf(stderr, "splitroi analyze: sub-%s: up to date, skipped (--force redoes it)\n",
-						todo[i]);
-				free(todo[i]);
-				continue;
-			}
-			todo[kept++] = todo[i];
-		}
-		ntodo = kept;
-	}
+	ntodo = skip_fresh(&st, todo, ntodo, val[O_FORCE] != NULL, quiet);
 	prog.total = (int)ntodo;
 	memset(&ctx, 0, sizeof ctx);
 	ctx.st = &st;
@@ -472,30 +547,8 @@ int cmd_analyze(int argc, char **argv)
 	ctx.nthreads = (int)threads;
 	ctx.progress = progress_stage;
 	ctx.progress_ctx = &prog;
-	memset(&w, 0, sizeof w);
-	w.ctx = &ctx;
-	w.labels = todo;
-	w.n = ntodo;
-	w.status = xcalloc(ntodo ? ntodo : 1, sizeof *w.status);
-	w.res = xcalloc(ntodo ? ntodo : 1, sizeof *w.res);
-	w.prog = &prog;
-	w.force = val[O_FORCE] != NULL;
-	w.wait = !val[O_NOWAIT];
-	pthread_mutex_init(&w.lock, NULL);
-	if (ntodo) {
-		long nj = jobs < (long)ntodo ? jobs : (long)ntodo, j;
-		pthread_t *tid = xcalloc((size_t)nj, sizeof *tid);
-
-		for (j = 0; j < nj; j++)
-			if (pthread_create(&tid[j], NULL, worker, &w) != 0) {
-				tid[j] = 0;
-				worker(&w);
-			}
-		for (j = 0; j < nj; j++)
-			if (tid[j])
-				pthread_join(tid[j], NULL);
-		free(tid);
-	}
+	work_init(&w, &ctx, todo, ntodo, &prog, val[O_FORCE] != NULL, !val[O_NOWAIT]);
+	run_workers(&w, jobs);
 	pthread_mutex_destroy(&w.lock);
 	progress_clear(&prog);
 	ran = xcalloc(ntodo ? ntodo : 1, sizeof *ran);
@@ -510,22 +563,7 @@ int cmd_analyze(int argc, char **argv)
 		nfail++;
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);
-		{
-			const char **names = xcalloc(ntodo ? ntodo : 1, sizeof *names);
-			const leftout_run **lr = xcalloc(ntodo ? ntodo : 1, sizeof *lr);
-			size_t *nl = xcalloc(ntodo ? ntodo : 1, sizeof *nl), k = 0;
-
-			for (i = 0; i < ntodo; i++)
-				if (ran[i]) {
-					names[k] = todo[i];
-					lr[k] = w.res[i].leftout;
-					nl[k++] = w.res[i].nleftout;
-				}
-			leftout_print(names, lr, nl, k);
-			free(names);
-			free(lr);
-			free(nl);
-		}
+		print_leftout(todo, w.res, ran, ntodo);
 		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",
 		       ncomplete, nsub, ntodo - (size_t)nsubfail, nsubfail, prog.warnings);
 		printf("tables: %s/responses.csv (all subjects), %s/sub-<label>/responses.csv\n", st.out,
@@ -540,7 +578,6 @@ int cmd_analyze(int argc, char **argv)
 out_parcels:
 	free(mask);
 	parcel_set_release(&ps);
-out_prog:
 	progress_release(&prog);
 out_subs:
 	bids_strings_free(todo, ntodo);
