@@ -72,110 +72,6 @@ static int has_label(char **v, size_t n, const char *s)
 	return 0;
 }
 
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
-/* ---- conditions named in effects must exist for some subject (METHODS.md section 11) ---- */
-
-static sr_status task_conditions(const study *st, char **subs, size_t nsub, const char *task,
-				 char ***conds, size_t *ncond, size_t *nruns, sr_err *e)
-{
-	size_t s, cap = 0;
-
-	*conds = NULL;
-	*ncond = 0;
-	*nruns = 0;
-	for (s = 0; s < nsub; s++) {
-		bids_run *runs;
-		size_t nr, r;
-		sr_status rc = study_runs(st, subs[s], task, &runs, &nr, e);
-
-		if (rc)
-			return rc;
-		*nruns += nr;
-		for (r = 0; r < nr; r++) {
-			event_list ev;
-			size_t k;
-
-			if (!runs[r].events_exist)
-				continue;   /* reported with the subject */
-			if (events_read(runs[r].events, st->condition_column, &ev, NULL))
-				continue;   /* likewise */
-			for (k = 0; k < ev.n; k++) {
-				if (has_label(*conds, *ncond, ev.ev[k].condition))
-					continue;
-				if (*ncond == cap) {
-					cap = cap ? 2 * cap : 8;
-					*conds = xrealloc(*conds, cap * sizeof **conds);
-				}
-				(*conds)[(*ncond)++] = xstrdup(ev.ev[k].condition);
-			}
-			events_release(&ev);
-		}
-		bids_runs_release(runs, nr);
-	}
-	if (*ncond)
-		qsort(*conds, *ncond, sizeof **conds, cmp_str);
-	return SR_OK;
-}
-
-static int check_effects(const study *st, const char *task, const expr *fx, size_t nfx,
-			 char **conds, size_t ncond)
-{
-	size_t i, k, c, bad = 0;
-
-	for (i = 0; i < nfx; i++)
-		for (k = 0; k < fx[i].nterms; k++) {
-			if (has_label(conds, ncond, fx[i].terms[k].name))
-				continue;
-			fprintf(stderr, "splitroi analyze: %s: effect %s names condition '%s', which no subject has in task '%s'; known conditions:",
-				st->path, fx[i].text, fx[i].terms[k].name, task);
-			for (c = 0; c < ncond; c++)
-				fprintf(stderr, "%s %s", c ? "," : "", conds[c]);
-			fprintf(stderr, "%s\n", ncond ? "" : " none");
-			bad++;
-		}
-	return (int)bad;
-}
-
-static int check_all_effects(const study *st, char **subs, size_t nsub)
-{
-	size_t t, ntasks = 1 + st->nmeasures;
-	int bad = 0;
-
-	for (t = 0; t < ntasks; t++) {
-		const char *task = t ? st->measures[t - 1].task : st->loc_task;
-		char **conds;
-		size_t ncond, c, nruns;
-		sr_err e;
-
-		sr_err_init(&e, NULL, NULL);
-		if (task_conditions(st, subs, nsub, task, &conds, &ncond, &nruns, &e)) {
-			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-			return 1;
-		}
-		if (nruns == 0) {
-			fprintf(stderr, "splitroi analyze: %s: no subject has runs of task '%s' under %s (files named sub-<label>_task-%s_..._bold.nii[.gz])\n",
-				st->path, task, st->bids, task);
-			bad++;
-			continue;
-		}
-		if (t == 0) {
-			bad += check_effects(st, task, &st->contrast, 1, conds, ncond);
-			bad += check_effects(st, task, st->loc_effects, st->nloc_effects, conds, ncond);
-		} else {
-			bad += check_effects(st, task, st->measures[t - 1].effects,
-					     st->measures[t - 1].neffects, conds, ncond);
-		}
-		for (c = 0; c < ncond; c++)
-			free(conds[c]);
-		free(conds);
-	}
-	return bad;
-}
-
 /* ---- running subjects, possibly several at a time ---- */
 
 typedef struct work {
@@ -506,8 +402,10 @@ int cmd_analyze(int argc, char **argv)
 		print_problems(&probs);
 		goto out_subs;
 	}
-	if (check_all_effects(&st, subs, nsub))
+	if (studycheck_effects(&st, subs, nsub, &probs)) {
+		print_problems(&probs);
 		goto out_subs;
+	}
 	if (outcheck_safe(&st, subs, nsub, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_subs;

@@ -24,4 +24,12 @@ int studycheck_subjects(const study *st, char ***out, size_t *n, study_problems 
 int studycheck_only(char *const *subs, size_t n, const char *only, char ***out, size_t *nout,
 		    study_problems *probs);
 
+/*
+ * Every condition an effect names (the localizer's contrast and effects, each
+ * measured task's effects) occurs in some subject's events of that task
+ * (METHODS.md section 11), and every task has runs. Each miss is a problem.
+ * Returns the number of problems added (1 when runs could not be listed).
+ */
+int studycheck_effects(const study *st, char **subs, size_t nsub, study_problems *probs);
+
 #endif
