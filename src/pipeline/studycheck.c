@@ -64,15 +64,17 @@ int studycheck_only(char *const *subs, size_t n, const char *only, char ***out, 
 		    study_problems *probs)
 {
 	char *copy = xstrdup(only), *tok, *save = NULL;
-	char **v = NULL;
-	size_t k = 0, before = probs->n;
+	char **v = NULL, **bad = NULL;
+	size_t k = 0, nbad = 0, before = probs->n;
 
 	for (tok = strtok_r(copy, ", \t", &save); tok; tok = strtok_r(NULL, ", \t", &save)) {
 		if (strncmp(tok, "sub-", 4) == 0)
 			tok += 4;
-		if (!*tok || has_label(v, k, tok))
+		if (!*tok || has_label(v, k, tok) || has_label(bad, nbad, tok))
 			continue;
 		if (!has_label(subs, n, tok)) {
+			bad = xrealloc(bad, (nbad + 1) * sizeof *bad);
+			bad[nbad++] = xstrdup(tok);
 			study_problems_add(probs, NULL, 0, "subject '%s' is not in the study (%zu subject%s%s%s%s)",
 					   tok, n, n == 1 ? "" : "s", n ? ": " : "", n ? subs[0] : "",
 					   n > 1 ? " ..." : "");
@@ -82,6 +84,7 @@ int studycheck_only(char *const *subs, size_t n, const char *only, char ***out, 
 		v[k++] = xstrdup(tok);
 	}
 	free(copy);
+	bids_strings_free(bad, nbad);
 	if (probs->n != before) {
 		bids_strings_free(v, k);
 		return 2;
