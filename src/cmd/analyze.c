@@ -23,24 +23,26 @@
 #include "../pipeline/leftout.h"
 #include "progress.h"
 #include "../report/report.h"
+#include "../pipeline/studycheck.h"
 #include "../pipeline/studyset.h"
 #include "../pipeline/subject.h"
 #include "../pipeline/subunit.h"
 
-static const cmdline_opt opts[] = {
-	{ "out", "DIR", "write results under DIR instead of the study's 'out'" },
-	{ "subjects", "LIST", "analyze only these subjects (labels, comma or space separated)" },
-	{ "jobs", "N", "analyze N subjects at a time (default 1); tables do not depend on N" },
-	{ "threads", "N", "threads for fitting one subject's runs (default: the CPU count / jobs)" },
-	{ "force", NULL, "redo subjects whose outputs are complete and up to date" },
-	{ "no-group", NULL, "skip the group step (per-subject tables only)" },
-	{ "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
-	{ "collect", NULL, "fit nothing: rebuild OUT/responses.csv from the complete subjects, then the group step" },
-	{ "no-report", NULL, "do not write OUT/report.html and the subject pages" },
-	{ "no-wait", NULL, "stop instead of waiting when another process holds a subject's or the group step's lock" },
-	{ NULL, NULL, NULL },
+enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT, O_NOWAIT, O_NOPTS };
+
+static const cmdline_opt opts[O_NOPTS + 1] = {
+	[O_OUT] = { "out", "DIR", "write results under DIR instead of the study's 'out'" },
+	[O_SUBJECTS] = { "subjects", "LIST", "analyze only these subjects (labels, comma or space separated)" },
+	[O_JOBS] = { "jobs", "N", "analyze N subjects at a time (default 1); tables do not depend on N" },
+	[O_THREADS] = { "threads", "N", "threads for fitting one subject's runs (default: the CPU count / jobs)" },
+	[O_FORCE] = { "force", NULL, "redo subjects whose outputs are complete and up to date" },
+	[O_NOGROUP] = { "no-group", NULL, "skip the group step (per-subject tables only)" },
+	[O_QUIET] = { "quiet", NULL, "no progress lines and no summary (warnings still shown)" },
+	[O_COLLECT] = { "collect", NULL, "fit nothing: rebuild OUT/responses.csv from the complete subjects, then the group step" },
+	[O_NOREPORT] = { "no-report", NULL, "do not write OUT/report.html and the subject pages" },
+	[O_NOWAIT] = { "no-wait", NULL, "stop instead of waiting when another process holds a subject's or the group step's lock" },
+	[O_NOPTS] = { NULL, NULL, NULL },
 };
-enum { O_OUT, O_SUBJECTS, O_JOBS, O_THREADS, O_FORCE, O_NOGROUP, O_QUIET, O_COLLECT, O_NOREPORT, O_NOWAIT };
 
 static const cmdline_spec spec = {
 	"analyze", "STUDY.ini [options]",
@@ -67,133 +69,6 @@ static int has_label(char **v, size_t n, const char *s)
 		if (strcmp(v[i], s) == 0)
 			return 1;
 	return 0;
-}
-
-/* Splits "01, 02 07" into labels (without "sub-"). */
-static char **split_labels(const char *text, size_t *n)
-{
-	char *copy = xstrdup(text), *tok, *save = NULL;
-	char **v = NULL;
-	size_t cap = 0;
-
-	*n = 0;
-	for (tok = strtok_r(copy, ", \t", &save); tok; tok = strtok_r(NULL, ", \t", &save)) {
-		if (strncmp(tok, "sub-", 4) == 0)
-			tok += 4;
-		if (!*tok || has_label(v, *n, tok))
-			continue;
-		if (*n == cap) {
-			cap = cap ? 2 * cap : 8;
-			v = xrealloc(v, cap * sizeof *v);
-		}
-		v[(*n)++] = xstrdup(tok);
-	}
-	free(copy);
-	return v;
-}
-
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
-/* ---- conditions named in effects must exist for some subject (METHODS.md section 11) ---- */
-
-static sr_status task_conditions(const study *st, char **subs, size_t nsub, const char *task,
-				 char ***conds, size_t *ncond, size_t *nruns, sr_err *e)
-{
-	size_t s, cap = 0;
-
-	*conds = NULL;
-	*ncond = 0;
-	*nruns = 0;
-	for (s = 0; s < nsub; s++) {
-		bids_run *runs;
-		size_t nr, r;
-		sr_status rc = study_runs(st, subs[s], task, &runs, &nr, e);
-
-		if (rc)
-			return rc;
-		*nruns += nr;
-		for (r = 0; r < nr; r++) {
-			event_list ev;
-			size_t k;
-
-			if (!runs[r].events_exist)
-				continue;   /* reported with the subject */
-			if (events_read(runs[r].events, st->condition_column, &ev, NULL))
-				continue;   /* likewise */
-			for (k = 0; k < ev.n; k++) {
-				if (has_label(*conds, *ncond, ev.ev[k].condition))
-					continue;
-				if (*ncond == cap) {
-					cap = cap ? 2 * cap : 8;
-					*conds = xrealloc(*conds, cap * sizeof **conds);
-				}
-				(*conds)[(*ncond)++] = xstrdup(ev.ev[k].condition);
-			}
-			events_release(&ev);
-		}
-		bids_runs_release(runs, nr);
-	}
-	if (*ncond)
-		qsort(*conds, *ncond, sizeof **conds, cmp_str);
-	return SR_OK;
-}
-
-static int check_effects(const study *st, const char *task, const expr *fx, size_t nfx,
-			 char **conds, size_t ncond)
-{
-	size_t i, k, c, bad = 0;
-
-	for (i = 0; i < nfx; i++)
-		for (k = 0; k < fx[i].nterms; k++) {
-			if (has_label(conds, ncond, fx[i].terms[k].name))
-				continue;
-			fprintf(stderr, "splitroi analyze: %s: effect %s names condition '%s', which no subject has in task '%s'; known conditions:",
-				st->path, fx[i].text, fx[i].terms[k].name, task);
-			for (c = 0; c < ncond; c++)
-				fprintf(stderr, "%s %s", c ? "," : "", conds[c]);
-			fprintf(stderr, "%s\n", ncond ? "" : " none");
-			bad++;
-		}
-	return (int)bad;
-}
-
-static int check_all_effects(const study *st, char **subs, size_t nsub)
-{
-	size_t t, ntasks = 1 + st->nmeasures;
-	int bad = 0;
-
-	for (t = 0; t < ntasks; t++) {
-		const char *task = t ? st->measures[t - 1].task : st->loc_task;
-		char **conds;
-		size_t ncond, c, nruns;
-		sr_err e;
-
-		sr_err_init(&e, NULL, NULL);
-		if (task_conditions(st, subs, nsub, task, &conds, &ncond, &nruns, &e)) {
-			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-			return 1;
-		}
-		if (nruns == 0) {
-			fprintf(stderr, "splitroi analyze: %s: no subject has runs of task '%s' under %s (files named sub-<label>_task-%s_..._bold.nii[.gz])\n",
-				st->path, task, st->bids, task);
-			bad++;
-			continue;
-		}
-		if (t == 0) {
-			bad += check_effects(st, task, &st->contrast, 1, conds, ncond);
-			bad += check_effects(st, task, st->loc_effects, st->nloc_effects, conds, ncond);
-		} else {
-			bad += check_effects(st, task, st->measures[t - 1].effects,
-					     st->measures[t - 1].neffects, conds, ncond);
-		}
-		for (c = 0; c < ncond; c++)
-			free(conds[c]);
-		free(conds);
-	}
-	return bad;
 }
 
 /* ---- running subjects, possibly several at a time ---- */
@@ -341,10 +216,154 @@ static int collect(const study *st, char **subs, size_t nsub, int group, int qui
 	return rc;
 }
 
+/* Prints each problem as analyze's error and empties the list. */
+static void print_problems(study_problems *probs)
+{
+	for (size_t i = 0; i < probs->n; i++)
+		fprintf(stderr, "splitroi analyze: %s\n", probs->msg[i]);
+	study_problems_release(probs);
+	memset(probs, 0, sizeof *probs);
+}
+
+/* The parcels (one set for all subjects unless per subject) and the study's one mask; warnings through e. */
+static int load_shared(const study *st, parcel_set *ps, unsigned char **mask, nii_grid *mask_grid, sr_err *e)
+{
+	memset(ps, 0, sizeof *ps);
+	*mask = NULL;
+	if (!study_per_subject(st->parcels) && !study_per_subject(st->parcel_names) &&
+	    parcel_set_load(st->parcels, st->parcel_names, ps, e)) {
+		fprintf(stderr, "splitroi analyze: %s\n", e->msg);
+		return 1;
+	}
+	if (ps->labels && parcels_template_on_raw(st, &ps->grid, st->parcels))
+		sr_warnf(e, "%s: " PARCELS_RAW_NOTE, st->parcels);
+	if (st->derivatives && !bids_is_derivative(st->derivatives))
+		sr_warnf(e, "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
+			 st->derivatives);
+	if (st->mask && !study_mask_per_subject(st)) {
+		nii_info mi;
+		double *md;
+		size_t v, nv;
+
+		if (nii_read_3d(st->mask, &mi, &md, e)) {
+			fprintf(stderr, "splitroi analyze: %s\n", e->msg);
+			return 1;
+		}
+		nv = nii_nvox(&mi.grid);
+		*mask = xmalloc(nv);
+		for (v = 0; v < nv; v++)
+			(*mask)[v] = isfinite(md[v]) && md[v] != 0;
+		free(md);
+		*mask_grid = mi.grid;
+	}
+	return 0;
+}
+
+/* Drops (and frees) the subjects whose outputs are complete and up to date, unless force; returns how many are left. */
+static size_t skip_fresh(const study *st, char **todo, size_t ntodo, int force, int quiet)
+{
+	size_t i, kept = 0;
+
+	for (i = 0; i < ntodo; i++) {
+		if (!force && studyset_complete(st, todo[i])) {
+			if (!quiet)
+				fprintf(stderr, "splitroi analyze: sub-%s: up to date, skipped (--force redoes it)\n",
+					todo[i]);
+			free(todo[i]);
+			continue;
+		}
+		todo[kept++] = todo[i];
+	}
+	return kept;
+}
+
+/* The work list of the subjects in todo. */
+static void work_init(work *w, const subject_ctx *ctx, char **todo, size_t ntodo, progress *prog, int force,
+		      int wait)
+{
+	memset(w, 0, sizeof *w);
+	w->ctx = ctx;
+	w->labels = todo;
+	w->n = ntodo;
+	w->status = xcalloc(ntodo ? ntodo : 1, sizeof *w->status);
+	w->res = xcalloc(ntodo ? ntodo : 1, sizeof *w->res);
+	w->prog = prog;
+	w->force = force;
+	w->wait = wait;
+	pthread_mutex_init(&w->lock, NULL);
+}
+
+/* Runs w's subjects on up to jobs threads (in this thread when one cannot start). */
+static void run_workers(work *w, long jobs)
+{
+	long nj, j;
+	pthread_t *tid;
+
+	if (!w->n)
+		return;
+	nj = jobs < (long)w->n ? jobs : (long)w->n;
+	tid = xcalloc((size_t)nj, sizeof *tid);
+	for (j = 0; j < nj; j++)
+		if (pthread_create(&tid[j], NULL, worker, w) != 0) {
+			tid[j] = 0;
+			worker(w);
+		}
+	for (j = 0; j < nj; j++)
+		if (tid[j])
+			pthread_join(tid[j], NULL);
+	free(tid);
+}
+
+/* The left-out-run lines of the subjects that ran. */
+static void print_leftout(char **todo, const subject_result *res, const int *ran, size_t ntodo)
+{
+	const char **names = xcalloc(ntodo ? ntodo : 1, sizeof *names);
+	const leftout_run **lr = xcalloc(ntodo ? ntodo : 1, sizeof *lr);
+	size_t *nl = xcalloc(ntodo ? ntodo : 1, sizeof *nl), k = 0, i;
+
+	for (i = 0; i < ntodo; i++)
+		if (ran[i]) {
+			names[k] = todo[i];
+			lr[k] = res[i].leftout;
+			nl[k++] = res[i].nleftout;
+		}
+	leftout_print(names, lr, nl, k);
+	free(names);
+	free(lr);
+	free(nl);
+}
+
+/* The options: -1 to go on (the study file in pos[0]), else the exit status. */
+static int parse_options(int argc, char **argv, const char **val, const char **pos, long *jobs, long *threads)
+{
+	int npos, rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
+
+	if (rc)
+		return rc == 1 ? 0 : 2;
+	if (npos != 1) {
+		cmdline_error("analyze", npos ? "give one study file" : "which study? usage: splitroi analyze STUDY.ini");
+		return 2;
+	}
+	if ((val[O_JOBS] && cmdline_int("analyze", "jobs", val[O_JOBS], 1, 256, jobs)) ||
+	    (val[O_THREADS] && cmdline_int("analyze", "threads", val[O_THREADS], 1, 256, threads))) {
+		return 2;
+	}
+	if (val[O_COLLECT] && (val[O_SUBJECTS] || val[O_FORCE] || val[O_JOBS] || val[O_THREADS])) {
+		cmdline_error("analyze", "--collect fits nothing: it takes no --subjects, --force, --jobs or --threads");
+		return 2;
+	}
+	if (!*threads) {
+		long ncpu = sysconf(_SC_NPROCESSORS_ONLN);
+
+		*threads = ncpu > *jobs ? ncpu / *jobs : 1;
+	}
+	return -1;
+}
+
 int cmd_analyze(int argc, char **argv)
 {
-	const char *val[12], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
-	int npos, rc, quiet, nfail = 0, nsubfail;
+	const char *val[O_NOPTS + 1] = { NULL }, **pos = xcalloc((size_t)argc + 1, sizeof *pos);
+	int rc, quiet, nfail = 0, nsubfail;
 	long jobs = 1, threads = 0;
 	study st;
 	study_problems probs = { 0 };
@@ -359,31 +378,14 @@ int cmd_analyze(int argc, char **argv)
 	work w;
 	int *ran = NULL;
 
-	rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
-	if (rc) {
+	rc = parse_options(argc, argv, val, pos, &jobs, &threads);
+	if (rc >= 0) {
 		free(pos);
-		return rc == 1 ? 0 : 2;
-	}
-	if (npos != 1) {
-		cmdline_error("analyze", npos ? "give one study file" : "which study? usage: splitroi analyze STUDY.ini");
-		free(pos);
-		return 2;
-	}
-	if ((val[O_JOBS] && cmdline_int("analyze", "jobs", val[O_JOBS], 1, 256, &jobs)) ||
-	    (val[O_THREADS] && cmdline_int("analyze", "threads", val[O_THREADS], 1, 256, &threads))) {
-		free(pos);
-		return 2;
+		return rc;
 	}
 	quiet = val[O_QUIET] != NULL;
-	if (val[O_COLLECT] && (val[O_SUBJECTS] || val[O_FORCE] || val[O_JOBS] || val[O_THREADS])) {
-		cmdline_error("analyze", "--collect fits nothing: it takes no --subjects, --force, --jobs or --threads");
-		free(pos);
-		return 2;
-	}
 	if (study_load(pos[0], &st, &probs) != SR_OK) {
-		for (i = 0; i < probs.n; i++)
-			fprintf(stderr, "splitroi analyze: %s\n", probs.msg[i]);
-		study_problems_release(&probs);
+		print_problems(&probs);
 		free(pos);
 		return 1;
 	}
@@ -393,23 +395,16 @@ int cmd_analyze(int argc, char **argv)
 		free(st.out);
 		st.out = xstrdup(val[O_OUT]);
 	}
-	if (!threads) {
-		long ncpu = sysconf(_SC_NPROCESSORS_ONLN);
-
-		threads = ncpu > jobs ? ncpu / jobs : 1;
-	}
 	sr_err_init(&e, NULL, NULL);
 	rc = 1;
-	if (studyset_subjects(&st, &subs, &nsub, &e)) {
-		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-		goto out_study;
-	}
-	if (nsub == 0) {
-		fprintf(stderr, "splitroi analyze: %s: no subjects (sub-*) found\n", st.bids);
+	if (studycheck_subjects(&st, &subs, &nsub, &probs)) {
+		print_problems(&probs);
 		goto out_subs;
 	}
-	if (check_all_effects(&st, subs, nsub))
+	if (studycheck_effects(&st, subs, nsub, &probs)) {
+		print_problems(&probs);
 		goto out_subs;
+	}
 	if (outcheck_safe(&st, subs, nsub, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_subs;
@@ -419,14 +414,11 @@ int cmd_analyze(int argc, char **argv)
 		goto out_subs;
 	}
 	if (val[O_SUBJECTS]) {
-		todo = split_labels(val[O_SUBJECTS], &ntodo);
-		for (i = 0; i < ntodo; i++)
-			if (!has_label(subs, nsub, todo[i])) {
-				fprintf(stderr, "splitroi analyze: subject '%s' is not in the study (%zu subjects: %s%s)\n",
-					todo[i], nsub, subs[0], nsub > 1 ? " ..." : "");
-				rc = 2;
-				goto out_subs;
-			}
+		if (studycheck_only(subs, nsub, val[O_SUBJECTS], &todo, &ntodo, &probs)) {
+			print_problems(&probs);
+			rc = 2;
+			goto out_subs;
+		}
 	} else {
 		ntodo = nsub;
 		todo = xcalloc(nsub, sizeof *todo);
@@ -435,54 +427,14 @@ int cmd_analyze(int argc, char **argv)
 	}
 	progress_init(&prog, "analyze", 0, quiet);
 	sr_err_init(&e, progress_warn, &prog);
-	memset(&ps, 0, sizeof ps);
-	if (!study_per_subject(st.parcels) && !study_per_subject(st.parcel_names) &&
-	    parcel_set_load(st.parcels, st.parcel_names, &ps, &e)) {
-		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-		goto out_prog;
-	}
-	if (ps.labels && parcels_template_on_raw(&st, &ps.grid, st.parcels))
-		sr_warnf(&e, "%s: " PARCELS_RAW_NOTE, st.parcels);
-	if (st.derivatives && !bids_is_derivative(st.derivatives))
-		sr_warnf(&e, "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
-			 st.derivatives);
-	if (st.mask && !study_mask_per_subject(&st)) {
-		nii_info mi;
-		double *md;
-		size_t v, nv;
-
-		if (nii_read_3d(st.mask, &mi, &md, &e)) {
-			fprintf(stderr, "splitroi analyze: %s\n", e.msg);
-			goto out_parcels;
-		}
-		nv = nii_nvox(&mi.grid);
-		mask = xmalloc(nv);
-		for (v = 0; v < nv; v++)
-			mask[v] = isfinite(md[v]) && md[v] != 0;
-		free(md);
-		mask_grid = mi.grid;
-	}
+	if (load_shared(&st, &ps, &mask, &mask_grid, &e))
+		goto out_parcels;
 	if (afile_mkdirs(st.out, &e) ||
 	    mapout_dataset_description(st.out, st.bids, st.derivatives, argc, argv, &e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e.msg);
 		goto out_parcels;
 	}
-	/* skip what is complete and up to date */
-	{
-		size_t kept = 0;
-
-		for (i = 0; i < ntodo; i++) {
-			if (!val[O_FORCE] && studyset_complete(&st, todo[i])) {
-				if (!quiet)
-					fprintf(stderr, "splitroi analyze: sub-%s: up to date, skipped (--force redoes it)\n",
-						todo[i]);
-				free(todo[i]);
-				continue;
-			}
-			todo[kept++] = todo[i];
-		}
-		ntodo = kept;
-	}
+	ntodo = skip_fresh(&st, todo, ntodo, val[O_FORCE] != NULL, quiet);
 	prog.total = (int)ntodo;
 	memset(&ctx, 0, sizeof ctx);
 	ctx.st = &st;
@@ -492,30 +444,8 @@ int cmd_analyze(int argc, char **argv)
 	ctx.nthreads = (int)threads;
 	ctx.progress = progress_stage;
 	ctx.progress_ctx = &prog;
-	memset(&w, 0, sizeof w);
-	w.ctx = &ctx;
-	w.labels = todo;
-	w.n = ntodo;
-	w.status = xcalloc(ntodo ? ntodo : 1, sizeof *w.status);
-	w.res = xcalloc(ntodo ? ntodo : 1, sizeof *w.res);
-	w.prog = &prog;
-	w.force = val[O_FORCE] != NULL;
-	w.wait = !val[O_NOWAIT];
-	pthread_mutex_init(&w.lock, NULL);
-	if (ntodo) {
-		long nj = jobs < (long)ntodo ? jobs : (long)ntodo, j;
-		pthread_t *tid = xcalloc((size_t)nj, sizeof *tid);
-
-		for (j = 0; j < nj; j++)
-			if (pthread_create(&tid[j], NULL, worker, &w) != 0) {
-				tid[j] = 0;
-				worker(&w);
-			}
-		for (j = 0; j < nj; j++)
-			if (tid[j])
-				pthread_join(tid[j], NULL);
-		free(tid);
-	}
+	work_init(&w, &ctx, todo, ntodo, &prog, val[O_FORCE] != NULL, !val[O_NOWAIT]);
+	run_workers(&w, jobs);
 	pthread_mutex_destroy(&w.lock);
 	progress_clear(&prog);
 	ran = xcalloc(ntodo ? ntodo : 1, sizeof *ran);
@@ -530,22 +460,7 @@ int cmd_analyze(int argc, char **argv)
 		nfail++;
 	if (!quiet) {
 		print_summary(&st, w.res, ran, ntodo);
-		{
-			const char **names = xcalloc(ntodo ? ntodo : 1, sizeof *names);
-			const leftout_run **lr = xcalloc(ntodo ? ntodo : 1, sizeof *lr);
-			size_t *nl = xcalloc(ntodo ? ntodo : 1, sizeof *nl), k = 0;
-
-			for (i = 0; i < ntodo; i++)
-				if (ran[i]) {
-					names[k] = todo[i];
-					lr[k] = w.res[i].leftout;
-					nl[k++] = w.res[i].nleftout;
-				}
-			leftout_print(names, lr, nl, k);
-			free(names);
-			free(lr);
-			free(nl);
-		}
+		print_leftout(todo, w.res, ran, ntodo);
 		printf("\n%zu of %zu subjects complete; %zu analyzed now, %d failed; %ld warnings\n",
 		       ncomplete, nsub, ntodo - (size_t)nsubfail, nsubfail, prog.warnings);
 		printf("tables: %s/responses.csv (all subjects), %s/sub-<label>/responses.csv\n", st.out,
@@ -560,12 +475,10 @@ int cmd_analyze(int argc, char **argv)
 out_parcels:
 	free(mask);
 	parcel_set_release(&ps);
-out_prog:
 	progress_release(&prog);
 out_subs:
 	bids_strings_free(todo, ntodo);
 	bids_strings_free(subs, nsub);
-out_study:
 	study_release(&st);
 	return rc;
 }

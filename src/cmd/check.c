@@ -15,14 +15,15 @@
 #include "cmd.h"
 #include "cmdline.h"
 #include "../pipeline/runfit.h"
+#include "../pipeline/studycheck.h"
 #include "../pipeline/subject.h"
 
 enum { O_SUBJECTS, O_HEADERS_ONLY, O_NOPTS };
 
-static const cmdline_opt opts[] = {
-	{ "subjects", "LIST", "check only these subjects (labels, space or comma separated)" },
-	{ "headers-only", NULL, "read image headers only (faster; damaged image data goes unnoticed)" },
-	{ NULL, NULL, NULL },
+static const cmdline_opt opts[O_NOPTS + 1] = {
+	[O_SUBJECTS] = { "subjects", "LIST", "check only these subjects (labels, space or comma separated)" },
+	[O_HEADERS_ONLY] = { "headers-only", NULL, "read image headers only (faster; damaged image data goes unnoticed)" },
+	[O_NOPTS] = { NULL, NULL, NULL },
 };
 
 static const cmdline_spec spec = {
@@ -107,34 +108,6 @@ static const char *base(const char *path)
 	const char *s = strrchr(path, '/');
 
 	return s ? s + 1 : path;
-}
-
-/* Splits a --subjects value into labels without "sub-". */
-static char **split_labels(const char *text, size_t *n)
-{
-	char **v = NULL;
-	size_t k = 0;
-
-	while (*text) {
-		size_t len;
-
-		text += strspn(text, " ,\t");
-		len = strcspn(text, " ,\t");
-		if (!len)
-			break;
-		if (len > 4 && strncmp(text, "sub-", 4) == 0) {
-			text += 4;
-			len -= 4;
-		}
-		v = xrealloc(v, (k + 1) * sizeof *v);
-		v[k] = xmalloc(len + 1);
-		memcpy(v[k], text, len);
-		v[k][len] = '\0';
-		k++;
-		text += len;
-	}
-	*n = k;
-	return v;
 }
 
 /* ---- one run ---- */
@@ -1067,81 +1040,33 @@ static int run_check(checker *c, char **subs, size_t nsub)
 	return 0;
 }
 
-/* The subjects to check: the study's list (or all found), narrowed by --subjects. */
+/* The subjects to check: the study's list (or all found), narrowed by --subjects (studycheck.h). */
 static int pick_subjects(checker *c, const char *only, char ***out, size_t *n)
 {
-	const study *st = c->st;
-	char **found = NULL, **pick = NULL;
-	size_t nfound = 0, npick = 0, i, j;
-	sr_err e;
+	char **all = NULL;
+	size_t nall = 0, i;
+	study_problems bad = { 0 };
 
 	*out = NULL;
 	*n = 0;
-	sr_err_init(&e, on_warn, c);
-	if (bids_subjects(st->bids, &found, &nfound, &e) != SR_OK) {
-		problem(c, e.msg);
-		return 1;
+	studycheck_subjects(c->st, &all, &nall, &c->probs);
+	if (!only) {
+		*out = all;
+		*n = nall;
+		return 0;
 	}
-	if (st->subjects) {
-		for (i = 0; i < st->nsubjects; i++) {
-			for (j = 0; j < nfound; j++)
-				if (strcmp(found[j], st->subjects[i]) == 0)
-					break;
-			if (j == nfound) {
-				char msg[1024];
-
-				snprintf(msg, sizeof msg, "%s: line %zu: subject '%s' is not in %s", st->path,
-					 study_line(st, "study", "subjects"), st->subjects[i], st->bids);
-				problem(c, msg);
-			} else {
-				pick = xrealloc(pick, (npick + 1) * sizeof *pick);
-				pick[npick++] = xstrdup(st->subjects[i]);
-			}
-		}
-		bids_strings_free(found, nfound);
-	} else {
-		pick = found;
-		npick = nfound;
+	if (studycheck_only(all, nall, only, out, n, &bad)) {
+		for (i = 0; i < bad.n; i++)
+			cmdline_error("check", "%s", bad.msg[i]);
+		study_problems_release(&bad);
+		bids_strings_free(all, nall);
+		return 2;
 	}
-	if (only) {
-		size_t nonly;
-		char **want = split_labels(only, &nonly);
-		char **keep = NULL;
-		size_t nkeep = 0;
-		int bad = 0;
-
-		for (i = 0; i < nonly; i++) {
-			for (j = 0; j < npick; j++)
-				if (strcmp(pick[j], want[i]) == 0)
-					break;
-			if (j == npick) {
-				cmdline_error("check", "subject '%s' (--subjects) is not among the study's %zu subjects",
-					      want[i], npick);
-				bad = 1;
-			} else {
-				keep = xrealloc(keep, (nkeep + 1) * sizeof *keep);
-				keep[nkeep++] = xstrdup(want[i]);
-			}
-		}
-		bids_strings_free(want, nonly);
-		bids_strings_free(pick, npick);
-		if (bad) {
-			bids_strings_free(keep, nkeep);
-			return 2;
-		}
-		pick = keep;
-		npick = nkeep;
-	}
-	if (npick)
-		qsort(pick, npick, sizeof *pick, cmp_str);
-	if (npick == 0 && !c->probs.n) {
-		char msg[1024];
-
-		snprintf(msg, sizeof msg, "%s: no subjects (sub-* folders) found", st->bids);
-		problem(c, msg);
-	}
-	*out = pick;
-	*n = npick;
+	bids_strings_free(all, nall);
+	if (*n)
+		qsort(*out, *n, sizeof **out, cmp_str);
+	else if (!c->probs.n)
+		study_problems_add(&c->probs, c->st->bids, 0, "no subjects (sub-* folders) found");
 	return 0;
 }
 
