@@ -12,6 +12,7 @@
 #include "../io/afile.h"
 #include "../io/bids.h"
 #include "../io/nii.h"
+#include "../io/parcels.h"
 #include "../io/study.h"
 #include "../io/table.h"
 #include "cmd.h"
@@ -686,107 +687,87 @@ static int cmp_i32(const void *a, const void *b)
 	return (x > y) - (x < y);
 }
 
-static int from_labels(const char *const *val, sr_err *e)
+/* The sorted distinct labels of a --keep list; 2 (said) when it is not one. */
+static int parse_keep(const char *list, int32_t **keep, size_t *nkeep)
 {
-	nii_info info;
-	double *d = NULL;
-	int32_t *keep = NULL;
-	size_t nkeep = 0, v, nvox, k, r;
-	const char *s = val[OPT_KEEP];
-	table names;
-	int have_names = 0, rc = 1;
-	pset p;
+	const char *s = list;
+	size_t k;
 
-	memset(&p, 0, sizeof p);
-	if (!s) {
-		cmdline_error("parcels", "--from needs --keep L1,L2,... (the labels to keep)");
-		return 2;
-	}
-	keep = xmalloc_array(strlen(s) + 1, sizeof *keep);
+	*nkeep = 0;
+	*keep = xmalloc_array(strlen(s) + 1, sizeof **keep);
 	while (*s) {
 		char *end;
 		long x = strtol(s, &end, 10);
 
 		if (end == s || x < 1 || x > 2147483647L || (*end && *end != ',')) {
-			cmdline_error("parcels", "--keep: '%s' is not a list of labels >= 1 separated by commas",
-				      val[OPT_KEEP]);
-			free(keep);
+			cmdline_error("parcels", "--keep: '%s' is not a list of labels >= 1 separated by commas", list);
+			free(*keep);
 			return 2;
 		}
-		for (k = 0; k < nkeep; k++)
-			if (keep[k] == (int32_t)x)
+		for (k = 0; k < *nkeep; k++)
+			if ((*keep)[k] == (int32_t)x)
 				break;
-		if (k == nkeep)
-			keep[nkeep++] = (int32_t)x;
+		if (k == *nkeep)
+			(*keep)[(*nkeep)++] = (int32_t)x;
 		s = *end ? end + 1 : end;
 	}
-	if (nkeep == 0) {
+	if (*nkeep == 0) {
 		cmdline_error("parcels", "--keep: no labels given");
-		free(keep);
+		free(*keep);
 		return 2;
 	}
-	qsort(keep, nkeep, sizeof *keep, cmp_i32);
-	if (nii_read_3d(val[OPT_FROM], &info, &d, e) != SR_OK)
-		goto fail;
-	nvox = nii_nvox(&info.grid);
-	p.labels = xmalloc_array(nvox, sizeof *p.labels);
-	for (v = 0; v < nvox; v++) {
-		double x = d[v];
+	qsort(*keep, *nkeep, sizeof **keep, cmp_i32);
+	return 0;
+}
 
-		if (!isfinite(x) || x < 0 || x != floor(x) || x > 2147483647.0) {
-			sr_fail(e, SR_EFORMAT, "%s: voxel %zu holds %g; labels must be whole numbers >= 0",
-				val[OPT_FROM], v, x);
-			goto fail;
-		}
-		p.labels[v] = 0;
-		for (k = 0; k < nkeep; k++)
-			if (keep[k] == (int32_t)x)
-				p.labels[v] = (int32_t)x;
+static int from_labels(const char *const *val, sr_err *e)
+{
+	int32_t *keep = NULL;
+	size_t nkeep = 0, v, k;
+	int rc = 1;
+	parcels_set in;
+	sr_err quiet;
+	pset p;
+
+	memset(&p, 0, sizeof p);
+	memset(&in, 0, sizeof in);
+	if (!val[OPT_KEEP]) {
+		cmdline_error("parcels", "--from needs --keep L1,L2,... (the labels to keep)");
+		return 2;
 	}
-	if (val[OPT_NAMES]) {
-		if (table_read(val[OPT_NAMES], 0, &names, e) != SR_OK)
-			goto fail;
-		have_names = 1;
-		if (table_col(&names, "index") < 0 || table_col(&names, "name") < 0) {
-			sr_fail(e, SR_EFORMAT, "%s: line 1: the names table needs columns 'index' and 'name'",
-				val[OPT_NAMES]);
-			goto fail;
-		}
+	if (parse_keep(val[OPT_KEEP], &keep, &nkeep))
+		return 2;
+	/* the labels not kept need no names: no warnings about them */
+	sr_err_init(&quiet, NULL, NULL);
+	if (parcels_load(val[OPT_FROM], val[OPT_NAMES], &in, &quiet) != SR_OK) {
+		sr_fail(e, quiet.code, "%s", quiet.msg);
+		goto fail;
 	}
+	p.labels = xcalloc(in.nvox ? in.nvox : 1, sizeof *p.labels);
+	for (v = 0; v < in.nvox; v++)
+		if (bsearch(&in.labels[v], keep, nkeep, sizeof *keep, cmp_i32))
+			p.labels[v] = in.labels[v];
 	pset_alloc_rows(&p, (int32_t)nkeep);
 	for (k = 0; k < nkeep; k++) {
 		char buf[32];
-		const char *nm = NULL;
+		const char *nm = parcels_name(&in, keep[k]);
 
 		p.index[k] = keep[k];
 		p.peak[k] = p.share[k] = NAN;
-		if (have_names) {
-			size_t ci = (size_t)table_col(&names, "index"), cn = (size_t)table_col(&names, "name");
-
-			for (r = 0; r < names.nrows; r++) {
-				double x;
-				int na;
-
-				if (table_number(&names, r, ci, &x, &na, 0, e) != SR_OK)
-					goto fail;
-				if (!na && x == (double)keep[k] && table_cell(&names, r, cn)[0])
-					nm = table_cell(&names, r, cn);
-			}
-			if (!nm) {
-				sr_fail(e, SR_EFORMAT, "%s: no name for label %d", val[OPT_NAMES], (int)keep[k]);
-				goto fail;
-			}
+		if (in.have_names && !nm) {
+			sr_fail(e, SR_EFORMAT, "%s: no name for label %d", val[OPT_NAMES], (int)keep[k]);
+			goto fail;
 		}
 		snprintf(buf, sizeof buf, "label_%d", (int)keep[k]);
 		p.name[k] = xstrdup(nm ? nm : buf);
 	}
-	pset_stats(&p, &info.grid);
+	pset_stats(&p, &in.grid);
 	for (k = 0; k < nkeep; k++)
 		if (p.size[k] == 0) {
 			sr_fail(e, SR_EINVAL, "%s: label %d is not in the image", val[OPT_FROM], (int)keep[k]);
 			goto fail;
 		}
-	if (pset_write(&p, &info.grid, val[OPT_OUT], "chosen labels", e) != SR_OK)
+	if (pset_write(&p, &in.grid, val[OPT_OUT], "chosen labels", e) != SR_OK)
 		goto fail;
 	if (!val[OPT_QUIET])
 		printf("%s: %d parcels kept from %s\n", val[OPT_OUT], (int)p.n, val[OPT_FROM]);
@@ -795,9 +776,7 @@ static int from_labels(const char *const *val, sr_err *e)
 fail:
 	fprintf(stderr, "splitroi parcels: %s\n", e->msg);
 out:
-	if (have_names)
-		table_release(&names);
-	free(d);
+	parcels_release(&in);
 	free(keep);
 	pset_release(&p);
 	return rc;
