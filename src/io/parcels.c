@@ -132,7 +132,7 @@ void parcels_release(parcels_set *p)
 	if (!p)
 		return;
 	free(p->labels);
-	for (i = 0; i < p->n; i++)
+	for (i = 0; p->name && i < p->n; i++)
 		free(p->name[i]);
 	free(p->name);
 	free(p->named);
