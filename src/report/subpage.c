@@ -8,6 +8,7 @@
 
 #include "../core/mem.h"
 #include "../core/qc.h"
+#include "chart.h"
 #include "../io/nii.h"
 #include "../io/parcels.h"
 #include "../io/png.h"
@@ -325,7 +326,7 @@ static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label
 			if (mode == DRAW_T && m->t && isfinite(m->t[v]) && m->t[v] != 0) {
 				unsigned char rgb[3];
 
-				qc_viridis(thi > tlo ? (m->t[v] - tlo) / (thi - tlo) : 0.5, rgb);
+				chart_viridis(thi > tlo ? (m->t[v] - tlo) / (thi - tlo) : 0.5, rgb);
 				for (c = 0; c < 3; c++)
 					o[c] = rgb[c];
 			}
