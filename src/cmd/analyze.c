@@ -226,12 +226,12 @@ static void print_problems(study_problems *probs)
 }
 
 /* The parcels (one set for all subjects unless per subject) and the study's one mask; warnings through e. */
-static int load_shared(const study *st, parcel_set *ps, unsigned char **mask, nii_grid *mask_grid, sr_err *e)
+static int load_shared(const study *st, parcels_set *ps, unsigned char **mask, nii_grid *mask_grid, sr_err *e)
 {
 	memset(ps, 0, sizeof *ps);
 	*mask = NULL;
 	if (!study_per_subject(st->parcels) && !study_per_subject(st->parcel_names) &&
-	    parcel_set_load(st->parcels, st->parcel_names, ps, e)) {
+	    parcels_load(st->parcels, st->parcel_names, ps, e)) {
 		fprintf(stderr, "splitroi analyze: %s\n", e->msg);
 		return 1;
 	}
@@ -367,7 +367,7 @@ int cmd_analyze(int argc, char **argv)
 	long jobs = 1, threads = 0;
 	study st;
 	study_problems probs = { 0 };
-	parcel_set ps;
+	parcels_set ps;
 	char **subs = NULL, **todo = NULL;
 	size_t nsub = 0, ntodo = 0, i, ncomplete = 0;
 	unsigned char *mask = NULL;
@@ -474,7 +474,7 @@ int cmd_analyze(int argc, char **argv)
 	free(ran);
 out_parcels:
 	free(mask);
-	parcel_set_release(&ps);
+	parcels_release(&ps);
 	progress_release(&prog);
 out_subs:
 	bids_strings_free(todo, ntodo);

@@ -10,6 +10,7 @@
 #include "../io/bids.h"
 #include "../io/events.h"
 #include "../io/nii.h"
+#include "../io/parcels.h"
 #include "../io/study.h"
 #include "../io/table.h"
 #include "cmd.h"
@@ -494,155 +495,28 @@ typedef struct data_grid {
 	char path[1024];
 } data_grid;
 
-/* The parcel image and its names, read the way a fit reads them but listing every bad row. */
-typedef struct parcels {
-	nii_grid grid;
-	int32_t *labels;
-	size_t nvox;
-	int32_t *index;      /* distinct labels present, ascending */
-	size_t *count;       /* voxels of each */
-	size_t n;
-} parcels;
-
-static int cmp_i32(const void *a, const void *b)
+static void on_problem(void *ctx, const char *msg)
 {
-	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
-
-	return x < y ? -1 : x > y;
-}
-
-static int load_parcels(checker *c, parcels *p)
-{
-	const study *st = c->st;
-	nii_info info;
-	double *d;
-	sr_err e;
-	size_t v, k;
-	char msg[1024];
-
-	memset(p, 0, sizeof *p);
-	sr_err_init(&e, on_warn, c);
-	if (nii_read_3d(st->parcels, &info, &d, &e) != SR_OK) {
-		problem(c, e.msg);
-		return 1;
-	}
-	p->grid = info.grid;
-	p->nvox = nii_nvox(&info.grid);
-	p->labels = xmalloc_array(p->nvox ? p->nvox : 1, sizeof *p->labels);
-	for (v = 0; v < p->nvox; v++) {
-		double x = d[v];
-
-		if (!isfinite(x) || x < 0 || x != floor(x) || x > 2147483647.0) {
-			size_t nx = (size_t)info.grid.nx, ny = (size_t)info.grid.ny;
-
-			snprintf(msg, sizeof msg,
-				 "%s: voxel (%zu, %zu, %zu) holds %g; parcel labels must be whole numbers >= 0",
-				 st->parcels, v % nx, v / nx % ny, v / (nx * ny), x);
-			problem(c, msg);
-			free(d);
-			free(p->labels);
-			p->labels = NULL;
-			return 1;
-		}
-		p->labels[v] = (int32_t)x;
-	}
-	free(d);
-	for (v = 0; v < p->nvox; v++) {
-		if (p->labels[v] == 0)
-			continue;
-		for (k = 0; k < p->n; k++)
-			if (p->index[k] == p->labels[v])
-				break;
-		if (k == p->n) {
-			p->index = xrealloc(p->index, (p->n + 1) * sizeof *p->index);
-			p->index[p->n++] = p->labels[v];
-		}
-	}
-	if (p->n)
-		qsort(p->index, p->n, sizeof *p->index, cmp_i32);
-	p->count = xcalloc(p->n ? p->n : 1, sizeof *p->count);
-	for (v = 0; v < p->nvox; v++) {
-		int32_t *hit;
-
-		if (p->labels[v] == 0)
-			continue;
-		hit = bsearch(&p->labels[v], p->index, p->n, sizeof *p->index, cmp_i32);
-		p->count[hit - p->index]++;
-	}
-	return 0;
-}
-
-/* The name of label from the names table (row of its index), or NULL. */
-static const char *parcel_name(const table *t, int ci, int cn, int32_t label)
-{
-	size_t r;
-	char buf[32];
-
-	snprintf(buf, sizeof buf, "%d", (int)label);
-	for (r = 0; r < t->nrows; r++) {
-		double x;
-		int na;
-
-		if (table_number(t, r, (size_t)ci, &x, &na, 0, NULL) == SR_OK && !na && x == label)
-			return table_cell(t, r, (size_t)cn);
-	}
-	return NULL;
+	problem(ctx, msg);
 }
 
 static void check_parcels(checker *c, const data_grid *grids, size_t ngrids)
 {
 	const study *st = c->st;
-	parcels ps;
-	table names;
-	int have_names = 0, ci = -1, cn = -1;
+	parcels_set ps;
 	sr_err e;
 	char why[1024], msg[2048];
 	int32_t *on_data = NULL;
-	size_t nv = 0, i, r, g;
+	size_t nv = 0, g;
+	int i;
 
-	if (load_parcels(c, &ps))
-		return;
+	/* read the way a fit reads them, but listing every bad row */
 	sr_err_init(&e, on_warn, c);
-	if (st->parcel_names) {
-		if (table_read(st->parcel_names, 0, &names, &e) != SR_OK) {
-			problem(c, e.msg);
-		} else {
-			have_names = 1;
-			ci = table_col(&names, "index");
-			cn = table_col(&names, "name");
-			if (ci < 0 || cn < 0) {
-				snprintf(msg, sizeof msg,
-					 "%s: line %zu: the parcel names table needs columns 'index' and 'name'",
-					 st->parcel_names, names.header_line);
-				problem(c, msg);
-				have_names = 0;
-			}
-			for (r = 0; have_names && r < names.nrows; r++) {
-				double x;
-				int na;
-
-				if (table_number(&names, r, (size_t)ci, &x, &na, 0, &e) != SR_OK) {
-					problem(c, e.msg);
-				} else if (na || x != floor(x) || x < 1 || x > 2147483647.0) {
-					snprintf(msg, sizeof msg,
-						 "%s: line %zu, column %d (index): '%s' is not a parcel label (a whole number >= 1)",
-						 st->parcel_names, names.line[r], ci + 1,
-						 table_cell(&names, r, (size_t)ci));
-					problem(c, msg);
-				} else {
-					int32_t l = (int32_t)x;
-
-					if (!ps.n || !bsearch(&l, ps.index, ps.n, sizeof *ps.index, cmp_i32)) {
-						snprintf(msg, sizeof msg, "%s: line %zu: parcel %s (index %d) has no voxels in %s",
-							 st->parcel_names, names.line[r],
-							 table_cell(&names, r, (size_t)cn), (int)l, st->parcels);
-						sl_push(&c->warns, msg);
-					}
-				}
-			}
-		}
+	if (parcels_load_listing(st->parcels, st->parcel_names, on_problem, c, &ps, &e) != SR_OK) {
+		problem(c, e.msg);
+		return;
 	}
-	printf("parcels: %s (%lld x %lld x %lld), %zu parcel%s\n", st->parcels, (long long)ps.grid.nx,
+	printf("parcels: %s (%lld x %lld x %lld), %d parcel%s\n", st->parcels, (long long)ps.grid.nx,
 	       (long long)ps.grid.ny, (long long)ps.grid.nz, ps.n, ps.n == 1 ? "" : "s");
 	if (parcels_template_on_raw(st, &ps.grid, st->parcels)) {
 		snprintf(msg, sizeof msg, "%s: " PARCELS_RAW_NOTE, st->parcels);
@@ -683,37 +557,21 @@ static void check_parcels(checker *c, const data_grid *grids, size_t ngrids)
 	printf("  %6s  %-24s %8s%s\n", "index", "name", "voxels", on_data ? "  on data grid" : "");
 	for (i = 0; i < ps.n; i++) {
 		size_t v, count2 = 0;
-		const char *name = have_names ? parcel_name(&names, ci, cn, ps.index[i]) : NULL;
-		char num[32];
 
-		snprintf(num, sizeof num, "%d", (int)ps.index[i]);
 		for (v = 0; on_data && v < nv; v++)
 			count2 += on_data[v] == ps.index[i];
-		printf("  %6d  %-24s %8zu", (int)ps.index[i], name ? name : num, ps.count[i]);
+		printf("  %6d  %-24s %8zu", (int)ps.index[i], ps.name[i], ps.count[i]);
 		if (on_data)
 			printf("  %12zu", count2);
 		printf("\n");
-		if (have_names && !name) {
-			snprintf(msg, sizeof msg, "%s: parcel %d has no row in %s; its label is its name",
-				 st->parcels, (int)ps.index[i], st->parcel_names);
-			sl_push(&c->warns, msg);
-		}
 		if (on_data && !count2) {
 			snprintf(msg, sizeof msg, "%s: parcel %s has no voxels once resampled onto the data grid",
-				 st->parcels, name ? name : num);
+				 st->parcels, ps.name[i]);
 			sl_push(&c->warns, msg);
 		}
 	}
-	if (ps.n == 0) {
-		snprintf(msg, sizeof msg, "%s: no parcels (every voxel is 0)", st->parcels);
-		problem(c, msg);
-	}
-	if (st->parcel_names)
-		table_release(&names);   /* left empty on a failed read */
 	free(on_data);
-	free(ps.labels);
-	free(ps.index);
-	free(ps.count);
+	parcels_release(&ps);
 }
 
 static void check_mask(checker *c, const data_grid *grids, size_t ngrids)

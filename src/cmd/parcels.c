@@ -12,6 +12,7 @@
 #include "../io/afile.h"
 #include "../io/bids.h"
 #include "../io/nii.h"
+#include "../io/parcels.h"
 #include "../io/study.h"
 #include "../io/table.h"
 #include "cmd.h"
@@ -19,31 +20,32 @@
 #include "../pipeline/studyset.h"
 #include "../pipeline/subject.h"
 
+/* Slots of the values array; the table below is indexed by them, so the two cannot drift. */
 enum {
 	OPT_OUT, OPT_P, OPT_T, OPT_FWHM, OPT_MINSIZE, OPT_MINSHARE, OPT_CONN, OPT_FLOOR, OPT_LOO,
 	OPT_THREADS, OPT_SPHERES, OPT_GRID, OPT_RADIUS, OPT_FROM, OPT_KEEP, OPT_NAMES, OPT_QUIET,
 	NOPT
 };
 
-static const cmdline_opt parcels_opts[] = {
-	{ "out", "DIR", "folder for parcels.nii.gz and parcels.tsv (required; created if missing)" },
-	{ "p", "P", "one-sided p threshold of each subject's localizer t map (default 0.001)" },
-	{ "t", "T", "threshold t directly instead of --p" },
-	{ "fwhm", "MM", "FWHM of the Gaussian smoothing the overlap map (default 6)" },
-	{ "min-size", "VOXELS", "drop regions with fewer voxels (default 10)" },
-	{ "min-share", "S", "keep regions where at least this share of subjects has a suprathreshold voxel (default 0.6)" },
-	{ "connectivity", "N", "26 (default) or 6: which voxels touch" },
-	{ "floor", "F", "smoothed overlap below F is background (default 1/number of subjects)" },
-	{ "leave-one-out", NULL, "also make DIR/without-sub-<label>/ parcels from all other subjects" },
-	{ "threads", "N", "threads for fitting one subject's runs (default 1)" },
-	{ "spheres", "COORDS.tsv", "spheres around centres (columns name, x, y, z in world mm)" },
-	{ "grid", "IMAGE", "the image whose grid the spheres are drawn on" },
-	{ "radius", "MM", "sphere radius in mm" },
-	{ "from", "LABELS.nii.gz", "an existing label image to restrict" },
-	{ "keep", "L1,L2,...", "labels of --from to keep" },
-	{ "names", "NAMES.tsv", "names of the --from labels (columns index, name)" },
-	{ "quiet", NULL, "print nothing but errors" },
-	{ NULL, NULL, NULL },
+static const cmdline_opt parcels_opts[NOPT + 1] = {
+	[OPT_OUT] = { "out", "DIR", "folder for parcels.nii.gz and parcels.tsv (required; created if missing)" },
+	[OPT_P] = { "p", "P", "one-sided p threshold of each subject's localizer t map (default 0.001)" },
+	[OPT_T] = { "t", "T", "threshold t directly instead of --p" },
+	[OPT_FWHM] = { "fwhm", "MM", "FWHM of the Gaussian smoothing the overlap map (default 6)" },
+	[OPT_MINSIZE] = { "min-size", "VOXELS", "drop regions with fewer voxels (default 10)" },
+	[OPT_MINSHARE] = { "min-share", "S", "keep regions where at least this share of subjects has a suprathreshold voxel (default 0.6)" },
+	[OPT_CONN] = { "connectivity", "N", "26 (default) or 6: which voxels touch" },
+	[OPT_FLOOR] = { "floor", "F", "smoothed overlap below F is background (default 1/number of subjects)" },
+	[OPT_LOO] = { "leave-one-out", NULL, "also make DIR/without-sub-<label>/ parcels from all other subjects" },
+	[OPT_THREADS] = { "threads", "N", "threads for fitting one subject's runs (default 1)" },
+	[OPT_SPHERES] = { "spheres", "COORDS.tsv", "spheres around centres (columns name, x, y, z in world mm)" },
+	[OPT_GRID] = { "grid", "IMAGE", "the image whose grid the spheres are drawn on" },
+	[OPT_RADIUS] = { "radius", "MM", "sphere radius in mm" },
+	[OPT_FROM] = { "from", "LABELS.nii.gz", "an existing label image to restrict" },
+	[OPT_KEEP] = { "keep", "L1,L2,...", "labels of --from to keep" },
+	[OPT_NAMES] = { "names", "NAMES.tsv", "names of the --from labels (columns index, name)" },
+	[OPT_QUIET] = { "quiet", NULL, "print nothing but errors" },
+	[NOPT] = { NULL, NULL, NULL },   /* the parser stops at the NULL name */
 };
 
 static const cmdline_spec parcels_spec = {
@@ -425,36 +427,24 @@ static sr_status read_mask(const study *st, unsigned char **mask, nii_grid *g, s
 	return SR_OK;
 }
 
-static int from_study(const char *path, const char *const *val, sr_err *e)
+/* The study mode's thresholds and filters from the options; 2 (said) on a bad value. */
+static int study_options(const char *const *val, gparams *gp, double *p, double *tfix, long *threads)
 {
-	study st;
-	study_problems probs = { 0 };
-	char **subs = NULL, buf[512];
-	size_t nsub = 0, s, v, nvox = 0, i;
-	unsigned char **sig = NULL, *mask = NULL;
-	nii_grid grid, mgrid;
-	gparams gp = { 6.0, 0, 0.6, 10, 26, 0 };
-	double p = 0.001, tfix = NAN, *qcache = NULL;
-	long threads = 1, conn = 26;
-	int quiet = val[OPT_QUIET] != NULL, rc = 1, loo = val[OPT_LOO] != NULL;
-	size_t nq = 0;
-	pset full;
-	char dir[4096];
+	long conn = 26;
 
-	memset(&full, 0, sizeof full);
 	if (val[OPT_P] && val[OPT_T]) {
 		cmdline_error("parcels", "give --p or --t, not both");
 		return 2;
 	}
-	if ((val[OPT_P] && (cmdline_double("parcels", "p", val[OPT_P], 0, 1, &p) || p <= 0 || p >= 1)) ||
-	    (val[OPT_T] && cmdline_double("parcels", "t", val[OPT_T], -1e6, 1e6, &tfix)) ||
-	    (val[OPT_FWHM] && cmdline_double("parcels", "fwhm", val[OPT_FWHM], 0, 1000, &gp.fwhm)) ||
-	    (val[OPT_MINSIZE] && cmdline_int("parcels", "min-size", val[OPT_MINSIZE], 1, 1000000000, &gp.min_size)) ||
-	    (val[OPT_MINSHARE] && cmdline_double("parcels", "min-share", val[OPT_MINSHARE], 0, 1, &gp.min_share)) ||
+	if ((val[OPT_P] && (cmdline_double("parcels", "p", val[OPT_P], 0, 1, p) || *p <= 0 || *p >= 1)) ||
+	    (val[OPT_T] && cmdline_double("parcels", "t", val[OPT_T], -1e6, 1e6, tfix)) ||
+	    (val[OPT_FWHM] && cmdline_double("parcels", "fwhm", val[OPT_FWHM], 0, 1000, &gp->fwhm)) ||
+	    (val[OPT_MINSIZE] && cmdline_int("parcels", "min-size", val[OPT_MINSIZE], 1, 1000000000, &gp->min_size)) ||
+	    (val[OPT_MINSHARE] && cmdline_double("parcels", "min-share", val[OPT_MINSHARE], 0, 1, &gp->min_share)) ||
 	    (val[OPT_CONN] && cmdline_int("parcels", "connectivity", val[OPT_CONN], 6, 26, &conn)) ||
-	    (val[OPT_FLOOR] && cmdline_double("parcels", "floor", val[OPT_FLOOR], 0, 1, &gp.floor_value)) ||
-	    (val[OPT_THREADS] && cmdline_int("parcels", "threads", val[OPT_THREADS], 1, 1024, &threads))) {
-		if (val[OPT_P] && (p <= 0 || p >= 1))
+	    (val[OPT_FLOOR] && cmdline_double("parcels", "floor", val[OPT_FLOOR], 0, 1, &gp->floor_value)) ||
+	    (val[OPT_THREADS] && cmdline_int("parcels", "threads", val[OPT_THREADS], 1, 1024, threads))) {
+		if (val[OPT_P] && (*p <= 0 || *p >= 1))
 			cmdline_error("parcels", "--p must lie strictly between 0 and 1");
 		return 2;
 	}
@@ -462,8 +452,132 @@ static int from_study(const char *path, const char *const *val, sr_err *e)
 		cmdline_error("parcels", "--connectivity must be 6 or 26, not %ld", conn);
 		return 2;
 	}
-	gp.connectivity = (int)conn;
-	gp.have_floor = val[OPT_FLOOR] != NULL;
+	gp->connectivity = (int)conn;
+	gp->have_floor = val[OPT_FLOOR] != NULL;
+	return 0;
+}
+
+/* The study's thresholds and the shared grid while the subjects are thresholded. */
+typedef struct sigwork {
+	const study *st;
+	const unsigned char *mask;
+	const nii_grid *mgrid;
+	double p, tfix;           /* tfix NaN: threshold by p */
+	int threads, quiet;
+	double *qcache;           /* t quantile of 1 - p per df, NaN not yet computed */
+	size_t nq;
+	nii_grid grid;            /* the first subject's */
+	size_t nvox;
+} sigwork;
+
+/* The t threshold of a voxel with df degrees of freedom: one-sided p to t, cached per df. */
+static double df_threshold(sigwork *w, int df)
+{
+	if (!isnan(w->tfix))
+		return w->tfix;
+	if ((size_t)df >= w->nq) {
+		size_t k, nn = (size_t)df + 1;
+
+		w->qcache = xrealloc(w->qcache, nn * sizeof *w->qcache);
+		for (k = w->nq; k < nn; k++)
+			w->qcache[k] = NAN;
+		w->nq = nn;
+	}
+	if (df > 0 && isnan(w->qcache[df]))
+		w->qcache[df] = stats_t_quantile(1.0 - w->p, (double)df);
+	return df > 0 ? w->qcache[df] : INFINITY;
+}
+
+/* Subject s's suprathreshold voxels (*sig, nvox) on the grid every subject must share. */
+static sr_status subject_sig(sigwork *w, char *const *subs, size_t s, unsigned char **sig, sr_err *e)
+{
+	double *t;
+	int *df, nruns;
+	nii_grid g;
+	size_t nsig = 0, v;
+	char buf[512];
+
+	if (subject_localizer_t(w->st, subs[s], w->mask, w->mask ? w->mgrid : NULL, w->threads, &g, &t, &df, &nruns,
+				e) != SR_OK)
+		return e->code;
+	if (s == 0) {
+		w->grid = g;
+		w->nvox = nii_nvox(&g);
+		if (w->mask && !nii_same_grid(&g, w->mgrid, 1e-3, buf, sizeof buf)) {
+			free(t);
+			free(df);
+			return sr_fail(e, SR_EDIM, "%s: the mask is not on the data grid: %s", w->st->mask, buf);
+		}
+	} else if (!nii_same_grid(&w->grid, &g, 1e-3, buf, sizeof buf)) {
+		free(t);
+		free(df);
+		return sr_fail(e, SR_EDIM, "subject %s is not on the grid of subject %s (%s); parcels need one grid",
+			       subs[s], subs[0], buf);
+	}
+	*sig = xmalloc(w->nvox);
+	for (v = 0; v < w->nvox; v++) {
+		(*sig)[v] = isfinite(t[v]) && t[v] > df_threshold(w, df[v]);
+		nsig += (*sig)[v];
+	}
+	free(t);
+	free(df);
+	if (!w->quiet)
+		fprintf(stderr, "sub-%s: %d localizer runs, %zu voxels above threshold\n", subs[s], nruns, nsig);
+	return SR_OK;
+}
+
+/* DIR/without-sub-<label>/ for every subject: parcels of the others, matched to the whole group's. */
+static sr_status write_leave_one_out(unsigned char **sig, char *const *subs, size_t nsub, const nii_grid *grid,
+				     const gparams *gp, const pset *full, const char *out, int quiet, sr_err *e)
+{
+	char dir[4096];
+	size_t s;
+
+	for (s = 0; s < nsub; s++) {
+		unsigned char *keep = sig[s];
+		pset one;
+		sr_status rc;
+
+		sig[s] = NULL;
+		rc = group_parcels(sig, nsub, grid, gp, &one, e);
+		sig[s] = keep;
+		if (rc)
+			return rc;
+		match_to(&one, full, nii_nvox(grid));
+		if (strlen(out) + strlen(subs[s]) + 16 > sizeof dir) {
+			pset_release(&one);
+			return sr_fail(e, SR_EINVAL, "%s: the output folder name is too long", out);
+		}
+		snprintf(dir, sizeof dir, "%s/without-sub-%s", out, subs[s]);
+		rc = pset_write(&one, grid, dir, "parcels without one subject", e);
+		if (!rc && !quiet)
+			printf("%s: %d parcels from %zu subjects\n", dir, (int)one.n, nsub - 1);
+		pset_release(&one);
+		if (rc)
+			return rc;
+	}
+	return SR_OK;
+}
+
+static int from_study(const char *path, const char *const *val, sr_err *e)
+{
+	study st;
+	study_problems probs = { 0 };
+	char **subs = NULL;
+	size_t nsub = 0, s, i;
+	unsigned char **sig = NULL, *mask = NULL;
+	nii_grid mgrid;
+	gparams gp = { 6.0, 0, 0.6, 10, 26, 0 };
+	sigwork w = { 0 };
+	long threads = 1;
+	int quiet = val[OPT_QUIET] != NULL, rc = 1, loo = val[OPT_LOO] != NULL;
+	pset full;
+
+	memset(&full, 0, sizeof full);
+	w.p = 0.001;
+	w.tfix = NAN;
+	if (study_options(val, &gp, &w.p, &w.tfix, &threads))
+		return 2;
 	if (study_load_flags(path, &st, &probs, STUDY_PARCELS_OPTIONAL) != SR_OK) {
 		for (i = 0; i < probs.n; i++)
 			fprintf(stderr, "splitroi parcels: %s\n", probs.msg[i]);
@@ -486,93 +600,26 @@ static int from_study(const char *path, const char *const *val, sr_err *e)
 	}
 	if (read_mask(&st, &mask, &mgrid, e) != SR_OK)
 		goto fail;
+	w.st = &st;
+	w.mask = mask;
+	w.mgrid = &mgrid;
+	w.threads = (int)threads;
+	w.quiet = quiet;
 	sig = xcalloc(nsub, sizeof *sig);
-	for (s = 0; s < nsub; s++) {
-		double *t;
-		int *df, nruns;
-		nii_grid g;
-		size_t nsig = 0;
-
-		if (subject_localizer_t(&st, subs[s], mask, mask ? &mgrid : NULL, (int)threads, &g, &t, &df, &nruns, e) != SR_OK)
+	for (s = 0; s < nsub; s++)
+		if (subject_sig(&w, subs, s, &sig[s], e) != SR_OK)
 			goto fail;
-		if (s == 0) {
-			grid = g;
-			nvox = nii_nvox(&grid);
-			if (mask && !nii_same_grid(&grid, &mgrid, 1e-3, buf, sizeof buf)) {
-				free(t);
-				free(df);
-				sr_fail(e, SR_EDIM, "%s: the mask is not on the data grid: %s", st.mask, buf);
-				goto fail;
-			}
-		} else if (!nii_same_grid(&grid, &g, 1e-3, buf, sizeof buf)) {
-			free(t);
-			free(df);
-			sr_fail(e, SR_EDIM, "subject %s is not on the grid of subject %s (%s); parcels need one grid",
-				subs[s], subs[0], buf);
-			goto fail;
-		}
-		sig[s] = xmalloc(nvox);
-		for (v = 0; v < nvox; v++) {
-			double thr = tfix;
-
-			if (isnan(tfix)) {
-				/* one-sided p to t by the quantile for this voxel's df, cached per df */
-				if ((size_t)df[v] >= nq) {
-					size_t k, nn = (size_t)df[v] + 1;
-
-					qcache = xrealloc(qcache, nn * sizeof *qcache);
-					for (k = nq; k < nn; k++)
-						qcache[k] = NAN;
-					nq = nn;
-				}
-				if (df[v] > 0 && isnan(qcache[df[v]]))
-					qcache[df[v]] = stats_t_quantile(1.0 - p, (double)df[v]);
-				thr = df[v] > 0 ? qcache[df[v]] : INFINITY;
-			}
-			sig[s][v] = isfinite(t[v]) && t[v] > thr;
-			nsig += sig[s][v];
-		}
-		free(t);
-		free(df);
-		if (!quiet)
-			fprintf(stderr, "sub-%s: %d localizer runs, %zu voxels above threshold\n", subs[s],
-				nruns, nsig);
-	}
-	if (group_parcels(sig, nsub, &grid, &gp, &full, e) != SR_OK)
+	if (group_parcels(sig, nsub, &w.grid, &gp, &full, e) != SR_OK)
 		goto fail;
-	if (pset_write(&full, &grid, val[OPT_OUT], "group-constrained parcels", e) != SR_OK)
+	if (pset_write(&full, &w.grid, val[OPT_OUT], "group-constrained parcels", e) != SR_OK)
 		goto fail;
 	if (!quiet)
 		printf("%s: %d parcels from %zu subjects\n", val[OPT_OUT], (int)full.n, nsub);
 	if (full.n == 0)
 		sr_warnf(e, "no region passed the filters (--min-size %ld, --min-share %g); try a looser threshold",
 			 gp.min_size, gp.min_share);
-	if (loo)
-		for (s = 0; s < nsub; s++) {
-			unsigned char *keep = sig[s];
-			pset one;
-
-			sig[s] = NULL;
-			if (group_parcels(sig, nsub, &grid, &gp, &one, e) != SR_OK) {
-				sig[s] = keep;
-				goto fail;
-			}
-			sig[s] = keep;
-			match_to(&one, &full, nvox);
-			if (strlen(val[OPT_OUT]) + strlen(subs[s]) + 16 > sizeof dir) {
-				pset_release(&one);
-				sr_fail(e, SR_EINVAL, "%s: the output folder name is too long", val[OPT_OUT]);
-				goto fail;
-			}
-			snprintf(dir, sizeof dir, "%s/without-sub-%s", val[OPT_OUT], subs[s]);
-			if (pset_write(&one, &grid, dir, "parcels without one subject", e) != SR_OK) {
-				pset_release(&one);
-				goto fail;
-			}
-			if (!quiet)
-				printf("%s: %d parcels from %zu subjects\n", dir, (int)one.n, nsub - 1);
-			pset_release(&one);
-		}
+	if (loo && write_leave_one_out(sig, subs, nsub, &w.grid, &gp, &full, val[OPT_OUT], quiet, e) != SR_OK)
+		goto fail;
 	rc = 0;
 	goto out;
 fail:
@@ -584,7 +631,7 @@ out:
 			free(sig[s]);
 	free(sig);
 	free(mask);
-	free(qcache);
+	free(w.qcache);
 	pset_release(&full);
 	if (subs)
 		bids_strings_free(subs, nsub);
@@ -686,107 +733,87 @@ static int cmp_i32(const void *a, const void *b)
 	return (x > y) - (x < y);
 }
 
-static int from_labels(const char *const *val, sr_err *e)
+/* The sorted distinct labels of a --keep list; 2 (said) when it is not one. */
+static int parse_keep(const char *list, int32_t **keep, size_t *nkeep)
 {
-	nii_info info;
-	double *d = NULL;
-	int32_t *keep = NULL;
-	size_t nkeep = 0, v, nvox, k, r;
-	const char *s = val[OPT_KEEP];
-	table names;
-	int have_names = 0, rc = 1;
-	pset p;
+	const char *s = list;
+	size_t k;
 
-	memset(&p, 0, sizeof p);
-	if (!s) {
-		cmdline_error("parcels", "--from needs --keep L1,L2,... (the labels to keep)");
-		return 2;
-	}
-	keep = xmalloc_array(strlen(s) + 1, sizeof *keep);
+	*nkeep = 0;
+	*keep = xmalloc_array(strlen(s) + 1, sizeof **keep);
 	while (*s) {
 		char *end;
 		long x = strtol(s, &end, 10);
 
 		if (end == s || x < 1 || x > 2147483647L || (*end && *end != ',')) {
-			cmdline_error("parcels", "--keep: '%s' is not a list of labels >= 1 separated by commas",
-				      val[OPT_KEEP]);
-			free(keep);
+			cmdline_error("parcels", "--keep: '%s' is not a list of labels >= 1 separated by commas", list);
+			free(*keep);
 			return 2;
 		}
-		for (k = 0; k < nkeep; k++)
-			if (keep[k] == (int32_t)x)
+		for (k = 0; k < *nkeep; k++)
+			if ((*keep)[k] == (int32_t)x)
 				break;
-		if (k == nkeep)
-			keep[nkeep++] = (int32_t)x;
+		if (k == *nkeep)
+			(*keep)[(*nkeep)++] = (int32_t)x;
 		s = *end ? end + 1 : end;
 	}
-	if (nkeep == 0) {
+	if (*nkeep == 0) {
 		cmdline_error("parcels", "--keep: no labels given");
-		free(keep);
+		free(*keep);
 		return 2;
 	}
-	qsort(keep, nkeep, sizeof *keep, cmp_i32);
-	if (nii_read_3d(val[OPT_FROM], &info, &d, e) != SR_OK)
-		goto fail;
-	nvox = nii_nvox(&info.grid);
-	p.labels = xmalloc_array(nvox, sizeof *p.labels);
-	for (v = 0; v < nvox; v++) {
-		double x = d[v];
+	qsort(*keep, *nkeep, sizeof **keep, cmp_i32);
+	return 0;
+}
 
-		if (!isfinite(x) || x < 0 || x != floor(x) || x > 2147483647.0) {
-			sr_fail(e, SR_EFORMAT, "%s: voxel %zu holds %g; labels must be whole numbers >= 0",
-				val[OPT_FROM], v, x);
-			goto fail;
-		}
-		p.labels[v] = 0;
-		for (k = 0; k < nkeep; k++)
-			if (keep[k] == (int32_t)x)
-				p.labels[v] = (int32_t)x;
+static int from_labels(const char *const *val, sr_err *e)
+{
+	int32_t *keep = NULL;
+	size_t nkeep = 0, v, k;
+	int rc = 1;
+	parcels_set in;
+	sr_err quiet;
+	pset p;
+
+	memset(&p, 0, sizeof p);
+	memset(&in, 0, sizeof in);
+	if (!val[OPT_KEEP]) {
+		cmdline_error("parcels", "--from needs --keep L1,L2,... (the labels to keep)");
+		return 2;
 	}
-	if (val[OPT_NAMES]) {
-		if (table_read(val[OPT_NAMES], 0, &names, e) != SR_OK)
-			goto fail;
-		have_names = 1;
-		if (table_col(&names, "index") < 0 || table_col(&names, "name") < 0) {
-			sr_fail(e, SR_EFORMAT, "%s: line 1: the names table needs columns 'index' and 'name'",
-				val[OPT_NAMES]);
-			goto fail;
-		}
+	if (parse_keep(val[OPT_KEEP], &keep, &nkeep))
+		return 2;
+	/* the labels not kept need no names: no warnings about them */
+	sr_err_init(&quiet, NULL, NULL);
+	if (parcels_load(val[OPT_FROM], val[OPT_NAMES], &in, &quiet) != SR_OK) {
+		sr_fail(e, quiet.code, "%s", quiet.msg);
+		goto fail;
 	}
+	p.labels = xcalloc(in.nvox ? in.nvox : 1, sizeof *p.labels);
+	for (v = 0; v < in.nvox; v++)
+		if (bsearch(&in.labels[v], keep, nkeep, sizeof *keep, cmp_i32))
+			p.labels[v] = in.labels[v];
 	pset_alloc_rows(&p, (int32_t)nkeep);
 	for (k = 0; k < nkeep; k++) {
 		char buf[32];
-		const char *nm = NULL;
+		const char *nm = parcels_name(&in, keep[k]);
 
 		p.index[k] = keep[k];
 		p.peak[k] = p.share[k] = NAN;
-		if (have_names) {
-			size_t ci = (size_t)table_col(&names, "index"), cn = (size_t)table_col(&names, "name");
-
-			for (r = 0; r < names.nrows; r++) {
-				double x;
-				int na;
-
-				if (table_number(&names, r, ci, &x, &na, 0, e) != SR_OK)
-					goto fail;
-				if (!na && x == (double)keep[k] && table_cell(&names, r, cn)[0])
-					nm = table_cell(&names, r, cn);
-			}
-			if (!nm) {
-				sr_fail(e, SR_EFORMAT, "%s: no name for label %d", val[OPT_NAMES], (int)keep[k]);
-				goto fail;
-			}
+		if (in.have_names && !nm) {
+			sr_fail(e, SR_EFORMAT, "%s: no name for label %d", val[OPT_NAMES], (int)keep[k]);
+			goto fail;
 		}
 		snprintf(buf, sizeof buf, "label_%d", (int)keep[k]);
 		p.name[k] = xstrdup(nm ? nm : buf);
 	}
-	pset_stats(&p, &info.grid);
+	pset_stats(&p, &in.grid);
 	for (k = 0; k < nkeep; k++)
 		if (p.size[k] == 0) {
 			sr_fail(e, SR_EINVAL, "%s: label %d is not in the image", val[OPT_FROM], (int)keep[k]);
 			goto fail;
 		}
-	if (pset_write(&p, &info.grid, val[OPT_OUT], "chosen labels", e) != SR_OK)
+	if (pset_write(&p, &in.grid, val[OPT_OUT], "chosen labels", e) != SR_OK)
 		goto fail;
 	if (!val[OPT_QUIET])
 		printf("%s: %d parcels kept from %s\n", val[OPT_OUT], (int)p.n, val[OPT_FROM]);
@@ -795,9 +822,7 @@ static int from_labels(const char *const *val, sr_err *e)
 fail:
 	fprintf(stderr, "splitroi parcels: %s\n", e->msg);
 out:
-	if (have_names)
-		table_release(&names);
-	free(d);
+	parcels_release(&in);
 	free(keep);
 	pset_release(&p);
 	return rc;

@@ -29,21 +29,6 @@ void qc_mean_max(const double *x, size_t n, double *mean, double *max);
 double qc_dice(const int32_t *a, const int32_t *b, size_t n, int32_t label, size_t *na,
 	       size_t *nb, size_t *nab);
 
-/*
- * The perceptually uniform "viridis" colour map (van der Walt & Smith 2015,
- * matplotlib; CC0). t in [0, 1] (clamped; NaN gives the lowest colour) to
- * 8-bit sRGB.
- */
-void qc_viridis(double t, unsigned char rgb[3]);
-
-/*
- * "Nice" axis ticks covering [lo, hi] (Heckbert 1990, Graphics Gems I,
- * "Nice numbers for graph labels"): steps 1, 2 or 5 times a power of ten,
- * about `target` intervals. Writes up to max ticks (ascending) and returns
- * how many; *step gets the spacing. lo == hi is widened by one unit.
- */
-size_t qc_ticks(double lo, double hi, int target, double *ticks, size_t max, double *step);
-
 /* Copies axial slice k (0-based) of an nx*ny*nz volume (x fastest) into out (nx*ny). */
 void qc_slice_z(const double *vol, size_t nx, size_t ny, size_t nz, size_t k, double *out);
 
@@ -117,18 +102,5 @@ int qc_overlap_flag(double size_a, double size_b, double dice);
 #define QC_OVERLAP_RULE "flagged when either half's fROI is empty or the two halves share no voxel " \
 	"(Dice 0): one fixed rule, so equal Dice values get equal verdicts; a low but non-zero Dice is " \
 	"common (near 0.1 for a top-10% fROI in a uniformly active region) and not flagged."
-
-/*
- * Decimals to print numbers at a resolution of `step` (e.g. an axis step or
- * a tenth of it): 0 for steps >= 1, else enough that the step's first
- * significant digit shows (0.5 -> 1, 0.25 -> 2, 0.02 -> 2), at most 10.
- */
-int qc_decimals(double step);
-
-/*
- * Formats v with d decimals into buf (n bytes), never as "-0" / "-0.00":
- * a value that rounds to zero prints as zero.
- */
-void qc_format(double v, int d, char *buf, size_t n);
 
 #endif

@@ -36,20 +36,6 @@ const size_t subject_ncolumns = sizeof subject_columns / sizeof subject_columns[
 
 /* ---- parcels ---- */
 
-void parcel_set_release(parcel_set *p)
-{
-	int i;
-
-	if (!p)
-		return;
-	free(p->labels);
-	for (i = 0; i < p->n; i++)
-		free(p->name[i]);
-	free(p->name);
-	free(p->index);
-	memset(p, 0, sizeof *p);
-}
-
 static int cmp_i32(const void *a, const void *b)
 {
 	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
@@ -116,133 +102,6 @@ int parcels_template_on_raw(const study *st, const nii_grid *g, const char *path
 	/* NIfTI xform codes 3 (Talairach), 4 (MNI-152), 5 (other template) */
 	tpl = (g->sform_code >= 3 && g->sform_code <= 5) || (g->sform_code <= 0 && g->qform_code >= 3 && g->qform_code <= 5);
 	return tpl || strstr(b, "space-") != NULL || strncmp(b, "tpl-", 4) == 0 || strstr(b, "_tpl-") != NULL;
-}
-
-sr_status parcel_set_load(const char *image, const char *names_path, parcel_set *p, sr_err *e)
-{
-	nii_info info;
-	double *data = NULL;
-	table names;
-	int32_t *seen = NULL;
-	size_t v, nseen = 0, cap = 0;
-	int have_names = 0, i;
-	sr_status rc;
-
-	memset(p, 0, sizeof *p);
-	rc = nii_read_3d(image, &info, &data, e);
-	if (rc)
-		return rc;
-	p->grid = info.grid;
-	p->nvox = nii_nvox(&info.grid);
-	p->labels = xmalloc_array(p->nvox, sizeof *p->labels);
-	for (v = 0; v < p->nvox; v++) {
-		double x = data[v];
-
-		if (!isfinite(x) || x < 0 || x != floor(x) || x > 2147483647.0) {
-			size_t i0 = v % (size_t)info.grid.nx, j0 = v / (size_t)info.grid.nx % (size_t)info.grid.ny;
-			size_t k0 = v / ((size_t)info.grid.nx * (size_t)info.grid.ny);
-
-			free(data);
-			parcel_set_release(p);
-			return sr_fail(e, SR_EFORMAT,
-				       "%s: voxel (%zu, %zu, %zu) holds %g; parcel labels must be whole numbers >= 0",
-				       image, i0, j0, k0, x);
-		}
-		p->labels[v] = (int32_t)x;
-	}
-	free(data);
-	/* the distinct labels present in the image */
-	for (v = 0; v < p->nvox; v++) {
-		int32_t l = p->labels[v];
-		size_t k;
-
-		if (l == 0)
-			continue;
-		for (k = 0; k < nseen; k++)
-			if (seen[k] == l)
-				break;
-		if (k < nseen)
-			continue;
-		if (nseen == cap) {
-			cap = cap ? 2 * cap : 16;
-			seen = xrealloc(seen, cap * sizeof *seen);
-		}
-		seen[nseen++] = l;
-	}
-	if (names_path) {
-		int ci, cn;
-		size_t r;
-
-		rc = table_read(names_path, 0, &names, e);
-		if (rc) {
-			free(seen);
-			parcel_set_release(p);
-			return rc;
-		}
-		have_names = 1;
-		ci = table_col(&names, "index");
-		cn = table_col(&names, "name");
-		if (ci < 0 || cn < 0) {
-			sr_fail(e, SR_EFORMAT, "%s: line 1: the parcel names table needs columns 'index' and 'name'",
-				names_path);
-			goto fail;
-		}
-		/* the image decides which parcels exist; names only label them */
-		for (r = 0; r < names.nrows; r++) {
-			double x;
-			int na;
-			size_t k;
-
-			if (table_number(&names, r, (size_t)ci, &x, &na, 0, e))
-				goto fail;
-			if (na || x != floor(x) || x < 1 || x > 2147483647.0) {
-				sr_fail(e, SR_EFORMAT, "%s: line %zu, column %d (index): '%s' is not a parcel label (a whole number >= 1)",
-					names_path, names.line[r], ci + 1, table_cell(&names, r, (size_t)ci));
-				goto fail;
-			}
-			for (k = 0; k < nseen; k++)
-				if (seen[k] == (int32_t)x)
-					break;
-			if (k == nseen)
-				sr_warnf(e, "%s: line %zu: parcel %s (index %d) has no voxels in %s; it gets no rows",
-					 names_path, names.line[r], table_cell(&names, r, (size_t)cn), (int)x,
-					 image);
-		}
-	}
-	if (nseen)   /* qsort wants a real array even for no elements */
-		qsort(seen, nseen, sizeof *seen, cmp_i32);
-	p->n = (int)nseen;
-	p->index = seen;
-	p->name = xcalloc(nseen ? nseen : 1, sizeof *p->name);
-	for (i = 0; i < p->n; i++) {
-		char buf[32];
-		const char *nm = NULL;
-
-		if (have_names) {
-			size_t r;
-			int ci = table_col(&names, "index"), cn = table_col(&names, "name");
-
-			for (r = 0; r < names.nrows; r++)
-				if (atol(table_cell(&names, r, (size_t)ci)) == p->index[i] &&
-				    table_cell(&names, r, (size_t)cn)[0])
-					nm = table_cell(&names, r, (size_t)cn);
-		}
-		snprintf(buf, sizeof buf, "%d", (int)p->index[i]);
-		p->name[i] = xstrdup(nm ? nm : buf);
-	}
-	if (have_names)
-		table_release(&names);
-	if (p->n == 0) {
-		/* as `check` says: nothing could be defined, so stop before fitting a single run */
-		parcel_set_release(p);
-		return sr_fail(e, SR_EFORMAT, "%s: no parcels (every voxel is 0)", image);
-	}
-	return SR_OK;
-fail:
-	table_release(&names);
-	free(seen);
-	parcel_set_release(p);
-	return e->code;
 }
 
 /* ---- rows ---- */
@@ -608,7 +467,7 @@ static void froi_release(froi_set *f)
  */
 static void define_frois(const study *st, const task_fit *loc, const int *dpos, int nd,
 			 const int *mpos, int nm, const task_fit *meas, const int32_t *labels,
-			 const parcel_set *ps, size_t nvox, froi_set *f)
+			 const parcels_set *ps, size_t nvox, froi_set *f)
 {
 	unsigned char *okall = xmalloc(nvox);
 	size_t *cand = xmalloc_array(nvox ? nvox : 1, sizeof *cand);
@@ -710,7 +569,7 @@ static void rule_text(const study *st, char *buf, size_t n)
 static sr_status write_maps(const char *dir, const study *st, const char *lname, const char *label,
 			    const task_fit *loc, const char *split_name, const char *mtask, const char *def,
 			    const char *meas, double df, const nii_grid *g, size_t nvox,
-			    const parcel_set *ps, const froi_set *f, sr_err *e)
+			    const parcels_set *ps, const froi_set *f, sr_err *e)
 {
 	mapout_info m;
 	char rule[256];
@@ -737,7 +596,7 @@ static sr_status write_maps(const char *dir, const study *st, const char *lname,
  * voxel on the data grid g (the parcels resampled when the study says so).
  * *pos (nvox) gets each voxel's place in the list, -1 elsewhere.
  */
-static size_t *keep_voxels(const study *st, const parcel_set *ps, const nii_grid *g, size_t *nkeep,
+static size_t *keep_voxels(const study *st, const parcels_set *ps, const nii_grid *g, size_t *nkeep,
 			   int32_t **pos)
 {
 	size_t nvox = nii_nvox(g), v, n = 0;
@@ -827,7 +686,7 @@ static void tc_split(const study *st, const task_fit *t, const int *mpos, int nm
 }
 
 /* Adds the rows of one split's time courses (tc_split's out) for the conditions flagged in use. */
-static void tc_rows(subject_result *res, const char *loc, const parcel_set *ps, const char *sname,
+static void tc_rows(subject_result *res, const char *loc, const parcels_set *ps, const char *sname,
 		    const task_fit *t, const unsigned char *use, int nbins, double tr, const double *v)
 {
 	int p, c, b;
@@ -973,7 +832,7 @@ static sr_status write_run_files(const char *dir, const char *label, const task_
 }
 
 /* Per parcel: 1 when no voxel of labels (nvox, on the data grid) carries its label. */
-static unsigned char *lost_parcels(const parcel_set *ps, const int32_t *labels, size_t nvox)
+static unsigned char *lost_parcels(const parcels_set *ps, const int32_t *labels, size_t nvox)
 {
 	unsigned char *lost = xmalloc((size_t)ps->n + 1);
 	size_t v;
@@ -1078,7 +937,7 @@ static split *make_splits(const study *st, const task_fit *loc, size_t nmeas, co
 
 /* Measured tasks: fROIs from all localizer runs (and a map of that definition), rows split all. */
 static sr_status measured_rows(const study *st, const char *lname, const char *mapname, const task_fit *loc,
-			       const task_fit *mts, size_t nmeas, const parcel_set *ps, const int32_t *labels,
+			       const task_fit *mts, size_t nmeas, const parcels_set *ps, const int32_t *labels,
 			       const unsigned char *lost, const int32_t *keep_pos, const nii_grid *gp, size_t nvox,
 			       const char *dir, const char *label, subject_result *res, sr_err *e)
 {
@@ -1143,7 +1002,7 @@ static sr_status measured_rows(const study *st, const char *lname, const char *m
  * localizer name mapname (NULL with one localizer).
  */
 static sr_status loc_pass(const study *st, const char *lname, const char *mapname, const task_fit *loc,
-			  const task_fit *mts, size_t nmeas, const parcel_set *ps, const int32_t *labels,
+			  const task_fit *mts, size_t nmeas, const parcels_set *ps, const int32_t *labels,
 			  const unsigned char *lost, const int32_t *keep_pos, const nii_grid *gridp, size_t nvox,
 			  const char *dir, const char *label, int *nloc_runs, subject_result *res, sr_err *e)
 {
@@ -1296,8 +1155,8 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 /* What one localizer needs in a subject: its study view, parcels on the data grid, its tasks' roles. */
 typedef struct loc_setup {
 	study view;                /* study_use_localizer */
-	parcel_set own_ps;         /* parcels made for this subject ({subject}), or not read here */
-	const parcel_set *ps;
+	parcels_set own_ps;         /* parcels made for this subject ({subject}), or not read here */
+	const parcels_set *ps;
 	char *own_image, *own_names;
 	int32_t *labels_owned;
 	const int32_t *labels;     /* on the data grid */
@@ -1311,7 +1170,7 @@ typedef struct loc_setup {
 static void loc_setup_release(loc_setup *L)
 {
 	study_view_release(&L->view);
-	parcel_set_release(&L->own_ps);
+	parcels_release(&L->own_ps);
 	free(L->own_image);
 	free(L->own_names);
 	free(L->labels_owned);
@@ -1441,7 +1300,7 @@ static sr_status loc_labels(loc_setup *L, const nii_grid *grid, size_t nvox, con
 			    const char *first_bold, sr_err *e)
 {
 	const study *st = &L->view;
-	const parcel_set *ps = L->ps;
+	const parcels_set *ps = L->ps;
 	const char *img = L->own_image ? L->own_image : st->parcels;
 	char buf[1024];
 	int p;
@@ -1493,7 +1352,7 @@ static sr_status loc_setups(const subject_ctx *ctx, const char *label, loc_setup
 			free(L[i].own_image);
 			L[i].own_image = NULL;
 		}
-		rc = parcel_set_load(L[i].own_image ? L[i].own_image : L[i].view.parcels,
+		rc = parcels_load(L[i].own_image ? L[i].own_image : L[i].view.parcels,
 				     L[i].own_names, &L[i].own_ps, e);
 		if (rc)
 			return rc;

@@ -7,19 +7,10 @@
 
 #include "../core/err.h"
 #include "../io/nii.h"
+#include "../io/parcels.h"
 #include "../io/study.h"
 #include "reliability.h"
 #include "timecourse.h"
-
-/* The study's parcels as read from file, with their names. Read once, shared read-only. */
-typedef struct parcel_set {
-	nii_grid grid;        /* the parcel image's own grid */
-	int32_t *labels;      /* nvox labels on that grid */
-	size_t nvox;
-	int n;                /* parcels, ascending index */
-	int32_t *index;
-	char **name;          /* table name, else the integer label */
-} parcel_set;
 
 /* One row of responses.csv (METHODS.md section 10). */
 typedef struct response_row {
@@ -47,7 +38,7 @@ typedef void (*subject_progress_fn)(void *ctx, const char *subject, const char *
 
 typedef struct subject_ctx {
 	const study *st;
-	const parcel_set *parcels;     /* NULL: each subject loads its own (image has {subject}) */
+	const parcels_set *parcels;     /* NULL: each subject loads its own (image has {subject}) */
 	const unsigned char *mask;     /* on the data grid, or NULL */
 	const nii_grid *mask_grid;
 	int nthreads;                  /* threads for fitting this subject's runs */
@@ -89,13 +80,6 @@ extern const size_t subject_ncolumns;
 sr_status subject_localizer_t(const study *st, const char *label, const unsigned char *mask,
 			      const nii_grid *mask_grid, int nthreads, nii_grid *grid, double **t,
 			      int **df, int *nruns, sr_err *e);
-
-/*
- * Reads a parcels image and its names table: the study's, or a subject's own
- * (image and names with {subject} replaced; names may be NULL).
- */
-sr_status parcel_set_load(const char *image, const char *names, parcel_set *p, sr_err *e);
-void parcel_set_release(parcel_set *p);
 
 /*
  * 1 when parcels on grid g (file path) are in a template space (the sform or

@@ -667,6 +667,127 @@ static void reliability_section(sbuf *b, const char *out)
 	table_release(&t);
 }
 
+/* Every subject's page; 1 when one could not be written (its stale page removed). */
+static int subject_pages(const char *out, char **labels, size_t nsub, rsub *subs, size_t *nok)
+{
+	char path[8192];
+	size_t i;
+	int rc = 0;
+	sr_err e;
+
+	*nok = 0;
+	for (i = 0; i < nsub; i++) {
+		sr_err_init(&e, NULL, NULL);
+		if (rsub_page(out, labels[i], &subs[i], &e)) {
+			fprintf(stderr, "splitroi report: sub-%s: %s\n", labels[i], e.msg);
+			/* a page left from an earlier run would show results that are no longer there */
+			snprintf(path, sizeof path, "%s/sub-%s/report.html", out, labels[i]);
+			unlink(path);
+			rc = 1;
+		} else {
+			(*nok)++;
+		}
+	}
+	return rc;
+}
+
+/* The contents line with a link to each subject page that was written. */
+static void contents_nav(sbuf *b, char **labels, const rsub *subs, size_t nsub)
+{
+	size_t i;
+
+	sb_puts(b, "<nav class=\"toc\"><a href=\"#cv\">cross-validated responses</a> &middot; "
+		   "<a href=\"#measured\">measured tasks</a> &middot; <a href=\"#overlap\">fROI sizes and overlap</a> &middot; "
+		   "<a href=\"#timecourses-h\">time courses</a> &middot; <a href=\"#reliability-h\">reliability</a> &middot; <a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
+	for (i = 0; i < nsub; i++) {
+		if (!subs[i].ok) {
+			/* no link to a page that was not written (or is stale) */
+			sb_puts(b, " sub-");
+			sb_esc(b, labels[i]);
+			sb_puts(b, " <span class=\"flag\">(no page: see the command's messages)</span>");
+			continue;
+		}
+		sb_puts(b, " <a href=\"sub-");
+		sb_esc(b, labels[i]);
+		sb_puts(b, "/report.html\">sub-");
+		sb_esc(b, labels[i]);
+		sb_puts(b, "</a>");
+	}
+	sb_puts(b, "</nav>\n");
+}
+
+/* The columns of responses.csv the charts need; 1 (said) when one is missing. */
+static int response_columns(const table *resp, cols *c)
+{
+	c->subject = table_col(resp, "subject");
+	c->parcel = table_col(resp, "parcel");
+	c->split = table_col(resp, "split");
+	c->task = table_col(resp, "measure_task");
+	c->effect = table_col(resp, "effect");
+	c->value = table_col(resp, "value");
+	if (c->subject < 0 || c->parcel < 0 || c->split < 0 || c->task < 0 || c->effect < 0 || c->value < 0) {
+		fprintf(stderr, "splitroi report: %s: missing columns (need subject, parcel, split, measure_task, effect, value)\n",
+			resp->path);
+		return 1;
+	}
+	return 0;
+}
+
+/* The cross-validated and measured-task charts, each localizer apart; their numbers into sum. */
+static void response_charts(sbuf *b, sbuf *sum, const table *resp, const cols *c, int *uid)
+{
+	char **sl = NULL, **locs;
+	size_t ns = 0, r, nl;
+
+	for (r = 0; r < resp->nrows; r++)
+		add_unique(&sl, &ns, table_cell(resp, r, (size_t)c->subject));
+	if (ns)   /* no rows when every subject failed: qsort wants a real array */
+		qsort(sl, ns, sizeof *sl, cmp_str);
+	locs = table_localizers(resp, &nl);
+	for (int measured = 0; measured < 2; measured++) {
+		if (measured)
+			sb_puts(b, "<h2 id=\"measured\">Measured tasks</h2>\n<p class=\"note\">fROIs defined on all localizer runs, "
+				   "responses in the other task's runs (split all).</p>\n");
+		if (nl == 0)
+			charts(b, sum, resp, c, measured, sl, ns, uid);
+		for (size_t l = 0; l < nl; l++) {
+			table v;
+
+			/* several localizers: each one's fROIs apart (their parcels may share names) */
+			localizer_heading(b, locs[l]);
+			table_where_localizer(resp, locs[l], &v);
+			charts(b, sum, &v, c, measured, sl, ns, uid);
+			table_view_release(&v);
+		}
+	}
+	free_strs(locs, nl);
+	free_strs(sl, ns);
+}
+
+/* group.csv as a table, or a note that there is none. */
+static void group_section(sbuf *b, table *group, int have_group)
+{
+	/* the note (e.g. incomplete) leads with the key numbers, so it is never scrolled away */
+	static const char *const lead[] = { "localizer", "parcel", "split", "measure_task", "effect", "note", "n", "mean",
+					    "sem", "t", "df", "p", "q_fdr", "cohen_d", NULL };
+	size_t ngl;
+	char **gl;
+
+	sb_puts(b, "<h2 id=\"group-h\">Group table</h2>\n");
+	if (!have_group) {
+		sb_puts(b, "<p class=\"note\">No group.csv in this folder (run the group step).</p>\n");
+		return;
+	}
+	sb_puts(b, "<p class=\"note\">From group.csv: one-sample tests over subjects; q_fdr is the Benjamini&ndash;Hochberg "
+		   "adjusted p value.</p>\n");
+	sb_puts(b, "<div class=\"wide\" id=\"group-box\">");
+	gl = table_localizers(group, &ngl);
+	/* the localizer leads only when there are several (else it follows the numbers) */
+	table_html(b, group, "group", ngl ? lead : lead + 1);
+	free_strs(gl, ngl);
+	sb_puts(b, "</div>\n");
+}
+
 int report_write(const char *out, int quiet)
 {
 	char **labels, path[8192];
@@ -677,6 +798,7 @@ int report_write(const char *out, int quiet)
 	cols c;
 	sbuf b, sum;
 	sr_err e;
+	const char *sf = NULL;
 
 	labels = subject_dirs(out, &nsub);
 	snprintf(path, sizeof path, "%s/responses.csv", out);
@@ -690,92 +812,27 @@ int report_write(const char *out, int quiet)
 	if (!have_resp)
 		fprintf(stderr, "splitroi report: %s\n", e.msg);
 	subs = xcalloc(nsub ? nsub : 1, sizeof *subs);
-	for (i = 0; i < nsub; i++) {
-		sr_err_init(&e, NULL, NULL);
-		if (rsub_page(out, labels[i], &subs[i], &e)) {
-			fprintf(stderr, "splitroi report: sub-%s: %s\n", labels[i], e.msg);
-			/* a page left from an earlier run would show results that are no longer there */
-			snprintf(path, sizeof path, "%s/sub-%s/report.html", out, labels[i]);
-			unlink(path);
-			rc = 1;
-		} else {
-			nok++;
-		}
-	}
+	rc = subject_pages(out, labels, nsub, subs, &nok);
 	snprintf(path, sizeof path, "%s/group.csv", out);
-	sr_err_init(&e, NULL, NULL);
 	have_group = table_read(path, ',', &group, NULL) == SR_OK;
 
 	sb_init(&b);
 	sb_init(&sum);
 	rh_begin(&b, "Study report", out, NULL, NULL);
 	incomplete_banner(&b, out, &group, have_group);
-	sb_puts(&b, "<nav class=\"toc\"><a href=\"#cv\">cross-validated responses</a> &middot; "
-		    "<a href=\"#measured\">measured tasks</a> &middot; <a href=\"#overlap\">fROI sizes and overlap</a> &middot; "
-		    "<a href=\"#timecourses-h\">time courses</a> &middot; <a href=\"#reliability-h\">reliability</a> &middot; <a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
-	for (i = 0; i < nsub; i++) {
-		if (!subs[i].ok) {
-			/* no link to a page that was not written (or is stale) */
-			sb_puts(&b, " sub-");
-			sb_esc(&b, labels[i]);
-			sb_puts(&b, " <span class=\"flag\">(no page: see the command's messages)</span>");
-			continue;
-		}
-		sb_puts(&b, " <a href=\"sub-");
-		sb_esc(&b, labels[i]);
-		sb_puts(&b, "/report.html\">sub-");
-		sb_esc(&b, labels[i]);
-		sb_puts(&b, "</a>");
-	}
-	sb_puts(&b, "</nav>\n");
+	contents_nav(&b, labels, subs, nsub);
 	sb_puts(&sum, "<table id=\"summary\"><thead><tr><th>parcel</th><th>split</th><th>measure_task</th>"
 		      "<th>effect</th><th>n</th><th>mean</th><th>sem</th></tr></thead><tbody>\n");
-	if (have_resp) {
-		c.subject = table_col(&resp, "subject");
-		c.parcel = table_col(&resp, "parcel");
-		c.split = table_col(&resp, "split");
-		c.task = table_col(&resp, "measure_task");
-		c.effect = table_col(&resp, "effect");
-		c.value = table_col(&resp, "value");
-		if (c.subject < 0 || c.parcel < 0 || c.split < 0 || c.task < 0 || c.effect < 0 || c.value < 0) {
-			fprintf(stderr, "splitroi report: %s: missing columns (need subject, parcel, split, measure_task, effect, value)\n",
-				resp.path);
-			table_release(&resp);
-			have_resp = 0;
-			rc = 1;
-		}
+	if (have_resp && response_columns(&resp, &c)) {
+		table_release(&resp);
+		have_resp = 0;
+		rc = 1;
 	}
 	sb_puts(&b, "<h2 id=\"cv\">Cross-validated responses</h2>\n<p class=\"note\">fROIs defined on one part of the localizer runs, "
 		    "responses measured in the others, averaged over the splits. Bars: mean over subjects; whiskers: &#177;1 standard "
 		    "error of the mean; circles: one per subject, in subject order from left to right.</p>\n");
-	if (have_resp) {
-		char **sl = NULL, **locs;
-		size_t ns = 0, r, nl;
-
-		for (r = 0; r < resp.nrows; r++)
-			add_unique(&sl, &ns, table_cell(&resp, r, (size_t)c.subject));
-		if (ns)   /* no rows when every subject failed: qsort wants a real array */
-			qsort(sl, ns, sizeof *sl, cmp_str);
-		locs = table_localizers(&resp, &nl);
-		for (int measured = 0; measured < 2; measured++) {
-			if (measured)
-				sb_puts(&b, "<h2 id=\"measured\">Measured tasks</h2>\n<p class=\"note\">fROIs defined on all localizer runs, "
-					    "responses in the other task's runs (split all).</p>\n");
-			if (nl == 0)
-				charts(&b, &sum, &resp, &c, measured, sl, ns, &uid);
-			for (size_t l = 0; l < nl; l++) {
-				table v;
-
-				/* several localizers: each one's fROIs apart (their parcels may share names) */
-				localizer_heading(&b, locs[l]);
-				table_where_localizer(&resp, locs[l], &v);
-				charts(&b, &sum, &v, &c, measured, sl, ns, &uid);
-				table_view_release(&v);
-			}
-		}
-		free_strs(locs, nl);
-		free_strs(sl, ns);
-	}
+	if (have_resp)
+		response_charts(&b, &sum, &resp, &c, &uid);
 	sb_puts(&sum, "</tbody></table>\n");
 	sb_puts(&b, "<h2 id=\"overlap\">fROI sizes and overlap of the halves</h2>\n<p class=\"note\">Dice = 2|A&cap;B| / (|A| + |B|) "
 		    "of the fROIs defined on the two halves of the localizer runs (leave-one-out: the mean over all pairs of folds, "
@@ -784,35 +841,15 @@ int report_write(const char *out, int quiet)
 	subjects_table(&b, subs, nsub);
 	timecourse_section(&b, out, &uid);
 	reliability_section(&b, out);
-	sb_puts(&b, "<h2 id=\"group-h\">Group table</h2>\n");
-	if (have_group) {
-		sb_puts(&b, "<p class=\"note\">From group.csv: one-sample tests over subjects; q_fdr is the Benjamini&ndash;Hochberg "
-			    "adjusted p value.</p>\n");
-		sb_puts(&b, "<div class=\"wide\" id=\"group-box\">");
-		/* the note (e.g. incomplete) leads with the key numbers, so it is never scrolled away */
-		static const char *const lead[] = { "localizer", "parcel", "split", "measure_task", "effect", "note", "n", "mean",
-						    "sem", "t", "df", "p", "q_fdr", "cohen_d", NULL };
-		size_t ngl;
-		char **gl = table_localizers(&group, &ngl);
-
-		/* the localizer leads only when there are several (else it follows the numbers) */
-		table_html(&b, &group, "group", ngl ? lead : lead + 1);
-		free_strs(gl, ngl);
-		sb_puts(&b, "</div>\n");
+	group_section(&b, &group, have_group);
+	if (have_group)
 		table_release(&group);
-	} else {
-		sb_puts(&b, "<p class=\"note\">No group.csv in this folder (run the group step).</p>\n");
-	}
 	sb_puts(&b, "<h2 id=\"summary-h\">Chart values</h2>\n<p class=\"note\">The numbers behind the bars above, computed "
 		    "here from responses.csv.</p>\n");
 	sb_puts(&b, sum.p);
-	{
-		const char *sf = NULL;
-
-		for (i = 0; i < nsub && !sf; i++)
-			sf = subs[i].study_file;
-		rh_end(&b, sf);
-	}
+	for (i = 0; i < nsub && !sf; i++)
+		sf = subs[i].study_file;
+	rh_end(&b, sf);
 	snprintf(path, sizeof path, "%s/report.html", out);
 	sr_err_init(&e, NULL, NULL);
 	if (rh_write(path, &b, &e)) {

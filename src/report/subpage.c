@@ -8,7 +8,9 @@
 
 #include "../core/mem.h"
 #include "../core/qc.h"
+#include "chart.h"
 #include "../io/nii.h"
+#include "../io/parcels.h"
 #include "../io/png.h"
 #include "../io/runrec.h"
 #include "../io/table.h"
@@ -129,23 +131,23 @@ static void load_parcels(page *pg)
 
 	if (names && pg->rec.study_file) {
 		char *base = dirname_of(pg->rec.study_file), path[8192];
-		table t;
+		parcels_names t;
+		sr_err quiet;
 
 		if (names[0] == '/')
 			snprintf(path, sizeof path, "%s", names);
 		else
 			snprintf(path, sizeof path, "%s/%s", base, names);
 		free(base);
-		if (!table_read(path, 0, &t, NULL)) {
-			int ci = table_col(&t, "index"), cn = table_col(&t, "name");
-
-			for (i = 0; ci >= 0 && cn >= 0 && i < t.nrows; i++) {
-				pg->pidx = xrealloc(pg->pidx, (pg->np + 1) * sizeof *pg->pidx);
-				pg->pname = xrealloc(pg->pname, (pg->np + 1) * sizeof *pg->pname);
-				pg->pidx[pg->np] = atoi(table_cell(&t, i, (size_t)ci));
-				pg->pname[pg->np++] = xstrdup(table_cell(&t, i, (size_t)cn));
+		sr_err_init(&quiet, NULL, NULL);
+		if (parcels_names_read(path, &t, &quiet) == SR_OK) {
+			pg->pidx = xmalloc_array(t.n ? t.n : 1, sizeof *pg->pidx);
+			pg->pname = xmalloc_array(t.n ? t.n : 1, sizeof *pg->pname);
+			for (i = 0; i < t.n; i++) {
+				pg->pidx[pg->np] = t.index[i];
+				pg->pname[pg->np++] = xstrdup(t.name[i]);
 			}
-			table_release(&t);
+			parcels_names_release(&t);
 		}
 	}
 	free(names);
@@ -324,7 +326,7 @@ static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label
 			if (mode == DRAW_T && m->t && isfinite(m->t[v]) && m->t[v] != 0) {
 				unsigned char rgb[3];
 
-				qc_viridis(thi > tlo ? (m->t[v] - tlo) / (thi - tlo) : 0.5, rgb);
+				chart_viridis(thi > tlo ? (m->t[v] - tlo) / (thi - tlo) : 0.5, rgb);
 				for (c = 0; c < 3; c++)
 					o[c] = rgb[c];
 			}

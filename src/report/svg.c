@@ -6,6 +6,7 @@
 
 #include "../core/mem.h"
 #include "../core/qc.h"
+#include "chart.h"
 #include "report.h"
 
 /* Fill patterns so bars differ without colour: light solid, hatch, cross-hatch, dots, dark solid. */
@@ -39,7 +40,7 @@ static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double to
 		  const char *label, double *tlo, double *thi, double *ystep)
 {
 	double ticks[32], step;
-	size_t nt = qc_ticks(lo, hi, 5, ticks, 32, &step), i;
+	size_t nt = chart_ticks(lo, hi, 5, ticks, 32, &step), i;
 
 	*tlo = nt ? fmin(lo, ticks[0]) : lo;
 	*thi = nt ? fmax(hi, ticks[nt - 1]) : hi;
@@ -49,7 +50,7 @@ static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double to
 		double y = bottom - (ticks[i] - *tlo) / (*thi - *tlo) * (bottom - top);
 		char t[32];
 
-		qc_format(ticks[i], qc_decimals(step), t, sizeof t);
+		chart_format(ticks[i], chart_decimals(step), t, sizeof t);
 		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"%s\"/>"
 			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">%s</text>\n",
 			  x0, y, x1, y, fabs(ticks[i]) < 1e-9 * step ? "#1d232b" : "#e2ddd1",
@@ -103,7 +104,7 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 	sb_puts(b, "</text>\n");
 	yaxis(b, lo, hi, left, w - right, top, h - bottom, ylabel, &tlo, &thi, &ystep);
 	/* bar values two digits finer than the axis steps (steps of 1 give 2.05), never 5.26e-05 */
-	vdec = qc_decimals(ystep) + 2;
+	vdec = chart_decimals(ystep) + 2;
 	sb_printf(b, "<desc class=\"yrange\">%.6g %.6g</desc>\n", tlo, thi);
 #define YPIX(v) ((h - bottom) - ((v) - tlo) / (thi - tlo) * ((h - bottom) - top))
 	for (i = 0; i < n; i++) {
@@ -136,7 +137,7 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 		sb_printf(b, "</text><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"middle\" fill=\"#5b6470\">",
 			  x + bw / 2, h - bottom + 30);
 		if (isfinite(bars[i].mean)) {
-			qc_format(bars[i].mean, vdec, num, sizeof num);
+			chart_format(bars[i].mean, vdec, num, sizeof num);
 			sb_puts(b, num);
 		}
 		sb_puts(b, "</text>\n");
@@ -168,13 +169,13 @@ void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double thresh
 	yaxis(b, 0, hi, left, w - right, top, h - bottom, "FD (mm)", &tlo, &thi, NULL);
 #define XPIX(t) (left + (t) / t_end * (w - left - right))
 #define YPIX(v) ((h - bottom) - ((v) - tlo) / (thi - tlo) * ((h - bottom) - top))
-	nt = qc_ticks(0, t_end, 6, ticks, 32, &step);
+	nt = chart_ticks(0, t_end, 6, ticks, 32, &step);
 	for (i = 0; i < nt; i++) {
 		if (ticks[i] > t_end + 1e-9)
 			continue;
 		char tl[32];
 
-		qc_format(ticks[i], qc_decimals(step), tl, sizeof tl);
+		chart_format(ticks[i], chart_decimals(step), tl, sizeof tl);
 		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 			  XPIX(ticks[i]), h - bottom, XPIX(ticks[i]), h - bottom + 4, XPIX(ticks[i]), h - bottom + 16, tl);
 	}
@@ -206,14 +207,14 @@ void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
 	for (i = 0; i <= 16; i++) {
 		unsigned char c[3];
 
-		qc_viridis((double)i / 16.0, c);
+		chart_viridis((double)i / 16.0, c);
 		sb_printf(b, "<stop offset=\"%.4f\" stop-color=\"#%02x%02x%02x\"/>", (double)i / 16.0, c[0], c[1], c[2]);
 	}
 	sb_printf(b, "</linearGradient></defs>\n<rect x=\"%.1f\" y=\"4\" width=\"%.1f\" height=\"14\" fill=\"url(#cb%d)\" stroke=\"#1d232b\" stroke-width=\"0.8\"/>\n",
 		  x0, wbar, gid);
 	if (!(hi > lo))
 		hi = lo + 1;
-	nt = qc_ticks(lo, hi, 5, ticks, 32, &step);
+	nt = chart_ticks(lo, hi, 5, ticks, 32, &step);
 	for (i = 0; i < nt; i++) {
 		double x;
 		char tl[32];
@@ -221,7 +222,7 @@ void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
 		if (ticks[i] < lo - 1e-9 * step || ticks[i] > hi + 1e-9 * step)
 			continue;
 		x = x0 + (ticks[i] - lo) / (hi - lo) * wbar;
-		qc_format(ticks[i], qc_decimals(step), tl, sizeof tl);
+		chart_format(ticks[i], chart_decimals(step), tl, sizeof tl);
 		sb_printf(b, "<line x1=\"%.1f\" y1=\"18\" x2=\"%.1f\" y2=\"23\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"34\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 			  x, x, x, tl);
 	}
@@ -323,13 +324,13 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 	}
 	/* the time axis */
 	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>\n", left, y, w - right, y);
-	nt = qc_ticks(0, t_end, 8, ticks, 32, &step);
+	nt = chart_ticks(0, t_end, 8, ticks, 32, &step);
 	for (i = 0; i < nt; i++) {
 		char t[32];
 
 		if (ticks[i] > t_end + 1e-9 || ticks[i] < -1e-9)
 			continue;
-		qc_format(ticks[i], qc_decimals(step), t, sizeof t);
+		chart_format(ticks[i], chart_decimals(step), t, sizeof t);
 		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 			  XPIX(ticks[i]), y, XPIX(ticks[i]), y + 4, XPIX(ticks[i]), y + 16, t);
 	}
@@ -409,7 +410,7 @@ void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb
 		double x = left + (time[i] - tx0) / (tx1 > tx0 ? tx1 - tx0 : 1) * (w - right - left);
 		char t[32];
 
-		qc_format(time[i], time[i] == floor(time[i]) ? 0 : 1, t, sizeof t);
+		chart_format(time[i], time[i] == floor(time[i]) ? 0 : 1, t, sizeof t);
 		sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>", x,
 			  h - bottom + 15, t);
 	}
