@@ -606,6 +606,16 @@ sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e)
 	return SR_OK;
 }
 
+int nii_float32_exact(const nii_info *info)
+{
+	int dt = info->datatype;
+
+	if (info->slope != 1.0 || info->inter != 0.0)
+		return 0;
+	return dt == NIFTI_TYPE_FLOAT32 || dt == NIFTI_TYPE_INT16 || dt == NIFTI_TYPE_UINT16 ||
+	       dt == NIFTI_TYPE_INT8 || dt == NIFTI_TYPE_UINT8;
+}
+
 void nii_stream_close(nii_stream *s)
 {
 	if (!s)

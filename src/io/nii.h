@@ -75,6 +75,14 @@ sr_status nii_stream_open(const char *path, nii_stream **out, nii_info *info, sr
  * After an error the stream only closes.
  */
 sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e);
+
+/*
+ * Whether every value nii_stream_next gives for this header is exactly a
+ * float32: stored as float32 or as an integer of at most 16 bits (all exact
+ * in float32's 24-bit significand), with no scaling applied (slope 1 and
+ * inter 0 after fill_info's rule; a real slope or inter is applied in double).
+ */
+int nii_float32_exact(const nii_info *info);
 /* Closes; NULL does nothing. */
 void nii_stream_close(nii_stream *s);
 

@@ -31,6 +31,7 @@ typedef struct vol_queue {
 	const size_t *keep;    /* voxels copied into series as volumes are fitted */
 	size_t nkeep;
 	double *series;
+	float *series32;       /* instead of series when float32 is exact */
 	int head, count, stop, failed;
 	sr_err err;
 	pthread_mutex_t mu;
@@ -100,8 +101,12 @@ static sr_status stream_fit(vol_queue *q, glm_acc *acc, sr_err *e)
 			break;
 		}
 		pthread_mutex_unlock(&q->mu);
-		for (size_t i2 = 0; i2 < q->nkeep; i2++)
-			q->series[(size_t)k * q->nkeep + i2] = q->slot[q->head][q->keep[i2]];
+		if (q->series32)
+			for (size_t i2 = 0; i2 < q->nkeep; i2++)
+				q->series32[(size_t)k * q->nkeep + i2] = (float)q->slot[q->head][q->keep[i2]];
+		else
+			for (size_t i2 = 0; i2 < q->nkeep; i2++)
+				q->series[(size_t)k * q->nkeep + i2] = q->slot[q->head][q->keep[i2]];
 		st = glm_acc_add(acc, q->slot[q->head], e);
 		pthread_mutex_lock(&q->mu);
 		q->head = (q->head + 1) % QUEUE_SLOTS;
@@ -329,6 +334,23 @@ fail:
 	return st;
 }
 
+/*
+ * Whether the kept series can be held as float32 without changing a value:
+ * the values as read are float32-exact (nii_float32_exact) and smoothing does
+ * not turn them into doubles. SPLITROI_SERIES_STORE=double (or =float) forces
+ * one storage, a test hook for comparing the two.
+ */
+static int series_as_float32(const nii_info *info, double smoothing_fwhm)
+{
+	const char *force = getenv("SPLITROI_SERIES_STORE");
+
+	if (force && strcmp(force, "double") == 0)
+		return 0;
+	if (force && strcmp(force, "float") == 0)
+		return 1;
+	return !(smoothing_fwhm > 0) && nii_float32_exact(info);
+}
+
 sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e)
 {
 	vol_queue q;
@@ -433,11 +455,15 @@ sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_resul
 				st = sr_fail(e, SR_EINVAL, "%s: a kept voxel lies outside the run's grid", spec->bold);
 				goto out;
 			}
-		res->series = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series);
+		if (series_as_float32(&res->info, spec->smoothing_fwhm))
+			res->series32 = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series32);
+		else
+			res->series = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series);
 		res->nkeep = spec->nkeep;
 		q.keep = spec->keep;
 		q.nkeep = spec->nkeep;
 		q.series = res->series;
+		q.series32 = res->series32;
 	}
 	st = stream_fit(&q, acc, e);
 	if (st != SR_OK)
@@ -552,10 +578,12 @@ void runfit_result_release(runfit_result *r)
 	free(r->conf_names);
 	free(r->censored);
 	free(r->series);
+	free(r->series32);
 	free(r->ev);
 	r->conf_names = NULL;
 	r->censored = NULL;
 	r->series = NULL;
+	r->series32 = NULL;
 	r->ev = NULL;
 	r->nkeep = r->nev = 0;
 }

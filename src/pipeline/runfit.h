@@ -47,7 +47,10 @@ typedef struct runfit_result {
 	int nearly_events;             /* events wholly before the first kept volume, dropped */
 	size_t nnonfinite;             /* voxels (in the mask) with a NaN or infinite value, left out */
 	double *series;                /* T x nkeep (volume k at k * nkeep): the kept voxels' values as fitted
-					  (after skipping and smoothing, before scaling), or NULL */
+					  (after skipping and smoothing, before scaling), or NULL; read them
+					  through runfit_series_at */
+	float *series32;               /* the same as float32 instead of series when that is exact
+					  (nii_float32_exact: no smoothing); one of the two is NULL */
 	size_t nkeep;
 	design_event *ev;              /* the events the design used (onsets shifted by skip_volumes) */
 	size_t nev;
@@ -82,5 +85,19 @@ sr_status runfit_many(const runfit_spec *specs, int n, int nthreads, runfit_resu
 		      sr_err *errs);
 
 void runfit_result_release(runfit_result *r);
+
+/* Kept voxel j's value in volume k, whichever way it is stored. */
+static inline double runfit_series_at(const runfit_result *r, size_t k, size_t j)
+{
+	size_t i = k * r->nkeep + j;
+
+	return r->series32 ? (double)r->series32[i] : r->series[i];
+}
+
+/* Whether r holds kept series (either storage). */
+static inline int runfit_has_series(const runfit_result *r)
+{
+	return r->series != NULL || r->series32 != NULL;
+}
 
 #endif

@@ -1395,6 +1395,11 @@ static sr_status fit_all(const subject_ctx *ctx, const char *label, task_fit *ta
 		for (i = 0; i < nruns_all; i++)
 			runfit_result_release(&results[i]);
 	} else {
+		/* no later step of a subject reads the AR(1) coefficients: drop them (8 bytes a voxel a run) */
+		for (i = 0; i < nruns_all; i++) {
+			free(results[i].out.rho);
+			results[i].out.rho = NULL;
+		}
 		for (i = 0, at = 0; i < ntasks; i++) {
 			tasks[i].res = xcalloc(tasks[i].nruns, sizeof *tasks[i].res);
 			memcpy(tasks[i].res, results + at, tasks[i].nruns * sizeof *results);
@@ -1613,6 +1618,12 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 	}
 	record_leftout(label, tasks, ntasks, nruns_all, L, nl, nvox, res, e);
+	/* the per-voxel rules were last read by record_leftout */
+	for (i = 0; i < ntasks; i++)
+		for (size_t r = 0; r < tasks[i].nruns; r++) {
+			free(tasks[i].res[r].out.rule);
+			tasks[i].res[r].out.rule = NULL;
+		}
 	progress(ctx, label, "defining fROIs");
 	for (i = 0; !rc && i < nl; i++) {
 		const study_localizer *sl = &st->locs[i];

@@ -102,7 +102,7 @@ static int froi_series(const runfit_result *r, const size_t *vox, size_t nv, con
 		if (pos[v] < 0 || !r->out.ok[v] || !(m > 0) || !isfinite(m))
 			continue;
 		for (k = 0; k < T; k++)
-			y[k] += 100.0 * r->series[(size_t)k * r->nkeep + (size_t)pos[v]] / m;
+			y[k] += 100.0 * runfit_series_at(r, (size_t)k, (size_t)pos[v]) / m;
 		n++;
 	}
 	for (k = 0; k < T; k++)
@@ -124,7 +124,7 @@ void tc_frois(const runfit_result *const *run, const double *tr, int nruns, cons
 		double *y;
 		sr_err fe;
 
-		if (!r->series || !r->d.X || nf <= 0)
+		if (!runfit_has_series(r) || !r->d.X || nf <= 0)
 			continue;
 		y = xmalloc_array(T * (size_t)nf, sizeof *y);
 		for (f = 0; f < nf; f++)

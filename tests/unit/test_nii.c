@@ -146,6 +146,35 @@ static void test_grid_make(void)
 	CHECK(!nii_same_grid(&g, &h, 1e-3, NULL, 0), "same grid: NULL why allowed");
 }
 
+/* Which headers give values that are all exactly float32 (int16 max 32767 < 2^24; int32 2^24 + 1 is not). */
+static void test_float32_exact(void)
+{
+	nii_info in;
+	float f = (float)16777217.0;
+
+	memset(&in, 0, sizeof in);
+	in.slope = 1.0;
+	in.inter = 0.0;
+	in.datatype = NIFTI_TYPE_FLOAT32;
+	CHECK(nii_float32_exact(&in), "float32 exact: float32, no scaling");
+	in.datatype = NIFTI_TYPE_INT16;
+	CHECK(nii_float32_exact(&in), "float32 exact: int16, no scaling");
+	in.datatype = NIFTI_TYPE_UINT8;
+	CHECK(nii_float32_exact(&in), "float32 exact: uint8, no scaling");
+	in.datatype = NIFTI_TYPE_INT32;
+	CHECK(!nii_float32_exact(&in) && (double)f != 16777217.0,
+	      "float32 exact: not int32 (2^24 + 1 rounds to %.1f)", (double)f);
+	in.datatype = NIFTI_TYPE_FLOAT64;
+	CHECK(!nii_float32_exact(&in), "float32 exact: not float64");
+	in.datatype = NIFTI_TYPE_INT16;
+	in.slope = 0.1;
+	CHECK(!nii_float32_exact(&in) && (float)(3 * 0.1) != 3 * 0.1,
+	      "float32 exact: not int16 with slope 0.1 (3 x 0.1 in double is no float32)");
+	in.slope = 1.0;
+	in.inter = 0.5;
+	CHECK(!nii_float32_exact(&in), "float32 exact: not int16 with an intercept");
+}
+
 static void test_float_roundtrip(const char *name, int64_t nt)
 {
 	nii_grid g, g2;
@@ -621,6 +650,7 @@ int main(void)
 		return 1;
 	}
 	test_grid_make();
+	test_float32_exact();
 	test_float_roundtrip("map.nii", 1);
 	test_float_roundtrip("map.nii.gz", 1);
 	test_float_roundtrip("series.nii", 4);
