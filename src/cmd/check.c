@@ -6,6 +6,7 @@
 #include <strings.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/resample.h"
 #include "../io/bids.h"
 #include "../io/events.h"
@@ -75,11 +76,6 @@ static void sl_free(strlist *l)
 	free(l->s);
 	l->s = NULL;
 	l->n = 0;
-}
-
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
 /* The state of one check: what is wrong, what deserves a warning. */
@@ -340,7 +336,7 @@ events:
 		for (k = 0; k < ev.n; k++)
 			sl_add_unique(&names, ev.ev[k].condition);
 		if (names.n)
-			qsort(names.s, names.n, sizeof *names.s, cmp_str);
+			qsort(names.s, names.n, sizeof *names.s, strv_cmp);
 		for (i = 0; i < names.n; i++) {
 			size_t count = 0;
 
@@ -504,13 +500,6 @@ typedef struct parcels {
 	size_t n;
 } parcels;
 
-static int cmp_i32(const void *a, const void *b)
-{
-	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
-
-	return x < y ? -1 : x > y;
-}
-
 static int load_parcels(checker *c, parcels *p)
 {
 	const study *st = c->st;
@@ -559,14 +548,14 @@ static int load_parcels(checker *c, parcels *p)
 		}
 	}
 	if (p->n)
-		qsort(p->index, p->n, sizeof *p->index, cmp_i32);
+		qsort(p->index, p->n, sizeof *p->index, strv_cmp_i32);
 	p->count = xcalloc(p->n ? p->n : 1, sizeof *p->count);
 	for (v = 0; v < p->nvox; v++) {
 		int32_t *hit;
 
 		if (p->labels[v] == 0)
 			continue;
-		hit = bsearch(&p->labels[v], p->index, p->n, sizeof *p->index, cmp_i32);
+		hit = bsearch(&p->labels[v], p->index, p->n, sizeof *p->index, strv_cmp_i32);
 		p->count[hit - p->index]++;
 	}
 	return 0;
@@ -632,7 +621,7 @@ static void check_parcels(checker *c, const data_grid *grids, size_t ngrids)
 				} else {
 					int32_t l = (int32_t)x;
 
-					if (!ps.n || !bsearch(&l, ps.index, ps.n, sizeof *ps.index, cmp_i32)) {
+					if (!ps.n || !bsearch(&l, ps.index, ps.n, sizeof *ps.index, strv_cmp_i32)) {
 						snprintf(msg, sizeof msg, "%s: line %zu: parcel %s (index %d) has no voxels in %s",
 							 st->parcel_names, names.line[r],
 							 table_cell(&names, r, (size_t)cn), (int)l, st->parcels);
@@ -822,7 +811,7 @@ static void check_localizer(checker *c, size_t l, char **subs, size_t nsub, cons
 			sl_add_unique(&known, seen[s].conds.s[k]);
 	}
 	if (known.n)
-		qsort(known.s, known.n, sizeof *known.s, cmp_str);
+		qsort(known.s, known.n, sizeof *known.s, strv_cmp);
 	snprintf(section, sizeof section, "localizer %s", study_loc_label(whole, l));
 	check_names(c, section, "contrast", v.loc_task, &v.contrast, 1, &known, subs, nsub, seen, 1, &reported);
 	check_names(c, section, "effects", v.loc_task, v.loc_effects, v.nloc_effects, &known, subs, nsub, seen, 1,
@@ -945,7 +934,7 @@ static int run_check(checker *c, char **subs, size_t nsub)
 				sl_add_unique(&known, ts->conds.s[k]);
 		}
 		if (known.n)
-			qsort(known.s, known.n, sizeof *known.s, cmp_str);
+			qsort(known.s, known.n, sizeof *known.s, strv_cmp);
 		if (t == 0) {
 			check_names(c, "localizer", "contrast", task, &st->contrast, 1, &known, subs, nsub,
 				    seen, ntasks, &reported);
@@ -1064,7 +1053,7 @@ static int pick_subjects(checker *c, const char *only, char ***out, size_t *n)
 	}
 	bids_strings_free(all, nall);
 	if (*n)
-		qsort(*out, *n, sizeof **out, cmp_str);
+		qsort(*out, *n, sizeof **out, strv_cmp);
 	else if (!c->probs.n)
 		study_problems_add(&c->probs, c->st->bids, 0, "no subjects (sub-* folders) found");
 	return 0;

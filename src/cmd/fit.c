@@ -7,6 +7,7 @@
 
 #include "../core/expr.h"
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/pool.h"
 #include "../io/bids.h"
 #include "../io/bidsname.h"
@@ -191,11 +192,6 @@ static size_t common_entities(bidsname_kv (*kv)[40], const size_t *n, int nrun, 
 	return m;
 }
 
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
 /* Distinct conditions over all runs' events, sorted by bytes (METHODS.md section 2). */
 static int gather_conditions(char **events, int nrun, const char *column, char ***out, int *nout)
 {
@@ -225,7 +221,7 @@ static int gather_conditions(char **events, int nrun, const char *column, char *
 		events_release(&el);
 	}
 	if (n > 1)
-		qsort(c, (size_t)n, sizeof *c, cmp_str);
+		qsort(c, (size_t)n, sizeof *c, strv_cmp);
 	*out = c;
 	*nout = n;
 	return 0;

@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/region.h"
 #include "../core/smooth.h"
 #include "../core/stats.h"
@@ -679,13 +680,6 @@ fail0:
 	return 1;
 }
 
-static int cmp_i32(const void *a, const void *b)
-{
-	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
-
-	return (x > y) - (x < y);
-}
-
 static int from_labels(const char *const *val, sr_err *e)
 {
 	nii_info info;
@@ -725,7 +719,7 @@ static int from_labels(const char *const *val, sr_err *e)
 		free(keep);
 		return 2;
 	}
-	qsort(keep, nkeep, sizeof *keep, cmp_i32);
+	qsort(keep, nkeep, sizeof *keep, strv_cmp_i32);
 	if (nii_read_3d(val[OPT_FROM], &info, &d, e) != SR_OK)
 		goto fail;
 	nvox = nii_nvox(&info.grid);

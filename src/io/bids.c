@@ -12,6 +12,7 @@
 #include <sys/stat.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 
 static char *str_printf(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 
@@ -43,11 +44,6 @@ static int is_file(const char *path)
 	struct stat sb;
 
 	return stat(path, &sb) == 0 && S_ISREG(sb.st_mode);
-}
-
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
 static int has_suffix(const char *s, const char *suf)
@@ -129,7 +125,7 @@ static char **list_prefixed_dirs(const char *dir, const char *prefix, size_t *n,
 	}
 	closedir(d);
 	if (*n)
-		qsort(out, *n, sizeof *out, cmp_str);
+		qsort(out, *n, sizeof *out, strv_cmp);
 	return out;
 }
 
@@ -226,7 +222,7 @@ static char *set_join(str_set *S)
 	char *out;
 
 	if (S->n)
-		qsort(S->s, S->n, sizeof *S->s, cmp_str);
+		qsort(S->s, S->n, sizeof *S->s, strv_cmp);
 	for (size_t i = 0; i < S->n; i++)
 		len += strlen(S->s[i]) + 2;
 	out = xmalloc(len);
@@ -422,7 +418,7 @@ static char **list_bold_names(const char *func, size_t *n)
 	}
 	closedir(d);
 	if (nn)
-		qsort(names, nn, sizeof *names, cmp_str);
+		qsort(names, nn, sizeof *names, strv_cmp);
 	*n = nn;
 	return names;
 }
@@ -840,7 +836,7 @@ char **bids_spaces(const char *deriv, const char *subject, const char *task, siz
 	bids_strings_free(ses, nses);
 	free(subdir);
 	if (S.n)
-		qsort(S.s, S.n, sizeof *S.s, cmp_str);
+		qsort(S.s, S.n, sizeof *S.s, strv_cmp);
 	*n = S.n;
 	return S.s;
 }

@@ -12,6 +12,7 @@
 
 #include "../core/err.h"
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/stats.h"
 #include "../core/text.h"
 #include "../io/bidsname.h"
@@ -1126,11 +1127,6 @@ out:
 
 /* ---- group --by COLUMN: per level, and Welch between two levels ---- */
 
-static int cmp_cstr(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
 /* One group_by row's numbers, from a one-sample or a Welch test. */
 typedef struct byrow {
 	size_t cell, level;   /* level == nlevels: the Welch row */
@@ -1260,7 +1256,7 @@ static int write_by(group_ctx *g, const char *col, sr_err *e)
 		sr_fail(e, SR_EINVAL, "--by %s: no subject used has a value in that column", col);
 		goto out;
 	}
-	qsort(levels, nlev, sizeof *levels, cmp_cstr);
+	qsort(levels, nlev, sizeof *levels, strv_cmp);
 	for (s = 0; s < g->nsubj; s++)
 		if (g->subj[s].status == SUBJ_USED && *pcell(g, s, k))
 			for (l = 0; l < nlev; l++)

@@ -12,6 +12,7 @@
 
 #include "../core/fir.h"
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/resample.h"
 #include "../core/roi.h"
 #include "../io/afile.h"
@@ -48,13 +49,6 @@ void parcel_set_release(parcel_set *p)
 	free(p->name);
 	free(p->index);
 	memset(p, 0, sizeof *p);
-}
-
-static int cmp_i32(const void *a, const void *b)
-{
-	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
-
-	return (x > y) - (x < y);
 }
 
 sr_status mask_intersection(char *const *paths, size_t n, unsigned char **mask, nii_grid *grid,
@@ -210,7 +204,7 @@ sr_status parcel_set_load(const char *image, const char *names_path, parcel_set 
 		}
 	}
 	if (nseen)   /* qsort wants a real array even for no elements */
-		qsort(seen, nseen, sizeof *seen, cmp_i32);
+		qsort(seen, nseen, sizeof *seen, strv_cmp_i32);
 	p->n = (int)nseen;
 	p->index = seen;
 	p->name = xcalloc(nseen ? nseen : 1, sizeof *p->name);
@@ -347,11 +341,6 @@ typedef struct task_fit {
 	char **confpath;
 } task_fit;
 
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
 static void task_release(task_fit *t)
 {
 	size_t i;
@@ -474,7 +463,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 			t->confpath[i] = bids_confounds_path(&t->runs[i], st->confounds_suffix);
 	}
 	if (t->ncond)
-		qsort(t->conds, (size_t)t->ncond, sizeof *t->conds, cmp_str);
+		qsort(t->conds, (size_t)t->ncond, sizeof *t->conds, strv_cmp);
 	t->C = xcalloc((size_t)t->ne * (size_t)(t->ncond ? t->ncond : 1), sizeof *t->C);
 	t->missing = xcalloc((size_t)(t->ne ? t->ne : 1), 1);
 	for (j = 0; j < t->ne; j++) {
@@ -984,7 +973,7 @@ static unsigned char *lost_parcels(const parcel_set *ps, const int32_t *labels, 
 
 		if (labels[v] == 0)
 			continue;
-		hit = bsearch(&labels[v], ps->index, (size_t)ps->n, sizeof *ps->index, cmp_i32);
+		hit = bsearch(&labels[v], ps->index, (size_t)ps->n, sizeof *ps->index, strv_cmp_i32);
 		if (hit)
 			lost[hit - ps->index] = 0;
 	}
