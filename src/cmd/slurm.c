@@ -582,10 +582,7 @@ static qentry *parse_queue(const char *text, size_t *n)
 		if (*end != ' ' && *end != '|')
 			continue;
 		snprintf(x.state, sizeof x.state, "%.*s", (int)strcspn(end + 1, " |+\n"), end + 1);
-		if (*n == cap) {
-			cap = cap ? 2 * cap : 64;
-			q = xrealloc(q, cap * sizeof *q);
-		}
+		XGROW(q, *n, cap);
 		q[(*n)++] = x;
 	}
 	if (*n)

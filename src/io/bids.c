@@ -115,10 +115,7 @@ static char **list_prefixed_dirs(const char *dir, const char *prefix, size_t *n,
 				free(full);
 				continue;
 			}
-			if (*n == cap) {
-				cap = cap ? 2 * cap : 16;
-				out = xrealloc(out, cap * sizeof *out);
-			}
+			XGROW(out, *n, cap);
 			out[(*n)++] = xstrdup(de->d_name + plen);
 		}
 		free(full);
@@ -206,10 +203,7 @@ static void set_add(str_set *S, const char *v, size_t len)
 	for (size_t i = 0; i < S->n; i++)
 		if (strlen(S->s[i]) == len && strncmp(S->s[i], v, len) == 0)
 			return;
-	if (S->n == S->cap) {
-		S->cap = S->cap ? 2 * S->cap : 8;
-		S->s = xrealloc(S->s, S->cap * sizeof *S->s);
-	}
+	XGROW(S->s, S->n, S->cap);
 	S->s[S->n] = xmalloc(len + 1);
 	memcpy(S->s[S->n], v, len);
 	S->s[S->n++][len] = '\0';
@@ -410,10 +404,7 @@ static char **list_bold_names(const char *func, size_t *n)
 	while ((de = readdir(d)) != NULL) {
 		if (bold_stem(de->d_name) == 0)
 			continue;
-		if (nn == cap) {
-			cap = cap ? 2 * cap : 16;
-			names = xrealloc(names, cap * sizeof *names);
-		}
+		XGROW(names, nn, cap);
 		names[nn++] = xstrdup(de->d_name);
 	}
 	closedir(d);
@@ -500,10 +491,7 @@ static void add_run(run_list *L, char *path, const char *name, size_t stem, int 
 	long slen;
 	bids_run *r;
 
-	if (L->n == L->cap) {
-		L->cap = L->cap ? 2 * L->cap : 16;
-		L->r = xrealloc(L->r, L->cap * sizeof *L->r);
-	}
+	XGROW(L->r, L->n, L->cap);
 	r = &L->r[L->n++];
 	memset(r, 0, sizeof *r);
 	r->bold = path;

@@ -51,10 +51,7 @@ static void on_field(void *data, size_t len, void *ctx)
 	for (size_t i = 0; i < len; i++)   /* line breaks: LF, CRLF, or a CR alone */
 		if (f[i] == '\n' || (f[i] == '\r' && (i + 1 == len || f[i + 1] != '\n')))
 			s->row_newlines++;
-	if (s->nrow == s->caprow) {
-		s->caprow = s->caprow ? 2 * s->caprow : 16;
-		s->row = xrealloc(s->row, s->caprow * sizeof *s->row);
-	}
+	XGROW(s->row, s->nrow, s->caprow);
 	s->row[s->nrow++] = f;
 }
 

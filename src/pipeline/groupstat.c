@@ -110,10 +110,7 @@ static size_t strtab_add(strtab *t, const char *s)
 
 	if (i != (size_t)-1)
 		return i;
-	if (t->n == t->cap) {
-		t->cap = t->cap ? 2 * t->cap : 16;
-		t->s = xrealloc(t->s, t->cap * sizeof *t->s);
-	}
+	XGROW(t->s, t->n, t->cap);
 	t->s[t->n] = xstrdup(s);
 	t->n++;
 	if (2 * t->n > t->nslot) {
@@ -366,10 +363,7 @@ static cell *cell_get(group_ctx *g, size_t l, size_t p, size_t s, size_t t, size
 		cell *c;
 		size_t k;
 
-		if (g->ncells == g->capcells) {
-			g->capcells = g->capcells ? 2 * g->capcells : 64;
-			g->cells = xrealloc(g->cells, g->capcells * sizeof *g->cells);
-		}
+		XGROW(g->cells, g->ncells, g->capcells);
 		c = &g->cells[g->ncells++];
 		c->loc = l;
 		c->parcel = p;

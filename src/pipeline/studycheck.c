@@ -119,10 +119,7 @@ static sr_status task_conditions(const study *st, char **subs, size_t nsub, cons
 			for (k = 0; k < ev.n; k++) {
 				if (has_label(*conds, *ncond, ev.ev[k].condition))
 					continue;
-				if (*ncond == cap) {
-					cap = cap ? 2 * cap : 8;
-					*conds = xrealloc(*conds, cap * sizeof **conds);
-				}
+				XGROW(*conds, *ncond, cap);
 				(*conds)[(*ncond)++] = xstrdup(ev.ev[k].condition);
 			}
 			events_release(&ev);

@@ -157,10 +157,7 @@ sr_status parcel_set_load(const char *image, const char *names_path, parcel_set 
 				break;
 		if (k < nseen)
 			continue;
-		if (nseen == cap) {
-			cap = cap ? 2 * cap : 16;
-			seen = xrealloc(seen, cap * sizeof *seen);
-		}
+		XGROW(seen, nseen, cap);
 		seen[nseen++] = l;
 	}
 	if (names_path) {
@@ -247,10 +244,7 @@ static void add_row(subject_result *r, const char *loc, const char *parcel, cons
 {
 	response_row *w;
 
-	if (r->nrows == r->cap) {
-		r->cap = r->cap ? 2 * r->cap : 64;
-		r->rows = xrealloc(r->rows, r->cap * sizeof *r->rows);
-	}
+	XGROW(r->rows, r->nrows, r->cap);
 	w = &r->rows[r->nrows++];
 	w->localizer = xstrdup(loc);
 	w->parcel = xstrdup(parcel);
@@ -445,10 +439,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 					break;
 			if (c < t->ncond)
 				continue;
-			if (t->ncond == ncap) {
-				ncap = ncap ? 2 * ncap : 8;
-				t->conds = xrealloc(t->conds, (size_t)ncap * sizeof *t->conds);
-			}
+			XGROW(t->conds, t->ncond, ncap);
 			t->conds[t->ncond++] = xstrdup(ev.ev[k].condition);
 		}
 		events_release(&ev);
