@@ -8,6 +8,7 @@
 #include <unistd.h>
 
 #include "../core/mem.h"
+#include "../core/pool.h"
 #include "../io/afile.h"
 #include "../io/bids.h"
 #include "../io/events.h"
@@ -76,40 +77,28 @@ static int has_label(char **v, size_t n, const char *s)
 typedef struct work {
 	const subject_ctx *ctx;
 	char **labels;
-	size_t n, next;
 	int *status;           /* per subject: 0 ok, 1 failed */
 	subject_result *res;
 	progress *prog;
 	int force, wait;
-	pthread_mutex_t lock;
 } work;
 
-static void *worker(void *arg)
+/* Pool job i: subject labels[i]; a failure is printed and counted, the others go on. */
+static void run_subject(size_t i, int worker, void *arg)
 {
 	work *w = arg;
+	sr_err e;
+	int skipped;
 
-	for (;;) {
-		size_t i;
-		sr_err e;
-
-		pthread_mutex_lock(&w->lock);
-		i = w->next++;
-		pthread_mutex_unlock(&w->lock);
-		if (i >= w->n)
-			break;
-		int skipped;
-
-		sr_err_init(&e, progress_warn, w->prog);
-		if (subunit_run(w->ctx, w->labels[i], w->force, w->wait, &w->res[i], &skipped, &e)) {
-			progress_clear(w->prog);
-			pthread_mutex_lock(&w->prog->lock);
-			fprintf(stderr, "splitroi analyze: sub-%s failed: %s\n", w->labels[i], e.msg);
-			pthread_mutex_unlock(&w->prog->lock);
-			w->status[i] = 1;
-		}
-		progress_step(w->prog);
+	sr_err_init(&e, progress_warn, w->prog);
+	if (subunit_run(w->ctx, w->labels[i], w->force, w->wait, &w->res[i], &skipped, &e)) {
+		progress_clear(w->prog);
+		pthread_mutex_lock(&w->prog->lock);
+		fprintf(stderr, "splitroi analyze: sub-%s failed: %s\n", w->labels[i], e.msg);
+		pthread_mutex_unlock(&w->prog->lock);
+		w->status[i] = 1;
 	}
-	return NULL;
+	progress_step(w->prog);
 }
 
 /* The aligned summary on stdout: per parcel, mean fROI size and the cross-validated effects. */
@@ -284,34 +273,11 @@ static void work_init(work *w, const subject_ctx *ctx, char **todo, size_t ntodo
 	memset(w, 0, sizeof *w);
 	w->ctx = ctx;
 	w->labels = todo;
-	w->n = ntodo;
 	w->status = xcalloc(ntodo ? ntodo : 1, sizeof *w->status);
 	w->res = xcalloc(ntodo ? ntodo : 1, sizeof *w->res);
 	w->prog = prog;
 	w->force = force;
 	w->wait = wait;
-	pthread_mutex_init(&w->lock, NULL);
-}
-
-/* Runs w's subjects on up to jobs threads (in this thread when one cannot start). */
-static void run_workers(work *w, long jobs)
-{
-	long nj, j;
-	pthread_t *tid;
-
-	if (!w->n)
-		return;
-	nj = jobs < (long)w->n ? jobs : (long)w->n;
-	tid = xcalloc((size_t)nj, sizeof *tid);
-	for (j = 0; j < nj; j++)
-		if (pthread_create(&tid[j], NULL, worker, w) != 0) {
-			tid[j] = 0;
-			worker(w);
-		}
-	for (j = 0; j < nj; j++)
-		if (tid[j])
-			pthread_join(tid[j], NULL);
-	free(tid);
 }
 
 /* The left-out-run lines of the subjects that ran. */
@@ -445,8 +411,7 @@ int cmd_analyze(int argc, char **argv)
 	ctx.progress = progress_stage;
 	ctx.progress_ctx = &prog;
 	work_init(&w, &ctx, todo, ntodo, &prog, val[O_FORCE] != NULL, !val[O_NOWAIT]);
-	run_workers(&w, jobs);
-	pthread_mutex_destroy(&w.lock);
+	pool_run(ntodo, (int)jobs, run_subject, &w);   /* jobs is 1..256 */
 	progress_clear(&prog);
 	ran = xcalloc(ntodo ? ntodo : 1, sizeof *ran);
 	for (i = 0; i < ntodo; i++) {

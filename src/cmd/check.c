@@ -6,6 +6,7 @@
 #include <strings.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/resample.h"
 #include "../io/bids.h"
 #include "../io/events.h"
@@ -76,11 +77,6 @@ static void sl_free(strlist *l)
 	free(l->s);
 	l->s = NULL;
 	l->n = 0;
-}
-
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
 /* The state of one check: what is wrong, what deserves a warning. */
@@ -341,7 +337,7 @@ events:
 		for (k = 0; k < ev.n; k++)
 			sl_add_unique(&names, ev.ev[k].condition);
 		if (names.n)
-			qsort(names.s, names.n, sizeof *names.s, cmp_str);
+			qsort(names.s, names.n, sizeof *names.s, strv_cmp);
 		for (i = 0; i < names.n; i++) {
 			size_t count = 0;
 
@@ -680,7 +676,7 @@ static void check_localizer(checker *c, size_t l, char **subs, size_t nsub, cons
 			sl_add_unique(&known, seen[s].conds.s[k]);
 	}
 	if (known.n)
-		qsort(known.s, known.n, sizeof *known.s, cmp_str);
+		qsort(known.s, known.n, sizeof *known.s, strv_cmp);
 	snprintf(section, sizeof section, "localizer %s", study_loc_label(whole, l));
 	check_names(c, section, "contrast", v.loc_task, &v.contrast, 1, &known, subs, nsub, seen, 1, &reported);
 	check_names(c, section, "effects", v.loc_task, v.loc_effects, v.nloc_effects, &known, subs, nsub, seen, 1,
@@ -803,7 +799,7 @@ static int run_check(checker *c, char **subs, size_t nsub)
 				sl_add_unique(&known, ts->conds.s[k]);
 		}
 		if (known.n)
-			qsort(known.s, known.n, sizeof *known.s, cmp_str);
+			qsort(known.s, known.n, sizeof *known.s, strv_cmp);
 		if (t == 0) {
 			check_names(c, "localizer", "contrast", task, &st->contrast, 1, &known, subs, nsub,
 				    seen, ntasks, &reported);
@@ -922,7 +918,7 @@ static int pick_subjects(checker *c, const char *only, char ***out, size_t *n)
 	}
 	bids_strings_free(all, nall);
 	if (*n)
-		qsort(*out, *n, sizeof **out, cmp_str);
+		qsort(*out, *n, sizeof **out, strv_cmp);
 	else if (!c->probs.n)
 		study_problems_add(&c->probs, c->st->bids, 0, "no subjects (sub-* folders) found");
 	return 0;

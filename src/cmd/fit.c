@@ -1,6 +1,5 @@
 /* fit.c - `splitroi fit`: first-level GLM maps for BOLD runs given on the command line. */
 #include <math.h>
-#include <pthread.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -8,6 +7,8 @@
 
 #include "../core/expr.h"
 #include "../core/mem.h"
+#include "../core/strv.h"
+#include "../core/pool.h"
 #include "../io/bids.h"
 #include "../io/bidsname.h"
 #include "../io/afile.h"
@@ -191,11 +192,6 @@ static size_t common_entities(bidsname_kv (*kv)[40], const size_t *n, int nrun, 
 	return m;
 }
 
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
 /* Distinct conditions over all runs' events, sorted by bytes (METHODS.md section 2). */
 static int gather_conditions(char **events, int nrun, const char *column, char ***out, int *nout)
 {
@@ -225,7 +221,7 @@ static int gather_conditions(char **events, int nrun, const char *column, char *
 		events_release(&el);
 	}
 	if (n > 1)
-		qsort(c, (size_t)n, sizeof *c, cmp_str);
+		qsort(c, (size_t)n, sizeof *c, strv_cmp);
 	*out = c;
 	*nout = n;
 	return 0;
@@ -239,13 +235,19 @@ typedef struct map_job {
 	int failed;
 } map_job;
 
+/* One worker's scratch: nvox doubles twice and nvox floats. */
+typedef struct map_ws {
+	double *x, *tmp;
+	float *f;
+} map_ws;
+
 typedef struct map_ctx {
 	map_job *jobs;
-	int njobs, next, nrun;
+	int njobs, nrun;
 	const runfit_result *res;
 	size_t nvox;
 	char *const *labels;   /* the effects' names */
-	pthread_mutex_t mu;
+	map_ws *ws;            /* one per pool worker */
 } map_ctx;
 
 /* The map of one job into x (nvox doubles); tmp is scratch for the combination. */
@@ -328,33 +330,20 @@ static int write_one(const map_ctx *m, map_job *j, const float *f, char *desc, s
 	return bad;
 }
 
-/* Writes maps until none is left; maps are independent, so the order does not matter. */
-static void *map_worker(void *arg)
+/* Pool job i: map jobs[i]; maps are independent, so the order does not matter. */
+static void map_one(size_t i, int worker, void *arg)
 {
 	map_ctx *m = arg;
-	size_t n = m->nvox ? m->nvox : 1, v;
-	double *x = xmalloc_array(n, sizeof(double)), *tmp = xmalloc_array(n, sizeof(double));
-	float *f = xmalloc_array(n, sizeof(float));
+	map_job *j = &m->jobs[i];
+	map_ws *ws = &m->ws[worker];
+	size_t v;
+	char desc[80];
 
-	for (;;) {
-		map_job *j;
-		char desc[80];
-
-		pthread_mutex_lock(&m->mu);
-		j = m->next < m->njobs ? &m->jobs[m->next++] : NULL;
-		pthread_mutex_unlock(&m->mu);
-		if (!j)
-			break;
-		map_values(m, j, x, tmp);
-		for (v = 0; v < m->nvox; v++)
-			f[v] = isfinite(x[v]) ? (float)x[v] : NAN;
-		sr_err_init(&j->err, NULL, NULL);
-		j->failed = write_one(m, j, f, desc, sizeof desc);
-	}
-	free(x);
-	free(tmp);
-	free(f);
-	return NULL;
+	map_values(m, j, ws->x, ws->tmp);
+	for (v = 0; v < m->nvox; v++)
+		ws->f[v] = isfinite(ws->x[v]) ? (float)ws->x[v] : NAN;
+	sr_err_init(&j->err, NULL, NULL);
+	j->failed = write_one(m, j, ws->f, desc, sizeof desc);
 }
 
 /* Writes every map with up to nthreads threads; returns 0, or 1 after printing the failures. */
@@ -362,9 +351,8 @@ static int write_maps(map_job *jobs, int njobs, const runfit_result *res, int nr
 		      char *const *labels, int nthreads, jdoc *files)
 {
 	map_ctx m;
-	pthread_t *th;
-	unsigned char *started;
-	int i, nw = nthreads < njobs ? nthreads : njobs, rc = 0;
+	size_t n = nvox ? nvox : 1;
+	int i, nw = pool_workers(njobs > 0 ? (size_t)njobs : 0, nthreads), rc = 0;
 
 	memset(&m, 0, sizeof m);
 	m.jobs = jobs;
@@ -373,20 +361,19 @@ static int write_maps(map_job *jobs, int njobs, const runfit_result *res, int nr
 	m.res = res;
 	m.nvox = nvox;
 	m.labels = labels;
-	pthread_mutex_init(&m.mu, NULL);
-	if (nw < 1)
-		nw = 1;
-	th = xcalloc((size_t)nw, sizeof *th);
-	started = xcalloc((size_t)nw, 1);
-	for (i = 1; i < nw; i++)
-		started[i] = pthread_create(&th[i], NULL, map_worker, &m) == 0;
-	map_worker(&m);
-	for (i = 1; i < nw; i++)
-		if (started[i])
-			pthread_join(th[i], NULL);
-	pthread_mutex_destroy(&m.mu);
-	free(th);
-	free(started);
+	m.ws = xcalloc(nw > 0 ? (size_t)nw : 1, sizeof *m.ws);
+	for (i = 0; i < nw; i++) {
+		m.ws[i].x = xmalloc_array(n, sizeof(double));
+		m.ws[i].tmp = xmalloc_array(n, sizeof(double));
+		m.ws[i].f = xmalloc_array(n, sizeof(float));
+	}
+	pool_run(njobs > 0 ? (size_t)njobs : 0, nthreads, map_one, &m);
+	for (i = 0; i < nw; i++) {
+		free(m.ws[i].x);
+		free(m.ws[i].tmp);
+		free(m.ws[i].f);
+	}
+	free(m.ws);
 	for (i = 0; i < njobs; i++) {
 		if (jobs[i].failed) {
 			cmdline_error("fit", "%s", jobs[i].err.msg);

@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/region.h"
 #include "../core/smooth.h"
 #include "../core/stats.h"
@@ -726,13 +727,6 @@ fail0:
 	return 1;
 }
 
-static int cmp_i32(const void *a, const void *b)
-{
-	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
-
-	return (x > y) - (x < y);
-}
-
 /* The sorted distinct labels of a --keep list; 2 (said) when it is not one. */
 static int parse_keep(const char *list, int32_t **keep, size_t *nkeep)
 {
@@ -762,7 +756,7 @@ static int parse_keep(const char *list, int32_t **keep, size_t *nkeep)
 		free(*keep);
 		return 2;
 	}
-	qsort(*keep, *nkeep, sizeof **keep, cmp_i32);
+	qsort(*keep, *nkeep, sizeof **keep, strv_cmp_i32);
 	return 0;
 }
 
@@ -791,7 +785,7 @@ static int from_labels(const char *const *val, sr_err *e)
 	}
 	p.labels = xcalloc(in.nvox ? in.nvox : 1, sizeof *p.labels);
 	for (v = 0; v < in.nvox; v++)
-		if (bsearch(&in.labels[v], keep, nkeep, sizeof *keep, cmp_i32))
+		if (bsearch(&in.labels[v], keep, nkeep, sizeof *keep, strv_cmp_i32))
 			p.labels[v] = in.labels[v];
 	pset_alloc_rows(&p, (int32_t)nkeep);
 	for (k = 0; k < nkeep; k++) {

@@ -1,7 +1,6 @@
 /* slurm.c - `splitroi slurm`: a study as SLURM job arrays within the cluster's limits, then the group step; --status. */
 #include <errno.h>
 #include <math.h>
-#include <stdarg.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -11,6 +10,7 @@
 #include <unistd.h>
 
 #include "../core/mem.h"
+#include "../core/sbuf.h"
 #include "../io/afile.h"
 #include "../io/bids.h"
 #include "../io/nii.h"
@@ -299,33 +299,6 @@ static sr_status write_file(const char *path, const char *text, int exec, sr_err
 	return rc;
 }
 
-/* A growing string. */
-typedef struct sbuf {
-	char *s;
-	size_t n, cap;
-} sbuf;
-
-static void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
-static void sb_printf(sbuf *b, const char *fmt, ...)
-{
-	va_list ap;
-	int need;
-
-	va_start(ap, fmt);
-	need = vsnprintf(NULL, 0, fmt, ap);
-	va_end(ap);
-	if (need < 0)
-		return;
-	if (b->n + (size_t)need + 1 > b->cap) {
-		b->cap = (b->n + (size_t)need + 1) * 2;
-		b->s = xrealloc(b->s, b->cap);
-	}
-	va_start(ap, fmt);
-	vsnprintf(b->s + b->n, b->cap - b->n, fmt, ap);
-	va_end(ap);
-	b->n += (size_t)need;
-}
-
 /* Runs cmd through the shell, its standard output into out (reset first). Returns its exit status, -1 if it did not run. */
 static int run_capture(const char *cmd, sbuf *out)
 {
@@ -392,32 +365,32 @@ static void read_limits(limits *L)
 	L->max_submit = 0;
 	L->from_cluster = 0;
 	if (!on_path("scontrol") || run_capture("scontrol show config 2>/dev/null", &out) != 0) {
-		free(out.s);
+		free(out.p);
 		return;
 	}
-	v = config_value(out.s, "MaxArraySize");
+	v = config_value(out.p, "MaxArraySize");
 	if (v >= 0) {
 		L->max_array_size = v;
 		L->from_cluster = 1;
 	}
-	v = config_value(out.s, "MaxJobCount");
+	v = config_value(out.p, "MaxJobCount");
 	if (v > 0)
 		L->max_job_count = v;
-	v = config_value(out.s, "MaxSubmitJobs");
+	v = config_value(out.p, "MaxSubmitJobs");
 	if (v > 0)
 		L->max_submit = v;
-	if (strstr(out.s, "accounting_storage/slurmdbd") && on_path("sacctmgr") &&
+	if (strstr(out.p, "accounting_storage/slurmdbd") && on_path("sacctmgr") &&
 	    run_capture("timeout 20 sacctmgr -n -P show assoc where user=\"$(id -un)\" format=MaxSubmit 2>/dev/null",
 			&out) == 0) {
 		const char *p;
 
-		for (p = out.s; *p; p += strcspn(p, "\n"), p += *p == '\n') {
+		for (p = out.p; *p; p += strcspn(p, "\n"), p += *p == '\n') {
 			v = (*p >= '0' && *p <= '9') ? strtol(p, NULL, 10) : 0;
 			if (v > 0 && (L->max_submit == 0 || v < L->max_submit))
 				L->max_submit = v;
 		}
 	}
-	free(out.s);
+	free(out.p);
 }
 
 /* One array task: todo[first .. first + n), run one after another. */
@@ -609,10 +582,7 @@ static qentry *parse_queue(const char *text, size_t *n)
 		if (*end != ' ' && *end != '|')
 			continue;
 		snprintf(x.state, sizeof x.state, "%.*s", (int)strcspn(end + 1, " |+\n"), end + 1);
-		if (*n == cap) {
-			cap = cap ? 2 * cap : 64;
-			q = xrealloc(q, cap * sizeof *q);
-		}
+		XGROW(q, *n, cap);
 		q[(*n)++] = x;
 	}
 	if (*n)
@@ -670,10 +640,10 @@ static qentry *read_queue(const plan *P, size_t *n)
 	*n = 0;
 	sprintf(cmd, "squeue -h -r -o '%%i %%T' --name=%s 2>/dev/null", q_name);
 	if (on_path("squeue") && run_capture(cmd, &out) == 0)
-		q = parse_queue(out.s, n);
+		q = parse_queue(out.p, n);
 	free(cmd);
 	free(q_name);
-	free(out.s);
+	free(out.p);
 	return q;
 }
 
@@ -915,7 +885,7 @@ static sr_status write_array(const plan *P, size_t a, sbuf *b, sr_err *e)
 		  "done\n"
 		  "[ \"$failed\" -eq 0 ]\n",
 		  q_logs, P->q_bin, P->q_study, P->q_out);
-	rc = write_file(path, b->s, 0, e);
+	rc = write_file(path, b->p, 0, e);
 	free(path);
 	free(q_logs);
 	return rc;
@@ -934,7 +904,7 @@ static sr_status write_arrays(const plan *P, sbuf *b, sr_err *e)
 	for (i = 0; i < P->ntasks; i++)
 		for (k = 0; k < P->tasks[i].n; k++)
 			sb_printf(b, "%s%s", P->todo[P->tasks[i].first + k], k + 1 < P->tasks[i].n ? " " : "\n");
-	rc = write_file(path, b->s, 0, e);
+	rc = write_file(path, b->p, 0, e);
 	for (i = 0; !rc && i < P->narrays; i++)
 		rc = write_array(P, i, b, e);
 	if (rc)
@@ -963,7 +933,7 @@ static sr_status write_group(const plan *P, sbuf *b, sr_err *e)
 	sbatch_common(b, P, "group-%j.out");
 	sb_printf(b, "#SBATCH --ntasks=1\n#SBATCH --cpus-per-task=1\n#SBATCH --mem=1G\n#SBATCH --time=30:00\n");
 	sb_printf(b, "set -u\nexec %s analyze %s --out %s --collect\n", P->q_bin, P->q_study, P->q_out);
-	return write_file(path, b->s, 0, e);
+	return write_file(path, b->p, 0, e);
 }
 
 /*
@@ -1020,7 +990,7 @@ static sr_status write_submit_sh(const plan *P, sbuf *b, sr_err *e)
 	sb_printf(b, "echo \"subjects: job(s)$submitted (%zu tasks); group step: job $group\"\n", P->ntasks);
 	snprintf(path, sizeof path, "%s/submit.sh", P->dir);
 	free(q_rec);
-	return write_file(path, b->s, 1, e);
+	return write_file(path, b->p, 1, e);
 }
 /*
  * Runs `sbatch --parsable [dep] script`, reads the job id ("123" or "123;cluster")
@@ -1040,18 +1010,18 @@ static int submit(const char *dep, const char *script, char *id, size_t idlen)
 	free(cmd);
 	if (st != 0) {
 		fprintf(stderr, "splitroi slurm: sbatch failed on %s (exit %d)\n", script, st);
-		free(out.s);
+		free(out.p);
 		return 1;
 	}
-	k = strspn(out.s, "0123456789");
+	k = strspn(out.p, "0123456789");
 	if (k == 0 || k >= idlen) {
-		fprintf(stderr, "splitroi slurm: sbatch printed no job id for %s (got '%.60s')\n", script, out.s);
-		free(out.s);
+		fprintf(stderr, "splitroi slurm: sbatch printed no job id for %s (got '%.60s')\n", script, out.p);
+		free(out.p);
 		return 1;
 	}
-	memcpy(id, out.s, k);
+	memcpy(id, out.p, k);
 	id[k] = 0;
-	free(out.s);
+	free(out.p);
 	return 0;
 }
 
@@ -1105,7 +1075,7 @@ static sr_status record_jobs(const plan *P, char (*ids)[32], const char *grp, sb
 			sb_printf(b, "\n");
 		}
 	sb_printf(b, "%s group\n", grp);
-	return write_file(path, b->s, 0, e);
+	return write_file(path, b->p, 0, e);
 }
 
 /* --submit: every array (in turn when throttled), then the group job after all; 0 ok, 1 failed (printed). */
@@ -1285,15 +1255,15 @@ static int show_status(const plan *P)
 		if (!ss[i].job || find_queue(q, nq, ss[i].job, ss[i].task) || ids.n > 60000)
 			continue;
 		snprintf(one, sizeof one, ",%ld,", ss[i].job);
-		if (!strstr(ids.s, one))
+		if (!strstr(ids.p, one))
 			sb_printf(&ids, "%s%ld,", ids.n ? "" : ",", ss[i].job);
 	}
 	if (have_sacct && ids.n) {
 		cmd = xmalloc(ids.n + 64);
-		ids.s[ids.n - 1] = 0;
-		sprintf(cmd, "sacct -n -X -P -o JobID,State -j %s 2>/dev/null", ids.s + 1);
+		ids.p[ids.n - 1] = 0;
+		sprintf(cmd, "sacct -n -X -P -o JobID,State -j %s 2>/dev/null", ids.p + 1);
 		if (run_capture(cmd, &out) == 0)
-			acct = parse_queue(out.s, &nacct);
+			acct = parse_queue(out.p, &nacct);
 		free(cmd);
 	}
 	for (i = 0; i < P->nsub; i++) {
@@ -1320,8 +1290,8 @@ static int show_status(const plan *P)
 	if (count[ST_FAILED] + count[ST_STALE] + count[ST_NOT_STARTED])
 		printf("%zu subject(s) neither complete nor queued; when the queue is empty, submit every incomplete subject again with: splitroi slurm %s --submit\n",
 		       count[ST_FAILED] + count[ST_STALE] + count[ST_NOT_STARTED], P->study_abs);
-	free(out.s);
-	free(ids.s);
+	free(out.p);
+	free(ids.p);
 	free(q);
 	free(acct);
 	free(ss);
@@ -1421,7 +1391,7 @@ static int write_and_submit(plan *P)
 	}
 	rc = 0;
 out:
-	free(b.s);
+	free(b.p);
 	return rc;
 }
 

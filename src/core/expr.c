@@ -280,10 +280,7 @@ int expr_parse_list(const char *s, expr **out, size_t *n, char *msg, size_t msgl
 			quoted = !quoted;
 		if (s[i] && (quoted || s[i] != ','))
 			continue;
-		if (count == cap) {
-			cap = cap ? 2 * cap : 4;
-			list = xrealloc(list, cap * sizeof *list);
-		}
+		XGROW(list, count, cap);
 		piece = xmalloc(i - start + 1);
 		memcpy(piece, s + start, i - start);
 		piece[i - start] = '\0';

@@ -26,13 +26,13 @@
 #include <cblas.h>
 #include <lapacke.h>
 #include <math.h>
-#include <pthread.h>
 #include <stdint.h>
 #include <string.h>
 #include <sys/mman.h>
 #include <unistd.h>
 
 #include "mem.h"
+#include "pool.h"
 #include "stats.h"
 
 #define GLM_RANK_TOL 1e-10
@@ -482,6 +482,12 @@ const char *const glm_out_rule_names[GLM_OUT_NRULES] = {
 	"mask", "nonfinite", "nonpositive_mean", "constant", "intensity_floor"
 };
 
+/* Per-worker scratch of the finish (r x r and r), allocated once per worker. */
+typedef struct finish_ws {
+	double *G, *h, *w, *dw, *t;
+} finish_ws;
+
+/* What every voxel of the finish shares; one per glm_acc_finish. */
 typedef struct finish_job {
 	const glm_acc *a;
 	int ar1, ncon;
@@ -492,8 +498,8 @@ typedef struct finish_job {
 	const double *Q0;          /* r x r: u_0 u_0' + u_T-1 u_T-1' */
 	const unsigned char *est;
 	const unsigned char *mask;
-	size_t v0, v1;
 	glm_out *out;
+	finish_ws *ws;             /* one per pool worker */
 } finish_job;
 
 /* In-place Cholesky G = R'R of an n x n column-major matrix (upper part used). Returns 0 when positive definite. */
@@ -663,29 +669,24 @@ static void voxel_means(const glm_acc *a, const unsigned char *mask, glm_out *o)
 	}
 }
 
-static void *finish_range(void *arg)
+/* Voxels per pool job of the finish: large enough that a job's scratch is nothing, small enough to balance. */
+#define FINISH_CHUNK 4096
+
+/* Voxels v0..v1-1 of the finish, with one worker's scratch. */
+static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish_ws *ws)
 {
-	const finish_job *j = arg;
 	const glm_acc *a = j->a;
 	const glm_model *m = a->m;
 	int r = m->r, T = m->T, df = T - r, c, q, s;
 	size_t v, nvox = a->nvox;
 	glm_out *o = j->out;
-	double *G = dup_zero((size_t)r * r), *h = dup_zero((size_t)r), *w = dup_zero((size_t)r);
-	double *dw = dup_zero((size_t)r), *t = dup_zero((size_t)r);
+	double *G = ws->G, *h = ws->h, *w = ws->w, *dw = ws->dw, *t = ws->t;
 
-	size_t done = j->v0;
-
-	for (v = j->v0; v < j->v1; v++) {
+	for (v = v0; v < v1; v++) {
 		const double *u = a->acc + (size_t)2 * r * v, *l = u + r;
 		double y0 = a->y0[v], shift = m->has_const ? y0 : 0.0, z0 = m->has_const ? 0.0 : y0;
 		double mean, sc, rss, lag, rho, zl = a->zprev[v], sig2, rssw;
 		const double *delta = u;
-
-		if (v - done >= 4096) {
-			acc_release(a, done, v);
-			done = v;
-		}
 
 		mean = o->mean[v];
 		o->ok[v] = o->rule[v] == GLM_OUT_NRULES;
@@ -758,13 +759,46 @@ static void *finish_range(void *arg)
 			o->var[(size_t)c * nvox + v] = sc * sc * sig2 * vv;
 		}
 	}
-	acc_release(a, done, j->v1);
-	free(G);
-	free(h);
-	free(w);
-	free(dw);
-	free(t);
-	return NULL;
+}
+
+static finish_ws *ws_alloc(int nw, int r)
+{
+	finish_ws *ws = xcalloc(nw > 0 ? (size_t)nw : 1, sizeof *ws);
+	int i;
+
+	for (i = 0; i < nw; i++) {
+		ws[i].G = dup_zero((size_t)r * r);
+		ws[i].h = dup_zero((size_t)r);
+		ws[i].w = dup_zero((size_t)r);
+		ws[i].dw = dup_zero((size_t)r);
+		ws[i].t = dup_zero((size_t)r);
+	}
+	return ws;
+}
+
+static void ws_free(finish_ws *ws, int nw)
+{
+	int i;
+
+	for (i = 0; i < nw; i++) {
+		free(ws[i].G);
+		free(ws[i].h);
+		free(ws[i].w);
+		free(ws[i].dw);
+		free(ws[i].t);
+	}
+	free(ws);
+}
+
+/* Pool job k: voxels k*FINISH_CHUNK.., then their accumulator pages go back to the system. */
+static void finish_chunk(size_t k, int worker, void *ctx)
+{
+	const finish_job *j = ctx;
+	size_t nvox = j->a->nvox, v0 = k * FINISH_CHUNK;
+	size_t v1 = nvox - v0 > FINISH_CHUNK ? v0 + FINISH_CHUNK : nvox;
+
+	finish_range(j, v0, v1, &j->ws[worker]);
+	acc_release(j->a, v0, v1);
 }
 
 sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
@@ -773,21 +807,17 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 	if (a->finished)
 		return sr_fail(e, SR_EINVAL, "the fit was already finished");
 	const glm_model *m = a->m;
-	int r = m->r, c, q, i;
-	size_t nvox = a->nvox, chunk;
+	int r = m->r, c, q, nw;
+	size_t nvox = a->nvox, nchunk;
 	double *cq, *gc, *cn, *Ls, *Q0;
 	unsigned char *est;
-	finish_job *jobs;
-	pthread_t *th;
-	unsigned char *started;
+	finish_job job;
 
 	memset(out, 0, sizeof *out);
 	if (a->k != m->T)
 		return sr_fail(e, SR_EDIM, "%d volumes added for a design of %d rows", a->k, m->T);
 	if (ncon < 0 || (ncon > 0 && !C))
 		return sr_fail(e, SR_EINVAL, "bad contrast count %d", ncon);
-	if (nthreads < 1)
-		nthreads = 1;
 	acc_flush(a);
 	free(a->zbuf);   /* not needed any more: lowers the peak while the outputs exist */
 	a->zbuf = NULL;
@@ -819,43 +849,25 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 	lag_grams(m, Ls, Q0);
 	voxel_means(a, mask, out);
 
-	if ((size_t)nthreads > nvox / 256 + 1)
-		nthreads = (int)(nvox / 256 + 1);
 	a->finished = 1;
-	jobs = xcalloc((size_t)nthreads, sizeof *jobs);
-	th = xcalloc((size_t)nthreads, sizeof *th);
-	started = xcalloc((size_t)nthreads, 1);
-	chunk = (nvox + (size_t)nthreads - 1) / (size_t)nthreads;
-	for (i = 0; i < nthreads; i++) {
-		finish_job *j = &jobs[i];
-
-		j->a = a;
-		j->ar1 = ar1;
-		j->ncon = ncon;
-		j->cq = cq;
-		j->gc = gc;
-		j->cnorm2 = cn;
-		j->Ls = Ls;
-		j->Q0 = Q0;
-		j->est = est;
-		j->mask = mask;
-		j->out = out;
-		j->v0 = chunk * (size_t)i < nvox ? chunk * (size_t)i : nvox;
-		j->v1 = j->v0 + chunk < nvox ? j->v0 + chunk : nvox;
-	}
-	/* a thread that cannot start runs its range here: same numbers either way */
-	for (i = 1; i < nthreads; i++)
-		started[i] = pthread_create(&th[i], NULL, finish_range, &jobs[i]) == 0;
-	finish_range(&jobs[0]);
-	for (i = 1; i < nthreads; i++) {
-		if (started[i])
-			pthread_join(th[i], NULL);
-		else
-			finish_range(&jobs[i]);
-	}
-	free(jobs);
-	free(th);
-	free(started);
+	memset(&job, 0, sizeof job);
+	job.a = a;
+	job.ar1 = ar1;
+	job.ncon = ncon;
+	job.cq = cq;
+	job.gc = gc;
+	job.cnorm2 = cn;
+	job.Ls = Ls;
+	job.Q0 = Q0;
+	job.est = est;
+	job.mask = mask;
+	job.out = out;
+	/* chunks of voxels taken by up to nthreads workers: same numbers for any count */
+	nchunk = (nvox + FINISH_CHUNK - 1) / FINISH_CHUNK;
+	nw = pool_workers(nchunk, nthreads);
+	job.ws = ws_alloc(nw, r);
+	pool_run(nchunk, nthreads, finish_chunk, &job);
+	ws_free(job.ws, nw);
 	free(cq);
 	free(gc);
 	free(cn);

@@ -67,3 +67,12 @@ void *xmalloc_array(size_t n, size_t size)
 		die_nomem(SIZE_MAX);
 	return xmalloc(total);
 }
+
+size_t xmul_size(size_t a, size_t b)
+{
+	size_t total;
+
+	if (sr_mul_size(a, b, &total))
+		die_nomem(SIZE_MAX);
+	return total;
+}

@@ -5,6 +5,7 @@
 #include <string.h>
 
 #include "mem.h"
+#include "strv.h"
 #include "qc.h"
 #include "stats.h"
 
@@ -109,13 +110,6 @@ size_t qc_pick_slices(const int32_t *lab, size_t nx, size_t ny, size_t nz, int32
 	return n;
 }
 
-static int cmp_double(const void *a, const void *b)
-{
-	double x = *(const double *)a, y = *(const double *)b;
-
-	return (x > y) - (x < y);
-}
-
 void qc_window(const double *x, size_t n, double plo, double phi, double *lo, double *hi)
 {
 	double *s = xmalloc_array(n ? n : 1, sizeof *s);
@@ -130,7 +124,7 @@ void qc_window(const double *x, size_t n, double plo, double phi, double *lo, do
 	} else if (k < 2) {
 		*lo = *hi = s[0];
 	} else {
-		qsort(s, k, sizeof *s, cmp_double);
+		qsort(s, k, sizeof *s, strv_cmp_double);
 		*lo = stats_quantile_sorted(s, k, plo);
 		*hi = stats_quantile_sorted(s, k, phi);
 	}
@@ -149,13 +143,6 @@ void qc_edge(const unsigned char *mask, size_t nx, size_t ny, unsigned char *edg
 					      !mask[v - 1] || !mask[v + 1] || !mask[v - nx] ||
 					      !mask[v + nx]);
 		}
-}
-
-static int cmp_dbl(const void *a, const void *b)
-{
-	double x = *(const double *)a, y = *(const double *)b;
-
-	return (x > y) - (x < y);
 }
 
 static double median_sorted(const double *v, size_t n)
@@ -178,11 +165,11 @@ double qc_low_fence(const double *x, size_t n, double k)
 		free(v);
 		return NAN;
 	}
-	qsort(v, m, sizeof *v, cmp_dbl);
+	qsort(v, m, sizeof *v, strv_cmp_double);
 	med = median_sorted(v, m);
 	for (i = 0; i < m; i++)
 		v[i] = fabs(v[i] - med);
-	qsort(v, m, sizeof *v, cmp_dbl);
+	qsort(v, m, sizeof *v, strv_cmp_double);
 	mad = median_sorted(v, m);
 	free(v);
 	return med - k * 1.4826 * mad;

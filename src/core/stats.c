@@ -5,6 +5,7 @@
 #include <stdlib.h>
 
 #include "mem.h"
+#include "strv.h"
 
 /* Beyond this many degrees of freedom the t distribution is taken as the standard normal:
  * the lgamma differences below lose digits there, and the difference is O(1/df). */
@@ -295,18 +296,11 @@ double stats_quantile_sorted(const double *s, size_t n, double p)
 	return s[i] + (h - f) * (s[i + 1] - s[i]);
 }
 
-static int cmp_dbl(const void *a, const void *b)
-{
-	double x = *(const double *)a, y = *(const double *)b;
-
-	return (x > y) - (x < y);
-}
-
 double stats_quantile(double *x, size_t n, double p)
 {
 	if (n == 0)
 		return NAN;
-	qsort(x, n, sizeof *x, cmp_dbl);
+	qsort(x, n, sizeof *x, strv_cmp_double);
 	return stats_quantile_sorted(x, n, p);
 }
 

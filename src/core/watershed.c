@@ -177,10 +177,7 @@ sr_status watershed_label(const double *f, int64_t nx, int64_t ny, int64_t nz, d
 		}
 		if (!is_max)
 			continue;
-		if (nmk == cap) {
-			cap = cap ? 2 * cap : 64;
-			mk = xrealloc(mk, cap * sizeof *mk);
-		}
+		XGROW(mk, nmk, cap);
 		mk[nmk].peak = f[v];
 		mk[nmk].first = v;   /* v is the plateau's lowest index: the scan reaches it first */
 		mk[nmk].tmp = (int32_t)(nmk + 1);

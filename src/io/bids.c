@@ -12,6 +12,7 @@
 #include <sys/stat.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 
 static char *str_printf(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
 
@@ -43,11 +44,6 @@ static int is_file(const char *path)
 	struct stat sb;
 
 	return stat(path, &sb) == 0 && S_ISREG(sb.st_mode);
-}
-
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
 static int has_suffix(const char *s, const char *suf)
@@ -119,17 +115,14 @@ static char **list_prefixed_dirs(const char *dir, const char *prefix, size_t *n,
 				free(full);
 				continue;
 			}
-			if (*n == cap) {
-				cap = cap ? 2 * cap : 16;
-				out = xrealloc(out, cap * sizeof *out);
-			}
+			XGROW(out, *n, cap);
 			out[(*n)++] = xstrdup(de->d_name + plen);
 		}
 		free(full);
 	}
 	closedir(d);
 	if (*n)
-		qsort(out, *n, sizeof *out, cmp_str);
+		qsort(out, *n, sizeof *out, strv_cmp);
 	return out;
 }
 
@@ -210,10 +203,7 @@ static void set_add(str_set *S, const char *v, size_t len)
 	for (size_t i = 0; i < S->n; i++)
 		if (strlen(S->s[i]) == len && strncmp(S->s[i], v, len) == 0)
 			return;
-	if (S->n == S->cap) {
-		S->cap = S->cap ? 2 * S->cap : 8;
-		S->s = xrealloc(S->s, S->cap * sizeof *S->s);
-	}
+	XGROW(S->s, S->n, S->cap);
 	S->s[S->n] = xmalloc(len + 1);
 	memcpy(S->s[S->n], v, len);
 	S->s[S->n++][len] = '\0';
@@ -226,7 +216,7 @@ static char *set_join(str_set *S)
 	char *out;
 
 	if (S->n)
-		qsort(S->s, S->n, sizeof *S->s, cmp_str);
+		qsort(S->s, S->n, sizeof *S->s, strv_cmp);
 	for (size_t i = 0; i < S->n; i++)
 		len += strlen(S->s[i]) + 2;
 	out = xmalloc(len);
@@ -414,15 +404,12 @@ static char **list_bold_names(const char *func, size_t *n)
 	while ((de = readdir(d)) != NULL) {
 		if (bold_stem(de->d_name) == 0)
 			continue;
-		if (nn == cap) {
-			cap = cap ? 2 * cap : 16;
-			names = xrealloc(names, cap * sizeof *names);
-		}
+		XGROW(names, nn, cap);
 		names[nn++] = xstrdup(de->d_name);
 	}
 	closedir(d);
 	if (nn)
-		qsort(names, nn, sizeof *names, cmp_str);
+		qsort(names, nn, sizeof *names, strv_cmp);
 	*n = nn;
 	return names;
 }
@@ -504,10 +491,7 @@ static void add_run(run_list *L, char *path, const char *name, size_t stem, int 
 	long slen;
 	bids_run *r;
 
-	if (L->n == L->cap) {
-		L->cap = L->cap ? 2 * L->cap : 16;
-		L->r = xrealloc(L->r, L->cap * sizeof *L->r);
-	}
+	XGROW(L->r, L->n, L->cap);
 	r = &L->r[L->n++];
 	memset(r, 0, sizeof *r);
 	r->bold = path;
@@ -840,7 +824,7 @@ char **bids_spaces(const char *deriv, const char *subject, const char *task, siz
 	bids_strings_free(ses, nses);
 	free(subdir);
 	if (S.n)
-		qsort(S.s, S.n, sizeof *S.s, cmp_str);
+		qsort(S.s, S.n, sizeof *S.s, strv_cmp);
 	*n = S.n;
 	return S.s;
 }

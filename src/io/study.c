@@ -17,6 +17,7 @@
 
 #include "../core/mem.h"
 #include "../core/text.h"
+#include "readall.h"
 
 /* The largest study file we read: anything bigger is not a study file. */
 #define STUDY_MAX_BYTES (1u << 20)
@@ -1334,32 +1335,21 @@ static void load_measures(struct loader *ld, study *s)
 /* Reads the whole file; returns NULL after reporting. */
 static char *slurp(struct loader *ld, const char *path, size_t *len)
 {
-	FILE *f = fopen(path, "rb");
 	char *buf;
-	size_t n;
 
-	if (!f) {
+	switch (readall_file(path, STUDY_MAX_BYTES, &buf, len)) {
+	case READALL_OK:
+		return buf;
+	case READALL_EOPEN:
 		prob(ld, 0, "cannot open the study file: %s", strerror(errno));
 		return NULL;
-	}
-	buf = xmalloc(STUDY_MAX_BYTES + 1);
-	n = fread(buf, 1, STUDY_MAX_BYTES + 1, f);
-	if (ferror(f)) {
+	case READALL_EREAD:
 		prob(ld, 0, "cannot read the study file: %s", strerror(errno));
-		goto bad;
-	}
-	if (n > STUDY_MAX_BYTES) {
+		return NULL;
+	default:
 		prob(ld, 0, "larger than %u bytes: not a study file", STUDY_MAX_BYTES);
-		goto bad;
+		return NULL;
 	}
-	fclose(f);
-	buf[n] = '\0';
-	*len = n;
-	return xrealloc(buf, n + 1);
-bad:
-	fclose(f);
-	free(buf);
-	return NULL;
 }
 
 /* The absolute folder holding path. */

@@ -10,6 +10,7 @@
 #include <strings.h>
 
 #include "../core/mem.h"
+#include "readall.h"
 
 /*
  * Parser state. The file is fed to libcsv one physical line at a time, so a
@@ -51,10 +52,7 @@ static void on_field(void *data, size_t len, void *ctx)
 	for (size_t i = 0; i < len; i++)   /* line breaks: LF, CRLF, or a CR alone */
 		if (f[i] == '\n' || (f[i] == '\r' && (i + 1 == len || f[i + 1] != '\n')))
 			s->row_newlines++;
-	if (s->nrow == s->caprow) {
-		s->caprow = s->caprow ? 2 * s->caprow : 16;
-		s->row = xrealloc(s->row, s->caprow * sizeof *s->row);
-	}
+	XGROW(s->row, s->nrow, s->caprow);
 	s->row[s->nrow++] = f;
 }
 
@@ -180,32 +178,14 @@ static void on_row(int c, void *ctx)
 
 static sr_status slurp(const char *path, char **buf, size_t *len, sr_err *e)
 {
-	FILE *f = fopen(path, "rb");
-	size_t cap = 65536, n = 0, got;
-	char *b;
-
-	if (!f)
+	switch (readall_file(path, 0, buf, len)) {
+	case READALL_OK:
+		return SR_OK;
+	case READALL_EOPEN:
 		return sr_fail(e, SR_EIO, "cannot open %s: %s", path, strerror(errno));
-	b = xmalloc(cap);
-	for (;;) {
-		got = fread(b + n, 1, cap - n, f);
-		n += got;
-		if (n < cap)
-			break;
-		cap *= 2;
-		b = xrealloc(b, cap);
+	default:
+		return sr_fail(e, SR_EIO, "cannot read %s: %s", path, strerror(errno));
 	}
-	if (ferror(f)) {
-		int err = errno;
-
-		fclose(f);
-		free(b);
-		return sr_fail(e, SR_EIO, "cannot read %s: %s", path, strerror(err));
-	}
-	fclose(f);
-	*buf = b;
-	*len = n;
-	return SR_OK;
 }
 
 static char choose_delim(const char *path, char delim)

@@ -12,6 +12,7 @@
 
 #include "../core/err.h"
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/stats.h"
 #include "../core/text.h"
 #include "../io/bidsname.h"
@@ -109,10 +110,7 @@ static size_t strtab_add(strtab *t, const char *s)
 
 	if (i != (size_t)-1)
 		return i;
-	if (t->n == t->cap) {
-		t->cap = t->cap ? 2 * t->cap : 16;
-		t->s = xrealloc(t->s, t->cap * sizeof *t->s);
-	}
+	XGROW(t->s, t->n, t->cap);
 	t->s[t->n] = xstrdup(s);
 	t->n++;
 	if (2 * t->n > t->nslot) {
@@ -365,10 +363,7 @@ static cell *cell_get(group_ctx *g, size_t l, size_t p, size_t s, size_t t, size
 		cell *c;
 		size_t k;
 
-		if (g->ncells == g->capcells) {
-			g->capcells = g->capcells ? 2 * g->capcells : 64;
-			g->cells = xrealloc(g->cells, g->capcells * sizeof *g->cells);
-		}
+		XGROW(g->cells, g->ncells, g->capcells);
 		c = &g->cells[g->ncells++];
 		c->loc = l;
 		c->parcel = p;
@@ -1126,11 +1121,6 @@ out:
 
 /* ---- group --by COLUMN: per level, and Welch between two levels ---- */
 
-static int cmp_cstr(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
 /* One group_by row's numbers, from a one-sample or a Welch test. */
 typedef struct byrow {
 	size_t cell, level;   /* level == nlevels: the Welch row */
@@ -1260,7 +1250,7 @@ static int write_by(group_ctx *g, const char *col, sr_err *e)
 		sr_fail(e, SR_EINVAL, "--by %s: no subject used has a value in that column", col);
 		goto out;
 	}
-	qsort(levels, nlev, sizeof *levels, cmp_cstr);
+	qsort(levels, nlev, sizeof *levels, strv_cmp);
 	for (s = 0; s < g->nsubj; s++)
 		if (g->subj[s].status == SUBJ_USED && *pcell(g, s, k))
 			for (l = 0; l < nlev; l++)

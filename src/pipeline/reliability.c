@@ -26,10 +26,7 @@ static void add(reliab_table *tb, const char *loc, const char *parcel, const cha
 {
 	reliab_row *w;
 
-	if (tb->n == tb->cap) {
-		tb->cap = tb->cap ? 2 * tb->cap : 32;
-		tb->rows = xrealloc(tb->rows, tb->cap * sizeof *tb->rows);
-	}
+	XGROW(tb->rows, tb->n, tb->cap);
 	w = &tb->rows[tb->n++];
 	w->localizer = xstrdup(loc);
 	w->parcel = xstrdup(parcel);

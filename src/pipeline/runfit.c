@@ -15,6 +15,7 @@
 #include <string.h>
 
 #include "../core/mem.h"
+#include "../core/pool.h"
 #include "../core/smooth.h"
 #include "../io/events.h"
 #include "../io/table.h"
@@ -503,64 +504,37 @@ typedef struct many_ctx {
 	runfit_result *res;
 	sr_err *errs;
 	sr_status *st;
-	int n, next, finish_threads;
-	pthread_mutex_t mu;
+	int finish_threads;
 } many_ctx;
 
-static void *many_worker(void *arg)
+/* Pool job i: run i, with its share of the threads for the per-voxel finish. */
+static void many_one(size_t i, int worker, void *arg)
 {
 	many_ctx *c = arg;
 
-	for (;;) {
-		int i;
-
-		pthread_mutex_lock(&c->mu);
-		i = c->next++;
-		pthread_mutex_unlock(&c->mu);
-		if (i >= c->n)
-			break;
-		c->st[i] = runfit_run_threads(&c->specs[i], c->finish_threads, &c->res[i], &c->errs[i]);
-	}
-	return NULL;
+	c->st[i] = runfit_run_threads(&c->specs[i], c->finish_threads, &c->res[i], &c->errs[i]);
 }
 
 sr_status runfit_many(const runfit_spec *specs, int n, int nthreads, runfit_result *res,
 		      sr_err *errs)
 {
 	many_ctx c;
-	pthread_t *th;
-	unsigned char *started;
-	int i, nw;
+	int i;
 	sr_status st = SR_OK;
 
 	if (n <= 0)
 		return SR_OK;
-	if (nthreads < 1)
-		nthreads = 1;
-	nw = nthreads < n ? nthreads : n;
 	memset(&c, 0, sizeof c);
 	c.specs = specs;
 	c.res = res;
 	c.errs = errs;
-	c.n = n;
 	/* spare threads go to the per-voxel finish; results do not depend on them */
-	c.finish_threads = nthreads / nw;
+	c.finish_threads = (nthreads < 1 ? 1 : nthreads) / pool_workers((size_t)n, nthreads);
 	c.st = xcalloc((size_t)n, sizeof *c.st);
-	pthread_mutex_init(&c.mu, NULL);
-	th = xcalloc((size_t)nw, sizeof *th);
-	started = xcalloc((size_t)nw, 1);
-	for (i = 1; i < nw; i++)
-		started[i] = pthread_create(&th[i], NULL, many_worker, &c) == 0;
-	many_worker(&c);
-	for (i = 1; i < nw; i++)
-		if (started[i])
-			pthread_join(th[i], NULL);
+	pool_run((size_t)n, nthreads, many_one, &c);
 	for (i = 0; i < n; i++)
 		if (c.st[i] != SR_OK && st == SR_OK)
 			st = c.st[i];
-	pthread_mutex_destroy(&c.mu);
-	free(th);
-	free(started);
 	free(c.st);
 	return st;
 }

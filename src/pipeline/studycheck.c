@@ -6,6 +6,7 @@
 #include <string.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../io/bids.h"
 #include "../io/events.h"
 
@@ -17,11 +18,6 @@ static int has_label(char *const *v, size_t n, const char *s)
 		if (strcmp(v[i], s) == 0)
 			return 1;
 	return 0;
-}
-
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
 int studycheck_subjects(const study *st, char ***out, size_t *n, study_problems *probs)
@@ -52,7 +48,7 @@ int studycheck_subjects(const study *st, char ***out, size_t *n, study_problems 
 		npick = nfound;
 	}
 	if (npick)
-		qsort(pick, npick, sizeof *pick, cmp_str);
+		qsort(pick, npick, sizeof *pick, strv_cmp);
 	if (npick == 0 && probs->n == before)
 		study_problems_add(probs, st->bids, 0, "no subjects (sub-* folders) found");
 	*out = pick;
@@ -123,10 +119,7 @@ static sr_status task_conditions(const study *st, char **subs, size_t nsub, cons
 			for (k = 0; k < ev.n; k++) {
 				if (has_label(*conds, *ncond, ev.ev[k].condition))
 					continue;
-				if (*ncond == cap) {
-					cap = cap ? 2 * cap : 8;
-					*conds = xrealloc(*conds, cap * sizeof **conds);
-				}
+				XGROW(*conds, *ncond, cap);
 				(*conds)[(*ncond)++] = xstrdup(ev.ev[k].condition);
 			}
 			events_release(&ev);
@@ -134,7 +127,7 @@ static sr_status task_conditions(const study *st, char **subs, size_t nsub, cons
 		bids_runs_release(runs, nr);
 	}
 	if (*ncond)
-		qsort(*conds, *ncond, sizeof **conds, cmp_str);
+		qsort(*conds, *ncond, sizeof **conds, strv_cmp);
 	return SR_OK;
 }
 

@@ -7,6 +7,7 @@
 #include <sys/stat.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../io/bids.h"
 #include "fresh.h"
 
@@ -18,11 +19,6 @@ static int has_label(char **v, size_t n, const char *s)
 		if (strcmp(v[i], s) == 0)
 			return 1;
 	return 0;
-}
-
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
 }
 
 sr_status studyset_subjects(const study *st, char ***out, size_t *n, sr_err *e)
@@ -51,7 +47,7 @@ sr_status studyset_subjects(const study *st, char ***out, size_t *n, sr_err *e)
 	for (i = 0; i < st->nsubjects; i++)
 		(*out)[i] = xstrdup(st->subjects[i]);
 	*n = st->nsubjects;
-	qsort(*out, *n, sizeof **out, cmp_str);
+	qsort(*out, *n, sizeof **out, strv_cmp);
 	return SR_OK;
 }
 

@@ -12,6 +12,7 @@
 
 #include "../core/fir.h"
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/resample.h"
 #include "../core/roi.h"
 #include "../io/afile.h"
@@ -35,13 +36,6 @@ const char *const subject_columns[] = {
 const size_t subject_ncolumns = sizeof subject_columns / sizeof subject_columns[0];
 
 /* ---- parcels ---- */
-
-static int cmp_i32(const void *a, const void *b)
-{
-	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
-
-	return (x > y) - (x < y);
-}
 
 sr_status mask_intersection(char *const *paths, size_t n, unsigned char **mask, nii_grid *grid,
 			    size_t *count, sr_err *e)
@@ -112,10 +106,7 @@ static void add_row(subject_result *r, const char *loc, const char *parcel, cons
 {
 	response_row *w;
 
-	if (r->nrows == r->cap) {
-		r->cap = r->cap ? 2 * r->cap : 64;
-		r->rows = xrealloc(r->rows, r->cap * sizeof *r->rows);
-	}
+	XGROW(r->rows, r->nrows, r->cap);
 	w = &r->rows[r->nrows++];
 	w->localizer = xstrdup(loc);
 	w->parcel = xstrdup(parcel);
@@ -205,11 +196,6 @@ typedef struct task_fit {
 	nii_grid *grid;             /* nruns: each run's grid from its header, checked before fitting */
 	char **confpath;
 } task_fit;
-
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
 
 static void task_release(task_fit *t)
 {
@@ -315,10 +301,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 					break;
 			if (c < t->ncond)
 				continue;
-			if (t->ncond == ncap) {
-				ncap = ncap ? 2 * ncap : 8;
-				t->conds = xrealloc(t->conds, (size_t)ncap * sizeof *t->conds);
-			}
+			XGROW(t->conds, t->ncond, ncap);
 			t->conds[t->ncond++] = xstrdup(ev.ev[k].condition);
 		}
 		events_release(&ev);
@@ -333,7 +316,7 @@ static sr_status task_prepare(const study *st, const char *label, task_fit *t, s
 			t->confpath[i] = bids_confounds_path(&t->runs[i], st->confounds_suffix);
 	}
 	if (t->ncond)
-		qsort(t->conds, (size_t)t->ncond, sizeof *t->conds, cmp_str);
+		qsort(t->conds, (size_t)t->ncond, sizeof *t->conds, strv_cmp);
 	t->C = xcalloc((size_t)t->ne * (size_t)(t->ncond ? t->ncond : 1), sizeof *t->C);
 	t->missing = xcalloc((size_t)(t->ne ? t->ne : 1), 1);
 	for (j = 0; j < t->ne; j++) {
@@ -843,7 +826,7 @@ static unsigned char *lost_parcels(const parcels_set *ps, const int32_t *labels,
 
 		if (labels[v] == 0)
 			continue;
-		hit = bsearch(&labels[v], ps->index, (size_t)ps->n, sizeof *ps->index, cmp_i32);
+		hit = bsearch(&labels[v], ps->index, (size_t)ps->n, sizeof *ps->index, strv_cmp_i32);
 		if (hit)
 			lost[hit - ps->index] = 0;
 	}

@@ -25,10 +25,7 @@ void tc_table_add(tc_table *tb, const char *localizer, const char *parcel, const
 {
 	tc_row *w;
 
-	if (tb->n == tb->cap) {
-		tb->cap = tb->cap ? 2 * tb->cap : 256;
-		tb->rows = xrealloc(tb->rows, tb->cap * sizeof *tb->rows);
-	}
+	XGROW(tb->rows, tb->n, tb->cap);
 	w = &tb->rows[tb->n++];
 	w->localizer = xstrdup(localizer);
 	w->parcel = xstrdup(parcel);
@@ -219,10 +216,7 @@ static tkey *key_get(tkeys *ks, const char *const *f)
 			return &ks->k[ks->slot[h]];
 		h = (h + 1) % ks->nslot;
 	}
-	if (ks->n == ks->cap) {
-		ks->cap = ks->cap ? 2 * ks->cap : 256;
-		ks->k = xrealloc(ks->k, ks->cap * sizeof *ks->k);
-	}
+	XGROW(ks->k, ks->n, ks->cap);
 	ks->slot[h] = ks->n;
 	k = &ks->k[ks->n++];
 	memset(k, 0, sizeof *k);

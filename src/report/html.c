@@ -12,57 +12,6 @@
 #include "../version.h"
 #include "report.h"
 
-void sb_init(sbuf *b)
-{
-	b->cap = 4096;
-	b->p = xmalloc(b->cap);
-	b->p[0] = 0;
-	b->n = 0;
-}
-
-void sb_release(sbuf *b)
-{
-	free(b->p);
-	memset(b, 0, sizeof *b);
-}
-
-static void sb_room(sbuf *b, size_t more)
-{
-	if (b->n + more + 1 <= b->cap)
-		return;
-	while (b->n + more + 1 > b->cap)
-		b->cap *= 2;
-	b->p = xrealloc(b->p, b->cap);
-}
-
-void sb_puts(sbuf *b, const char *s)
-{
-	size_t k = strlen(s);
-
-	sb_room(b, k);
-	memcpy(b->p + b->n, s, k + 1);
-	b->n += k;
-}
-
-void sb_printf(sbuf *b, const char *fmt, ...)
-{
-	va_list ap;
-	int k;
-
-	va_start(ap, fmt);
-	k = vsnprintf(b->p + b->n, b->cap - b->n, fmt, ap);
-	va_end(ap);
-	if (k < 0)
-		return;
-	if ((size_t)k >= b->cap - b->n) {
-		sb_room(b, (size_t)k);
-		va_start(ap, fmt);
-		vsnprintf(b->p + b->n, b->cap - b->n, fmt, ap);
-		va_end(ap);
-	}
-	b->n += (size_t)k;
-}
-
 void sb_esc(sbuf *b, const char *s)
 {
 	for (; s && *s; s++)

@@ -8,14 +8,10 @@
 #include <unistd.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/qc.h"
 #include "../io/table.h"
 #include "report.h"
-
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
 
 /* Subject labels: sub-* folders of out holding a run record. */
 static char **subject_dirs(const char *out, size_t *n)
@@ -39,7 +35,7 @@ static char **subject_dirs(const char *out, size_t *n)
 	}
 	closedir(d);
 	if (*n)
-		qsort(v, *n, sizeof *v, cmp_str);
+		qsort(v, *n, sizeof *v, strv_cmp);
 	return v;
 }
 
@@ -378,10 +374,10 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 	}
 }
 
-/* Index of s in v[0..n) sorted by cmp_str, or -1. */
+/* Index of s in v[0..n) sorted by strv_cmp, or -1. */
 static long find_sorted(char **v, size_t n, const char *s)
 {
-	char **hit = n ? bsearch(&s, v, n, sizeof *v, cmp_str) : NULL;
+	char **hit = n ? bsearch(&s, v, n, sizeof *v, strv_cmp) : NULL;
 
 	return hit ? (long)(hit - v) : -1;
 }
@@ -587,7 +583,7 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 		if (!ns || strcmp(subs[ns - 1], table_cell(&all, r, (size_t)ac[6])) != 0)
 			add_unique(&subs, &ns, table_cell(&all, r, (size_t)ac[6]));
 	if (ns)
-		qsort(subs, ns, sizeof *subs, cmp_str);
+		qsort(subs, ns, sizeof *subs, strv_cmp);
 	ch = tc_charts(&g, gc, &nch);
 	cvs = xcalloc(nch ? nch : 1, sizeof *cvs);
 	tv = xmalloc_array(nb ? nb : 1, sizeof *tv);
@@ -742,7 +738,7 @@ static void response_charts(sbuf *b, sbuf *sum, const table *resp, const cols *c
 	for (r = 0; r < resp->nrows; r++)
 		add_unique(&sl, &ns, table_cell(resp, r, (size_t)c->subject));
 	if (ns)   /* no rows when every subject failed: qsort wants a real array */
-		qsort(sl, ns, sizeof *sl, cmp_str);
+		qsort(sl, ns, sizeof *sl, strv_cmp);
 	locs = table_localizers(resp, &nl);
 	for (int measured = 0; measured < 2; measured++) {
 		if (measured)

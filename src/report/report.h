@@ -5,6 +5,7 @@
 #include <stddef.h>
 
 #include "../core/err.h"
+#include "../core/sbuf.h"
 
 /*
  * Writes OUT/report.html and OUT/sub-<label>/report.html for every subject
@@ -22,15 +23,7 @@ int report_write(const char *out, int quiet);
 
 /* ---- report_html.c: a growing text buffer and the page frame ---- */
 
-typedef struct sbuf {
-	char *p;
-	size_t n, cap;
-} sbuf;
-
-void sb_init(sbuf *b);
-void sb_release(sbuf *b);
-void sb_puts(sbuf *b, const char *s);
-void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+/* the buffer itself (sbuf, sb_init, sb_puts, sb_printf ...) is core/sbuf.h */
 /* Appends s with &, <, >, " and ' escaped (safe in text and attribute values). */
 void sb_esc(sbuf *b, const char *s);
 /* Appends "data:image/png;base64,..." for n bytes of PNG data. */

@@ -7,6 +7,7 @@
 #include <string.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/qc.h"
 #include "chart.h"
 #include "../io/nii.h"
@@ -41,11 +42,6 @@ typedef struct page {
 	int uid;                /* unique ids within the page */
 } page;
 
-static int cmp_str(const void *a, const void *b)
-{
-	return strcmp(*(char *const *)a, *(char *const *)b);
-}
-
 /* Sorted names in dir starting with prefix and ending with suffix (the middle part returned). */
 static char **list_dir(const char *dir, const char *prefix, const char *suffix, size_t *n)
 {
@@ -70,7 +66,7 @@ static char **list_dir(const char *dir, const char *prefix, const char *suffix, 
 	}
 	closedir(d);
 	if (*n)
-		qsort(v, *n, sizeof *v, cmp_str);
+		qsort(v, *n, sizeof *v, strv_cmp);
 	return v;
 }
 

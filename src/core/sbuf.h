@@ -1,0 +1,27 @@
+/* sbuf.h - the one growing text buffer (HTML report pages, slurm scripts, captured command output). */
+#ifndef SR_SBUF_H
+#define SR_SBUF_H
+
+#include <stddef.h>
+
+/*
+ * p[0..n) is the text, always NUL-terminated once anything was added or
+ * sb_init ran; cap is the allocated size. A zeroed sbuf ({0}) is a valid empty
+ * buffer (p NULL until the first append). The functions keep the short sb_
+ * prefix the report's hundreds of calls use. Not thread safe: one buffer per thread.
+ */
+typedef struct sbuf {
+	char *p;
+	size_t n, cap;
+} sbuf;
+
+/* An empty buffer with room for 4 KiB. */
+void sb_init(sbuf *b);
+/* Frees the text and zeroes b (a zeroed b does nothing). */
+void sb_release(sbuf *b);
+/* Makes room for more bytes after n plus the NUL. */
+void sb_room(sbuf *b, size_t more);
+void sb_puts(sbuf *b, const char *s);
+void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+
+#endif
