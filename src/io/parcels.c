@@ -7,14 +7,8 @@
 #include <string.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "table.h"
-
-static int cmp_i32(const void *a, const void *b)
-{
-	int32_t x = *(const int32_t *)a, y = *(const int32_t *)b;
-
-	return (x > y) - (x < y);
-}
 
 void parcels_names_release(parcels_names *t)
 {
@@ -144,7 +138,7 @@ void parcels_release(parcels_set *p)
 
 int parcels_find(const parcels_set *p, int32_t label)
 {
-	const int32_t *hit = p->n ? bsearch(&label, p->index, (size_t)p->n, sizeof *p->index, cmp_i32) : NULL;
+	const int32_t *hit = p->n ? bsearch(&label, p->index, (size_t)p->n, sizeof *p->index, strv_cmp_i32) : NULL;
 
 	return hit ? (int)(hit - p->index) : -1;
 }
@@ -199,7 +193,7 @@ static sr_status read_image(const char *image, parcels_set *p, sr_err *e)
 		p->index[p->n++] = l;
 	}
 	if (p->n)   /* qsort wants a real array even for no elements */
-		qsort(p->index, (size_t)p->n, sizeof *p->index, cmp_i32);
+		qsort(p->index, (size_t)p->n, sizeof *p->index, strv_cmp_i32);
 	p->count = xcalloc(p->n ? (size_t)p->n : 1, sizeof *p->count);
 	for (v = 0; v < p->nvox; v++)
 		if (p->labels[v])
