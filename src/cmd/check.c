@@ -411,13 +411,9 @@ static void check_localizer(checker *c, size_t l, char **subs, size_t nsub, cons
 	study v;
 	studycheck_task *seen = xcalloc(nsub ? nsub : 1, sizeof *seen);
 	char section[512];
-	size_t s, k;
-	int done = strcmp(whole->locs[l].task, whole->loc_task) == 0;
+	size_t s;
+	int done = !studycheck_localizer_task_new(whole, l);
 
-	for (k = 0; k < whole->nmeasures && !done; k++)
-		done = strcmp(whole->measures[k].task, whole->locs[l].task) == 0;
-	for (k = 1; k < l && !done; k++)
-		done = strcmp(whole->locs[k].task, whole->locs[l].task) == 0;
 	study_use_localizer(whole, l, &v);
 	c->st = &v;
 	for (s = 0; s < nsub; s++) {

@@ -594,3 +594,71 @@ int studycheck_effects(const study *st, char **subs, size_t nsub, study_problems
 			return 1;
 	return (int)(probs->n - before);
 }
+
+/* ---- before analyze fits a subject ---- */
+
+int studycheck_localizer_task_new(const study *st, size_t l)
+{
+	size_t k;
+	int done = strcmp(st->locs[l].task, st->loc_task) == 0;
+
+	for (k = 0; k < st->nmeasures && !done; k++)
+		done = strcmp(st->measures[k].task, st->locs[l].task) == 0;
+	for (k = 1; k < l && !done; k++)
+		done = strcmp(st->locs[k].task, st->locs[l].task) == 0;
+	return !done;
+}
+
+/* The runs of each further localizer's own task, as check validates them (a grid of their own). */
+static void further_localizers(studycheck_ctx *c, const char *label)
+{
+	const study *whole = c->st;
+
+	for (size_t l = 1; l < whole->nlocs; l++) {
+		studycheck_task ts;
+		studycheck_grid ref = { .have = 0 };
+		study v;
+
+		if (!studycheck_localizer_task_new(whole, l))
+			continue;
+		study_use_localizer(whole, l, &v);
+		c->st = &v;
+		if (!studycheck_task_find(c, label, v.loc_task, &ts)) {
+			if (ts.nruns == 0)
+				sc_problem(c, "%s: sub-%s has no runs of task %s (localizer %s)",
+					   v.derivatives ? v.derivatives : v.bids, label, v.loc_task, study_loc_label(whole, l));
+			studycheck_task_runs(c, &ts, &ref);
+		}
+		studycheck_task_release(&ts);
+		c->st = whole;
+		study_view_release(&v);
+	}
+}
+
+sr_status studycheck_analyzable(const study *st, const char *label, sr_err *e)
+{
+	study_problems probs = { 0 };
+	studycheck_ctx c = { .st = st, .probs = &probs, .headers_only = 1 };
+	size_t t, ntasks = 1 + st->nmeasures;
+	studycheck_task *tasks = xcalloc(ntasks, sizeof *tasks);
+	studycheck_grid ref = { .have = 0 };
+	sr_status rc = SR_OK;
+
+	studycheck_subject(&c, label, tasks, &ref);
+	if (study_mask_per_subject(st)) {
+		char **paths;
+		size_t n = 0, count = 0;
+		int read;
+
+		studycheck_subject_mask(&c, label, tasks, ntasks, &ref, &paths, &n, &count, &read);
+		bids_strings_free(paths, n);
+	}
+	further_localizers(&c, label);
+	if (probs.n)
+		rc = sr_fail(e, SR_ESTUDY, "%s", probs.msg[0]);
+	for (t = 0; t < ntasks; t++)
+		studycheck_task_release(&tasks[t]);
+	free(tasks);
+	study_problems_release(&probs);
+	return rc;
+}

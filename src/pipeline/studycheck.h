@@ -129,4 +129,17 @@ void studycheck_names(studycheck_ctx *c, const char *section, const char *key, c
 		      size_t nfx, char *const *known, size_t nknown, char **subs, size_t nsub,
 		      const studycheck_task *seen, size_t stride, study_problems *reported);
 
+/* 1 when localizer l (>= 1) has a task of its own: not the study's localizer or measured tasks, nor an earlier localizer's. */
+int studycheck_localizer_task_new(const study *st, size_t l);
+
+/*
+ * What analyze validates of subject label before fitting it: check's
+ * validation of its runs (studycheck_subject, image headers only: damaged
+ * data shows when the fit reads it), its own mask when the study's depends
+ * on the subject, and the runs of further localizers' own tasks. SR_OK, or
+ * SR_ESTUDY with the first problem check would list as e's message
+ * (warnings are dropped: the fit gives its own).
+ */
+sr_status studycheck_analyzable(const study *st, const char *label, sr_err *e);
+
 #endif
