@@ -1,21 +1,15 @@
 /* check.c - the `check` command: validates a study and its data without fitting, listing every problem. */
-#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
-#include <strings.h>
 
 #include "../core/mem.h"
-#include "../core/resample.h"
 #include "../io/bids.h"
-#include "../io/events.h"
 #include "../io/nii.h"
 #include "../io/parcels.h"
 #include "../io/study.h"
-#include "../io/table.h"
 #include "cmd.h"
 #include "cmdline.h"
-#include "../pipeline/runfit.h"
 #include "../pipeline/studycheck.h"
 #include "../pipeline/subject.h"
 
@@ -91,13 +85,6 @@ typedef struct checker {
 	studycheck_ctx sc;          /* the shared validation of runs; its warnings join warns in order */
 	study_problems sc_warns;
 } checker;
-
-static void on_warn(void *ctx, const char *msg)
-{
-	checker *c = ctx;
-
-	sl_push(&c->warns, msg);
-}
 
 static void problem(checker *c, const char *msg)
 {
@@ -278,133 +265,51 @@ static void check_task_names(checker *c, const char *section, size_t t, char **s
 
 /* ---- parcels and mask ---- */
 
-/* A distinct data grid and the first run found on it. */
-typedef struct data_grid {
-	nii_grid g;
-	char path[1024];
-} data_grid;
-
-static void on_problem(void *ctx, const char *msg)
-{
-	problem(ctx, msg);
-}
-
-static void check_parcels(checker *c, const data_grid *grids, size_t ngrids)
+/* The parcels (studycheck_parcels_validate) and their listing: voxels per parcel, on the data grid when resampled. */
+static void check_parcels(checker *c, const studycheck_grid *grids, size_t ngrids)
 {
 	const study *st = c->st;
-	parcels_set ps;
-	sr_err e;
-	char why[1024], msg[2048];
-	int32_t *on_data = NULL;
-	size_t nv = 0, g;
+	studycheck_parcels f;
+	const parcels_set *ps = &f.ps;
 	int i;
 
-	/* read the way a fit reads them, but listing every bad row */
-	sr_err_init(&e, on_warn, c);
-	if (parcels_load_listing(st->parcels, st->parcel_names, on_problem, c, &ps, &e) != SR_OK) {
-		problem(c, e.msg);
+	if (studycheck_parcels_validate(sc(c), grids, ngrids, &f)) {
+		sc_done(c);
 		return;
 	}
-	printf("parcels: %s (%lld x %lld x %lld), %d parcel%s\n", st->parcels, (long long)ps.grid.nx,
-	       (long long)ps.grid.ny, (long long)ps.grid.nz, ps.n, ps.n == 1 ? "" : "s");
-	if (parcels_template_on_raw(st, &ps.grid, st->parcels)) {
-		snprintf(msg, sizeof msg, "%s: " PARCELS_RAW_NOTE, st->parcels);
-		sl_push(&c->warns, msg);
-	}
-	for (g = 0; g < ngrids; g++) {
-		const nii_grid *data = &grids[g].g;
-
-		if (nii_same_grid(data, &ps.grid, 1e-3, why, sizeof why))
-			continue;
-		if (parcels_template_on_raw(st, &ps.grid, st->parcels)) {
-			snprintf(msg, sizeof msg, "%s: the parcels are not on the data grid of %s (%s)",
-				 st->parcels, grids[g].path, why);
-			problem(c, msg);
-		} else if (!st->resample_parcels) {
-			snprintf(msg, sizeof msg,
-				 "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
-				 st->parcels, grids[g].path, why);
-			problem(c, msg);
-		} else if (!on_data) {
-			/* voxel counts are shown on the first grid that needs resampling */
-			int64_t sn[3] = { ps.grid.nx, ps.grid.ny, ps.grid.nz };
-			int64_t tn[3] = { data->nx, data->ny, data->nz };
-
-			nv = nii_nvox(data);
-			on_data = xmalloc_array(nv ? nv : 1, sizeof *on_data);
-			if (resample_nearest(ps.labels, sn, ps.grid.affine, on_data, tn, data->affine)) {
-				snprintf(msg, sizeof msg, "%s: the parcel image's affine is singular", st->parcels);
-				problem(c, msg);
-				free(on_data);
-				on_data = NULL;
-				break;
-			}
-			printf("  resampled (nearest neighbour) onto the data grid of %s\n",
-			       base(grids[g].path));
-		}
-	}
-	printf("  %6s  %-24s %8s%s\n", "index", "name", "voxels", on_data ? "  on data grid" : "");
-	for (i = 0; i < ps.n; i++) {
-		size_t v, count2 = 0;
-
-		for (v = 0; on_data && v < nv; v++)
-			count2 += on_data[v] == ps.index[i];
-		printf("  %6d  %-24s %8zu", (int)ps.index[i], ps.name[i], ps.count[i]);
-		if (on_data)
-			printf("  %12zu", count2);
+	sc_done(c);
+	printf("parcels: %s (%lld x %lld x %lld), %d parcel%s\n", st->parcels, (long long)ps->grid.nx,
+	       (long long)ps->grid.ny, (long long)ps->grid.nz, ps->n, ps->n == 1 ? "" : "s");
+	if (f.resampled_onto)
+		printf("  resampled (nearest neighbour) onto the data grid of %s\n", base(f.resampled_onto));
+	printf("  %6s  %-24s %8s%s\n", "index", "name", "voxels", f.on_data ? "  on data grid" : "");
+	for (i = 0; i < ps->n; i++) {
+		printf("  %6d  %-24s %8zu", (int)ps->index[i], ps->name[i], ps->count[i]);
+		if (f.on_data)
+			printf("  %12zu", f.on_data[i]);
 		printf("\n");
-		if (on_data && !count2) {
-			snprintf(msg, sizeof msg, "%s: parcel %s has no voxels once resampled onto the data grid",
-				 st->parcels, ps.name[i]);
-			sl_push(&c->warns, msg);
-		}
 	}
-	free(on_data);
-	parcels_release(&ps);
+	studycheck_parcels_release(&f);
 }
 
-static void check_mask(checker *c, const data_grid *grids, size_t ngrids)
+/* The study's one mask (studycheck_mask_validate) and its voxel count. */
+static void check_mask(checker *c, const studycheck_grid *grids, size_t ngrids)
 {
-	const study *st = c->st;
-	nii_info info;
-	double *d;
-	sr_err e;
-	size_t v, n, g, count = 0;
-	char why[1024], msg[2048];
+	size_t count;
 
-	if (!st->mask)
-		return;
-	sr_err_init(&e, on_warn, c);
-	if (nii_read_3d(st->mask, &info, &d, &e) != SR_OK) {
-		problem(c, e.msg);
-		return;
-	}
-	n = nii_nvox(&info.grid);
-	for (v = 0; v < n; v++)
-		count += isfinite(d[v]) && d[v] != 0;
-	free(d);
-	printf("mask: %s: %zu voxels in the mask\n", st->mask, count);
-	if (count == 0) {
-		snprintf(msg, sizeof msg, "%s: the mask is empty", st->mask);
-		problem(c, msg);
-	}
-	for (g = 0; g < ngrids; g++) {
-		if (!nii_same_grid(&grids[g].g, &info.grid, 1e-3, why, sizeof why)) {
-			snprintf(msg, sizeof msg, "%s: the mask is not on the data grid of %s: %s",
-				 st->mask, grids[g].path, why);
-			problem(c, msg);
-		}
-	}
+	if (studycheck_mask_validate(sc(c), grids, ngrids, &count))
+		printf("mask: %s: %zu voxels in the mask\n", c->st->mask, count);
+	sc_done(c);
 }
 
-static void check_study_parcels(checker *c, char **subs, size_t nsub, const data_grid *grids, size_t ngrids);
+static void check_study_parcels(checker *c, char **subs, size_t nsub, const studycheck_grid *grids, size_t ngrids);
 
 /*
  * A localizer after the first (several localizers): its task's runs (checked
  * here when no earlier localizer or measure has that task), its splits, the
  * conditions its contrast and effects name, and its parcels.
  */
-static void check_localizer(checker *c, size_t l, char **subs, size_t nsub, const data_grid *grids,
+static void check_localizer(checker *c, size_t l, char **subs, size_t nsub, const studycheck_grid *grids,
 			    size_t ngrids)
 {
 	const study *whole = c->st;
@@ -460,7 +365,7 @@ static void check_localizer(checker *c, size_t l, char **subs, size_t nsub, cons
 /* ---- the command ---- */
 
 /* The parcels: the study's, or each subject's own (made without its data). */
-static void check_study_parcels(checker *c, char **subs, size_t nsub, const data_grid *grids, size_t ngrids)
+static void check_study_parcels(checker *c, char **subs, size_t nsub, const studycheck_grid *grids, size_t ngrids)
 {
 	const study *whole = c->st;
 
@@ -535,7 +440,7 @@ static int run_check(checker *c, char **subs, size_t nsub)
 	size_t ntasks = 1 + st->nmeasures, s, t, g, ngrids = 0;
 	studycheck_task *seen = xcalloc(nsub > 0 ? nsub * ntasks : 1, sizeof *seen);
 	studycheck_grid *refs = xcalloc(nsub ? nsub : 1, sizeof *refs);   /* each subject's data grid */
-	data_grid *grids = xcalloc(nsub ? nsub : 1, sizeof *grids);
+	studycheck_grid *grids = xcalloc(nsub ? nsub : 1, sizeof *grids);
 	char why[8];
 
 	for (s = 0; s < nsub; s++) {
@@ -545,11 +450,8 @@ static int run_check(checker *c, char **subs, size_t nsub)
 		for (g = 0; g < ngrids; g++)
 			if (nii_same_grid(&grids[g].g, &refs[s].g, 1e-3, why, sizeof why))
 				break;
-		if (g == ngrids) {
-			grids[ngrids].g = refs[s].g;
-			snprintf(grids[ngrids].path, sizeof grids[ngrids].path, "%s", refs[s].path);
-			ngrids++;
-		}
+		if (g == ngrids)
+			grids[ngrids++] = refs[s];   /* a distinct data grid and the first run found on it */
 	}
 	if (st->nlocs > 1)
 		printf("localizer %s splits (%s); time courses: bins of one TR from 0 to %g s after onset\n",

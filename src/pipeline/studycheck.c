@@ -1,6 +1,7 @@
 /* studycheck.c - what check and analyze both validate before any fit, so that the two cannot drift. */
 #include "studycheck.h"
 
+#include <math.h>
 #include <stdarg.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -8,6 +9,7 @@
 #include <strings.h>
 
 #include "../core/mem.h"
+#include "../core/resample.h"
 #include "../io/bids.h"
 #include "../io/events.h"
 #include "../io/table.h"
@@ -609,26 +611,155 @@ int studycheck_localizer_task_new(const study *st, size_t l)
 	return !done;
 }
 
-/* The runs of each further localizer's own task, as check validates them (a grid of their own). */
-static void further_localizers(studycheck_ctx *c, const char *label)
+/* ---- parcels ---- */
+
+static void on_parcel_problem(void *ctx, const char *msg)
+{
+	sc_problem(ctx, "%s", msg);
+}
+
+/* The parcels resampled onto data grid g: voxel counts per parcel in f->on_data (0 on a singular affine). */
+static int resample_counts(studycheck_ctx *c, studycheck_parcels *f, const studycheck_grid *g)
+{
+	const parcels_set *ps = &f->ps;
+	int64_t sn[3] = { ps->grid.nx, ps->grid.ny, ps->grid.nz };
+	int64_t tn[3] = { g->g.nx, g->g.ny, g->g.nz };
+	size_t nv = nii_nvox(&g->g), v;
+	int32_t *lab = xmalloc_array(nv ? nv : 1, sizeof *lab);
+	int i;
+
+	if (resample_nearest(ps->labels, sn, ps->grid.affine, lab, tn, g->g.affine)) {
+		sc_problem(c, "%s: the parcel image's affine is singular", c->st->parcels);
+		free(lab);
+		return 0;
+	}
+	f->on_data = xcalloc((size_t)ps->n + 1, sizeof *f->on_data);
+	for (v = 0; v < nv; v++) {
+		i = lab[v] ? parcels_find(ps, lab[v]) : -1;
+		if (i >= 0)
+			f->on_data[i]++;
+	}
+	free(lab);
+	f->resampled_onto = g->path;
+	for (i = 0; i < ps->n; i++)
+		if (!f->on_data[i])
+			sc_warning(c, "%s: parcel %s has no voxels once resampled onto the data grid", c->st->parcels,
+				   ps->name[i]);
+	return 1;
+}
+
+int studycheck_parcels_validate(studycheck_ctx *c, const studycheck_grid *grids, size_t ngrids, studycheck_parcels *f)
+{
+	const study *st = c->st;
+	sr_err e;
+	char why[1024];
+	size_t g;
+	int raw;
+
+	memset(f, 0, sizeof *f);
+	/* read the way a fit reads them, but listing every bad row */
+	sr_err_init(&e, on_warn, c);
+	if (parcels_load_listing(st->parcels, st->parcel_names, on_parcel_problem, c, &f->ps, &e) != SR_OK) {
+		sc_problem(c, "%s", e.msg);
+		return 1;
+	}
+	f->loaded = 1;
+	raw = parcels_template_on_raw(st, &f->ps.grid, st->parcels);
+	if (raw)
+		sc_warning(c, "%s: " PARCELS_RAW_NOTE, st->parcels);
+	for (g = 0; g < ngrids; g++) {
+		if (nii_same_grid(&grids[g].g, &f->ps.grid, 1e-3, why, sizeof why))
+			continue;
+		if (raw) {
+			sc_problem(c, "%s: the parcels are not on the data grid of %s (%s)", st->parcels, grids[g].path,
+				   why);
+		} else if (!st->resample_parcels) {
+			sc_problem(c, "%s: the parcels are not on the data grid of %s (%s); set 'resample = nearest' in [parcels] to resample them",
+				   st->parcels, grids[g].path, why);
+		} else if (!f->resampled_onto) {
+			/* voxel counts are shown on the first grid that needs resampling */
+			if (!resample_counts(c, f, &grids[g]))
+				break;
+		}
+	}
+	return 0;
+}
+
+void studycheck_parcels_release(studycheck_parcels *f)
+{
+	if (f->loaded)
+		parcels_release(&f->ps);
+	free(f->on_data);
+	memset(f, 0, sizeof *f);
+}
+
+/* ---- the study's one mask ---- */
+
+int studycheck_mask_validate(studycheck_ctx *c, const studycheck_grid *grids, size_t ngrids, size_t *count)
+{
+	const study *st = c->st;
+	nii_info info;
+	double *d;
+	sr_err e;
+	size_t v, n, g;
+	char why[1024];
+
+	*count = 0;
+	if (!st->mask)
+		return 0;
+	sr_err_init(&e, on_warn, c);
+	if (nii_read_3d(st->mask, &info, &d, &e) != SR_OK) {
+		sc_problem(c, "%s", e.msg);
+		return 0;
+	}
+	n = nii_nvox(&info.grid);
+	for (v = 0; v < n; v++)
+		*count += isfinite(d[v]) && d[v] != 0;
+	free(d);
+	if (*count == 0)
+		sc_problem(c, "%s: the mask is empty", st->mask);
+	for (g = 0; g < ngrids; g++)
+		if (!nii_same_grid(&grids[g].g, &info.grid, 1e-3, why, sizeof why))
+			sc_problem(c, "%s: the mask is not on the data grid of %s: %s", st->mask, grids[g].path, why);
+	return 1;
+}
+
+/* The parcels c->st names for subject label (its own when the paths hold {subject}) against its grid. */
+static void subject_parcels(studycheck_ctx *c, const char *label, const studycheck_grid *ref)
+{
+	const study *st = c->st;
+	study one = *st;
+	studycheck_parcels f;
+
+	one.parcels = study_subject_path(st->parcels, label);
+	one.parcel_names = study_subject_path(st->parcel_names, label);
+	c->st = &one;
+	studycheck_parcels_validate(c, ref, ref->have ? 1 : 0, &f);
+	studycheck_parcels_release(&f);
+	c->st = st;
+	free(one.parcels);
+	free(one.parcel_names);
+}
+
+/* Each further localizer: the runs of its own task (a grid of their own, as check has it), its parcels. */
+static void further_localizers(studycheck_ctx *c, const char *label, const studycheck_grid *subject_grid)
 {
 	const study *whole = c->st;
 
 	for (size_t l = 1; l < whole->nlocs; l++) {
-		studycheck_task ts;
+		studycheck_task ts = { 0 };
 		studycheck_grid ref = { .have = 0 };
 		study v;
 
-		if (!studycheck_localizer_task_new(whole, l))
-			continue;
 		study_use_localizer(whole, l, &v);
 		c->st = &v;
-		if (!studycheck_task_find(c, label, v.loc_task, &ts)) {
+		if (studycheck_localizer_task_new(whole, l) && !studycheck_task_find(c, label, v.loc_task, &ts)) {
 			if (ts.nruns == 0)
 				sc_problem(c, "%s: sub-%s has no runs of task %s (localizer %s)",
 					   v.derivatives ? v.derivatives : v.bids, label, v.loc_task, study_loc_label(whole, l));
 			studycheck_task_runs(c, &ts, &ref);
 		}
+		subject_parcels(c, label, subject_grid);
 		studycheck_task_release(&ts);
 		c->st = whole;
 		study_view_release(&v);
@@ -645,6 +776,8 @@ sr_status studycheck_analyzable(const study *st, const char *label, sr_err *e)
 	sr_status rc = SR_OK;
 
 	studycheck_subject(&c, label, tasks, &ref);
+	subject_parcels(&c, label, &ref);
+	further_localizers(&c, label, &ref);
 	if (study_mask_per_subject(st)) {
 		char **paths;
 		size_t n = 0, count = 0;
@@ -652,8 +785,11 @@ sr_status studycheck_analyzable(const study *st, const char *label, sr_err *e)
 
 		studycheck_subject_mask(&c, label, tasks, ntasks, &ref, &paths, &n, &count, &read);
 		bids_strings_free(paths, n);
+	} else {
+		size_t count;
+
+		studycheck_mask_validate(&c, &ref, ref.have ? 1 : 0, &count);
 	}
-	further_localizers(&c, label);
 	if (probs.n)
 		rc = sr_fail(e, SR_ESTUDY, "%s", probs.msg[0]);
 	for (t = 0; t < ntasks; t++)
@@ -662,3 +798,4 @@ sr_status studycheck_analyzable(const study *st, const char *label, sr_err *e)
 	study_problems_release(&probs);
 	return rc;
 }
+

@@ -6,6 +6,7 @@
 
 #include "../io/bids.h"
 #include "../io/nii.h"
+#include "../io/parcels.h"
 #include "../io/study.h"
 
 /*
@@ -129,14 +130,41 @@ void studycheck_names(studycheck_ctx *c, const char *section, const char *key, c
 		      size_t nfx, char *const *known, size_t nknown, char **subs, size_t nsub,
 		      const studycheck_task *seen, size_t stride, study_problems *reported);
 
+/* The parcels as check lists them. */
+typedef struct studycheck_parcels {
+	int loaded;                /* ps holds the image (and names table) */
+	parcels_set ps;
+	const char *resampled_onto; /* the run whose grid the counts below are on (the first grid needing resampling), or NULL */
+	size_t *on_data;           /* ps.n voxel counts once resampled there */
+} studycheck_parcels;
+
+/*
+ * The study's parcels (st->parcels, st->parcel_names: a subject's own when
+ * the caller puts them there) read listing every bad row (parcels.h), and
+ * set against each of the ngrids data grids: on it, or resampled when
+ * [parcels] resample = nearest says so (never for template parcels on raw
+ * runs). Returns 1 when the image could not be read. Release f.
+ */
+int studycheck_parcels_validate(studycheck_ctx *c, const studycheck_grid *grids, size_t ngrids, studycheck_parcels *f);
+void studycheck_parcels_release(studycheck_parcels *f);
+
+/*
+ * The study's mask when it is one for all subjects (st->mask set and not
+ * per subject): read, not empty, on each of the ngrids data grids. Returns
+ * 1 when it was read (*count: its voxels), 0 when there is none or it
+ * cannot be read (a problem then).
+ */
+int studycheck_mask_validate(studycheck_ctx *c, const studycheck_grid *grids, size_t ngrids, size_t *count);
+
 /* 1 when localizer l (>= 1) has a task of its own: not the study's localizer or measured tasks, nor an earlier localizer's. */
 int studycheck_localizer_task_new(const study *st, size_t l);
 
 /*
- * What analyze validates of subject label before fitting it: check's
- * validation of its runs (studycheck_subject, image headers only: damaged
- * data shows when the fit reads it), its own mask when the study's depends
- * on the subject, and the runs of further localizers' own tasks. SR_OK, or
+ * What analyze validates of subject label before fitting it, in check's
+ * order: its runs (studycheck_subject, image headers only: damaged data
+ * shows when the fit reads it), the parcels against its grid, each further
+ * localizer's own runs and parcels, the mask (its own, or the study's
+ * against its grid). SR_OK, or
  * SR_ESTUDY with the first problem check would list as e's message
  * (warnings are dropped: the fit gives its own).
  */
