@@ -561,6 +561,10 @@ static int task_names(studycheck_ctx *c, size_t t, char **subs, size_t nsub)
 	if (failed) {
 		/* nothing more: the runs of this task cannot be known */
 	} else if (nruns == 0) {
+		/* what check says of each subject first, then what it means for the study */
+		for (s = 0; s < nsub; s++)
+			sc_problem(c, "%s: sub-%s has no runs of task %s (looked for sub-%s/[ses-*/]func/sub-%s_*task-%s*_bold.nii[.gz])",
+				   st->derivatives ? st->derivatives : st->bids, subs[s], task, subs[s], subs[s], task);
 		study_problems_add(c->probs, st->path, 0,
 				   "no subject has runs of task '%s' under %s (files named sub-<label>_task-%s_..._bold.nii[.gz])",
 				   task, st->bids, task);
