@@ -601,7 +601,7 @@ int studycheck_effects(const study *st, char **subs, size_t nsub, study_problems
 	return (int)(probs->n - before);
 }
 
-/* ---- before analyze fits a subject ---- */
+/* ---- several localizers ---- */
 
 int studycheck_localizer_task_new(const study *st, size_t l)
 {
@@ -727,6 +727,8 @@ int studycheck_mask_validate(studycheck_ctx *c, const studycheck_grid *grids, si
 			sc_problem(c, "%s: the mask is not on the data grid of %s: %s", st->mask, grids[g].path, why);
 	return 1;
 }
+
+/* ---- before analyze fits a subject ---- */
 
 /* The parcels c->st names for subject label (its own when the paths hold {subject}) against its grid. */
 static void subject_parcels(studycheck_ctx *c, const char *label, const studycheck_grid *ref)
