@@ -91,7 +91,9 @@ static void run_subject(size_t i, int worker, void *arg)
 	int skipped;
 
 	sr_err_init(&e, progress_warn, w->prog);
-	if (subunit_run(w->ctx, w->labels[i], w->force, w->wait, &w->res[i], &skipped, &e)) {
+	/* check's validation first: a subject check refuses fails here, the way check says it */
+	if (studycheck_analyzable(w->ctx->st, w->labels[i], &e) ||
+	    subunit_run(w->ctx, w->labels[i], w->force, w->wait, &w->res[i], &skipped, &e)) {
 		progress_clear(w->prog);
 		pthread_mutex_lock(&w->prog->lock);
 		fprintf(stderr, "splitroi analyze: sub-%s failed: %s\n", w->labels[i], e.msg);

@@ -15,7 +15,7 @@ expect_err "did you mean '--jobs'" "the misspelt option gets a suggestion"
 sed 's/contrast = melody - scrambled/contrast = melody - scrambld/' study.ini >bad.ini
 run "$SPLITROI" analyze bad.ini --quiet
 expect_status 1 "a contrast naming an unknown condition fails"
-expect_err "'scrambld'.*known conditions: melody, scrambled" "the error lists the known conditions"
+expect_err "bad.ini: line [0-9]*: contrast .*'scrambld'.*(known: melody, scrambled)" "the error names the study file's line and lists the known conditions (check's message)"
 [ ! -e results ] && ok "nothing is written for a bad study" || notok "a bad study left results/"
 
 sed 's/task = memory/task = memry/' study.ini >bad.ini
