@@ -1,5 +1,4 @@
 /* fit.c - `splitroi fit`: first-level GLM maps for BOLD runs given on the command line. */
-#include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -7,21 +6,12 @@
 
 #include "../core/expr.h"
 #include "../core/mem.h"
-#include "../core/strv.h"
-#include "../core/pool.h"
 #include "../io/bids.h"
-#include "../io/bidsname.h"
-#include "../io/afile.h"
-#include "../io/designcsv.h"
-#include "../io/events.h"
-#include "../io/jdoc.h"
 #include "../io/nii.h"
-#include <nifti1.h>
 #include "../io/study.h"
-#include "../version.h"
 #include "cmd.h"
 #include "cmdline.h"
-#include "../pipeline/runfit.h"
+#include "../pipeline/fitjob.h"
 
 enum { O_OUT, O_EVENTS, O_CONDCOL, O_EFFECT, O_TR, O_CONF, O_CONFCOLS, O_MODEL, O_DRIFT, O_SLICE,
        O_SMOOTH, O_MASK, O_THREADS, O_QUIET, O_STUDY, O_SUBJECT, O_TASK,
@@ -105,25 +95,6 @@ static void free_list(char **v, int n)
 	free(v);
 }
 
-/* The run's name without the _bold.nii[.gz] (or .nii[.gz]) ending and folders. */
-static char *run_base(const char *bold)
-{
-	const char *slash = strrchr(bold, '/');
-	char *b = xstrdup(slash ? slash + 1 : bold);
-	const char *ends[] = { "_bold.nii.gz", "_bold.nii", ".nii.gz", ".nii" };
-	size_t i, n = strlen(b);
-
-	for (i = 0; i < sizeof ends / sizeof ends[0]; i++) {
-		size_t m = strlen(ends[i]);
-
-		if (n > m && strcmp(b + n - m, ends[i]) == 0) {
-			b[n - m] = '\0';
-			break;
-		}
-	}
-	return b;
-}
-
 /* path with its _bold.nii[.gz] ending replaced by suffix (NULL when it has no such ending). */
 static char *beside(const char *bold, const char *suffix)
 {
@@ -142,266 +113,6 @@ static char *beside(const char *bold, const char *suffix)
 		}
 	}
 	return NULL;
-}
-
-/* An effect's name usable in a file name. */
-/*
- * The map's path: the run's entities (kv, n; bids 0 when its name is not a
- * BIDS name, then base is used as it is) with desc-<effect> and the suffix
- * (effect or tstat).
- */
-static char *map_path(const char *dir, const bidsname_kv *kv, size_t n, int bids, const char *base,
-		      const char *effval, const char *kind)
-{
-	bidsname_kv all[40];
-	char name[4096];
-	char *path;
-	size_t i, m = 0;
-
-	for (i = 0; bids && i < n && m < 39; i++)
-		if (strcmp(kv[i].key, "desc") != 0)
-			all[m++] = kv[i];
-	snprintf(all[m].key, sizeof all[m].key, "desc");
-	snprintf(all[m].value, sizeof all[m].value, "%s", effval);
-	m++;
-	if (!bids || bidsname_build(all, m, kind, ".nii.gz", name, sizeof name))
-		snprintf(name, sizeof name, "%s_desc-%s_%s.nii.gz", base, effval, kind);
-	path = xmalloc(strlen(dir) + strlen(name) + 2);
-	sprintf(path, "%s/%s", dir, name);
-	return path;
-}
-
-/* The pairs every run shares (the run entity left out): the combined maps' entities. */
-static size_t common_entities(bidsname_kv (*kv)[40], const size_t *n, int nrun, bidsname_kv *out)
-{
-	size_t i, j, m = 0;
-	int r;
-
-	for (i = 0; i < n[0]; i++) {
-		int all = strcmp(kv[0][i].key, "run") != 0;
-
-		for (r = 1; all && r < nrun; r++) {
-			for (j = 0; j < n[r]; j++)
-				if (strcmp(kv[r][j].key, kv[0][i].key) == 0 && strcmp(kv[r][j].value, kv[0][i].value) == 0)
-					break;
-			all = j < n[r];
-		}
-		if (all)
-			out[m++] = kv[0][i];
-	}
-	return m;
-}
-
-/* Distinct conditions over all runs' events, sorted by bytes (METHODS.md section 2). */
-static int gather_conditions(char **events, int nrun, const char *column, char ***out, int *nout)
-{
-	char **c = NULL;
-	int n = 0, r, i;
-	size_t j;
-
-	for (r = 0; r < nrun; r++) {
-		event_list el;
-		sr_err e;
-
-		sr_err_init(&e, NULL, NULL);
-		if (events_read(events[r], column, &el, &e) != SR_OK) {
-			cmdline_error("fit", "%s", e.msg);
-			free_list(c, n);
-			return 1;
-		}
-		for (j = 0; j < el.n; j++) {
-			for (i = 0; i < n; i++)
-				if (strcmp(c[i], el.ev[j].condition) == 0)
-					break;
-			if (i == n) {
-				c = xrealloc(c, (size_t)(n + 1) * sizeof *c);
-				c[n++] = xstrdup(el.ev[j].condition);
-			}
-		}
-		events_release(&el);
-	}
-	if (n > 1)
-		qsort(c, (size_t)n, sizeof *c, strv_cmp);
-	*out = c;
-	*nout = n;
-	return 0;
-}
-
-/* One map to write: run r (or -1 for the fixed-effects combination), effect c, effect or t. */
-typedef struct map_job {
-	int run, c, is_t;
-	char *path;
-	sr_err err;
-	int failed;
-} map_job;
-
-/* One worker's scratch: nvox doubles twice and nvox floats. */
-typedef struct map_ws {
-	double *x, *tmp;
-	float *f;
-} map_ws;
-
-typedef struct map_ctx {
-	map_job *jobs;
-	int njobs, nrun;
-	const runfit_result *res;
-	size_t nvox;
-	char *const *labels;   /* the effects' names */
-	map_ws *ws;            /* one per pool worker */
-} map_ctx;
-
-/* The map of one job into x (nvox doubles); tmp is scratch for the combination. */
-static void map_values(const map_ctx *m, const map_job *j, double *x, double *tmp)
-{
-	size_t v, nvox = m->nvox;
-	int r;
-
-	if (j->run >= 0) {
-		const glm_out *o = &m->res[j->run].out;
-		const double *ef = o->effect + (size_t)j->c * nvox, *vr = o->var + (size_t)j->c * nvox;
-
-		for (v = 0; v < nvox; v++)
-			x[v] = j->is_t ? ef[v] / sqrt(vr[v]) : ef[v];
-		return;
-	}
-	{
-		const double **ef = xcalloc((size_t)m->nrun, sizeof *ef), **vr = xcalloc((size_t)m->nrun, sizeof *vr);
-		int *df = xcalloc((size_t)m->nrun, sizeof *df);
-
-		for (r = 0; r < m->nrun; r++) {
-			ef[r] = m->res[r].out.effect + (size_t)j->c * nvox;
-			vr[r] = m->res[r].out.var + (size_t)j->c * nvox;
-			df[r] = m->res[r].out.df;
-		}
-		/* METHODS.md section 5 */
-		glm_ffx(nvox, m->nrun, ef, vr, df, j->is_t ? tmp : x, NULL, j->is_t ? x : NULL, NULL);
-		free(ef);
-		free(vr);
-		free(df);
-	}
-}
-
-/* The df of job j's t map: its run's, or the sum over the runs where the effect is estimable. */
-static double job_df(const map_ctx *m, const map_job *j)
-{
-	double df = 0;
-	int r;
-
-	if (j->run >= 0)
-		return m->res[j->run].out.df;
-	for (r = 0; r < m->nrun; r++)
-		if (m->res[r].out.estimable[j->c])
-			df += m->res[r].out.df;
-	return df;
-}
-
-/* One map (t: NIFTI_INTENT_TTEST with its df) and its JSON sidecar; 1 on failure (j->err). */
-static int write_one(const map_ctx *m, map_job *j, const float *f, char *desc, size_t n)
-{
-	double df = job_df(m, j);
-	size_t len = strlen(j->path);
-	char *side;
-	jdoc *d;
-	int bad;
-
-	if (j->is_t)
-		snprintf(desc, n, "splitroi t, df %g", df);
-	else
-		snprintf(desc, n, "splitroi effect (percent signal change)");
-	if (nii_write_stat(j->path, &m->res[0].info.grid, f, 1, 0.0,
-			   j->is_t ? NIFTI_INTENT_TTEST : NIFTI_INTENT_NONE, j->is_t ? df : 0.0, desc,
-			   &j->err) != SR_OK)
-		return 1;
-	side = xmalloc(len + 8);
-	snprintf(side, len + 8, "%.*s.json", (int)(len > 7 ? len - 7 : len), j->path);   /* .nii.gz -> .json */
-	d = jdoc_object();
-	jdoc_set_str(d, "Description", j->is_t ? "t map of the effect" : "effect map");
-	jdoc_set_str(d, "Effect", m->labels[j->c]);
-	jdoc_set_str(d, "Runs", j->run >= 0 ? "one run" : "fixed-effects combination of the runs");
-	if (j->is_t) {
-		jdoc_set_str(d, "Statistic", "t");
-		jdoc_set_num(d, "DegreesOfFreedom", df);
-	} else {
-		jdoc_set_str(d, "Units", "percent signal change");
-	}
-	bad = jdoc_write(d, side, &j->err) != SR_OK;
-	jdoc_free(d);
-	free(side);
-	return bad;
-}
-
-/* Pool job i: map jobs[i]; maps are independent, so the order does not matter. */
-static void map_one(size_t i, int worker, void *arg)
-{
-	map_ctx *m = arg;
-	map_job *j = &m->jobs[i];
-	map_ws *ws = &m->ws[worker];
-	size_t v;
-	char desc[80];
-
-	map_values(m, j, ws->x, ws->tmp);
-	for (v = 0; v < m->nvox; v++)
-		ws->f[v] = isfinite(ws->x[v]) ? (float)ws->x[v] : NAN;
-	sr_err_init(&j->err, NULL, NULL);
-	j->failed = write_one(m, j, ws->f, desc, sizeof desc);
-}
-
-/* Writes every map with up to nthreads threads; returns 0, or 1 after printing the failures. */
-static int write_maps(map_job *jobs, int njobs, const runfit_result *res, int nrun, size_t nvox,
-		      char *const *labels, int nthreads, jdoc *files)
-{
-	map_ctx m;
-	size_t n = nvox ? nvox : 1;
-	int i, nw = pool_workers(njobs > 0 ? (size_t)njobs : 0, nthreads), rc = 0;
-
-	memset(&m, 0, sizeof m);
-	m.jobs = jobs;
-	m.njobs = njobs;
-	m.nrun = nrun;
-	m.res = res;
-	m.nvox = nvox;
-	m.labels = labels;
-	m.ws = xcalloc(nw > 0 ? (size_t)nw : 1, sizeof *m.ws);
-	for (i = 0; i < nw; i++) {
-		m.ws[i].x = xmalloc_array(n, sizeof(double));
-		m.ws[i].tmp = xmalloc_array(n, sizeof(double));
-		m.ws[i].f = xmalloc_array(n, sizeof(float));
-	}
-	pool_run(njobs > 0 ? (size_t)njobs : 0, nthreads, map_one, &m);
-	for (i = 0; i < nw; i++) {
-		free(m.ws[i].x);
-		free(m.ws[i].tmp);
-		free(m.ws[i].f);
-	}
-	free(m.ws);
-	for (i = 0; i < njobs; i++) {
-		if (jobs[i].failed) {
-			cmdline_error("fit", "%s", jobs[i].err.msg);
-			rc = 1;
-		} else {
-			jdoc_push_str(files, jobs[i].path);
-		}
-	}
-	return rc;
-}
-
-/* The design matrix with named columns (io/designcsv: full precision, refittable exactly). */
-static int write_design(const char *dir, const char *base, const design *d, char **conds,
-			char *const *cnames, jdoc *files)
-{
-	char *path = xmalloc(strlen(dir) + strlen(base) + 32);
-	sr_err e;
-
-	sr_err_init(&e, NULL, NULL);
-	sprintf(path, "%s/%s_design.csv", dir, base);
-	if (designcsv_write(path, d, (const char *const *)conds, (const char *const *)cnames, &e) != SR_OK) {
-		cmdline_error("fit", "%s", e.msg);
-		free(path);
-		return 1;
-	}
-	jdoc_push_str(files, path);
-	free(path);
-	return 0;
 }
 
 /* The run's TR: --tr, else the sidecar beside it / the header (bids_run_tr rules). */
@@ -571,468 +282,295 @@ static void study_inputs_release(study_inputs *in)
 	memset(in, 0, sizeof *in);
 }
 
-int cmd_fit(int argc, char **argv)
-{
-	const char *val[O_N + 1], **pos = xcalloc((size_t)argc + 1, sizeof *pos);
-	char **events = NULL, **confs = NULL, **ccols = NULL, **conds = NULL;
-	int k, npos = 0, nev = 0, nconf = 0, nccol = 0, ncond = 0, nrun, r, c, j, rc, model = GLM_AR1_ADJUSTED;
+
+/* The command line once parsed: the runs, their files and the model options. Owned. */
+typedef struct fit_args {
+	const char *val[O_N + 1];
+	const char **pos;             /* the runs */
+	int npos;
+	char **events, **confs, **ccols;
+	int nev, nconf, nccol;
+	double *tr;
+	int model;
 	long threads;
-	double drift = 128.0, sref = 0.5, fwhm = 0.0, *tr = NULL, *C = NULL;
-	expr *fx = NULL;
-	size_t nfx = 0, nvox = 0, v;
-	int neff = 0;
-	char **labels = NULL, msg[512];
-	unsigned char *mask = NULL;
-	runfit_spec *specs = NULL;
-	runfit_result *res = NULL;
-	sr_err *errs = NULL, e;
-	jdoc *doc = NULL, *files = NULL, *runs = NULL;
-	map_job *jobs = NULL;
-	int njobs = 0;
+	double drift, sref, fwhm;
+	expr *fx;
+	size_t nfx;
 	study_inputs si;
 	const char *condcol, *maskpath;
+} fit_args;
 
-	memset(&si, 0, sizeof si);
-	rc = cmdline_parse(&spec, argc, argv, val, pos, &npos);
-	if (rc) {
-		free(pos);
-		return rc == 1 ? 0 : 2;
-	}
-	rc = 2;
-	condcol = val[O_CONDCOL];
-	maskpath = val[O_MASK];
+static void fit_error(void *ctx, const char *msg)
+{
+	cmdline_error("fit", "%s", msg);
+}
+
+/* Parses argv, takes the runs from --study; 0, or -1 after help (exit 0), or the exit code. */
+static int parse_args(fit_args *a, int argc, char **argv)
+{
+	const char **val = a->val;
+	int rc, r;
+
+	a->pos = xcalloc((size_t)argc + 1, sizeof *a->pos);
+	rc = cmdline_parse(&spec, argc, argv, val, a->pos, &a->npos);
+	if (rc)
+		return rc == 1 ? -1 : 2;
+	a->condcol = val[O_CONDCOL];
+	a->maskpath = val[O_MASK];
 	if (val[O_STUDY]) {
-		if (npos || val[O_EVENTS] || val[O_CONF] || val[O_CONFCOLS]) {
+		study_inputs *si = &a->si;
+
+		if (a->npos || val[O_EVENTS] || val[O_CONF] || val[O_CONFCOLS]) {
 			cmdline_error("fit", "--study finds the runs, events and confounds itself: give no runs, --events or --confounds");
-			goto out;
+			return 2;
 		}
 		if (!val[O_SUBJECT]) {
 			cmdline_error("fit", "--study needs --subject");
-			goto out;
+			return 2;
 		}
-		if (load_study_inputs(val[O_STUDY], val[O_SUBJECT], val[O_TASK], &si)) {
-			rc = 1;
-			goto out;
-		}
-		free(pos);
-		pos = xcalloc((size_t)si.nrun + 1, sizeof *pos);
-		for (r = 0; r < si.nrun; r++)
-			pos[r] = si.bold[r];
-		npos = si.nrun;
-		model = si.ar1 == 2 ? GLM_AR1_ADJUSTED : si.ar1 ? GLM_AR1 : GLM_OLS;
-		drift = si.drift;
-		sref = si.sref;
-		fwhm = si.fwhm;
-		if (!condcol)
-			condcol = si.condcol;
-		if (!maskpath)
-			maskpath = si.mask;
+		if (load_study_inputs(val[O_STUDY], val[O_SUBJECT], val[O_TASK], si))
+			return 1;
+		free(a->pos);
+		a->pos = xcalloc((size_t)si->nrun + 1, sizeof *a->pos);
+		for (r = 0; r < si->nrun; r++)
+			a->pos[r] = si->bold[r];
+		a->npos = si->nrun;
+		a->model = si->ar1 == 2 ? GLM_AR1_ADJUSTED : si->ar1 ? GLM_AR1 : GLM_OLS;
+		a->drift = si->drift;
+		a->sref = si->sref;
+		a->fwhm = si->fwhm;
+		if (!a->condcol)
+			a->condcol = si->condcol;
+		if (!a->maskpath)
+			a->maskpath = si->mask;
 	} else if (val[O_SUBJECT] || val[O_TASK]) {
 		cmdline_error("fit", "--subject and --task go with --study");
-		goto out;
+		return 2;
 	}
-	nrun = npos;
-	if (nrun == 0) {
+	if (a->npos == 0) {
 		cmdline_error("fit", "give at least one BOLD run");
-		goto out;
+		return 2;
 	}
 	if (!val[O_OUT]) {
 		cmdline_error("fit", "--out DIR is required");
-		goto out;
+		return 2;
 	}
+	return 0;
+}
+
+/* --autocorrelation, --drift-cutoff, --volume-time, --smoothing-fwhm, --threads; 0 or 2. */
+static int parse_model(fit_args *a)
+{
+	const char **val = a->val;
+
 	if (val[O_MODEL]) {
 		if (strcmp(val[O_MODEL], "ar1") == 0)
-			model = GLM_AR1;
+			a->model = GLM_AR1;
 		else if (strcmp(val[O_MODEL], "ar1-adjusted") == 0)
-			model = GLM_AR1_ADJUSTED;
+			a->model = GLM_AR1_ADJUSTED;
 		else if (strcmp(val[O_MODEL], "none") == 0)
-			model = GLM_OLS;
+			a->model = GLM_OLS;
 		else if (strcmp(val[O_MODEL], "ols") == 0) {
 			cmdline_error("fit", "--autocorrelation: 'ols' is now called 'none' (no autocorrelation model: ordinary least squares)");
-			goto out;
+			return 2;
 		} else {
 			cmdline_error("fit", "--autocorrelation must be ar1, ar1-adjusted or none, not '%s'", val[O_MODEL]);
-			goto out;
+			return 2;
 		}
 	}
 	if (val[O_DRIFT]) {
 		if (strcmp(val[O_DRIFT], "none") == 0)
-			drift = 0.0;
-		else if (cmdline_double("fit", "--drift-cutoff", val[O_DRIFT], 1e-3, 1e9, &drift))
-			goto out;
+			a->drift = 0.0;
+		else if (cmdline_double("fit", "--drift-cutoff", val[O_DRIFT], 1e-3, 1e9, &a->drift))
+			return 2;
 	}
-	if (val[O_SLICE] && cmdline_double("fit", "--volume-time", val[O_SLICE], 0.0, 1.0, &sref))
-		goto out;
+	if (val[O_SLICE] && cmdline_double("fit", "--volume-time", val[O_SLICE], 0.0, 1.0, &a->sref))
+		return 2;
 	if (val[O_SMOOTH]) {
 		if (strcmp(val[O_SMOOTH], "none") == 0)
-			fwhm = 0.0;
-		else if (cmdline_double("fit", "--smoothing-fwhm", val[O_SMOOTH], 0.0, 1000.0, &fwhm))
-			goto out;
+			a->fwhm = 0.0;
+		else if (cmdline_double("fit", "--smoothing-fwhm", val[O_SMOOTH], 0.0, 1000.0, &a->fwhm))
+			return 2;
 	}
-	threads = sysconf(_SC_NPROCESSORS_ONLN);
-	if (threads < 1)
-		threads = 1;
-	if (val[O_THREADS] && cmdline_int("fit", "--threads", val[O_THREADS], 1, 1024, &threads))
-		goto out;
-	if (si.nrun) {
-		events = xcalloc((size_t)nrun, sizeof *events);
-		nev = nrun;
-		for (r = 0; r < nrun; r++)
-			events[r] = xstrdup(si.events[r]);
-		if (si.confs) {
-			confs = xcalloc((size_t)nrun, sizeof *confs);
-			nconf = nrun;
-			for (r = 0; r < nrun; r++)
-				confs[r] = xstrdup(si.confs[r]);
-			ccols = xcalloc((size_t)(si.nccol ? si.nccol : 1), sizeof *ccols);
-			nccol = si.nccol;
-			for (j = 0; j < nccol; j++)
-				ccols[j] = xstrdup(si.ccols[j]);
+	a->threads = sysconf(_SC_NPROCESSORS_ONLN);
+	if (a->threads < 1)
+		a->threads = 1;
+	if (val[O_THREADS] && cmdline_int("fit", "--threads", val[O_THREADS], 1, 1024, &a->threads))
+		return 2;
+	return 0;
+}
+
+/* n copies of v[0..n-1]. */
+static char **copy_list(char *const *v, int n)
+{
+	char **c = xcalloc((size_t)(n ? n : 1), sizeof *c);
+	int i;
+
+	for (i = 0; i < n; i++)
+		c[i] = xstrdup(v[i]);
+	return c;
+}
+
+/* The events, confounds and confound-column lists, one file per run; 0 or 2. */
+static int input_lists(fit_args *a)
+{
+	const char **val = a->val;
+	int r, nrun = a->npos;
+
+	if (a->si.nrun) {
+		a->events = copy_list(a->si.events, nrun);
+		a->nev = nrun;
+		if (a->si.confs) {
+			a->confs = copy_list(a->si.confs, nrun);
+			a->nconf = nrun;
+			a->ccols = copy_list(a->si.ccols, a->si.nccol);
+			a->nccol = a->si.nccol;
 		}
 	} else if (val[O_EVENTS]) {
-		events = split_list(val[O_EVENTS], 0, &nev);
-		if (nev != nrun) {
-			cmdline_error("fit", "--events names %d files for %d runs", nev, nrun);
-			goto out;
+		a->events = split_list(val[O_EVENTS], 0, &a->nev);
+		if (a->nev != nrun) {
+			cmdline_error("fit", "--events names %d files for %d runs", a->nev, nrun);
+			return 2;
 		}
 	} else {
-		events = xcalloc((size_t)nrun, sizeof *events);
-		nev = nrun;
+		a->events = xcalloc((size_t)nrun, sizeof *a->events);
+		a->nev = nrun;
 		for (r = 0; r < nrun; r++) {
-			events[r] = beside(pos[r], "_events.tsv");
-			if (!events[r]) {
-				cmdline_error("fit", "%s: not named *_bold.nii[.gz]: give --events", pos[r]);
-				goto out;
+			a->events[r] = beside(a->pos[r], "_events.tsv");
+			if (!a->events[r]) {
+				cmdline_error("fit", "%s: not named *_bold.nii[.gz]: give --events", a->pos[r]);
+				return 2;
 			}
 		}
 	}
 	if (val[O_CONFCOLS])
-		ccols = split_list(val[O_CONFCOLS], 1, &nccol);
-	if (si.nrun) {
+		a->ccols = split_list(val[O_CONFCOLS], 1, &a->nccol);
+	if (a->si.nrun) {
 		/* set above */
 	} else if (val[O_CONF]) {
-		confs = split_list(val[O_CONF], 0, &nconf);
-		if (nconf != nrun) {
-			cmdline_error("fit", "--confounds names %d files for %d runs", nconf, nrun);
-			goto out;
+		a->confs = split_list(val[O_CONF], 0, &a->nconf);
+		if (a->nconf != nrun) {
+			cmdline_error("fit", "--confounds names %d files for %d runs", a->nconf, nrun);
+			return 2;
 		}
-		if (nccol == 0) {
+		if (a->nccol == 0) {
 			cmdline_error("fit", "--confounds needs --confound-columns");
-			goto out;
+			return 2;
 		}
-	} else if (nccol > 0) {
+	} else if (a->nccol > 0) {
 		cmdline_error("fit", "--confound-columns needs --confounds");
-		goto out;
+		return 2;
 	}
-	rc = 1;
-	tr = xcalloc((size_t)nrun, sizeof *tr);
-	for (r = 0; r < nrun; r++) {
+	return 0;
+}
+
+/* Each run's TR: the study's, or resolve_tr; 0 or the exit code. */
+static int resolve_trs(fit_args *a)
+{
+	int r;
+
+	a->tr = xcalloc((size_t)a->npos, sizeof *a->tr);
+	for (r = 0; r < a->npos; r++) {
 		int t = 0;
 
-		if (si.nrun && !val[O_TR])
-			tr[r] = si.tr[r];
+		if (a->si.nrun && !a->val[O_TR])
+			a->tr[r] = a->si.tr[r];
 		else
-			t = resolve_tr(pos[r], val[O_TR], &tr[r]);
-		if (t) {
-			rc = t;
-			goto out;
-		}
+			t = resolve_tr(a->pos[r], a->val[O_TR], &a->tr[r]);
+		if (t)
+			return t;
 	}
-	if (gather_conditions(events, nrun, condcol, &conds, &ncond))
-		goto out;
-	if (ncond == 0) {
-		cmdline_error("fit", "the events files hold no events");
-		goto out;
-	}
-	if (val[O_EFFECT] && expr_parse_list(val[O_EFFECT], &fx, &nfx, msg, sizeof msg) < 0) {
+	return 0;
+}
+
+/* --effect, else the study's effects (handed over); 0 or 2. */
+static int parse_effects(fit_args *a)
+{
+	char msg[512];
+
+	if (a->val[O_EFFECT] && expr_parse_list(a->val[O_EFFECT], &a->fx, &a->nfx, msg, sizeof msg) < 0) {
 		cmdline_error("fit", "--effect: %s", msg);
-		rc = 2;
-		goto out;
+		return 2;
 	}
-	if (!val[O_EFFECT] && si.nfx) {
+	if (!a->val[O_EFFECT] && a->si.nfx) {
 		/* the study's effects (hand the list over) */
-		fx = si.fx;
-		nfx = si.nfx;
-		si.fx = NULL;
-		si.nfx = 0;
+		a->fx = a->si.fx;
+		a->nfx = a->si.nfx;
+		a->si.fx = NULL;
+		a->si.nfx = 0;
 	}
-	/* contrasts: every condition, then the extra effects */
-	neff = ncond + (int)nfx;
-	C = xcalloc((size_t)neff * ncond, sizeof *C);
-	labels = xcalloc((size_t)neff, sizeof *labels);
-	for (c = 0; c < ncond; c++) {
-		C[(size_t)c * ncond + c] = 1.0;
-		labels[c] = xstrdup(conds[c]);
+	return 0;
+}
+
+static void fit_args_release(fit_args *a)
+{
+	expr_list_free(a->fx, a->nfx);
+	free_list(a->events, a->nev);
+	free_list(a->confs, a->nconf);
+	free_list(a->ccols, a->nccol);
+	free(a->tr);
+	free(a->pos);
+	study_inputs_release(&a->si);
+}
+
+/* The fitting job of the parsed command line (pipeline/fitjob). */
+static void job_from_args(fitjob *j, const fit_args *a)
+{
+	memset(j, 0, sizeof *j);
+	j->out = a->val[O_OUT];
+	j->bold = a->pos;
+	j->nrun = a->npos;
+	j->events = a->events;
+	j->confs = a->confs;
+	j->ccols = a->ccols;
+	j->nccol = a->nccol;
+	j->tr = a->tr;
+	j->condcol = a->condcol;
+	j->maskpath = a->maskpath;
+	j->model = a->model;
+	j->drift = a->drift;
+	j->sref = a->sref;
+	j->fwhm = a->fwhm;
+	j->skip = a->si.skip;
+	j->censor = a->si.censor;
+	j->threads = (int)a->threads;
+	j->study = a->val[O_STUDY];
+	j->subject = a->val[O_SUBJECT];
+	j->warn = warn_print;
+	j->error = fit_error;
+}
+
+int cmd_fit(int argc, char **argv)
+{
+	fit_args a;
+	fitjob job;
+	int rc;
+
+	memset(&a, 0, sizeof a);
+	memset(&job, 0, sizeof job);
+	a.model = GLM_AR1_ADJUSTED;
+	a.drift = 128.0;
+	a.sref = 0.5;
+	rc = parse_args(&a, argc, argv);
+	if (rc == 0)
+		rc = parse_model(&a);
+	if (rc == 0)
+		rc = input_lists(&a);
+	if (rc == 0)
+		rc = resolve_trs(&a);
+	if (rc == 0) {
+		job_from_args(&job, &a);
+		rc = fitjob_conditions(&job) != SR_OK ? 1 : parse_effects(&a);
 	}
-	for (c = 0; c < (int)nfx; c++) {
-		size_t t;
-
-		for (t = 0; t < fx[c].nterms; t++) {
-			for (j = 0; j < ncond; j++)
-				if (strcmp(conds[j], fx[c].terms[t].name) == 0)
-					break;
-			if (j == ncond) {
-				char known[1024] = "";
-
-				for (j = 0; j < ncond; j++)
-					snprintf(known + strlen(known), sizeof known - strlen(known), "%s%s",
-						 j ? ", " : "", conds[j]);
-				cmdline_error("fit", "effect '%s' names condition '%s', which no events file has (known: %s)",
-					      fx[c].text, fx[c].terms[t].name, known);
-				goto out;
-			}
-			C[(size_t)(ncond + c) * ncond + j] += fx[c].terms[t].weight;
-		}
-		labels[ncond + c] = xstrdup(fx[c].text);
+	if (rc == 0) {
+		job.fx = a.fx;
+		job.nfx = a.nfx;
+		rc = fitjob_run(&job) != SR_OK;
 	}
-	if (maskpath) {
-		nii_info mi;
-		double *md;
-
-		sr_err_init(&e, NULL, NULL);
-		if (nii_read_3d(maskpath, &mi, &md, &e) != SR_OK) {
-			cmdline_error("fit", "%s", e.msg);
-			goto out;
-		}
-		nvox = nii_nvox(&mi.grid);
-		mask = xmalloc(nvox ? nvox : 1);
-		for (v = 0; v < nvox; v++)
-			mask[v] = md[v] != 0.0 && !isnan(md[v]);
-		free(md);
-		for (r = 0; r < nrun; r++) {
-			nii_info bi;
-			char why[512];
-
-			if (nii_read_info(pos[r], &bi, &e) != SR_OK) {
-				cmdline_error("fit", "%s", e.msg);
-				goto out;
-			}
-			if (!nii_same_grid(&mi.grid, &bi.grid, 1e-3, why, sizeof why)) {
-				cmdline_error("fit", "%s and %s are not on the same grid: %s", maskpath, pos[r], why);
-				goto out;
-			}
-		}
-	}
-
-	specs = xcalloc((size_t)nrun, sizeof *specs);
-	res = xcalloc((size_t)nrun, sizeof *res);
-	errs = xcalloc((size_t)nrun, sizeof *errs);
-	for (r = 0; r < nrun; r++) {
-		runfit_spec *s = &specs[r];
-
-		s->bold = pos[r];
-		s->events = events[r];
-		s->condition_column = condcol;
-		s->conditions = (const char *const *)conds;
-		s->ncond = ncond;
-		s->confounds = confs ? confs[r] : NULL;
-		s->confound_names = (const char *const *)ccols;
-		s->nconf = confs ? nccol : 0;
-		s->skip = si.skip;
-		s->censor_fd = si.censor;
-		s->fd_column = "framewise_displacement";
-		s->tr = tr[r];
-		s->volume_time = sref;
-		s->drift_cutoff = drift;
-		s->ar1 = model;
-		s->C = C;
-		s->ncon = neff;
-		s->mask = mask;
-		s->smoothing_fwhm = fwhm;
-		sr_err_init(&errs[r], warn_print, NULL);
-	}
-	if (runfit_many(specs, nrun, (int)threads, res, errs) != SR_OK) {
-		for (r = 0; r < nrun; r++)
-			if (errs[r].code != SR_OK)
-				cmdline_error("fit", "%s", errs[r].msg);
-		goto out;
-	}
-	nvox = res[0].out.nvox;
-	for (r = 1; r < nrun; r++) {
-		char why[512];
-
-		if (!nii_same_grid(&res[0].info.grid, &res[r].info.grid, 1e-3, why, sizeof why)) {
-			cmdline_error("fit", "%s and %s are not on the same grid: %s", pos[0], pos[r], why);
-			goto out;
-		}
-	}
-	if (mask && res[0].out.nvox != nvox) {
-		cmdline_error("fit", "mask and runs differ in size");
-		goto out;
-	}
-
-	/* outputs */
-	sr_err_init(&e, NULL, NULL);
-	if (afile_mkdirs(val[O_OUT], &e) != SR_OK) {
-		cmdline_error("fit", "%s", e.msg);
-		goto out;
-	}
-	doc = jdoc_object();
-	files = jdoc_array();
-	runs = jdoc_array();
-	/* with one run the combination is that run: its maps are not written twice */
-	njobs = 2 * neff * (nrun > 1 ? nrun + 1 : 1);
-	jobs = xcalloc((size_t)njobs, sizeof *jobs);
-	{
-		/* names: each run's entities with desc-<effect>; the combination has those all runs share */
-		bidsname_kv (*kv)[40] = xcalloc((size_t)nrun + 1, sizeof *kv);
-		size_t *nkv = xcalloc((size_t)nrun + 1, sizeof *nkv);
-		char (*effval)[128] = xcalloc((size_t)neff, sizeof *effval);
-		int bids = 1;
-
-		for (c = 0; c < neff; c++) {
-			bidsname_value(labels[c], effval[c], sizeof effval[c]);
-			for (k = 0; k < c; k++)
-				if (strcmp(effval[c], effval[k]) == 0) {
-					cmdline_error("fit", "effects '%s' and '%s' would have the same file name (desc-%s)",
-						      labels[k], labels[c], effval[c]);
-					free(kv);
-					free(nkv);
-					free(effval);
-					goto out;
-				}
-		}
-		for (r = 0; r < nrun; r++) {
-			char *base = run_base(pos[r]);
-
-			if (bidsname_parse(base, kv[r], 39, &nkv[r]))
-				bids = 0;
-			free(base);
-		}
-		if (bids && nrun > 1)
-			nkv[nrun] = common_entities(kv, nkv, nrun, kv[nrun]);
-		for (r = 0; r < (nrun > 1 ? nrun + 1 : 1); r++) {
-			char *base = r < nrun ? run_base(pos[r]) : xstrdup("combined");
-			int rb = bids && (r < nrun || nkv[nrun] > 0);
-
-			for (c = 0; c < neff; c++)
-				for (k = 0; k < 2; k++) {
-					map_job *jb = &jobs[(r * neff + c) * 2 + k];
-
-					jb->run = r < nrun ? r : -1;
-					jb->c = c;
-					jb->is_t = k;
-					jb->path = map_path(val[O_OUT], kv[r], nkv[r], rb, base, effval[c],
-							    k ? "tstat" : "effect");
-				}
-			free(base);
-		}
-		free(kv);
-		free(nkv);
-		free(effval);
-	}
-	for (r = 0; r < nrun; r++) {
-		char *base = run_base(pos[r]);
-		jdoc *rj = jdoc_object(), *est = jdoc_object();
-		size_t nok = 0;
-		glm_model *m;
-
-		for (v = 0; v < nvox; v++)
-			nok += res[r].out.ok[v];
-		jdoc_set_str(rj, "bold", pos[r]);
-		jdoc_set_str(rj, "events", events[r]);
-		jdoc_set_str(rj, "confounds", confs ? confs[r] : NULL);
-		jdoc_set_num(rj, "tr", tr[r]);
-		jdoc_set_int(rj, "volumes", res[r].d.T);
-		jdoc_set_int(rj, "columns", res[r].d.p);
-		jdoc_set_int(rj, "drift_columns", res[r].d.ndrift);
-		if (glm_model_make(res[r].d.X, res[r].d.T, res[r].d.p, &m, &e) == SR_OK) {
-			jdoc_set_int(rj, "rank", glm_model_rank(m));
-			glm_model_free(m);
-		}
-		jdoc_set_int(rj, "df", res[r].out.df);
-		jdoc_set_int(rj, "analyzable_voxels", (long long)nok);
-		for (c = 0; c < neff; c++) {
-			jdoc_set_bool(est, labels[c], res[r].out.estimable[c]);
-			if (!res[r].out.estimable[c])
-				fprintf(stderr, "splitroi fit: warning: %s: effect '%s' is not estimable in this run%s\n",
-					pos[r], labels[c], nrun > 1 ? ": left out of the combined maps" : "");
-		}
-		jdoc_set(rj, "estimable", est);
-		jdoc_push(runs, rj);
-		c = write_design(val[O_OUT], base, &res[r].d, conds, res[r].conf_names, files);
-		free(base);
-		if (c)
-			goto out;
-	}
-	if (write_maps(jobs, njobs, res, nrun, nvox, labels, (int)threads, files))
-		goto out;
-	{
-		jdoc *opt = jdoc_object(), *cl = jdoc_array(), *el = jdoc_array(), *cc = jdoc_array();
-		char libs[512], *path = xmalloc(strlen(val[O_OUT]) + 16);
-		int dsum = 0;
-
-		jdoc_set_str(doc, "program", "splitroi fit");
-		jdoc_set_str(doc, "version", SPLITROI_VERSION);
-		jdoc_library_versions(libs, sizeof libs);
-		jdoc_set_str(doc, "libraries", libs);
-		jdoc_set_str(opt, "autocorrelation", model == GLM_OLS ? "none" : model == GLM_AR1 ? "ar1" : "ar1-adjusted");
-		if (drift > 0)
-			jdoc_set_num(opt, "drift_cutoff", drift);
-		else
-			jdoc_set_str(opt, "drift_cutoff", "none");
-		jdoc_set_num(opt, "volume_time", sref);
-		if (fwhm > 0)
-			jdoc_set_num(opt, "smoothing_fwhm", fwhm);
-		else
-			jdoc_set_str(opt, "smoothing_fwhm", "none");
-		jdoc_set_str(opt, "condition_column", condcol ? condcol : "trial_type");
-		jdoc_set_str(opt, "mask", maskpath);
-		jdoc_set_str(opt, "study", val[O_STUDY]);
-		jdoc_set_str(opt, "subject", val[O_SUBJECT]);
-		for (j = 0; j < nccol; j++)
-			jdoc_push_str(cc, ccols[j]);
-		jdoc_set(opt, "confound_columns", cc);
-		jdoc_set(doc, "options", opt);
-		for (c = 0; c < ncond; c++)
-			jdoc_push_str(cl, conds[c]);
-		jdoc_set(doc, "conditions", cl);
-		for (c = 0; c < neff; c++)
-			jdoc_push_str(el, labels[c]);
-		jdoc_set(doc, "effects", el);
-		jdoc_set(doc, "runs", runs);
-		runs = NULL;
-		for (r = 0; r < nrun; r++)
-			dsum += res[r].out.df;
-		jdoc_set_int(doc, "combined_df", dsum);
-		jdoc_set(doc, "files", files);
-		files = NULL;
-		sprintf(path, "%s/fit.json", val[O_OUT]);
-		if (jdoc_write(doc, path, &e) != SR_OK) {
-			cmdline_error("fit", "%s", e.msg);
-			free(path);
-			goto out;
-		}
-		free(path);
-	}
-	if (!val[O_QUIET])
-		fprintf(stderr, "splitroi fit: %d run%s, %d effect%s, maps in %s\n", nrun, nrun == 1 ? "" : "s",
-			neff, neff == 1 ? "" : "s", val[O_OUT]);
-	rc = 0;
-out:
-	if (res)
-		for (r = 0; r < nrun; r++)
-			runfit_result_release(&res[r]);
-	free(res);
-	free(specs);
-	free(errs);
-	for (r = 0; r < njobs; r++)
-		free(jobs[r].path);
-	free(jobs);
-	jdoc_free(doc);
-	jdoc_free(files);
-	jdoc_free(runs);
-	free(mask);
-	free(C);
-	if (labels)
-		free_list(labels, neff);
-	expr_list_free(fx, nfx);
-	free_list(conds, ncond);
-	free_list(events, nev);
-	free_list(confs, nconf);
-	free_list(ccols, nccol);
-	free(tr);
-	free(pos);
-	study_inputs_release(&si);
-	return rc;
+	if (rc == 0 && !a.val[O_QUIET])
+		fprintf(stderr, "splitroi fit: %d run%s, %d effect%s, maps in %s\n", a.npos, a.npos == 1 ? "" : "s",
+			job.neff, job.neff == 1 ? "" : "s", a.val[O_OUT]);
+	fitjob_release(&job);
+	fit_args_release(&a);
+	return rc < 0 ? 0 : rc;
 }
