@@ -13,6 +13,7 @@
 #include "../io/bidsname.h"
 #include "../io/csvout.h"
 #include "../io/table.h"
+#include "subtables.h"
 #include "tabledict.h"
 
 const char *const reliab_columns[] = {
@@ -257,38 +258,33 @@ static sr_status write_summary(const char *path, rkey *keys, size_t nk, sr_err *
 	return rc ? rc : tabledict_write(path, head, sizeof head / sizeof head[0], NULL, 0, e);
 }
 
+typedef struct rkeys {
+	rkey *keys;
+	size_t nk;
+} rkeys;
+
+static sr_status read_one(const char *path, void *ctx, sr_err *e)
+{
+	rkeys *k = ctx;
+
+	return read_subject(path, &k->keys, &k->nk, e);
+}
+
 sr_status reliab_group_write(const char *out, char *const *labels, size_t n, sr_err *e)
 {
-	rkey *keys = NULL;
-	size_t nk = 0, i;
+	rkeys k = { NULL, 0 };
+	size_t i;
 	char path[4096 + 64];
-	sr_status rc = SR_OK;
-	int m;
+	sr_status rc;
+	int m, none;
 
-	size_t have = 0;
-	struct stat sb;
-
-	for (i = 0; i < n; i++) {
-		snprintf(path, sizeof path, "%s/sub-%s/reliability.csv", out, labels[i]);
-		have += stat(path, &sb) == 0;
-	}
-	if (have == 0) {
-		/* tables made by hand or by an older version: no summary, and none left from before */
-		snprintf(path, sizeof path, "%s/reliability_group.csv", out);
-		remove(path);
-		snprintf(path, sizeof path, "%s/reliability_group.json", out);
-		remove(path);
+	rc = subtables_each(out, labels, n, "reliability.csv", "reliability_group",
+			    " (analyze it again to make one)", read_one, &k, &none, e);
+	if (none)
 		return SR_OK;
-	}
-	for (i = 0; i < n && !rc; i++) {
-		snprintf(path, sizeof path, "%s/sub-%s/reliability.csv", out, labels[i]);
-		if (stat(path, &sb) != 0) {
-			sr_warnf(e, "sub-%s/reliability.csv: no such file; the subject is left out of reliability_group.csv (analyze it again to make one)",
-				 labels[i]);
-			continue;
-		}
-		rc = read_subject(path, &keys, &nk, e);
-	}
+	rkey *keys = k.keys;
+	size_t nk = k.nk;
+
 	if (!rc) {
 		snprintf(path, sizeof path, "%s/reliability_group.csv", out);
 		rc = write_summary(path, keys, nk, e);

@@ -12,6 +12,7 @@
 #include "../io/bidsname.h"
 #include "../io/csvout.h"
 #include "../io/table.h"
+#include "subtables.h"
 #include "tabledict.h"
 
 const char *const tc_columns[] = {
@@ -312,36 +313,24 @@ static sr_status write_group(const char *path, const tkeys *ks, sr_err *e)
 	return rc ? rc : tabledict_write(path, head, sizeof head / sizeof head[0], NULL, 0, e);
 }
 
+static sr_status read_one(const char *path, void *ctx, sr_err *e)
+{
+	return read_subject(path, ctx, e);
+}
+
 sr_status tc_group_write(const char *out, char *const *labels, size_t n, sr_err *e)
 {
 	tkeys ks;
-	size_t i, have = 0;
+	size_t i;
 	char path[4096 + 64];
-	struct stat sb;
-	sr_status rc = SR_OK;
+	sr_status rc;
+	int none;
 
 	memset(&ks, 0, sizeof ks);
-	for (i = 0; i < n; i++) {
-		snprintf(path, sizeof path, "%s/sub-%s/timecourses.csv", out, labels[i]);
-		have += stat(path, &sb) == 0;
-	}
-	if (have == 0) {
-		/* tables made by hand or by an older version: no summary, and none left from before */
-		snprintf(path, sizeof path, "%s/timecourses_group.json", out);
-		remove(path);
-		snprintf(path, sizeof path, "%s/timecourses_group.csv", out);
-		remove(path);
+	rc = subtables_each(out, labels, n, "timecourses.csv", "timecourses_group", "", read_one, &ks,
+			    &none, e);
+	if (none)
 		return SR_OK;
-	}
-	for (i = 0; i < n && !rc; i++) {
-		snprintf(path, sizeof path, "%s/sub-%s/timecourses.csv", out, labels[i]);
-		if (stat(path, &sb) != 0) {
-			sr_warnf(e, "sub-%s/timecourses.csv: no such file; the subject is left out of timecourses_group.csv",
-				 labels[i]);
-			continue;
-		}
-		rc = read_subject(path, &ks, e);
-	}
 	if (!rc) {
 		snprintf(path, sizeof path, "%s/timecourses_group.csv", out);
 		rc = write_group(path, &ks, e);
