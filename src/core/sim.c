@@ -137,7 +137,8 @@ void sim_head_for(const sim_space *sp, sim_head *h)
 	}
 }
 
-void sim_head_coords(const sim_head *h, const double xyz[3], double u[3])
+/* Normalized brain coordinates u of world point xyz: |u| <= 1 is inside the brain. */
+static void sim_head_coords(const sim_head *h, const double xyz[3], double u[3])
 {
 	int a;
 

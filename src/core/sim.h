@@ -76,8 +76,6 @@ typedef struct sim_head {
 
 /* The head that fits the field of view of sp. */
 void sim_head_for(const sim_space *sp, sim_head *h);
-/* Normalized brain coordinates u of world point xyz: |u| <= 1 is inside the brain. */
-void sim_head_coords(const sim_head *h, const double xyz[3], double u[3]);
 
 /* Tissue classes of the phantom. */
 enum { SIM_BACKGROUND = 0, SIM_SKULL = 1, SIM_BRAIN_TISSUE = 2 };
@@ -96,7 +94,6 @@ void sim_phantom(const sim_space *sp, const sim_head *h, sim_rng *r, uint8_t *ti
 #define SIM_NPARCELS 4
 /* Parcel radius in normalized brain units. */
 #define SIM_PARCEL_RADIUS 0.42
-
 
 /*
  * Parcel labels on sp: a brain voxel gets the parcel whose centre is nearest

@@ -65,7 +65,8 @@ static size_t bold_stem(const char *name)
 	return 0;
 }
 
-int bids_valid_label(const char *s)
+/* 1 when the label is a BIDS label (letters and digits, not empty). */
+static int bids_valid_label(const char *s)
 {
 	if (!s || !*s)
 		return 0;

@@ -104,7 +104,4 @@ char *bids_confounds_path(const bids_run *run, const char *suffix);
 /* 1 when root/dataset_description.json says "DatasetType": "derivative". */
 int bids_is_derivative(const char *root);
 
-/* 1 when the label is a BIDS label (letters and digits, not empty). */
-int bids_valid_label(const char *s);
-
 #endif

@@ -158,13 +158,6 @@ static enum gzin_backend inflater(void)
 	return GZIN_AUTO;
 }
 
-const char *nii_inflater_name(void)
-{
-	enum gzin_backend b = inflater();
-
-	return b == GZIN_ZLIB || (b == GZIN_AUTO && !gzin_have_isal()) ? "zlib" : "isa-l";
-}
-
 /* The message for a failed header read. */
 static sr_status header_fail(sr_err *e, const char *path, int kind, int version, const char *what)
 {

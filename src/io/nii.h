@@ -86,13 +86,6 @@ int nii_float32_exact(const nii_info *info);
 /* Closes; NULL does nothing. */
 void nii_stream_close(nii_stream *s);
 
-/*
- * The inflater that reads .nii.gz streams: "isa-l" when built in (src/io/gzin.h),
- * else "zlib"; the environment variable SPLITROI_INFLATER=zlib (or isa-l)
- * chooses one, to compare them. Both give the same bytes.
- */
-const char *nii_inflater_name(void);
-
 /* Reads a whole 3-D image (nt must be 1) as doubles with scaling; *data is xmalloc'ed, caller frees. */
 sr_status nii_read_3d(const char *path, nii_info *info, double **data, sr_err *e);
 

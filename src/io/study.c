@@ -1554,7 +1554,8 @@ const char *study_loc_label(const study *s, size_t i)
 	return s->locs[i].label;
 }
 
-void study_bids_src(const study *s, bids_src *src)
+/* Where the runs come from (bids, derivatives and their filters); src borrows s's strings. */
+static void study_bids_src(const study *s, bids_src *src)
 {
 	src->raw = s->bids;
 	src->deriv = s->derivatives;

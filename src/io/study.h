@@ -162,9 +162,6 @@ enum {
 /* study_load with flags (0 = study_load). */
 sr_status study_load_flags(const char *path, study *s, study_problems *probs, unsigned flags);
 
-/* Where the runs come from (bids, derivatives and their filters); src borrows s's strings. */
-void study_bids_src(const study *s, bids_src *src);
-
 /* The runs of one subject and task by the study's layout (bids_find_runs). */
 sr_status study_runs(const study *s, const char *subject, const char *task, bids_run **runs,
 		     size_t *n, sr_err *e);

@@ -64,7 +64,13 @@ static int print_of(const char *path, char *buf, size_t n)
 	return fprint_file(path, 1, buf, n, &e) == SR_OK;
 }
 
-int groupunit_current(const study *st, char *const *subs, size_t nsub, int group)
+/*
+ * 1 when OUT/tables.json exists and matches what is there now: the same
+ * subjects, each complete now exactly when it was (its run.json unchanged),
+ * every table present with the recorded fingerprint, made with (group = 1)
+ * or without the group step as asked.
+ */
+static int groupunit_current(const study *st, char *const *subs, size_t nsub, int group)
 {
 	char path[4096], fp[128], **k = NULL, **v = NULL;
 	const char *want;
@@ -217,7 +223,17 @@ static int group_step(const char *stage, const char *shown, char *const *subs, s
 	return groupstat_run(&o);
 }
 
-int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, int quiet,
+/*
+ * Redoes the unit: withdraws the record, snapshots the complete subjects'
+ * tables into a staging folder OUT/.tables.tmp.PID, writes the combined table
+ * from them and (group = 1) runs the group step on the same snapshot, so the
+ * tables can never disagree; then renames them into OUT and writes the
+ * record last. On failure the earlier tables stay as they were (without a
+ * record, so that the next run redoes the unit). *ncomplete: subjects in the
+ * combined table. Returns 0, or 1 with the reason printed on stderr.
+ * The caller holds the group lock (outlock.h).
+ */
+static int groupunit_write(const study *st, char *const *subs, size_t nsub, int group, int quiet,
 		    size_t *ncomplete)
 {
 	char stage[4096], path[4096], dst[4096], fp[128];

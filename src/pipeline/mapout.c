@@ -14,7 +14,12 @@
 #include "../io/jdoc.h"
 #include "../version.h"
 
-int mapout_name(const mapout_info *m, const char *kind, const char *ext, char *buf, size_t n)
+/*
+ * The file name (no folder) of a split's map: kind "tstat", "dseg" (ext
+ * ".nii.gz", ".tsv" or ".json"). 0, or -1 when an entity value would not be
+ * alphanumeric.
+ */
+static int mapout_name(const mapout_info *m, const char *kind, const char *ext, char *buf, size_t n)
 {
 	char desc[256];
 	bids_entities b;

@@ -41,13 +41,6 @@ sr_status mapout_boldref(const char *dir, const mapout_info *m, const char *ses,
 			 const char *bold, const nii_grid *g, const float *mean, sr_err *e);
 
 /*
- * The file name (no folder) of a split's map: kind "tstat", "dseg" (ext
- * ".nii.gz", ".tsv" or ".json"). 0, or -1 when an entity value would not be
- * alphanumeric.
- */
-int mapout_name(const mapout_info *m, const char *kind, const char *ext, char *buf, size_t n);
-
-/*
  * Writes out/dataset_description.json: a BIDS Derivatives dataset generated
  * by splitroi (version, the command line) from the raw dataset bids and, when
  * not NULL, the derivatives dataset deriv.

@@ -352,7 +352,8 @@ static int series_as_float32(const nii_info *info, double smoothing_fwhm)
 	return !(smoothing_fwhm > 0) && nii_float32_exact(info);
 }
 
-sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e)
+/* The per-voxel finish is split over nthreads (same results for any count). */
+static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e)
 {
 	vol_queue q;
 	design_event *ev = NULL;

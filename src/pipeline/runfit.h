@@ -72,8 +72,6 @@ sr_status runfit_confound_columns(const table *t, const char *path, const char *
  * of conditions not in spec->conditions are an error. A condition with no
  * event in this run gives a warning and NaN for every contrast that needs it.
  */
-/* The per-voxel finish is split over nthreads (same results for any count). */
-sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e);
 
 /*
  * Fits n runs with up to nthreads threads (runs in parallel); res[i], errs[i]

@@ -7,48 +7,24 @@
 #include <sys/stat.h>
 
 #include "../core/mem.h"
-#include "../core/strv.h"
 #include "../io/bids.h"
 #include "fresh.h"
-
-static int has_label(char **v, size_t n, const char *s)
-{
-	size_t i;
-
-	for (i = 0; i < n; i++)
-		if (strcmp(v[i], s) == 0)
-			return 1;
-	return 0;
-}
+#include "studycheck.h"
 
 sr_status studyset_subjects(const study *st, char ***out, size_t *n, sr_err *e)
 {
-	char **found;
-	size_t nfound, i;
-	sr_status rc;
+	/* one rule for every command: the list check and analyze validate (studycheck.c) */
+	study_problems probs = { NULL, 0 };
+	sr_status rc = SR_OK;
 
-	rc = bids_subjects(st->bids, &found, &nfound, e);
-	if (rc)
-		return rc;
-	if (!st->subjects) {
-		*out = found;
-		*n = nfound;
-		return SR_OK;
+	if (studycheck_subjects(st, out, n, &probs)) {
+		rc = sr_fail(e, SR_ESTUDY, "%s", probs.msg[0]);
+		bids_strings_free(*out, *n);
+		*out = NULL;
+		*n = 0;
 	}
-	for (i = 0; i < st->nsubjects; i++)
-		if (!has_label(found, nfound, st->subjects[i])) {
-			sr_fail(e, SR_ESTUDY, "%s: subject '%s' is not in %s", st->path, st->subjects[i],
-				st->bids);
-			bids_strings_free(found, nfound);
-			return SR_ESTUDY;
-		}
-	bids_strings_free(found, nfound);
-	*out = xcalloc(st->nsubjects ? st->nsubjects : 1, sizeof **out);
-	for (i = 0; i < st->nsubjects; i++)
-		(*out)[i] = xstrdup(st->subjects[i]);
-	*n = st->nsubjects;
-	qsort(*out, *n, sizeof **out, strv_cmp);
-	return SR_OK;
+	study_problems_release(&probs);
+	return rc;
 }
 
 int studyset_complete(const study *st, const char *label)

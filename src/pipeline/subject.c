@@ -142,7 +142,8 @@ void subject_result_release(subject_result *r)
 	memset(r, 0, sizeof *r);
 }
 
-sr_status subject_write_rows(const char *path, const char *subject, const response_row *rows,
+/* Writes rows as a responses table (header + rows) atomically. */
+static sr_status subject_write_rows(const char *path, const char *subject, const response_row *rows,
 			     size_t n, sr_err *e)
 {
 	csvout c;

@@ -58,10 +58,6 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			  sr_err *e);
 void subject_result_release(subject_result *r);
 
-/* Writes rows as a responses table (header + rows) atomically. */
-sr_status subject_write_rows(const char *path, const char *subject, const response_row *rows,
-			     size_t n, sr_err *e);
-
 /* The columns of responses.csv, in order. */
 extern const char *const subject_columns[];
 extern const size_t subject_ncolumns;

@@ -62,7 +62,14 @@ static sr_status swap_in(const char *stage, const char *final, const char *label
 	return SR_OK;
 }
 
-sr_status subunit_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
+/*
+ * subject_analyze into a staging folder OUT/.sub-<label>.tmp.PID, then swaps
+ * it with OUT/sub-<label> (one atomic exchange where the file system has it,
+ * else two renames) and removes the earlier outputs: until the new outputs
+ * are complete the earlier complete ones stay in place, and a failed redo
+ * leaves them as they were. The caller holds the subject's lock (outlock.h).
+ */
+static sr_status subunit_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
 			  sr_err *e)
 {
 	char stage[4096], final[4096];

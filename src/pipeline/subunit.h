@@ -6,16 +6,6 @@
 #include "subject.h"
 
 /*
- * subject_analyze into a staging folder OUT/.sub-<label>.tmp.PID, then swaps
- * it with OUT/sub-<label> (one atomic exchange where the file system has it,
- * else two renames) and removes the earlier outputs: until the new outputs
- * are complete the earlier complete ones stay in place, and a failed redo
- * leaves them as they were. The caller holds the subject's lock (outlock.h).
- */
-sr_status subunit_analyze(const subject_ctx *ctx, const char *label, subject_result *res,
-			  sr_err *e);
-
-/*
  * The whole job of one subject for analyze: takes the subject's lock
  * (waiting when wait, saying who holds it), removes staging folders that
  * dead processes left, and, unless force, skips a subject that another
