@@ -41,6 +41,15 @@
 /* volumes per dgemm: each batch reads and writes the accumulators once; more
  * volumes mean less memory traffic but a larger buffer (batch x nvox doubles) */
 #define GLM_BATCH 4
+/*
+ * Voxels per product of a batch. A chunk whose pending values are all zero
+ * (a zero background, a constant voxel) is skipped: adding A * 0 leaves every
+ * sum as it is (the sums start at +0 and never become -0), so the results do
+ * not change, and the skipped accumulators' pages are never touched. A
+ * multiple of every kernel's column unrolling, so that each voxel's sums are
+ * formed by the same kernel code as in one product over all voxels.
+ */
+#define ACC_CHUNK 2048
 /* grid of the adjusted-rho table: -0.99, -0.98, ..., 0.99 */
 #define GLM_NRHO 199
 #define GLM_RHO_STEP 0.01
@@ -360,6 +369,7 @@ struct glm_acc {
 	double *y0, *zz, *zlag, *zprev;
 	double *zsum;   /* only without a constant column: else 1'z = g1'U_r'z */
 	unsigned char *flag;
+	unsigned char *live; /* per ACC_CHUNK voxels: a value other than +0 has been added */
 };
 
 glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
@@ -379,13 +389,15 @@ glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
 	} else {
 		a->acc_mapped = 1;
 	}
-	a->zbuf = xmalloc_array(n, GLM_BATCH * sizeof(double));
+	/* zeroed: the rows of chunks that are not live are never written */
+	a->zbuf = xcalloc(n, GLM_BATCH * sizeof(double));
 	a->y0 = xcalloc(n, sizeof(double));
 	a->zz = xcalloc(n, sizeof(double));
 	a->zlag = xcalloc(n, sizeof(double));
 	a->zsum = m->has_const ? NULL : xcalloc(n, sizeof(double));
 	a->zprev = xcalloc(n, sizeof(double));
 	a->flag = xcalloc(n, 1);
+	a->live = xcalloc(n / ACC_CHUNK + 1, 1);
 	return a;
 }
 
@@ -404,70 +416,135 @@ void glm_acc_free(glm_acc *a)
 	free(a->zsum);
 	free(a->zprev);
 	free(a->flag);
+	free(a->live);
 	free(a);
 }
 
-/* acc += A[:, k0:k0+nb] Z', one pass over the accumulators per batch. */
+/* 1 when the pending values of voxels v0..v1-1 are all zero. */
+static int batch_zero(const glm_acc *a, size_t v0, size_t v1)
+{
+	int b;
+	size_t v;
+
+	for (b = 0; b < a->nb; b++) {
+		const double *z = a->zbuf + (size_t)b * a->nvox;
+
+		for (v = v0; v < v1; v++)
+			if (z[v] != 0.0)
+				return 0;
+	}
+	return 1;
+}
+
+/* acc += A[:, k0:k0+nb] Z', one pass over the accumulators per batch, chunk by chunk. */
 static void acc_flush(glm_acc *a)
 {
 	const glm_model *m = a->m;
 	int r2 = 2 * m->r, k0 = a->k - a->nb;
+	size_t v0;
 
 	if (a->nb == 0 || a->nvox == 0)
 		return;
-	cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, r2, (int)a->nvox, a->nb, 1.0,
-		    m->A + (size_t)r2 * k0, r2, a->zbuf, (int)a->nvox, 1.0, a->acc, r2);
+	for (v0 = 0; v0 < a->nvox; v0 += ACC_CHUNK) {
+		size_t v1 = a->nvox - v0 < ACC_CHUNK ? a->nvox : v0 + ACC_CHUNK;
+
+		if (!a->live[v0 / ACC_CHUNK] || batch_zero(a, v0, v1))
+			continue;
+		cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, r2, (int)(v1 - v0), a->nb, 1.0,
+			    m->A + (size_t)r2 * k0, r2, a->zbuf + v0, (int)a->nvox, 1.0,
+			    a->acc + (size_t)r2 * v0, r2);
+	}
 	a->nb = 0;
 }
 
+/* 1 when voxels v0..v1-1 of vol are all +0 (a -0 is not: it would reach a mean's sign). */
+static int vol_zero(const double *vol, size_t v0, size_t v1)
+{
+	size_t v;
+
+	for (v = v0; v < v1; v++)
+		if (vol[v] != 0.0 || signbit(vol[v]))
+			return 0;
+	return 1;
+}
+
+/* The first volume, voxels v0..v1-1: y0 and the first shifted values. */
+static void add_first(glm_acc *a, const double *vol, double *zb, size_t v0, size_t v1)
+{
+	int shift = a->m->has_const;
+	size_t v;
+
+	for (v = v0; v < v1; v++) {
+		double y = vol[v], z = shift ? 0.0 : y;
+
+		a->y0[v] = y;
+		if (!isfinite(y)) {
+			a->flag[v] = ACC_BAD;
+			z = 0.0;
+		}
+		zb[v] = z;
+		a->zz[v] = z * z;
+		if (a->zsum)
+			a->zsum[v] = z;
+		a->zprev[v] = z;
+	}
+}
+
+/* A later volume, voxels v0..v1-1. */
+static void add_next(glm_acc *a, const double *vol, double *zb, size_t v0, size_t v1)
+{
+	double *y0 = a->y0, *zz = a->zz, *zlag = a->zlag, *zsum = a->zsum, *zp = a->zprev;
+	unsigned char *fl = a->flag;
+	int shift = a->m->has_const;
+	size_t v;
+
+	for (v = v0; v < v1; v++) {
+		double y = vol[v], z = shift ? y - y0[v] : y;
+
+		if (!isfinite(z)) {
+			fl[v] |= ACC_BAD;
+			z = 0.0;
+		}
+		if (y != y0[v])
+			fl[v] |= ACC_VARIES;
+		zb[v] = z;
+		zz[v] += z * z;
+		zlag[v] += z * zp[v];
+		zp[v] = z;
+	}
+	if (zsum)
+		for (v = v0; v < v1; v++)
+			zsum[v] += zb[v];
+}
+
+/*
+ * Adds a volume chunk by chunk. A chunk that has held only +0 in every
+ * volume so far is left alone while its values stay +0: its sums, its y0 and
+ * its pending rows are all +0, exactly what the updates would have left there
+ * (0 - 0, 0 * 0 and 0 + 0 are +0).
+ */
 sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
 {
-	size_t v, nvox = a->nvox;
+	size_t nvox = a->nvox, v0;
 	double *zb = a->zbuf + (size_t)a->nb * nvox;
 
 	if (a->k >= a->m->T)
 		return sr_fail(e, SR_EDIM, "more volumes than the design's %d rows", a->m->T);
 	if (nvox > INT32_MAX)
 		return sr_fail(e, SR_EDIM, "too many voxels for one fit");
-	if (a->k == 0) {
-		int shift = a->m->has_const;
+	for (v0 = 0; v0 < nvox; v0 += ACC_CHUNK) {
+		size_t v1 = nvox - v0 < ACC_CHUNK ? nvox : v0 + ACC_CHUNK;
+		unsigned char *live = &a->live[v0 / ACC_CHUNK];
 
-		for (v = 0; v < nvox; v++) {
-			double y = vol[v], z = shift ? 0.0 : y;
-
-			a->y0[v] = y;
-			if (!isfinite(y)) {
-				a->flag[v] = ACC_BAD;
-				z = 0.0;
-			}
-			zb[v] = z;
-			a->zz[v] = z * z;
-			if (a->zsum)
-				a->zsum[v] = z;
-			a->zprev[v] = z;
+		if (!*live) {
+			if (vol_zero(vol, v0, v1))
+				continue;
+			*live = 1;
 		}
-	} else {
-		double *y0 = a->y0, *zz = a->zz, *zlag = a->zlag, *zsum = a->zsum, *zp = a->zprev;
-		unsigned char *fl = a->flag;
-		int shift = a->m->has_const;
-
-		for (v = 0; v < nvox; v++) {
-			double y = vol[v], z = shift ? y - y0[v] : y;
-
-			if (!isfinite(z)) {
-				fl[v] |= ACC_BAD;
-				z = 0.0;
-			}
-			if (y != y0[v])
-				fl[v] |= ACC_VARIES;
-			zb[v] = z;
-			zz[v] += z * z;
-			zlag[v] += z * zp[v];
-			zp[v] = z;
-		}
-		if (zsum)
-			for (v = 0; v < nvox; v++)
-				zsum[v] += zb[v];
+		if (a->k == 0)
+			add_first(a, vol, zb, v0, v1);
+		else
+			add_next(a, vol, zb, v0, v1);
 	}
 	a->k++;
 	a->nb++;

@@ -474,6 +474,82 @@ static void test_threads(void)
 	free(vol);
 }
 
+/*
+ * Volume k of the zero-background layout: zeros, a block of real series,
+ * -0, a block that is zero for 10 volumes (into the middle of a batch) and
+ * then varies, zeros again; with force, every 64th voxel also varies, so
+ * that no chunk of the accumulator holds only zeros.
+ */
+static void zero_layout(double *vol, int nv, int k, int force)
+{
+	int v;
+
+	for (v = 0; v < nv; v++) {
+		uint64_t st = (uint64_t)v * 1000003u + (uint64_t)k + 1, *s = &st; /* noise fixed by (v, k) */
+		double y = 0.0;
+
+		if (v >= 6000 && v < 9000)
+			y = 500 + v % 5 + nrand(s);
+		else if (v >= 9000 && v < 16000)
+			y = -0.0;
+		else if (v >= 17000 && v < 17100)
+			y = k < 10 ? 0.0 : 300 + nrand(s);
+		if (force && v % 64 == 0)
+			y = 700 + nrand(s);
+		vol[v] = y;
+	}
+}
+
+/* Skipping the all-zero parts of the volumes (glm.c's chunks) changes no voxel's numbers. */
+static void zero_background(int with_const)
+{
+	enum { T = 37, P = 4, NV = 24000 };
+	double X[T * P], *vol = xmalloc_array(NV, sizeof(double)), C[P] = { 1, -1, 0, 0 };
+	glm_out o[2];
+	glm_model *m;
+	sr_err e;
+	uint64_t s = 77;
+	int n, k, v, same = 1;
+
+	sr_err_init(&e, NULL, NULL);
+	random_design(X, T, P, &s);
+	for (k = 0; !with_const && k < T; k++)
+		X[(size_t)3 * T + k] = cos(k * 0.3); /* random_design ends with a constant: replace it */
+	glm_model_make(X, T, P, &m, &e);
+	for (n = 0; n < 2; n++) {
+		glm_acc *a = glm_acc_alloc(m, NV);
+
+		for (k = 0; k < T; k++) {
+			zero_layout(vol, NV, k, n);
+			glm_acc_add(a, vol, &e);
+		}
+		glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 2, &o[n], &e);
+		glm_acc_free(a);
+	}
+	for (v = 0; v < NV; v++) {
+		if (v % 64 == 0)
+			continue;
+		same &= memcmp(&o[0].effect[v], &o[1].effect[v], sizeof(double)) == 0;
+		same &= memcmp(&o[0].var[v], &o[1].var[v], sizeof(double)) == 0;
+		same &= memcmp(&o[0].rho[v], &o[1].rho[v], sizeof(double)) == 0;
+		same &= memcmp(&o[0].mean[v], &o[1].mean[v], sizeof(double)) == 0;
+		same &= o[0].ok[v] == o[1].ok[v] && o[0].rule[v] == o[1].rule[v];
+	}
+	CHECK(o[0].ok[7001] && o[0].ok[17050] && !o[0].ok[100] && !o[0].ok[12500],
+	      "zero background (constant column %d): series analyzable, zeros and -0 not", with_const);
+	CHECK(same, "zero background (constant column %d): every voxel's effect, var, rho, mean and rule bit-identical when no chunk is all zeros", with_const);
+	for (n = 0; n < 2; n++)
+		glm_out_release(&o[n]);
+	glm_model_free(m);
+	free(vol);
+}
+
+static void test_zero_background(void)
+{
+	zero_background(1);
+	zero_background(0); /* no constant: the means are sums, where a -0 would show */
+}
+
 int main(void)
 {
 	test_longley();
@@ -484,5 +560,6 @@ int main(void)
 	test_analyzable();
 	test_ffx();
 	test_threads();
+	test_zero_background();
 	return TEST_DONE();
 }
