@@ -10,6 +10,7 @@
 #include <unistd.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/sbuf.h"
 #include "../io/afile.h"
 #include "../io/bids.h"
@@ -442,7 +443,7 @@ static void plan_release(plan *P)
 	free(P->q_study);
 	free(P->q_out);
 	free(P->todo);
-	bids_strings_free(P->subs, P->nsub);
+	strv_free_array(P->subs, P->nsub);
 	if (P->study_loaded)
 		study_release(&P->st);
 }

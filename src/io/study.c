@@ -16,6 +16,7 @@
 #include <ini.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/text.h"
 #include "readall.h"
 
@@ -716,15 +717,6 @@ static char **words(const char *s, size_t *n)
 	return w;
 }
 
-static void free_words(char **w, size_t n)
-{
-	size_t i;
-
-	for (i = 0; i < n; i++)
-		free(w[i]);
-	free(w);
-}
-
 /* Names that must not repeat (confound and motion columns). */
 static char **name_list(struct loader *ld, const struct entry *e, size_t *n)
 {
@@ -1272,7 +1264,7 @@ static void measure_localizers(struct loader *ld, const study *s, study_measure 
 			m->localizers = xrealloc(m->localizers, (m->nlocalizers + 1) * sizeof *m->localizers);
 			m->localizers[m->nlocalizers++] = xstrdup(w[i]);
 		}
-		free_words(w, k);
+		strv_free_array(w, k);
 	} else {
 		m->localizers = xcalloc(s->nlocs ? s->nlocs : 1, sizeof *m->localizers);
 		for (j = 0; j < s->nlocs; j++)
@@ -1503,20 +1495,20 @@ void study_release(study *s)
 	free(s->space);
 	free(s->desc);
 	free(s->res);
-	free_words(s->subjects, s->nsubjects);
+	strv_free_array(s->subjects, s->nsubjects);
 	/* the flat localizer fields alias locs[0] */
 	for (i = 0; i < s->nlocs; i++)
 		localizer_release(&s->locs[i]);
 	free(s->locs);
 	free(s->condition_column);
-	free_words(s->confounds, s->nconfounds);
+	strv_free_array(s->confounds, s->nconfounds);
 	free(s->confounds_suffix);
-	free_words(s->motion, s->nmotion);
+	strv_free_array(s->motion, s->nmotion);
 	for (i = 0; i < s->nmeasures; i++) {
 		free(s->measures[i].name);
 		free(s->measures[i].task);
 		expr_list_free(s->measures[i].effects, s->measures[i].neffects);
-		free_words(s->measures[i].localizers, s->measures[i].nlocalizers);
+		strv_free_array(s->measures[i].localizers, s->measures[i].nlocalizers);
 	}
 	free(s->measures);
 	for (i = 0; i < s->nkeys; i++) {

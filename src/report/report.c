@@ -58,15 +58,6 @@ static void add_unique(char ***v, size_t *n, const char *s)
 	(*v)[(*n)++] = xstrdup(s);
 }
 
-static void free_strs(char **v, size_t n)
-{
-	size_t i;
-
-	for (i = 0; i < n; i++)
-		free(v[i]);
-	free(v);
-}
-
 /* Prints a cell: numbers as %.4g (right aligned), text escaped. */
 static void cell(sbuf *b, const char *s)
 {
@@ -229,12 +220,12 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 			free(ch[pi].bars);
 			free(ch[pi].dots);
 			free(ch[pi].split);
-			free_strs(ch[pi].effects, ch[pi].ne);
+			strv_free_array(ch[pi].effects, ch[pi].ne);
 		}
 		free(ch);
 	}
-	free_strs(tasks, nt);
-	free_strs(parcels, np);
+	strv_free_array(tasks, nt);
+	strv_free_array(parcels, np);
 }
 
 /*
@@ -398,7 +389,7 @@ static char **table_localizers(const table *t, size_t *n)
 		if (find(v, *n, table_cell(t, r, (size_t)c)) < 0)
 			add_unique(&v, n, table_cell(t, r, (size_t)c));
 	if (*n < 2) {
-		free_strs(v, *n);
+		strv_free_array(v, *n);
 		*n = 0;
 		return NULL;
 	}
@@ -559,7 +550,7 @@ static void timecourse_section(sbuf *b, const char *out, int *uid)
 		if (have_all)
 			table_view_release(&av);
 	}
-	free_strs(locs, nl);
+	strv_free_array(locs, nl);
 	table_release(&g);
 	if (have_all)
 		table_release(&all);
@@ -632,14 +623,14 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 		free(ch[k].parcel);
 		free(ch[k].split);
 		free(ch[k].task);
-		free_strs(ch[k].cond, ch[k].ncond);
+		strv_free_array(ch[k].cond, ch[k].ncond);
 	}
 	sb_puts(b, "</div>\n");
 	free(ch);
 	free(cvs);
 	free(tv);
-	free_strs(times, nb);
-	free_strs(subs, ns);
+	strv_free_array(times, nb);
+	strv_free_array(subs, ns);
 }
 
 /* The group summary of reliability.csv (reliability_group.csv) as a table. */
@@ -756,8 +747,8 @@ static void response_charts(sbuf *b, sbuf *sum, const table *resp, const cols *c
 			table_view_release(&v);
 		}
 	}
-	free_strs(locs, nl);
-	free_strs(sl, ns);
+	strv_free_array(locs, nl);
+	strv_free_array(sl, ns);
 }
 
 /* group.csv as a table, or a note that there is none. */
@@ -780,7 +771,7 @@ static void group_section(sbuf *b, table *group, int have_group)
 	gl = table_localizers(group, &ngl);
 	/* the localizer leads only when there are several (else it follows the numbers) */
 	table_html(b, group, "group", ngl ? lead : lead + 1);
-	free_strs(gl, ngl);
+	strv_free_array(gl, ngl);
 	sb_puts(b, "</div>\n");
 }
 
@@ -802,7 +793,7 @@ int report_write(const char *out, int quiet)
 	have_resp = table_read(path, ',', &resp, &e) == SR_OK;
 	if (!have_resp && !nsub) {
 		fprintf(stderr, "splitroi report: %s holds no results (no responses.csv, no sub-*/run.json)\n", out);
-		free_strs(labels, nsub);
+		strv_free_array(labels, nsub);
 		return 1;
 	}
 	if (!have_resp)
@@ -861,6 +852,6 @@ int report_write(const char *out, int quiet)
 	for (i = 0; i < nsub; i++)
 		rsub_release(&subs[i]);
 	free(subs);
-	free_strs(labels, nsub);
+	strv_free_array(labels, nsub);
 	return rc;
 }

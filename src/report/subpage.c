@@ -70,15 +70,6 @@ static char **list_dir(const char *dir, const char *prefix, const char *suffix, 
 	return v;
 }
 
-static void free_list(char **v, size_t n)
-{
-	size_t i;
-
-	for (i = 0; i < n; i++)
-		free(v[i]);
-	free(v);
-}
-
 /* Reads a 3-D image on the page's grid; NULL (with a note in e) when missing or elsewhere. */
 static double *read_on_grid(page *pg, const char *path, sr_err *e)
 {
@@ -248,7 +239,7 @@ static void load_maps(page *pg, sr_err *e)
 			if (!is_all)
 				pg->ndefine = pg->nmaps;
 		}
-	free_list(tok, n);
+	strv_free_array(tok, n);
 }
 
 /* The mean image: the first func/sub-<l>_*_boldref.nii.gz in name order, into path; 0 if none. */
@@ -263,7 +254,7 @@ static int boldref_path(const page *pg, char *path, size_t len)
 	tok = list_dir(mdir, prefix, "_boldref.nii.gz", &n);
 	if (n)
 		snprintf(path, len, "%s/%s%s_boldref.nii.gz", mdir, prefix, tok[0]);
-	free_list(tok, n);
+	strv_free_array(tok, n);
 	return n > 0;
 }
 
@@ -491,7 +482,6 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 }
 
 static char **words(const char *s, size_t *n);
-static void free_list(char **v, size_t n);
 
 /* The run a design file (task-<task>_run-<run>) belongs to; NULL when unknown. */
 static const runrec_run *design_run(const page *pg, const char *name)
@@ -634,7 +624,7 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 	free(nmarks);
 	free(kind);
 	free(val);
-	free_list(conf, nconf);
+	strv_free_array(conf, nconf);
 	table_release(&t);
 }
 
@@ -652,7 +642,7 @@ static void designs(page *pg, sbuf *b)
 		snprintf(path, sizeof path, "%s/%s.csv", ddir, names[i]);
 		design_figure(pg, b, path, names[i]);
 	}
-	free_list(names, n);
+	strv_free_array(names, n);
 }
 
 /* Splits a space/comma separated list. */
@@ -768,7 +758,7 @@ static void motion(page *pg, rsub *s, sbuf *b)
 		sb_release(&charts);
 	}
 out:
-	free_list(cols, ncols);
+	strv_free_array(cols, ncols);
 	free(mtext);
 	free(units);
 	free(thr);
@@ -913,12 +903,12 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		tok = list_dir(mdir, prefix, "_dseg.nii.gz", &n);
 		if (!n || (snprintf(path, sizeof path, "%s/%s%s_dseg.nii.gz", mdir, prefix, tok[0]),
 			   nii_read_info(path, &in, NULL))) {
-			free_list(tok, n);
+			strv_free_array(tok, n);
 			page_release(&pg);
 			return sr_fail(e, SR_EIO, "%s: no maps to show (the _boldref.nii.gz and _dseg.nii.gz images are missing)",
 				       mdir);
 		}
-		free_list(tok, n);
+		strv_free_array(tok, n);
 	}
 	pg.g = in.grid;
 	pg.nx = (size_t)in.grid.nx;
