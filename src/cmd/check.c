@@ -37,12 +37,12 @@ static const cmdline_spec spec = {
 /* A growing list of strings (problems, warnings, condition names). */
 typedef struct strlist {
 	char **s;
-	size_t n;
+	size_t n, cap;
 } strlist;
 
 static void sl_push(strlist *l, const char *s)
 {
-	l->s = xrealloc(l->s, (l->n + 1) * sizeof *l->s);
+	XGROW(l->s, l->n, l->cap);
 	l->s[l->n++] = xstrdup(s);
 }
 
@@ -70,7 +70,7 @@ static void sl_free(strlist *l)
 		free(l->s[i]);
 	free(l->s);
 	l->s = NULL;
-	l->n = 0;
+	l->n = l->cap = 0;
 }
 
 /* The state of one check: what is wrong, what deserves a warning. */

@@ -94,11 +94,11 @@ struct loader {
 	enum line_kind after;
 	int continuation;      /* the line handed out continues the previous key */
 	struct entry *ent;
-	size_t nent;
+	size_t nent, capent;
 	struct section *sec;
-	size_t nsec;
+	size_t nsec, capsec;
 	struct problem *prob;
-	size_t nprob;
+	size_t nprob, capprob;
 };
 
 static void prob(struct loader *ld, size_t line, const char *fmt, ...)
@@ -116,7 +116,7 @@ static void prob(struct loader *ld, size_t line, const char *fmt, ...)
 		snprintf(full, sizeof full, "%s: line %zu: %s", ld->path, line, body);
 	else
 		snprintf(full, sizeof full, "%s: %s", ld->path, body);
-	ld->prob = xrealloc(ld->prob, (ld->nprob + 1) * sizeof *ld->prob);
+	XGROW(ld->prob, ld->nprob, ld->capprob);
 	ld->prob[ld->nprob].line = line;
 	ld->prob[ld->nprob].seq = ld->nprob;
 	ld->prob[ld->nprob].msg = xstrdup(full);
@@ -263,7 +263,7 @@ static char *reader(char *buf, int num, void *stream)
 			return give_blank(buf);
 		}
 		snprintf(ld->cursec, sizeof ld->cursec, "%s", inner);
-		ld->sec = xrealloc(ld->sec, (ld->nsec + 1) * sizeof *ld->sec);
+		XGROW(ld->sec, ld->nsec, ld->capsec);
 		ld->sec[ld->nsec].name = xstrdup(inner);
 		ld->sec[ld->nsec].line = ld->line;
 		ld->nsec++;
@@ -347,7 +347,7 @@ static int handler(void *user, const char *section, const char *name, const char
 		memcpy(e->value + a, value, b + 1);
 		return 1;
 	}
-	ld->ent = xrealloc(ld->ent, (ld->nent + 1) * sizeof *ld->ent);
+	XGROW(ld->ent, ld->nent, ld->capent);
 	e = &ld->ent[ld->nent++];
 	e->section = xstrdup(ld->cursec);
 	e->key = xstrdup(name);
@@ -697,7 +697,7 @@ static int choice(struct loader *ld, const struct entry *e, const char *const *w
 static char **words(const char *s, size_t *n)
 {
 	char **w = NULL;
-	size_t k = 0;
+	size_t k = 0, cap = 0;
 
 	while (*s) {
 		size_t len;
@@ -706,7 +706,7 @@ static char **words(const char *s, size_t *n)
 		len = strcspn(s, " \t,");
 		if (len == 0)
 			break;
-		w = xrealloc(w, (k + 1) * sizeof *w);
+		XGROW(w, k, cap);
 		w[k] = xmalloc(len + 1);
 		memcpy(w[k], s, len);
 		w[k][len] = '\0';
