@@ -8,6 +8,7 @@
 #include <unistd.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/pool.h"
 #include "../io/afile.h"
 #include "../io/bids.h"
@@ -444,8 +445,8 @@ out_parcels:
 	parcels_release(&ps);
 	progress_release(&prog);
 out_subs:
-	bids_strings_free(todo, ntodo);
-	bids_strings_free(subs, nsub);
+	strv_free_array(todo, ntodo);
+	strv_free_array(subs, nsub);
 	study_release(&st);
 	return rc;
 }

@@ -37,12 +37,12 @@ static const cmdline_spec spec = {
 /* A growing list of strings (problems, warnings, condition names). */
 typedef struct strlist {
 	char **s;
-	size_t n;
+	size_t n, cap;
 } strlist;
 
 static void sl_push(strlist *l, const char *s)
 {
-	l->s = xrealloc(l->s, (l->n + 1) * sizeof *l->s);
+	XGROW(l->s, l->n, l->cap);
 	l->s[l->n++] = xstrdup(s);
 }
 
@@ -70,7 +70,7 @@ static void sl_free(strlist *l)
 		free(l->s[i]);
 	free(l->s);
 	l->s = NULL;
-	l->n = 0;
+	l->n = l->cap = 0;
 }
 
 /* The state of one check: what is wrong, what deserves a warning. */
@@ -405,7 +405,7 @@ static void check_subject(checker *c, const char *label, studycheck_task *tasks,
 			for (k = 0; k < nsp; k++)
 				printf("%s %s", k ? "," : "", sp[k]);
 			printf("%s)", nsp ? "" : " none");
-			bids_strings_free(sp, nsp);
+			strv_free_array(sp, nsp);
 		}
 		printf("\n");
 		print_task_runs(st, ts);
@@ -426,7 +426,7 @@ static void check_subject_masks(checker *c, char **subs, size_t nsub, const stud
 		if (read)
 			printf("mask sub-%s: %s%s: %zu voxels%s\n", subs[s], paths[0],
 			       n > 1 ? " and the other runs' brain masks" : "", count, n > 1 ? " in all of them" : "");
-		bids_strings_free(paths, n);
+		strv_free_array(paths, n);
 	}
 }
 
@@ -498,10 +498,10 @@ static int pick_subjects(checker *c, const char *only, char ***out, size_t *n)
 		for (i = 0; i < bad.n; i++)
 			cmdline_error("check", "%s", bad.msg[i]);
 		study_problems_release(&bad);
-		bids_strings_free(all, nall);
+		strv_free_array(all, nall);
 		return 2;
 	}
-	bids_strings_free(all, nall);
+	strv_free_array(all, nall);
 	if (*n)
 		qsort(*out, *n, sizeof **out, strv_cmp);
 	else if (!c->probs.n)
@@ -578,7 +578,7 @@ int cmd_check(int argc, char **argv)
 		rc = 0;
 	}
 out:
-	bids_strings_free(subs, nsub);
+	strv_free_array(subs, nsub);
 	sl_free(&c.warns);
 	study_problems_release(&c.probs);
 	study_release(&st);

@@ -6,6 +6,7 @@
 
 #include "../core/expr.h"
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../io/bids.h"
 #include "../io/nii.h"
 #include "../io/study.h"
@@ -84,15 +85,6 @@ static char **split_list(const char *s, int spaces, int *n)
 	free(copy);
 	*n = k;
 	return v;
-}
-
-static void free_list(char **v, int n)
-{
-	int i;
-
-	for (i = 0; i < n; i++)
-		free(v[i]);
-	free(v);
 }
 
 /* path with its _bold.nii[.gz] ending replaced by suffix (NULL when it has no such ending). */
@@ -271,10 +263,10 @@ out:
 
 static void study_inputs_release(study_inputs *in)
 {
-	free_list(in->bold, in->nrun);
-	free_list(in->events, in->nrun);
-	free_list(in->confs, in->confs ? in->nrun : 0);
-	free_list(in->ccols, in->nccol);
+	strv_free_array(in->bold, (size_t)in->nrun);
+	strv_free_array(in->events, (size_t)in->nrun);
+	strv_free_array(in->confs, (size_t)(in->confs ? in->nrun : 0));
+	strv_free_array(in->ccols, (size_t)in->nccol);
 	free(in->tr);
 	free(in->condcol);
 	free(in->mask);
@@ -505,9 +497,9 @@ static int parse_effects(fit_args *a)
 static void fit_args_release(fit_args *a)
 {
 	expr_list_free(a->fx, a->nfx);
-	free_list(a->events, a->nev);
-	free_list(a->confs, a->nconf);
-	free_list(a->ccols, a->nccol);
+	strv_free_array(a->events, (size_t)a->nev);
+	strv_free_array(a->confs, (size_t)a->nconf);
+	strv_free_array(a->ccols, (size_t)a->nccol);
 	free(a->tr);
 	free(a->pos);
 	study_inputs_release(&a->si);

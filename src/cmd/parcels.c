@@ -635,7 +635,7 @@ out:
 	free(w.qcache);
 	pset_release(&full);
 	if (subs)
-		bids_strings_free(subs, nsub);
+		strv_free_array(subs, nsub);
 	study_release(&st);
 	return rc;
 }

@@ -10,6 +10,7 @@
 #include <unistd.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/sbuf.h"
 #include "../io/afile.h"
 #include "../io/bids.h"
@@ -308,14 +309,14 @@ static int run_capture(const char *cmd, sbuf *out)
 	int st;
 
 	out->n = 0;
-	sb_printf(out, "%s", "");
+	sbuf_printf(out, "%s", "");
 	fflush(stdout);
 	p = popen(cmd, "r");
 	if (!p)
 		return -1;
 	while ((k = fread(buf, 1, sizeof buf - 1, p)) > 0) {
 		buf[k] = 0;
-		sb_printf(out, "%s", buf);
+		sbuf_printf(out, "%s", buf);
 	}
 	st = pclose(p);
 	if (st == -1 || !WIFEXITED(st))
@@ -442,7 +443,7 @@ static void plan_release(plan *P)
 	free(P->q_study);
 	free(P->q_out);
 	free(P->todo);
-	bids_strings_free(P->subs, P->nsub);
+	strv_free_array(P->subs, P->nsub);
 	if (P->study_loaded)
 		study_release(&P->st);
 }
@@ -815,13 +816,13 @@ static void suggest(plan *P)
 /* The #SBATCH lines every job shares. */
 static void sbatch_common(sbuf *b, const plan *P, const char *log_pattern)
 {
-	sb_printf(b, "#SBATCH --job-name=%s\n", P->name);
+	sbuf_printf(b, "#SBATCH --job-name=%s\n", P->name);
 	if (P->val[O_PARTITION])
-		sb_printf(b, "#SBATCH --partition=%s\n", P->val[O_PARTITION]);
+		sbuf_printf(b, "#SBATCH --partition=%s\n", P->val[O_PARTITION]);
 	if (P->val[O_ACCOUNT])
-		sb_printf(b, "#SBATCH --account=%s\n", P->val[O_ACCOUNT]);
+		sbuf_printf(b, "#SBATCH --account=%s\n", P->val[O_ACCOUNT]);
 	/* #SBATCH lines are not shell: no quoting, so the log folder must be free of spaces (checked) */
-	sb_printf(b, "#SBATCH --output=%s/%s\n", P->logs, log_pattern);
+	sbuf_printf(b, "#SBATCH --output=%s/%s\n", P->logs, log_pattern);
 }
 
 /* The path of array a's script (1-based in the name). Caller frees. */
@@ -843,32 +844,32 @@ static sr_status write_array(const plan *P, size_t a, sbuf *b, sr_err *e)
 	sr_status rc;
 
 	b->n = 0;
-	sb_printf(b, "#!/bin/bash\n# written by splitroi slurm for %s\n", P->study_abs);
-	sb_printf(b, "# array %zu of %zu: tasks %zu-%zu of %zu, sub-%s to sub-%s, %ld subject(s) a task\n", a + 1,
+	sbuf_printf(b, "#!/bin/bash\n# written by splitroi slurm for %s\n", P->study_abs);
+	sbuf_printf(b, "# array %zu of %zu: tasks %zu-%zu of %zu, sub-%s to sub-%s, %ld subject(s) a task\n", a + 1,
 		  P->narrays, A->first + 1, A->first + A->n, P->ntasks, P->todo[t0->first],
 		  P->todo[tl->first + tl->n - 1], P->per_task);
 	sbatch_common(b, P, "task-%A_%a.out");
-	sb_printf(b, "#SBATCH --array=1-%zu", A->n);
+	sbuf_printf(b, "#SBATCH --array=1-%zu", A->n);
 	if (P->max_running)
-		sb_printf(b, "%%%ld", P->max_running);
-	sb_printf(b, "\n#SBATCH --ntasks=1\n#SBATCH --cpus-per-task=%ld\n", P->cpus);
-	sb_printf(b, "#SBATCH --mem=%s\n#SBATCH --time=%s\n", P->memtxt, P->timetxt);
+		sbuf_printf(b, "%%%ld", P->max_running);
+	sbuf_printf(b, "\n#SBATCH --ntasks=1\n#SBATCH --cpus-per-task=%ld\n", P->cpus);
+	sbuf_printf(b, "#SBATCH --mem=%s\n#SBATCH --time=%s\n", P->memtxt, P->timetxt);
 	if (!P->val[O_MEM])
-		sb_printf(b, "# --mem suggested for sub-%s (%.0f voxels x %.0f runs): peak measured model plus 50%%\n",
+		sbuf_printf(b, "# --mem suggested for sub-%s (%.0f voxels x %.0f runs): peak measured model plus 50%%\n",
 			  P->largest ? P->largest : "?", P->worst.voxels, P->worst.runs);
 	if (P->max_running && P->narrays > 1)
-		sb_printf(b, "# --max-running %ld: this array waits for the one before it, so no more run at once\n",
+		sbuf_printf(b, "# --max-running %ld: this array waits for the one before it, so no more run at once\n",
 			  P->max_running);
-	sb_printf(b, "set -u\ncase ${SLURM_ARRAY_TASK_ID:-} in\n");
+	sbuf_printf(b, "set -u\ncase ${SLURM_ARRAY_TASK_ID:-} in\n");
 	for (t = 0; t < A->n; t++) {
 		const task *T = &P->tasks[A->first + t];
 
-		sb_printf(b, "%zu) labels='", t + 1);
+		sbuf_printf(b, "%zu) labels='", t + 1);
 		for (k = 0; k < T->n; k++)
-			sb_printf(b, "%s%s", k ? " " : "", P->todo[T->first + k]);
-		sb_printf(b, "' ;;\n");
+			sbuf_printf(b, "%s%s", k ? " " : "", P->todo[T->first + k]);
+		sbuf_printf(b, "' ;;\n");
 	}
-	sb_printf(b,
+	sbuf_printf(b,
 		  "*) echo \"splitroi slurm: this array has no task '${SLURM_ARRAY_TASK_ID:-}'\" >&2; exit 1 ;;\n"
 		  "esac\n"
 		  "logs=%s\n"
@@ -900,10 +901,10 @@ static sr_status write_arrays(const plan *P, sbuf *b, sr_err *e)
 
 	snprintf(path, sizeof path, "%s/subjects.txt", P->dir);
 	b->n = 0;
-	sb_printf(b, "%s", "");
+	sbuf_printf(b, "%s", "");
 	for (i = 0; i < P->ntasks; i++)
 		for (k = 0; k < P->tasks[i].n; k++)
-			sb_printf(b, "%s%s", P->todo[P->tasks[i].first + k], k + 1 < P->tasks[i].n ? " " : "\n");
+			sbuf_printf(b, "%s%s", P->todo[P->tasks[i].first + k], k + 1 < P->tasks[i].n ? " " : "\n");
 	rc = write_file(path, b->p, 0, e);
 	for (i = 0; !rc && i < P->narrays; i++)
 		rc = write_array(P, i, b, e);
@@ -929,10 +930,10 @@ static sr_status write_group(const plan *P, sbuf *b, sr_err *e)
 
 	snprintf(path, sizeof path, "%s/group.sbatch", P->dir);
 	b->n = 0;
-	sb_printf(b, "#!/bin/bash\n# written by splitroi slurm for %s: the combined and group tables\n", P->study_abs);
+	sbuf_printf(b, "#!/bin/bash\n# written by splitroi slurm for %s: the combined and group tables\n", P->study_abs);
 	sbatch_common(b, P, "group-%j.out");
-	sb_printf(b, "#SBATCH --ntasks=1\n#SBATCH --cpus-per-task=1\n#SBATCH --mem=1G\n#SBATCH --time=30:00\n");
-	sb_printf(b, "set -u\nexec %s analyze %s --out %s --collect\n", P->q_bin, P->q_study, P->q_out);
+	sbuf_printf(b, "#SBATCH --ntasks=1\n#SBATCH --cpus-per-task=1\n#SBATCH --mem=1G\n#SBATCH --time=30:00\n");
+	sbuf_printf(b, "set -u\nexec %s analyze %s --out %s --collect\n", P->q_bin, P->q_study, P->q_out);
 	return write_file(path, b->p, 0, e);
 }
 
@@ -949,7 +950,7 @@ static sr_status write_submit_sh(const plan *P, sbuf *b, sr_err *e)
 	q_rec = shq(path);
 	snprintf(path, sizeof path, "%s/submit.sh", P->dir);
 	b->n = 0;
-	sb_printf(b, "#!/bin/sh\n# written by splitroi slurm: submits the %zu subject array(s), then the group step after all of them\n"
+	sbuf_printf(b, "#!/bin/sh\n# written by splitroi slurm: submits the %zu subject array(s), then the group step after all of them\n"
 		  "set -u\nrecord=%s\nsubmitted=''\n"
 		  "fail() {\n"
 		  "\tif [ -n \"$submitted\" ]; then scancel $submitted && echo \"submit.sh: cancelled jobs$submitted\" >&2; fi\n"
@@ -960,34 +961,34 @@ static sr_status write_submit_sh(const plan *P, sbuf *b, sr_err *e)
 		char *s = array_script(P, a);
 
 		q = shq(s);
-		sb_printf(b, "a%zu=$(sbatch --parsable ", a + 1);
+		sbuf_printf(b, "a%zu=$(sbatch --parsable ", a + 1);
 		if (P->max_running && a > 0)
-			sb_printf(b, "--dependency=afterany:$a%zu ", a);
-		sb_printf(b, "%s) || fail %s\na%zu=${a%zu%%%%;*}\nsubmitted=\"$submitted $a%zu\"\n", q, q, a + 1, a + 1, a + 1);
+			sbuf_printf(b, "--dependency=afterany:$a%zu ", a);
+		sbuf_printf(b, "%s) || fail %s\na%zu=${a%zu%%%%;*}\nsubmitted=\"$submitted $a%zu\"\n", q, q, a + 1, a + 1, a + 1);
 		free(q);
 		free(s);
 	}
 	snprintf(path, sizeof path, "%s/group.sbatch", P->dir);
 	q = shq(path);
-	sb_printf(b, "group=$(sbatch --parsable ");
+	sbuf_printf(b, "group=$(sbatch --parsable ");
 	if (P->narrays) {
-		sb_printf(b, "--dependency=afterany");
+		sbuf_printf(b, "--dependency=afterany");
 		for (a = 0; a < P->narrays; a++)
-			sb_printf(b, ":$a%zu", a + 1);
-		sb_printf(b, " ");
+			sbuf_printf(b, ":$a%zu", a + 1);
+		sbuf_printf(b, " ");
 	}
-	sb_printf(b, "%s) || fail %s\ngroup=${group%%%%;*}\n", q, q);
+	sbuf_printf(b, "%s) || fail %s\ngroup=${group%%%%;*}\n", q, q);
 	free(q);
 	for (a = 0; a < P->narrays; a++) {
 		char *s = array_script(P, a);
 
 		q = shq(s);
-		sb_printf(b, "sed -n \"s/^\\([0-9]*\\)) labels='\\(.*\\)' ;;\\$/$a%zu \\1 \\2/p\" %s >>\"$record\"\n", a + 1, q);
+		sbuf_printf(b, "sed -n \"s/^\\([0-9]*\\)) labels='\\(.*\\)' ;;\\$/$a%zu \\1 \\2/p\" %s >>\"$record\"\n", a + 1, q);
 		free(q);
 		free(s);
 	}
-	sb_printf(b, "echo \"$group group\" >>\"$record\"\n");
-	sb_printf(b, "echo \"subjects: job(s)$submitted (%zu tasks); group step: job $group\"\n", P->ntasks);
+	sbuf_printf(b, "echo \"$group group\" >>\"$record\"\n");
+	sbuf_printf(b, "echo \"subjects: job(s)$submitted (%zu tasks); group step: job $group\"\n", P->ntasks);
 	snprintf(path, sizeof path, "%s/submit.sh", P->dir);
 	free(q_rec);
 	return write_file(path, b->p, 1, e);
@@ -1053,7 +1054,7 @@ static sr_status record_jobs(const plan *P, char (*ids)[32], const char *grp, sb
 
 	snprintf(path, sizeof path, "%s/jobs.txt", P->dir);
 	b->n = 0;
-	sb_printf(b, "%s", "");
+	sbuf_printf(b, "%s", "");
 	f = fopen(path, "r");
 	if (f) {
 		char buf[8192];
@@ -1061,7 +1062,7 @@ static sr_status record_jobs(const plan *P, char (*ids)[32], const char *grp, sb
 
 		while ((n = fread(buf, 1, sizeof buf - 1, f)) > 0) {
 			buf[n] = 0;
-			sb_printf(b, "%s", buf);
+			sbuf_printf(b, "%s", buf);
 		}
 		fclose(f);
 	}
@@ -1069,12 +1070,12 @@ static sr_status record_jobs(const plan *P, char (*ids)[32], const char *grp, sb
 		for (t = 0; t < P->arrays[a].n; t++) {
 			const task *T = &P->tasks[P->arrays[a].first + t];
 
-			sb_printf(b, "%s %zu", ids[a], t + 1);
+			sbuf_printf(b, "%s %zu", ids[a], t + 1);
 			for (k = 0; k < T->n; k++)
-				sb_printf(b, " %s", P->todo[T->first + k]);
-			sb_printf(b, "\n");
+				sbuf_printf(b, " %s", P->todo[T->first + k]);
+			sbuf_printf(b, "\n");
 		}
-	sb_printf(b, "%s group\n", grp);
+	sbuf_printf(b, "%s group\n", grp);
 	return write_file(path, b->p, 0, e);
 }
 
@@ -1248,7 +1249,7 @@ static int show_status(const plan *P)
 	read_record(P, ss);
 	q = read_queue(P, &nq);
 	/* the accounting, for tasks the queue no longer shows (time limit, memory, cancelled) */
-	sb_printf(&ids, "%s", "");
+	sbuf_printf(&ids, "%s", "");
 	for (i = 0; i < P->nsub; i++) {
 		char one[32];
 
@@ -1256,7 +1257,7 @@ static int show_status(const plan *P)
 			continue;
 		snprintf(one, sizeof one, ",%ld,", ss[i].job);
 		if (!strstr(ids.p, one))
-			sb_printf(&ids, "%s%ld,", ids.n ? "" : ",", ss[i].job);
+			sbuf_printf(&ids, "%s%ld,", ids.n ? "" : ",", ss[i].job);
 	}
 	if (have_sacct && ids.n) {
 		cmd = xmalloc(ids.n + 64);

@@ -8,7 +8,7 @@
 
 #include "mem.h"
 
-void sb_init(sbuf *b)
+void sbuf_init(sbuf *b)
 {
 	b->cap = 4096;
 	b->p = xmalloc(b->cap);
@@ -16,13 +16,13 @@ void sb_init(sbuf *b)
 	b->n = 0;
 }
 
-void sb_release(sbuf *b)
+void sbuf_release(sbuf *b)
 {
 	free(b->p);
 	memset(b, 0, sizeof *b);
 }
 
-void sb_room(sbuf *b, size_t more)
+void sbuf_room(sbuf *b, size_t more)
 {
 	if (b->p && b->n + more + 1 <= b->cap)
 		return;
@@ -33,16 +33,16 @@ void sb_room(sbuf *b, size_t more)
 	b->p = xrealloc(b->p, b->cap);
 }
 
-void sb_puts(sbuf *b, const char *s)
+void sbuf_puts(sbuf *b, const char *s)
 {
 	size_t k = strlen(s);
 
-	sb_room(b, k);
+	sbuf_room(b, k);
 	memcpy(b->p + b->n, s, k + 1);
 	b->n += k;
 }
 
-void sb_printf(sbuf *b, const char *fmt, ...)
+void sbuf_printf(sbuf *b, const char *fmt, ...)
 {
 	va_list ap;
 	int k;
@@ -53,7 +53,7 @@ void sb_printf(sbuf *b, const char *fmt, ...)
 	if (k < 0)
 		return;
 	if (!b->p || (size_t)k >= b->cap - b->n) {
-		sb_room(b, (size_t)k);
+		sbuf_room(b, (size_t)k);
 		va_start(ap, fmt);
 		vsnprintf(b->p + b->n, b->cap - b->n, fmt, ap);
 		va_end(ap);

@@ -6,9 +6,9 @@
 
 /*
  * p[0..n) is the text, always NUL-terminated once anything was added or
- * sb_init ran; cap is the allocated size. A zeroed sbuf ({0}) is a valid empty
- * buffer (p NULL until the first append). The functions keep the short sb_
- * prefix the report's hundreds of calls use. Not thread safe: one buffer per thread.
+ * sbuf_init ran; cap is the allocated size. A zeroed sbuf ({0}) is a valid empty
+ * buffer (p NULL until the first append). The functions carry the module's
+ * name, sbuf_, as their prefix. Not thread safe: one buffer per thread.
  */
 typedef struct sbuf {
 	char *p;
@@ -16,12 +16,12 @@ typedef struct sbuf {
 } sbuf;
 
 /* An empty buffer with room for 4 KiB. */
-void sb_init(sbuf *b);
+void sbuf_init(sbuf *b);
 /* Frees the text and zeroes b (a zeroed b does nothing). */
-void sb_release(sbuf *b);
+void sbuf_release(sbuf *b);
 /* Makes room for more bytes after n plus the NUL. */
-void sb_room(sbuf *b, size_t more);
-void sb_puts(sbuf *b, const char *s);
-void sb_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
+void sbuf_room(sbuf *b, size_t more);
+void sbuf_puts(sbuf *b, const char *s);
+void sbuf_printf(sbuf *b, const char *fmt, ...) __attribute__((format(printf, 2, 3)));
 
 #endif

@@ -29,13 +29,20 @@ void strv_sort(strv *sv)
 		qsort(sv->v, sv->n, sizeof *sv->v, strv_cmp);
 }
 
-void strv_free(strv *sv)
+void strv_free_array(char **v, size_t n)
 {
 	size_t i;
 
-	for (i = 0; i < sv->n; i++)
-		free(sv->v[i]);
-	free(sv->v);
+	if (!v)
+		return;
+	for (i = 0; i < n; i++)
+		free(v[i]);
+	free(v);
+}
+
+void strv_free(strv *sv)
+{
+	strv_free_array(sv->v, sv->n);
 	memset(sv, 0, sizeof *sv);
 }
 

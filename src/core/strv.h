@@ -23,6 +23,12 @@ void strv_sort(strv *sv);
 /* Frees every string and the array, and zeroes sv (a zeroed sv does nothing). */
 void strv_free(strv *sv);
 /*
+ * Frees v[0..n) and v itself: the one release of a bare array of n owned
+ * strings (such as a strv's v and n, or the lists io and pipeline hand out).
+ * v == NULL does nothing.
+ */
+void strv_free_array(char **v, size_t n);
+/*
  * Appends the pieces of s between any of the bytes in seps, each trimmed of
  * spaces and tabs at both ends; empty pieces are kept when keep_empty, else
  * dropped. Returns the number of pieces appended.

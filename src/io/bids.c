@@ -140,20 +140,11 @@ sr_status bids_subjects(const char *root, char ***labels, size_t *n, sr_err *e)
 	closedir(d);
 	*labels = list_prefixed_dirs(root, "sub-", n, e, &st);
 	if (st) {
-		bids_strings_free(*labels, *n);
+		strv_free_array(*labels, *n);
 		*labels = NULL;
 		*n = 0;
 	}
 	return st;
-}
-
-void bids_strings_free(char **s, size_t n)
-{
-	if (!s)
-		return;
-	for (size_t i = 0; i < n; i++)
-		free(s[i]);
-	free(s);
 }
 
 /*
@@ -589,7 +580,7 @@ static sr_status scan_func(const char *func, const char *subject, const char *se
 		}
 		add_run(L, path, names[i], stem, index, func, subject, session, task, src);
 	}
-	bids_strings_free(names, nn);
+	strv_free_array(names, nn);
 	return st;
 }
 
@@ -705,7 +696,7 @@ sr_status bids_find_runs(const bids_src *src, const char *subject, const char *t
 		st = scan_func(func, subject, ses[s], task, src, &L, &descs, e);
 		free(func);
 	}
-	bids_strings_free(ses, nses);
+	strv_free_array(ses, nses);
 	if (!st && src->deriv && L.n == 0 && descs.n) {
 		size_t nsp;
 		char **sp = bids_spaces(src->deriv, subject, task, &nsp);
@@ -719,9 +710,9 @@ sr_status bids_find_runs(const bids_src *src, const char *subject, const char *t
 			     nsp ? list : "none", dl);
 		free(list);
 		free(dl);
-		bids_strings_free(sp, nsp);
+		strv_free_array(sp, nsp);
 	}
-	bids_strings_free(descs.s, descs.n);
+	strv_free_array(descs.s, descs.n);
 	if (!st && src->deriv && !src->space) {
 		str_set S = { NULL, 0, 0 };
 
@@ -736,7 +727,7 @@ sr_status bids_find_runs(const bids_src *src, const char *subject, const char *t
 				     subject, task, subdir, list);
 			free(list);
 		}
-		bids_strings_free(S.s, S.n);
+		strv_free_array(S.s, S.n);
 	}
 	free(subdir);
 	if (!st && L.n)
@@ -822,7 +813,7 @@ char **bids_spaces(const char *deriv, const char *subject, const char *task, siz
 		spaces_in(func, task, &S);
 		free(func);
 	}
-	bids_strings_free(ses, nses);
+	strv_free_array(ses, nses);
 	free(subdir);
 	if (S.n)
 		qsort(S.s, S.n, sizeof *S.s, strv_cmp);

@@ -40,11 +40,10 @@ typedef struct bids_run {
 
 /*
  * Subject labels (without "sub-") under root, sorted; caller frees with
- * bids_strings_free. A sub- folder whose label is not letters and digits, or
+ * strv_free_array (core/strv.h). A sub- folder whose label is not letters and digits, or
  * a sub- entry that cannot be accessed (a link loop), is an error naming it.
  */
 sr_status bids_subjects(const char *root, char ***labels, size_t *n, sr_err *e);
-void bids_strings_free(char **s, size_t n);
 
 /*
  * The runs of one subject and task across sessions, identified by their

@@ -162,15 +162,6 @@ sr_status jdoc_read_array_member(const char *path, const char *key, const char *
 	return SR_OK;
 }
 
-void jdoc_values_free(char **vals, size_t n)
-{
-	size_t i;
-
-	for (i = 0; i < n; i++)
-		free(vals[i]);
-	free(vals);
-}
-
 void jdoc_strings_free(char **keys, char **vals, size_t n)
 {
 	size_t i;

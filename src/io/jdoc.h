@@ -37,11 +37,10 @@ void jdoc_strings_free(char **keys, char **vals, size_t n);
 /*
  * The string member `member` of every object in the top-level array `key` of
  * the JSON object in path (such as every URL of SourceDatasets), in order:
- * *vals (n, xmalloc'ed; free with jdoc_values_free). Errors as jdoc_read_strings; a missing key gives n = 0.
+ * *vals (n, xmalloc'ed; free with strv_free_array, core/strv.h). Errors as jdoc_read_strings; a missing key gives n = 0.
  */
 sr_status jdoc_read_array_member(const char *path, const char *key, const char *member,
 				 char ***vals, size_t *n, sr_err *e);
-void jdoc_values_free(char **vals, size_t n);
 /* The string members of object o, as jdoc_read_strings gives them; 0 on success. */
 int jdoc_strings_of(const jdoc *o, char ***keys, char ***vals, size_t *n);
 /* A deep copy of d (the caller owns it). */

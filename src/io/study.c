@@ -16,6 +16,7 @@
 #include <ini.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../core/text.h"
 #include "readall.h"
 
@@ -93,11 +94,11 @@ struct loader {
 	enum line_kind after;
 	int continuation;      /* the line handed out continues the previous key */
 	struct entry *ent;
-	size_t nent;
+	size_t nent, capent;
 	struct section *sec;
-	size_t nsec;
+	size_t nsec, capsec;
 	struct problem *prob;
-	size_t nprob;
+	size_t nprob, capprob;
 };
 
 static void prob(struct loader *ld, size_t line, const char *fmt, ...)
@@ -115,7 +116,7 @@ static void prob(struct loader *ld, size_t line, const char *fmt, ...)
 		snprintf(full, sizeof full, "%s: line %zu: %s", ld->path, line, body);
 	else
 		snprintf(full, sizeof full, "%s: %s", ld->path, body);
-	ld->prob = xrealloc(ld->prob, (ld->nprob + 1) * sizeof *ld->prob);
+	XGROW(ld->prob, ld->nprob, ld->capprob);
 	ld->prob[ld->nprob].line = line;
 	ld->prob[ld->nprob].seq = ld->nprob;
 	ld->prob[ld->nprob].msg = xstrdup(full);
@@ -262,7 +263,7 @@ static char *reader(char *buf, int num, void *stream)
 			return give_blank(buf);
 		}
 		snprintf(ld->cursec, sizeof ld->cursec, "%s", inner);
-		ld->sec = xrealloc(ld->sec, (ld->nsec + 1) * sizeof *ld->sec);
+		XGROW(ld->sec, ld->nsec, ld->capsec);
 		ld->sec[ld->nsec].name = xstrdup(inner);
 		ld->sec[ld->nsec].line = ld->line;
 		ld->nsec++;
@@ -346,7 +347,7 @@ static int handler(void *user, const char *section, const char *name, const char
 		memcpy(e->value + a, value, b + 1);
 		return 1;
 	}
-	ld->ent = xrealloc(ld->ent, (ld->nent + 1) * sizeof *ld->ent);
+	XGROW(ld->ent, ld->nent, ld->capent);
 	e = &ld->ent[ld->nent++];
 	e->section = xstrdup(ld->cursec);
 	e->key = xstrdup(name);
@@ -696,7 +697,7 @@ static int choice(struct loader *ld, const struct entry *e, const char *const *w
 static char **words(const char *s, size_t *n)
 {
 	char **w = NULL;
-	size_t k = 0;
+	size_t k = 0, cap = 0;
 
 	while (*s) {
 		size_t len;
@@ -705,7 +706,7 @@ static char **words(const char *s, size_t *n)
 		len = strcspn(s, " \t,");
 		if (len == 0)
 			break;
-		w = xrealloc(w, (k + 1) * sizeof *w);
+		XGROW(w, k, cap);
 		w[k] = xmalloc(len + 1);
 		memcpy(w[k], s, len);
 		w[k][len] = '\0';
@@ -714,15 +715,6 @@ static char **words(const char *s, size_t *n)
 	}
 	*n = k;
 	return w;
-}
-
-static void free_words(char **w, size_t n)
-{
-	size_t i;
-
-	for (i = 0; i < n; i++)
-		free(w[i]);
-	free(w);
 }
 
 /* Names that must not repeat (confound and motion columns). */
@@ -1272,7 +1264,7 @@ static void measure_localizers(struct loader *ld, const study *s, study_measure 
 			m->localizers = xrealloc(m->localizers, (m->nlocalizers + 1) * sizeof *m->localizers);
 			m->localizers[m->nlocalizers++] = xstrdup(w[i]);
 		}
-		free_words(w, k);
+		strv_free_array(w, k);
 	} else {
 		m->localizers = xcalloc(s->nlocs ? s->nlocs : 1, sizeof *m->localizers);
 		for (j = 0; j < s->nlocs; j++)
@@ -1503,20 +1495,20 @@ void study_release(study *s)
 	free(s->space);
 	free(s->desc);
 	free(s->res);
-	free_words(s->subjects, s->nsubjects);
+	strv_free_array(s->subjects, s->nsubjects);
 	/* the flat localizer fields alias locs[0] */
 	for (i = 0; i < s->nlocs; i++)
 		localizer_release(&s->locs[i]);
 	free(s->locs);
 	free(s->condition_column);
-	free_words(s->confounds, s->nconfounds);
+	strv_free_array(s->confounds, s->nconfounds);
 	free(s->confounds_suffix);
-	free_words(s->motion, s->nmotion);
+	strv_free_array(s->motion, s->nmotion);
 	for (i = 0; i < s->nmeasures; i++) {
 		free(s->measures[i].name);
 		free(s->measures[i].task);
 		expr_list_free(s->measures[i].effects, s->measures[i].neffects);
-		free_words(s->measures[i].localizers, s->measures[i].nlocalizers);
+		strv_free_array(s->measures[i].localizers, s->measures[i].nlocalizers);
 	}
 	free(s->measures);
 	for (i = 0; i < s->nkeys; i++) {

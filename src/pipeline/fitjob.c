@@ -75,15 +75,6 @@ static void say(sr_warn_fn cb, void *ctx, const char *fmt, ...)
 
 #define fail(j, ...) say((j)->error, (j)->ctx, __VA_ARGS__)
 
-static void free_list(char **v, int n)
-{
-	int i;
-
-	for (i = 0; i < n; i++)
-		free(v[i]);
-	free(v);
-}
-
 /* The run's name without the _bold.nii[.gz] (or .nii[.gz]) ending and folders. */
 static char *run_base(const char *bold)
 {
@@ -164,7 +155,7 @@ static int gather_conditions(const fitjob *fj, char *const *events, int nrun, co
 		sr_err_init(&e, NULL, NULL);
 		if (events_read(events[r], column, &el, &e) != SR_OK) {
 			fail(fj, "%s", e.msg);
-			free_list(c, n);
+			strv_free_array(c, (size_t)n);
 			return 1;
 		}
 		for (j = 0; j < el.n; j++) {
@@ -672,8 +663,8 @@ void fitjob_release(fitjob *j)
 	free(j->mask);
 	free(j->C);
 	if (j->labels)
-		free_list(j->labels, j->neff);
-	free_list(j->conds, j->ncond);
+		strv_free_array(j->labels, (size_t)j->neff);
+	strv_free_array(j->conds, (size_t)j->ncond);
 	j->res = NULL;
 	j->specs = NULL;
 	j->errs = NULL;

@@ -525,7 +525,7 @@ static char *participants_from_description(const char *out)
 		for (i = 0; i < n && !found; i++)
 			if (strncmp(urls[i], "file://", 7) == 0)   /* the raw dataset comes first */
 				found = path_join(urls[i] + 7, "participants.tsv");
-	jdoc_values_free(urls, n);
+	strv_free_array(urls, n);
 	free(dd);
 	return found;
 }

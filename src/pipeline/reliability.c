@@ -150,10 +150,10 @@ enum { NMEAS = 3 };
 typedef struct rkey {
 	char *localizer, *parcel, *split;
 	double *v[NMEAS];
-	size_t n[NMEAS], cap;
+	size_t n[NMEAS], cap[NMEAS];
 } rkey;
 
-static rkey *key_get(rkey **keys, size_t *nk, const char *loc, const char *parcel, const char *split)
+static rkey *key_get(rkey **keys, size_t *nk, size_t *cap, const char *loc, const char *parcel, const char *split)
 {
 	size_t i;
 	rkey *k;
@@ -162,7 +162,7 @@ static rkey *key_get(rkey **keys, size_t *nk, const char *loc, const char *parce
 		if (!strcmp((*keys)[i].localizer, loc) && !strcmp((*keys)[i].parcel, parcel) &&
 		    !strcmp((*keys)[i].split, split))
 			return &(*keys)[i];
-	*keys = xrealloc(*keys, (*nk + 1) * sizeof **keys);
+	XGROW(*keys, *nk, *cap);
 	k = &(*keys)[(*nk)++];
 	memset(k, 0, sizeof *k);
 	k->localizer = xstrdup(loc);
@@ -175,12 +175,12 @@ static void key_push(rkey *k, int m, double x)
 {
 	if (!isfinite(x))
 		return;
-	k->v[m] = xrealloc(k->v[m], (k->n[m] + 1) * sizeof *k->v[m]);
+	XGROW(k->v[m], k->n[m], k->cap[m]);
 	k->v[m][k->n[m]++] = x;
 }
 
 /* Adds one subject's ":mean" rows. */
-static sr_status read_subject(const char *path, rkey **keys, size_t *nk, sr_err *e)
+static sr_status read_subject(const char *path, rkey **keys, size_t *nk, size_t *cap, sr_err *e)
 {
 	table t;
 	int col[3 + NMEAS];
@@ -206,7 +206,7 @@ static sr_status read_subject(const char *path, rkey **keys, size_t *nk, sr_err 
 
 		if (len < 5 || strcmp(split + len - 5, ":mean") != 0)
 			continue;
-		k = key_get(keys, nk, table_cell(&t, r, (size_t)col[0]), table_cell(&t, r, (size_t)col[1]), split);
+		k = key_get(keys, nk, cap, table_cell(&t, r, (size_t)col[0]), table_cell(&t, r, (size_t)col[1]), split);
 		for (m = 0; m < NMEAS; m++) {
 			double x;
 			int na;
@@ -260,19 +260,19 @@ static sr_status write_summary(const char *path, rkey *keys, size_t nk, sr_err *
 
 typedef struct rkeys {
 	rkey *keys;
-	size_t nk;
+	size_t nk, cap;
 } rkeys;
 
 static sr_status read_one(const char *path, void *ctx, sr_err *e)
 {
 	rkeys *k = ctx;
 
-	return read_subject(path, &k->keys, &k->nk, e);
+	return read_subject(path, &k->keys, &k->nk, &k->cap, e);
 }
 
 sr_status reliab_group_write(const char *out, char *const *labels, size_t n, sr_err *e)
 {
-	rkeys k = { NULL, 0 };
+	rkeys k = { NULL, 0, 0 };
 	size_t i;
 	char path[4096 + 64];
 	sr_status rc;

@@ -49,7 +49,7 @@ int studycheck_subjects(const study *st, char ***out, size_t *n, study_problems 
 			else
 				pick[npick++] = xstrdup(st->subjects[i]);
 		}
-		bids_strings_free(found, nfound);
+		strv_free_array(found, nfound);
 	} else {
 		pick = found;
 		npick = nfound;
@@ -87,9 +87,9 @@ int studycheck_only(char *const *subs, size_t n, const char *only, char ***out, 
 		v[k++] = xstrdup(tok);
 	}
 	free(copy);
-	bids_strings_free(bad, nbad);
+	strv_free_array(bad, nbad);
 	if (probs->n != before) {
-		bids_strings_free(v, k);
+		strv_free_array(v, k);
 		return 2;
 	}
 	*out = v;
@@ -365,9 +365,9 @@ void studycheck_run_validate(studycheck_ctx *c, const bids_run *run, studycheck_
 
 static void run_release(studycheck_run *f)
 {
-	bids_strings_free(f->conf_cols, f->conf_cols ? (size_t)f->nconf : 0);
+	strv_free_array(f->conf_cols, f->conf_cols ? (size_t)f->nconf : 0);
 	free(f->conf_na);
-	bids_strings_free(f->conds, f->ncond);
+	strv_free_array(f->conds, f->ncond);
 	free(f->cond_count);
 }
 
@@ -421,7 +421,7 @@ void studycheck_task_release(studycheck_task *t)
 			run_release(&t->info[r]);
 	free(t->info);
 	bids_runs_release(t->runs, t->nruns);
-	bids_strings_free(t->conds, t->nconds);
+	strv_free_array(t->conds, t->nconds);
 	memset(t, 0, sizeof *t);
 }
 
@@ -581,7 +581,7 @@ static int task_names(studycheck_ctx *c, size_t t, char **subs, size_t nsub)
 	for (s = 0; s < nsub; s++)
 		studycheck_task_release(&seen[s]);
 	free(seen);
-	bids_strings_free(known, nknown);
+	strv_free_array(known, nknown);
 	study_problems_release(&reported);
 	return failed;
 }
@@ -786,7 +786,7 @@ sr_status studycheck_analyzable(const study *st, const char *label, sr_err *e)
 		int read;
 
 		studycheck_subject_mask(&c, label, tasks, ntasks, &ref, &paths, &n, &count, &read);
-		bids_strings_free(paths, n);
+		strv_free_array(paths, n);
 	} else {
 		size_t count;
 

@@ -14,7 +14,7 @@
  * sorted. Each listed subject missing from bids is a problem naming the study
  * file's line; every one is added to probs (none is printed). An unreadable
  * bids folder and a study without subjects are problems too.
- * Returns 0 when probs gained nothing. Caller frees *out with bids_strings_free.
+ * Returns 0 when probs gained nothing. Caller frees *out with strv_free_array.
  */
 int studycheck_subjects(const study *st, char ***out, size_t *n, study_problems *probs);
 
@@ -22,7 +22,7 @@ int studycheck_subjects(const study *st, char ***out, size_t *n, study_problems 
  * The subjects of a --subjects value among the n in subs: labels separated by
  * commas or spaces, "sub-" optional, a repeated label counted once, in the
  * order given. Each label not among subs is a problem added to probs.
- * Returns 0 when all are known (then *out holds them; bids_strings_free), else 2.
+ * Returns 0 when all are known (then *out holds them; strv_free_array), else 2.
  */
 int studycheck_only(char *const *subs, size_t n, const char *only, char ***out, size_t *nout,
 		    study_problems *probs);
@@ -113,7 +113,7 @@ void studycheck_subject(studycheck_ctx *c, const char *label, studycheck_task *t
  * The subject's own mask when the study's depends on the subject (mask =
  * auto: every run's brain mask, or a path with {subject}), read and checked
  * against the subject's grid (ref, when have). *paths / *npaths (freed with
- * bids_strings_free) and *count tell what was read; *read = 1 when it was.
+ * strv_free_array) and *count tell what was read; *read = 1 when it was.
  */
 void studycheck_subject_mask(studycheck_ctx *c, const char *label, const studycheck_task *tasks, size_t ntasks,
 			     const studycheck_grid *ref, char ***paths, size_t *npaths, size_t *count, int *read);

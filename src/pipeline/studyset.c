@@ -7,6 +7,7 @@
 #include <sys/stat.h>
 
 #include "../core/mem.h"
+#include "../core/strv.h"
 #include "../io/bids.h"
 #include "fresh.h"
 #include "studycheck.h"
@@ -19,7 +20,7 @@ sr_status studyset_subjects(const study *st, char ***out, size_t *n, sr_err *e)
 
 	if (studycheck_subjects(st, out, n, &probs)) {
 		rc = sr_fail(e, SR_ESTUDY, "%s", probs.msg[0]);
-		bids_strings_free(*out, *n);
+		strv_free_array(*out, *n);
 		*out = NULL;
 		*n = 0;
 	}

@@ -11,7 +11,7 @@
  * The study's subjects: its `subjects` list (each must exist under bids) or every
  * sub-* folder, sorted, as studycheck_subjects finds them; its first problem
  * (a listed subject missing, no subjects at all) is the error. Caller frees
- * with bids_strings_free.
+ * with strv_free_array.
  */
 sr_status studyset_subjects(const study *st, char ***out, size_t *n, sr_err *e);
 

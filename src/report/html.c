@@ -16,13 +16,13 @@ void sb_esc(sbuf *b, const char *s)
 {
 	for (; s && *s; s++)
 		switch (*s) {
-		case '&': sb_puts(b, "&amp;"); break;
-		case '<': sb_puts(b, "&lt;"); break;
-		case '>': sb_puts(b, "&gt;"); break;
-		case '"': sb_puts(b, "&quot;"); break;
-		case '\'': sb_puts(b, "&#39;"); break;
+		case '&': sbuf_puts(b, "&amp;"); break;
+		case '<': sbuf_puts(b, "&lt;"); break;
+		case '>': sbuf_puts(b, "&gt;"); break;
+		case '"': sbuf_puts(b, "&quot;"); break;
+		case '\'': sbuf_puts(b, "&#39;"); break;
 		default:
-			sb_room(b, 1);
+			sbuf_room(b, 1);
 			b->p[b->n++] = *s;
 			b->p[b->n] = 0;
 		}
@@ -35,8 +35,8 @@ void sb_data_uri(sbuf *b, const unsigned char *d, size_t n)
 	size_t i;
 	char *o;
 
-	sb_puts(b, "data:image/png;base64,");
-	sb_room(b, (n + 2) / 3 * 4);
+	sbuf_puts(b, "data:image/png;base64,");
+	sbuf_room(b, (n + 2) / 3 * 4);
 	o = b->p + b->n;
 	for (i = 0; i + 2 < n; i += 3) {
 		unsigned v = (unsigned)d[i] << 16 | (unsigned)d[i + 1] << 8 | d[i + 2];
@@ -61,9 +61,9 @@ void sb_data_uri(sbuf *b, const unsigned char *d, size_t n)
 void sb_num(sbuf *b, double v)
 {
 	if (isnan(v))
-		sb_puts(b, "&ndash;");
+		sbuf_puts(b, "&ndash;");
 	else
-		sb_printf(b, "%.4g", v);
+		sbuf_printf(b, "%.4g", v);
 }
 
 /*
@@ -118,28 +118,28 @@ static const char css[] =
 void rh_begin(sbuf *b, const char *title, const char *subtitle, const char *back_href,
 	      const char *back_text)
 {
-	sb_puts(b, "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
+	sbuf_puts(b, "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
 		   "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>");
 	sb_esc(b, title);
-	sb_puts(b, "</title>\n<style>\n");
-	sb_puts(b, css);
-	sb_puts(b, "</style>\n</head>\n<body>\n<header class=\"top\">\n");
+	sbuf_puts(b, "</title>\n<style>\n");
+	sbuf_puts(b, css);
+	sbuf_puts(b, "</style>\n</head>\n<body>\n<header class=\"top\">\n");
 	if (back_href) {
-		sb_puts(b, "<a class=\"back\" href=\"");
+		sbuf_puts(b, "<a class=\"back\" href=\"");
 		sb_esc(b, back_href);
-		sb_puts(b, "\">&larr; ");
+		sbuf_puts(b, "\">&larr; ");
 		sb_esc(b, back_text);
-		sb_puts(b, "</a>\n");
+		sbuf_puts(b, "</a>\n");
 	}
-	sb_puts(b, "<h1>");
+	sbuf_puts(b, "<h1>");
 	sb_esc(b, title);
-	sb_puts(b, "</h1>\n");
+	sbuf_puts(b, "</h1>\n");
 	if (subtitle) {
-		sb_puts(b, "<p>");
+		sbuf_puts(b, "<p>");
 		sb_esc(b, subtitle);
-		sb_puts(b, "</p>\n");
+		sbuf_puts(b, "</p>\n");
 	}
-	sb_puts(b, "</header>\n<main>\n");
+	sbuf_puts(b, "</header>\n<main>\n");
 }
 
 void rh_end(sbuf *b, const char *study_file)
@@ -150,11 +150,11 @@ void rh_end(sbuf *b, const char *study_file)
 
 	if (gmtime_r(&now, &tm))
 		strftime(when, sizeof when, "%Y-%m-%d %H:%M UTC", &tm);
-	sb_puts(b, "<footer class=\"made\"><p class=\"note\">Study file <b class=\"study\">");
+	sbuf_puts(b, "<footer class=\"made\"><p class=\"note\">Study file <b class=\"study\">");
 	sb_esc(b, study_file && *study_file ? study_file : "(not recorded)");
-	sb_puts(b, "</b>; page written by splitroi <b class=\"version\">" SPLITROI_VERSION "</b> on <b class=\"date\">");
+	sbuf_puts(b, "</b>; page written by splitroi <b class=\"version\">" SPLITROI_VERSION "</b> on <b class=\"date\">");
 	sb_esc(b, when);
-	sb_puts(b, "</b>. Research software: check every result against the data before relying on it.</p></footer>\n"
+	sbuf_puts(b, "</b>. Research software: check every result against the data before relying on it.</p></footer>\n"
 		   "</main>\n</body>\n</html>\n");
 }
 

@@ -58,15 +58,6 @@ static void add_unique(char ***v, size_t *n, const char *s)
 	(*v)[(*n)++] = xstrdup(s);
 }
 
-static void free_strs(char **v, size_t n)
-{
-	size_t i;
-
-	for (i = 0; i < n; i++)
-		free(v[i]);
-	free(v);
-}
-
 /* Prints a cell: numbers as %.4g (right aligned), text escaped. */
 static void cell(sbuf *b, const char *s)
 {
@@ -74,11 +65,11 @@ static void cell(sbuf *b, const char *s)
 	double v = strtod(s, &end);
 
 	if (*s && !*end && isfinite(v)) {
-		sb_printf(b, "<td class=\"n\">%.4g</td>", v);
+		sbuf_printf(b, "<td class=\"n\">%.4g</td>", v);
 	} else {
-		sb_puts(b, "<td>");
+		sbuf_puts(b, "<td>");
 		sb_esc(b, s);
-		sb_puts(b, "</td>");
+		sbuf_puts(b, "</td>");
 	}
 }
 
@@ -124,7 +115,7 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 			add_unique(&parcels, &np, table_cell(t, r, (size_t)c->parcel));
 		}
 	if (!nt)
-		sb_printf(b, "<p class=\"note\">No %s rows in responses.csv.</p>\n",
+		sbuf_printf(b, "<p class=\"note\">No %s rows in responses.csv.</p>\n",
 			  measured ? "measured-task (split all)" : "cross-validated (split :mean)");
 	for (ti = 0; ti < nt; ti++) {
 		chart *ch = xcalloc(np ? np : 1, sizeof *ch);
@@ -191,28 +182,28 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 					lo = fmin(lo, h->bars[ei].mean - e);
 					hi = fmax(hi, h->bars[ei].mean + e);
 				}
-				sb_puts(sum, "<tr><td>");
+				sbuf_puts(sum, "<tr><td>");
 				sb_esc(sum, parcels[pi]);
-				sb_puts(sum, "</td><td>");
+				sbuf_puts(sum, "</td><td>");
 				sb_esc(sum, h->split);
-				sb_puts(sum, "</td><td>");
+				sbuf_puts(sum, "</td><td>");
 				sb_esc(sum, tasks[ti]);
-				sb_puts(sum, "</td><td>");
+				sbuf_puts(sum, "</td><td>");
 				sb_esc(sum, h->effects[ei]);
-				sb_printf(sum, "</td><td class=\"n\">%zu</td><td class=\"n\">", n);
+				sbuf_printf(sum, "</td><td class=\"n\">%zu</td><td class=\"n\">", n);
 				sb_num(sum, h->bars[ei].mean);
-				sb_puts(sum, "</td><td class=\"n\">");
+				sbuf_puts(sum, "</td><td class=\"n\">");
 				sb_num(sum, h->bars[ei].sem);
-				sb_puts(sum, "</td></tr>\n");
+				sbuf_puts(sum, "</td></tr>\n");
 			}
 		}
-		sb_puts(b, "<h3>Task ");
+		sbuf_puts(b, "<h3>Task ");
 		sb_esc(b, tasks[ti]);
-		sb_puts(b, measured ? " (fROIs defined on all localizer runs)" : " (held-out runs, mean over splits)");
-		sb_puts(b, "</h3>\n<p class=\"note\">One y-scale for every parcel of this task, so bar heights compare across parcels.</p>\n");
-		sb_printf(b, "<div class=\"family\" data-task=\"");
+		sbuf_puts(b, measured ? " (fROIs defined on all localizer runs)" : " (held-out runs, mean over splits)");
+		sbuf_puts(b, "</h3>\n<p class=\"note\">One y-scale for every parcel of this task, so bar heights compare across parcels.</p>\n");
+		sbuf_printf(b, "<div class=\"family\" data-task=\"");
 		sb_esc(b, tasks[ti]);
-		sb_puts(b, "\">\n");
+		sbuf_puts(b, "\">\n");
 		for (pi = 0; pi < np; pi++) {
 			chart *h = &ch[pi];
 			char title[512];
@@ -220,21 +211,21 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 			if (!h->ne)
 				continue;
 			snprintf(title, sizeof title, "%s \xe2\x80\x94 %s, %s", h->parcel, tasks[ti], h->split);
-			sb_puts(b, "<figure>\n");
+			sbuf_puts(b, "<figure>\n");
 			rs_bars(b, ++*uid, title, "percent signal change", h->bars, h->ne, lo, hi);
-			sb_puts(b, "</figure>\n");
+			sbuf_puts(b, "</figure>\n");
 		}
-		sb_puts(b, "</div>\n");
+		sbuf_puts(b, "</div>\n");
 		for (pi = 0; pi < np; pi++) {
 			free(ch[pi].bars);
 			free(ch[pi].dots);
 			free(ch[pi].split);
-			free_strs(ch[pi].effects, ch[pi].ne);
+			strv_free_array(ch[pi].effects, ch[pi].ne);
 		}
 		free(ch);
 	}
-	free_strs(tasks, nt);
-	free_strs(parcels, np);
+	strv_free_array(tasks, nt);
+	strv_free_array(parcels, np);
 }
 
 /*
@@ -258,20 +249,20 @@ void table_html(sbuf *b, const table *t, const char *id, const char *const *firs
 	for (c = 0; c < t->ncols; c++)
 		if (!used[c])
 			order[n++] = c;
-	sb_printf(b, "<table id=\"%s\"><thead><tr>", id);
+	sbuf_printf(b, "<table id=\"%s\"><thead><tr>", id);
 	for (c = 0; c < n; c++) {
-		sb_puts(b, "<th>");
+		sbuf_puts(b, "<th>");
 		sb_esc(b, t->header[order[c]]);
-		sb_puts(b, "</th>");
+		sbuf_puts(b, "</th>");
 	}
-	sb_puts(b, "</tr></thead><tbody>\n");
+	sbuf_puts(b, "</tr></thead><tbody>\n");
 	for (r = 0; r < t->nrows; r++) {
-		sb_puts(b, "<tr>");
+		sbuf_puts(b, "<tr>");
 		for (c = 0; c < n; c++)
 			cell(b, table_cell(t, r, order[c]));
-		sb_puts(b, "</tr>\n");
+		sbuf_puts(b, "</tr>\n");
 	}
-	sb_puts(b, "</tbody></table>\n");
+	sbuf_puts(b, "</tbody></table>\n");
 	free(order);
 	free(used);
 }
@@ -280,7 +271,7 @@ static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 {
 	size_t i, k;
 
-	sb_puts(b, "<table id=\"subjects\"><thead><tr><th>subject</th><th>parcel</th><th>voxels, half A</th>"
+	sbuf_puts(b, "<table id=\"subjects\"><thead><tr><th>subject</th><th>parcel</th><th>voxels, half A</th>"
 		   "<th>voxels, half B</th><th>Dice</th><th>runs with FD</th><th>runs flagged</th><th>check</th>"
 		   "</tr></thead><tbody>\n");
 	for (i = 0; i < n; i++) {
@@ -290,28 +281,28 @@ static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 			const rsub_parcel *p = &s->parcels[k];
 			int bad = qc_overlap_flag(p->size_a, p->size_b, p->dice);
 
-			sb_printf(b, "<tr%s><td><a href=\"sub-", bad ? " class=\"flag\"" : "");
+			sbuf_printf(b, "<tr%s><td><a href=\"sub-", bad ? " class=\"flag\"" : "");
 			sb_esc(b, s->label);
-			sb_puts(b, "/report.html\">sub-");
+			sbuf_puts(b, "/report.html\">sub-");
 			sb_esc(b, s->label);
-			sb_puts(b, "</a></td><td>");
+			sbuf_puts(b, "</a></td><td>");
 			sb_esc(b, p->name);
-			sb_puts(b, "</td><td class=\"n\">");
+			sbuf_puts(b, "</td><td class=\"n\">");
 			sb_num(b, p->size_a);
-			sb_puts(b, "</td><td class=\"n\">");
+			sbuf_puts(b, "</td><td class=\"n\">");
 			sb_num(b, p->size_b);
-			sb_puts(b, "</td><td class=\"n\">");
+			sbuf_puts(b, "</td><td class=\"n\">");
 			if (isfinite(p->dice))
-				sb_printf(b, "%.3f", p->dice);
+				sbuf_printf(b, "%.3f", p->dice);
 			else
-				sb_puts(b, "&ndash;");
-			sb_printf(b, "</td><td class=\"n\">%zu</td><td class=\"n\">%zu</td><td>%s%s</td></tr>\n",
+				sbuf_puts(b, "&ndash;");
+			sbuf_printf(b, "</td><td class=\"n\">%zu</td><td class=\"n\">%zu</td><td>%s%s</td></tr>\n",
 				  s->nruns_fd, s->nruns_flagged,
 				  bad ? "<span class=\"flag\">&#9873; overlap outlier</span>" : "ok",
 				  s->nruns_flagged ? " <span class=\"flag\">&#9873; motion</span>" : "");
 		}
 	}
-	sb_puts(b, "</tbody></table>\n");
+	sbuf_puts(b, "</tbody></table>\n");
 }
 
 /*
@@ -336,9 +327,9 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 			nbad += strcmp(st, "missing") == 0 || strcmp(st, "unreadable") == 0;
 		}
 		if (nbad) {
-			sb_printf(b, "<div class=\"banner\" id=\"incomplete\" role=\"alert\"><b>&#9873; Group step incomplete:</b> "
+			sbuf_printf(b, "<div class=\"banner\" id=\"incomplete\" role=\"alert\"><b>&#9873; Group step incomplete:</b> "
 				  "%zu of %zu subjects are not in the group table or the charts:", nbad, nall);
-			sb_puts(b, "<ul>");
+			sbuf_puts(b, "<ul>");
 			for (r = 0; r < t.nrows; r++) {
 				const char *st = table_cell(&t, r, (size_t)cst);
 
@@ -347,17 +338,17 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 				const char *lab = table_cell(&t, r, (size_t)cs);
 
 				/* the table holds participant_id (sub-<label>); older tables the bare label */
-				sb_puts(b, "<li><b class=\"sub\">sub-");
+				sbuf_puts(b, "<li><b class=\"sub\">sub-");
 				sb_esc(b, strncmp(lab, "sub-", 4) == 0 ? lab + 4 : lab);
-				sb_puts(b, "</b> ");
+				sbuf_puts(b, "</b> ");
 				sb_esc(b, st);
 				if (cr >= 0 && *table_cell(&t, r, (size_t)cr)) {
-					sb_puts(b, ": ");
+					sbuf_puts(b, ": ");
 					sb_esc(b, table_cell(&t, r, (size_t)cr));
 				}
-				sb_puts(b, "</li>");
+				sbuf_puts(b, "</li>");
 			}
-			sb_puts(b, "</ul>Rerun analyze for them (or list them under exclusions) before reading the group results.</div>\n");
+			sbuf_puts(b, "</ul>Rerun analyze for them (or list them under exclusions) before reading the group results.</div>\n");
 		}
 		table_release(&t);
 		return;
@@ -368,7 +359,7 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 		for (r = 0; cn >= 0 && r < group->nrows; r++)
 			nbad += strstr(table_cell(group, r, (size_t)cn), "incomplete") != NULL;
 		if (nbad)
-			sb_printf(b, "<div class=\"banner\" id=\"incomplete\" role=\"alert\"><b>&#9873; Group step incomplete:</b> "
+			sbuf_printf(b, "<div class=\"banner\" id=\"incomplete\" role=\"alert\"><b>&#9873; Group step incomplete:</b> "
 				  "%zu rows of group.csv are marked incomplete (subjects missing); group_subjects.csv, which "
 				  "names them, is not in this folder.</div>\n", nbad);
 	}
@@ -398,7 +389,7 @@ static char **table_localizers(const table *t, size_t *n)
 		if (find(v, *n, table_cell(t, r, (size_t)c)) < 0)
 			add_unique(&v, n, table_cell(t, r, (size_t)c));
 	if (*n < 2) {
-		free_strs(v, *n);
+		strv_free_array(v, *n);
 		*n = 0;
 		return NULL;
 	}
@@ -433,9 +424,9 @@ static void table_view_release(table *view)
 /* A heading per localizer, for a report of several. */
 static void localizer_heading(sbuf *b, const char *loc)
 {
-	sb_puts(b, "<h3 class=\"localizer\">Localizer ");
+	sbuf_puts(b, "<h3 class=\"localizer\">Localizer ");
 	sb_esc(b, loc);
-	sb_puts(b, "</h3>\n");
+	sbuf_puts(b, "</h3>\n");
 }
 
 /* One chart of the time courses: a parcel, split kind and task, with its conditions. */
@@ -522,13 +513,13 @@ static void timecourse_section(sbuf *b, const char *out, int *uid)
 	int gc[7], ac[7], have_all, i;
 	table g, all;
 
-	sb_puts(b, "<h2 id=\"timecourses-h\">Response time courses</h2>\n<p class=\"note\">Finite-impulse-response "
+	sbuf_puts(b, "<h2 id=\"timecourses-h\">Response time courses</h2>\n<p class=\"note\">Finite-impulse-response "
 		   "estimates per bin of one TR after each event's onset, in percent signal change, on the measure runs of each "
 		   "split (cross-validated: the mean of the splits; measured tasks: fROIs from all localizer runs). Thick line: "
 		   "mean over subjects; band: &#177;1 standard error; thin lines: one per subject.</p>\n");
 	snprintf(path, sizeof path, "%s/timecourses_group.csv", out);
 	if (table_read(path, ',', &g, NULL) != SR_OK) {
-		sb_puts(b, "<p class=\"note\">No timecourses_group.csv in this folder (run the group step).</p>\n");
+		sbuf_puts(b, "<p class=\"note\">No timecourses_group.csv in this folder (run the group step).</p>\n");
 		return;
 	}
 	snprintf(path, sizeof path, "%s/timecourses.csv", out);
@@ -537,7 +528,7 @@ static void timecourse_section(sbuf *b, const char *out, int *uid)
 		gc[i] = table_col(&g, gn[i]);
 		ac[i] = have_all ? table_col(&all, an[i]) : 0;
 		if (gc[i] < 0 || ac[i] < 0) {
-			sb_puts(b, "<p class=\"note\">The time-course tables lack columns; nothing drawn.</p>\n");
+			sbuf_puts(b, "<p class=\"note\">The time-course tables lack columns; nothing drawn.</p>\n");
 			table_release(&g);
 			if (have_all)
 				table_release(&all);
@@ -559,7 +550,7 @@ static void timecourse_section(sbuf *b, const char *out, int *uid)
 		if (have_all)
 			table_view_release(&av);
 	}
-	free_strs(locs, nl);
+	strv_free_array(locs, nl);
 	table_release(&g);
 	if (have_all)
 		table_release(&all);
@@ -606,7 +597,7 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 			cv[q].nsubj = ns;
 		}
 	}
-	sb_puts(b, "<div class=\"charts\">\n");
+	sbuf_puts(b, "<div class=\"charts\">\n");
 	for (k = 0; k < nch; k++) {
 		rs_curve *cv = cvs[k];
 		double lo = 0, hi = 0;
@@ -632,14 +623,14 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 		free(ch[k].parcel);
 		free(ch[k].split);
 		free(ch[k].task);
-		free_strs(ch[k].cond, ch[k].ncond);
+		strv_free_array(ch[k].cond, ch[k].ncond);
 	}
-	sb_puts(b, "</div>\n");
+	sbuf_puts(b, "</div>\n");
 	free(ch);
 	free(cvs);
 	free(tv);
-	free_strs(times, nb);
-	free_strs(subs, ns);
+	strv_free_array(times, nb);
+	strv_free_array(subs, ns);
 }
 
 /* The group summary of reliability.csv (reliability_group.csv) as a table. */
@@ -650,16 +641,16 @@ static void reliability_section(sbuf *b, const char *out)
 	char path[8192];
 	table t;
 
-	sb_puts(b, "<h2 id=\"reliability-h\">Reliability of the fROIs</h2>\n<p class=\"note\">" RELIABILITY_NOTE
+	sbuf_puts(b, "<h2 id=\"reliability-h\">Reliability of the fROIs</h2>\n<p class=\"note\">" RELIABILITY_NOTE
 		   " Per parcel over subjects: median, minimum and maximum (reliability_group.csv).</p>\n");
 	snprintf(path, sizeof path, "%s/reliability_group.csv", out);
 	if (table_read(path, ',', &t, NULL) != SR_OK) {
-		sb_puts(b, "<p class=\"note\">No reliability_group.csv in this folder (run the group step).</p>\n");
+		sbuf_puts(b, "<p class=\"note\">No reliability_group.csv in this folder (run the group step).</p>\n");
 		return;
 	}
-	sb_puts(b, "<div class=\"wide\">");
+	sbuf_puts(b, "<div class=\"wide\">");
 	table_html(b, &t, "reliability", lead);
-	sb_puts(b, "</div>\n");
+	sbuf_puts(b, "</div>\n");
 	table_release(&t);
 }
 
@@ -692,24 +683,24 @@ static void contents_nav(sbuf *b, char **labels, const rsub *subs, size_t nsub)
 {
 	size_t i;
 
-	sb_puts(b, "<nav class=\"toc\"><a href=\"#cv\">cross-validated responses</a> &middot; "
+	sbuf_puts(b, "<nav class=\"toc\"><a href=\"#cv\">cross-validated responses</a> &middot; "
 		   "<a href=\"#measured\">measured tasks</a> &middot; <a href=\"#overlap\">fROI sizes and overlap</a> &middot; "
 		   "<a href=\"#timecourses-h\">time courses</a> &middot; <a href=\"#reliability-h\">reliability</a> &middot; <a href=\"#group-h\">group table</a> &middot; <a href=\"#summary-h\">chart values</a><br>subjects:");
 	for (i = 0; i < nsub; i++) {
 		if (!subs[i].ok) {
 			/* no link to a page that was not written (or is stale) */
-			sb_puts(b, " sub-");
+			sbuf_puts(b, " sub-");
 			sb_esc(b, labels[i]);
-			sb_puts(b, " <span class=\"flag\">(no page: see the command's messages)</span>");
+			sbuf_puts(b, " <span class=\"flag\">(no page: see the command's messages)</span>");
 			continue;
 		}
-		sb_puts(b, " <a href=\"sub-");
+		sbuf_puts(b, " <a href=\"sub-");
 		sb_esc(b, labels[i]);
-		sb_puts(b, "/report.html\">sub-");
+		sbuf_puts(b, "/report.html\">sub-");
 		sb_esc(b, labels[i]);
-		sb_puts(b, "</a>");
+		sbuf_puts(b, "</a>");
 	}
-	sb_puts(b, "</nav>\n");
+	sbuf_puts(b, "</nav>\n");
 }
 
 /* The columns of responses.csv the charts need; 1 (said) when one is missing. */
@@ -742,7 +733,7 @@ static void response_charts(sbuf *b, sbuf *sum, const table *resp, const cols *c
 	locs = table_localizers(resp, &nl);
 	for (int measured = 0; measured < 2; measured++) {
 		if (measured)
-			sb_puts(b, "<h2 id=\"measured\">Measured tasks</h2>\n<p class=\"note\">fROIs defined on all localizer runs, "
+			sbuf_puts(b, "<h2 id=\"measured\">Measured tasks</h2>\n<p class=\"note\">fROIs defined on all localizer runs, "
 				   "responses in the other task's runs (split all).</p>\n");
 		if (nl == 0)
 			charts(b, sum, resp, c, measured, sl, ns, uid);
@@ -756,8 +747,8 @@ static void response_charts(sbuf *b, sbuf *sum, const table *resp, const cols *c
 			table_view_release(&v);
 		}
 	}
-	free_strs(locs, nl);
-	free_strs(sl, ns);
+	strv_free_array(locs, nl);
+	strv_free_array(sl, ns);
 }
 
 /* group.csv as a table, or a note that there is none. */
@@ -769,19 +760,19 @@ static void group_section(sbuf *b, table *group, int have_group)
 	size_t ngl;
 	char **gl;
 
-	sb_puts(b, "<h2 id=\"group-h\">Group table</h2>\n");
+	sbuf_puts(b, "<h2 id=\"group-h\">Group table</h2>\n");
 	if (!have_group) {
-		sb_puts(b, "<p class=\"note\">No group.csv in this folder (run the group step).</p>\n");
+		sbuf_puts(b, "<p class=\"note\">No group.csv in this folder (run the group step).</p>\n");
 		return;
 	}
-	sb_puts(b, "<p class=\"note\">From group.csv: one-sample tests over subjects; q_fdr is the Benjamini&ndash;Hochberg "
+	sbuf_puts(b, "<p class=\"note\">From group.csv: one-sample tests over subjects; q_fdr is the Benjamini&ndash;Hochberg "
 		   "adjusted p value.</p>\n");
-	sb_puts(b, "<div class=\"wide\" id=\"group-box\">");
+	sbuf_puts(b, "<div class=\"wide\" id=\"group-box\">");
 	gl = table_localizers(group, &ngl);
 	/* the localizer leads only when there are several (else it follows the numbers) */
 	table_html(b, group, "group", ngl ? lead : lead + 1);
-	free_strs(gl, ngl);
-	sb_puts(b, "</div>\n");
+	strv_free_array(gl, ngl);
+	sbuf_puts(b, "</div>\n");
 }
 
 int report_write(const char *out, int quiet)
@@ -802,7 +793,7 @@ int report_write(const char *out, int quiet)
 	have_resp = table_read(path, ',', &resp, &e) == SR_OK;
 	if (!have_resp && !nsub) {
 		fprintf(stderr, "splitroi report: %s holds no results (no responses.csv, no sub-*/run.json)\n", out);
-		free_strs(labels, nsub);
+		strv_free_array(labels, nsub);
 		return 1;
 	}
 	if (!have_resp)
@@ -812,25 +803,25 @@ int report_write(const char *out, int quiet)
 	snprintf(path, sizeof path, "%s/group.csv", out);
 	have_group = table_read(path, ',', &group, NULL) == SR_OK;
 
-	sb_init(&b);
-	sb_init(&sum);
+	sbuf_init(&b);
+	sbuf_init(&sum);
 	rh_begin(&b, "Study report", out, NULL, NULL);
 	incomplete_banner(&b, out, &group, have_group);
 	contents_nav(&b, labels, subs, nsub);
-	sb_puts(&sum, "<table id=\"summary\"><thead><tr><th>parcel</th><th>split</th><th>measure_task</th>"
+	sbuf_puts(&sum, "<table id=\"summary\"><thead><tr><th>parcel</th><th>split</th><th>measure_task</th>"
 		      "<th>effect</th><th>n</th><th>mean</th><th>sem</th></tr></thead><tbody>\n");
 	if (have_resp && response_columns(&resp, &c)) {
 		table_release(&resp);
 		have_resp = 0;
 		rc = 1;
 	}
-	sb_puts(&b, "<h2 id=\"cv\">Cross-validated responses</h2>\n<p class=\"note\">fROIs defined on one part of the localizer runs, "
+	sbuf_puts(&b, "<h2 id=\"cv\">Cross-validated responses</h2>\n<p class=\"note\">fROIs defined on one part of the localizer runs, "
 		    "responses measured in the others, averaged over the splits. Bars: mean over subjects; whiskers: &#177;1 standard "
 		    "error of the mean; circles: one per subject, in subject order from left to right.</p>\n");
 	if (have_resp)
 		response_charts(&b, &sum, &resp, &c, &uid);
-	sb_puts(&sum, "</tbody></table>\n");
-	sb_puts(&b, "<h2 id=\"overlap\">fROI sizes and overlap of the halves</h2>\n<p class=\"note\">Dice = 2|A&cap;B| / (|A| + |B|) "
+	sbuf_puts(&sum, "</tbody></table>\n");
+	sbuf_puts(&b, "<h2 id=\"overlap\">fROI sizes and overlap of the halves</h2>\n<p class=\"note\">Dice = 2|A&cap;B| / (|A| + |B|) "
 		    "of the fROIs defined on the two halves of the localizer runs (leave-one-out: the mean over all pairs of folds, "
 		    "sizes the mean over folds).</p>\n<p class=\"note\" id=\"overlap-rule\"><b>Overlap flag:</b> " QC_OVERLAP_RULE "</p>\n"
 		    "<p class=\"note\">A run is flagged for motion when its mean framewise displacement exceeds the study's fd_threshold.</p>\n");
@@ -840,9 +831,9 @@ int report_write(const char *out, int quiet)
 	group_section(&b, &group, have_group);
 	if (have_group)
 		table_release(&group);
-	sb_puts(&b, "<h2 id=\"summary-h\">Chart values</h2>\n<p class=\"note\">The numbers behind the bars above, computed "
+	sbuf_puts(&b, "<h2 id=\"summary-h\">Chart values</h2>\n<p class=\"note\">The numbers behind the bars above, computed "
 		    "here from responses.csv.</p>\n");
-	sb_puts(&b, sum.p);
+	sbuf_puts(&b, sum.p);
 	for (i = 0; i < nsub && !sf; i++)
 		sf = subs[i].study_file;
 	rh_end(&b, sf);
@@ -854,13 +845,13 @@ int report_write(const char *out, int quiet)
 	} else if (!quiet) {
 		printf("report: %s (%zu of %zu subject pages)\n", path, nok, nsub);
 	}
-	sb_release(&b);
-	sb_release(&sum);
+	sbuf_release(&b);
+	sbuf_release(&sum);
 	if (have_resp)
 		table_release(&resp);
 	for (i = 0; i < nsub; i++)
 		rsub_release(&subs[i]);
 	free(subs);
-	free_strs(labels, nsub);
+	strv_free_array(labels, nsub);
 	return rc;
 }

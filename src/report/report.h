@@ -23,7 +23,7 @@ int report_write(const char *out, int quiet);
 
 /* ---- report_html.c: a growing text buffer and the page frame ---- */
 
-/* the buffer itself (sbuf, sb_init, sb_puts, sb_printf ...) is core/sbuf.h */
+/* the buffer itself (sbuf, sbuf_init, sbuf_puts, sbuf_printf ...) is core/sbuf.h */
 /* Appends s with &, <, >, " and ' escaped (safe in text and attribute values). */
 void sb_esc(sbuf *b, const char *s);
 /* Appends "data:image/png;base64,..." for n bytes of PNG data. */

@@ -70,15 +70,6 @@ static char **list_dir(const char *dir, const char *prefix, const char *suffix, 
 	return v;
 }
 
-static void free_list(char **v, size_t n)
-{
-	size_t i;
-
-	for (i = 0; i < n; i++)
-		free(v[i]);
-	free(v);
-}
-
 /* Reads a 3-D image on the page's grid; NULL (with a note in e) when missing or elsewhere. */
 static double *read_on_grid(page *pg, const char *path, sr_err *e)
 {
@@ -248,7 +239,7 @@ static void load_maps(page *pg, sr_err *e)
 			if (!is_all)
 				pg->ndefine = pg->nmaps;
 		}
-	free_list(tok, n);
+	strv_free_array(tok, n);
 }
 
 /* The mean image: the first func/sub-<l>_*_boldref.nii.gz in name order, into path; 0 if none. */
@@ -263,7 +254,7 @@ static int boldref_path(const page *pg, char *path, size_t len)
 	tok = list_dir(mdir, prefix, "_boldref.nii.gz", &n);
 	if (n)
 		snprintf(path, len, "%s/%s%s_boldref.nii.gz", mdir, prefix, tok[0]);
-	free_list(tok, n);
+	strv_free_array(tok, n);
 	return n > 0;
 }
 
@@ -348,11 +339,11 @@ static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label
 		/* screen right is +i, screen up is +j (rows drawn top-down from the last j) */
 		const double(*A)[4] = (const double(*)[4])pg->g.affine;
 
-		sb_printf(b, "<div class=\"slice\"><span></span><span class=\"o t\">%c</span><span></span>"
+		sbuf_printf(b, "<div class=\"slice\"><span></span><span class=\"o t\">%c</span><span></span>"
 			  "<span class=\"o l\">%c</span><img width=\"%d\" height=\"%d\" alt=\"slice k=%zu\" src=\"",
 			  qc_axis_letter(A, 1, 1, NULL), qc_axis_letter(A, 0, -1, NULL), W, H, k);
 		sb_data_uri(b, png, npng);
-		sb_printf(b, "\"><span class=\"o r\">%c</span><span></span><span class=\"o b\">%c</span><span></span>"
+		sbuf_printf(b, "\"><span class=\"o r\">%c</span><span></span><span class=\"o b\">%c</span><span></span>"
 			  "<span class=\"z\">k = %zu</span></div>\n",
 			  qc_axis_letter(A, 0, 1, NULL), qc_axis_letter(A, 1, -1, NULL), k);
 		free(png);
@@ -389,12 +380,12 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 				uni[v] = label;
 	ns = qc_pick_slices(uni, pg->nx, pg->ny, pg->nz, label, NSLICES, sl);
 	free(uni);
-	sb_puts(b, "<h3 id=\"parcel-");
-	sb_printf(b, "%d\">Parcel ", (int)label);
+	sbuf_puts(b, "<h3 id=\"parcel-");
+	sbuf_printf(b, "%d\">Parcel ", (int)label);
 	sb_esc(b, pg->pname[pi]);
-	sb_puts(b, "</h3>\n");
+	sbuf_puts(b, "</h3>\n");
 	if (!ns) {
-		sb_puts(b, "<p class=\"note\">No fROI voxels in any split.</p>\n");
+		sbuf_puts(b, "<p class=\"note\">No fROI voxels in any split.</p>\n");
 		return;
 	}
 	for (k = 0; k < pg->nmaps; k++) {
@@ -402,20 +393,20 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 
 		for (v = 0; v < pg->nvox; v++)
 			cnt += pg->maps[k].lab[v] == label;
-		sb_puts(b, "<figure><figcaption><b>");
+		sbuf_puts(b, "<figure><figcaption><b>");
 		sb_esc(b, pg->maps[k].token);
-		sb_printf(b, "</b>: fROI (hatched), %zu voxels%s</figcaption>\n<div class=\"strip\">\n", cnt,
+		sbuf_printf(b, "</b>: fROI (hatched), %zu voxels%s</figcaption>\n<div class=\"strip\">\n", cnt,
 			  pg->parcels ? "; parcel outline dashed" : "");
 		for (j = 0; j < ns; j++)
 			emit_slice(pg, b, sl[j], &pg->maps[k], label, DRAW_FROI, tlo, thi, glo, ghi);
-		sb_puts(b, "</div></figure>\n");
+		sbuf_puts(b, "</div></figure>\n");
 		if (pg->maps[k].t) {
-			sb_puts(b, "<figure><figcaption><b>");
+			sbuf_puts(b, "<figure><figcaption><b>");
 			sb_esc(b, pg->maps[k].token);
-			sb_puts(b, "</b>: localizer t (fROI outlined white)</figcaption>\n<div class=\"strip\">\n");
+			sbuf_puts(b, "</b>: localizer t (fROI outlined white)</figcaption>\n<div class=\"strip\">\n");
 			for (j = 0; j < ns; j++)
 				emit_slice(pg, b, sl[j], &pg->maps[k], label, DRAW_T, tlo, thi, glo, ghi);
-			sb_puts(b, "</div></figure>\n");
+			sbuf_puts(b, "</div></figure>\n");
 		}
 	}
 }
@@ -427,13 +418,13 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 
 	s->parcels = xcalloc(pg->np ? pg->np : 1, sizeof *s->parcels);
 	s->nparcels = pg->np;
-	sb_puts(b, "<table id=\"overlap\"><thead><tr><th>parcel</th>");
+	sbuf_puts(b, "<table id=\"overlap\"><thead><tr><th>parcel</th>");
 	for (k = 0; k < pg->nmaps; k++) {
-		sb_puts(b, "<th>voxels ");
+		sbuf_puts(b, "<th>voxels ");
 		sb_esc(b, pg->maps[k].token);
-		sb_puts(b, "</th>");
+		sbuf_puts(b, "</th>");
 	}
-	sb_puts(b, "<th>Dice</th><th>check</th></tr></thead><tbody>\n");
+	sbuf_puts(b, "<th>Dice</th><th>check</th></tr></thead><tbody>\n");
 	for (pi = 0; pi < pg->np; pi++) {
 		rsub_parcel *rp = &s->parcels[pi];
 		double dsum = 0, sa = 0, sbsz = 0;
@@ -470,28 +461,27 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 		}
 		rp->dice = npair ? dsum / (double)npair : NAN;
 		bad = qc_overlap_flag(rp->size_a, rp->size_b, rp->dice);
-		sb_printf(b, "<tr%s><td>", bad ? " class=\"flag\"" : "");
+		sbuf_printf(b, "<tr%s><td>", bad ? " class=\"flag\"" : "");
 		sb_esc(b, rp->name);
-		sb_puts(b, "</td>");
+		sbuf_puts(b, "</td>");
 		for (k = 0; k < pg->nmaps; k++) {
 			size_t v, c = 0;
 
 			for (v = 0; v < pg->nvox; v++)
 				c += pg->maps[k].lab[v] == rp->index;
-			sb_printf(b, "<td class=\"n\">%zu</td>", c);
+			sbuf_printf(b, "<td class=\"n\">%zu</td>", c);
 		}
-		sb_puts(b, "<td class=\"n\">");
+		sbuf_puts(b, "<td class=\"n\">");
 		if (isfinite(rp->dice))
-			sb_printf(b, "%.3f", rp->dice);
+			sbuf_printf(b, "%.3f", rp->dice);
 		else
-			sb_puts(b, "&ndash;");
-		sb_printf(b, "</td><td>%s</td></tr>\n", bad ? "<span class=\"flag\">&#9873; outlier</span>" : "ok");
+			sbuf_puts(b, "&ndash;");
+		sbuf_printf(b, "</td><td>%s</td></tr>\n", bad ? "<span class=\"flag\">&#9873; outlier</span>" : "ok");
 	}
-	sb_puts(b, "</tbody></table>\n");
+	sbuf_puts(b, "</tbody></table>\n");
 }
 
 static char **words(const char *s, size_t *n);
-static void free_list(char **v, size_t n);
 
 /* The run a design file (task-<task>_run-<run>) belongs to; NULL when unknown. */
 static const runrec_run *design_run(const page *pg, const char *name)
@@ -563,15 +553,15 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 
 	sr_err_init(&e, NULL, NULL);
 	if (table_read(path, ',', &t, &e)) {
-		sb_puts(b, "<p class=\"note\">");
+		sbuf_puts(b, "<p class=\"note\">");
 		sb_esc(b, e.msg);
-		sb_puts(b, "</p>\n");
+		sbuf_puts(b, "</p>\n");
 		return;
 	}
 	if (!t.nrows || !t.ncols) {
-		sb_puts(b, "<p class=\"note\">");
+		sbuf_puts(b, "<p class=\"note\">");
 		sb_esc(b, path);
-		sb_puts(b, ": no rows, so no figure.</p>\n");
+		sbuf_puts(b, ": no rows, so no figure.</p>\n");
 		table_release(&t);
 		return;
 	}
@@ -617,24 +607,24 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 				marks[c][k] = ((double)rows[k] + vt) * (isfinite(tr) && tr > 0 ? tr : 1.0);
 			free(rows);
 		}
-	sb_puts(b, "<figure class=\"design\"><figcaption><b>");
+	sbuf_puts(b, "<figure class=\"design\"><figcaption><b>");
 	sb_esc(b, name);
-	sb_printf(b, "</b>: %zu volumes &times; %zu columns%s; each trace scaled to its own range", t.nrows, t.ncols,
+	sbuf_printf(b, "</b>: %zu volumes &times; %zu columns%s; each trace scaled to its own range", t.nrows, t.ncols,
 		  isfinite(tr) && tr > 0 ? "" : " (TR unknown: x in volumes)");
 	if (ncond && from_events)
-		sb_puts(b, "; &#9650; an event's onset (from the run's events file)");
+		sbuf_puts(b, "; &#9650; an event's onset (from the run's events file)");
 	else if (ncond)
-		sb_puts(b, "; &#9650; where a condition's regressor rises (the events file is not at hand)");
-	sb_puts(b, "</figcaption>\n");
+		sbuf_puts(b, "; &#9650; where a condition's regressor rises (the events file is not at hand)");
+	sbuf_puts(b, "</figcaption>\n");
 	rs_design(b, t.header, kind, t.ncols, val, t.nrows, tr, vt, (const double *const *)marks, nmarks);
-	sb_puts(b, "</figure>\n");
+	sbuf_puts(b, "</figure>\n");
 	for (c = 0; c < t.ncols; c++)
 		free(marks[c]);
 	free(marks);
 	free(nmarks);
 	free(kind);
 	free(val);
-	free_list(conf, nconf);
+	strv_free_array(conf, nconf);
 	table_release(&t);
 }
 
@@ -647,12 +637,12 @@ static void designs(page *pg, sbuf *b)
 	snprintf(ddir, sizeof ddir, "%s/design", pg->dir);
 	names = list_dir(ddir, "", ".csv", &n);
 	if (!n)
-		sb_puts(b, "<p class=\"note\">No design matrices in design/.</p>\n");
+		sbuf_puts(b, "<p class=\"note\">No design matrices in design/.</p>\n");
 	for (i = 0; i < n; i++) {
 		snprintf(path, sizeof path, "%s/%s.csv", ddir, names[i]);
 		design_figure(pg, b, path, names[i]);
 	}
-	free_list(names, n);
+	strv_free_array(names, n);
 }
 
 /* Splits a space/comma separated list. */
@@ -683,21 +673,21 @@ static void motion(page *pg, rsub *s, sbuf *b)
 	cols = words(mtext, &ncols);
 	if (!(threshold > 0))
 		threshold = 0.5;
-	sb_printf(b, "<p class=\"note\">Framewise displacement (Power et al. 2012): the sum of the absolute "
+	sbuf_printf(b, "<p class=\"note\">Framewise displacement (Power et al. 2012): the sum of the absolute "
 		  "volume-to-volume changes of the six motion parameters, rotations (%s) as arc length on a "
 		  "50 mm sphere. A run is flagged when its <b>mean</b> FD exceeds the study's fd_threshold "
 		  "(%g mm): the mean measures sustained motion, while the maximum flags almost any run with a "
 		  "single jerk; both are listed.</p>\n", deg ? "degrees" : "radians", threshold);
 	if (ncols != 6) {
-		sb_puts(b, "<p class=\"note\">The study names no six motion columns ([model] motion), so no FD is shown.</p>\n");
+		sbuf_puts(b, "<p class=\"note\">The study names no six motion columns ([model] motion), so no FD is shown.</p>\n");
 		goto out;
 	}
-	sb_puts(b, "<table id=\"motion\"><thead><tr><th>task</th><th>run</th><th>volumes</th><th>mean FD (mm)</th>"
+	sbuf_puts(b, "<table id=\"motion\"><thead><tr><th>task</th><th>run</th><th>volumes</th><th>mean FD (mm)</th>"
 		   "<th>max FD (mm)</th><th>volumes &gt; threshold</th><th>check</th></tr></thead><tbody>\n");
 	{
 		sbuf charts;
 
-		sb_init(&charts);
+		sbuf_init(&charts);
 		for (r = 0; r < pg->rec.nruns; r++) {
 			const runrec_run *run = &pg->rec.runs[r];
 			table t;
@@ -710,19 +700,19 @@ static void motion(page *pg, rsub *s, sbuf *b)
 				continue;
 			sr_err_init(&e, NULL, NULL);
 			if (table_read(run->confounds, 0, &t, &e)) {
-				sb_puts(&charts, "<p class=\"note\">");
+				sbuf_puts(&charts, "<p class=\"note\">");
 				sb_esc(&charts, e.msg);
-				sb_puts(&charts, "</p>\n");
+				sbuf_puts(&charts, "</p>\n");
 				continue;
 			}
 			for (j = 0; j < 6; j++)
 				if ((ci[j] = table_col(&t, cols[j])) < 0 && ok) {
 					ok = 0;
-					sb_puts(&charts, "<p class=\"note\"><span class=\"flag\">&#9873;</span> ");
+					sbuf_puts(&charts, "<p class=\"note\"><span class=\"flag\">&#9873;</span> ");
 					sb_esc(&charts, run->confounds);
-					sb_puts(&charts, ": no column ");
+					sbuf_puts(&charts, ": no column ");
 					sb_esc(&charts, cols[j]);
-					sb_puts(&charts, " ([model] motion), so no FD for this run.</p>\n");
+					sbuf_puts(&charts, " ([model] motion), so no FD for this run.</p>\n");
 				}
 			if (!ok || !t.nrows) {
 				table_release(&t);
@@ -744,31 +734,31 @@ static void motion(page *pg, rsub *s, sbuf *b)
 			s->nruns_fd++;
 			if (mean > threshold)
 				s->nruns_flagged++;
-			sb_printf(b, "<tr%s><td>", mean > threshold ? " class=\"flag\"" : "");
+			sbuf_printf(b, "<tr%s><td>", mean > threshold ? " class=\"flag\"" : "");
 			sb_esc(b, run->task);
-			sb_puts(b, "</td><td>");
+			sbuf_puts(b, "</td><td>");
 			sb_esc(b, run->run);
-			sb_printf(b, "</td><td class=\"n\">%zu</td><td class=\"n\">%.3f</td><td class=\"n\">%.3f</td><td class=\"n\">%zu</td><td>%s</td></tr>\n",
+			sbuf_printf(b, "</td><td class=\"n\">%zu</td><td class=\"n\">%.3f</td><td class=\"n\">%.3f</td><td class=\"n\">%zu</td><td>%s</td></tr>\n",
 				  t.nrows, mean, max, nabove,
 				  mean > threshold ? "<span class=\"flag\">&#9873; mean FD above threshold</span>" : "ok");
-			sb_puts(&charts, "<figure><figcaption><b>task ");
+			sbuf_puts(&charts, "<figure><figcaption><b>task ");
 			sb_esc(&charts, run->task);
-			sb_puts(&charts, ", run ");
+			sbuf_puts(&charts, ", run ");
 			sb_esc(&charts, run->run);
-			sb_printf(&charts, "</b>: mean FD %.3f mm, max %.3f mm%s</figcaption>\n", mean, max,
+			sbuf_printf(&charts, "</b>: mean FD %.3f mm, max %.3f mm%s</figcaption>\n", mean, max,
 				  mean > threshold ? " &mdash; <span class=\"flag\">&#9873; flagged</span>" : "");
 			rs_fd(&charts, ++pg->uid, fd, t.nrows, run->tr, threshold);
-			sb_puts(&charts, "</figure>\n");
+			sbuf_puts(&charts, "</figure>\n");
 			free(mp);
 			free(fd);
 			table_release(&t);
 		}
-		sb_puts(b, "</tbody></table>\n");
-		sb_puts(b, charts.p);
-		sb_release(&charts);
+		sbuf_puts(b, "</tbody></table>\n");
+		sbuf_puts(b, charts.p);
+		sbuf_release(&charts);
 	}
 out:
-	free_list(cols, ncols);
+	strv_free_array(cols, ncols);
 	free(mtext);
 	free(units);
 	free(thr);
@@ -785,20 +775,20 @@ static void responses(page *pg, sbuf *b)
 	snprintf(path, sizeof path, "%s/responses.csv", pg->dir);
 	sr_err_init(&e, NULL, NULL);
 	if (table_read(path, ',', &t, &e)) {
-		sb_puts(b, "<p class=\"note\">");
+		sbuf_puts(b, "<p class=\"note\">");
 		sb_esc(b, e.msg);
-		sb_puts(b, "</p>\n");
+		sbuf_puts(b, "</p>\n");
 		return;
 	}
-	sb_puts(b, "<div class=\"wide\"><table id=\"responses\"><thead><tr>");
+	sbuf_puts(b, "<div class=\"wide\"><table id=\"responses\"><thead><tr>");
 	for (c = 0; c < t.ncols; c++) {
-		sb_puts(b, "<th>");
+		sbuf_puts(b, "<th>");
 		sb_esc(b, t.header[c]);
-		sb_puts(b, "</th>");
+		sbuf_puts(b, "</th>");
 	}
-	sb_puts(b, "</tr></thead><tbody>\n");
+	sbuf_puts(b, "</tr></thead><tbody>\n");
 	for (r = 0; r < t.nrows; r++) {
-		sb_puts(b, "<tr>");
+		sbuf_puts(b, "<tr>");
 		for (c = 0; c < t.ncols; c++) {
 			const char *cell = table_cell(&t, r, c);
 			char *end;
@@ -808,16 +798,16 @@ static void responses(page *pg, sbuf *b)
 				    !strcmp(t.header[c], "measure_runs");
 			int num = !label && *cell && !*end && isfinite(v);
 
-			sb_puts(b, num ? "<td class=\"n\">" : "<td>");
+			sbuf_puts(b, num ? "<td class=\"n\">" : "<td>");
 			if (num)
-				sb_printf(b, "%.4g", v);
+				sbuf_printf(b, "%.4g", v);
 			else
 				sb_esc(b, cell);
-			sb_puts(b, "</td>");
+			sbuf_puts(b, "</td>");
 		}
-		sb_puts(b, "</tr>\n");
+		sbuf_puts(b, "</tr>\n");
 	}
-	sb_puts(b, "</tbody></table></div>\n");
+	sbuf_puts(b, "</tbody></table></div>\n");
 	table_release(&t);
 }
 
@@ -853,20 +843,20 @@ static void orientation_note(const page *pg, sbuf *b)
 	const char *plane = through == 'S' || through == 'I' ? "Axial" : through == 'A' || through == 'P' ? "Coronal" : "Sagittal";
 
 	cmin = fmin(c0, fmin(c1, c2));
-	sb_printf(b, "<p class=\"note\" id=\"orientation\">%s slices (along the image's third voxel axis k, counted from 0), "
+	sbuf_printf(b, "<p class=\"note\" id=\"orientation\">%s slices (along the image's third voxel axis k, counted from 0), "
 		  "evenly spaced through the fROI's extent, drawn in the image's own voxel order (not resampled): the letters at "
 		  "each slice's edges come from its affine (%s; R/L right/left, A/P anterior/posterior, S/I superior/inferior). ",
 		  plane, pg->g.sform_code > 0 ? "sform" : pg->g.qform_code > 0 ? "qform" : "neither sform nor qform is set, so the NIfTI default is assumed and the letters may be wrong");
 	if (right == 'R' || right == 'L')
-		sb_printf(b, "<b>The subject's left is shown on the %s</b> (%s convention), %c at the top.",
+		sbuf_printf(b, "<b>The subject's left is shown on the %s</b> (%s convention), %c at the top.",
 			  right == 'R' ? "left" : "right", right == 'R' ? "neurological" : "radiological", up);
 	else
-		sb_printf(b, "Left to right on the page runs from %c to %c, bottom to top from %c to %c.",
+		sbuf_printf(b, "Left to right on the page runs from %c to %c, bottom to top from %c to %c.",
 			  qc_axis_letter(A, 0, -1, NULL), right, qc_axis_letter(A, 1, -1, NULL), up);
 	if (cmin < 0.999)
-		sb_printf(b, " The image is oblique (an axis up to %.0f&deg; from the nearest direction): the letters name the nearest one.",
+		sbuf_printf(b, " The image is oblique (an axis up to %.0f&deg; from the nearest direction): the letters name the nearest one.",
 			  acos(cmin) * 180.0 / 3.14159265358979323846);
-	sb_puts(b, "</p>\n");
+	sbuf_puts(b, "</p>\n");
 }
 
 sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
@@ -913,12 +903,12 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		tok = list_dir(mdir, prefix, "_dseg.nii.gz", &n);
 		if (!n || (snprintf(path, sizeof path, "%s/%s%s_dseg.nii.gz", mdir, prefix, tok[0]),
 			   nii_read_info(path, &in, NULL))) {
-			free_list(tok, n);
+			strv_free_array(tok, n);
 			page_release(&pg);
 			return sr_fail(e, SR_EIO, "%s: no maps to show (the _boldref.nii.gz and _dseg.nii.gz images are missing)",
 				       mdir);
 		}
-		free_list(tok, n);
+		strv_free_array(tok, n);
 	}
 	pg.g = in.grid;
 	pg.nx = (size_t)in.grid.nx;
@@ -939,11 +929,11 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		qc_window(pg.bold, pg.nvox, 0.02, 0.98, &glo, &ghi);
 	t_range(&pg, &tlo, &thi);
 
-	sb_init(&b);
+	sbuf_init(&b);
 	snprintf(title, sizeof title, "sub-%s", label);
 	rh_begin(&b, title, "Subject report: fROIs, overlap of the halves, design matrices and motion",
 		 "../report.html", "study report");
-	sb_puts(&b, "<nav class=\"toc\"><a href=\"#frois\">fROIs</a> &middot; <a href=\"#overlap-h\">sizes and overlap</a> &middot; "
+	sbuf_puts(&b, "<nav class=\"toc\"><a href=\"#frois\">fROIs</a> &middot; <a href=\"#overlap-h\">sizes and overlap</a> &middot; "
 		    "<a href=\"#design\">design matrices</a> &middot; <a href=\"#motion-h\">motion</a> &middot; "
 		    "<a href=\"#responses-h\">responses</a></nav>\n");
 	{
@@ -953,14 +943,14 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		double v = fw ? strtod(fw, &end) : 0.0;
 
 		if (fw && end != fw && *end == '\0' && v > 0)
-			sb_printf(&b, "<p class=\"note\">Runs smoothed before the fit: Gaussian of %g mm FWHM inside "
+			sbuf_printf(&b, "<p class=\"note\">Runs smoothed before the fit: Gaussian of %g mm FWHM inside "
 				  "each volume's data (normalised convolution).</p>\n", v);
 		else
-			sb_puts(&b, "<p class=\"note\">Runs fitted unsmoothed (no smoothing_fwhm in the study).</p>\n");
+			sbuf_puts(&b, "<p class=\"note\">Runs fitted unsmoothed (no smoothing_fwhm in the study).</p>\n");
 		free(fw);
 	}
-	sb_puts(&b, "<h2 id=\"overlap-h\">fROI sizes and overlap of the halves</h2>\n");
-	sb_puts(&b, "<p class=\"note\">Voxels per split; Dice = 2|A&cap;B| / (|A| + |B|) between the localizer's "
+	sbuf_puts(&b, "<h2 id=\"overlap-h\">fROI sizes and overlap of the halves</h2>\n");
+	sbuf_puts(&b, "<p class=\"note\">Voxels per split; Dice = 2|A&cap;B| / (|A| + |B|) between the localizer's "
 		    "halves (for leave-one-out: the mean over all pairs of folds).</p>\n<p class=\"note\" id=\"overlap-rule\">"
 		    "<b>Overlap flag:</b> " QC_OVERLAP_RULE "</p>\n");
 	overlap(&pg, s, &b);
@@ -970,34 +960,34 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		table rt;
 		char rpath[8192];
 
-		sb_puts(&b, "<h2 id=\"reliability-h\">Reliability of the fROIs</h2>\n<p class=\"note\">" RELIABILITY_NOTE
+		sbuf_puts(&b, "<h2 id=\"reliability-h\">Reliability of the fROIs</h2>\n<p class=\"note\">" RELIABILITY_NOTE
 			    " From reliability.csv.</p>\n");
 		snprintf(rpath, sizeof rpath, "%s/sub-%s/reliability.csv", out, label);
 		if (table_read(rpath, ',', &rt, NULL) == SR_OK) {
-			sb_puts(&b, "<div class=\"wide\">");
+			sbuf_puts(&b, "<div class=\"wide\">");
 			table_html(&b, &rt, "reliability", lead);
-			sb_puts(&b, "</div>\n");
+			sbuf_puts(&b, "</div>\n");
 			table_release(&rt);
 		} else {
-			sb_puts(&b, "<p class=\"note\">No reliability.csv for this subject (analyze it again).</p>\n");
+			sbuf_puts(&b, "<p class=\"note\">No reliability.csv for this subject (analyze it again).</p>\n");
 		}
 	}
-	sb_puts(&b, "<h2 id=\"frois\">fROIs on the mean functional image</h2>\n");
+	sbuf_puts(&b, "<h2 id=\"frois\">fROIs on the mean functional image</h2>\n");
 	if (!pg.bold)
-		sb_puts(&b, "<p class=\"note\">The mean image (func/*_boldref.nii.gz) is missing: slices drawn on a gray field.</p>\n");
+		sbuf_puts(&b, "<p class=\"note\">The mean image (func/*_boldref.nii.gz) is missing: slices drawn on a gray field.</p>\n");
 	if (!pg.parcels)
-		sb_puts(&b, "<p class=\"note\">The parcel image is missing or on another grid: no parcel outline.</p>\n");
+		sbuf_puts(&b, "<p class=\"note\">The parcel image is missing or on another grid: no parcel outline.</p>\n");
 	orientation_note(&pg, &b);
-	sb_puts(&b, "<p class=\"note\">Localizer t uses the viridis scale below (1st to 99th percentile of this "
+	sbuf_puts(&b, "<p class=\"note\">Localizer t uses the viridis scale below (1st to 99th percentile of this "
 		    "subject's t maps).</p>\n");
 	rs_colorbar(&b, ++pg.uid, tlo, thi, "localizer t");
 	for (i = 0; i < pg.np; i++)
 		section_parcel(&pg, &b, i, tlo, thi, glo, ghi);
-	sb_puts(&b, "<h2 id=\"design\">Design matrices</h2>\n");
+	sbuf_puts(&b, "<h2 id=\"design\">Design matrices</h2>\n");
 	designs(&pg, &b);
-	sb_puts(&b, "<h2 id=\"motion-h\">Motion</h2>\n");
+	sbuf_puts(&b, "<h2 id=\"motion-h\">Motion</h2>\n");
 	motion(&pg, s, &b);
-	sb_puts(&b, "<h2 id=\"responses-h\">Responses</h2>\n<p class=\"note\">A <code>:mean</code> row averages "
+	sbuf_puts(&b, "<h2 id=\"responses-h\">Responses</h2>\n<p class=\"note\">A <code>:mean</code> row averages "
 		    "the splits above it; its define_runs and measure_runs list each split's runs, splits separated by "
 		    "<code>|</code> (<code>1+3|2+4</code>: defined on 1+3 then on 2+4), so no run both defines and "
 		    "measures one fROI.</p>\n");
@@ -1006,7 +996,7 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 	snprintf(path, sizeof path, "%s/report.html", pg.dir);
 	rc = rh_write(path, &b, e);
 	s->ok = rc == SR_OK;
-	sb_release(&b);
+	sbuf_release(&b);
 	page_release(&pg);
 	return rc;
 }

@@ -12,7 +12,7 @@
 /* Fill patterns so bars differ without colour: light solid, hatch, cross-hatch, dots, dark solid. */
 static void patterns(sbuf *b, int id)
 {
-	sb_printf(b, "<defs>"
+	sbuf_printf(b, "<defs>"
 		  "<pattern id=\"p%d-1\" width=\"6\" height=\"6\" patternUnits=\"userSpaceOnUse\" patternTransform=\"rotate(45)\">"
 		  "<rect width=\"6\" height=\"6\" fill=\"#f3e3d6\"/><line x1=\"0\" y1=\"0\" x2=\"0\" y2=\"6\" stroke=\"#8a3b12\" stroke-width=\"2\"/></pattern>"
 		  "<pattern id=\"p%d-2\" width=\"6\" height=\"6\" patternUnits=\"userSpaceOnUse\">"
@@ -51,18 +51,18 @@ static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double to
 		char t[32];
 
 		chart_format(ticks[i], chart_decimals(step), t, sizeof t);
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"%s\"/>"
+		sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"%s\"/>"
 			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">%s</text>\n",
 			  x0, y, x1, y, fabs(ticks[i]) < 1e-9 * step ? "#1d232b" : "#e2ddd1",
 			  fabs(ticks[i]) < 1e-9 * step ? "1" : "0.7",
 			  x0 - 5, y + 4, t);
 	}
-	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>", x0, top, x0,
+	sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>", x0, top, x0,
 		  bottom);
-	sb_printf(b, "<text transform=\"translate(%.1f %.1f) rotate(-90)\" font-size=\"11\" text-anchor=\"middle\">",
+	sbuf_printf(b, "<text transform=\"translate(%.1f %.1f) rotate(-90)\" font-size=\"11\" text-anchor=\"middle\">",
 		  x0 - 40, (top + bottom) / 2);
 	sb_esc(b, label);
-	sb_puts(b, "</text>\n");
+	sbuf_puts(b, "</text>\n");
 }
 
 void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars, size_t n,
@@ -94,18 +94,18 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 		lo = fmin(lo, ylo);
 	if (isfinite(yhi))
 		hi = fmax(hi, yhi);
-	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"bars\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"",
+	sbuf_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"bars\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"",
 		  w, h, w, h);
 	sb_esc(b, title);
-	sb_puts(b, "\">\n");
+	sbuf_puts(b, "\">\n");
 	patterns(b, id);
-	sb_printf(b, "<text x=\"%.1f\" y=\"17\" font-size=\"13\" font-weight=\"600\">", left - 50);
+	sbuf_printf(b, "<text x=\"%.1f\" y=\"17\" font-size=\"13\" font-weight=\"600\">", left - 50);
 	sb_esc(b, title);
-	sb_puts(b, "</text>\n");
+	sbuf_puts(b, "</text>\n");
 	yaxis(b, lo, hi, left, w - right, top, h - bottom, ylabel, &tlo, &thi, &ystep);
 	/* bar values two digits finer than the axis steps (steps of 1 give 2.05), never 5.26e-05 */
 	vdec = chart_decimals(ystep) + 2;
-	sb_printf(b, "<desc class=\"yrange\">%.6g %.6g</desc>\n", tlo, thi);
+	sbuf_printf(b, "<desc class=\"yrange\">%.6g %.6g</desc>\n", tlo, thi);
 #define YPIX(v) ((h - bottom) - ((v) - tlo) / (thi - tlo) * ((h - bottom) - top))
 	for (i = 0; i < n; i++) {
 		double x = left + gap / 2 + (double)i * (bw + gap), y0 = YPIX(0.0);
@@ -113,12 +113,12 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 		if (isfinite(bars[i].mean)) {
 			double y = YPIX(bars[i].mean);
 
-			sb_printf(b, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" height=\"%.1f\" fill=\"%s\" stroke=\"#1d232b\" stroke-width=\"1\"/>\n",
+			sbuf_printf(b, "<rect x=\"%.1f\" y=\"%.1f\" width=\"%.1f\" height=\"%.1f\" fill=\"%s\" stroke=\"#1d232b\" stroke-width=\"1\"/>\n",
 				  x, fmin(y, y0), bw, fabs(y0 - y), fill_of(id, i, fb, sizeof fb));
 			if (isfinite(bars[i].sem)) {
 				double ya = YPIX(bars[i].mean - bars[i].sem), yb = YPIX(bars[i].mean + bars[i].sem);
 
-				sb_printf(b, "<path d=\"M%.1f %.1fV%.1fM%.1f %.1fh12M%.1f %.1fh12\" stroke=\"#1d232b\" stroke-width=\"1.6\" fill=\"none\"/>\n",
+				sbuf_printf(b, "<path d=\"M%.1f %.1fV%.1fM%.1f %.1fh12M%.1f %.1fh12\" stroke=\"#1d232b\" stroke-width=\"1.6\" fill=\"none\"/>\n",
 					  x + bw / 2, ya, yb, x + bw / 2 - 6, ya, x + bw / 2 - 6, yb);
 			}
 		}
@@ -128,25 +128,25 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 
 			if (!isfinite(bars[i].dots[k]))
 				continue;
-			sb_printf(b, "<circle cx=\"%.1f\" cy=\"%.1f\" r=\"3.2\" fill=\"#fff\" stroke=\"#1d232b\" stroke-width=\"1.2\"/>\n",
+			sbuf_printf(b, "<circle cx=\"%.1f\" cy=\"%.1f\" r=\"3.2\" fill=\"#fff\" stroke=\"#1d232b\" stroke-width=\"1.2\"/>\n",
 				  x + bw / 2 + off, YPIX(bars[i].dots[k]));
 		}
-		sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">", x + bw / 2,
+		sbuf_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">", x + bw / 2,
 			  h - bottom + 16);
 		sb_esc(b, bars[i].label);
-		sb_printf(b, "</text><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"middle\" fill=\"#5b6470\">",
+		sbuf_printf(b, "</text><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"middle\" fill=\"#5b6470\">",
 			  x + bw / 2, h - bottom + 30);
 		if (isfinite(bars[i].mean)) {
 			chart_format(bars[i].mean, vdec, num, sizeof num);
-			sb_puts(b, num);
+			sbuf_puts(b, num);
 		}
-		sb_puts(b, "</text>\n");
+		sbuf_puts(b, "</text>\n");
 	}
 #undef YPIX
-	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">bar: mean; whiskers: &#177;1 sem over subjects</text>"
+	sbuf_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">bar: mean; whiskers: &#177;1 sem over subjects</text>"
 		  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" fill=\"#5b6470\">circles: one per subject</text>\n",
 		  left - 50, h - 20, left - 50, h - 7);
-	sb_puts(b, "</svg>\n");
+	sbuf_puts(b, "</svg>\n");
 }
 
 void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double threshold)
@@ -164,7 +164,7 @@ void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double thresh
 		hi = 0.5;
 	hi *= 1.1;
 	t_end = n > 1 ? (double)(n - 1) * (have_tr ? tr : 1.0) : 1.0;
-	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"framewise displacement\">\n",
+	sbuf_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"framewise displacement\">\n",
 		  w, h, w, h);
 	yaxis(b, 0, hi, left, w - right, top, h - bottom, "FD (mm)", &tlo, &thi, NULL);
 #define XPIX(t) (left + (t) / t_end * (w - left - right))
@@ -176,23 +176,23 @@ void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double thresh
 		char tl[32];
 
 		chart_format(ticks[i], chart_decimals(step), tl, sizeof tl);
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+		sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 			  XPIX(ticks[i]), h - bottom, XPIX(ticks[i]), h - bottom + 4, XPIX(ticks[i]), h - bottom + 16, tl);
 	}
-	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+	sbuf_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 		  (left + w - right) / 2, h - 6, have_tr ? "time (s)" : "volume");
-	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#9b1c1c\" stroke-dasharray=\"6 4\" stroke-width=\"1.4\"/>"
+	sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#9b1c1c\" stroke-dasharray=\"6 4\" stroke-width=\"1.4\"/>"
 		  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\" fill=\"#9b1c1c\">0.5 mm</text>\n",
 		  left, YPIX(0.5), w - right, YPIX(0.5), w - right - 2, YPIX(0.5) - 4);
 	if (fabs(threshold - 0.5) > 1e-9)
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\" stroke-dasharray=\"2 3\"/>"
+		sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\" stroke-dasharray=\"2 3\"/>"
 			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\">study threshold %g mm</text>\n",
 			  left, YPIX(threshold), w - right, YPIX(threshold), left + 4, YPIX(threshold) - 4, threshold);
-	sb_puts(b, "<polyline fill=\"none\" stroke=\"#2f4a63\" stroke-width=\"1.3\" points=\"");
+	sbuf_puts(b, "<polyline fill=\"none\" stroke=\"#2f4a63\" stroke-width=\"1.3\" points=\"");
 	for (i = 0; i < n; i++)
 		if (isfinite(fd[i]))
-			sb_printf(b, "%.1f,%.1f ", XPIX((double)i * (have_tr ? tr : 1.0)), YPIX(fd[i]));
-	sb_puts(b, "\"/>\n</svg>\n");
+			sbuf_printf(b, "%.1f,%.1f ", XPIX((double)i * (have_tr ? tr : 1.0)), YPIX(fd[i]));
+	sbuf_puts(b, "\"/>\n</svg>\n");
 #undef XPIX
 #undef YPIX
 }
@@ -202,15 +202,15 @@ void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
 	const double x0 = 10, wbar = 240, w = 300, h = 52;
 	double ticks[32], step;
 	size_t i, nt;
-	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"colour scale\">\n<defs><linearGradient id=\"cb%d\">",
+	sbuf_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"colour scale\">\n<defs><linearGradient id=\"cb%d\">",
 		  w, h, w, h, gid);
 	for (i = 0; i <= 16; i++) {
 		unsigned char c[3];
 
 		chart_viridis((double)i / 16.0, c);
-		sb_printf(b, "<stop offset=\"%.4f\" stop-color=\"#%02x%02x%02x\"/>", (double)i / 16.0, c[0], c[1], c[2]);
+		sbuf_printf(b, "<stop offset=\"%.4f\" stop-color=\"#%02x%02x%02x\"/>", (double)i / 16.0, c[0], c[1], c[2]);
 	}
-	sb_printf(b, "</linearGradient></defs>\n<rect x=\"%.1f\" y=\"4\" width=\"%.1f\" height=\"14\" fill=\"url(#cb%d)\" stroke=\"#1d232b\" stroke-width=\"0.8\"/>\n",
+	sbuf_printf(b, "</linearGradient></defs>\n<rect x=\"%.1f\" y=\"4\" width=\"%.1f\" height=\"14\" fill=\"url(#cb%d)\" stroke=\"#1d232b\" stroke-width=\"0.8\"/>\n",
 		  x0, wbar, gid);
 	if (!(hi > lo))
 		hi = lo + 1;
@@ -223,12 +223,12 @@ void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
 			continue;
 		x = x0 + (ticks[i] - lo) / (hi - lo) * wbar;
 		chart_format(ticks[i], chart_decimals(step), tl, sizeof tl);
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"18\" x2=\"%.1f\" y2=\"23\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"34\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+		sbuf_printf(b, "<line x1=\"%.1f\" y1=\"18\" x2=\"%.1f\" y2=\"23\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"34\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 			  x, x, x, tl);
 	}
-	sb_printf(b, "<text x=\"%.1f\" y=\"48\" font-size=\"11\">", x0);
+	sbuf_printf(b, "<text x=\"%.1f\" y=\"48\" font-size=\"11\">", x0);
 	sb_esc(b, label);
-	sb_puts(b, "</text>\n</svg>\n");
+	sbuf_puts(b, "</text>\n</svg>\n");
 }
 
 /* Tints per column kind (line, band), in the page's palette. */
@@ -255,7 +255,7 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 		H += trace + gap + (kind[c] == 0 ? evh : 0);
 	}
 	H += 40;
-	sb_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"design\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"design matrix: one trace per column against time\">\n",
+	sbuf_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"design\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"design matrix: one trace per column against time\">\n",
 		  w, H, w, H);
 #define XPIX(t) (left + (t) / t_end * (w - left - right))
 	prev = -1;
@@ -272,7 +272,7 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 				hb += trace + gap + (kind[e] == 0 ? evh : 0);
 				e++;
 			}
-			sb_printf(b, "<rect x=\"4\" y=\"%.1f\" width=\"%.1f\" height=\"%.1f\" fill=\"%s\"/>"
+			sbuf_printf(b, "<rect x=\"4\" y=\"%.1f\" width=\"%.1f\" height=\"%.1f\" fill=\"%s\"/>"
 				  "<text class=\"kind\" x=\"8\" y=\"%.1f\" font-size=\"11\" font-weight=\"600\" fill=\"%s\">%s</text>\n",
 				  y, w - 8, head + hb - gap / 2, kind_band[kc], y + 12, kind_line[kc], kind_name[kc]);
 			y += head;
@@ -288,13 +288,13 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 		}
 		y0 = y + trace;   /* bottom of the trace band */
 		y1 = y + 2;       /* top */
-		sb_printf(b, "<g class=\"trace\" data-kind=\"%s\" data-column=\"", kind_name[kc]);
+		sbuf_printf(b, "<g class=\"trace\" data-kind=\"%s\" data-column=\"", kind_name[kc]);
 		sb_esc(b, names[c]);
-		sb_printf(b, "\"><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">", left - 8, y + trace / 2 + 4);
+		sbuf_printf(b, "\"><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">", left - 8, y + trace / 2 + 4);
 		sb_esc(b, names[c]);
-		sb_printf(b, "</text><line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#d9d4c7\" stroke-width=\"0.6\"/>",
+		sbuf_printf(b, "</text><line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#d9d4c7\" stroke-width=\"0.6\"/>",
 			  left, y0, w - right, y0);
-		sb_printf(b, "<polyline fill=\"none\" stroke=\"%s\" stroke-width=\"1.3\" points=\"", kind_line[kc]);
+		sbuf_printf(b, "<polyline fill=\"none\" stroke=\"%s\" stroke-width=\"1.3\" points=\"", kind_line[kc]);
 		for (r = 0; r < nrows; r++) {
 			double v = val[r * ncols + c], py;
 
@@ -303,9 +303,9 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 			/* each trace scaled to its own range; a flat column sits mid-band */
 			py = hi > lo ? y0 - (v - lo) / (hi - lo) * (y0 - y1) : (y0 + y1) / 2;
 			/* row r is the volume sampled at (r + vt) TR after the run's start */
-			sb_printf(b, "%.1f,%.1f ", XPIX(((double)r + vt) * unit), py);
+			sbuf_printf(b, "%.1f,%.1f ", XPIX(((double)r + vt) * unit), py);
 		}
-		sb_puts(b, "\"/>");
+		sbuf_puts(b, "\"/>");
 		if (kind[c] == 0 && marks) {
 			for (i = 0; i < nmarks[c]; i++) {
 				double x;
@@ -314,16 +314,16 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 					continue;
 				x = XPIX(marks[c][i]);
 
-				sb_printf(b, "<path class=\"ev\" d=\"M%.1f %.1fl-3.5 %.1fh7z\" fill=\"%s\"/>", x, y0 + 1.5,
+				sbuf_printf(b, "<path class=\"ev\" d=\"M%.1f %.1fl-3.5 %.1fh7z\" fill=\"%s\"/>", x, y0 + 1.5,
 					  evh - 2, kind_line[kc]);
 			}
 			y += evh;
 		}
-		sb_puts(b, "</g>\n");
+		sbuf_puts(b, "</g>\n");
 		y += trace + gap;
 	}
 	/* the time axis */
-	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>\n", left, y, w - right, y);
+	sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>\n", left, y, w - right, y);
 	nt = chart_ticks(0, t_end, 8, ticks, 32, &step);
 	for (i = 0; i < nt; i++) {
 		char t[32];
@@ -331,13 +331,13 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 		if (ticks[i] > t_end + 1e-9 || ticks[i] < -1e-9)
 			continue;
 		chart_format(ticks[i], chart_decimals(step), t, sizeof t);
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+		sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 			  XPIX(ticks[i]), y, XPIX(ticks[i]), y + 4, XPIX(ticks[i]), y + 16, t);
 	}
-	sb_printf(b, "<text class=\"axis\" x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
+	sbuf_printf(b, "<text class=\"axis\" x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>\n",
 		  (left + w - right) / 2, y + 32, have_tr ? "time (s)" : "volume");
 #undef XPIX
-	sb_puts(b, "</svg>\n");
+	sbuf_puts(b, "</svg>\n");
 }
 
 /* The path of one curve (gaps at NaN). */
@@ -356,7 +356,7 @@ static void curve_path(sbuf *b, const double *y, size_t nb, const double *time, 
 		}
 		x = x0 + (time[i] - tx0) / (tx1 > tx0 ? tx1 - tx0 : 1) * (x1 - x0);
 		yy = bottom - (y[i] - lo) / (hi - lo) * (bottom - top);
-		sb_printf(b, "%s%.1f %.1f", pen ? " L" : " M", x, yy);
+		sbuf_printf(b, "%s%.1f %.1f", pen ? " L" : " M", x, yy);
 		pen = 1;
 	}
 }
@@ -397,33 +397,33 @@ void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb
 		hi = fmax(hi, yhi);
 	if (hi - lo < 1e-9)
 		hi = lo + 1;
-	sb_printf(b, "<svg class=\"chart\" id=\"tc%d\" xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" "
+	sbuf_printf(b, "<svg class=\"chart\" id=\"tc%d\" xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" "
 		  "viewBox=\"0 0 %.0f %.0f\" role=\"img\"><title>", id, w, h, w, h);
 	sb_esc(b, title);
-	sb_printf(b, "</title><text x=\"%.0f\" y=\"18\" font-size=\"13\" font-weight=\"bold\">", left);
+	sbuf_printf(b, "</title><text x=\"%.0f\" y=\"18\" font-size=\"13\" font-weight=\"bold\">", left);
 	sb_esc(b, title);
-	sb_puts(b, "</text>\n");
+	sbuf_puts(b, "</text>\n");
 	yaxis(b, lo, hi, left, w - right, top, h - bottom, "percent signal change", &tlo, &thi, NULL);
-	sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>\n", left,
+	sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>\n", left,
 		  h - bottom, w - right, h - bottom);
 	for (i = 0; i < nb; i++) {
 		double x = left + (time[i] - tx0) / (tx1 > tx0 ? tx1 - tx0 : 1) * (w - right - left);
 		char t[32];
 
 		chart_format(time[i], time[i] == floor(time[i]) ? 0 : 1, t, sizeof t);
-		sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>", x,
+		sbuf_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">%s</text>", x,
 			  h - bottom + 15, t);
 	}
-	sb_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">time after onset (s)</text>\n",
+	sbuf_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">time after onset (s)</text>\n",
 		  (left + w - right) / 2, h - bottom + 32);
 	for (k = 0; k < nc; k++) {
 		const char *col = hue[k % 5];
 		double *up = xmalloc_array(nb ? nb : 1, sizeof *up), *dn = xmalloc_array(nb ? nb : 1, sizeof *dn);
 
 		for (s = 0; s < c[k].nsubj; s++) {
-			sb_printf(b, "<path class=\"subject\" fill=\"none\" stroke=\"%s\" stroke-width=\"0.8\" stroke-opacity=\"0.35\" d=\"", col);
+			sbuf_printf(b, "<path class=\"subject\" fill=\"none\" stroke=\"%s\" stroke-width=\"0.8\" stroke-opacity=\"0.35\" d=\"", col);
 			curve_path(b, c[k].subj + s * nb, nb, time, tx0, tx1, left, w - right, tlo, thi, top, h - bottom);
-			sb_puts(b, "\"/>\n");
+			sbuf_puts(b, "\"/>\n");
 		}
 		/* the band: up the upper edge, back along the lower one (bins with a mean and a sem) */
 		for (i = 0; i < nb; i++) {
@@ -432,26 +432,26 @@ void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb
 			up[i] = have ? c[k].mean[i] + c[k].sem[i] : NAN;
 			dn[i] = have ? c[k].mean[i] - c[k].sem[i] : NAN;
 		}
-		sb_printf(b, "<path class=\"band\" fill=\"%s\" fill-opacity=\"0.18\" stroke=\"none\" d=\"", col);
+		sbuf_printf(b, "<path class=\"band\" fill=\"%s\" fill-opacity=\"0.18\" stroke=\"none\" d=\"", col);
 		curve_path(b, up, nb, time, tx0, tx1, left, w - right, tlo, thi, top, h - bottom);
 		for (i = nb; i-- > 0;)
 			if (isfinite(dn[i]))
-				sb_printf(b, " L%.1f %.1f",
+				sbuf_printf(b, " L%.1f %.1f",
 					  left + (time[i] - tx0) / (tx1 > tx0 ? tx1 - tx0 : 1) * (w - right - left),
 					  h - bottom - (dn[i] - tlo) / (thi - tlo) * (h - bottom - top));
-		sb_puts(b, " Z\"/>\n");
-		sb_printf(b, "<path class=\"mean\" fill=\"none\" stroke=\"%s\" stroke-width=\"2.4\"%s%s%s d=\"", col,
+		sbuf_puts(b, " Z\"/>\n");
+		sbuf_printf(b, "<path class=\"mean\" fill=\"none\" stroke=\"%s\" stroke-width=\"2.4\"%s%s%s d=\"", col,
 			  dash[k % 5][0] ? " stroke-dasharray=\"" : "", dash[k % 5], dash[k % 5][0] ? "\"" : "");
 		curve_path(b, c[k].mean, nb, time, tx0, tx1, left, w - right, tlo, thi, top, h - bottom);
-		sb_puts(b, "\"/>\n");
-		sb_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"2.4\"%s%s%s/>"
+		sbuf_puts(b, "\"/>\n");
+		sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"%s\" stroke-width=\"2.4\"%s%s%s/>"
 			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\">", w - right + 10, top + 10 + 18.0 * k,
 			  w - right + 34, top + 10 + 18.0 * k, col, dash[k % 5][0] ? " stroke-dasharray=\"" : "",
 			  dash[k % 5], dash[k % 5][0] ? "\"" : "", w - right + 38, top + 14 + 18.0 * k);
 		sb_esc(b, c[k].label);
-		sb_puts(b, "</text>\n");
+		sbuf_puts(b, "</text>\n");
 		free(up);
 		free(dn);
 	}
-	sb_puts(b, "</svg>\n");
+	sbuf_puts(b, "</svg>\n");
 }

@@ -2,6 +2,7 @@
 #include <math.h>
 #include <string.h>
 
+#include "core/strv.h"
 #include "io/bids.h"
 #include "testlib.h"
 #include "tfiles.h"
@@ -72,7 +73,7 @@ static void test_subjects(const char *root)
 	CHECK(bids_subjects(root, &s, &n, &e) == SR_OK, "subjects listed");
 	CHECK(n == 7 && strcmp(s[0], "01") == 0 && strcmp(s[1], "02") == 0 && strcmp(s[6], "10") == 0,
 	      "sub-01 .. sub-10 sorted, files and empty labels ignored (%zu)", n);
-	bids_strings_free(s, n);
+	strv_free_array(s, n);
 	CHECK(bids_subjects("/nonexistent/dataset", &s, &n, &e) == SR_EIO &&
 		      strstr(e.msg, "/nonexistent/dataset") && n == 0,
 	      "missing dataset folder is an error naming it (%s)", e.msg);

@@ -9,11 +9,11 @@ static void b64(const char *in, const char *want)
 	sbuf b;
 	const char *pre = "data:image/png;base64,";
 
-	sb_init(&b);
+	sbuf_init(&b);
 	sb_data_uri(&b, (const unsigned char *)in, strlen(in));
 	CHECK(strncmp(b.p, pre, strlen(pre)) == 0 && strcmp(b.p + strlen(pre), want) == 0,
 	      "base64(\"%s\") = \"%s\" (RFC 4648 section 10; got \"%s\")", in, want, b.p + strlen(pre));
-	sb_release(&b);
+	sbuf_release(&b);
 }
 
 int main(void)
@@ -29,14 +29,14 @@ int main(void)
 	b64("foob", "Zm9vYg==");
 	b64("fooba", "Zm9vYmE=");
 	b64("foobar", "Zm9vYmFy");
-	sb_init(&b);
+	sbuf_init(&b);
 	sb_esc(&b, "a<b & \"c\" 'd'>");
 	CHECK(strcmp(b.p, "a&lt;b &amp; &quot;c&quot; &#39;d&#39;&gt;") == 0, "escaping of <, &, quotes and > (got %s)", b.p);
-	sb_release(&b);
-	sb_init(&b);
+	sbuf_release(&b);
+	sbuf_init(&b);
 	for (i = 0; i < 3000; i++)
-		sb_printf(&b, "%04d,", i);
+		sbuf_printf(&b, "%04d,", i);
 	CHECK(b.n == 15000 && strncmp(b.p + 14995, "2999,", 5) == 0, "the buffer grows past its first size intact");
-	sb_release(&b);
+	sbuf_release(&b);
 	return TEST_DONE();
 }

@@ -126,6 +126,30 @@ static void test_xgrow(void)
 	free(v);
 }
 
+/*
+ * A bare array of owned strings (what bids_subjects and the study reader hand
+ * out) is released by strv_free_array; a leak or double free here shows under
+ * make check-asan and check-valgrind, and a NULL array with n > 0 must not be read.
+ */
+static void test_free_array(void)
+{
+	strv sv = {0};
+	char **v;
+	size_t n;
+
+	strv_split(&sv, "tones, memory,familiar", ",", 0);
+	v = sv.v;
+	n = sv.n;
+	CHECK(n == 3 && strcmp(v[1], "memory") == 0, "three pieces to hand over (n %zu)", n);
+	sv.v = NULL;
+	sv.n = sv.cap = 0;
+	strv_free_array(v, n);
+	strv_free_array(NULL, 3);
+	strv_free_array(xmalloc(1), 0);
+	strv_free(&sv);
+	CHECK(sv.v == NULL && sv.n == 0, "the emptied vector stays empty after strv_free");
+}
+
 int main(void)
 {
 	test_push_sort();
@@ -133,5 +157,6 @@ int main(void)
 	test_split();
 	test_cmp();
 	test_xgrow();
+	test_free_array();
 	return TEST_DONE();
 }

@@ -2,6 +2,7 @@
 #include <stdlib.h>
 #include <string.h>
 
+#include "core/strv.h"
 #include "io/bids.h"
 #include "pipeline/studycheck.h"
 #include "testlib.h"
@@ -18,12 +19,12 @@ static void test_only(void)
 	rc = studycheck_only(study_subs, 3, "01,01 sub-01", &v, &n, &p);
 	CHECK(rc == 0 && n == 1 && strcmp(v[0], "01") == 0 && p.n == 0,
 	      "01,01 sub-01 is one subject (rc %d, n %zu)", rc, n);
-	bids_strings_free(v, n);
+	strv_free_array(v, n);
 
 	rc = studycheck_only(study_subs, 3, " 03,\t02 ,", &v, &n, &p);
 	CHECK(rc == 0 && n == 2 && strcmp(v[0], "03") == 0 && strcmp(v[1], "02") == 0,
 	      "labels keep the order given, separators and blanks skipped");
-	bids_strings_free(v, n);
+	strv_free_array(v, n);
 
 	v = NULL;
 	n = 0;
