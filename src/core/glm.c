@@ -540,6 +540,9 @@ sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
 			if (vol_zero(vol, v0, v1))
 				continue;
 			*live = 1;
+			/* written before the first dgemm reads them: a read would map the shared
+			   zero page, and the write after it a copy plus a TLB flush on every core */
+			memset(a->acc + (size_t)2 * a->m->r * v0, 0, (size_t)2 * a->m->r * (v1 - v0) * sizeof(double));
 		}
 		if (a->k == 0)
 			add_first(a, vol, zb, v0, v1);
