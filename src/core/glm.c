@@ -49,7 +49,7 @@
  * multiple of every kernel's column unrolling, so that each voxel's sums are
  * formed by the same kernel code as in one product over all voxels.
  */
-#define ACC_CHUNK 2048
+#define ACC_CHUNK 256
 /* grid of the adjusted-rho table: -0.99, -0.98, ..., 0.99 */
 #define GLM_NRHO 199
 #define GLM_RHO_STEP 0.01
