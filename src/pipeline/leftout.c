@@ -32,7 +32,7 @@ jdoc *leftout_record(const glm_out *o)
 
 void leftout_warn_parcels(const char *subject, const int32_t *labels, size_t nvox, int n,
 			  const int32_t *index, char *const *name, const glm_out *const *outs,
-			  size_t nout, sr_err *e)
+			  size_t nout, const int32_t *pos, sr_err *e)
 {
 	size_t *tot = xcalloc((size_t)n + 1, sizeof *tot);
 	size_t *lost = xcalloc(((size_t)n + 1) * GLM_OUT_NRULES, sizeof *lost);
@@ -56,14 +56,17 @@ void leftout_warn_parcels(const char *subject, const int32_t *labels, size_t nvo
 			else
 				hi = mid - 1;
 		}
-		if (at < 0)
+		if (at < 0 || (pos && pos[v] < 0))
 			continue;
 		tot[at]++;
-		for (r = 0; r < nout; r++)
-			if (!outs[r]->ok[v]) {
-				lost[(size_t)at * GLM_OUT_NRULES + outs[r]->rule[v]]++;
+		for (r = 0; r < nout; r++) {
+			size_t w = pos ? (size_t)pos[v] : v;
+
+			if (!outs[r]->ok[w]) {
+				lost[(size_t)at * GLM_OUT_NRULES + outs[r]->rule[w]]++;
 				break;
 			}
+		}
 	}
 	for (p = 0; p < n; p++) {
 		size_t sum = 0, *l = lost + (size_t)p * GLM_OUT_NRULES;

@@ -31,11 +31,12 @@ jdoc *leftout_record(const glm_out *o);
  * loses more than a tenth of its voxels on the data grid to the rules: voxels
  * not analyzable in at least one of the nout fits, counted under the first
  * rule they fail in the first run where they fail. Parcels with no voxel are
- * left to the caller's own warning.
+ * left to the caller's own warning. With pos, the fits hold grid voxel v at
+ * pos[v] (fits slimmed to the parcel voxels); NULL: at v.
  */
 void leftout_warn_parcels(const char *subject, const int32_t *labels, size_t nvox, int n,
 			  const int32_t *index, char *const *name, const glm_out *const *outs,
-			  size_t nout, sr_err *e);
+			  size_t nout, const int32_t *pos, sr_err *e);
 
 /* Prints the per-run table of left-out voxels for the analyze summary (stdout). */
 void leftout_print(const char *const *subjects, const leftout_run *const *runs,

@@ -352,6 +352,70 @@ static int series_as_float32(const nii_info *info, double smoothing_fwhm)
 	return !(smoothing_fwhm > 0) && nii_float32_exact(info);
 }
 
+/* A copy of the nk entries of a (n per block, nb blocks) at keep, block by block. */
+static void *gather(const void *a, size_t size, size_t n, int nb, const size_t *keep, size_t nk)
+{
+	unsigned char *out;
+	const unsigned char *in = a;
+	int b;
+
+	if (!a)
+		return NULL;
+	out = xmalloc_array((size_t)(nb > 0 ? nb : 1) * (nk ? nk : 1), size);
+	for (b = 0; b < nb; b++)
+		for (size_t i = 0; i < nk; i++)
+			memcpy(out + ((size_t)b * nk + i) * size, in + ((size_t)b * n + keep[i]) * size, size);
+	return out;
+}
+
+/*
+ * Slims res->out to the kept voxels: a subject keeps every run's results
+ * until its fROIs are measured, and only the parcel voxels are read after
+ * the fit, besides the contrasts and means spec names for the whole grid.
+ */
+static void slim(const runfit_spec *spec, runfit_result *res)
+{
+	glm_out *o = &res->out;
+	size_t n = o->nvox, nk = spec->nkeep;
+	void *p;
+	int c;
+
+	res->grid_nvox = n;
+	res->grid_effect = xcalloc((size_t)(o->ncon > 0 ? o->ncon : 1), sizeof *res->grid_effect);
+	res->grid_var = xcalloc((size_t)(o->ncon > 0 ? o->ncon : 1), sizeof *res->grid_var);
+	for (c = 0; spec->grid_con && c < o->ncon; c++)
+		if (spec->grid_con[c]) {
+			res->grid_effect[c] = xmalloc_array(n ? n : 1, sizeof(double));
+			res->grid_var[c] = xmalloc_array(n ? n : 1, sizeof(double));
+			memcpy(res->grid_effect[c], o->effect + (size_t)c * n, n * sizeof(double));
+			memcpy(res->grid_var[c], o->var + (size_t)c * n, n * sizeof(double));
+		}
+	if (spec->grid_mean) {
+		res->grid_mean = o->mean;
+		o->mean = NULL;
+	}
+	p = gather(o->effect, sizeof(double), n, o->ncon, spec->keep, nk);
+	free(o->effect);
+	o->effect = p;
+	p = gather(o->var, sizeof(double), n, o->ncon, spec->keep, nk);
+	free(o->var);
+	o->var = p;
+	p = gather(o->rho, sizeof(double), n, 1, spec->keep, nk);
+	free(o->rho);
+	o->rho = p;
+	p = gather(res->grid_mean ? res->grid_mean : o->mean, sizeof(double), n, 1, spec->keep, nk);
+	free(o->mean);
+	o->mean = p;
+	p = gather(o->ok, 1, n, 1, spec->keep, nk);
+	free(o->ok);
+	o->ok = p;
+	p = gather(o->rule, 1, n, 1, spec->keep, nk);
+	free(o->rule);
+	o->rule = p;
+	o->nvox = nk;
+	res->slim = 1;
+}
+
 /* The per-voxel finish is split over nthreads (same results for any count). */
 static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e)
 {
@@ -481,6 +545,8 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 		if (bad)
 			sr_warnf(e, "%s: %zu voxel%s hold NaN or infinite values and are left out", spec->bold,
 				 bad, bad == 1 ? "" : "s");
+		if (spec->slim && spec->keep)
+			slim(spec, res);
 	}
 out:
 	nii_stream_close(s);
@@ -545,6 +611,19 @@ void runfit_result_release(runfit_result *r)
 	if (!r)
 		return;
 	design_release(&r->d);
+	/* before glm_out_release: it clears out.ncon */
+	if (r->grid_effect)
+		for (int c = 0; c < r->out.ncon; c++) {
+			free(r->grid_effect[c]);
+			free(r->grid_var[c]);
+		}
+	free(r->grid_effect);
+	free(r->grid_var);
+	free(r->grid_mean);
+	r->grid_effect = r->grid_var = NULL;
+	r->grid_mean = NULL;
+	r->slim = 0;
+	r->grid_nvox = 0;
 	glm_out_release(&r->out);
 	memset(&r->d, 0, sizeof r->d);
 	if (r->conf_names)

@@ -12,6 +12,9 @@
 #include "../io/nii.h"
 #include "../io/table.h"
 
+#include <stddef.h>
+#include <stdint.h>
+
 typedef struct runfit_spec {
 	const char *bold;              /* _bold.nii[.gz] */
 	const char *events;            /* _events.tsv */
@@ -34,6 +37,9 @@ typedef struct runfit_spec {
 	double smoothing_fwhm;         /* mm; 0 = no smoothing (METHODS.md section 2b) */
 	const size_t *keep;            /* nkeep voxels whose series are kept (res->series), or NULL */
 	size_t nkeep;
+	int slim;                      /* with keep: res->out holds only the keep voxels (runfit_slim) */
+	const unsigned char *grid_con; /* slim: ncon flags, or NULL: contrasts also kept on the whole grid */
+	int grid_mean;                 /* slim: the whole-grid means are kept too */
 } runfit_spec;
 
 typedef struct runfit_result {
@@ -54,6 +60,12 @@ typedef struct runfit_result {
 	size_t nkeep;
 	design_event *ev;              /* the events the design used (onsets shifted by skip_volumes) */
 	size_t nev;
+	/* slim (spec->slim): out's per-voxel arrays hold only the kept voxels, in
+	   spec->keep's order (out.nvox = nkeep), and these the whole grid */
+	int slim;
+	size_t grid_nvox;
+	double **grid_effect, **grid_var; /* out.ncon entries, NULL where spec->grid_con is 0 */
+	double *grid_mean;             /* NULL unless spec->grid_mean */
 } runfit_result;
 
 /*
@@ -90,6 +102,15 @@ static inline double runfit_series_at(const runfit_result *r, size_t k, size_t j
 	size_t i = k * r->nkeep + j;
 
 	return r->series32 ? (double)r->series32[i] : r->series[i];
+}
+
+/*
+ * Where voxel v of the grid sits in r->out: pos[v] (the place in the keep
+ * list, -1 for a voxel not kept) when r is slim, else v itself. -1: not held.
+ */
+static inline ptrdiff_t runfit_at(const runfit_result *r, size_t v, const int32_t *pos)
+{
+	return r->slim ? (ptrdiff_t)pos[v] : (ptrdiff_t)v;
 }
 
 /* Whether r holds kept series (either storage). */

@@ -403,8 +403,12 @@ static void all_runs_list(const task_fit *t, char *buf, size_t len)
 	free(pos);
 }
 
-/* Fixed-effects map of contrast c over the given runs of t. */
-static void ffx_map(const task_fit *t, const int *pos, int n, int c, size_t nvox, double *E,
+/*
+ * Fixed-effects map of contrast c over the given runs of t: on the whole
+ * grid (E and tmap nvox) when grid is 1, which slim runs keep only for the
+ * selection contrasts; else at the voxels the runs hold (E[runfit_at]).
+ */
+static void ffx_map(const task_fit *t, const int *pos, int n, int c, int grid, size_t nvox, double *E,
 		    double *tmap)
 {
 	const double **ef = xmalloc_array((size_t)(n ? n : 1), sizeof *ef);
@@ -413,16 +417,35 @@ static void ffx_map(const task_fit *t, const int *pos, int n, int c, size_t nvox
 	int i;
 
 	for (i = 0; i < n; i++) {
-		const glm_out *o = &t->res[pos[i]].out;
+		const runfit_result *r = &t->res[pos[i]];
+		const glm_out *o = &r->out;
+		int k = c + t->coff;
 
-		ef[i] = o->effect + (size_t)(c + t->coff) * nvox;
-		va[i] = o->var + (size_t)(c + t->coff) * nvox;
+		if (grid && r->slim) {
+			ef[i] = r->grid_effect[k];
+			va[i] = r->grid_var[k];
+		} else {
+			ef[i] = o->effect + (size_t)k * o->nvox;
+			va[i] = o->var + (size_t)k * o->nvox;
+		}
 		df[i] = o->df;
+		if (!grid)
+			nvox = o->nvox;
 	}
 	glm_ffx(nvox, n, ef, va, df, E, NULL, tmap, NULL);
 	free(ef);
 	free(va);
 	free(df);
+}
+
+/* okall[v] &= run r's analyzable flag; a voxel r does not hold (slim) is not analyzable. */
+static void ok_and(unsigned char *okall, const runfit_result *r, const int32_t *keep_pos, size_t nvox)
+{
+	for (size_t v = 0; v < nvox; v++) {
+		ptrdiff_t at = runfit_at(r, v, keep_pos);
+
+		okall[v] &= at >= 0 && r->out.ok[at];
+	}
 }
 
 /* Everything one definition needs: define t, candidates analyzable in all runs used. */
@@ -451,7 +474,7 @@ static void froi_release(froi_set *f)
  */
 static void define_frois(const study *st, const task_fit *loc, const int *dpos, int nd,
 			 const int *mpos, int nm, const task_fit *meas, const int32_t *labels,
-			 const parcels_set *ps, size_t nvox, froi_set *f)
+			 const int32_t *keep_pos, const parcels_set *ps, size_t nvox, froi_set *f)
 {
 	unsigned char *okall = xmalloc(nvox);
 	size_t *cand = xmalloc_array(nvox ? nvox : 1, sizeof *cand);
@@ -469,22 +492,19 @@ static void define_frois(const study *st, const task_fit *loc, const int *dpos, 
 	f->start = xcalloc((size_t)ps->n + 1, sizeof *f->start);
 	f->count = xcalloc((size_t)ps->n + 1, sizeof *f->count);
 	f->ncand = xcalloc((size_t)ps->n + 1, sizeof *f->ncand);
-	ffx_map(loc, dpos, nd, 0, nvox, E, f->t);
+	ffx_map(loc, dpos, nd, 0, 1, nvox, E, f->t);
 	if (loc->missing[0])   /* the selection contrast needs a condition this subject lacks */
 		for (v = 0; v < nvox; v++)
 			f->t[v] = NAN;
 	for (v = 0; v < nvox; v++)
 		okall[v] = 1;
 	for (i = 0; i < nd; i++)
-		for (v = 0; v < nvox; v++)
-			okall[v] &= loc->res[dpos[i]].out.ok[v];
+		ok_and(okall, &loc->res[dpos[i]], keep_pos, nvox);
 	for (i = 0; i < nm; i++)
-		for (v = 0; v < nvox; v++)
-			okall[v] &= loc->res[mpos[i]].out.ok[v];
+		ok_and(okall, &loc->res[mpos[i]], keep_pos, nvox);
 	if (meas)
 		for (i = 0; i < (int)meas->nruns; i++)
-			for (v = 0; v < nvox; v++)
-				okall[v] &= meas->res[i].out.ok[v];
+			ok_and(okall, &meas->res[i], keep_pos, nvox);
 	for (p = 0; p < ps->n; p++) {
 		size_t n = 0, k;
 
@@ -509,14 +529,15 @@ static void define_frois(const study *st, const task_fit *loc, const int *dpos, 
 	free(E);
 }
 
-/* Mean over the fROI's voxels with a finite value. */
-static double froi_mean(const froi_set *f, int p, const double *E)
+/* Mean over the fROI's voxels with a finite value; E at the places pos gives (NULL: E on the grid). */
+static double froi_mean(const froi_set *f, int p, const double *E, const int32_t *pos)
 {
 	double s = 0;
 	size_t k, n = 0;
 
 	for (k = 0; k < f->count[p]; k++) {
-		double x = E[f->chosen[f->start[p] + k]];
+		size_t v = f->chosen[f->start[p] + k];
+		double x = pos ? (pos[v] >= 0 ? E[pos[v]] : NAN) : E[v];
 
 		if (isfinite(x)) {
 			s += x;
@@ -785,13 +806,15 @@ static sr_status write_run_files(const char *dir, const char *label, const task_
 {
 	char path[4096 + 256];
 	float *m = xmalloc_array(nvox, sizeof *m);
+	const runfit_result *r0 = &tasks[0].res[0];
+	const double *mean0 = r0->slim ? r0->grid_mean : r0->out.mean;
 	size_t i, v;
 	sr_status rc;
 
 	mapout_info mi;
 
 	for (v = 0; v < nvox; v++)
-		m[v] = isfinite(tasks[0].res[0].out.mean[v]) ? (float)tasks[0].res[0].out.mean[v] : 0.0f;
+		m[v] = isfinite(mean0[v]) ? (float)mean0[v] : 0.0f;
 	memset(&mi, 0, sizeof mi);
 	mi.subject = label;
 	mi.task = tasks[0].task;
@@ -944,7 +967,7 @@ static sr_status measured_rows(const study *st, const char *lname, const char *m
 			lpos[r] = (int)r;
 		for (r = 0; r < mt->nruns; r++)
 			mpos[r] = (int)r;
-		define_frois(st, loc, lpos, (int)loc->nruns, NULL, 0, mt, labels, ps, nvox, &f);
+		define_frois(st, loc, lpos, (int)loc->nruns, NULL, 0, mt, labels, keep_pos, ps, nvox, &f);
 		all_runs_list(mt, meas, sizeof meas);
 		for (p = 0; p < ps->n; p++) {
 			if (f.count[p] == 0 && !(lost && lost[p]))
@@ -952,10 +975,11 @@ static sr_status measured_rows(const study *st, const char *lname, const char *m
 					 label, ps->name[p], mt->task);
 		}
 		for (j = 0; j < mt->ne; j++) {
-			ffx_map(mt, mpos, (int)mt->nruns, j, nvox, E, NULL);
+			ffx_map(mt, mpos, (int)mt->nruns, j, 0, nvox, E, NULL);
 			for (p = 0; p < ps->n; p++)
 				add_row(res, lname, ps->name[p], "all", all, mt->task, meas, mt->effects[j].text,
-					mt->missing[j] ? NAN : froi_mean(&f, p, E), (double)f.count[p],
+					mt->missing[j] ? NAN : froi_mean(&f, p, E, mt->res[0].slim ? keep_pos : NULL),
+					(double)f.count[p],
 					(double)f.ncand[p]);
 		}
 		{
@@ -1021,7 +1045,7 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 			froi_set f;
 
 			define_frois(st, loc, splits[s].def, splits[s].ndef, splits[s].meas, splits[s].nmeas,
-				     NULL, labels, ps, nvox, &f);
+				     NULL, labels, keep_pos, ps, nvox, &f);
 			run_list(loc, splits[s].def, splits[s].ndef, def, sizeof def);
 			keep_split(&f, nvox, &keep_t[s], &keep_f[s]);
 			keep_name[s] = xstrdup(splits[s].name);
@@ -1036,10 +1060,11 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 			snprintf(mmeas + strlen(mmeas), sizeof mmeas - strlen(mmeas), "%s%s", s ? "|" : "", meas);
 			/* effect 0 is the selection contrast; report effects 1..ne-1 */
 			for (j = 1; j < ne; j++) {
-				ffx_map(loc, splits[s].meas, splits[s].nmeas, j, nvox, E, NULL);
+				ffx_map(loc, splits[s].meas, splits[s].nmeas, j, 0, nvox, E, NULL);
 				for (p = 0; p < ps->n; p++) {
 					size_t cell = ((size_t)s * (size_t)ps->n + (size_t)p) * (size_t)ne + (size_t)j;
-					double x = loc->missing[j] ? NAN : froi_mean(&f, p, E);
+					double x = loc->missing[j] ? NAN :
+						   froi_mean(&f, p, E, loc->res[0].slim ? keep_pos : NULL);
 
 					val[cell] = x;
 					nv[cell] = (double)f.count[p];
@@ -1345,10 +1370,15 @@ static sr_status loc_setups(const subject_ctx *ctx, const char *label, loc_setup
 	return SR_OK;
 }
 
-/* Fits every run of every task once, in parallel, keeping the parcels' series for the time courses. */
+/*
+ * Fits every run of every task once, in parallel, keeping the parcels' series
+ * for the time courses. Each run is slimmed as it ends to what later steps
+ * read: the parcel voxels, the selection contrasts of the localizers L on the
+ * whole grid (their t maps) and the first run's means (the reference image).
+ */
 static sr_status fit_all(const subject_ctx *ctx, const char *label, task_fit *tasks, size_t ntasks,
-			 size_t nruns_all, const unsigned char *mask, const size_t *keep, size_t nkeep,
-			 sr_err *e)
+			 size_t nruns_all, const loc_setup *L, size_t nl, const unsigned char *mask,
+			 const size_t *keep, size_t nkeep, sr_err *e)
 {
 	const study *st = ctx->st;
 	runfit_spec *specs = xcalloc(nruns_all, sizeof *specs);
@@ -1358,13 +1388,26 @@ static sr_status fit_all(const subject_ctx *ctx, const char *label, task_fit *ta
 	char buf[128];
 	sr_status rc;
 
+	unsigned char **grid_con = xcalloc(ntasks ? ntasks : 1, sizeof *grid_con);
+	/* SPLITROI_SLIM=0 keeps every result on the whole grid: a test hook (same outputs) */
+	const char *hook = getenv("SPLITROI_SLIM");
+	int slim = !(hook && strcmp(hook, "0") == 0);
+
 	for (i = 0; i < ntasks; i++) {
 		task_specs(st, &tasks[i], mask, specs + at);
+		grid_con[i] = xcalloc((size_t)(tasks[i].ne > 0 ? tasks[i].ne : 1), 1);
+		for (size_t l = 0; l < nl; l++)
+			if (L[l].task == i)
+				grid_con[i][L[l].off] = 1;
+		for (size_t r = 0; r < tasks[i].nruns; r++)
+			specs[at + r].grid_con = grid_con[i];
 		at += tasks[i].nruns;
 	}
 	for (i = 0; i < nruns_all; i++) {
 		specs[i].keep = keep;
 		specs[i].nkeep = nkeep;
+		specs[i].slim = slim;
+		specs[i].grid_mean = i == 0;
 		sr_err_init(&errs[i], e->warn, e->warn_ctx);
 	}
 	snprintf(buf, sizeof buf, "fitting %zu runs", nruns_all);
@@ -1393,6 +1436,9 @@ static sr_status fit_all(const subject_ctx *ctx, const char *label, task_fit *ta
 	free(results);
 	free(specs);
 	free(errs);
+	for (i = 0; i < ntasks; i++)
+		free(grid_con[i]);
+	free(grid_con);
 	return rc;
 }
 
@@ -1507,7 +1553,8 @@ static sr_status write_outputs(const subject_ctx *ctx, const char *dir, const ch
 
 /* Voxels each rule left out, per run fitted, and the parcels they emptied (leftout.h). */
 static void record_leftout(const char *label, const task_fit *tasks, size_t ntasks, size_t nruns_all,
-			   const loc_setup *L, size_t nl, size_t nvox, subject_result *res, sr_err *e)
+			   const loc_setup *L, size_t nl, size_t nvox, const int32_t *keep_pos,
+			   subject_result *res, sr_err *e)
 {
 	const glm_out **outs = xcalloc(nruns_all ? nruns_all : 1, sizeof *outs);
 	size_t n = 0, r, i;
@@ -1522,7 +1569,7 @@ static void record_leftout(const char *label, const task_fit *tasks, size_t ntas
 	res->nleftout = n;
 	for (i = 0; i < nl; i++)
 		leftout_warn_parcels(label, L[i].labels, nvox, L[i].ps->n, L[i].ps->index, L[i].ps->name,
-				     outs, n, e);
+				     outs, n, tasks[0].res[0].slim ? keep_pos : NULL, e);
 	free(outs);
 }
 
@@ -1587,7 +1634,8 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 			goto out;
 		}
 	keep = keep_all(L, nl, &tasks[0].grid[0], &nkeep, &keep_pos);
-	rc = fit_all(ctx, label, tasks, ntasks, nruns_all, mask_owned ? mask_owned : ctx->mask, keep, nkeep, e);
+	rc = fit_all(ctx, label, tasks, ntasks, nruns_all, L, nl, mask_owned ? mask_owned : ctx->mask, keep, nkeep,
+		     e);
 	if (rc)
 		goto out;
 	/* one grid for all of the subject's runs */
@@ -1601,7 +1649,7 @@ sr_status subject_analyze(const subject_ctx *ctx, const char *label, subject_res
 		if (rc)
 			goto out;
 	}
-	record_leftout(label, tasks, ntasks, nruns_all, L, nl, nvox, res, e);
+	record_leftout(label, tasks, ntasks, nruns_all, L, nl, nvox, keep_pos, res, e);
 	/* the per-voxel rules were last read by record_leftout */
 	for (i = 0; i < ntasks; i++)
 		for (size_t r = 0; r < tasks[i].nruns; r++) {

@@ -95,9 +95,13 @@ static int froi_series(const runfit_result *r, const size_t *vox, size_t nv, con
 		y[k] = 0;
 	for (i = 0; i < nv; i++) {
 		size_t v = vox[i];
-		double m = r->out.mean[v];
+		ptrdiff_t at = runfit_at(r, v, pos);
+		double m;
 
-		if (pos[v] < 0 || !r->out.ok[v] || !(m > 0) || !isfinite(m))
+		if (pos[v] < 0 || at < 0)
+			continue;
+		m = r->out.mean[at];
+		if (!r->out.ok[at] || !(m > 0) || !isfinite(m))
 			continue;
 		for (k = 0; k < T; k++)
 			y[k] += 100.0 * runfit_series_at(r, (size_t)k, (size_t)pos[v]) / m;
