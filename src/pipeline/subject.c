@@ -1564,6 +1564,8 @@ static void record_leftout(const char *label, const task_fit *tasks, size_t ntas
 		for (r = 0; r < tasks[i].nruns; r++) {
 			leftout_from_fit(&res->leftout[n], tasks[i].task, tasks[i].runs[r].label,
 					 &tasks[i].res[r].out);
+			if (tasks[i].res[r].slim)   /* the run's voxels, not the ones it kept */
+				res->leftout[n].nvox = tasks[i].res[r].grid_nvox;
 			outs[n++] = &tasks[i].res[r].out;
 		}
 	res->nleftout = n;

@@ -65,9 +65,9 @@ def analyze(study, out, slim):
         env["SPLITROI_SLIM"] = "0"
     p = subprocess.run([SPLITROI, "analyze", study, "--out", out, "--threads", "2"],
                        capture_output=True, text=True, env=env)
-    # the warnings (left-out parcels, empty fROIs) are outputs too; runs fitted in
-    # parallel say theirs in either order
-    return p.returncode, sorted(p.stderr.replace(out, "OUT").splitlines())
+    # the warnings (left-out parcels, empty fROIs) and the summary (voxels left out
+    # per run) are outputs too; runs fitted in parallel say theirs in either order
+    return p.returncode, sorted(p.stderr.replace(out, "OUT").splitlines()), p.stdout.replace(out, "OUT")
 
 
 with tempfile.TemporaryDirectory() as tmp:
@@ -80,10 +80,11 @@ with tempfile.TemporaryDirectory() as tmp:
             continue
         study = os.path.join(d, "study.ini")
         a, b = os.path.join(tmp, preset + "-slim"), os.path.join(tmp, preset + "-whole")
-        ra, ea = analyze(study, a, True)
-        rb, eb = analyze(study, b, False)
+        ra, ea, oa = analyze(study, a, True)
+        rb, eb, ob = analyze(study, b, False)
         ok(ra == rb, "%s: same exit status (%d, %d)" % (preset, ra, rb))
         ok(ea == eb, "%s: same warnings with and without slimming" % preset)
+        ok(oa == ob and "voxels left out per run" in oa, "%s: same summary, left-out voxels included" % preset)
         fa, fb = files(a), files(b)
         ok(fa == fb and len(fa) > 10, "%s: the same %d files written" % (preset, len(fa)))
         maps = [f for f in fa if f.endswith("_tstat.nii.gz")]
