@@ -370,6 +370,7 @@ struct glm_acc {
 	double *zsum;   /* only without a constant column: else 1'z = g1'U_r'z */
 	unsigned char *flag;
 	unsigned char *live; /* per ACC_CHUNK voxels: a value other than +0 has been added */
+	int threads;    /* for glm_acc_add (glm_acc_threads) */
 };
 
 glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
@@ -398,6 +399,7 @@ glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
 	a->zprev = xcalloc(n, sizeof(double));
 	a->flag = xcalloc(n, 1);
 	a->live = xcalloc(n / ACC_CHUNK + 1, 1);
+	a->threads = 1;
 	return a;
 }
 
@@ -420,13 +422,13 @@ void glm_acc_free(glm_acc *a)
 	free(a);
 }
 
-/* 1 when the pending values of voxels v0..v1-1 are all zero. */
-static int batch_zero(const glm_acc *a, size_t v0, size_t v1)
+/* 1 when the nb pending values of voxels v0..v1-1 are all zero. */
+static int batch_zero(const glm_acc *a, int nb, size_t v0, size_t v1)
 {
 	int b;
 	size_t v;
 
-	for (b = 0; b < a->nb; b++) {
+	for (b = 0; b < nb; b++) {
 		const double *z = a->zbuf + (size_t)b * a->nvox;
 
 		for (v = v0; v < v1; v++)
@@ -436,24 +438,28 @@ static int batch_zero(const glm_acc *a, size_t v0, size_t v1)
 	return 1;
 }
 
+/* acc += A[:, k0:k0+nb] Z' for voxels v0..v1-1 (one chunk): the batch of nb volumes ending at volume k. */
+static void chunk_flush(glm_acc *a, int k, int nb, size_t v0, size_t v1)
+{
+	const glm_model *m = a->m;
+	int r2 = 2 * m->r, k0 = k - nb;
+
+	if (nb == 0 || !a->live[v0 / ACC_CHUNK] || batch_zero(a, nb, v0, v1))
+		return;
+	cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, r2, (int)(v1 - v0), nb, 1.0,
+		    m->A + (size_t)r2 * k0, r2, a->zbuf + v0, (int)a->nvox, 1.0,
+		    a->acc + (size_t)r2 * v0, r2);
+}
+
 /* acc += A[:, k0:k0+nb] Z', one pass over the accumulators per batch, chunk by chunk. */
 static void acc_flush(glm_acc *a)
 {
-	const glm_model *m = a->m;
-	int r2 = 2 * m->r, k0 = a->k - a->nb;
 	size_t v0;
 
 	if (a->nb == 0 || a->nvox == 0)
 		return;
-	for (v0 = 0; v0 < a->nvox; v0 += ACC_CHUNK) {
-		size_t v1 = a->nvox - v0 < ACC_CHUNK ? a->nvox : v0 + ACC_CHUNK;
-
-		if (!a->live[v0 / ACC_CHUNK] || batch_zero(a, v0, v1))
-			continue;
-		cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, r2, (int)(v1 - v0), a->nb, 1.0,
-			    m->A + (size_t)r2 * k0, r2, a->zbuf + v0, (int)a->nvox, 1.0,
-			    a->acc + (size_t)r2 * v0, r2);
-	}
+	for (v0 = 0; v0 < a->nvox; v0 += ACC_CHUNK)
+		chunk_flush(a, a->k, a->nb, v0, a->nvox - v0 < ACC_CHUNK ? a->nvox : v0 + ACC_CHUNK);
 	a->nb = 0;
 }
 
@@ -523,36 +529,75 @@ static void add_next(glm_acc *a, const double *vol, double *zb, size_t v0, size_
  * its pending rows are all +0, exactly what the updates would have left there
  * (0 - 0, 0 * 0 and 0 + 0 are +0).
  */
+/*
+ * The volume's values of voxels v0..v1-1 (one chunk); with flush, the
+ * chunk's part of the batch's product too. Chunks are independent, so
+ * they can be added by any thread in any order with the same bits.
+ */
+static void add_chunk(glm_acc *a, const double *vol, size_t v0, size_t v1, int flush)
+{
+	double *zb = a->zbuf + (size_t)a->nb * a->nvox;
+	unsigned char *live = &a->live[v0 / ACC_CHUNK];
+
+	if (!*live) {
+		if (vol_zero(vol, v0, v1))
+			return;
+		*live = 1;
+		/* written before the first dgemm reads them: a read would map the shared
+		   zero page, and the write after it a copy plus a TLB flush on every core */
+		memset(a->acc + (size_t)2 * a->m->r * v0, 0, (size_t)2 * a->m->r * (v1 - v0) * sizeof(double));
+	}
+	if (a->k == 0)
+		add_first(a, vol, zb, v0, v1);
+	else
+		add_next(a, vol, zb, v0, v1);
+	if (flush)
+		chunk_flush(a, a->k + 1, a->nb + 1, v0, v1);
+}
+
+/* Chunks per pool job of glm_acc_add: enough work to outweigh taking a job. */
+#define ADD_JOB_CHUNKS 16
+
+typedef struct add_job {
+	glm_acc *a;
+	const double *vol;
+	int flush;
+} add_job;
+
+static void add_job_run(size_t i, int worker, void *arg)
+{
+	const add_job *j = arg;
+	size_t nvox = j->a->nvox, v0 = i * ADD_JOB_CHUNKS * ACC_CHUNK, end;
+
+	(void)worker;
+	end = nvox - v0 < (size_t)ADD_JOB_CHUNKS * ACC_CHUNK ? nvox : v0 + (size_t)ADD_JOB_CHUNKS * ACC_CHUNK;
+	for (; v0 < end; v0 += ACC_CHUNK)
+		add_chunk(j->a, j->vol, v0, end - v0 < ACC_CHUNK ? end : v0 + ACC_CHUNK, j->flush);
+}
+
+void glm_acc_threads(glm_acc *a, int nthreads)
+{
+	a->threads = nthreads < 1 ? 1 : nthreads;
+}
+
 sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
 {
-	size_t nvox = a->nvox, v0;
-	double *zb = a->zbuf + (size_t)a->nb * nvox;
+	size_t nvox = a->nvox, per = (size_t)ADD_JOB_CHUNKS * ACC_CHUNK;
+	add_job j;
 
 	if (a->k >= a->m->T)
 		return sr_fail(e, SR_EDIM, "more volumes than the design's %d rows", a->m->T);
 	if (nvox > INT32_MAX)
 		return sr_fail(e, SR_EDIM, "too many voxels for one fit");
-	for (v0 = 0; v0 < nvox; v0 += ACC_CHUNK) {
-		size_t v1 = nvox - v0 < ACC_CHUNK ? nvox : v0 + ACC_CHUNK;
-		unsigned char *live = &a->live[v0 / ACC_CHUNK];
-
-		if (!*live) {
-			if (vol_zero(vol, v0, v1))
-				continue;
-			*live = 1;
-			/* written before the first dgemm reads them: a read would map the shared
-			   zero page, and the write after it a copy plus a TLB flush on every core */
-			memset(a->acc + (size_t)2 * a->m->r * v0, 0, (size_t)2 * a->m->r * (v1 - v0) * sizeof(double));
-		}
-		if (a->k == 0)
-			add_first(a, vol, zb, v0, v1);
-		else
-			add_next(a, vol, zb, v0, v1);
-	}
+	j.a = a;
+	j.vol = vol;
+	/* the batch is full after this volume: each chunk adds its part of the product at once */
+	j.flush = a->nb + 1 == GLM_BATCH || a->k + 1 == a->m->T;
+	pool_run((nvox + per - 1) / per, a->threads, add_job_run, &j);
 	a->k++;
 	a->nb++;
-	if (a->nb == GLM_BATCH || a->k == a->m->T)
-		acc_flush(a);
+	if (j.flush)
+		a->nb = 0;
 	return SR_OK;
 }
 

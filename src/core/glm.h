@@ -46,6 +46,8 @@ typedef struct glm_acc glm_acc;
 glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox);
 /* Adds the next volume (nvox values; NaN or inf makes that voxel unanalyzable). */
 sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e);
+/* Threads glm_acc_add may use (default 1); the sums do not depend on them. */
+void glm_acc_threads(glm_acc *a, int nthreads);
 void glm_acc_free(glm_acc *a);
 
 /*

@@ -512,6 +512,7 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 		q.mask = spec->mask;
 	}
 	acc = glm_acc_alloc(m, nvox);
+	glm_acc_threads(acc, nthreads);
 	q.s = s;
 	q.T = T;
 	q.nvox = nvox;

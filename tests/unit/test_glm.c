@@ -505,22 +505,24 @@ static void zero_background(int with_const)
 {
 	enum { T = 37, P = 4, NV = 24000 };
 	double X[T * P], *vol = xmalloc_array(NV, sizeof(double)), C[P] = { 1, -1, 0, 0 };
-	glm_out o[2];
+	glm_out o[3];
 	glm_model *m;
 	sr_err e;
 	uint64_t s = 77;
-	int n, k, v, same = 1;
+	int n, k, v, same = 1, same_threads = 1;
 
 	sr_err_init(&e, NULL, NULL);
 	random_design(X, T, P, &s);
 	for (k = 0; !with_const && k < T; k++)
 		X[(size_t)3 * T + k] = cos(k * 0.3); /* random_design ends with a constant: replace it */
 	glm_model_make(X, T, P, &m, &e);
-	for (n = 0; n < 2; n++) {
+	for (n = 0; n < 3; n++) {
 		glm_acc *a = glm_acc_alloc(m, NV);
 
+		/* fit 2: fit 0's volumes added by three threads, chunk groups in any order */
+		glm_acc_threads(a, n == 2 ? 3 : 1);
 		for (k = 0; k < T; k++) {
-			zero_layout(vol, NV, k, n);
+			zero_layout(vol, NV, k, n == 1);
 			glm_acc_add(a, vol, &e);
 		}
 		glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 2, &o[n], &e);
@@ -535,10 +537,17 @@ static void zero_background(int with_const)
 		same &= memcmp(&o[0].mean[v], &o[1].mean[v], sizeof(double)) == 0;
 		same &= o[0].ok[v] == o[1].ok[v] && o[0].rule[v] == o[1].rule[v];
 	}
+	for (v = 0; v < NV; v++) {
+		same_threads &= memcmp(&o[0].effect[v], &o[2].effect[v], sizeof(double)) == 0;
+		same_threads &= memcmp(&o[0].var[v], &o[2].var[v], sizeof(double)) == 0;
+		same_threads &= memcmp(&o[0].mean[v], &o[2].mean[v], sizeof(double)) == 0;
+		same_threads &= o[0].ok[v] == o[2].ok[v] && o[0].rule[v] == o[2].rule[v];
+	}
 	CHECK(o[0].ok[7001] && o[0].ok[17050] && !o[0].ok[100] && !o[0].ok[12500],
 	      "zero background (constant column %d): series analyzable, zeros and -0 not", with_const);
 	CHECK(same, "zero background (constant column %d): every voxel's effect, var, rho, mean and rule bit-identical when no chunk is all zeros", with_const);
-	for (n = 0; n < 2; n++)
+	CHECK(same_threads, "zero background (constant column %d): volumes added by 3 threads give the same bits as by 1", with_const);
+	for (n = 0; n < 3; n++)
 		glm_out_release(&o[n]);
 	glm_model_free(m);
 	free(vol);
