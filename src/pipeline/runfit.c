@@ -18,6 +18,7 @@
 #include "../core/pool.h"
 #include "../core/smooth.h"
 #include "../io/events.h"
+#include "../io/rowfile.h"
 #include "../io/table.h"
 
 #define QUEUE_SLOTS 2
@@ -33,6 +34,10 @@ typedef struct vol_queue {
 	size_t nkeep;
 	double *series;
 	float *series32;       /* instead of series when float32 is exact */
+	rowfile *spill;        /* instead of both: each volume's kept values appended here */
+	int spill32;           /* the spilled rows are float32 */
+	void *row;             /* nkeep values, for the spill */
+	const char *bold;      /* the run, for the spill's messages */
 	int head, count, stop, failed;
 	sr_err err;
 	pthread_mutex_t mu;
@@ -102,13 +107,29 @@ static sr_status stream_fit(vol_queue *q, glm_acc *acc, sr_err *e)
 			break;
 		}
 		pthread_mutex_unlock(&q->mu);
-		if (q->series32)
+		if (q->spill) {
+			if (q->spill32)
+				for (size_t i2 = 0; i2 < q->nkeep; i2++)
+					((float *)q->row)[i2] = (float)q->slot[q->head][q->keep[i2]];
+			else
+				for (size_t i2 = 0; i2 < q->nkeep; i2++)
+					((double *)q->row)[i2] = q->slot[q->head][q->keep[i2]];
+			st = rowfile_append(q->spill, q->row, e);
+			if (st != SR_OK) {
+				char msg[sizeof e->msg];
+
+				memcpy(msg, e->msg, sizeof msg);
+				sr_fail(e, st, "%s: %s", q->bold, msg);
+			}
+		} else if (q->series32) {
 			for (size_t i2 = 0; i2 < q->nkeep; i2++)
 				q->series32[(size_t)k * q->nkeep + i2] = (float)q->slot[q->head][q->keep[i2]];
-		else
+		} else {
 			for (size_t i2 = 0; i2 < q->nkeep; i2++)
 				q->series[(size_t)k * q->nkeep + i2] = q->slot[q->head][q->keep[i2]];
-		st = glm_acc_add(acc, q->slot[q->head], e);
+		}
+		if (st == SR_OK)
+			st = glm_acc_add(acc, q->slot[q->head], e);
 		pthread_mutex_lock(&q->mu);
 		q->head = (q->head + 1) % QUEUE_SLOTS;
 		q->count--;
@@ -352,6 +373,43 @@ static int series_as_float32(const nii_info *info, double smoothing_fwhm)
 	return !(smoothing_fwhm > 0) && nii_float32_exact(info);
 }
 
+/*
+ * Whether the kept series go to a temporary file (rowfile.h) rather than
+ * memory: they are most of a subject's memory (a standard-grid run keeps
+ * ~50 MB for the parcels) and are read only by the time courses, after
+ * every run is fitted. SPLITROI_SERIES_SPILL=0 keeps them in memory, a test
+ * hook for comparing the two.
+ */
+static int spill_series(void)
+{
+	const char *v = getenv("SPLITROI_SERIES_SPILL");
+
+	return !(v && strcmp(v, "0") == 0);
+}
+
+sr_status runfit_series_row(const runfit_result *r, size_t k, double *out, void *scratch, sr_err *e)
+{
+	size_t j, n = r->nkeep;
+
+	if (r->series_file) {
+		sr_status st = rowfile_read(r->series_file, k, scratch, e);
+
+		if (st != SR_OK)
+			return st;
+		if (r->series_f32)
+			for (j = 0; j < n; j++)
+				out[j] = (double)((const float *)scratch)[j];
+		else
+			memcpy(out, scratch, n * sizeof(double));
+	} else if (r->series32) {
+		for (j = 0; j < n; j++)
+			out[j] = (double)r->series32[k * n + j];
+	} else {
+		memcpy(out, r->series + k * n, n * sizeof(double));
+	}
+	return SR_OK;
+}
+
 /* A copy of the nk entries of a (n per block, nb blocks) at keep, block by block. */
 static void *gather(const void *a, size_t size, size_t n, int nb, const size_t *keep, size_t nk)
 {
@@ -522,10 +580,21 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 				st = sr_fail(e, SR_EINVAL, "%s: a kept voxel lies outside the run's grid", spec->bold);
 				goto out;
 			}
-		if (series_as_float32(&res->info, spec->smoothing_fwhm))
+		int f32 = series_as_float32(&res->info, spec->smoothing_fwhm);
+
+		res->series_f32 = f32;
+		if (spill_series())
+			res->series_file = rowfile_new(spec->nkeep * (f32 ? sizeof(float) : sizeof(double)));
+		if (res->series_file) {
+			q.spill = res->series_file;
+			q.bold = spec->bold;
+			q.spill32 = f32;
+			q.row = xmalloc_array(spec->nkeep, f32 ? sizeof(float) : sizeof(double));
+		} else if (f32) {
 			res->series32 = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series32);
-		else
+		} else {
 			res->series = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series);
+		}
 		res->nkeep = spec->nkeep;
 		q.keep = spec->keep;
 		q.nkeep = spec->nkeep;
@@ -550,6 +619,7 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 			slim(spec, res);
 	}
 out:
+	free(q.row);
 	nii_stream_close(s);
 	smooth_plan_free(q.sm);
 	glm_acc_free(acc);
@@ -634,6 +704,8 @@ void runfit_result_release(runfit_result *r)
 	free(r->censored);
 	free(r->series);
 	free(r->series32);
+	rowfile_free(r->series_file);
+	r->series_file = NULL;
 	free(r->ev);
 	r->conf_names = NULL;
 	r->censored = NULL;

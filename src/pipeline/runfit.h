@@ -10,6 +10,7 @@
 #include "../core/err.h"
 #include "../core/glm.h"
 #include "../io/nii.h"
+#include "../io/rowfile.h"
 #include "../io/table.h"
 
 #include <stddef.h>
@@ -57,6 +58,8 @@ typedef struct runfit_result {
 					  through runfit_series_at */
 	float *series32;               /* the same as float32 instead of series when that is exact
 					  (nii_float32_exact: no smoothing); one of the two is NULL */
+	rowfile *series_file;          /* instead of both (NULL then): the rows in a temporary file */
+	int series_f32;                /* the kept values are float32-exact (series32 or the file's rows) */
 	size_t nkeep;
 	design_event *ev;              /* the events the design used (onsets shifted by skip_volumes) */
 	size_t nev;
@@ -96,13 +99,12 @@ sr_status runfit_many(const runfit_spec *specs, int n, int nthreads, runfit_resu
 
 void runfit_result_release(runfit_result *r);
 
-/* Kept voxel j's value in volume k, whichever way it is stored. */
-static inline double runfit_series_at(const runfit_result *r, size_t k, size_t j)
-{
-	size_t i = k * r->nkeep + j;
-
-	return r->series32 ? (double)r->series32[i] : r->series[i];
-}
+/*
+ * Volume k of the kept series, the nkeep values as fitted, into out as
+ * doubles, whichever way they are stored; scratch holds nkeep doubles.
+ * SR_EIO when the temporary file cannot be read back.
+ */
+sr_status runfit_series_row(const runfit_result *r, size_t k, double *out, void *scratch, sr_err *e);
 
 /*
  * Where voxel v of the grid sits in r->out: pos[v] (the place in the keep
@@ -113,10 +115,10 @@ static inline ptrdiff_t runfit_at(const runfit_result *r, size_t v, const int32_
 	return r->slim ? (ptrdiff_t)pos[v] : (ptrdiff_t)v;
 }
 
-/* Whether r holds kept series (either storage). */
+/* Whether r holds kept series (any storage). */
 static inline int runfit_has_series(const runfit_result *r)
 {
-	return r->series != NULL || r->series32 != NULL;
+	return r->series != NULL || r->series32 != NULL || r->series_file != NULL;
 }
 
 #endif

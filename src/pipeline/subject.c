@@ -648,12 +648,13 @@ static unsigned char *tc_conditions(const task_fit *t, int first)
 }
 
 /* FIR time courses of every parcel's fROI f over runs mpos of t: out[p][c][b] (np * ncond * nbins). */
-static void tc_split(const study *st, const task_fit *t, const int *mpos, int nm, const froi_set *f,
-		     int np, const int32_t *pos, int nbins, double *out, sr_err *e)
+static sr_status tc_split(const study *st, const task_fit *t, const int *mpos, int nm, const froi_set *f,
+			  int np, const int32_t *pos, int nbins, double *out, sr_err *e)
 {
 	const runfit_result **runs = xmalloc_array((size_t)(nm ? nm : 1), sizeof *runs);
 	double *tr = xmalloc_array((size_t)(nm ? nm : 1), sizeof *tr);
 	size_t per = (size_t)t->ncond * (size_t)nbins;
+	sr_status rc;
 	int i;
 
 	for (i = 0; i < nm; i++) {
@@ -667,7 +668,7 @@ static void tc_split(const study *st, const task_fit *t, const int *mpos, int nm
 				out[j] = NAN;
 			free(runs);
 			free(tr);
-			return;
+			return SR_OK;
 		}
 	}
 	for (i = 0; i < nm; i++) {
@@ -681,13 +682,14 @@ static void tc_split(const study *st, const task_fit *t, const int *mpos, int nm
 				out[j] = NAN;
 			free(runs);
 			free(tr);
-			return;
+			return SR_OK;
 		}
 	}
-	tc_frois(runs, tr, nm, f->chosen, f->start, f->count, np, pos, t->ncond, nbins, st->volume_time,
-		 out, e);
+	rc = tc_frois(runs, tr, nm, f->chosen, f->start, f->count, np, pos, t->ncond, nbins, st->volume_time,
+		      out, e);
 	free(runs);
 	free(tr);
+	return rc;
 }
 
 /* Adds the rows of one split's time courses (tc_split's out) for the conditions flagged in use. */
@@ -988,13 +990,15 @@ static sr_status measured_rows(const study *st, const char *lname, const char *m
 						   (size_t)nb, sizeof *tv);
 			unsigned char *use = tc_conditions(mt, 0);
 
-			tc_split(st, mt, mpos, (int)mt->nruns, &f, ps->n, keep_pos, nb, tv, e);
-			tc_rows(res, lname, ps, "all", mt, use, nb, mt->tr[0], tv);
+			rc = tc_split(st, mt, mpos, (int)mt->nruns, &f, ps->n, keep_pos, nb, tv, e);
+			if (!rc)
+				tc_rows(res, lname, ps, "all", mt, use, nb, mt->tr[0], tv);
 			free(tv);
 			free(use);
 		}
-		rc = write_maps(dir, st, mapname, label, loc, "all", mt->task, all, meas,
-				ffx_df(loc, lpos, (int)loc->nruns), &grid, nvox, ps, &f, e);
+		if (!rc)
+			rc = write_maps(dir, st, mapname, label, loc, "all", mt->task, all, meas,
+					ffx_df(loc, lpos, (int)loc->nruns), &grid, nvox, ps, &f, e);
 		froi_release(&f);
 		free(lpos);
 		free(mpos);
@@ -1050,8 +1054,12 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 			keep_split(&f, nvox, &keep_t[s], &keep_f[s]);
 			keep_name[s] = xstrdup(splits[s].name);
 			keep_def[s] = xstrdup(def);
-			tc_split(st, loc, splits[s].meas, splits[s].nmeas, &f, ps->n, keep_pos, tcb,
-				 tcv + (size_t)s * tcper, e);
+			rc = tc_split(st, loc, splits[s].meas, splits[s].nmeas, &f, ps->n, keep_pos, tcb,
+				      tcv + (size_t)s * tcper, e);
+			if (rc) {
+				froi_release(&f);
+				break;
+			}
 			tc_rows(res, lname, ps, splits[s].name, loc, tcuse, tcb, loc->tr[0],
 				tcv + (size_t)s * tcper);
 			run_list(loc, splits[s].meas, splits[s].nmeas, meas, sizeof meas);

@@ -84,43 +84,77 @@ sr_status tc_table_write(const char *path, const char *subject, const tc_table *
 	return rc ? rc : tabledict_write(path, tc_columns, tc_ncolumns, NULL, 0, e);
 }
 
-/* The fROI's mean scaled series in one run; 0 when no voxel of it is analyzable there. */
-static int froi_series(const runfit_result *r, const size_t *vox, size_t nv, const int32_t *pos,
-		       double *y)
+/*
+ * The mean scaled series of the nf fROIs in run r: y (nf x T, fROI-major);
+ * y[f * T] is NaN for a fROI with no voxel analyzable in the run. The runs'
+ * kept series are read a volume at a time (they may be in a temporary file);
+ * each y[f][k] adds its voxels in their order, as a voxel-by-voxel loop would.
+ */
+static sr_status froi_series(const runfit_result *r, const size_t *vox, const size_t *start,
+			     const size_t *count, int nf, const int32_t *pos, double *y, sr_err *e)
 {
-	int T = r->d.T, k;
-	size_t i, n = 0;
+	size_t T = (size_t)r->d.T, k, i, nuse = 0, nall = 0;
+	size_t *at, *first = xcalloc((size_t)nf + 1, sizeof *first);
+	double *m, *row = xmalloc_array(r->nkeep ? r->nkeep : 1, sizeof *row);
+	void *scratch = xmalloc_array(r->nkeep ? r->nkeep : 1, sizeof(double));
+	sr_status st = SR_OK;
+	int f;
 
-	for (k = 0; k < T; k++)
-		y[k] = 0;
-	for (i = 0; i < nv; i++) {
-		size_t v = vox[i];
-		ptrdiff_t at = runfit_at(r, v, pos);
-		double m;
+	for (f = 0; f < nf; f++)
+		nall += count[f];
+	at = xmalloc_array(nall ? nall : 1, sizeof *at);
+	m = xmalloc_array(nall ? nall : 1, sizeof *m);
 
-		if (pos[v] < 0 || at < 0)
-			continue;
-		m = r->out.mean[at];
-		if (!r->out.ok[at] || !(m > 0) || !isfinite(m))
-			continue;
-		for (k = 0; k < T; k++)
-			y[k] += 100.0 * runfit_series_at(r, (size_t)k, (size_t)pos[v]) / m;
-		n++;
+	/* each fROI's voxels analyzable in this run: their place in the kept series, their mean */
+	for (f = 0; f < nf; f++) {
+		first[f] = nuse;
+		for (i = 0; i < count[f]; i++) {
+			size_t v = vox[start[f] + i];
+			ptrdiff_t o = runfit_at(r, v, pos);
+			double mv;
+
+			if (pos[v] < 0 || o < 0)
+				continue;
+			mv = r->out.mean[o];
+			if (!r->out.ok[o] || !(mv > 0) || !isfinite(mv))
+				continue;
+			at[nuse] = (size_t)pos[v];
+			m[nuse] = mv;
+			nuse++;
+		}
 	}
-	for (k = 0; k < T; k++)
-		y[k] /= (double)(n ? n : 1);
-	return n > 0;
+	first[nf] = nuse;
+	for (k = 0; k < T && st == SR_OK; k++) {
+		st = runfit_series_row(r, k, row, scratch, e);
+		for (f = 0; st == SR_OK && f < nf; f++) {
+			double sum = 0;
+
+			for (i = first[f]; i < first[f + 1]; i++)
+				sum += 100.0 * row[at[i]] / m[i];
+			y[(size_t)f * T + k] = sum / (double)(first[f + 1] - first[f] ? first[f + 1] - first[f] : 1);
+		}
+	}
+	for (f = 0; f < nf; f++)
+		if (first[f + 1] == first[f])
+			y[(size_t)f * T] = NAN;   /* no voxel here: fir_fit_many skips it */
+	free(at);
+	free(m);
+	free(first);
+	free(row);
+	free(scratch);
+	return st;
 }
 
-void tc_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
-	      const size_t *start, const size_t *count, int nf, const int32_t *pos, int ncond,
-	      int nbins, double volume_time, double *out, sr_err *e)
+sr_status tc_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
+		   const size_t *start, const size_t *count, int nf, const int32_t *pos, int ncond,
+		   int nbins, double volume_time, double *out, sr_err *e)
 {
 	size_t per = (size_t)ncond * (size_t)nbins, nb = per * (size_t)(nf > 0 ? nf : 1), j;
 	double *sum = xcalloc(nb, sizeof *sum), *beta = xmalloc_array(nb, sizeof *beta);
-	int *cnt = xcalloc(nb, sizeof *cnt), i, f;
+	int *cnt = xcalloc(nb, sizeof *cnt), i;
+	sr_status st = SR_OK;
 
-	for (i = 0; i < nruns; i++) {
+	for (i = 0; i < nruns && st == SR_OK; i++) {
 		const runfit_result *r = run[i];
 		size_t T = (size_t)r->d.T;
 		double *y;
@@ -129,12 +163,12 @@ void tc_frois(const runfit_result *const *run, const double *tr, int nruns, cons
 		if (!runfit_has_series(r) || !r->d.X || nf <= 0)
 			continue;
 		y = xmalloc_array(T * (size_t)nf, sizeof *y);
-		for (f = 0; f < nf; f++)
-			if (!froi_series(r, vox + start[f], count[f], pos, y + (size_t)f * T))
-				y[(size_t)f * T] = NAN;   /* no voxel here: fir_fit_many skips it */
+		st = froi_series(r, vox, start, count, nf, pos, y, e);
 		sr_err_init(&fe, NULL, NULL);
-		if (fir_fit_many(r->d.T, tr[i], volume_time, r->ev, r->nev, ncond, nbins,
-				 r->d.X + T * (size_t)r->d.ncond, r->d.p - r->d.ncond, y, nf, beta, &fe) != SR_OK) {
+		if (st != SR_OK) {
+			/* the error is in e */
+		} else if (fir_fit_many(r->d.T, tr[i], volume_time, r->ev, r->nev, ncond, nbins,
+					r->d.X + T * (size_t)r->d.ncond, r->d.p - r->d.ncond, y, nf, beta, &fe) != SR_OK) {
 			sr_warnf(e, "time course: %s; the run is left out", fe.msg);
 		} else {
 			for (j = 0; j < nb; j++)
@@ -150,6 +184,7 @@ void tc_frois(const runfit_result *const *run, const double *tr, int nruns, cons
 	free(sum);
 	free(beta);
 	free(cnt);
+	return st;
 }
 
 /* ---- the group table ---- */

@@ -39,11 +39,11 @@ sr_status tc_table_write(const char *path, const char *subject, const tc_table *
  * run); then the mean over the runs with a value, per bin. out gets nf x
  * ncond x nbins values (conditions in the task's order, bins ascending), NaN
  * where no run gives one. A run whose FIR design cannot be fitted is left
- * out with a warning.
+ * out with a warning. SR_EIO when a run's kept series cannot be read back.
  */
-void tc_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
-	      const size_t *start, const size_t *count, int nf, const int32_t *pos, int ncond,
-	      int nbins, double volume_time, double *out, sr_err *e);
+sr_status tc_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
+		   const size_t *start, const size_t *count, int nf, const int32_t *pos, int ncond,
+		   int nbins, double volume_time, double *out, sr_err *e);
 
 /*
  * The group table: reads OUT/sub-<label>/timecourses.csv of the n labels and
