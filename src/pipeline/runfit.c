@@ -21,7 +21,7 @@
 #include "../io/rowfile.h"
 #include "../io/table.h"
 
-#define QUEUE_SLOTS 2
+#define QUEUE_SLOTS 4
 
 typedef struct vol_queue {
 	nii_stream *s;
@@ -653,11 +653,35 @@ static void many_one(size_t i, int worker, void *arg)
 	c->st[i] = runfit_run_threads(&c->specs[i], c->finish_threads, &c->res[i], &c->errs[i]);
 }
 
+/*
+ * How many of the runs to fit at once: up to nthreads, while together they
+ * hold at most RUNFIT_SIDE_VOXELS voxels (by the largest run's header; a
+ * header that cannot be read counts as small, its fit will say why).
+ */
+static int side_by_side(const runfit_spec *specs, int n, int nthreads)
+{
+	size_t most = 1, k;
+	int i;
+
+	for (i = 0; i < n; i++) {
+		nii_info info;
+		sr_err e;
+
+		sr_err_init(&e, NULL, NULL);
+		if (nii_read_info(specs[i].bold, &info, &e) == SR_OK && nii_nvox(&info.grid) > most)
+			most = nii_nvox(&info.grid);
+	}
+	k = RUNFIT_SIDE_VOXELS / most;
+	if (k < 1)
+		k = 1;
+	return (size_t)(nthreads < 1 ? 1 : nthreads) < k ? (nthreads < 1 ? 1 : nthreads) : (int)k;
+}
+
 sr_status runfit_many(const runfit_spec *specs, int n, int nthreads, runfit_result *res,
 		      sr_err *errs)
 {
 	many_ctx c;
-	int i;
+	int i, side;
 	sr_status st = SR_OK;
 
 	if (n <= 0)
@@ -666,10 +690,11 @@ sr_status runfit_many(const runfit_spec *specs, int n, int nthreads, runfit_resu
 	c.specs = specs;
 	c.res = res;
 	c.errs = errs;
-	/* spare threads go to the per-voxel finish; results do not depend on them */
-	c.finish_threads = (nthreads < 1 ? 1 : nthreads) / pool_workers((size_t)n, nthreads);
+	side = side_by_side(specs, n, nthreads);
+	/* spare threads go inside the runs; results do not depend on them */
+	c.finish_threads = (nthreads < 1 ? 1 : nthreads) / pool_workers((size_t)n, side);
 	c.st = xcalloc((size_t)n, sizeof *c.st);
-	pool_run((size_t)n, nthreads, many_one, &c);
+	pool_run((size_t)n, side, many_one, &c);
 	for (i = 0; i < n; i++)
 		if (c.st[i] != SR_OK && st == SR_OK)
 			st = c.st[i];

@@ -89,11 +89,17 @@ sr_status runfit_confound_columns(const table *t, const char *path, const char *
  */
 
 /*
- * Fits n runs with up to nthreads threads (runs in parallel); res[i], errs[i]
- * belong to run i. Returns SR_OK when all succeeded, else the first failure's
- * status (each errs[i] says what happened to run i). Results do not depend on
- * nthreads.
+ * Fits n runs with up to nthreads threads; res[i], errs[i] belong to run i.
+ * Runs are fitted side by side while together they hold at most
+ * RUNFIT_SIDE_VOXELS voxels (each needs ~2 rank doubles of sums a voxel
+ * while it is fitted), and the threads left over work inside each run (its
+ * volumes' sums and its finish): a standard-grid subject is fitted one run
+ * at a time on every thread, small runs several at once. Returns SR_OK when
+ * all succeeded, else the first failure's status (each errs[i] says what
+ * happened to run i). Results do not depend on nthreads.
  */
+#define RUNFIT_SIDE_VOXELS ((size_t)1 << 20)
+
 sr_status runfit_many(const runfit_spec *specs, int n, int nthreads, runfit_result *res,
 		      sr_err *errs);
 
