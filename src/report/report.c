@@ -68,7 +68,7 @@ static void cell(sbuf *b, const char *s)
 		sbuf_printf(b, "<td class=\"n\">%.4g</td>", v);
 	} else {
 		sbuf_puts(b, "<td>");
-		sb_esc(b, s);
+		rh_esc(b, s);
 		sbuf_puts(b, "</td>");
 	}
 }
@@ -183,26 +183,26 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 					hi = fmax(hi, h->bars[ei].mean + e);
 				}
 				sbuf_puts(sum, "<tr><td>");
-				sb_esc(sum, parcels[pi]);
+				rh_esc(sum, parcels[pi]);
 				sbuf_puts(sum, "</td><td>");
-				sb_esc(sum, h->split);
+				rh_esc(sum, h->split);
 				sbuf_puts(sum, "</td><td>");
-				sb_esc(sum, tasks[ti]);
+				rh_esc(sum, tasks[ti]);
 				sbuf_puts(sum, "</td><td>");
-				sb_esc(sum, h->effects[ei]);
+				rh_esc(sum, h->effects[ei]);
 				sbuf_printf(sum, "</td><td class=\"n\">%zu</td><td class=\"n\">", n);
-				sb_num(sum, h->bars[ei].mean);
+				rh_num(sum, h->bars[ei].mean);
 				sbuf_puts(sum, "</td><td class=\"n\">");
-				sb_num(sum, h->bars[ei].sem);
+				rh_num(sum, h->bars[ei].sem);
 				sbuf_puts(sum, "</td></tr>\n");
 			}
 		}
 		sbuf_puts(b, "<h3>Task ");
-		sb_esc(b, tasks[ti]);
+		rh_esc(b, tasks[ti]);
 		sbuf_puts(b, measured ? " (fROIs defined on all localizer runs)" : " (held-out runs, mean over splits)");
 		sbuf_puts(b, "</h3>\n<p class=\"note\">One y-scale for every parcel of this task, so bar heights compare across parcels.</p>\n");
 		sbuf_printf(b, "<div class=\"family\" data-task=\"");
-		sb_esc(b, tasks[ti]);
+		rh_esc(b, tasks[ti]);
 		sbuf_puts(b, "\">\n");
 		for (pi = 0; pi < np; pi++) {
 			chart *h = &ch[pi];
@@ -252,7 +252,7 @@ void table_html(sbuf *b, const table *t, const char *id, const char *const *firs
 	sbuf_printf(b, "<table id=\"%s\"><thead><tr>", id);
 	for (c = 0; c < n; c++) {
 		sbuf_puts(b, "<th>");
-		sb_esc(b, t->header[order[c]]);
+		rh_esc(b, t->header[order[c]]);
 		sbuf_puts(b, "</th>");
 	}
 	sbuf_puts(b, "</tr></thead><tbody>\n");
@@ -282,15 +282,15 @@ static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 			int bad = qc_overlap_flag(p->size_a, p->size_b, p->dice);
 
 			sbuf_printf(b, "<tr%s><td><a href=\"sub-", bad ? " class=\"flag\"" : "");
-			sb_esc(b, s->label);
+			rh_esc(b, s->label);
 			sbuf_puts(b, "/report.html\">sub-");
-			sb_esc(b, s->label);
+			rh_esc(b, s->label);
 			sbuf_puts(b, "</a></td><td>");
-			sb_esc(b, p->name);
+			rh_esc(b, p->name);
 			sbuf_puts(b, "</td><td class=\"n\">");
-			sb_num(b, p->size_a);
+			rh_num(b, p->size_a);
 			sbuf_puts(b, "</td><td class=\"n\">");
-			sb_num(b, p->size_b);
+			rh_num(b, p->size_b);
 			sbuf_puts(b, "</td><td class=\"n\">");
 			if (isfinite(p->dice))
 				sbuf_printf(b, "%.3f", p->dice);
@@ -339,12 +339,12 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 
 				/* the table holds participant_id (sub-<label>); older tables the bare label */
 				sbuf_puts(b, "<li><b class=\"sub\">sub-");
-				sb_esc(b, strncmp(lab, "sub-", 4) == 0 ? lab + 4 : lab);
+				rh_esc(b, strncmp(lab, "sub-", 4) == 0 ? lab + 4 : lab);
 				sbuf_puts(b, "</b> ");
-				sb_esc(b, st);
+				rh_esc(b, st);
 				if (cr >= 0 && *table_cell(&t, r, (size_t)cr)) {
 					sbuf_puts(b, ": ");
-					sb_esc(b, table_cell(&t, r, (size_t)cr));
+					rh_esc(b, table_cell(&t, r, (size_t)cr));
 				}
 				sbuf_puts(b, "</li>");
 			}
@@ -425,7 +425,7 @@ static void table_view_release(table *view)
 static void localizer_heading(sbuf *b, const char *loc)
 {
 	sbuf_puts(b, "<h3 class=\"localizer\">Localizer ");
-	sb_esc(b, loc);
+	rh_esc(b, loc);
 	sbuf_puts(b, "</h3>\n");
 }
 
@@ -690,14 +690,14 @@ static void contents_nav(sbuf *b, char **labels, const rsub *subs, size_t nsub)
 		if (!subs[i].ok) {
 			/* no link to a page that was not written (or is stale) */
 			sbuf_puts(b, " sub-");
-			sb_esc(b, labels[i]);
+			rh_esc(b, labels[i]);
 			sbuf_puts(b, " <span class=\"flag\">(no page: see the command's messages)</span>");
 			continue;
 		}
 		sbuf_puts(b, " <a href=\"sub-");
-		sb_esc(b, labels[i]);
+		rh_esc(b, labels[i]);
 		sbuf_puts(b, "/report.html\">sub-");
-		sb_esc(b, labels[i]);
+		rh_esc(b, labels[i]);
 		sbuf_puts(b, "</a>");
 	}
 	sbuf_puts(b, "</nav>\n");
