@@ -48,7 +48,7 @@ static char **list_dir(const char *dir, const char *prefix, const char *suffix, 
 	DIR *d = opendir(dir);
 	struct dirent *de;
 	char **v = NULL;
-	size_t lp = strlen(prefix), ls = strlen(suffix);
+	size_t lp = strlen(prefix), ls = strlen(suffix), cap = 0;
 
 	*n = 0;
 	if (!d)
@@ -58,7 +58,7 @@ static char **list_dir(const char *dir, const char *prefix, const char *suffix, 
 
 		if (l <= lp + ls || strncmp(de->d_name, prefix, lp) || strcmp(de->d_name + l - ls, suffix))
 			continue;
-		v = xrealloc(v, (*n + 1) * sizeof *v);
+		XGROW(v, *n, cap);
 		v[*n] = xmalloc(l - lp - ls + 1);
 		memcpy(v[*n], de->d_name + lp, l - lp - ls);
 		v[*n][l - lp - ls] = 0;
@@ -114,7 +114,7 @@ static char *dirname_of(const char *p)
 static void load_parcels(page *pg)
 {
 	char *names = runrec_ini_get(pg->rec.study_text, "parcels", "names");
-	size_t i, v, k;
+	size_t i, v, k, capidx = 0, capname = 0;
 
 	if (names && pg->rec.study_file) {
 		char *base = dirname_of(pg->rec.study_file), path[8192];
@@ -151,8 +151,8 @@ static void load_parcels(page *pg)
 				;
 			if (i < pg->np)
 				continue;
-			pg->pidx = xrealloc(pg->pidx, (pg->np + 1) * sizeof *pg->pidx);
-			pg->pname = xrealloc(pg->pname, (pg->np + 1) * sizeof *pg->pname);
+			XGROW(pg->pidx, pg->np, capidx);
+			XGROW(pg->pname, pg->np, capname);
 			pg->pidx[pg->np] = l;
 			pg->pname[pg->np] = xmalloc(16);
 			snprintf(pg->pname[pg->np++], 16, "%d", (int)l);
@@ -203,7 +203,7 @@ static void load_maps(page *pg, sr_err *e)
 {
 	char mdir[4200], path[8400], prefix[256], loc0[64];
 	char **tok;
-	size_t n, i, pass, l0;
+	size_t n, i, pass, l0, cap = 0;
 
 	snprintf(mdir, sizeof mdir, "%s/func", pg->dir);
 	snprintf(prefix, sizeof prefix, "sub-%s_", pg->label);
@@ -229,7 +229,7 @@ static void load_maps(page *pg, sr_err *e)
 			d = read_on_grid(pg, path, e);
 			if (!d)
 				continue;
-			pg->maps = xrealloc(pg->maps, (pg->nmaps + 1) * sizeof *pg->maps);
+			XGROW(pg->maps, pg->nmaps, cap);
 			m = &pg->maps[pg->nmaps++];
 			m->token = xstrdup(desc);
 			m->lab = to_labels(d, pg->nvox);
@@ -645,19 +645,14 @@ static void designs(page *pg, sbuf *b)
 	strv_free_array(names, n);
 }
 
-/* Splits a space/comma separated list. */
+/* Splits a space/comma separated list (empty pieces dropped); free with strv_free_array. */
 static char **words(const char *s, size_t *n)
 {
-	char *c = xstrdup(s ? s : ""), *tok, *save = NULL;
-	char **v = NULL;
+	strv v = { 0 };
 
-	*n = 0;
-	for (tok = strtok_r(c, " ,\t", &save); tok; tok = strtok_r(NULL, " ,\t", &save)) {
-		v = xrealloc(v, (*n + 1) * sizeof *v);
-		v[(*n)++] = xstrdup(tok);
-	}
-	free(c);
-	return v;
+	strv_split(&v, s ? s : "", " ,\t", 0);
+	*n = v.n;
+	return v.v;
 }
 
 static void motion(page *pg, rsub *s, sbuf *b)
