@@ -111,14 +111,14 @@ static void print_summary_loc(const study *st, size_t li, const subject_result *
 	const char *kind = L->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean";
 	size_t i, k;
 	char **parcels = NULL;
-	size_t np = 0;
+	size_t np = 0, cap = 0;
 
 	/* only parcels with cross-validated rows: none when no subject has two localizer runs */
 	for (i = 0; i < n; i++)
 		for (k = 0; ran[i] && k < res[i].nrows; k++)
 			if (strcmp(res[i].rows[k].split, kind) == 0 && strcmp(res[i].rows[k].localizer, L->label) == 0 &&
 			    !has_label(parcels, np, res[i].rows[k].parcel)) {
-				parcels = xrealloc(parcels, (np + 1) * sizeof *parcels);
+				XGROW(parcels, np, cap);
 				parcels[np++] = res[i].rows[k].parcel;
 			}
 	if (!np)

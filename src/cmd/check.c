@@ -156,9 +156,9 @@ static void print_run(const study *st, const bids_run *run, const studycheck_run
 	if (!f->events_ok)
 		return;
 	printf("      conditions:");
-	for (i = 0; i < f->ncond; i++)
-		printf("%s %s (%zu)", i ? "," : "", f->conds[i], f->cond_count[i]);
-	printf("%s\n", f->ncond ? "" : " none");
+	for (i = 0; i < f->conds.n; i++)
+		printf("%s %s (%zu)", i ? "," : "", f->conds.v[i], f->cond_count[i]);
+	printf("%s\n", f->conds.n ? "" : " none");
 }
 
 static void print_task_runs(const study *st, const studycheck_task *ts)
@@ -241,8 +241,8 @@ static void check_task_names(checker *c, const char *section, size_t t, char **s
 	size_t s, k;
 
 	for (s = 0; s < nsub; s++)
-		for (k = 0; k < seen[s * stride].nconds; k++)
-			sl_add_unique(&known, seen[s * stride].conds[k]);
+		for (k = 0; k < seen[s * stride].conds.n; k++)
+			sl_add_unique(&known, seen[s * stride].conds.v[k]);
 	if (known.n)
 		qsort(known.s, known.n, sizeof *known.s, strv_cmp);
 	if (t == 0) {

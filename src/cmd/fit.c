@@ -72,18 +72,18 @@ static void warn_print(void *ctx, const char *msg)
 static char **split_list(const char *s, int spaces, int *n)
 {
 	char **v = NULL, *copy = xstrdup(s), *p = copy, *tok;
-	int k = 0;
+	size_t k = 0, cap = 0;
 
 	while ((tok = strsep(&p, spaces ? ", \t" : ",")) != NULL) {
 		while (!spaces && (*tok == ' ' || *tok == '\t'))
 			tok++;
 		if (!*tok)
 			continue;
-		v = xrealloc(v, (size_t)(k + 1) * sizeof *v);
+		XGROW(v, k, cap);
 		v[k++] = xstrdup(tok);
 	}
 	free(copy);
-	*n = k;
+	*n = (int)k;
 	return v;
 }
 

@@ -90,10 +90,7 @@ static void add_term(expr *x, size_t *cap, const char *name, size_t len, double 
 			return;
 		}
 	}
-	if (x->nterms == *cap) {
-		*cap = *cap ? 2 * *cap : 4;
-		x->terms = xrealloc(x->terms, *cap * sizeof *x->terms);
-	}
+	XGROW(x->terms, x->nterms, *cap);
 	x->terms[x->nterms].name = xmalloc(len + 1);
 	memcpy(x->terms[x->nterms].name, name, len);
 	x->terms[x->nterms].name[len] = '\0';

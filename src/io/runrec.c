@@ -21,6 +21,7 @@ sr_status runrec_read(const char *path, runrec *r, sr_err *e)
 	json_t *root, *in, *v;
 	const char *task;
 	json_t *list;
+	size_t cap = 0;
 
 	memset(r, 0, sizeof *r);
 	r->seconds = NAN;
@@ -56,7 +57,7 @@ sr_status runrec_read(const char *path, runrec *r, sr_err *e)
 
 				if (!json_is_object(o))
 					continue;
-				r->runs = xrealloc(r->runs, (r->nruns + 1) * sizeof *r->runs);
+				XGROW(r->runs, r->nruns, cap);
 				x = &r->runs[r->nruns++];
 				memset(x, 0, sizeof *x);
 				x->task = xstrdup(task);

@@ -41,7 +41,7 @@ void study_problems_add(study_problems *p, const char *file, size_t line, const 
 		snprintf(full, sizeof full, "%s: %s", file, body);
 	else
 		snprintf(full, sizeof full, "%s", body);
-	p->msg = xrealloc(p->msg, (p->n + 1) * sizeof *p->msg);
+	XGROW(p->msg, p->n, p->cap);
 	p->msg[p->n++] = xstrdup(full);
 }
 
@@ -54,8 +54,7 @@ void study_problems_release(study_problems *p)
 	for (i = 0; i < p->n; i++)
 		free(p->msg[i]);
 	free(p->msg);
-	p->msg = NULL;
-	p->n = 0;
+	memset(p, 0, sizeof *p);
 }
 
 /* ---- the loader's state ---- */
@@ -99,6 +98,7 @@ struct loader {
 	size_t nsec, capsec;
 	struct problem *prob;
 	size_t nprob, capprob;
+	size_t caplocs;        /* allocated length of the study's locs */
 };
 
 static void prob(struct loader *ld, size_t line, const char *fmt, ...)
@@ -1050,7 +1050,7 @@ static void add_localizer(struct loader *ld, study *s, long si, const char *name
 	study_localizer *L;
 	long pi = find_section(ld, SEC_PARCELS, name);
 
-	s->locs = xrealloc(s->locs, (s->nlocs + 1) * sizeof *s->locs);
+	XGROW(s->locs, s->nlocs, ld->caplocs);
 	L = &s->locs[s->nlocs++];
 	memset(L, 0, sizeof *L);
 	L->name = name ? xstrdup(name) : NULL;
@@ -1230,7 +1230,7 @@ static void load_model(struct loader *ld, study *s)
 static void measure_localizers(struct loader *ld, const study *s, study_measure *m, const char *sec)
 {
 	const struct entry *e = get(ld, sec, "localizers");
-	size_t i, j, k;
+	size_t i, j, k, cap = 0;
 
 	if (e && !val(e)) {
 		prob(ld, e->line, "localizers is empty (leave the key out for every localizer)");
@@ -1261,7 +1261,7 @@ static void measure_localizers(struct loader *ld, const study *s, study_measure 
 				prob(ld, e->line, "localizers: '%s' is listed twice", w[i]);
 				continue;
 			}
-			m->localizers = xrealloc(m->localizers, (m->nlocalizers + 1) * sizeof *m->localizers);
+			XGROW(m->localizers, m->nlocalizers, cap);
 			m->localizers[m->nlocalizers++] = xstrdup(w[i]);
 		}
 		strv_free_array(w, k);
@@ -1291,7 +1291,7 @@ static void measure_localizers(struct loader *ld, const study *s, study_measure 
 
 static void load_measures(struct loader *ld, study *s)
 {
-	size_t i, j;
+	size_t i, j, cap = 0;
 
 	for (i = 0; i < ld->nsec; i++) {
 		const char *mname;
@@ -1305,7 +1305,7 @@ static void load_measures(struct loader *ld, study *s)
 				break;
 		if (j < s->nmeasures)
 			continue;  /* a repeated section, reported */
-		s->measures = xrealloc(s->measures, (s->nmeasures + 1) * sizeof *s->measures);
+		XGROW(s->measures, s->nmeasures, cap);
 		m = &s->measures[s->nmeasures++];
 		memset(m, 0, sizeof *m);
 		m->name = xstrdup(mname);
@@ -1438,7 +1438,7 @@ out:
 	if (ld.nprob > 1)
 		qsort(ld.prob, ld.nprob, sizeof *ld.prob, prob_cmp);
 	for (i = 0; i < ld.nprob; i++) {
-		probs->msg = xrealloc(probs->msg, (probs->n + 1) * sizeof *probs->msg);
+		XGROW(probs->msg, probs->n, probs->cap);
 		probs->msg[probs->n++] = ld.prob[i].msg;
 		ld.prob[i].msg = NULL;
 	}

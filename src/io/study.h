@@ -100,10 +100,14 @@ typedef struct study_key {
 	size_t line;
 } study_key;
 
-/* A list of problems, each a full message naming file and line. */
+/*
+ * A list of problems, each a full message naming file and line; cap is the
+ * allocated length. A zeroed list ({ 0 }) is empty; study_problems_release
+ * frees the messages and zeroes it again.
+ */
 typedef struct study_problems {
 	char **msg;
-	size_t n;
+	size_t n, cap;
 } study_problems;
 
 /*

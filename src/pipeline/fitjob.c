@@ -144,8 +144,8 @@ static size_t common_entities(bidsname_kv (*kv)[40], const size_t *n, int nrun, 
 static int gather_conditions(const fitjob *fj, char *const *events, int nrun, const char *column,
 			     char ***out, int *nout)
 {
-	char **c = NULL;
-	int n = 0, r, i;
+	strv c = { 0 };
+	int r;
 	size_t j;
 
 	for (r = 0; r < nrun; r++) {
@@ -155,24 +155,17 @@ static int gather_conditions(const fitjob *fj, char *const *events, int nrun, co
 		sr_err_init(&e, NULL, NULL);
 		if (events_read(events[r], column, &el, &e) != SR_OK) {
 			fail(fj, "%s", e.msg);
-			strv_free_array(c, (size_t)n);
+			strv_free(&c);
 			return 1;
 		}
-		for (j = 0; j < el.n; j++) {
-			for (i = 0; i < n; i++)
-				if (strcmp(c[i], el.ev[j].condition) == 0)
-					break;
-			if (i == n) {
-				c = xrealloc(c, (size_t)(n + 1) * sizeof *c);
-				c[n++] = xstrdup(el.ev[j].condition);
-			}
-		}
+		for (j = 0; j < el.n; j++)
+			if (!strv_contains(&c, el.ev[j].condition))
+				strv_push(&c, el.ev[j].condition);
 		events_release(&el);
 	}
-	if (n > 1)
-		qsort(c, (size_t)n, sizeof *c, strv_cmp);
-	*out = c;
-	*nout = n;
+	strv_sort(&c);
+	*out = c.v;
+	*nout = (int)c.n;
 	return 0;
 }
 

@@ -154,7 +154,7 @@ typedef struct group_ctx {
 	const char *out;
 	const char *shown;  /* the folder the "wrote" line names, NULL = out */
 	subject *subj;
-	size_t nsubj, nused, nmissing, nexcluded;
+	size_t nsubj, capsubj, nused, nmissing, nexcluded;
 	strtab locs, parcels, splits, tasks, effects, keys;
 	cell *cells;
 	size_t ncells, capcells;
@@ -238,7 +238,7 @@ static void add_subject(group_ctx *g, const char *label)
 {
 	if (find_subject(g, label) != (size_t)-1)
 		return;
-	g->subj = xrealloc(g->subj, (g->nsubj + 1) * sizeof *g->subj);
+	XGROW(g->subj, g->nsubj, g->capsubj);
 	g->subj[g->nsubj].label = xstrdup(label);
 	g->subj[g->nsubj].status = SUBJ_USED;
 	g->subj[g->nsubj].reason = NULL;
@@ -637,6 +637,7 @@ static const char **with_participants(const group_ctx *g, const char *const *fir
 static int parse_pairs(const char *spec, char ***pairs, size_t *npairs)
 {
 	char *copy = xstrdup(spec), *tok, *save = NULL;
+	size_t cap = 0;
 
 	*pairs = NULL;
 	*npairs = 0;
@@ -661,8 +662,9 @@ static int parse_pairs(const char *spec, char ***pairs, size_t *npairs)
 			free(copy);
 			return 2;
 		}
-		*pairs = xrealloc(*pairs, (*npairs + 2) * sizeof **pairs);
+		XGROW(*pairs, *npairs, cap);
 		(*pairs)[(*npairs)++] = xstrdup(a);
+		XGROW(*pairs, *npairs, cap);
 		(*pairs)[(*npairs)++] = xstrdup(b);
 	}
 	free(copy);

@@ -68,7 +68,7 @@ int studycheck_only(char *const *subs, size_t n, const char *only, char ***out, 
 {
 	char *copy = xstrdup(only), *tok, *save = NULL;
 	char **v = NULL, **bad = NULL;
-	size_t k = 0, nbad = 0, before = probs->n;
+	size_t k = 0, nbad = 0, cap = 0, capbad = 0, before = probs->n;
 
 	for (tok = strtok_r(copy, ", \t", &save); tok; tok = strtok_r(NULL, ", \t", &save)) {
 		if (strncmp(tok, "sub-", 4) == 0)
@@ -76,14 +76,14 @@ int studycheck_only(char *const *subs, size_t n, const char *only, char ***out, 
 		if (!*tok || has_label(v, k, tok) || has_label(bad, nbad, tok))
 			continue;
 		if (!has_label(subs, n, tok)) {
-			bad = xrealloc(bad, (nbad + 1) * sizeof *bad);
+			XGROW(bad, nbad, capbad);
 			bad[nbad++] = xstrdup(tok);
 			study_problems_add(probs, NULL, 0, "subject '%s' is not in the study (%zu subject%s%s%s%s)",
 					   tok, n, n == 1 ? "" : "s", n ? ": " : "", n ? subs[0] : "",
 					   n > 1 ? " ..." : "");
 			continue;
 		}
-		v = xrealloc(v, (k + 1) * sizeof *v);
+		XGROW(v, k, cap);
 		v[k++] = xstrdup(tok);
 	}
 	free(copy);
@@ -138,12 +138,11 @@ static const char *base(const char *path)
 	return s ? s + 1 : path;
 }
 
-static void add_unique(char ***v, size_t *n, const char *s)
+/* Appends a copy of s unless v holds it already (first appearance order). */
+static void add_unique(strv *v, const char *s)
 {
-	if (has_label(*v, *n, s))
-		return;
-	*v = xrealloc(*v, (*n + 1) * sizeof **v);
-	(*v)[(*n)++] = xstrdup(s);
+	if (!strv_contains(v, s))
+		strv_push(v, s);
 }
 
 /* Reads every volume so that a damaged file fails here; returns 0 when fine. */
@@ -284,8 +283,7 @@ static void check_confounds(studycheck_ctx *c, const bids_run *run, studycheck_r
 }
 
 /* The run's events: its conditions with their counts, and the first onset past the run's end. */
-static void check_events(studycheck_ctx *c, const bids_run *run, studycheck_run *f, char ***task_conds,
-			 size_t *ntask_conds)
+static void check_events(studycheck_ctx *c, const bids_run *run, studycheck_run *f, strv *task_conds)
 {
 	event_list ev;
 	sr_err e;
@@ -302,14 +300,13 @@ static void check_events(studycheck_ctx *c, const bids_run *run, studycheck_run 
 	}
 	f->events_ok = 1;
 	for (k = 0; k < ev.n; k++)
-		add_unique(&f->conds, &f->ncond, ev.ev[k].condition);
-	if (f->ncond)
-		qsort(f->conds, f->ncond, sizeof *f->conds, strv_cmp);
-	f->cond_count = xcalloc(f->ncond + 1, sizeof *f->cond_count);
-	for (i = 0; i < f->ncond; i++) {
+		add_unique(&f->conds, ev.ev[k].condition);
+	strv_sort(&f->conds);
+	f->cond_count = xcalloc(f->conds.n + 1, sizeof *f->cond_count);
+	for (i = 0; i < f->conds.n; i++) {
 		for (k = 0; k < ev.n; k++)
-			f->cond_count[i] += strcmp(ev.ev[k].condition, f->conds[i]) == 0;
-		add_unique(task_conds, ntask_conds, f->conds[i]);
+			f->cond_count[i] += strcmp(ev.ev[k].condition, f->conds.v[i]) == 0;
+		add_unique(task_conds, f->conds.v[i]);
 	}
 	/* the first such event only: one warning per run is enough to act on */
 	for (k = 0; f->tr_ok && k < ev.n; k++) {
@@ -325,7 +322,7 @@ static void check_events(studycheck_ctx *c, const bids_run *run, studycheck_run 
 }
 
 void studycheck_run_validate(studycheck_ctx *c, const bids_run *run, studycheck_grid *ref, studycheck_run *f,
-			     char ***task_conds, size_t *ntask_conds)
+			     strv *task_conds)
 {
 	const study *st = c->st;
 	nii_info info;
@@ -337,7 +334,7 @@ void studycheck_run_validate(studycheck_ctx *c, const bids_run *run, studycheck_
 	if (c->headers_only ? nii_read_info(run->bold, &info, &e) != SR_OK : read_through(c, run->bold, &info) != 0) {
 		if (c->headers_only)
 			sc_problem(c, "%s", e.msg);
-		check_events(c, run, f, task_conds, ntask_conds);
+		check_events(c, run, f, task_conds);
 		return;
 	}
 	f->readable = 1;
@@ -360,14 +357,14 @@ void studycheck_run_validate(studycheck_ctx *c, const bids_run *run, studycheck_
 		sc_problem(c, "%s: not on the grid of %s: %s", run->bold, ref->path, why);
 	}
 	check_confounds(c, run, f);
-	check_events(c, run, f, task_conds, ntask_conds);
+	check_events(c, run, f, task_conds);
 }
 
 static void run_release(studycheck_run *f)
 {
 	strv_free_array(f->conf_cols, f->conf_cols ? (size_t)f->nconf : 0);
 	free(f->conf_na);
-	strv_free_array(f->conds, f->ncond);
+	strv_free(&f->conds);
 	free(f->cond_count);
 }
 
@@ -392,7 +389,7 @@ void studycheck_task_runs(studycheck_ctx *c, studycheck_task *t, studycheck_grid
 
 	t->info = xcalloc(t->nruns + 1, sizeof *t->info);
 	for (r = 0; r < t->nruns; r++)
-		studycheck_run_validate(c, &t->runs[r], ref, &t->info[r], &t->conds, &t->nconds);
+		studycheck_run_validate(c, &t->runs[r], ref, &t->info[r], &t->conds);
 }
 
 void studycheck_task_conds(const study *st, studycheck_task *t)
@@ -406,7 +403,7 @@ void studycheck_task_conds(const study *st, studycheck_task *t)
 		sr_err_init(&quiet, NULL, NULL);
 		if (t->runs[r].events_exist && events_read(t->runs[r].events, st->condition_column, &ev, &quiet) == SR_OK) {
 			for (q = 0; q < ev.n; q++)
-				add_unique(&t->conds, &t->nconds, ev.ev[q].condition);
+				add_unique(&t->conds, ev.ev[q].condition);
 			events_release(&ev);
 		}
 	}
@@ -421,7 +418,7 @@ void studycheck_task_release(studycheck_task *t)
 			run_release(&t->info[r]);
 	free(t->info);
 	bids_runs_release(t->runs, t->nruns);
-	strv_free_array(t->conds, t->nconds);
+	strv_free(&t->conds);
 	memset(t, 0, sizeof *t);
 }
 
@@ -449,7 +446,7 @@ void studycheck_subject_mask(studycheck_ctx *c, const char *label, const studych
 			     const studycheck_grid *ref, char ***paths, size_t *npaths, size_t *count, int *read)
 {
 	const study *st = c->st;
-	size_t n = 0, t, r;
+	size_t n = 0, cap = 0, t, r;
 	unsigned char *m;
 	nii_grid mg;
 	sr_err e;
@@ -465,7 +462,7 @@ void studycheck_subject_mask(studycheck_ctx *c, const char *label, const studych
 					sc_problem(c, "%s: no desc-brain_mask image beside it (mask = auto)", tasks[t].runs[r].bold);
 					continue;
 				}
-				*paths = xrealloc(*paths, (n + 1) * sizeof **paths);
+				XGROW(*paths, n, cap);
 				(*paths)[n++] = xstrdup(tasks[t].runs[r].brain_mask);
 			}
 	} else {
@@ -528,7 +525,7 @@ void studycheck_names(studycheck_ctx *c, const char *section, const char *key, c
 			for (s = 0; s < nsub; s++) {
 				const studycheck_task *ts = &seen[s * stride];
 
-				if (ts->nruns && !has_label(ts->conds, ts->nconds, name))
+				if (ts->nruns && !strv_contains(&ts->conds, name))
 					sc_warning(c, "sub-%s has no '%s' events in task %s: %s is not estimable for this subject",
 						   subs[s], name, task, fx[i].text);
 			}
@@ -543,16 +540,17 @@ static int task_names(studycheck_ctx *c, size_t t, char **subs, size_t nsub)
 	const char *task = t ? st->measures[t - 1].task : st->loc_task;
 	studycheck_task *seen = xcalloc(nsub + 1, sizeof *seen);
 	study_problems reported = { 0 };
-	char **known = NULL, section[512];
-	size_t s, k, nknown = 0, nruns = 0;
+	strv known = { 0 };
+	char section[512];
+	size_t s, k, nruns = 0;
 	int failed = 0;
 
 	for (s = 0; s < nsub && !failed; s++) {
 		failed = studycheck_task_find(c, subs[s], task, &seen[s]);
 		studycheck_task_conds(st, &seen[s]);
 		nruns += seen[s].nruns;
-		for (k = 0; k < seen[s].nconds; k++)
-			add_unique(&known, &nknown, seen[s].conds[k]);
+		for (k = 0; k < seen[s].conds.n; k++)
+			add_unique(&known, seen[s].conds.v[k]);
 	}
 	if (failed) {
 		/* nothing more: the runs of this task cannot be known */
@@ -565,23 +563,22 @@ static int task_names(studycheck_ctx *c, size_t t, char **subs, size_t nsub)
 				   "no subject has runs of task '%s' under %s (files named sub-<label>_task-%s_..._bold.nii[.gz])",
 				   task, st->bids, task);
 	} else {
-		if (nknown)
-			qsort(known, nknown, sizeof *known, strv_cmp);
+		strv_sort(&known);
 		if (t == 0) {
-			studycheck_names(c, "localizer", "contrast", task, &st->contrast, 1, known, nknown, subs, nsub,
+			studycheck_names(c, "localizer", "contrast", task, &st->contrast, 1, known.v, known.n, subs, nsub,
 					 seen, 1, &reported);
-			studycheck_names(c, "localizer", "effects", task, st->loc_effects, st->nloc_effects, known, nknown,
+			studycheck_names(c, "localizer", "effects", task, st->loc_effects, st->nloc_effects, known.v, known.n,
 					 subs, nsub, seen, 1, &reported);
 		} else {
 			snprintf(section, sizeof section, "measure %s", st->measures[t - 1].name);
 			studycheck_names(c, section, "effects", task, st->measures[t - 1].effects,
-					 st->measures[t - 1].neffects, known, nknown, subs, nsub, seen, 1, &reported);
+					 st->measures[t - 1].neffects, known.v, known.n, subs, nsub, seen, 1, &reported);
 		}
 	}
 	for (s = 0; s < nsub; s++)
 		studycheck_task_release(&seen[s]);
 	free(seen);
-	strv_free_array(known, nknown);
+	strv_free(&known);
 	study_problems_release(&reported);
 	return failed;
 }

@@ -4,6 +4,7 @@
 
 #include <stddef.h>
 
+#include "../core/strv.h"
 #include "../io/bids.h"
 #include "../io/nii.h"
 #include "../io/parcels.h"
@@ -68,8 +69,7 @@ typedef struct studycheck_run {
 	int censor_listed;         /* framewise_displacement read: ncensored */
 	size_t ncensored;
 	int events_ok;             /* the events were read: conds, cond_count (sorted) */
-	size_t ncond;
-	char **conds;
+	strv conds;
 	size_t *cond_count;
 } studycheck_run;
 
@@ -80,8 +80,7 @@ typedef struct studycheck_task {
 	bids_run *runs;
 	size_t nruns;
 	studycheck_run *info;      /* nruns, once validated */
-	char **conds;              /* conditions over its readable events, first seen first */
-	size_t nconds;
+	strv conds;                /* conditions over its readable events, first seen first */
 } studycheck_task;
 
 /*
@@ -92,7 +91,7 @@ typedef struct studycheck_task {
  * for the first onset after the run's end). Problems and warnings go to c.
  */
 void studycheck_run_validate(studycheck_ctx *c, const bids_run *run, studycheck_grid *ref, studycheck_run *f,
-			     char ***task_conds, size_t *ntask_conds);
+			     strv *task_conds);
 
 /* The runs of task for subject label in t (a problem when they cannot be listed; then t->listed = 0). */
 int studycheck_task_find(studycheck_ctx *c, const char *label, const char *task, studycheck_task *t);

@@ -15,7 +15,7 @@
 sr_status studyset_subjects(const study *st, char ***out, size_t *n, sr_err *e)
 {
 	/* one rule for every command: the list check and analyze validate (studycheck.c) */
-	study_problems probs = { NULL, 0 };
+	study_problems probs = { 0 };
 	sr_status rc = SR_OK;
 
 	if (studycheck_subjects(st, out, n, &probs)) {

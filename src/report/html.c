@@ -1,4 +1,4 @@
-/* report_html.c - text buffer, escaping, base64 data URIs and the page frame of the HTML report. */
+/* html.c - escaping, base64 data URIs and the page frame of the HTML report. */
 #include <math.h>
 #include <stdarg.h>
 #include <errno.h>
@@ -12,7 +12,7 @@
 #include "../version.h"
 #include "report.h"
 
-void sb_esc(sbuf *b, const char *s)
+void rh_esc(sbuf *b, const char *s)
 {
 	for (; s && *s; s++)
 		switch (*s) {
@@ -29,7 +29,7 @@ void sb_esc(sbuf *b, const char *s)
 }
 
 /* RFC 4648 base64, padded. */
-void sb_data_uri(sbuf *b, const unsigned char *d, size_t n)
+void rh_data_uri(sbuf *b, const unsigned char *d, size_t n)
 {
 	static const char al[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
 	size_t i;
@@ -58,7 +58,7 @@ void sb_data_uri(sbuf *b, const unsigned char *d, size_t n)
 	b->n = (size_t)(o - b->p);
 }
 
-void sb_num(sbuf *b, double v)
+void rh_num(sbuf *b, double v)
 {
 	if (isnan(v))
 		sbuf_puts(b, "&ndash;");
@@ -120,23 +120,23 @@ void rh_begin(sbuf *b, const char *title, const char *subtitle, const char *back
 {
 	sbuf_puts(b, "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
 		   "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>");
-	sb_esc(b, title);
+	rh_esc(b, title);
 	sbuf_puts(b, "</title>\n<style>\n");
 	sbuf_puts(b, css);
 	sbuf_puts(b, "</style>\n</head>\n<body>\n<header class=\"top\">\n");
 	if (back_href) {
 		sbuf_puts(b, "<a class=\"back\" href=\"");
-		sb_esc(b, back_href);
+		rh_esc(b, back_href);
 		sbuf_puts(b, "\">&larr; ");
-		sb_esc(b, back_text);
+		rh_esc(b, back_text);
 		sbuf_puts(b, "</a>\n");
 	}
 	sbuf_puts(b, "<h1>");
-	sb_esc(b, title);
+	rh_esc(b, title);
 	sbuf_puts(b, "</h1>\n");
 	if (subtitle) {
 		sbuf_puts(b, "<p>");
-		sb_esc(b, subtitle);
+		rh_esc(b, subtitle);
 		sbuf_puts(b, "</p>\n");
 	}
 	sbuf_puts(b, "</header>\n<main>\n");
@@ -151,9 +151,9 @@ void rh_end(sbuf *b, const char *study_file)
 	if (gmtime_r(&now, &tm))
 		strftime(when, sizeof when, "%Y-%m-%d %H:%M UTC", &tm);
 	sbuf_puts(b, "<footer class=\"made\"><p class=\"note\">Study file <b class=\"study\">");
-	sb_esc(b, study_file && *study_file ? study_file : "(not recorded)");
+	rh_esc(b, study_file && *study_file ? study_file : "(not recorded)");
 	sbuf_puts(b, "</b>; page written by splitroi <b class=\"version\">" SPLITROI_VERSION "</b> on <b class=\"date\">");
-	sb_esc(b, when);
+	rh_esc(b, when);
 	sbuf_puts(b, "</b>. Research software: check every result against the data before relying on it.</p></footer>\n"
 		   "</main>\n</body>\n</html>\n");
 }

@@ -20,6 +20,7 @@ static char **subject_dirs(const char *out, size_t *n)
 	struct dirent *de;
 	char **v = NULL, path[8192];
 	struct stat sb;
+	size_t cap = 0;
 
 	*n = 0;
 	if (!d)
@@ -30,7 +31,7 @@ static char **subject_dirs(const char *out, size_t *n)
 		snprintf(path, sizeof path, "%s/%s/run.json", out, de->d_name);
 		if (stat(path, &sb) != 0)
 			continue;
-		v = xrealloc(v, (*n + 1) * sizeof *v);
+		XGROW(v, *n, cap);
 		v[(*n)++] = xstrdup(de->d_name + 4);
 	}
 	closedir(d);
@@ -50,12 +51,11 @@ static long find(char **v, size_t n, const char *s)
 	return -1;
 }
 
-static void add_unique(char ***v, size_t *n, const char *s)
+/* Appends a copy of s unless v holds it already (first appearance order). */
+static void add_unique(strv *v, const char *s)
 {
-	if (find(*v, *n, s) >= 0)
-		return;
-	*v = xrealloc(*v, (*n + 1) * sizeof **v);
-	(*v)[(*n)++] = xstrdup(s);
+	if (!strv_contains(v, s))
+		strv_push(v, s);
 }
 
 /* Prints a cell: numbers as %.4g (right aligned), text escaped. */
@@ -68,7 +68,7 @@ static void cell(sbuf *b, const char *s)
 		sbuf_printf(b, "<td class=\"n\">%.4g</td>", v);
 	} else {
 		sbuf_puts(b, "<td>");
-		sb_esc(b, s);
+		rh_esc(b, s);
 		sbuf_puts(b, "</td>");
 	}
 }
@@ -91,8 +91,7 @@ static int row_kind(const table *t, const cols *c, size_t r, int measured)
 /* One chart's data: the bars of one parcel. */
 typedef struct chart {
 	char *parcel, *split;
-	char **effects;
-	size_t ne;
+	strv effects;
 	rs_bar *bars;
 	double *dots;
 } chart;
@@ -106,39 +105,39 @@ typedef struct chart {
 static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measured, char **subs,
 		   size_t nsub, int *uid)
 {
-	char **tasks = NULL, **parcels = NULL;
-	size_t nt = 0, np = 0, r, ti, pi;
+	strv tasks = { 0 }, parcels = { 0 };
+	size_t r, ti, pi;
 
 	for (r = 0; r < t->nrows; r++)
 		if (row_kind(t, c, r, measured)) {
-			add_unique(&tasks, &nt, table_cell(t, r, (size_t)c->task));
-			add_unique(&parcels, &np, table_cell(t, r, (size_t)c->parcel));
+			add_unique(&tasks, table_cell(t, r, (size_t)c->task));
+			add_unique(&parcels, table_cell(t, r, (size_t)c->parcel));
 		}
-	if (!nt)
+	if (!tasks.n)
 		sbuf_printf(b, "<p class=\"note\">No %s rows in responses.csv.</p>\n",
 			  measured ? "measured-task (split all)" : "cross-validated (split :mean)");
-	for (ti = 0; ti < nt; ti++) {
-		chart *ch = xcalloc(np ? np : 1, sizeof *ch);
+	for (ti = 0; ti < tasks.n; ti++) {
+		chart *ch = xcalloc(parcels.n ? parcels.n : 1, sizeof *ch);
 		double lo = 0, hi = 0;
 
-		for (pi = 0; pi < np; pi++) {
+		for (pi = 0; pi < parcels.n; pi++) {
 			chart *h = &ch[pi];
 			size_t ei, k;
 
-			h->parcel = parcels[pi];
+			h->parcel = parcels.v[pi];
 			for (r = 0; r < t->nrows; r++)
 				if (row_kind(t, c, r, measured) &&
-				    !strcmp(table_cell(t, r, (size_t)c->task), tasks[ti]) &&
-				    !strcmp(table_cell(t, r, (size_t)c->parcel), parcels[pi])) {
-					add_unique(&h->effects, &h->ne, table_cell(t, r, (size_t)c->effect));
+				    !strcmp(table_cell(t, r, (size_t)c->task), tasks.v[ti]) &&
+				    !strcmp(table_cell(t, r, (size_t)c->parcel), parcels.v[pi])) {
+					add_unique(&h->effects, table_cell(t, r, (size_t)c->effect));
 					if (!h->split)
 						h->split = xstrdup(table_cell(t, r, (size_t)c->split));
 				}
-			if (!h->ne)
+			if (!h->effects.n)
 				continue;
-			h->bars = xcalloc(h->ne, sizeof *h->bars);
-			h->dots = xmalloc_array(h->ne * (nsub ? nsub : 1), sizeof *h->dots);
-			for (ei = 0; ei < h->ne; ei++) {
+			h->bars = xcalloc(h->effects.n, sizeof *h->bars);
+			h->dots = xmalloc_array(h->effects.n * (nsub ? nsub : 1), sizeof *h->dots);
+			for (ei = 0; ei < h->effects.n; ei++) {
 				double s = 0, ss = 0, *d = h->dots + ei * nsub;
 				size_t n = 0;
 
@@ -150,9 +149,9 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 					double v;
 
 					if (!row_kind(t, c, r, measured) ||
-					    strcmp(table_cell(t, r, (size_t)c->task), tasks[ti]) ||
-					    strcmp(table_cell(t, r, (size_t)c->parcel), parcels[pi]) ||
-					    strcmp(table_cell(t, r, (size_t)c->effect), h->effects[ei]))
+					    strcmp(table_cell(t, r, (size_t)c->task), tasks.v[ti]) ||
+					    strcmp(table_cell(t, r, (size_t)c->parcel), parcels.v[pi]) ||
+					    strcmp(table_cell(t, r, (size_t)c->effect), h->effects.v[ei]))
 						continue;
 					si = find(subs, nsub, table_cell(t, r, (size_t)c->subject));
 					v = strtod(table_cell(t, r, (size_t)c->value), &end);
@@ -167,7 +166,7 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 						lo = fmin(lo, d[k]);
 						hi = fmax(hi, d[k]);
 					}
-				h->bars[ei].label = h->effects[ei];
+				h->bars[ei].label = h->effects.v[ei];
 				h->bars[ei].mean = n ? s / (double)n : NAN;
 				for (k = 0; k < nsub; k++)
 					if (isfinite(d[k]))
@@ -183,49 +182,49 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 					hi = fmax(hi, h->bars[ei].mean + e);
 				}
 				sbuf_puts(sum, "<tr><td>");
-				sb_esc(sum, parcels[pi]);
+				rh_esc(sum, parcels.v[pi]);
 				sbuf_puts(sum, "</td><td>");
-				sb_esc(sum, h->split);
+				rh_esc(sum, h->split);
 				sbuf_puts(sum, "</td><td>");
-				sb_esc(sum, tasks[ti]);
+				rh_esc(sum, tasks.v[ti]);
 				sbuf_puts(sum, "</td><td>");
-				sb_esc(sum, h->effects[ei]);
+				rh_esc(sum, h->effects.v[ei]);
 				sbuf_printf(sum, "</td><td class=\"n\">%zu</td><td class=\"n\">", n);
-				sb_num(sum, h->bars[ei].mean);
+				rh_num(sum, h->bars[ei].mean);
 				sbuf_puts(sum, "</td><td class=\"n\">");
-				sb_num(sum, h->bars[ei].sem);
+				rh_num(sum, h->bars[ei].sem);
 				sbuf_puts(sum, "</td></tr>\n");
 			}
 		}
 		sbuf_puts(b, "<h3>Task ");
-		sb_esc(b, tasks[ti]);
+		rh_esc(b, tasks.v[ti]);
 		sbuf_puts(b, measured ? " (fROIs defined on all localizer runs)" : " (held-out runs, mean over splits)");
 		sbuf_puts(b, "</h3>\n<p class=\"note\">One y-scale for every parcel of this task, so bar heights compare across parcels.</p>\n");
 		sbuf_printf(b, "<div class=\"family\" data-task=\"");
-		sb_esc(b, tasks[ti]);
+		rh_esc(b, tasks.v[ti]);
 		sbuf_puts(b, "\">\n");
-		for (pi = 0; pi < np; pi++) {
+		for (pi = 0; pi < parcels.n; pi++) {
 			chart *h = &ch[pi];
 			char title[512];
 
-			if (!h->ne)
+			if (!h->effects.n)
 				continue;
-			snprintf(title, sizeof title, "%s \xe2\x80\x94 %s, %s", h->parcel, tasks[ti], h->split);
+			snprintf(title, sizeof title, "%s \xe2\x80\x94 %s, %s", h->parcel, tasks.v[ti], h->split);
 			sbuf_puts(b, "<figure>\n");
-			rs_bars(b, ++*uid, title, "percent signal change", h->bars, h->ne, lo, hi);
+			rs_bars(b, ++*uid, title, "percent signal change", h->bars, h->effects.n, lo, hi);
 			sbuf_puts(b, "</figure>\n");
 		}
 		sbuf_puts(b, "</div>\n");
-		for (pi = 0; pi < np; pi++) {
+		for (pi = 0; pi < parcels.n; pi++) {
 			free(ch[pi].bars);
 			free(ch[pi].dots);
 			free(ch[pi].split);
-			strv_free_array(ch[pi].effects, ch[pi].ne);
+			strv_free(&ch[pi].effects);
 		}
 		free(ch);
 	}
-	strv_free_array(tasks, nt);
-	strv_free_array(parcels, np);
+	strv_free(&tasks);
+	strv_free(&parcels);
 }
 
 /*
@@ -252,7 +251,7 @@ void table_html(sbuf *b, const table *t, const char *id, const char *const *firs
 	sbuf_printf(b, "<table id=\"%s\"><thead><tr>", id);
 	for (c = 0; c < n; c++) {
 		sbuf_puts(b, "<th>");
-		sb_esc(b, t->header[order[c]]);
+		rh_esc(b, t->header[order[c]]);
 		sbuf_puts(b, "</th>");
 	}
 	sbuf_puts(b, "</tr></thead><tbody>\n");
@@ -282,15 +281,15 @@ static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 			int bad = qc_overlap_flag(p->size_a, p->size_b, p->dice);
 
 			sbuf_printf(b, "<tr%s><td><a href=\"sub-", bad ? " class=\"flag\"" : "");
-			sb_esc(b, s->label);
+			rh_esc(b, s->label);
 			sbuf_puts(b, "/report.html\">sub-");
-			sb_esc(b, s->label);
+			rh_esc(b, s->label);
 			sbuf_puts(b, "</a></td><td>");
-			sb_esc(b, p->name);
+			rh_esc(b, p->name);
 			sbuf_puts(b, "</td><td class=\"n\">");
-			sb_num(b, p->size_a);
+			rh_num(b, p->size_a);
 			sbuf_puts(b, "</td><td class=\"n\">");
-			sb_num(b, p->size_b);
+			rh_num(b, p->size_b);
 			sbuf_puts(b, "</td><td class=\"n\">");
 			if (isfinite(p->dice))
 				sbuf_printf(b, "%.3f", p->dice);
@@ -339,12 +338,12 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 
 				/* the table holds participant_id (sub-<label>); older tables the bare label */
 				sbuf_puts(b, "<li><b class=\"sub\">sub-");
-				sb_esc(b, strncmp(lab, "sub-", 4) == 0 ? lab + 4 : lab);
+				rh_esc(b, strncmp(lab, "sub-", 4) == 0 ? lab + 4 : lab);
 				sbuf_puts(b, "</b> ");
-				sb_esc(b, st);
+				rh_esc(b, st);
 				if (cr >= 0 && *table_cell(&t, r, (size_t)cr)) {
 					sbuf_puts(b, ": ");
-					sb_esc(b, table_cell(&t, r, (size_t)cr));
+					rh_esc(b, table_cell(&t, r, (size_t)cr));
 				}
 				sbuf_puts(b, "</li>");
 			}
@@ -380,20 +379,19 @@ static long find_sorted(char **v, size_t n, const char *s)
  */
 static char **table_localizers(const table *t, size_t *n)
 {
-	char **v = NULL;
+	strv v = { 0 };
 	int c = table_col(t, "localizer");
 	size_t r;
 
 	*n = 0;
 	for (r = 0; c >= 0 && r < t->nrows; r++)
-		if (find(v, *n, table_cell(t, r, (size_t)c)) < 0)
-			add_unique(&v, n, table_cell(t, r, (size_t)c));
-	if (*n < 2) {
-		strv_free_array(v, *n);
-		*n = 0;
+		add_unique(&v, table_cell(t, r, (size_t)c));
+	if (v.n < 2) {
+		strv_free(&v);
 		return NULL;
 	}
-	return v;
+	*n = v.n;
+	return v.v;
 }
 
 /* The rows of t whose localizer is loc, as a view borrowing t's cells (table_view_release). */
@@ -425,22 +423,21 @@ static void table_view_release(table *view)
 static void localizer_heading(sbuf *b, const char *loc)
 {
 	sbuf_puts(b, "<h3 class=\"localizer\">Localizer ");
-	sb_esc(b, loc);
+	rh_esc(b, loc);
 	sbuf_puts(b, "</h3>\n");
 }
 
 /* One chart of the time courses: a parcel, split kind and task, with its conditions. */
 typedef struct tc_chart {
 	char *parcel, *split, *task;
-	char **cond;
-	size_t ncond;
+	strv cond;
 } tc_chart;
 
 /* The charts of timecourses_group.csv, in its row order. */
 static tc_chart *tc_charts(const table *g, const int *col, size_t *n)
 {
 	tc_chart *ch = NULL;
-	size_t r, k;
+	size_t r, k, cap = 0;
 
 	*n = 0;
 	for (r = 0; r < g->nrows; r++) {
@@ -451,15 +448,14 @@ static tc_chart *tc_charts(const table *g, const int *col, size_t *n)
 			if (!strcmp(ch[k].parcel, p) && !strcmp(ch[k].split, s) && !strcmp(ch[k].task, t))
 				break;
 		if (k == *n) {
-			ch = xrealloc(ch, (*n + 1) * sizeof *ch);
+			XGROW(ch, *n, cap);
 			memset(&ch[*n], 0, sizeof *ch);
 			ch[*n].parcel = xstrdup(p);
 			ch[*n].split = xstrdup(s);
 			ch[*n].task = xstrdup(t);
 			(*n)++;
 		}
-		if (find(ch[k].cond, ch[k].ncond, c) < 0)
-			add_unique(&ch[k].cond, &ch[k].ncond, c);
+		add_unique(&ch[k].cond, c);
 	}
 	return ch;
 }
@@ -559,8 +555,8 @@ static void timecourse_section(sbuf *b, const char *out, int *uid)
 /* The charts of one set of time-course rows (all of them, or one localizer's). */
 static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, const int *ac, int *uid)
 {
-	char **times = NULL, **subs = NULL;
-	size_t nb = 0, ns = 0, nch, k, r, q;
+	strv times = { 0 }, subs = { 0 };
+	size_t nb, ns, nch, k, r, q;
 	int have_all = allp != NULL;
 	const table g = *gp, all = allp ? *allp : *gp;
 	tc_chart *ch;
@@ -568,29 +564,29 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 	double *tv;
 
 	for (r = 0; r < g.nrows; r++)
-		if (find(times, nb, table_cell(&g, r, (size_t)gc[4])) < 0)
-			add_unique(&times, &nb, table_cell(&g, r, (size_t)gc[4]));
+		add_unique(&times, table_cell(&g, r, (size_t)gc[4]));
 	for (r = 0; have_all && r < all.nrows; r++)   /* rows come subject by subject */
-		if (!ns || strcmp(subs[ns - 1], table_cell(&all, r, (size_t)ac[6])) != 0)
-			add_unique(&subs, &ns, table_cell(&all, r, (size_t)ac[6]));
-	if (ns)
-		qsort(subs, ns, sizeof *subs, strv_cmp);
+		if (!subs.n || strcmp(subs.v[subs.n - 1], table_cell(&all, r, (size_t)ac[6])) != 0)
+			add_unique(&subs, table_cell(&all, r, (size_t)ac[6]));
+	strv_sort(&subs);
+	nb = times.n;
+	ns = subs.n;
 	ch = tc_charts(&g, gc, &nch);
 	cvs = xcalloc(nch ? nch : 1, sizeof *cvs);
 	tv = xmalloc_array(nb ? nb : 1, sizeof *tv);
 	for (q = 0; q < nb; q++)
-		tv[q] = strtod(times[q], NULL);
+		tv[q] = strtod(times.v[q], NULL);
 	for (k = 0; k < nch; k++) {
-		rs_curve *cv = cvs[k] = xcalloc(ch[k].ncond ? ch[k].ncond : 1, sizeof *cv);
+		rs_curve *cv = cvs[k] = xcalloc(ch[k].cond.n ? ch[k].cond.n : 1, sizeof *cv);
 
-		for (q = 0; q < ch[k].ncond; q++) {
+		for (q = 0; q < ch[k].cond.n; q++) {
 			double *mean = xmalloc_array(nb ? nb : 1, sizeof *mean);
 			double *sem = xmalloc_array(nb ? nb : 1, sizeof *sem);
 			double *subj = xmalloc_array((nb * ns) > 0 ? nb * ns : 1, sizeof *subj);
 
-			tc_fill(&g, gc, have_all ? &all : NULL, ac, &ch[k], ch[k].cond[q], times, nb, subs, ns, mean,
+			tc_fill(&g, gc, have_all ? &all : NULL, ac, &ch[k], ch[k].cond.v[q], times.v, nb, subs.v, ns, mean,
 				sem, subj);
-			cv[q].label = ch[k].cond[q];
+			cv[q].label = ch[k].cond.v[q];
 			cv[q].mean = mean;
 			cv[q].sem = sem;
 			cv[q].subj = subj;
@@ -607,14 +603,14 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 		/* one y-range per task and split kind, so a flat parcel looks flat */
 		for (o = 0; o < nch; o++)
 			if (!strcmp(ch[o].task, ch[k].task) && !strcmp(ch[o].split, ch[k].split))
-				rs_curves_range(cvs[o], ch[o].ncond, nb, &lo, &hi);
+				rs_curves_range(cvs[o], ch[o].cond.n, nb, &lo, &hi);
 		snprintf(title, sizeof title, "%s, %s (%s)", ch[k].parcel, ch[k].task, ch[k].split);
-		rs_curves(b, ++*uid, title, tv, nb, cv, ch[k].ncond, lo, hi);
+		rs_curves(b, ++*uid, title, tv, nb, cv, ch[k].cond.n, lo, hi);
 	}
 	for (k = 0; k < nch; k++) {
 		rs_curve *cv = cvs[k];
 
-		for (q = 0; q < ch[k].ncond; q++) {
+		for (q = 0; q < ch[k].cond.n; q++) {
 			free((double *)cv[q].mean);
 			free((double *)cv[q].sem);
 			free((double *)cv[q].subj);
@@ -623,14 +619,14 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 		free(ch[k].parcel);
 		free(ch[k].split);
 		free(ch[k].task);
-		strv_free_array(ch[k].cond, ch[k].ncond);
+		strv_free(&ch[k].cond);
 	}
 	sbuf_puts(b, "</div>\n");
 	free(ch);
 	free(cvs);
 	free(tv);
-	strv_free_array(times, nb);
-	strv_free_array(subs, ns);
+	strv_free(&times);
+	strv_free(&subs);
 }
 
 /* The group summary of reliability.csv (reliability_group.csv) as a table. */
@@ -690,14 +686,14 @@ static void contents_nav(sbuf *b, char **labels, const rsub *subs, size_t nsub)
 		if (!subs[i].ok) {
 			/* no link to a page that was not written (or is stale) */
 			sbuf_puts(b, " sub-");
-			sb_esc(b, labels[i]);
+			rh_esc(b, labels[i]);
 			sbuf_puts(b, " <span class=\"flag\">(no page: see the command's messages)</span>");
 			continue;
 		}
 		sbuf_puts(b, " <a href=\"sub-");
-		sb_esc(b, labels[i]);
+		rh_esc(b, labels[i]);
 		sbuf_puts(b, "/report.html\">sub-");
-		sb_esc(b, labels[i]);
+		rh_esc(b, labels[i]);
 		sbuf_puts(b, "</a>");
 	}
 	sbuf_puts(b, "</nav>\n");
@@ -723,32 +719,32 @@ static int response_columns(const table *resp, cols *c)
 /* The cross-validated and measured-task charts, each localizer apart; their numbers into sum. */
 static void response_charts(sbuf *b, sbuf *sum, const table *resp, const cols *c, int *uid)
 {
-	char **sl = NULL, **locs;
-	size_t ns = 0, r, nl;
+	strv sl = { 0 };
+	char **locs;
+	size_t r, nl;
 
 	for (r = 0; r < resp->nrows; r++)
-		add_unique(&sl, &ns, table_cell(resp, r, (size_t)c->subject));
-	if (ns)   /* no rows when every subject failed: qsort wants a real array */
-		qsort(sl, ns, sizeof *sl, strv_cmp);
+		add_unique(&sl, table_cell(resp, r, (size_t)c->subject));
+	strv_sort(&sl);
 	locs = table_localizers(resp, &nl);
 	for (int measured = 0; measured < 2; measured++) {
 		if (measured)
 			sbuf_puts(b, "<h2 id=\"measured\">Measured tasks</h2>\n<p class=\"note\">fROIs defined on all localizer runs, "
 				   "responses in the other task's runs (split all).</p>\n");
 		if (nl == 0)
-			charts(b, sum, resp, c, measured, sl, ns, uid);
+			charts(b, sum, resp, c, measured, sl.v, sl.n, uid);
 		for (size_t l = 0; l < nl; l++) {
 			table v;
 
 			/* several localizers: each one's fROIs apart (their parcels may share names) */
 			localizer_heading(b, locs[l]);
 			table_where_localizer(resp, locs[l], &v);
-			charts(b, sum, &v, c, measured, sl, ns, uid);
+			charts(b, sum, &v, c, measured, sl.v, sl.n, uid);
 			table_view_release(&v);
 		}
 	}
 	strv_free_array(locs, nl);
-	strv_free_array(sl, ns);
+	strv_free(&sl);
 }
 
 /* group.csv as a table, or a note that there is none. */

@@ -21,15 +21,15 @@ int report_write(const char *out, int quiet);
 	"halves' fROIs, likewise; n_above: parcel voxels with define t above 3.1 (a mean over the splits on :mean rows)."
 
 
-/* ---- report_html.c: a growing text buffer and the page frame ---- */
+/* ---- html.c (rh_): escaping, base64 data URIs, numbers and the page frame ---- */
 
 /* the buffer itself (sbuf, sbuf_init, sbuf_puts, sbuf_printf ...) is core/sbuf.h */
 /* Appends s with &, <, >, " and ' escaped (safe in text and attribute values). */
-void sb_esc(sbuf *b, const char *s);
+void rh_esc(sbuf *b, const char *s);
 /* Appends "data:image/png;base64,..." for n bytes of PNG data. */
-void sb_data_uri(sbuf *b, const unsigned char *png, size_t n);
+void rh_data_uri(sbuf *b, const unsigned char *png, size_t n);
 /* Appends a number as %.4g, or an en dash for NaN. */
-void sb_num(sbuf *b, double v);
+void rh_num(sbuf *b, double v);
 
 /* Opens a page: doctype, title, the embedded style sheet, header with a back link (NULL for none). */
 void rh_begin(sbuf *b, const char *title, const char *subtitle, const char *back_href,
@@ -39,7 +39,7 @@ void rh_end(sbuf *b, const char *study_file);
 /* Writes the buffer to path atomically. */
 sr_status rh_write(const char *path, const sbuf *b, sr_err *e);
 
-/* ---- report_svg.c: charts as inline SVG (self-contained, patterns as well as hues) ---- */
+/* ---- svg.c (rs_): charts as inline SVG (self-contained, patterns as well as hues) ---- */
 
 /* One bar: mean and standard error over subjects, and each subject's value as a dot. */
 typedef struct rs_bar {
@@ -90,7 +90,7 @@ void rs_colorbar(sbuf *b, int id, double lo, double hi, const char *label);
 void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const double *val,
 	       size_t nrows, double tr, double vt, const double *const *marks, const size_t *nmarks);
 
-/* ---- report_sub.c: one subject's page ---- */
+/* ---- subpage.c (rsub_): one subject's page ---- */
 
 /* A subject's overlap and motion summary for the study page. */
 typedef struct rsub_parcel {

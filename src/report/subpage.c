@@ -1,4 +1,4 @@
-/* report_sub.c - one subject's report page: fROI slices, t maps, overlap, design matrices, motion. */
+/* subpage.c - one subject's report page: fROI slices, t maps, overlap, design matrices, motion. */
 #include <dirent.h>
 #include <ctype.h>
 #include <math.h>
@@ -48,7 +48,7 @@ static char **list_dir(const char *dir, const char *prefix, const char *suffix, 
 	DIR *d = opendir(dir);
 	struct dirent *de;
 	char **v = NULL;
-	size_t lp = strlen(prefix), ls = strlen(suffix);
+	size_t lp = strlen(prefix), ls = strlen(suffix), cap = 0;
 
 	*n = 0;
 	if (!d)
@@ -58,7 +58,7 @@ static char **list_dir(const char *dir, const char *prefix, const char *suffix, 
 
 		if (l <= lp + ls || strncmp(de->d_name, prefix, lp) || strcmp(de->d_name + l - ls, suffix))
 			continue;
-		v = xrealloc(v, (*n + 1) * sizeof *v);
+		XGROW(v, *n, cap);
 		v[*n] = xmalloc(l - lp - ls + 1);
 		memcpy(v[*n], de->d_name + lp, l - lp - ls);
 		v[*n][l - lp - ls] = 0;
@@ -114,7 +114,7 @@ static char *dirname_of(const char *p)
 static void load_parcels(page *pg)
 {
 	char *names = runrec_ini_get(pg->rec.study_text, "parcels", "names");
-	size_t i, v, k;
+	size_t i, v, k, capidx = 0, capname = 0;
 
 	if (names && pg->rec.study_file) {
 		char *base = dirname_of(pg->rec.study_file), path[8192];
@@ -151,8 +151,8 @@ static void load_parcels(page *pg)
 				;
 			if (i < pg->np)
 				continue;
-			pg->pidx = xrealloc(pg->pidx, (pg->np + 1) * sizeof *pg->pidx);
-			pg->pname = xrealloc(pg->pname, (pg->np + 1) * sizeof *pg->pname);
+			XGROW(pg->pidx, pg->np, capidx);
+			XGROW(pg->pname, pg->np, capname);
 			pg->pidx[pg->np] = l;
 			pg->pname[pg->np] = xmalloc(16);
 			snprintf(pg->pname[pg->np++], 16, "%d", (int)l);
@@ -203,7 +203,7 @@ static void load_maps(page *pg, sr_err *e)
 {
 	char mdir[4200], path[8400], prefix[256], loc0[64];
 	char **tok;
-	size_t n, i, pass, l0;
+	size_t n, i, pass, l0, cap = 0;
 
 	snprintf(mdir, sizeof mdir, "%s/func", pg->dir);
 	snprintf(prefix, sizeof prefix, "sub-%s_", pg->label);
@@ -229,7 +229,7 @@ static void load_maps(page *pg, sr_err *e)
 			d = read_on_grid(pg, path, e);
 			if (!d)
 				continue;
-			pg->maps = xrealloc(pg->maps, (pg->nmaps + 1) * sizeof *pg->maps);
+			XGROW(pg->maps, pg->nmaps, cap);
 			m = &pg->maps[pg->nmaps++];
 			m->token = xstrdup(desc);
 			m->lab = to_labels(d, pg->nvox);
@@ -342,7 +342,7 @@ static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label
 		sbuf_printf(b, "<div class=\"slice\"><span></span><span class=\"o t\">%c</span><span></span>"
 			  "<span class=\"o l\">%c</span><img width=\"%d\" height=\"%d\" alt=\"slice k=%zu\" src=\"",
 			  qc_axis_letter(A, 1, 1, NULL), qc_axis_letter(A, 0, -1, NULL), W, H, k);
-		sb_data_uri(b, png, npng);
+		rh_data_uri(b, png, npng);
 		sbuf_printf(b, "\"><span class=\"o r\">%c</span><span></span><span class=\"o b\">%c</span><span></span>"
 			  "<span class=\"z\">k = %zu</span></div>\n",
 			  qc_axis_letter(A, 0, 1, NULL), qc_axis_letter(A, 1, -1, NULL), k);
@@ -382,7 +382,7 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 	free(uni);
 	sbuf_puts(b, "<h3 id=\"parcel-");
 	sbuf_printf(b, "%d\">Parcel ", (int)label);
-	sb_esc(b, pg->pname[pi]);
+	rh_esc(b, pg->pname[pi]);
 	sbuf_puts(b, "</h3>\n");
 	if (!ns) {
 		sbuf_puts(b, "<p class=\"note\">No fROI voxels in any split.</p>\n");
@@ -394,7 +394,7 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 		for (v = 0; v < pg->nvox; v++)
 			cnt += pg->maps[k].lab[v] == label;
 		sbuf_puts(b, "<figure><figcaption><b>");
-		sb_esc(b, pg->maps[k].token);
+		rh_esc(b, pg->maps[k].token);
 		sbuf_printf(b, "</b>: fROI (hatched), %zu voxels%s</figcaption>\n<div class=\"strip\">\n", cnt,
 			  pg->parcels ? "; parcel outline dashed" : "");
 		for (j = 0; j < ns; j++)
@@ -402,7 +402,7 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 		sbuf_puts(b, "</div></figure>\n");
 		if (pg->maps[k].t) {
 			sbuf_puts(b, "<figure><figcaption><b>");
-			sb_esc(b, pg->maps[k].token);
+			rh_esc(b, pg->maps[k].token);
 			sbuf_puts(b, "</b>: localizer t (fROI outlined white)</figcaption>\n<div class=\"strip\">\n");
 			for (j = 0; j < ns; j++)
 				emit_slice(pg, b, sl[j], &pg->maps[k], label, DRAW_T, tlo, thi, glo, ghi);
@@ -421,7 +421,7 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 	sbuf_puts(b, "<table id=\"overlap\"><thead><tr><th>parcel</th>");
 	for (k = 0; k < pg->nmaps; k++) {
 		sbuf_puts(b, "<th>voxels ");
-		sb_esc(b, pg->maps[k].token);
+		rh_esc(b, pg->maps[k].token);
 		sbuf_puts(b, "</th>");
 	}
 	sbuf_puts(b, "<th>Dice</th><th>check</th></tr></thead><tbody>\n");
@@ -462,7 +462,7 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 		rp->dice = npair ? dsum / (double)npair : NAN;
 		bad = qc_overlap_flag(rp->size_a, rp->size_b, rp->dice);
 		sbuf_printf(b, "<tr%s><td>", bad ? " class=\"flag\"" : "");
-		sb_esc(b, rp->name);
+		rh_esc(b, rp->name);
 		sbuf_puts(b, "</td>");
 		for (k = 0; k < pg->nmaps; k++) {
 			size_t v, c = 0;
@@ -554,13 +554,13 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 	sr_err_init(&e, NULL, NULL);
 	if (table_read(path, ',', &t, &e)) {
 		sbuf_puts(b, "<p class=\"note\">");
-		sb_esc(b, e.msg);
+		rh_esc(b, e.msg);
 		sbuf_puts(b, "</p>\n");
 		return;
 	}
 	if (!t.nrows || !t.ncols) {
 		sbuf_puts(b, "<p class=\"note\">");
-		sb_esc(b, path);
+		rh_esc(b, path);
 		sbuf_puts(b, ": no rows, so no figure.</p>\n");
 		table_release(&t);
 		return;
@@ -608,7 +608,7 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 			free(rows);
 		}
 	sbuf_puts(b, "<figure class=\"design\"><figcaption><b>");
-	sb_esc(b, name);
+	rh_esc(b, name);
 	sbuf_printf(b, "</b>: %zu volumes &times; %zu columns%s; each trace scaled to its own range", t.nrows, t.ncols,
 		  isfinite(tr) && tr > 0 ? "" : " (TR unknown: x in volumes)");
 	if (ncond && from_events)
@@ -645,19 +645,14 @@ static void designs(page *pg, sbuf *b)
 	strv_free_array(names, n);
 }
 
-/* Splits a space/comma separated list. */
+/* Splits a space/comma separated list (empty pieces dropped); free with strv_free_array. */
 static char **words(const char *s, size_t *n)
 {
-	char *c = xstrdup(s ? s : ""), *tok, *save = NULL;
-	char **v = NULL;
+	strv v = { 0 };
 
-	*n = 0;
-	for (tok = strtok_r(c, " ,\t", &save); tok; tok = strtok_r(NULL, " ,\t", &save)) {
-		v = xrealloc(v, (*n + 1) * sizeof *v);
-		v[(*n)++] = xstrdup(tok);
-	}
-	free(c);
-	return v;
+	strv_split(&v, s ? s : "", " ,\t", 0);
+	*n = v.n;
+	return v.v;
 }
 
 static void motion(page *pg, rsub *s, sbuf *b)
@@ -701,7 +696,7 @@ static void motion(page *pg, rsub *s, sbuf *b)
 			sr_err_init(&e, NULL, NULL);
 			if (table_read(run->confounds, 0, &t, &e)) {
 				sbuf_puts(&charts, "<p class=\"note\">");
-				sb_esc(&charts, e.msg);
+				rh_esc(&charts, e.msg);
 				sbuf_puts(&charts, "</p>\n");
 				continue;
 			}
@@ -709,9 +704,9 @@ static void motion(page *pg, rsub *s, sbuf *b)
 				if ((ci[j] = table_col(&t, cols[j])) < 0 && ok) {
 					ok = 0;
 					sbuf_puts(&charts, "<p class=\"note\"><span class=\"flag\">&#9873;</span> ");
-					sb_esc(&charts, run->confounds);
+					rh_esc(&charts, run->confounds);
 					sbuf_puts(&charts, ": no column ");
-					sb_esc(&charts, cols[j]);
+					rh_esc(&charts, cols[j]);
 					sbuf_puts(&charts, " ([model] motion), so no FD for this run.</p>\n");
 				}
 			if (!ok || !t.nrows) {
@@ -735,16 +730,16 @@ static void motion(page *pg, rsub *s, sbuf *b)
 			if (mean > threshold)
 				s->nruns_flagged++;
 			sbuf_printf(b, "<tr%s><td>", mean > threshold ? " class=\"flag\"" : "");
-			sb_esc(b, run->task);
+			rh_esc(b, run->task);
 			sbuf_puts(b, "</td><td>");
-			sb_esc(b, run->run);
+			rh_esc(b, run->run);
 			sbuf_printf(b, "</td><td class=\"n\">%zu</td><td class=\"n\">%.3f</td><td class=\"n\">%.3f</td><td class=\"n\">%zu</td><td>%s</td></tr>\n",
 				  t.nrows, mean, max, nabove,
 				  mean > threshold ? "<span class=\"flag\">&#9873; mean FD above threshold</span>" : "ok");
 			sbuf_puts(&charts, "<figure><figcaption><b>task ");
-			sb_esc(&charts, run->task);
+			rh_esc(&charts, run->task);
 			sbuf_puts(&charts, ", run ");
-			sb_esc(&charts, run->run);
+			rh_esc(&charts, run->run);
 			sbuf_printf(&charts, "</b>: mean FD %.3f mm, max %.3f mm%s</figcaption>\n", mean, max,
 				  mean > threshold ? " &mdash; <span class=\"flag\">&#9873; flagged</span>" : "");
 			rs_fd(&charts, ++pg->uid, fd, t.nrows, run->tr, threshold);
@@ -776,14 +771,14 @@ static void responses(page *pg, sbuf *b)
 	sr_err_init(&e, NULL, NULL);
 	if (table_read(path, ',', &t, &e)) {
 		sbuf_puts(b, "<p class=\"note\">");
-		sb_esc(b, e.msg);
+		rh_esc(b, e.msg);
 		sbuf_puts(b, "</p>\n");
 		return;
 	}
 	sbuf_puts(b, "<div class=\"wide\"><table id=\"responses\"><thead><tr>");
 	for (c = 0; c < t.ncols; c++) {
 		sbuf_puts(b, "<th>");
-		sb_esc(b, t.header[c]);
+		rh_esc(b, t.header[c]);
 		sbuf_puts(b, "</th>");
 	}
 	sbuf_puts(b, "</tr></thead><tbody>\n");
@@ -802,7 +797,7 @@ static void responses(page *pg, sbuf *b)
 			if (num)
 				sbuf_printf(b, "%.4g", v);
 			else
-				sb_esc(b, cell);
+				rh_esc(b, cell);
 			sbuf_puts(b, "</td>");
 		}
 		sbuf_puts(b, "</tr>\n");

@@ -1,4 +1,4 @@
-/* report_svg.c - the report's charts as inline SVG: bars with dots, FD traces, colour bar, design. */
+/* svg.c - the report's charts as inline SVG: bars with dots, FD traces, colour bar, design. */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -61,7 +61,7 @@ static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double to
 		  bottom);
 	sbuf_printf(b, "<text transform=\"translate(%.1f %.1f) rotate(-90)\" font-size=\"11\" text-anchor=\"middle\">",
 		  x0 - 40, (top + bottom) / 2);
-	sb_esc(b, label);
+	rh_esc(b, label);
 	sbuf_puts(b, "</text>\n");
 }
 
@@ -96,11 +96,11 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 		hi = fmax(hi, yhi);
 	sbuf_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"bars\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"",
 		  w, h, w, h);
-	sb_esc(b, title);
+	rh_esc(b, title);
 	sbuf_puts(b, "\">\n");
 	patterns(b, id);
 	sbuf_printf(b, "<text x=\"%.1f\" y=\"17\" font-size=\"13\" font-weight=\"600\">", left - 50);
-	sb_esc(b, title);
+	rh_esc(b, title);
 	sbuf_puts(b, "</text>\n");
 	yaxis(b, lo, hi, left, w - right, top, h - bottom, ylabel, &tlo, &thi, &ystep);
 	/* bar values two digits finer than the axis steps (steps of 1 give 2.05), never 5.26e-05 */
@@ -133,7 +133,7 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 		}
 		sbuf_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">", x + bw / 2,
 			  h - bottom + 16);
-		sb_esc(b, bars[i].label);
+		rh_esc(b, bars[i].label);
 		sbuf_printf(b, "</text><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"middle\" fill=\"#5b6470\">",
 			  x + bw / 2, h - bottom + 30);
 		if (isfinite(bars[i].mean)) {
@@ -227,7 +227,7 @@ void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
 			  x, x, x, tl);
 	}
 	sbuf_printf(b, "<text x=\"%.1f\" y=\"48\" font-size=\"11\">", x0);
-	sb_esc(b, label);
+	rh_esc(b, label);
 	sbuf_puts(b, "</text>\n</svg>\n");
 }
 
@@ -289,9 +289,9 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 		y0 = y + trace;   /* bottom of the trace band */
 		y1 = y + 2;       /* top */
 		sbuf_printf(b, "<g class=\"trace\" data-kind=\"%s\" data-column=\"", kind_name[kc]);
-		sb_esc(b, names[c]);
+		rh_esc(b, names[c]);
 		sbuf_printf(b, "\"><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">", left - 8, y + trace / 2 + 4);
-		sb_esc(b, names[c]);
+		rh_esc(b, names[c]);
 		sbuf_printf(b, "</text><line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#d9d4c7\" stroke-width=\"0.6\"/>",
 			  left, y0, w - right, y0);
 		sbuf_printf(b, "<polyline fill=\"none\" stroke=\"%s\" stroke-width=\"1.3\" points=\"", kind_line[kc]);
@@ -399,9 +399,9 @@ void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb
 		hi = lo + 1;
 	sbuf_printf(b, "<svg class=\"chart\" id=\"tc%d\" xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" "
 		  "viewBox=\"0 0 %.0f %.0f\" role=\"img\"><title>", id, w, h, w, h);
-	sb_esc(b, title);
+	rh_esc(b, title);
 	sbuf_printf(b, "</title><text x=\"%.0f\" y=\"18\" font-size=\"13\" font-weight=\"bold\">", left);
-	sb_esc(b, title);
+	rh_esc(b, title);
 	sbuf_puts(b, "</text>\n");
 	yaxis(b, lo, hi, left, w - right, top, h - bottom, "percent signal change", &tlo, &thi, NULL);
 	sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>\n", left,
@@ -448,7 +448,7 @@ void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb
 			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\">", w - right + 10, top + 10 + 18.0 * k,
 			  w - right + 34, top + 10 + 18.0 * k, col, dash[k % 5][0] ? " stroke-dasharray=\"" : "",
 			  dash[k % 5], dash[k % 5][0] ? "\"" : "", w - right + 38, top + 14 + 18.0 * k);
-		sb_esc(b, c[k].label);
+		rh_esc(b, c[k].label);
 		sbuf_puts(b, "</text>\n");
 		free(up);
 		free(dn);

@@ -30,11 +30,11 @@ static void test_names(void)
 	c.warns = &warns;
 	memset(seen, 0, sizeof seen);
 	seen[0].nruns = 2;
-	seen[0].conds = conds_a;
-	seen[0].nconds = 2;
+	seen[0].conds.v = conds_a;
+	seen[0].conds.n = 2;
 	seen[1].nruns = 2;
-	seen[1].conds = conds_b;
-	seen[1].nconds = 1;
+	seen[1].conds.v = conds_b;
+	seen[1].conds.n = 1;
 	CHECK(expr_parse("melody - scrambld", &fx[0], msg, sizeof msg) == 0, "the first effect parses %s", msg);
 	CHECK(expr_parse("scrambled - scrambld", &fx[1], msg, sizeof msg) == 0, "the second effect parses %s", msg);
 
