@@ -10,12 +10,13 @@
 #include <unistd.h>
 
 #include "../core/mem.h"
-#include "../core/strv.h"
 #include "../core/sbuf.h"
+#include "../core/strv.h"
 #include "../io/afile.h"
 #include "../io/bids.h"
 #include "../io/nii.h"
 #include "../io/study.h"
+#include "../pipeline/runfit.h"
 #include "../pipeline/studyset.h"
 #include "cmd.h"
 #include "cmdline.h"
@@ -70,32 +71,35 @@ static const cmdline_spec spec = {
 /*
  * Memory and time per subject task, measured with GNU time (`/usr/bin/time -f %M`)
  * on `splitroi analyze STUDY --subjects 01 --threads T --no-group --quiet` for
- * studies from `splitroi simulate` (float32 .nii.gz, 120 volumes a run; runs =
- * localizer plus measured task), on a 2-core x86-64 virtual machine (24 GiB,
- * Debian 12), 2026-12-01:
+ * studies from `splitroi simulate` (float32 .nii.gz; runs = localizer plus
+ * measured task), on a 2-core x86-64 virtual machine (24 GiB, Debian 12).
+ * Memory, 2026-12-03 (200 volumes a run; the kept series wait in a temporary
+ * file, so the volumes do not count):
  *
- *   grid                       voxels   runs  threads  peak RSS    wall
- *   small    24x28x20           13440     6      1      21.1 MiB   0.27 s
- *   small    24x28x20           13440     6      2      27.5 MiB   0.41 s
- *   standard 91x109x91         902629     4      1     591.0 MiB  11.4 s
- *   standard 91x109x91         902629     4      2     893.5 MiB  15.9 s
- *   standard 91x109x91         902629     6      1     730.4 MiB  21.8 s
- *   standard 91x109x91         902629     6      2    1038.7 MiB  33.1 s
+ *   grid                       voxels   runs  threads  peak RSS
+ *   small    24x28x20           13440     6      1      13.7 MiB
+ *   small    24x28x20           13440     6      2      17.6 MiB
+ *   standard 91x109x91         902629     4     1, 2   339.6 MiB
+ *   standard 91x109x91         902629     6     1, 2   357.5 MiB
  *
- * Each run kept adds ~81 bytes a voxel ((730.4 - 591.0) MiB / 2 runs / 902629),
- * each run being fitted at once (one per thread) ~350 bytes a voxel (the 2- vs
- * 1-thread rows: +303 and +308 MiB), on ~10 MiB of program, so
- *   bytes = 10 MiB + voxels * (81 * runs + 350 * min(threads, runs))
- * which gives 25.5, 593, 1031 MiB for the rows above (within 2 MiB but for the
- * small 2-thread row, 2 MiB under). The suggestion adds 50% headroom and rounds up
- * to a whole 256 MiB. Time: ~3.3e-8 s a voxel-volume of wall time at one thread
- * (21.8 s / (902629 * 6 * 120)); a second thread did not help on this machine, so
- * the suggestion does not divide by the CPUs, takes 4x headroom (shared nodes and
- * file systems are slower) and never asks for less than 30 minutes.
+ * Each run kept adds ~20 bytes a voxel (a localizer run keeps its selection
+ * contrast on the whole grid, 16 bytes, and the rest at the parcel voxels; a
+ * measured run ~10), each run being fitted at once ~303 bytes a voxel (its
+ * sums, 2 rank doubles a voxel, and running sums), on ~10 MiB of program.
+ * Runs are fitted side by side only while together they hold at most 2^20
+ * voxels (RUNFIT_SIDE_VOXELS), so
+ *   bytes = 10 MiB + voxels * (20 * runs + 303 * min(threads, runs, 2^20 / voxels))
+ * which gives 15.4, 19.3, 339.6, 374.0 MiB for the rows above (at or above each).
+ * The suggestion adds 50% headroom and rounds up to a whole 256 MiB.
+ * Time, 2026-12-01 (120 volumes a run): ~3.3e-8 s a voxel-volume of wall time
+ * at one thread (21.8 s / (902629 * 6 * 120)); a second thread did not help on
+ * this machine, so the suggestion does not divide by the CPUs, takes 4x
+ * headroom (shared nodes and file systems are slower) and never asks for less
+ * than 30 minutes.
  */
 #define MEM_BASE (10.0 * 1024 * 1024)
-#define MEM_PER_VOXEL_RUN 81.0
-#define MEM_PER_VOXEL_THREAD 350.0
+#define MEM_PER_VOXEL_RUN 20.0
+#define MEM_PER_VOXEL_THREAD 303.0
 #define TIME_PER_VOXEL_VOLUME_S 3.3e-8
 
 /* What one subject's runs weigh: the inputs of the suggestion. */
@@ -211,7 +215,13 @@ static sr_status subject_sizes(const study *st, const char *label, sizes *z, sr_
 /* The memory model above, 50% headroom, in whole 256 MiB steps; returned in MiB. */
 static long suggest_mem_mib(const sizes *z, long cpus)
 {
+	double side = floor((double)RUNFIT_SIDE_VOXELS / (z->voxels > 1 ? z->voxels : 1));
 	double inflight = (double)cpus < z->runs ? (double)cpus : z->runs;
+
+	if (side < 1)
+		side = 1;
+	if (inflight > side)
+		inflight = side;
 	double bytes = (MEM_BASE + z->voxels * (MEM_PER_VOXEL_RUN * z->runs +
 						MEM_PER_VOXEL_THREAD * inflight)) * 1.5;
 	double mib = ceil(bytes / (256.0 * 1024 * 1024)) * 256.0;

@@ -212,8 +212,8 @@ PY
 expect_time() { # K: minutes = ceil(4 * 3.3e-8 s * K subjects * 6 runs * 163840 voxels * 20000 volumes / 60)
 	"$PYTHON" -c "import math; m = math.ceil(4 * 3.3e-8 * $1 * 6 * 64 * 64 * 40 * 20000 / 60); print('%d:%02d:00' % (m // 60, m % 60))"
 }
-expect_mem() { # 1.5 * (10 MiB + 163840 * (81 * 6 runs + 350 * 2 threads)) in whole 256 MiB
-	"$PYTHON" -c "import math; print('%dM' % (256 * math.ceil(1.5 * (10 * 2**20 + 163840 * (81 * 6 + 350 * 2)) / 2**28)))"
+expect_mem() { # 1.5 * (10 MiB + 163840 * (20 * 6 runs + 303 * min(2 threads, 6 runs, 2^20 / 163840 side by side))) in whole 256 MiB
+	"$PYTHON" -c "import math; print('%dM' % (256 * math.ceil(1.5 * (10 * 2**20 + 163840 * (20 * 6 + 303 * min(2, 6, 2**20 // 163840))) / 2**28)))"
 }
 for k in 1 2; do
 	run env PATH="$TMP/nobin" "$SPLITROI" slurm "$TMP/long/study.ini" --out "$TMP/long/res" --per-task $k
