@@ -186,10 +186,7 @@ static sr_status read_image(const char *image, parcels_set *p, sr_err *e)
 			;
 		if (k < p->n)
 			continue;
-		if ((size_t)p->n == cap) {
-			cap = cap ? 2 * cap : 16;
-			p->index = xrealloc(p->index, cap * sizeof *p->index);
-		}
+		XGROW(p->index, (size_t)p->n, cap);
 		p->index[p->n++] = l;
 	}
 	if (p->n)   /* qsort wants a real array even for no elements */

@@ -474,6 +474,40 @@ static void slim(const runfit_spec *spec, runfit_result *res)
 	res->slim = 1;
 }
 
+/*
+ * Where the kept voxels' series go while the run streams: a temporary file
+ * (spill_series), else memory, as float32 when that is exact.
+ */
+static sr_status keep_setup(const runfit_spec *spec, int T, size_t nvox, runfit_result *res, vol_queue *q,
+			    sr_err *e)
+{
+	int f32 = series_as_float32(&res->info, spec->smoothing_fwhm);
+	size_t i, width = f32 ? sizeof(float) : sizeof(double);
+
+	for (i = 0; i < spec->nkeep; i++)
+		if (spec->keep[i] >= nvox)
+			return sr_fail(e, SR_EINVAL, "%s: a kept voxel lies outside the run's grid", spec->bold);
+	res->series_f32 = f32;
+	if (spill_series())
+		res->series_file = rowfile_new(spec->nkeep * width);
+	if (res->series_file) {
+		q->spill = res->series_file;
+		q->bold = spec->bold;
+		q->spill32 = f32;
+		q->row = xmalloc_array(spec->nkeep, width);
+	} else if (f32) {
+		res->series32 = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series32);
+	} else {
+		res->series = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series);
+	}
+	res->nkeep = spec->nkeep;
+	q->keep = spec->keep;
+	q->nkeep = spec->nkeep;
+	q->series = res->series;
+	q->series32 = res->series32;
+	return SR_OK;
+}
+
 /* The per-voxel finish is split over nthreads (same results for any count). */
 static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e)
 {
@@ -575,31 +609,9 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 	q.T = T;
 	q.nvox = nvox;
 	if (spec->keep && spec->nkeep) {
-		for (size_t i2 = 0; i2 < spec->nkeep; i2++)
-			if (spec->keep[i2] >= nvox) {
-				st = sr_fail(e, SR_EINVAL, "%s: a kept voxel lies outside the run's grid", spec->bold);
-				goto out;
-			}
-		int f32 = series_as_float32(&res->info, spec->smoothing_fwhm);
-
-		res->series_f32 = f32;
-		if (spill_series())
-			res->series_file = rowfile_new(spec->nkeep * (f32 ? sizeof(float) : sizeof(double)));
-		if (res->series_file) {
-			q.spill = res->series_file;
-			q.bold = spec->bold;
-			q.spill32 = f32;
-			q.row = xmalloc_array(spec->nkeep, f32 ? sizeof(float) : sizeof(double));
-		} else if (f32) {
-			res->series32 = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series32);
-		} else {
-			res->series = xmalloc_array((size_t)T * spec->nkeep, sizeof *res->series);
-		}
-		res->nkeep = spec->nkeep;
-		q.keep = spec->keep;
-		q.nkeep = spec->nkeep;
-		q.series = res->series;
-		q.series32 = res->series32;
+		st = keep_setup(spec, T, nvox, res, &q, e);
+		if (st != SR_OK)
+			goto out;
 	}
 	st = stream_fit(&q, acc, e);
 	if (st != SR_OK)

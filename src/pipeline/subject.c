@@ -230,7 +230,7 @@ static sr_status own_mask(const study *st, const char *label, const task_fit *ta
 			  unsigned char **mask, nii_grid *grid, char **what, sr_err *e)
 {
 	char **paths = NULL;
-	size_t n = 0, count;
+	size_t n = 0, count, total = 0;
 	sr_status rc;
 
 	*mask = NULL;
@@ -243,6 +243,9 @@ static sr_status own_mask(const study *st, const char *label, const task_fit *ta
 		return rc;
 	}
 	for (size_t i = 0; i < ntasks; i++)
+		total += tasks[i].nruns;
+	paths = xmalloc_array(total ? total : 1, sizeof *paths);
+	for (size_t i = 0; i < ntasks; i++)
 		for (size_t r = 0; r < tasks[i].nruns; r++) {
 			if (!tasks[i].runs[r].brain_mask) {
 				rc = sr_fail(e, SR_EIO, "%s: no desc-brain_mask image beside it (mask = auto)",
@@ -250,7 +253,6 @@ static sr_status own_mask(const study *st, const char *label, const task_fit *ta
 				free(paths);
 				return rc;
 			}
-			paths = xrealloc(paths, (n + 1) * sizeof *paths);
 			paths[n++] = tasks[i].runs[r].brain_mask;
 		}
 	rc = mask_intersection(paths, n, mask, grid, &count, e);
@@ -1197,7 +1199,10 @@ static void loc_setup_release(loc_setup *L)
 	memset(L, 0, sizeof *L);
 }
 
-/* Appends n effects for task to the subject's task list (a task appears once); returns its offset. */
+/*
+ * Appends n effects for task to the subject's task list (a task appears
+ * once; *tasks and *eff have room for every role's task); returns its offset.
+ */
 static int task_role(task_fit **tasks, size_t *ntasks, expr ***eff, const char *task, const expr *e, int n,
 		     size_t *which)
 {
@@ -1208,10 +1213,6 @@ static int task_role(task_fit **tasks, size_t *ntasks, expr ***eff, const char *
 		if (strcmp((*tasks)[i].task, task) == 0)
 			break;
 	if (i == *ntasks) {
-		*tasks = xrealloc(*tasks, (*ntasks + 1) * sizeof **tasks);
-		*eff = xrealloc(*eff, (*ntasks + 1) * sizeof **eff);
-		memset(&(*tasks)[i], 0, sizeof **tasks);
-		(*eff)[i] = NULL;
 		(*tasks)[i].task = task;
 		(*ntasks)++;
 	}
@@ -1237,6 +1238,10 @@ static void build_tasks(const study *st, loc_setup *L, expr **locef, task_fit **
 	size_t i, j, k, *mt = xcalloc(st->nmeasures + 1, sizeof *mt);
 	int *mo = xcalloc(st->nmeasures + 1, sizeof *mo);
 
+	/* at most one task per role: the localizers' and the measures' */
+	*tasks = xcalloc(st->nlocs + st->nmeasures, sizeof **tasks);
+	*eff = xcalloc(st->nlocs + st->nmeasures, sizeof **eff);
+	*ntasks = 0;
 	for (i = 0; i < st->nlocs; i++) {
 		const study_localizer *l = &st->locs[i];
 

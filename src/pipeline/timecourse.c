@@ -192,7 +192,7 @@ sr_status tc_frois(const runfit_result *const *run, const double *tr, int nruns,
 typedef struct tkey {
 	char *localizer, *parcel, *split, *task, *condition, *time;
 	double *v;
-	size_t n;
+	size_t n, cap;
 } tkey;
 
 typedef struct tkeys {
@@ -307,7 +307,7 @@ static sr_status read_subject(const char *path, tkeys *ks, sr_err *e)
 		if (rc || !isfinite(x))
 			continue;
 		k = key_get(ks, f);
-		k->v = xrealloc(k->v, (k->n + 1) * sizeof *k->v);
+		XGROW(k->v, k->n, k->cap);
 		k->v[k->n++] = x;
 	}
 	table_release(&t);
