@@ -15,7 +15,6 @@
 #include "../core/strv.h"
 #include "../core/stats.h"
 #include "../core/text.h"
-#include "../io/bidsname.h"
 #include "../io/csvout.h"
 #include "../io/jdoc.h"
 #include "../io/table.h"
@@ -24,6 +23,7 @@
 #include "reliability.h"
 #include "tabledict.h"
 #include "timecourse.h"
+#include "tablekeys.h"
 
 /* Prints "splitroi group: message" on stderr (the group command's and analyze's group step's errors). */
 static void errf(const char *fmt, ...) __attribute__((format(printf, 1, 2)));
@@ -858,14 +858,9 @@ static int write_group(group_ctx *g, sr_err *e)
 	for (r = 0; r < g->nrows; r++) {
 		const grow *w = &g->rows[r];
 		const cell *cl = &g->cells[w->cell];
-		char note[256], kind[128], part[128];
+		char note[256];
 
-		bidsname_split_parts(g->splits.s[cl->split], kind, sizeof kind, part, sizeof part);
-		csvout_str(&c, g->locs.s[cl->loc]);
-		csvout_str(&c, g->parcels.s[cl->parcel]);
-		csvout_str(&c, g->splits.s[cl->split]);
-		csvout_str(&c, kind);
-		csvout_str(&c, part);
+		tablekeys_put(&c, g->locs.s[cl->loc], g->parcels.s[cl->parcel], g->splits.s[cl->split]);
 		csvout_str(&c, g->tasks.s[cl->task]);
 		csvout_str(&c, g->effects.s[cl->effect]);
 		csvout_str(&c, cl->paired ? "paired" : "one-sample");
@@ -1079,15 +1074,9 @@ static int write_wide(group_ctx *g, sr_err *e)
 	free(path);
 	for (i = 0; i < ncol; i++) {
 		const cell *cl = &g->cells[cols[i]];
-		char kind[128], part[128];
 
-		bidsname_split_parts(g->splits.s[cl->split], kind, sizeof kind, part, sizeof part);
 		csvout_str(&d, names[i + 1]);
-		csvout_str(&d, g->locs.s[cl->loc]);
-		csvout_str(&d, g->parcels.s[cl->parcel]);
-		csvout_str(&d, g->splits.s[cl->split]);
-		csvout_str(&d, kind);
-		csvout_str(&d, part);
+		tablekeys_put(&d, g->locs.s[cl->loc], g->parcels.s[cl->parcel], g->splits.s[cl->split]);
 		csvout_str(&d, g->tasks.s[cl->task]);
 		csvout_str(&d, g->effects.s[cl->effect]);
 		csvout_endrow(&d);
@@ -1135,19 +1124,14 @@ static void by_write_row(csvout *c, const group_ctx *g, const byrow *b, const ch
 			 char **levels, size_t nlev)
 {
 	const cell *cl = &g->cells[b->cell];
-	char kind[128], part[128], lev[1024];
+	char lev[1024];
 	int welch = b->level == nlev;
 
-	bidsname_split_parts(g->splits.s[cl->split], kind, sizeof kind, part, sizeof part);
 	if (welch)
 		snprintf(lev, sizeof lev, "%s - %s", levels[0], levels[1]);
 	else
 		snprintf(lev, sizeof lev, "%s", levels[b->level]);
-	csvout_str(c, g->locs.s[cl->loc]);
-	csvout_str(c, g->parcels.s[cl->parcel]);
-	csvout_str(c, g->splits.s[cl->split]);
-	csvout_str(c, kind);
-	csvout_str(c, part);
+	tablekeys_put(c, g->locs.s[cl->loc], g->parcels.s[cl->parcel], g->splits.s[cl->split]);
 	csvout_str(c, g->tasks.s[cl->task]);
 	csvout_str(c, g->effects.s[cl->effect]);
 	csvout_str(c, col);

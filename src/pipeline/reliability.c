@@ -10,11 +10,11 @@
 #include "../core/mem.h"
 #include "../core/reliab.h"
 #include "../core/stats.h"
-#include "../io/bidsname.h"
 #include "../io/csvout.h"
 #include "../io/table.h"
 #include "subtables.h"
 #include "tabledict.h"
+#include "tablekeys.h"
 
 const char *const reliab_columns[] = {
 	"subject", "localizer", "parcel", "split", "split_kind", "part", "define_runs", "n_voxels",
@@ -112,7 +112,7 @@ sr_status reliab_table_write(const char *path, const char *subject, const reliab
 	csvout c;
 	sr_status rc;
 	size_t i;
-	char pid[512], kind[128], part[128];
+	char pid[512];
 
 	rc = csvout_open(&c, path, reliab_columns, reliab_ncolumns, e);
 	if (rc)
@@ -121,13 +121,8 @@ sr_status reliab_table_write(const char *path, const char *subject, const reliab
 	for (i = 0; i < tb->n; i++) {
 		const reliab_row *w = &tb->rows[i];
 
-		bidsname_split_parts(w->split, kind, sizeof kind, part, sizeof part);
 		csvout_str(&c, pid);
-		csvout_str(&c, w->localizer);
-		csvout_str(&c, w->parcel);
-		csvout_str(&c, w->split);
-		csvout_str(&c, kind);
-		csvout_str(&c, part);
+		tablekeys_put(&c, w->localizer, w->parcel, w->split);
 		csvout_str(&c, w->define_runs);
 		csvout_num(&c, w->n_voxels);
 		csvout_num(&c, RELIAB_T_ABOVE);
@@ -230,7 +225,6 @@ static sr_status write_summary(const char *path, rkey *keys, size_t nk, sr_err *
 	csvout c;
 	size_t i;
 	int m;
-	char kind[128], part[128];
 	sr_status rc = csvout_open(&c, path, head, sizeof head / sizeof head[0], e);
 
 	if (rc)
@@ -241,12 +235,7 @@ static sr_status write_summary(const char *path, rkey *keys, size_t nk, sr_err *
 			size_t n = k->n[m];
 			double med = n ? stats_quantile(k->v[m], n, 0.5) : NAN;   /* sorts */
 
-			bidsname_split_parts(k->split, kind, sizeof kind, part, sizeof part);
-			csvout_str(&c, k->localizer);
-			csvout_str(&c, k->parcel);
-			csvout_str(&c, k->split);
-			csvout_str(&c, kind);
-			csvout_str(&c, part);
+			tablekeys_put(&c, k->localizer, k->parcel, k->split);
 			csvout_str(&c, measures[m]);
 			csvout_int(&c, (long long)n);
 			csvout_num(&c, med);

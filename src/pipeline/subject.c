@@ -17,7 +17,6 @@
 #include "../core/roi.h"
 #include "../io/afile.h"
 #include "../io/bids.h"
-#include "../io/bidsname.h"
 #include "../io/csvout.h"
 #include "../io/designcsv.h"
 #include "../io/events.h"
@@ -28,6 +27,7 @@
 #include "mapout.h"
 #include "tabledict.h"
 #include "runfit.h"
+#include "tablekeys.h"
 
 const char *const subject_columns[] = {
 	"subject", "localizer", "parcel", "split", "split_kind", "part", "define_runs",
@@ -149,7 +149,7 @@ static sr_status subject_write_rows(const char *path, const char *subject, const
 	csvout c;
 	sr_status rc;
 	size_t i;
-	char pid[512], kind[128], part[128];
+	char pid[512];
 
 	rc = csvout_open(&c, path, subject_columns, subject_ncolumns, e);
 	if (rc)
@@ -159,13 +159,8 @@ static sr_status subject_write_rows(const char *path, const char *subject, const
 	for (i = 0; i < n; i++) {
 		const response_row *w = &rows[i];
 
-		bidsname_split_parts(w->split, kind, sizeof kind, part, sizeof part);
 		csvout_str(&c, pid);
-		csvout_str(&c, w->localizer);
-		csvout_str(&c, w->parcel);
-		csvout_str(&c, w->split);
-		csvout_str(&c, kind);
-		csvout_str(&c, part);
+		tablekeys_put(&c, w->localizer, w->parcel, w->split);
 		csvout_str(&c, w->define_runs);
 		csvout_str(&c, w->measure_task);
 		csvout_str(&c, w->measure_runs);

@@ -9,11 +9,11 @@
 
 #include "../core/fir.h"
 #include "../core/mem.h"
-#include "../io/bidsname.h"
 #include "../io/csvout.h"
 #include "../io/table.h"
 #include "subtables.h"
 #include "tabledict.h"
+#include "tablekeys.h"
 
 const char *const tc_columns[] = {
 	"subject", "localizer", "parcel", "split", "split_kind", "part", "measure_task", "condition",
@@ -58,7 +58,7 @@ sr_status tc_table_write(const char *path, const char *subject, const tc_table *
 {
 	csvout c;
 	size_t i;
-	char pid[512], kind[128], part[128];
+	char pid[512];
 	sr_status rc = csvout_open(&c, path, tc_columns, tc_ncolumns, e);
 
 	if (rc)
@@ -67,13 +67,8 @@ sr_status tc_table_write(const char *path, const char *subject, const tc_table *
 	for (i = 0; i < tb->n; i++) {
 		const tc_row *w = &tb->rows[i];
 
-		bidsname_split_parts(w->split, kind, sizeof kind, part, sizeof part);
 		csvout_str(&c, pid);
-		csvout_str(&c, w->localizer);
-		csvout_str(&c, w->parcel);
-		csvout_str(&c, w->split);
-		csvout_str(&c, kind);
-		csvout_str(&c, part);
+		tablekeys_put(&c, w->localizer, w->parcel, w->split);
 		csvout_str(&c, w->task);
 		csvout_str(&c, w->condition);
 		csvout_num(&c, w->time);
@@ -320,7 +315,6 @@ static sr_status write_group(const char *path, const tkeys *ks, sr_err *e)
 					    "measure_task", "condition", "time", "n", "mean", "sem" };
 	csvout c;
 	size_t i, j;
-	char kind[128], part[128];
 	sr_status rc = csvout_open(&c, path, head, sizeof head / sizeof head[0], e);
 
 	if (rc)
@@ -334,12 +328,7 @@ static sr_status write_group(const char *path, const tkeys *ks, sr_err *e)
 		mean = k->n ? mean / (double)k->n : NAN;
 		for (j = 0; j < k->n; j++)
 			ss += (k->v[j] - mean) * (k->v[j] - mean);
-		bidsname_split_parts(k->split, kind, sizeof kind, part, sizeof part);
-		csvout_str(&c, k->localizer);
-		csvout_str(&c, k->parcel);
-		csvout_str(&c, k->split);
-		csvout_str(&c, kind);
-		csvout_str(&c, part);
+		tablekeys_put(&c, k->localizer, k->parcel, k->split);
 		csvout_str(&c, k->task);
 		csvout_str(&c, k->condition);
 		csvout_str(&c, k->time);
