@@ -21,19 +21,10 @@ import signal
 import subprocess
 import sys
 import tempfile
+from tap import done, ok
 
-failures = 0
 SPLITROI = os.environ.get("SPLITROI", "build/splitroi")
 
-
-def ok(cond, name):
-    global failures
-    if cond:
-        print("ok - " + name)
-    else:
-        failures += 1
-        print("not ok - " + name)
-    return cond
 
 
 def run(args, spill=True, tmpdir=None, fsize=None):
@@ -98,5 +89,4 @@ with tempfile.TemporaryDirectory() as tmp:
     ok(not any(f.endswith("responses.csv") for f in outputs(full)) if os.path.isdir(full) else True,
        "full TMPDIR: no subject table written")
 
-print("%d failure(s)" % failures)
-sys.exit(1 if failures else 0)
+done()

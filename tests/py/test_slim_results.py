@@ -22,8 +22,8 @@ import shutil
 import subprocess
 import sys
 import tempfile
+from tap import done, ok
 
-failures = 0
 SPLITROI = os.environ.get("SPLITROI", "build/splitroi")
 HERE = os.path.dirname(os.path.abspath(__file__))
 
@@ -33,15 +33,6 @@ except ImportError as exc:  # the python3 first on PATH may lack it
     print("skip - nibabel unavailable: %s" % exc)
     sys.exit(0)
 
-
-def ok(cond, name):
-    global failures
-    if cond:
-        print("ok - " + name)
-    else:
-        failures += 1
-        print("not ok - " + name)
-    return cond
 
 
 # written with the time of the run or the command line: they differ between any two runs
@@ -96,5 +87,4 @@ with tempfile.TemporaryDirectory() as tmp:
         shutil.rmtree(a, ignore_errors=True)
         shutil.rmtree(b, ignore_errors=True)
 
-print("%d failure(s)" % failures)
-sys.exit(1 if failures else 0)
+done()

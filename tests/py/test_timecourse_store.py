@@ -18,19 +18,10 @@ import os
 import subprocess
 import sys
 import tempfile
+from tap import done, ok
 
-failures = 0
 SPLITROI = os.environ.get("SPLITROI", "build/splitroi")
 
-
-def ok(cond, name):
-    global failures
-    if cond:
-        print("ok - " + name)
-    else:
-        failures += 1
-        print("not ok - " + name)
-    return cond
 
 
 def run(args, store=None):
@@ -94,5 +85,4 @@ with tempfile.TemporaryDirectory() as tmp:
             ok(not same(outs["double"], outs["float"]),
                "%s: float32 storage would change the time courses (doubles are needed)" % name)
 
-print("%d failure(s)" % failures)
-sys.exit(1 if failures else 0)
+done()
