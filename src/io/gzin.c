@@ -16,6 +16,9 @@
 
 /* Compressed input is read in blocks of this size. */
 #define GZIN_BUF (256u * 1024u)
+/* the first refill's size: a header read (a study's every run, by check or
+   slurm) then copies 16 KiB from the file, not 256 KiB */
+#define GZIN_FIRST (16u * 1024u)
 
 struct gzin {
 	char *path;
@@ -26,6 +29,7 @@ struct gzin {
 	unsigned char *in;           /* GZIN_BUF bytes */
 	unsigned char *next;         /* unread input */
 	size_t avail;
+	size_t step;                 /* bytes a refill reads: grows from GZIN_FIRST to GZIN_BUF */
 	int eof;                     /* no more bytes in the file */
 	int member_done;             /* the last member ended; look for another */
 	int started;                 /* some output was produced (no fallback after that) */
@@ -153,15 +157,21 @@ static enum gzin_result read_plain(gzin *z, unsigned char *buf, size_t n, size_t
 /* Moves the unread input to the front and tops the buffer up from the file; -1 on a read error. */
 static int refill(gzin *z)
 {
-	size_t r;
+	size_t r, want;
 
 	if (z->eof)
 		return 0;
 	if (z->avail && z->next != z->in)
 		memmove(z->in, z->next, z->avail);
 	z->next = z->in;
-	r = fread(z->in + z->avail, 1, GZIN_BUF - z->avail, z->f);
-	if (r < GZIN_BUF - z->avail) {
+	want = GZIN_BUF - z->avail;
+	if (z->step < GZIN_FIRST)
+		z->step = GZIN_FIRST;
+	if (want > z->step)
+		want = z->step;
+	z->step = z->step < GZIN_BUF / 2 ? 2 * z->step : GZIN_BUF;
+	r = fread(z->in + z->avail, 1, want, z->f);
+	if (r < want) {
 		if (ferror(z->f))
 			return -1;
 		z->eof = 1;
