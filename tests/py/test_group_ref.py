@@ -7,18 +7,8 @@ import shutil
 import subprocess
 import sys
 import tempfile
-
-failures = 0
-
-
-def ok(cond, name):
-    global failures
-    if cond:
-        print("ok - " + name)
-    else:
-        failures += 1
-        print("not ok - " + name)
-    return cond
+import tap
+from tap import ok
 
 
 try:
@@ -316,7 +306,7 @@ def main():
            "the summary shows the split column when a task has two split kinds")
     finally:
         shutil.rmtree(tmp, ignore_errors=True)
-    return 1 if failures else 0
+    return 1 if tap.failures else 0
 
 
 if __name__ == "__main__":

@@ -32,18 +32,7 @@ import shutil
 import subprocess
 import sys
 import tempfile
-
-failures = 0
-
-
-def ok(cond, name):
-    global failures
-    if cond:
-        print("ok - " + name)
-    else:
-        failures += 1
-        print("not ok - " + name)
-    return cond
+from tap import done, ok
 
 
 try:
@@ -230,4 +219,4 @@ def main():
 
 
 main()
-sys.exit(1 if failures else 0)
+done()

@@ -15,18 +15,7 @@ import re
 import subprocess
 import sys
 import tempfile
-
-failures = 0
-
-
-def ok(cond, name):
-    global failures
-    if cond:
-        print("ok - " + name)
-    else:
-        failures += 1
-        print("not ok - " + name)
-    return cond
+from tap import done, ok
 
 
 try:
@@ -182,4 +171,4 @@ with tempfile.TemporaryDirectory() as tmp:
     ok(keys and all(k[2] == "leave-one-out:mean" for k in keys),
        "leave-one-out summary rows are leave-one-out:mean (4 folds, 6 pairs each)")
 
-sys.exit(1 if failures else 0)
+done()

@@ -19,18 +19,7 @@ import os
 import subprocess
 import sys
 import tempfile
-
-failures = 0
-
-
-def ok(cond, name):
-    global failures
-    if cond:
-        print("ok - " + name)
-    else:
-        failures += 1
-        print("not ok - " + name)
-    return cond
+from tap import done, ok
 
 
 try:
@@ -195,4 +184,4 @@ with tempfile.TemporaryDirectory() as tmp:
        "report: %d time-course charts (one per parcel, split kind, task), each with mean, band and %d subject lines "
        "per condition" % (len(charts), nsub))
 
-sys.exit(1 if failures else 0)
+done()
