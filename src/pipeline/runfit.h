@@ -55,7 +55,7 @@ typedef struct runfit_result {
 	size_t nnonfinite;             /* voxels (in the mask) with a NaN or infinite value, left out */
 	double *series;                /* T x nkeep (volume k at k * nkeep): the kept voxels' values as fitted
 					  (after skipping and smoothing, before scaling), or NULL; read them
-					  through runfit_series_at */
+					  through runfit_series_row */
 	float *series32;               /* the same as float32 instead of series when that is exact
 					  (nii_float32_exact: no smoothing); one of the two is NULL */
 	rowfile *series_file;          /* instead of both (NULL then): the rows in a temporary file */
