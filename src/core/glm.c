@@ -451,18 +451,6 @@ static void chunk_flush(glm_acc *a, int k, int nb, size_t v0, size_t v1)
 		    a->acc + (size_t)r2 * v0, r2);
 }
 
-/* acc += A[:, k0:k0+nb] Z', one pass over the accumulators per batch, chunk by chunk. */
-static void acc_flush(glm_acc *a)
-{
-	size_t v0;
-
-	if (a->nb == 0 || a->nvox == 0)
-		return;
-	for (v0 = 0; v0 < a->nvox; v0 += ACC_CHUNK)
-		chunk_flush(a, a->k, a->nb, v0, a->nvox - v0 < ACC_CHUNK ? a->nvox : v0 + ACC_CHUNK);
-	a->nb = 0;
-}
-
 /* 1 when voxels v0..v1-1 of vol are all +0 (a -0 is not: it would reach a mean's sign). */
 static int vol_zero(const double *vol, size_t v0, size_t v1)
 {
@@ -943,7 +931,6 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 		return sr_fail(e, SR_EDIM, "%d volumes added for a design of %d rows", a->k, m->T);
 	if (ncon < 0 || (ncon > 0 && !C))
 		return sr_fail(e, SR_EINVAL, "bad contrast count %d", ncon);
-	acc_flush(a);
 	free(a->zbuf);   /* not needed any more: lowers the peak while the outputs exist */
 	a->zbuf = NULL;
 

@@ -90,11 +90,6 @@ sr_status rowfile_read(const rowfile *f, size_t k, void *row, sr_err *e)
 	return SR_OK;
 }
 
-size_t rowfile_rows(const rowfile *f)
-{
-	return f->rows;
-}
-
 void rowfile_free(rowfile *f)
 {
 	if (!f)

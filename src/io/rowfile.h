@@ -29,9 +29,6 @@ sr_status rowfile_append(rowfile *f, const void *row, sr_err *e);
 /* Reads row k (0-based, already appended) into row. SR_EIO on a read error or a short read. */
 sr_status rowfile_read(const rowfile *f, size_t k, void *row, sr_err *e);
 
-/* Rows appended so far. */
-size_t rowfile_rows(const rowfile *f);
-
 /* Closes (and so deletes) the file; NULL is allowed. */
 void rowfile_free(rowfile *f);
 

@@ -7,12 +7,12 @@
 
 #include "../core/mem.h"
 
-void leftout_from_fit(leftout_run *r, const char *task, const char *run, const glm_out *o)
+void leftout_from_fit(leftout_run *r, const char *task, const char *run, const glm_out *o, size_t nvox)
 {
 	memset(r, 0, sizeof *r);
 	snprintf(r->task, sizeof r->task, "%s", task);
 	snprintf(r->run, sizeof r->run, "%s", run);
-	r->nvox = o->nvox;
+	r->nvox = nvox;
 	memcpy(r->left_out, o->left_out, sizeof r->left_out);
 	r->floor = o->floor;
 }

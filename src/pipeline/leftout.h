@@ -17,8 +17,8 @@ typedef struct leftout_run {
 	double floor;           /* intensity floor used (0 when none) */
 } leftout_run;
 
-/* Fills r from a finished fit. */
-void leftout_from_fit(leftout_run *r, const char *task, const char *run, const glm_out *o);
+/* Fills r from a finished fit of a run of nvox voxels (o may hold fewer: a slimmed fit). */
+void leftout_from_fit(leftout_run *r, const char *task, const char *run, const glm_out *o, size_t nvox);
 
 /*
  * The run record's part: an object {"reference_intensity", "intensity_floor",

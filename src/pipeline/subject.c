@@ -1570,10 +1570,10 @@ static void record_leftout(const char *label, const task_fit *tasks, size_t ntas
 	res->leftout = xcalloc(nruns_all ? nruns_all : 1, sizeof *res->leftout);
 	for (i = 0; i < ntasks; i++)
 		for (r = 0; r < tasks[i].nruns; r++) {
-			leftout_from_fit(&res->leftout[n], tasks[i].task, tasks[i].runs[r].label,
-					 &tasks[i].res[r].out);
-			if (tasks[i].res[r].slim)   /* the run's voxels, not the ones it kept */
-				res->leftout[n].nvox = tasks[i].res[r].grid_nvox;
+			const runfit_result *rr = &tasks[i].res[r];
+
+			leftout_from_fit(&res->leftout[n], tasks[i].task, tasks[i].runs[r].label, &rr->out,
+					 rr->slim ? rr->grid_nvox : rr->out.nvox);
 			outs[n++] = &tasks[i].res[r].out;
 		}
 	res->nleftout = n;
