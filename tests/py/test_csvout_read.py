@@ -20,22 +20,13 @@ import random
 import subprocess
 import sys
 import tempfile
+import tap
+from tap import ok as report
 
 try:
     import pandas as pd
 except ImportError:  # pragma: no cover
     pd = None
-
-failed = 0
-
-
-def report(ok, name):
-    global failed
-    if ok:
-        print("ok - " + name)
-    else:
-        failed += 1
-        print("not ok - " + name)
 
 
 TOOL = os.path.join(os.environ.get("BUILD", "build"), "tests", "tools", "csvtool")
@@ -144,7 +135,7 @@ def main():
     with tempfile.TemporaryDirectory() as tmp:
         write_direction(tmp, rng)
         read_direction(tmp, rng)
-    return 1 if failed else 0
+    return 1 if tap.failures else 0
 
 
 if __name__ == "__main__":

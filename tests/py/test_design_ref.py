@@ -15,19 +15,11 @@ from fractions import Fraction
 import numpy as np
 import scipy.fft
 import scipy.stats
+import tap
+from tap import ok as report
 
 DT = Fraction(1, 20)
 TOL = 1e-9
-failed = 0
-
-
-def report(ok, name):
-    global failed
-    if ok:
-        print("ok - " + name)
-    else:
-        failed += 1
-        print("not ok - " + name)
 
 
 def reference(spec):
@@ -208,7 +200,7 @@ def main():
     r = run_tool(tool, dict(T=10, tr="2", ncond=1, events=[(0, "1", "-2")]))
     report(r.returncode == 1 and "duration" in r.stderr,
            "negative duration rejected: %s" % r.stderr.strip())
-    return 1 if failed else 0
+    return 1 if tap.failures else 0
 
 
 if __name__ == "__main__":

@@ -4,6 +4,8 @@ import os
 import subprocess
 import sys
 import tempfile
+import tap
+from tap import ok as check
 
 try:
     import numpy as np
@@ -15,16 +17,6 @@ except ImportError as exc:  # pragma: no cover
 
 BUILD = os.environ.get("BUILD", "build")
 TOOL = os.path.join(BUILD, "tests", "tools", "niiwrite")
-failed = 0
-
-
-def check(cond, name):
-    global failed
-    if cond:
-        print("ok - " + name)
-    else:
-        failed += 1
-        print("not ok - " + name)
 
 
 def run(*args):
@@ -187,4 +179,4 @@ for ext in (".nii", ".nii.gz"):
     check(np.array_equal(np.fromfile(p + ".f64"), u8.reshape(-1, order="F").astype(float)),
           "nibabel uint8 micron%s: values" % ext)
 
-sys.exit(1 if failed else 0)
+sys.exit(1 if tap.failures else 0)

@@ -24,17 +24,8 @@ import sys
 import tempfile
 
 import numpy as np
-
-failed = 0
-
-
-def report(ok, name):
-    global failed
-    if ok:
-        print("ok - " + name)
-    else:
-        failed += 1
-        print("not ok - " + name)
+import tap
+from tap import ok as report
 
 
 SHAPE = (18, 18, 10)
@@ -180,7 +171,7 @@ def main():
             ok &= bool(np.all(np.isclose(diff, 0, atol=1e-5) | np.isclose(diff, 1, atol=1e-5)))
             ok &= bool(np.isclose(diff, 1, atol=1e-5).sum() > 20)
         report(ok, "without-sub-X overlap = (6 x group overlap - X's suprathreshold map) / 5")
-    return 1 if failed else 0
+    return 1 if tap.failures else 0
 
 
 if __name__ == "__main__":

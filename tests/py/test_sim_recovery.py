@@ -9,6 +9,8 @@ import os
 import subprocess
 import sys
 import tempfile
+import tap
+from tap import ok as check
 
 try:
     import nibabel as nib
@@ -19,16 +21,6 @@ except ImportError as exc:  # pragma: no cover
     sys.exit(0)
 
 BIN = os.environ.get("SPLITROI", "build/splitroi")
-failed = 0
-
-
-def check(cond, name):
-    global failed
-    if cond:
-        print("ok - " + name)
-    else:
-        failed += 1
-        print("not ok - " + name)
 
 
 def hrf_kernel(dt=0.05):
@@ -174,4 +166,4 @@ def main():
 
 
 main()
-sys.exit(1 if failed else 0)
+sys.exit(1 if tap.failures else 0)

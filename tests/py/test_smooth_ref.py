@@ -15,17 +15,8 @@ import tempfile
 
 import numpy as np
 import scipy.ndimage
-
-failed = 0
-
-
-def report(ok, name):
-    global failed
-    if ok:
-        print("ok - " + name)
-    else:
-        failed += 1
-        print("not ok - " + name)
+import tap
+from tap import ok as report
 
 
 def smooth_c(tool, x, sig):
@@ -211,7 +202,7 @@ def main():
         test_support(tool)
     splitroi = os.environ.get("SPLITROI", os.path.join(build, "splitroi"))
     test_spheres(splitroi)
-    return 1 if failed else 0
+    return 1 if tap.failures else 0
 
 
 if __name__ == "__main__":
