@@ -121,7 +121,13 @@ static void test_failures(const char *dir)
 	      "a file in the way of a parent: SR_EIO naming it: %s", e.msg);
 	CHECK(a.f == NULL && a.tmp == NULL, "nothing is open after a failed open");
 	afile_abort(&a);
-	CHECK(1, "abort after a failed open is safe");
+	{
+		struct stat st;
+
+		CHECK(a.f == NULL && a.tmp == NULL && a.path == NULL && stat(blocker, &st) == 0 &&
+			      S_ISREG(st.st_mode) && st.st_size == 13,
+		      "abort after a failed open leaves an empty record and the file in the way untouched");
+	}
 
 	snprintf(path, sizeof path, "%s/fail/", dir);
 	CHECK(afile_open(&a, path, &e) == SR_EINVAL && strstr(e.msg, "is a folder"),
