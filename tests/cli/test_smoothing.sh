@@ -81,5 +81,5 @@ if [ -f "$V/results/sub-01/report.html" ]; then
 		notok "the subject report says 4.5 mm FWHM"
 	fi
 else
-	echo "skip - no subject report written by analyze"
+	notok "analyze wrote the subject report $V/results/sub-01/report.html"
 fi

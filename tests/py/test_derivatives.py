@@ -104,8 +104,8 @@ def read_csv(path):
 
 def main():
     if run(['help', 'analyze']).returncode != 0:
-        print('skip - splitroi not built')
-        return 0
+        print('not ok - splitroi help analyze failed: the binary is missing or has no working analyze')
+        return 1
     tmp = tempfile.mkdtemp(prefix='srderiv_')
     rng = np.random.default_rng(13)
     try:
