@@ -30,7 +30,8 @@ static int is_renamed(const cmdline_opt *o)
 	return o->arg && strcmp(o->arg, CMDLINE_RENAMED) == 0;
 }
 
-void cmdline_usage(const cmdline_spec *spec, FILE *f)
+/* Prints the command's help to f (for --help). */
+static void cmdline_usage(const cmdline_spec *spec, FILE *f)
 {
 	const cmdline_opt *o;
 	int width = 0;

@@ -37,9 +37,6 @@ typedef struct cmdline_spec {
 int cmdline_parse(const cmdline_spec *spec, int argc, char **argv,
 		  const char **values, const char **pos, int *npos);
 
-/* Prints the command's help to f. */
-void cmdline_usage(const cmdline_spec *spec, FILE *f);
-
 /* Prints "splitroi COMMAND: message" on stderr. */
 void cmdline_error(const char *command, const char *fmt, ...)
 	__attribute__((format(printf, 2, 3)));

@@ -1,4 +1,4 @@
-/* qc.c - quality-control numerics for the report (no I/O): FD, Dice, slices, windows, fences. */
+/* qc.c - quality-control numerics for the report (no I/O): FD, Dice, slices, windows. */
 #include <math.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -75,13 +75,6 @@ double qc_dice(const int32_t *a, const int32_t *b, size_t n, int32_t label, size
 	return 2.0 * (double)cab / (double)(ca + cb);
 }
 
-void qc_slice_z(const double *vol, size_t nx, size_t ny, size_t nz, size_t k, double *out)
-{
-	if (k >= nz)
-		return;
-	memcpy(out, vol + k * nx * ny, nx * ny * sizeof *out);
-}
-
 size_t qc_pick_slices(const int32_t *lab, size_t nx, size_t ny, size_t nz, int32_t label,
 		      size_t want, size_t *out)
 {
@@ -129,50 +122,6 @@ void qc_window(const double *x, size_t n, double plo, double phi, double *lo, do
 		*hi = stats_quantile_sorted(s, k, phi);
 	}
 	free(s);
-}
-
-void qc_edge(const unsigned char *mask, size_t nx, size_t ny, unsigned char *edge)
-{
-	size_t x, y;
-
-	for (y = 0; y < ny; y++)
-		for (x = 0; x < nx; x++) {
-			size_t v = y * nx + x;
-
-			edge[v] = mask[v] && (x == 0 || y == 0 || x + 1 == nx || y + 1 == ny ||
-					      !mask[v - 1] || !mask[v + 1] || !mask[v - nx] ||
-					      !mask[v + nx]);
-		}
-}
-
-static double median_sorted(const double *v, size_t n)
-{
-	return n % 2 ? v[n / 2] : 0.5 * (v[n / 2 - 1] + v[n / 2]);
-}
-
-double qc_low_fence(const double *x, size_t n, double k)
-{
-	double *v, med, mad;
-	size_t i, m = 0;
-
-	v = malloc((n ? n : 1) * sizeof *v);
-	if (!v)
-		return NAN;
-	for (i = 0; i < n; i++)
-		if (isfinite(x[i]))
-			v[m++] = x[i];
-	if (m < 3) {
-		free(v);
-		return NAN;
-	}
-	qsort(v, m, sizeof *v, strv_cmp_double);
-	med = median_sorted(v, m);
-	for (i = 0; i < m; i++)
-		v[i] = fabs(v[i] - med);
-	qsort(v, m, sizeof *v, strv_cmp_double);
-	mad = median_sorted(v, m);
-	free(v);
-	return med - k * 1.4826 * mad;
 }
 
 qc_col_kind qc_column_kind(const char *name, char *const *confounds, size_t nconf)

@@ -29,9 +29,6 @@ void qc_mean_max(const double *x, size_t n, double *mean, double *max);
 double qc_dice(const int32_t *a, const int32_t *b, size_t n, int32_t label, size_t *na,
 	       size_t *nb, size_t *nab);
 
-/* Copies axial slice k (0-based) of an nx*ny*nz volume (x fastest) into out (nx*ny). */
-void qc_slice_z(const double *vol, size_t nx, size_t ny, size_t nz, size_t k, double *out);
-
 /*
  * Picks up to want axial slices through the voxels labelled `label` of an
  * nx*ny*nz image: evenly spaced among the slices that contain any, so the
@@ -48,20 +45,6 @@ size_t qc_pick_slices(const int32_t *lab, size_t nx, size_t ny, size_t nz, int32
  * values; lo == hi when flat. Allocates a scratch copy.
  */
 void qc_window(const double *x, size_t n, double plo, double phi, double *lo, double *hi);
-
-/*
- * Marks the edge of a 2-D mask (nx*ny, x fastest): edge[v] = 1 where
- * mask[v] is set and a 4-neighbour is unset or outside the image.
- */
-void qc_edge(const unsigned char *mask, size_t nx, size_t ny, unsigned char *edge);
-
-/*
- * A robust lower fence for outlier marking: median - k * 1.4826 * MAD over the
- * finite values of x (1.4826 * MAD estimates the standard deviation of normal
- * data; common practice). NaN when fewer than 3 values are finite. x is not
- * changed.
- */
-double qc_low_fence(const double *x, size_t n, double k);
 
 /* What a design-matrix column models, from its name (io/designcsv's column names). */
 typedef enum qc_col_kind { QC_COL_CONDITION, QC_COL_CONFOUND, QC_COL_DRIFT, QC_COL_BASELINE } qc_col_kind;
