@@ -34,50 +34,11 @@ static const cmdline_spec spec = {
 	opts,
 };
 
-/* A growing list of strings (problems, warnings, condition names). */
-typedef struct strlist {
-	char **s;
-	size_t n, cap;
-} strlist;
-
-static void sl_push(strlist *l, const char *s)
-{
-	XGROW(l->s, l->n, l->cap);
-	l->s[l->n++] = xstrdup(s);
-}
-
-static int sl_has(const strlist *l, const char *s)
-{
-	size_t i;
-
-	for (i = 0; i < l->n; i++)
-		if (strcmp(l->s[i], s) == 0)
-			return 1;
-	return 0;
-}
-
-static void sl_add_unique(strlist *l, const char *s)
-{
-	if (!sl_has(l, s))
-		sl_push(l, s);
-}
-
-static void sl_free(strlist *l)
-{
-	size_t i;
-
-	for (i = 0; i < l->n; i++)
-		free(l->s[i]);
-	free(l->s);
-	l->s = NULL;
-	l->n = l->cap = 0;
-}
-
 /* The state of one check: what is wrong, what deserves a warning. */
 typedef struct checker {
 	const study *st;
 	study_problems probs;
-	strlist warns;
+	strv warns;
 	studycheck_ctx sc;          /* the shared validation of runs; its warnings join warns in order */
 	study_problems sc_warns;
 } checker;
@@ -100,7 +61,7 @@ static studycheck_ctx *sc(checker *c)
 static void sc_done(checker *c)
 {
 	for (size_t i = 0; i < c->sc_warns.n; i++)
-		sl_push(&c->warns, c->sc_warns.msg[i]);
+		strv_push(&c->warns, c->sc_warns.msg[i]);
 	study_problems_release(&c->sc_warns);
 	memset(&c->sc_warns, 0, sizeof c->sc_warns);
 }
@@ -191,7 +152,7 @@ static void print_splits(checker *c, const char *label, const studycheck_task *t
 		snprintf(msg, sizeof msg,
 			 "sub-%s has %zu run%s of the localizer task %s: no cross-validated rows (measured tasks still get rows)",
 			 label, n, n == 1 ? "" : "s", c->st->loc_task);
-		sl_push(&c->warns, msg);
+		strv_push(&c->warns, msg);
 		printf("    sub-%s: fewer than 2 localizer runs, no cross-validated splits\n", label);
 		return;
 	}
@@ -237,25 +198,25 @@ static void check_task_names(checker *c, const char *section, size_t t, char **s
 	const study *st = c->st;
 	const char *task = t ? st->measures[t - 1].task : st->loc_task;
 	study_problems reported = { 0 };
-	strlist known = { 0 };
+	strv known = { 0 };
 	size_t s, k;
 
 	for (s = 0; s < nsub; s++)
 		for (k = 0; k < seen[s * stride].conds.n; k++)
-			sl_add_unique(&known, seen[s * stride].conds.v[k]);
-	if (known.n)
-		qsort(known.s, known.n, sizeof *known.s, strv_cmp);
+			if (!strv_contains(&known, seen[s * stride].conds.v[k]))
+				strv_push(&known, seen[s * stride].conds.v[k]);
+	strv_sort(&known);
 	if (t == 0) {
-		studycheck_names(sc(c), section, "contrast", task, &st->contrast, 1, known.s, known.n, subs, nsub,
+		studycheck_names(sc(c), section, "contrast", task, &st->contrast, 1, known.v, known.n, subs, nsub,
 				 seen, stride, &reported);
-		studycheck_names(sc(c), section, "effects", task, st->loc_effects, st->nloc_effects, known.s, known.n,
+		studycheck_names(sc(c), section, "effects", task, st->loc_effects, st->nloc_effects, known.v, known.n,
 				 subs, nsub, seen, stride, &reported);
 	} else {
 		studycheck_names(sc(c), section, "effects", task, st->measures[t - 1].effects,
-				 st->measures[t - 1].neffects, known.s, known.n, subs, nsub, seen, stride, &reported);
+				 st->measures[t - 1].neffects, known.v, known.n, subs, nsub, seen, stride, &reported);
 	}
 	sc_done(c);
-	sl_free(&known);
+	strv_free(&known);
 	study_problems_release(&reported);
 }
 
@@ -552,7 +513,7 @@ int cmd_check(int argc, char **argv)
 			snprintf(msg, sizeof msg,
 				 "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",
 				 st.derivatives);
-			sl_push(&c.warns, msg);
+			strv_push(&c.warns, msg);
 		}
 	}
 	printf("out: %s\n", st.out);
@@ -566,7 +527,7 @@ int cmd_check(int argc, char **argv)
 	run_check(&c, subs, nsub);
 	fflush(stdout);
 	for (i = 0; i < c.warns.n; i++)
-		fprintf(stderr, "splitroi check: warning: %s\n", c.warns.s[i]);
+		fprintf(stderr, "splitroi check: warning: %s\n", c.warns.v[i]);
 	for (i = 0; i < c.probs.n; i++)
 		fprintf(stderr, "splitroi check: %s\n", c.probs.msg[i]);
 	if (c.probs.n) {
@@ -579,7 +540,7 @@ int cmd_check(int argc, char **argv)
 	}
 out:
 	strv_free_array(subs, nsub);
-	sl_free(&c.warns);
+	strv_free(&c.warns);
 	study_problems_release(&c.probs);
 	study_release(&st);
 	return rc;
