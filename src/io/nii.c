@@ -21,6 +21,9 @@
 #include "afile.h"
 #include "gzin.h"
 
+_Static_assert(NII_INTENT_NONE == NIFTI_INTENT_NONE && NII_INTENT_TTEST == NIFTI_INTENT_TTEST,
+	       "nii.h's intent codes are NIfTI-1's");
+
 /* Bigger than zlib's 8 KiB default: inflating a run is the slow part of reading it. */
 #define NII_GZBUF (256u * 1024u)
 

@@ -99,8 +99,11 @@ sr_status nii_read_3d(const char *path, nii_info *info, double **data, sr_err *e
 sr_status nii_write_float(const char *path, const nii_grid *g, const float *data, int64_t nt,
 			  double tr, const char *description, sr_err *e);
 
+/* The intent codes callers pass to nii_write_stat: NIfTI-1's values, so that no layer above io includes nifticlib. */
+enum { NII_INTENT_NONE = 0, NII_INTENT_TTEST = 3 };
+
 /*
- * nii_write_float with a NIfTI intent: intent (NIFTI_INTENT_TTEST = 3 for a t
+ * nii_write_float with a NIfTI intent: intent (NII_INTENT_TTEST for a t
  * map) and its first parameter (the t map's degrees of freedom) in the header.
  */
 sr_status nii_write_stat(const char *path, const nii_grid *g, const float *data, int64_t nt,

@@ -14,7 +14,6 @@
 #include "../io/events.h"
 #include "../io/jdoc.h"
 #include "../io/nii.h"
-#include <nifti1.h>
 #include "../version.h"
 #include "fitjob.h"
 
@@ -214,7 +213,7 @@ static double job_df(const map_ctx *m, const map_job *j)
 	return df;
 }
 
-/* One map (t: NIFTI_INTENT_TTEST with its df) and its JSON sidecar; 1 on failure (j->err). */
+/* One map (t: NII_INTENT_TTEST with its df) and its JSON sidecar; 1 on failure (j->err). */
 static int write_one(const map_ctx *m, map_job *j, const float *f, char *desc, size_t n)
 {
 	double df = job_df(m, j);
@@ -228,7 +227,7 @@ static int write_one(const map_ctx *m, map_job *j, const float *f, char *desc, s
 	else
 		snprintf(desc, n, "splitroi effect (percent signal change)");
 	if (nii_write_stat(j->path, &m->res[0].info.grid, f, 1, 0.0,
-			   j->is_t ? NIFTI_INTENT_TTEST : NIFTI_INTENT_NONE, j->is_t ? df : 0.0, desc,
+			   j->is_t ? NII_INTENT_TTEST : NII_INTENT_NONE, j->is_t ? df : 0.0, desc,
 			   &j->err) != SR_OK)
 		return 1;
 	side = xmalloc(len + 8);

@@ -6,8 +6,6 @@
 #include <stdlib.h>
 #include <string.h>
 
-#include <nifti1.h>
-
 #include "../core/mem.h"
 #include "../io/afile.h"
 #include "../io/bidsname.h"
@@ -109,7 +107,7 @@ sr_status mapout_split(const char *dir, const mapout_info *m, const nii_grid *g,
 	for (v = 0; v < nvox; v++)
 		tf[v] = isfinite(t[v]) ? (float)t[v] : NAN;
 	snprintf(desc, sizeof desc, "splitroi localizer t, df %g (fixed effects)", m->df);
-	rc = nii_write_stat(path, g, tf, 1, 0.0, NIFTI_INTENT_TTEST, m->df, desc, e);
+	rc = nii_write_stat(path, g, tf, 1, 0.0, NII_INTENT_TTEST, m->df, desc, e);
 	free(tf);
 	if (rc)
 		return rc;
