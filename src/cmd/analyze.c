@@ -227,7 +227,7 @@ static int load_shared(const study *st, parcels_set *ps, unsigned char **mask, n
 		fprintf(stderr, "splitroi analyze: %s\n", e->msg);
 		return 1;
 	}
-	if (ps->labels && parcels_template_on_raw(st, &ps->grid, st->parcels))
+	if (ps->labels && subject_parcels_template_on_raw(st, &ps->grid, st->parcels))
 		sr_warnf(e, "%s: " PARCELS_RAW_NOTE, st->parcels);
 	if (st->derivatives && !bids_is_derivative(st->derivatives))
 		sr_warnf(e, "%s: its dataset_description.json does not say \"DatasetType\": \"derivative\"; is this the preprocessed dataset?",

@@ -1570,6 +1570,11 @@ int study_per_subject(const char *path)
 	return path && strstr(path, "{subject}") != NULL;
 }
 
+int study_mask_per_subject(const study *st)
+{
+	return st->mask_auto || study_per_subject(st->mask);
+}
+
 char *study_subject_path(const char *path, const char *label)
 {
 	static const char key[] = "{subject}";

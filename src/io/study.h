@@ -172,6 +172,8 @@ sr_status study_runs(const study *s, const char *subject, const char *task, bids
 
 /* 1 when a path holds the {subject} placeholder (per-subject parcels). */
 int study_per_subject(const char *path);
+/* 1 when the study's mask depends on the subject (mask = auto, or {subject} in its path). */
+int study_mask_per_subject(const study *st);
 /* The path with every {subject} replaced by label; xmalloc'ed, caller frees. */
 char *study_subject_path(const char *path, const char *label);
 void study_problems_release(study_problems *p);

@@ -470,7 +470,7 @@ void studycheck_subject_mask(studycheck_ctx *c, const char *label, const studych
 		(*paths)[n++] = study_subject_path(st->mask, label);
 	}
 	*npaths = n;
-	if (n && mask_intersection(*paths, n, &m, &mg, count, &e) != SR_OK) {
+	if (n && subject_mask_intersection(*paths, n, &m, &mg, count, &e) != SR_OK) {
 		sc_problem(c, "%s", e.msg);
 	} else if (n) {
 		*read = 1;
@@ -661,7 +661,7 @@ int studycheck_parcels_validate(studycheck_ctx *c, const studycheck_grid *grids,
 		return 1;
 	}
 	f->loaded = 1;
-	raw = parcels_template_on_raw(st, &f->ps.grid, st->parcels);
+	raw = subject_parcels_template_on_raw(st, &f->ps.grid, st->parcels);
 	if (raw)
 		sc_warning(c, "%s: " PARCELS_RAW_NOTE, st->parcels);
 	for (g = 0; g < ngrids; g++) {

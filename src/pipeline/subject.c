@@ -37,7 +37,7 @@ const size_t subject_ncolumns = sizeof subject_columns / sizeof subject_columns[
 
 /* ---- parcels ---- */
 
-sr_status mask_intersection(char *const *paths, size_t n, unsigned char **mask, nii_grid *grid,
+sr_status subject_mask_intersection(char *const *paths, size_t n, unsigned char **mask, nii_grid *grid,
 			    size_t *count, sr_err *e)
 {
 	unsigned char *m = NULL;
@@ -80,12 +80,7 @@ sr_status mask_intersection(char *const *paths, size_t n, unsigned char **mask, 
 	return SR_OK;
 }
 
-int study_mask_per_subject(const study *st)
-{
-	return st->mask_auto || study_per_subject(st->mask);
-}
-
-int parcels_template_on_raw(const study *st, const nii_grid *g, const char *path)
+int subject_parcels_template_on_raw(const study *st, const nii_grid *g, const char *path)
 {
 	const char *b = strrchr(path, '/');
 	int tpl;
@@ -233,7 +228,7 @@ static sr_status own_mask(const study *st, const char *label, const task_fit *ta
 	if (!st->mask_auto) {
 		char *p = study_subject_path(st->mask, label);
 
-		rc = mask_intersection(&p, 1, mask, grid, &count, e);
+		rc = subject_mask_intersection(&p, 1, mask, grid, &count, e);
 		*what = p;
 		return rc;
 	}
@@ -250,7 +245,7 @@ static sr_status own_mask(const study *st, const char *label, const task_fit *ta
 			}
 			paths[n++] = tasks[i].runs[r].brain_mask;
 		}
-	rc = mask_intersection(paths, n, mask, grid, &count, e);
+	rc = subject_mask_intersection(paths, n, mask, grid, &count, e);
 	if (!rc)
 		*what = xstrdup(paths[0]);
 	free(paths);
@@ -1341,7 +1336,7 @@ static sr_status loc_labels(loc_setup *L, const nii_grid *grid, size_t nvox, con
 					 label, ps->name[p], (int)ps->index[p], img);
 		return SR_OK;
 	}
-	if (parcels_template_on_raw(st, &ps->grid, img))
+	if (subject_parcels_template_on_raw(st, &ps->grid, img))
 		return sr_fail(e, SR_EDIM, "%s: the parcels are not on the data grid of %s (%s): " PARCELS_RAW_NOTE,
 			       img, first_bold, buf);
 	return sr_fail(e, SR_EDIM,

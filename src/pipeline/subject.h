@@ -89,13 +89,10 @@ sr_status subject_localizer_t(const study *st, const char *label, const unsigned
  * one grid: *mask (xmalloc'ed, nvox), *grid, *count voxels in it. Errors name
  * the image: unreadable, not on the first image's grid, an empty intersection.
  */
-sr_status mask_intersection(char *const *paths, size_t n, unsigned char **mask, nii_grid *grid,
+sr_status subject_mask_intersection(char *const *paths, size_t n, unsigned char **mask, nii_grid *grid,
 			    size_t *count, sr_err *e);
 
-/* 1 when the study's mask depends on the subject (mask = auto, or {subject} in its path). */
-int study_mask_per_subject(const study *st);
-
-int parcels_template_on_raw(const study *st, const nii_grid *g, const char *path);
+int subject_parcels_template_on_raw(const study *st, const nii_grid *g, const char *path);
 #define PARCELS_RAW_NOTE "the parcels are in a template space but the runs are raw data (no space- entity); " \
 	"analyze preprocessed runs in that space (derivatives = and space = in [study]): resampling the parcels does not normalise the data"
 
