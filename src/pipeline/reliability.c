@@ -16,16 +16,16 @@
 #include "tabledict.h"
 #include "tablekeys.h"
 
-const char *const reliab_columns[] = {
+const char *const reliability_columns[] = {
 	"subject", "localizer", "parcel", "split", "split_kind", "part", "define_runs", "n_voxels",
 	"t_threshold", "n_above", "froi_voxels", "t_correlation", "dice", "pairs",
 };
-const size_t reliab_ncolumns = sizeof reliab_columns / sizeof reliab_columns[0];
+const size_t reliability_ncolumns = sizeof reliability_columns / sizeof reliability_columns[0];
 
-static void add(reliab_table *tb, const char *loc, const char *parcel, const char *split,
+static void add(reliability_table *tb, const char *loc, const char *parcel, const char *split,
 		const char *def, double nv, double na, double nf, double r, double d, double pairs)
 {
-	reliab_row *w;
+	reliability_row *w;
 
 	XGROW(tb->rows, tb->n, tb->cap);
 	w = &tb->rows[tb->n++];
@@ -50,7 +50,7 @@ static size_t label_count(const int32_t *lab, size_t n, int32_t label)
 	return c;
 }
 
-void reliab_add_splits(reliab_table *tb, const char *localizer, const char *const *split,
+void reliability_add_splits(reliability_table *tb, const char *localizer, const char *const *split,
 		       const char *const *def, const char *kind, const char *mdef,
 		       const double *const *t, const int32_t *const *froi, size_t nsplit,
 		       const int32_t *lab, size_t nvox, const int32_t *index, char *const *name, int np,
@@ -90,7 +90,7 @@ void reliab_add_splits(reliab_table *tb, const char *localizer, const char *cons
 	}
 }
 
-void reliab_table_release(reliab_table *tb)
+void reliability_table_release(reliability_table *tb)
 {
 	size_t i;
 
@@ -106,7 +106,7 @@ void reliab_table_release(reliab_table *tb)
 	memset(tb, 0, sizeof *tb);
 }
 
-sr_status reliab_table_write(const char *path, const char *subject, const reliab_table *tb,
+sr_status reliability_table_write(const char *path, const char *subject, const reliability_table *tb,
 			     sr_err *e)
 {
 	csvout c;
@@ -114,12 +114,12 @@ sr_status reliab_table_write(const char *path, const char *subject, const reliab
 	size_t i;
 	char pid[512];
 
-	rc = csvout_open(&c, path, reliab_columns, reliab_ncolumns, e);
+	rc = csvout_open(&c, path, reliability_columns, reliability_ncolumns, e);
 	if (rc)
 		return rc;
 	snprintf(pid, sizeof pid, "sub-%s", subject);   /* participant_id, as in responses.csv */
 	for (i = 0; i < tb->n; i++) {
-		const reliab_row *w = &tb->rows[i];
+		const reliability_row *w = &tb->rows[i];
 
 		csvout_str(&c, pid);
 		tablekeys_put(&c, w->localizer, w->parcel, w->split);
@@ -134,7 +134,7 @@ sr_status reliab_table_write(const char *path, const char *subject, const reliab
 		csvout_endrow(&c);
 	}
 	rc = csvout_commit(&c, e);
-	return rc ? rc : tabledict_write(path, reliab_columns, reliab_ncolumns, NULL, 0, e);
+	return rc ? rc : tabledict_write(path, reliability_columns, reliability_ncolumns, NULL, 0, e);
 }
 
 /* ---- the group summary ---- */
@@ -259,7 +259,7 @@ static sr_status read_one(const char *path, void *ctx, sr_err *e)
 	return read_subject(path, &k->keys, &k->nk, &k->cap, e);
 }
 
-sr_status reliab_group_write(const char *out, char *const *labels, size_t n, sr_err *e)
+sr_status reliability_group_write(const char *out, char *const *labels, size_t n, sr_err *e)
 {
 	rkeys k = { NULL, 0, 0 };
 	size_t i;

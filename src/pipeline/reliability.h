@@ -8,22 +8,22 @@
 #include "../core/err.h"
 
 /* One row of reliability.csv: a split's own row (pair columns NaN) or a ":mean" row. */
-typedef struct reliab_row {
+typedef struct reliability_row {
 	char *localizer, *parcel, *split, *define_runs;
 	double n_voxels;       /* parcel voxels with a finite define t (a mean on ":mean" rows) */
 	double n_above;        /* of those, t > RELIAB_T_ABOVE (a mean on ":mean" rows) */
 	double froi_voxels;    /* the fROI's size (a mean on ":mean" rows) */
 	double t_correlation, dice, pairs;   /* ":mean" rows only, else NaN */
-} reliab_row;
+} reliability_row;
 
-typedef struct reliab_table {
-	reliab_row *rows;
+typedef struct reliability_table {
+	reliability_row *rows;
 	size_t n, cap;
-} reliab_table;
+} reliability_table;
 
 /* The columns of reliability.csv, in order (one list: the writer and the combined table use it). */
-extern const char *const reliab_columns[];
-extern const size_t reliab_ncolumns;
+extern const char *const reliability_columns[];
+extern const size_t reliability_ncolumns;
 
 /*
  * Adds the rows of one localizer's splits: per split (name split[s], define
@@ -34,15 +34,15 @@ extern const size_t reliab_ncolumns;
  * data grid; np parcels with index[] and name[]; lost[p] (or NULL) marks a
  * parcel with no voxel, whose rows are empty.
  */
-void reliab_add_splits(reliab_table *tb, const char *localizer, const char *const *split,
+void reliability_add_splits(reliability_table *tb, const char *localizer, const char *const *split,
 		       const char *const *def, const char *kind, const char *mdef,
 		       const double *const *t, const int32_t *const *froi, size_t nsplit,
 		       const int32_t *lab, size_t nvox, const int32_t *index, char *const *name, int np,
 		       const unsigned char *lost);
-void reliab_table_release(reliab_table *tb);
+void reliability_table_release(reliability_table *tb);
 
 /* Writes the rows as reliability.csv (header + rows) atomically. */
-sr_status reliab_table_write(const char *path, const char *subject, const reliab_table *tb,
+sr_status reliability_table_write(const char *path, const char *subject, const reliability_table *tb,
 			     sr_err *e);
 
 /*
@@ -53,6 +53,6 @@ sr_status reliab_table_write(const char *path, const char *subject, const reliab
  * the file is left out with a warning through e->warn; when no subject has
  * one (tables made by hand), no summary is written and an old one removed.
  */
-sr_status reliab_group_write(const char *out, char *const *labels, size_t n, sr_err *e);
+sr_status reliability_group_write(const char *out, char *const *labels, size_t n, sr_err *e);
 
 #endif

@@ -132,7 +132,7 @@ void subject_result_release(subject_result *r)
 	}
 	free(r->rows);
 	free(r->leftout);
-	reliab_table_release(&r->rel);
+	reliability_table_release(&r->rel);
 	tc_table_release(&r->tc);
 	memset(r, 0, sizeof *r);
 }
@@ -1134,7 +1134,7 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 		free(tcv);
 		free(tcuse);
 		if (!rc && nsplits > 0)
-			reliab_add_splits(&res->rel, lname, (const char *const *)keep_name,
+			reliability_add_splits(&res->rel, lname, (const char *const *)keep_name,
 					  (const char *const *)keep_def,
 					  st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean", mdef,
 					  (const double *const *)keep_t, (const int32_t *const *)keep_f,
@@ -1500,7 +1500,7 @@ static sr_status write_outputs(const subject_ctx *ctx, const char *dir, const ch
 	if (rc)
 		return rc;
 	snprintf(path, sizeof path, "%s/reliability.csv", dir);
-	rc = reliab_table_write(path, label, &res->rel, e);
+	rc = reliability_table_write(path, label, &res->rel, e);
 	if (rc)
 		return rc;
 	snprintf(path, sizeof path, "%s/timecourses.csv", dir);

@@ -29,7 +29,7 @@ typedef struct subject_result {
 	double seconds;
 	struct leftout_run *leftout;   /* per run fitted: voxels each rule left out (leftout.h) */
 	size_t nleftout;
-	reliab_table rel;              /* reliability.csv rows */
+	reliability_table rel;              /* reliability.csv rows */
 	tc_table tc;                   /* timecourses.csv rows */
 } subject_result;
 
