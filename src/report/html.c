@@ -12,7 +12,7 @@
 #include "../version.h"
 #include "report.h"
 
-void rh_esc(sbuf *b, const char *s)
+void html_esc(sbuf *b, const char *s)
 {
 	for (; s && *s; s++)
 		switch (*s) {
@@ -29,7 +29,7 @@ void rh_esc(sbuf *b, const char *s)
 }
 
 /* RFC 4648 base64, padded. */
-void rh_data_uri(sbuf *b, const unsigned char *d, size_t n)
+void html_data_uri(sbuf *b, const unsigned char *d, size_t n)
 {
 	static const char al[] = "ABCDEFGHIJKLMNOPQRSTUVWXYZabcdefghijklmnopqrstuvwxyz0123456789+/";
 	size_t i;
@@ -58,7 +58,7 @@ void rh_data_uri(sbuf *b, const unsigned char *d, size_t n)
 	b->n = (size_t)(o - b->p);
 }
 
-void rh_num(sbuf *b, double v)
+void html_num(sbuf *b, double v)
 {
 	if (isnan(v))
 		sbuf_puts(b, "&ndash;");
@@ -115,34 +115,34 @@ static const char css[] =
 	"a.back,nav.toc{display:none}figure{border:0;padding:0}h2{break-after:avoid}"
 	"table{font-size:8.5pt}tr{break-inside:avoid}div.wide{overflow:visible}th,td{white-space:normal}}\n";
 
-void rh_begin(sbuf *b, const char *title, const char *subtitle, const char *back_href,
+void html_begin(sbuf *b, const char *title, const char *subtitle, const char *back_href,
 	      const char *back_text)
 {
 	sbuf_puts(b, "<!DOCTYPE html>\n<html lang=\"en\">\n<head>\n<meta charset=\"utf-8\">\n"
 		   "<meta name=\"viewport\" content=\"width=device-width, initial-scale=1\">\n<title>");
-	rh_esc(b, title);
+	html_esc(b, title);
 	sbuf_puts(b, "</title>\n<style>\n");
 	sbuf_puts(b, css);
 	sbuf_puts(b, "</style>\n</head>\n<body>\n<header class=\"top\">\n");
 	if (back_href) {
 		sbuf_puts(b, "<a class=\"back\" href=\"");
-		rh_esc(b, back_href);
+		html_esc(b, back_href);
 		sbuf_puts(b, "\">&larr; ");
-		rh_esc(b, back_text);
+		html_esc(b, back_text);
 		sbuf_puts(b, "</a>\n");
 	}
 	sbuf_puts(b, "<h1>");
-	rh_esc(b, title);
+	html_esc(b, title);
 	sbuf_puts(b, "</h1>\n");
 	if (subtitle) {
 		sbuf_puts(b, "<p>");
-		rh_esc(b, subtitle);
+		html_esc(b, subtitle);
 		sbuf_puts(b, "</p>\n");
 	}
 	sbuf_puts(b, "</header>\n<main>\n");
 }
 
-void rh_end(sbuf *b, const char *study_file)
+void html_end(sbuf *b, const char *study_file)
 {
 	char when[64] = "";
 	time_t now = time(NULL);
@@ -151,14 +151,14 @@ void rh_end(sbuf *b, const char *study_file)
 	if (gmtime_r(&now, &tm))
 		strftime(when, sizeof when, "%Y-%m-%d %H:%M UTC", &tm);
 	sbuf_puts(b, "<footer class=\"made\"><p class=\"note\">Study file <b class=\"study\">");
-	rh_esc(b, study_file && *study_file ? study_file : "(not recorded)");
+	html_esc(b, study_file && *study_file ? study_file : "(not recorded)");
 	sbuf_puts(b, "</b>; page written by splitroi <b class=\"version\">" SPLITROI_VERSION "</b> on <b class=\"date\">");
-	rh_esc(b, when);
+	html_esc(b, when);
 	sbuf_puts(b, "</b>. Research software: check every result against the data before relying on it.</p></footer>\n"
 		   "</main>\n</body>\n</html>\n");
 }
 
-sr_status rh_write(const char *path, const sbuf *b, sr_err *e)
+sr_status html_write(const char *path, const sbuf *b, sr_err *e)
 {
 	afile a;
 	sr_status rc = afile_open(&a, path, e);

@@ -68,7 +68,7 @@ static void cell(sbuf *b, const char *s)
 		sbuf_printf(b, "<td class=\"n\">%.4g</td>", v);
 	} else {
 		sbuf_puts(b, "<td>");
-		rh_esc(b, s);
+		html_esc(b, s);
 		sbuf_puts(b, "</td>");
 	}
 }
@@ -92,7 +92,7 @@ static int row_kind(const table *t, const cols *c, size_t r, int measured)
 typedef struct chart {
 	char *parcel, *split;
 	strv effects;
-	rs_bar *bars;
+	svg_bar *bars;
 	double *dots;
 } chart;
 
@@ -182,26 +182,26 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 					hi = fmax(hi, h->bars[ei].mean + e);
 				}
 				sbuf_puts(sum, "<tr><td>");
-				rh_esc(sum, parcels.v[pi]);
+				html_esc(sum, parcels.v[pi]);
 				sbuf_puts(sum, "</td><td>");
-				rh_esc(sum, h->split);
+				html_esc(sum, h->split);
 				sbuf_puts(sum, "</td><td>");
-				rh_esc(sum, tasks.v[ti]);
+				html_esc(sum, tasks.v[ti]);
 				sbuf_puts(sum, "</td><td>");
-				rh_esc(sum, h->effects.v[ei]);
+				html_esc(sum, h->effects.v[ei]);
 				sbuf_printf(sum, "</td><td class=\"n\">%zu</td><td class=\"n\">", n);
-				rh_num(sum, h->bars[ei].mean);
+				html_num(sum, h->bars[ei].mean);
 				sbuf_puts(sum, "</td><td class=\"n\">");
-				rh_num(sum, h->bars[ei].sem);
+				html_num(sum, h->bars[ei].sem);
 				sbuf_puts(sum, "</td></tr>\n");
 			}
 		}
 		sbuf_puts(b, "<h3>Task ");
-		rh_esc(b, tasks.v[ti]);
+		html_esc(b, tasks.v[ti]);
 		sbuf_puts(b, measured ? " (fROIs defined on all localizer runs)" : " (held-out runs, mean over splits)");
 		sbuf_puts(b, "</h3>\n<p class=\"note\">One y-scale for every parcel of this task, so bar heights compare across parcels.</p>\n");
 		sbuf_printf(b, "<div class=\"family\" data-task=\"");
-		rh_esc(b, tasks.v[ti]);
+		html_esc(b, tasks.v[ti]);
 		sbuf_puts(b, "\">\n");
 		for (pi = 0; pi < parcels.n; pi++) {
 			chart *h = &ch[pi];
@@ -211,7 +211,7 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
 				continue;
 			snprintf(title, sizeof title, "%s \xe2\x80\x94 %s, %s", h->parcel, tasks.v[ti], h->split);
 			sbuf_puts(b, "<figure>\n");
-			rs_bars(b, ++*uid, title, "percent signal change", h->bars, h->effects.n, lo, hi);
+			svg_bars(b, ++*uid, title, "percent signal change", h->bars, h->effects.n, lo, hi);
 			sbuf_puts(b, "</figure>\n");
 		}
 		sbuf_puts(b, "</div>\n");
@@ -232,7 +232,7 @@ static void charts(sbuf *b, sbuf *sum, const table *t, const cols *c, int measur
  * (NULL-terminated) lead in that order, so the key numbers stay in view of a
  * narrow window, then the others as in the file.
  */
-void table_html(sbuf *b, const table *t, const char *id, const char *const *first)
+void report_table_html(sbuf *b, const table *t, const char *id, const char *const *first)
 {
 	size_t r, c, k, n = 0, *order = xmalloc_array(t->ncols ? t->ncols : 1, sizeof *order);
 	unsigned char *used = xcalloc(t->ncols ? t->ncols : 1, 1);
@@ -251,7 +251,7 @@ void table_html(sbuf *b, const table *t, const char *id, const char *const *firs
 	sbuf_printf(b, "<table id=\"%s\"><thead><tr>", id);
 	for (c = 0; c < n; c++) {
 		sbuf_puts(b, "<th>");
-		rh_esc(b, t->header[order[c]]);
+		html_esc(b, t->header[order[c]]);
 		sbuf_puts(b, "</th>");
 	}
 	sbuf_puts(b, "</tr></thead><tbody>\n");
@@ -266,7 +266,7 @@ void table_html(sbuf *b, const table *t, const char *id, const char *const *firs
 	free(used);
 }
 
-static void subjects_table(sbuf *b, const rsub *subs, size_t n)
+static void subjects_table(sbuf *b, const subpage_summary *subs, size_t n)
 {
 	size_t i, k;
 
@@ -274,22 +274,22 @@ static void subjects_table(sbuf *b, const rsub *subs, size_t n)
 		   "<th>voxels, half B</th><th>Dice</th><th>runs with FD</th><th>runs flagged</th><th>check</th>"
 		   "</tr></thead><tbody>\n");
 	for (i = 0; i < n; i++) {
-		const rsub *s = &subs[i];
+		const subpage_summary *s = &subs[i];
 
 		for (k = 0; k < s->nparcels; k++) {
-			const rsub_parcel *p = &s->parcels[k];
+			const subpage_parcel *p = &s->parcels[k];
 			int bad = qc_overlap_flag(p->size_a, p->size_b, p->dice);
 
 			sbuf_printf(b, "<tr%s><td><a href=\"sub-", bad ? " class=\"flag\"" : "");
-			rh_esc(b, s->label);
+			html_esc(b, s->label);
 			sbuf_puts(b, "/report.html\">sub-");
-			rh_esc(b, s->label);
+			html_esc(b, s->label);
 			sbuf_puts(b, "</a></td><td>");
-			rh_esc(b, p->name);
+			html_esc(b, p->name);
 			sbuf_puts(b, "</td><td class=\"n\">");
-			rh_num(b, p->size_a);
+			html_num(b, p->size_a);
 			sbuf_puts(b, "</td><td class=\"n\">");
-			rh_num(b, p->size_b);
+			html_num(b, p->size_b);
 			sbuf_puts(b, "</td><td class=\"n\">");
 			if (isfinite(p->dice))
 				sbuf_printf(b, "%.3f", p->dice);
@@ -338,12 +338,12 @@ static void incomplete_banner(sbuf *b, const char *out, const table *group, int 
 
 				/* the table holds participant_id (sub-<label>); older tables the bare label */
 				sbuf_puts(b, "<li><b class=\"sub\">sub-");
-				rh_esc(b, strncmp(lab, "sub-", 4) == 0 ? lab + 4 : lab);
+				html_esc(b, strncmp(lab, "sub-", 4) == 0 ? lab + 4 : lab);
 				sbuf_puts(b, "</b> ");
-				rh_esc(b, st);
+				html_esc(b, st);
 				if (cr >= 0 && *table_cell(&t, r, (size_t)cr)) {
 					sbuf_puts(b, ": ");
-					rh_esc(b, table_cell(&t, r, (size_t)cr));
+					html_esc(b, table_cell(&t, r, (size_t)cr));
 				}
 				sbuf_puts(b, "</li>");
 			}
@@ -423,7 +423,7 @@ static void table_view_release(table *view)
 static void localizer_heading(sbuf *b, const char *loc)
 {
 	sbuf_puts(b, "<h3 class=\"localizer\">Localizer ");
-	rh_esc(b, loc);
+	html_esc(b, loc);
 	sbuf_puts(b, "</h3>\n");
 }
 
@@ -560,7 +560,7 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 	int have_all = allp != NULL;
 	const table g = *gp, all = allp ? *allp : *gp;
 	tc_chart *ch;
-	rs_curve **cvs;
+	svg_curve **cvs;
 	double *tv;
 
 	for (r = 0; r < g.nrows; r++)
@@ -577,7 +577,7 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 	for (q = 0; q < nb; q++)
 		tv[q] = strtod(times.v[q], NULL);
 	for (k = 0; k < nch; k++) {
-		rs_curve *cv = cvs[k] = xcalloc(ch[k].cond.n ? ch[k].cond.n : 1, sizeof *cv);
+		svg_curve *cv = cvs[k] = xcalloc(ch[k].cond.n ? ch[k].cond.n : 1, sizeof *cv);
 
 		for (q = 0; q < ch[k].cond.n; q++) {
 			double *mean = xmalloc_array(nb ? nb : 1, sizeof *mean);
@@ -595,7 +595,7 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 	}
 	sbuf_puts(b, "<div class=\"charts\">\n");
 	for (k = 0; k < nch; k++) {
-		rs_curve *cv = cvs[k];
+		svg_curve *cv = cvs[k];
 		double lo = 0, hi = 0;
 		char title[1024];
 		size_t o;
@@ -603,12 +603,12 @@ static void tc_draw(sbuf *b, const table *gp, const table *allp, const int *gc, 
 		/* one y-range per task and split kind, so a flat parcel looks flat */
 		for (o = 0; o < nch; o++)
 			if (!strcmp(ch[o].task, ch[k].task) && !strcmp(ch[o].split, ch[k].split))
-				rs_curves_range(cvs[o], ch[o].cond.n, nb, &lo, &hi);
+				svg_curves_range(cvs[o], ch[o].cond.n, nb, &lo, &hi);
 		snprintf(title, sizeof title, "%s, %s (%s)", ch[k].parcel, ch[k].task, ch[k].split);
-		rs_curves(b, ++*uid, title, tv, nb, cv, ch[k].cond.n, lo, hi);
+		svg_curves(b, ++*uid, title, tv, nb, cv, ch[k].cond.n, lo, hi);
 	}
 	for (k = 0; k < nch; k++) {
-		rs_curve *cv = cvs[k];
+		svg_curve *cv = cvs[k];
 
 		for (q = 0; q < ch[k].cond.n; q++) {
 			free((double *)cv[q].mean);
@@ -645,13 +645,13 @@ static void reliability_section(sbuf *b, const char *out)
 		return;
 	}
 	sbuf_puts(b, "<div class=\"wide\">");
-	table_html(b, &t, "reliability", lead);
+	report_table_html(b, &t, "reliability", lead);
 	sbuf_puts(b, "</div>\n");
 	table_release(&t);
 }
 
 /* Every subject's page; 1 when one could not be written (its stale page removed). */
-static int subject_pages(const char *out, char **labels, size_t nsub, rsub *subs, size_t *nok)
+static int subject_pages(const char *out, char **labels, size_t nsub, subpage_summary *subs, size_t *nok)
 {
 	char path[8192];
 	size_t i;
@@ -661,7 +661,7 @@ static int subject_pages(const char *out, char **labels, size_t nsub, rsub *subs
 	*nok = 0;
 	for (i = 0; i < nsub; i++) {
 		sr_err_init(&e, NULL, NULL);
-		if (rsub_page(out, labels[i], &subs[i], &e)) {
+		if (subpage_write(out, labels[i], &subs[i], &e)) {
 			fprintf(stderr, "splitroi report: sub-%s: %s\n", labels[i], e.msg);
 			/* a page left from an earlier run would show results that are no longer there */
 			snprintf(path, sizeof path, "%s/sub-%s/report.html", out, labels[i]);
@@ -675,7 +675,7 @@ static int subject_pages(const char *out, char **labels, size_t nsub, rsub *subs
 }
 
 /* The contents line with a link to each subject page that was written. */
-static void contents_nav(sbuf *b, char **labels, const rsub *subs, size_t nsub)
+static void contents_nav(sbuf *b, char **labels, const subpage_summary *subs, size_t nsub)
 {
 	size_t i;
 
@@ -686,14 +686,14 @@ static void contents_nav(sbuf *b, char **labels, const rsub *subs, size_t nsub)
 		if (!subs[i].ok) {
 			/* no link to a page that was not written (or is stale) */
 			sbuf_puts(b, " sub-");
-			rh_esc(b, labels[i]);
+			html_esc(b, labels[i]);
 			sbuf_puts(b, " <span class=\"flag\">(no page: see the command's messages)</span>");
 			continue;
 		}
 		sbuf_puts(b, " <a href=\"sub-");
-		rh_esc(b, labels[i]);
+		html_esc(b, labels[i]);
 		sbuf_puts(b, "/report.html\">sub-");
-		rh_esc(b, labels[i]);
+		html_esc(b, labels[i]);
 		sbuf_puts(b, "</a>");
 	}
 	sbuf_puts(b, "</nav>\n");
@@ -766,7 +766,7 @@ static void group_section(sbuf *b, table *group, int have_group)
 	sbuf_puts(b, "<div class=\"wide\" id=\"group-box\">");
 	gl = table_localizers(group, &ngl);
 	/* the localizer leads only when there are several (else it follows the numbers) */
-	table_html(b, group, "group", ngl ? lead : lead + 1);
+	report_table_html(b, group, "group", ngl ? lead : lead + 1);
 	strv_free_array(gl, ngl);
 	sbuf_puts(b, "</div>\n");
 }
@@ -775,7 +775,7 @@ int report_write(const char *out, int quiet)
 {
 	char **labels, path[8192];
 	size_t nsub, i, nok = 0;
-	rsub *subs;
+	subpage_summary *subs;
 	table resp, group;
 	int have_resp, have_group, uid = 0, rc = 0;
 	cols c;
@@ -801,7 +801,7 @@ int report_write(const char *out, int quiet)
 
 	sbuf_init(&b);
 	sbuf_init(&sum);
-	rh_begin(&b, "Study report", out, NULL, NULL);
+	html_begin(&b, "Study report", out, NULL, NULL);
 	incomplete_banner(&b, out, &group, have_group);
 	contents_nav(&b, labels, subs, nsub);
 	sbuf_puts(&sum, "<table id=\"summary\"><thead><tr><th>parcel</th><th>split</th><th>measure_task</th>"
@@ -832,10 +832,10 @@ int report_write(const char *out, int quiet)
 	sbuf_puts(&b, sum.p);
 	for (i = 0; i < nsub && !sf; i++)
 		sf = subs[i].study_file;
-	rh_end(&b, sf);
+	html_end(&b, sf);
 	snprintf(path, sizeof path, "%s/report.html", out);
 	sr_err_init(&e, NULL, NULL);
-	if (rh_write(path, &b, &e)) {
+	if (html_write(path, &b, &e)) {
 		fprintf(stderr, "splitroi report: %s\n", e.msg);
 		rc = 1;
 	} else if (!quiet) {
@@ -846,7 +846,7 @@ int report_write(const char *out, int quiet)
 	if (have_resp)
 		table_release(&resp);
 	for (i = 0; i < nsub; i++)
-		rsub_release(&subs[i]);
+		subpage_release(&subs[i]);
 	free(subs);
 	strv_free_array(labels, nsub);
 	return rc;

@@ -342,7 +342,7 @@ static void emit_slice(page *pg, sbuf *b, size_t k, const lmap *m, int32_t label
 		sbuf_printf(b, "<div class=\"slice\"><span></span><span class=\"o t\">%c</span><span></span>"
 			  "<span class=\"o l\">%c</span><img width=\"%d\" height=\"%d\" alt=\"slice k=%zu\" src=\"",
 			  qc_axis_letter(A, 1, 1, NULL), qc_axis_letter(A, 0, -1, NULL), W, H, k);
-		rh_data_uri(b, png, npng);
+		html_data_uri(b, png, npng);
 		sbuf_printf(b, "\"><span class=\"o r\">%c</span><span></span><span class=\"o b\">%c</span><span></span>"
 			  "<span class=\"z\">k = %zu</span></div>\n",
 			  qc_axis_letter(A, 0, 1, NULL), qc_axis_letter(A, 1, -1, NULL), k);
@@ -382,7 +382,7 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 	free(uni);
 	sbuf_puts(b, "<h3 id=\"parcel-");
 	sbuf_printf(b, "%d\">Parcel ", (int)label);
-	rh_esc(b, pg->pname[pi]);
+	html_esc(b, pg->pname[pi]);
 	sbuf_puts(b, "</h3>\n");
 	if (!ns) {
 		sbuf_puts(b, "<p class=\"note\">No fROI voxels in any split.</p>\n");
@@ -394,7 +394,7 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 		for (v = 0; v < pg->nvox; v++)
 			cnt += pg->maps[k].lab[v] == label;
 		sbuf_puts(b, "<figure><figcaption><b>");
-		rh_esc(b, pg->maps[k].token);
+		html_esc(b, pg->maps[k].token);
 		sbuf_printf(b, "</b>: fROI (hatched), %zu voxels%s</figcaption>\n<div class=\"strip\">\n", cnt,
 			  pg->parcels ? "; parcel outline dashed" : "");
 		for (j = 0; j < ns; j++)
@@ -402,7 +402,7 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 		sbuf_puts(b, "</div></figure>\n");
 		if (pg->maps[k].t) {
 			sbuf_puts(b, "<figure><figcaption><b>");
-			rh_esc(b, pg->maps[k].token);
+			html_esc(b, pg->maps[k].token);
 			sbuf_puts(b, "</b>: localizer t (fROI outlined white)</figcaption>\n<div class=\"strip\">\n");
 			for (j = 0; j < ns; j++)
 				emit_slice(pg, b, sl[j], &pg->maps[k], label, DRAW_T, tlo, thi, glo, ghi);
@@ -412,7 +412,7 @@ static void section_parcel(page *pg, sbuf *b, size_t pi, double tlo, double thi,
 }
 
 /* Sizes per split and the overlap of the two halves (mean over fold pairs for leave-one-out). */
-static void overlap(page *pg, rsub *s, sbuf *b)
+static void overlap(page *pg, subpage_summary *s, sbuf *b)
 {
 	size_t pi, k, q;
 
@@ -421,12 +421,12 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 	sbuf_puts(b, "<table id=\"overlap\"><thead><tr><th>parcel</th>");
 	for (k = 0; k < pg->nmaps; k++) {
 		sbuf_puts(b, "<th>voxels ");
-		rh_esc(b, pg->maps[k].token);
+		html_esc(b, pg->maps[k].token);
 		sbuf_puts(b, "</th>");
 	}
 	sbuf_puts(b, "<th>Dice</th><th>check</th></tr></thead><tbody>\n");
 	for (pi = 0; pi < pg->np; pi++) {
-		rsub_parcel *rp = &s->parcels[pi];
+		subpage_parcel *rp = &s->parcels[pi];
 		double dsum = 0, sa = 0, sbsz = 0;
 		size_t npair = 0;
 		int bad;
@@ -462,7 +462,7 @@ static void overlap(page *pg, rsub *s, sbuf *b)
 		rp->dice = npair ? dsum / (double)npair : NAN;
 		bad = qc_overlap_flag(rp->size_a, rp->size_b, rp->dice);
 		sbuf_printf(b, "<tr%s><td>", bad ? " class=\"flag\"" : "");
-		rh_esc(b, rp->name);
+		html_esc(b, rp->name);
 		sbuf_puts(b, "</td>");
 		for (k = 0; k < pg->nmaps; k++) {
 			size_t v, c = 0;
@@ -554,13 +554,13 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 	sr_err_init(&e, NULL, NULL);
 	if (table_read(path, ',', &t, &e)) {
 		sbuf_puts(b, "<p class=\"note\">");
-		rh_esc(b, e.msg);
+		html_esc(b, e.msg);
 		sbuf_puts(b, "</p>\n");
 		return;
 	}
 	if (!t.nrows || !t.ncols) {
 		sbuf_puts(b, "<p class=\"note\">");
-		rh_esc(b, path);
+		html_esc(b, path);
 		sbuf_puts(b, ": no rows, so no figure.</p>\n");
 		table_release(&t);
 		return;
@@ -608,7 +608,7 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 			free(rows);
 		}
 	sbuf_puts(b, "<figure class=\"design\"><figcaption><b>");
-	rh_esc(b, name);
+	html_esc(b, name);
 	sbuf_printf(b, "</b>: %zu volumes &times; %zu columns%s; each trace scaled to its own range", t.nrows, t.ncols,
 		  isfinite(tr) && tr > 0 ? "" : " (TR unknown: x in volumes)");
 	if (ncond && from_events)
@@ -616,7 +616,7 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 	else if (ncond)
 		sbuf_puts(b, "; &#9650; where a condition's regressor rises (the events file is not at hand)");
 	sbuf_puts(b, "</figcaption>\n");
-	rs_design(b, t.header, kind, t.ncols, val, t.nrows, tr, vt, (const double *const *)marks, nmarks);
+	svg_design(b, t.header, kind, t.ncols, val, t.nrows, tr, vt, (const double *const *)marks, nmarks);
 	sbuf_puts(b, "</figure>\n");
 	for (c = 0; c < t.ncols; c++)
 		free(marks[c]);
@@ -655,7 +655,7 @@ static char **words(const char *s, size_t *n)
 	return v.v;
 }
 
-static void motion(page *pg, rsub *s, sbuf *b)
+static void motion(page *pg, subpage_summary *s, sbuf *b)
 {
 	char *mtext = runrec_ini_get(pg->rec.study_text, "model", "motion");
 	char *units = runrec_ini_get(pg->rec.study_text, "model", "motion_units");
@@ -696,7 +696,7 @@ static void motion(page *pg, rsub *s, sbuf *b)
 			sr_err_init(&e, NULL, NULL);
 			if (table_read(run->confounds, 0, &t, &e)) {
 				sbuf_puts(&charts, "<p class=\"note\">");
-				rh_esc(&charts, e.msg);
+				html_esc(&charts, e.msg);
 				sbuf_puts(&charts, "</p>\n");
 				continue;
 			}
@@ -704,9 +704,9 @@ static void motion(page *pg, rsub *s, sbuf *b)
 				if ((ci[j] = table_col(&t, cols[j])) < 0 && ok) {
 					ok = 0;
 					sbuf_puts(&charts, "<p class=\"note\"><span class=\"flag\">&#9873;</span> ");
-					rh_esc(&charts, run->confounds);
+					html_esc(&charts, run->confounds);
 					sbuf_puts(&charts, ": no column ");
-					rh_esc(&charts, cols[j]);
+					html_esc(&charts, cols[j]);
 					sbuf_puts(&charts, " ([model] motion), so no FD for this run.</p>\n");
 				}
 			if (!ok || !t.nrows) {
@@ -730,19 +730,19 @@ static void motion(page *pg, rsub *s, sbuf *b)
 			if (mean > threshold)
 				s->nruns_flagged++;
 			sbuf_printf(b, "<tr%s><td>", mean > threshold ? " class=\"flag\"" : "");
-			rh_esc(b, run->task);
+			html_esc(b, run->task);
 			sbuf_puts(b, "</td><td>");
-			rh_esc(b, run->run);
+			html_esc(b, run->run);
 			sbuf_printf(b, "</td><td class=\"n\">%zu</td><td class=\"n\">%.3f</td><td class=\"n\">%.3f</td><td class=\"n\">%zu</td><td>%s</td></tr>\n",
 				  t.nrows, mean, max, nabove,
 				  mean > threshold ? "<span class=\"flag\">&#9873; mean FD above threshold</span>" : "ok");
 			sbuf_puts(&charts, "<figure><figcaption><b>task ");
-			rh_esc(&charts, run->task);
+			html_esc(&charts, run->task);
 			sbuf_puts(&charts, ", run ");
-			rh_esc(&charts, run->run);
+			html_esc(&charts, run->run);
 			sbuf_printf(&charts, "</b>: mean FD %.3f mm, max %.3f mm%s</figcaption>\n", mean, max,
 				  mean > threshold ? " &mdash; <span class=\"flag\">&#9873; flagged</span>" : "");
-			rs_fd(&charts, ++pg->uid, fd, t.nrows, run->tr, threshold);
+			svg_fd(&charts, ++pg->uid, fd, t.nrows, run->tr, threshold);
 			sbuf_puts(&charts, "</figure>\n");
 			free(mp);
 			free(fd);
@@ -771,14 +771,14 @@ static void responses(page *pg, sbuf *b)
 	sr_err_init(&e, NULL, NULL);
 	if (table_read(path, ',', &t, &e)) {
 		sbuf_puts(b, "<p class=\"note\">");
-		rh_esc(b, e.msg);
+		html_esc(b, e.msg);
 		sbuf_puts(b, "</p>\n");
 		return;
 	}
 	sbuf_puts(b, "<div class=\"wide\"><table id=\"responses\"><thead><tr>");
 	for (c = 0; c < t.ncols; c++) {
 		sbuf_puts(b, "<th>");
-		rh_esc(b, t.header[c]);
+		html_esc(b, t.header[c]);
 		sbuf_puts(b, "</th>");
 	}
 	sbuf_puts(b, "</tr></thead><tbody>\n");
@@ -797,7 +797,7 @@ static void responses(page *pg, sbuf *b)
 			if (num)
 				sbuf_printf(b, "%.4g", v);
 			else
-				rh_esc(b, cell);
+				html_esc(b, cell);
 			sbuf_puts(b, "</td>");
 		}
 		sbuf_puts(b, "</tr>\n");
@@ -854,7 +854,7 @@ static void orientation_note(const page *pg, sbuf *b)
 	sbuf_puts(b, "</p>\n");
 }
 
-sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
+sr_status subpage_write(const char *out, const char *label, subpage_summary *s, sr_err *e)
 {
 	page pg;
 	sbuf b;
@@ -926,7 +926,7 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 
 	sbuf_init(&b);
 	snprintf(title, sizeof title, "sub-%s", label);
-	rh_begin(&b, title, "Subject report: fROIs, overlap of the halves, design matrices and motion",
+	html_begin(&b, title, "Subject report: fROIs, overlap of the halves, design matrices and motion",
 		 "../report.html", "study report");
 	sbuf_puts(&b, "<nav class=\"toc\"><a href=\"#frois\">fROIs</a> &middot; <a href=\"#overlap-h\">sizes and overlap</a> &middot; "
 		    "<a href=\"#design\">design matrices</a> &middot; <a href=\"#motion-h\">motion</a> &middot; "
@@ -960,7 +960,7 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		snprintf(rpath, sizeof rpath, "%s/sub-%s/reliability.csv", out, label);
 		if (table_read(rpath, ',', &rt, NULL) == SR_OK) {
 			sbuf_puts(&b, "<div class=\"wide\">");
-			table_html(&b, &rt, "reliability", lead);
+			report_table_html(&b, &rt, "reliability", lead);
 			sbuf_puts(&b, "</div>\n");
 			table_release(&rt);
 		} else {
@@ -975,7 +975,7 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 	orientation_note(&pg, &b);
 	sbuf_puts(&b, "<p class=\"note\">Localizer t uses the viridis scale below (1st to 99th percentile of this "
 		    "subject's t maps).</p>\n");
-	rs_colorbar(&b, ++pg.uid, tlo, thi, "localizer t");
+	svg_colorbar(&b, ++pg.uid, tlo, thi, "localizer t");
 	for (i = 0; i < pg.np; i++)
 		section_parcel(&pg, &b, i, tlo, thi, glo, ghi);
 	sbuf_puts(&b, "<h2 id=\"design\">Design matrices</h2>\n");
@@ -987,16 +987,16 @@ sr_status rsub_page(const char *out, const char *label, rsub *s, sr_err *e)
 		    "<code>|</code> (<code>1+3|2+4</code>: defined on 1+3 then on 2+4), so no run both defines and "
 		    "measures one fROI.</p>\n");
 	responses(&pg, &b);
-	rh_end(&b, pg.rec.study_file);
+	html_end(&b, pg.rec.study_file);
 	snprintf(path, sizeof path, "%s/report.html", pg.dir);
-	rc = rh_write(path, &b, e);
+	rc = html_write(path, &b, e);
 	s->ok = rc == SR_OK;
 	sbuf_release(&b);
 	page_release(&pg);
 	return rc;
 }
 
-void rsub_release(rsub *s)
+void subpage_release(subpage_summary *s)
 {
 	size_t i;
 

@@ -61,11 +61,11 @@ static void yaxis(sbuf *b, double lo, double hi, double x0, double x1, double to
 		  bottom);
 	sbuf_printf(b, "<text transform=\"translate(%.1f %.1f) rotate(-90)\" font-size=\"11\" text-anchor=\"middle\">",
 		  x0 - 40, (top + bottom) / 2);
-	rh_esc(b, label);
+	html_esc(b, label);
 	sbuf_puts(b, "</text>\n");
 }
 
-void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_bar *bars, size_t n,
+void svg_bars(sbuf *b, int id, const char *title, const char *ylabel, const svg_bar *bars, size_t n,
 	     double ylo, double yhi)
 {
 	const double left = 62, right = 14, top = 30, bottom = 74, bw = 50, gap = 58;
@@ -96,11 +96,11 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 		hi = fmax(hi, yhi);
 	sbuf_printf(b, "<svg xmlns=\"http://www.w3.org/2000/svg\" class=\"bars\" width=\"%.0f\" height=\"%.0f\" viewBox=\"0 0 %.0f %.0f\" role=\"img\" aria-label=\"",
 		  w, h, w, h);
-	rh_esc(b, title);
+	html_esc(b, title);
 	sbuf_puts(b, "\">\n");
 	patterns(b, id);
 	sbuf_printf(b, "<text x=\"%.1f\" y=\"17\" font-size=\"13\" font-weight=\"600\">", left - 50);
-	rh_esc(b, title);
+	html_esc(b, title);
 	sbuf_puts(b, "</text>\n");
 	yaxis(b, lo, hi, left, w - right, top, h - bottom, ylabel, &tlo, &thi, &ystep);
 	/* bar values two digits finer than the axis steps (steps of 1 give 2.05), never 5.26e-05 */
@@ -133,7 +133,7 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 		}
 		sbuf_printf(b, "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"middle\">", x + bw / 2,
 			  h - bottom + 16);
-		rh_esc(b, bars[i].label);
+		html_esc(b, bars[i].label);
 		sbuf_printf(b, "</text><text x=\"%.1f\" y=\"%.1f\" font-size=\"10\" text-anchor=\"middle\" fill=\"#5b6470\">",
 			  x + bw / 2, h - bottom + 30);
 		if (isfinite(bars[i].mean)) {
@@ -149,7 +149,7 @@ void rs_bars(sbuf *b, int id, const char *title, const char *ylabel, const rs_ba
 	sbuf_puts(b, "</svg>\n");
 }
 
-void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double threshold)
+void svg_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double threshold)
 {
 	const double left = 56, right = 18, top = 14, bottom = 40, w = 620, h = 180;
 	double hi = threshold, t_end, tlo, thi, step, ticks[32];
@@ -197,7 +197,7 @@ void rs_fd(sbuf *b, int id, const double *fd, size_t n, double tr, double thresh
 #undef YPIX
 }
 
-void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
+void svg_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
 {
 	const double x0 = 10, wbar = 240, w = 300, h = 52;
 	double ticks[32], step;
@@ -227,7 +227,7 @@ void rs_colorbar(sbuf *b, int gid, double lo, double hi, const char *label)
 			  x, x, x, tl);
 	}
 	sbuf_printf(b, "<text x=\"%.1f\" y=\"48\" font-size=\"11\">", x0);
-	rh_esc(b, label);
+	html_esc(b, label);
 	sbuf_puts(b, "</text>\n</svg>\n");
 }
 
@@ -236,7 +236,7 @@ static const char *const kind_line[4] = { "#8a3b12", "#2f4a63", "#4b5a1e", "#5b6
 static const char *const kind_band[4] = { "#f6ebe3", "#e8edf2", "#eef0e2", "#efede8" };
 static const char *const kind_name[4] = { "conditions", "confounds", "drifts", "baseline" };
 
-void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const double *val,
+void svg_design(sbuf *b, char **names, const int *kind, size_t ncols, const double *val,
 	       size_t nrows, double tr, double vt, const double *const *marks, const size_t *nmarks)
 {
 	const double left = 150, right = 16, top = 8, trace = 22, gap = 5, evh = 8, head = 16, w = 760;
@@ -289,9 +289,9 @@ void rs_design(sbuf *b, char **names, const int *kind, size_t ncols, const doubl
 		y0 = y + trace;   /* bottom of the trace band */
 		y1 = y + 2;       /* top */
 		sbuf_printf(b, "<g class=\"trace\" data-kind=\"%s\" data-column=\"", kind_name[kc]);
-		rh_esc(b, names[c]);
+		html_esc(b, names[c]);
 		sbuf_printf(b, "\"><text x=\"%.1f\" y=\"%.1f\" font-size=\"11\" text-anchor=\"end\">", left - 8, y + trace / 2 + 4);
-		rh_esc(b, names[c]);
+		html_esc(b, names[c]);
 		sbuf_printf(b, "</text><line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#d9d4c7\" stroke-width=\"0.6\"/>",
 			  left, y0, w - right, y0);
 		sbuf_printf(b, "<polyline fill=\"none\" stroke=\"%s\" stroke-width=\"1.3\" points=\"", kind_line[kc]);
@@ -361,7 +361,7 @@ static void curve_path(sbuf *b, const double *y, size_t nb, const double *time, 
 	}
 }
 
-void rs_curves_range(const rs_curve *c, size_t nc, size_t nb, double *lo, double *hi)
+void svg_curves_range(const svg_curve *c, size_t nc, size_t nb, double *lo, double *hi)
 {
 	size_t k, i, s;
 
@@ -381,7 +381,7 @@ void rs_curves_range(const rs_curve *c, size_t nc, size_t nb, double *lo, double
 		}
 }
 
-void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb, const rs_curve *c,
+void svg_curves(sbuf *b, int id, const char *title, const double *time, size_t nb, const svg_curve *c,
 	       size_t nc, double ylo, double yhi)
 {
 	static const char *const hue[] = { "#8a3b12", "#2f4a63", "#4b5a1e", "#6b3d7a", "#39424e" };
@@ -390,7 +390,7 @@ void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb
 	double lo = 0, hi = 0, tlo, thi, tx0 = nb ? time[0] : 0, tx1 = nb ? time[nb - 1] : 1;
 	size_t k, i, s;
 
-	rs_curves_range(c, nc, nb, &lo, &hi);
+	svg_curves_range(c, nc, nb, &lo, &hi);
 	if (isfinite(ylo))
 		lo = fmin(lo, ylo);
 	if (isfinite(yhi))
@@ -399,9 +399,9 @@ void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb
 		hi = lo + 1;
 	sbuf_printf(b, "<svg class=\"chart\" id=\"tc%d\" xmlns=\"http://www.w3.org/2000/svg\" width=\"%.0f\" height=\"%.0f\" "
 		  "viewBox=\"0 0 %.0f %.0f\" role=\"img\"><title>", id, w, h, w, h);
-	rh_esc(b, title);
+	html_esc(b, title);
 	sbuf_printf(b, "</title><text x=\"%.0f\" y=\"18\" font-size=\"13\" font-weight=\"bold\">", left);
-	rh_esc(b, title);
+	html_esc(b, title);
 	sbuf_puts(b, "</text>\n");
 	yaxis(b, lo, hi, left, w - right, top, h - bottom, "percent signal change", &tlo, &thi, NULL);
 	sbuf_printf(b, "<line x1=\"%.1f\" y1=\"%.1f\" x2=\"%.1f\" y2=\"%.1f\" stroke=\"#1d232b\"/>\n", left,
@@ -448,7 +448,7 @@ void rs_curves(sbuf *b, int id, const char *title, const double *time, size_t nb
 			  "<text x=\"%.1f\" y=\"%.1f\" font-size=\"11\">", w - right + 10, top + 10 + 18.0 * k,
 			  w - right + 34, top + 10 + 18.0 * k, col, dash[k % 5][0] ? " stroke-dasharray=\"" : "",
 			  dash[k % 5], dash[k % 5][0] ? "\"" : "", w - right + 38, top + 14 + 18.0 * k);
-		rh_esc(b, c[k].label);
+		html_esc(b, c[k].label);
 		sbuf_puts(b, "</text>\n");
 		free(up);
 		free(dn);

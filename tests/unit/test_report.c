@@ -10,7 +10,7 @@ static void b64(const char *in, const char *want)
 	const char *pre = "data:image/png;base64,";
 
 	sbuf_init(&b);
-	rh_data_uri(&b, (const unsigned char *)in, strlen(in));
+	html_data_uri(&b, (const unsigned char *)in, strlen(in));
 	CHECK(strncmp(b.p, pre, strlen(pre)) == 0 && strcmp(b.p + strlen(pre), want) == 0,
 	      "base64(\"%s\") = \"%s\" (RFC 4648 section 10; got \"%s\")", in, want, b.p + strlen(pre));
 	sbuf_release(&b);
@@ -30,7 +30,7 @@ int main(void)
 	b64("fooba", "Zm9vYmE=");
 	b64("foobar", "Zm9vYmFy");
 	sbuf_init(&b);
-	rh_esc(&b, "a<b & \"c\" 'd'>");
+	html_esc(&b, "a<b & \"c\" 'd'>");
 	CHECK(strcmp(b.p, "a&lt;b &amp; &quot;c&quot; &#39;d&#39;&gt;") == 0, "escaping of <, &, quotes and > (got %s)", b.p);
 	sbuf_release(&b);
 	sbuf_init(&b);
