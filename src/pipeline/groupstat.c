@@ -200,7 +200,7 @@ static int write_reliability(const group_ctx *g, sr_err *e)
 		if (g->subj[i].status == SUBJ_USED)
 			labels[n++] = g->subj[i].label;
 	e->warn = warn_sink;
-	rc = reliability_group_write(g->out, labels, n, e) != SR_OK || tc_group_write(g->out, labels, n, e) != SR_OK;
+	rc = reliability_group_write(g->out, labels, n, e) != SR_OK || timecourse_group_write(g->out, labels, n, e) != SR_OK;
 	e->warn = NULL;
 	free(labels);
 	return rc;

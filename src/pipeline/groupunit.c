@@ -40,8 +40,8 @@ enum { NTABLES = sizeof tables / sizeof tables[0], NGROUP_TABLES = NTABLES - 2 *
 
 static void sub_columns(size_t k, const char *const **cols, size_t *n)
 {
-	*cols = k == 0 ? subject_columns : k == 1 ? reliability_columns : tc_columns;
-	*n = k == 0 ? subject_ncolumns : k == 1 ? reliability_ncolumns : tc_ncolumns;
+	*cols = k == 0 ? subject_columns : k == 1 ? reliability_columns : timecourse_columns;
+	*n = k == 0 ? subject_ncolumns : k == 1 ? reliability_ncolumns : timecourse_ncolumns;
 }
 
 static int lookup(char **keys, char **vals, size_t n, const char *k, const char **v)

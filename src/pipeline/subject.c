@@ -133,7 +133,7 @@ void subject_result_release(subject_result *r)
 	free(r->rows);
 	free(r->leftout);
 	reliability_table_release(&r->rel);
-	tc_table_release(&r->tc);
+	timecourse_table_release(&r->tc);
 	memset(r, 0, sizeof *r);
 }
 
@@ -677,7 +677,7 @@ static sr_status tc_split(const study *st, const task_fit *t, const int *mpos, i
 			return SR_OK;
 		}
 	}
-	rc = tc_frois(runs, tr, nm, f->chosen, f->start, f->count, np, pos, t->ncond, nbins, st->volume_time,
+	rc = timecourse_frois(runs, tr, nm, f->chosen, f->start, f->count, np, pos, t->ncond, nbins, st->volume_time,
 		      out, e);
 	free(runs);
 	free(tr);
@@ -695,7 +695,7 @@ static void tc_rows(subject_result *res, const char *loc, const parcels_set *ps,
 			if (!use[c])
 				continue;
 			for (b = 0; b < nbins; b++)
-				tc_table_add(&res->tc, loc, ps->name[p], sname, t->task, t->conds[c], b * tr,
+				timecourse_table_add(&res->tc, loc, ps->name[p], sname, t->task, t->conds[c], b * tr,
 					     v[((size_t)p * (size_t)t->ncond + (size_t)c) * (size_t)nbins + (size_t)b]);
 		}
 }
@@ -1504,7 +1504,7 @@ static sr_status write_outputs(const subject_ctx *ctx, const char *dir, const ch
 	if (rc)
 		return rc;
 	snprintf(path, sizeof path, "%s/timecourses.csv", dir);
-	rc = tc_table_write(path, label, &res->tc, e);
+	rc = timecourse_table_write(path, label, &res->tc, e);
 	if (rc)
 		return rc;
 	res->seconds = now_seconds() - t0;

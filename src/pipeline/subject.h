@@ -30,7 +30,7 @@ typedef struct subject_result {
 	struct leftout_run *leftout;   /* per run fitted: voxels each rule left out (leftout.h) */
 	size_t nleftout;
 	reliability_table rel;              /* reliability.csv rows */
-	tc_table tc;                   /* timecourses.csv rows */
+	timecourse_table tc;                   /* timecourses.csv rows */
 } subject_result;
 
 /* Progress callback: stage text such as "fitting 3 runs". */

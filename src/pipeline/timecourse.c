@@ -15,16 +15,16 @@
 #include "tabledict.h"
 #include "tablekeys.h"
 
-const char *const tc_columns[] = {
+const char *const timecourse_columns[] = {
 	"subject", "localizer", "parcel", "split", "split_kind", "part", "measure_task", "condition",
 	"time", "value",
 };
-const size_t tc_ncolumns = sizeof tc_columns / sizeof tc_columns[0];
+const size_t timecourse_ncolumns = sizeof timecourse_columns / sizeof timecourse_columns[0];
 
-void tc_table_add(tc_table *tb, const char *localizer, const char *parcel, const char *split,
+void timecourse_table_add(timecourse_table *tb, const char *localizer, const char *parcel, const char *split,
 		  const char *task, const char *condition, double time, double value)
 {
-	tc_row *w;
+	timecourse_row *w;
 
 	XGROW(tb->rows, tb->n, tb->cap);
 	w = &tb->rows[tb->n++];
@@ -37,7 +37,7 @@ void tc_table_add(tc_table *tb, const char *localizer, const char *parcel, const
 	w->value = value;
 }
 
-void tc_table_release(tc_table *tb)
+void timecourse_table_release(timecourse_table *tb)
 {
 	size_t i;
 
@@ -54,18 +54,18 @@ void tc_table_release(tc_table *tb)
 	memset(tb, 0, sizeof *tb);
 }
 
-sr_status tc_table_write(const char *path, const char *subject, const tc_table *tb, sr_err *e)
+sr_status timecourse_table_write(const char *path, const char *subject, const timecourse_table *tb, sr_err *e)
 {
 	csvout c;
 	size_t i;
 	char pid[512];
-	sr_status rc = csvout_open(&c, path, tc_columns, tc_ncolumns, e);
+	sr_status rc = csvout_open(&c, path, timecourse_columns, timecourse_ncolumns, e);
 
 	if (rc)
 		return rc;
 	snprintf(pid, sizeof pid, "sub-%s", subject);   /* participant_id, as in responses.csv */
 	for (i = 0; i < tb->n; i++) {
-		const tc_row *w = &tb->rows[i];
+		const timecourse_row *w = &tb->rows[i];
 
 		csvout_str(&c, pid);
 		tablekeys_put(&c, w->localizer, w->parcel, w->split);
@@ -76,7 +76,7 @@ sr_status tc_table_write(const char *path, const char *subject, const tc_table *
 		csvout_endrow(&c);
 	}
 	rc = csvout_commit(&c, e);
-	return rc ? rc : tabledict_write(path, tc_columns, tc_ncolumns, NULL, 0, e);
+	return rc ? rc : tabledict_write(path, timecourse_columns, timecourse_ncolumns, NULL, 0, e);
 }
 
 /*
@@ -140,7 +140,7 @@ static sr_status froi_series(const runfit_result *r, const size_t *vox, const si
 	return st;
 }
 
-sr_status tc_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
+sr_status timecourse_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
 		   const size_t *start, const size_t *count, int nf, const int32_t *pos, int ncond,
 		   int nbins, double volume_time, double *out, sr_err *e)
 {
@@ -346,7 +346,7 @@ static sr_status read_one(const char *path, void *ctx, sr_err *e)
 	return read_subject(path, ctx, e);
 }
 
-sr_status tc_group_write(const char *out, char *const *labels, size_t n, sr_err *e)
+sr_status timecourse_group_write(const char *out, char *const *labels, size_t n, sr_err *e)
 {
 	tkeys ks;
 	size_t i;

@@ -9,25 +9,25 @@
 #include "runfit.h"
 
 /* One row of timecourses.csv: a bin of one condition's time course. */
-typedef struct tc_row {
+typedef struct timecourse_row {
 	char *localizer, *parcel, *split, *task, *condition;
 	double time;     /* the bin's start, seconds after onset */
 	double value;    /* percent signal change; NaN = empty */
-} tc_row;
+} timecourse_row;
 
-typedef struct tc_table {
-	tc_row *rows;
+typedef struct timecourse_table {
+	timecourse_row *rows;
 	size_t n, cap;
-} tc_table;
+} timecourse_table;
 
 /* The columns of timecourses.csv, in order (the writer and the combined table use this list). */
-extern const char *const tc_columns[];
-extern const size_t tc_ncolumns;
+extern const char *const timecourse_columns[];
+extern const size_t timecourse_ncolumns;
 
-void tc_table_add(tc_table *tb, const char *localizer, const char *parcel, const char *split,
+void timecourse_table_add(timecourse_table *tb, const char *localizer, const char *parcel, const char *split,
 		  const char *task, const char *condition, double time, double value);
-void tc_table_release(tc_table *tb);
-sr_status tc_table_write(const char *path, const char *subject, const tc_table *tb, sr_err *e);
+void timecourse_table_release(timecourse_table *tb);
+sr_status timecourse_table_write(const char *path, const char *subject, const timecourse_table *tb, sr_err *e);
 
 /*
  * The time courses of nf fROIs (fROI i: count[i] voxels vox[start[i]..] of
@@ -41,7 +41,7 @@ sr_status tc_table_write(const char *path, const char *subject, const tc_table *
  * where no run gives one. A run whose FIR design cannot be fitted is left
  * out with a warning. SR_EIO when a run's kept series cannot be read back.
  */
-sr_status tc_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
+sr_status timecourse_frois(const runfit_result *const *run, const double *tr, int nruns, const size_t *vox,
 		   const size_t *start, const size_t *count, int nf, const int32_t *pos, int ncond,
 		   int nbins, double volume_time, double *out, sr_err *e);
 
@@ -53,6 +53,6 @@ sr_status tc_frois(const runfit_result *const *run, const double *tr, int nruns,
  * n < 2). No subject with a file (tables made by hand): nothing written, an
  * old table removed; a subject without one is left out with a warning.
  */
-sr_status tc_group_write(const char *out, char *const *labels, size_t n, sr_err *e);
+sr_status timecourse_group_write(const char *out, char *const *labels, size_t n, sr_err *e);
 
 #endif
