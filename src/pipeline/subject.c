@@ -1000,6 +1000,37 @@ static sr_status measured_rows(const study *st, const char *lname, const char *m
 }
 
 /*
+ * The :mean response rows of one localizer: per parcel and effect 1..ne-1 the
+ * splits' mean of value, n_voxels and n_candidates (cells split, parcel,
+ * effect as loc_pass fills them); the value is NaN when any split's is not finite.
+ */
+static void mean_rows(subject_result *res, const char *lname, const parcels_set *ps, const task_fit *loc,
+		      const char *kind, const char *mdef, const char *mmeas, const double *val, const double *nv,
+		      const double *nc, int nsplits)
+{
+	int ne = loc->ne, s, p, j;
+
+	for (p = 0; p < ps->n; p++) {
+		for (j = 1; j < ne; j++) {
+			double sv = 0, sn = 0, sc = 0;
+			int bad = 0;
+
+			for (s = 0; s < nsplits; s++) {
+				size_t cell = ((size_t)s * (size_t)ps->n + (size_t)p) * (size_t)ne + (size_t)j;
+
+				if (!isfinite(val[cell]))
+					bad = 1;
+				sv += val[cell];
+				sn += nv[cell];
+				sc += nc[cell];
+			}
+			add_row(res, lname, ps->name[p], kind, mdef, loc->task, mmeas, loc->effects[j].text,
+				bad ? NAN : sv / nsplits, sn / nsplits, sc / nsplits);
+		}
+	}
+}
+
+/*
  * One localizer's part of a subject (METHODS.md 6-8): its splits, define t,
  * fROIs, cross-validated rows, reliability and time courses, then its
  * measured tasks in fROIs from all its runs; rows carry lname, maps the
@@ -1093,28 +1124,9 @@ static sr_status loc_pass(const study *st, const char *lname, const char *mapnam
 			if (rc)
 				break;
 		}
-		if (!rc && nsplits > 0) {
-			const char *kind = st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean";
-
-			for (p = 0; p < ps->n; p++) {
-				for (j = 1; j < ne; j++) {
-					double sv = 0, sn = 0, sc = 0;
-					int bad = 0;
-
-					for (s = 0; s < nsplits; s++) {
-						size_t cell = ((size_t)s * (size_t)ps->n + (size_t)p) * (size_t)ne + (size_t)j;
-
-						if (!isfinite(val[cell]))
-							bad = 1;
-						sv += val[cell];
-						sn += nv[cell];
-						sc += nc[cell];
-					}
-					add_row(res, lname, ps->name[p], kind, mdef, loc->task, mmeas, loc->effects[j].text,
-						bad ? NAN : sv / nsplits, sn / nsplits, sc / nsplits);
-				}
-			}
-		}
+		if (!rc && nsplits > 0)
+			mean_rows(res, lname, ps, loc, st->split == SPLIT_ODD_EVEN ? "odd-even:mean" : "leave-one-out:mean",
+				  mdef, mmeas, val, nv, nc, nsplits);
 		if (!rc && nsplits > 0) {
 			/* the :mean time course: the splits' mean, empty where any split's is */
 			double *mv = xmalloc_array(tcper, sizeof *mv);
