@@ -911,11 +911,15 @@ sr_status subpage_write(const char *out, const char *label, subpage_summary *s, 
 	pg.nz = (size_t)in.grid.nz;
 	pg.nvox = nii_nvox(&in.grid);
 	if (pg.rec.parcels) {
-		double *d = read_on_grid(&pg, pg.rec.parcels, &note);
+		/* the one parcel reader: labels validated as analyze validated them; elsewhere on the grid, no outline */
+		parcels_set ps;
 
-		if (d) {
-			pg.parcels = to_labels(d, pg.nvox);
-			free(d);
+		if (parcels_load(pg.rec.parcels, NULL, &ps, &note) == SR_OK) {
+			if (nii_same_grid(&ps.grid, &pg.g, 1e-3, NULL, 0)) {
+				pg.parcels = ps.labels;
+				ps.labels = NULL;
+			}
+			parcels_release(&ps);
 		}
 	}
 	load_maps(&pg, &note);
