@@ -1,4 +1,4 @@
-/* sbuf.h - the one growing text buffer (HTML report pages, slurm scripts, captured command output). */
+/* sbuf.h - the one growing text buffer (HTML report pages, slurm scripts, captured command output, PNG bytes). */
 #ifndef SR_SBUF_H
 #define SR_SBUF_H
 
@@ -7,7 +7,9 @@
 /*
  * p[0..n) is the text, always NUL-terminated once anything was added or
  * sbuf_init ran; cap is the allocated size. A zeroed sbuf ({0}) is a valid empty
- * buffer (p NULL until the first append). The functions carry the module's
+ * buffer (p NULL until the first append). Bytes that are not text (the PNG
+ * encoder's output) go in with sbuf_room and a copy to p + n, then n grows
+ * by their count (no NUL follows them). The functions carry the module's
  * name, sbuf_, as their prefix. Not thread safe: one buffer per thread.
  */
 typedef struct sbuf {

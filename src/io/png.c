@@ -5,26 +5,16 @@
 #include <string.h>
 
 #include "../core/mem.h"
+#include "../core/sbuf.h"
 #include "afile.h"
 #include "png.h"
 
-typedef struct membuf {
-	unsigned char *p;
-	size_t n, cap;
-} membuf;
-
+/* libpng's output goes to the one growing buffer, sbuf, as bytes (sbuf_room, then a copy). */
 static void mem_write(png_structp png, png_bytep data, png_size_t n)
 {
-	membuf *b = png_get_io_ptr(png);
+	sbuf *b = png_get_io_ptr(png);
 
-	if (b->n + n > b->cap) {
-		size_t cap = b->cap ? b->cap : 4096;
-
-		while (cap < b->n + n)
-			cap *= 2;
-		b->p = xrealloc(b->p, cap);
-		b->cap = cap;
-	}
+	sbuf_room(b, n);
 	memcpy(b->p + b->n, data, n);
 	b->n += n;
 }
@@ -56,7 +46,7 @@ sr_status srpng_encode(const unsigned char *px, int w, int h, int channels, unsi
 				      PNG_COLOR_TYPE_RGB_ALPHA };
 	png_structp png;
 	png_infop info;
-	membuf b = { NULL, 0, 0 };
+	sbuf b = { NULL, 0, 0 };
 	char msg[256] = "";
 	volatile int y;
 
@@ -86,7 +76,7 @@ sr_status srpng_encode(const unsigned char *px, int w, int h, int channels, unsi
 		png_write_row(png, (png_const_bytep)(px + (size_t)y * (size_t)w * (size_t)channels));
 	png_write_end(png, info);
 	png_destroy_write_struct(&png, &info);
-	*out = b.p;
+	*out = (unsigned char *)b.p;
 	*len = b.n;
 	return SR_OK;
 }
