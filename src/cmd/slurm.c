@@ -15,6 +15,7 @@
 #include "../io/afile.h"
 #include "../io/bids.h"
 #include "../io/nii.h"
+#include "../io/readall.h"
 #include "../io/study.h"
 #include "../pipeline/runfit.h"
 #include "../pipeline/studyset.h"
@@ -1058,23 +1059,16 @@ static void cancel_submitted(const char *ids)
 /* Appends what was submitted to jobs.txt: "JOB TASK LABEL..." a task, "JOB group" (the record --status reads). */
 static sr_status record_jobs(const plan *P, char (*ids)[32], const char *grp, sbuf *b, sr_err *e)
 {
-	char path[4096];
-	FILE *f;
-	size_t a, t, k;
+	char path[4096], *old;
+	size_t a, t, k, n;
 
 	snprintf(path, sizeof path, "%s/jobs.txt", P->dir);
 	b->n = 0;
 	sbuf_printf(b, "%s", "");
-	f = fopen(path, "r");
-	if (f) {
-		char buf[8192];
-		size_t n;
-
-		while ((n = fread(buf, 1, sizeof buf - 1, f)) > 0) {
-			buf[n] = 0;
-			sbuf_printf(b, "%s", buf);
-		}
-		fclose(f);
+	/* the lines of earlier submissions, kept in front (none when there is no file yet) */
+	if (readall_file(path, 0, &old, &n) == READALL_OK) {
+		sbuf_puts(b, old);
+		free(old);
 	}
 	for (a = 0; a < P->narrays; a++)
 		for (t = 0; t < P->arrays[a].n; t++) {
