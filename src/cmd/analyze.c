@@ -234,18 +234,11 @@ static int load_shared(const study *st, parcels_set *ps, unsigned char **mask, n
 			 st->derivatives);
 	if (st->mask && !study_mask_per_subject(st)) {
 		nii_info mi;
-		double *md;
-		size_t v, nv;
 
-		if (nii_read_3d(st->mask, &mi, &md, e)) {
+		if (nii_read_mask(st->mask, &mi, mask, NULL, e)) {
 			fprintf(stderr, "splitroi analyze: %s\n", e->msg);
 			return 1;
 		}
-		nv = nii_nvox(&mi.grid);
-		*mask = xmalloc(nv);
-		for (v = 0; v < nv; v++)
-			(*mask)[v] = isfinite(md[v]) && md[v] != 0;
-		free(md);
 		*mask_grid = mi.grid;
 	}
 	return 0;

@@ -409,22 +409,15 @@ static void match_to(pset *p, const pset *full, size_t nvox)
 static sr_status read_mask(const study *st, unsigned char **mask, nii_grid *g, sr_err *e)
 {
 	nii_info info;
-	double *d;
-	size_t v, n;
 	sr_status rc;
 
 	*mask = NULL;
 	if (!st->mask || study_mask_per_subject(st))
 		return SR_OK;   /* a subject's own mask is read with its runs */
-	rc = nii_read_3d(st->mask, &info, &d, e);
+	rc = nii_read_mask(st->mask, &info, mask, NULL, e);
 	if (rc)
 		return rc;
 	*g = info.grid;
-	n = nii_nvox(g);
-	*mask = xmalloc(n);
-	for (v = 0; v < n; v++)
-		(*mask)[v] = isfinite(d[v]) && d[v] != 0;
-	free(d);
 	return SR_OK;
 }
 

@@ -648,6 +648,30 @@ sr_status nii_read_3d(const char *path, nii_info *info, double **data, sr_err *e
 	return rc;
 }
 
+sr_status nii_read_mask(const char *path, nii_info *info, unsigned char **mask, size_t *count, sr_err *e)
+{
+	double *d;
+	size_t v, n, inside = 0;
+	sr_status rc;
+
+	*mask = NULL;
+	if (count)
+		*count = 0;
+	rc = nii_read_3d(path, info, &d, e);
+	if (rc)
+		return rc;
+	n = nii_nvox(&info->grid);
+	*mask = xmalloc(n ? n : 1);
+	for (v = 0; v < n; v++) {
+		(*mask)[v] = isfinite(d[v]) && d[v] != 0;
+		inside += (*mask)[v];
+	}
+	free(d);
+	if (count)
+		*count = inside;
+	return SR_OK;
+}
+
 /* ---- writing ---- */
 
 /* An output image on its way: header written, volumes follow, then rename. */

@@ -90,6 +90,15 @@ void nii_stream_close(nii_stream *s);
 sr_status nii_read_3d(const char *path, nii_info *info, double **data, sr_err *e);
 
 /*
+ * Reads a 3-D mask image, the one rule for every mask (the study's, a
+ * subject's, fit's --mask): a voxel is inside when its value is finite and
+ * not 0. *mask is xmalloc'ed (nvox bytes, 1 or 0; caller frees), *count (may
+ * be NULL) the voxels inside. An empty mask is not an error here: callers say
+ * what it means to them. Errors as nii_read_3d's.
+ */
+sr_status nii_read_mask(const char *path, nii_info *info, unsigned char **mask, size_t *count, sr_err *e);
+
+/*
  * Writes float32 maps on grid g: nt volumes of nvox values each, one after the
  * other in data. Compressed when path ends in .gz. Written to a temporary file
  * in the same folder and renamed, so a failed write leaves no file behind.

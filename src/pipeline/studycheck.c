@@ -696,23 +696,20 @@ int studycheck_mask_validate(studycheck_ctx *c, const studycheck_grid *grids, si
 {
 	const study *st = c->st;
 	nii_info info;
-	double *d;
+	unsigned char *m;
 	sr_err e;
-	size_t v, n, g;
+	size_t g;
 	char why[1024];
 
 	*count = 0;
 	if (!st->mask)
 		return 0;
 	sr_err_init(&e, on_warn, c);
-	if (nii_read_3d(st->mask, &info, &d, &e) != SR_OK) {
+	if (nii_read_mask(st->mask, &info, &m, count, &e) != SR_OK) {
 		sc_problem(c, "%s", e.msg);
 		return 0;
 	}
-	n = nii_nvox(&info.grid);
-	for (v = 0; v < n; v++)
-		*count += isfinite(d[v]) && d[v] != 0;
-	free(d);
+	free(m);
 	if (*count == 0)
 		sc_problem(c, "%s: the mask is empty", st->mask);
 	for (g = 0; g < ngrids; g++)

@@ -48,8 +48,8 @@ sr_status subject_mask_intersection(char *const *paths, size_t n, unsigned char 
 	*count = 0;
 	for (size_t i = 0; i < n; i++) {
 		nii_info info;
-		double *d;
-		sr_status rc = nii_read_3d(paths[i], &info, &d, e);
+		unsigned char *mi;
+		sr_status rc = nii_read_mask(paths[i], &info, &mi, NULL, e);
 
 		if (rc) {
 			free(m);
@@ -58,16 +58,17 @@ sr_status subject_mask_intersection(char *const *paths, size_t n, unsigned char 
 		if (i == 0) {
 			*grid = info.grid;
 			nvox = nii_nvox(&info.grid);
-			m = xmalloc(nvox ? nvox : 1);
-			memset(m, 1, nvox);
-		} else if (!nii_same_grid(grid, &info.grid, 1e-3, why, sizeof why)) {
-			free(d);
+			m = mi;
+			continue;
+		}
+		if (!nii_same_grid(grid, &info.grid, 1e-3, why, sizeof why)) {
+			free(mi);
 			free(m);
 			return sr_fail(e, SR_EDIM, "%s: the mask is not on the grid of %s: %s", paths[i], paths[0], why);
 		}
 		for (v = 0; v < nvox; v++)
-			m[v] &= isfinite(d[v]) && d[v] != 0;
-		free(d);
+			m[v] &= mi[v];
+		free(mi);
 	}
 	for (v = 0; v < nvox; v++)
 		*count += m[v];

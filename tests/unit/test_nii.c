@@ -3,6 +3,7 @@
 
 #include <dirent.h>
 #include <errno.h>
+#include <math.h>
 #include <stdint.h>
 #include <stdio.h>
 #include <stdlib.h>
@@ -253,6 +254,36 @@ static void test_labels_and_3d(void)
 		CHECK(info.datatype == NIFTI_TYPE_INT32 && info.nt == 1, "labels: int32 3-D");
 	}
 	free(d);
+}
+
+/* The one mask rule: inside where the value is finite and not 0 (NaN, +-Inf and 0 outside; negative and fractional inside). */
+static void test_mask(void)
+{
+	nii_grid g;
+	nii_info info;
+	sr_err e;
+	const float v[8] = { 0.0f, 1.0f, NAN, INFINITY, -2.0f, 0.5f, -INFINITY, -0.0f };
+	const unsigned char want[8] = { 0, 1, 0, 0, 1, 1, 0, 0 };
+	unsigned char *m = NULL;
+	size_t count = 99;
+
+	sr_err_init(&e, NULL, NULL);
+	nii_grid_make(&g, 2, 2, 2, 2, 2, 2, 0, 0, 0);
+	CHECK(nii_write_float(tpath("mask.nii.gz"), &g, v, 1, 0, NULL, &e) == SR_OK, "mask: written (%s)", e.msg);
+	CHECK(nii_read_mask(tpath("mask.nii.gz"), &info, &m, &count, &e) == SR_OK && m,
+	      "mask: read (%s)", e.msg);
+	if (m) {
+		CHECK(memcmp(m, want, sizeof want) == 0,
+		      "mask: 0 NaN Inf -Inf -0 outside, 1 -2 0.5 inside (got %d%d%d%d%d%d%d%d)", m[0], m[1], m[2],
+		      m[3], m[4], m[5], m[6], m[7]);
+		CHECK(count == 3, "mask: 3 voxels inside (got %zu)", count);
+		CHECK(info.grid.nx == 2 && info.grid.ny == 2 && info.grid.nz == 2, "mask: its grid is returned");
+	}
+	free(m);
+	m = (unsigned char *)&count;   /* a failed read must set it to NULL */
+	CHECK(nii_read_mask(tpath("no-such-mask.nii.gz"), &info, &m, NULL, &e) == SR_EIO && m == NULL &&
+		      strstr(e.msg, "no-such-mask.nii.gz"),
+	      "mask: a missing file is SR_EIO naming it, no mask: %s", e.msg);
 }
 
 static void test_int16_writer(const char *name)
@@ -656,6 +687,7 @@ int main(void)
 	test_float_roundtrip("series.nii", 4);
 	test_float_roundtrip("series.nii.gz", 4);
 	test_labels_and_3d();
+	test_mask();
 	test_int16_writer("int16.nii");
 	test_int16_writer("int16.nii.gz");
 	test_atomic();
