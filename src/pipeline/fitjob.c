@@ -376,23 +376,17 @@ static int build_contrasts(fitjob *fj)
 static int read_mask(fitjob *j)
 {
 	nii_info mi;
-	double *md;
 	sr_err e;
-	size_t v;
 	int r;
 
 	if (!j->maskpath)
 		return 0;
 	sr_err_init(&e, NULL, NULL);
-	if (nii_read_3d(j->maskpath, &mi, &md, &e) != SR_OK) {
+	if (nii_read_mask(j->maskpath, &mi, &j->mask, NULL, &e) != SR_OK) {
 		fail(j, "%s", e.msg);
 		return 1;
 	}
 	j->nvox = nii_nvox(&mi.grid);
-	j->mask = xmalloc(j->nvox ? j->nvox : 1);
-	for (v = 0; v < j->nvox; v++)
-		j->mask[v] = md[v] != 0.0 && !isnan(md[v]);
-	free(md);
 	for (r = 0; r < j->nrun; r++) {
 		nii_info bi;
 		char why[512];
