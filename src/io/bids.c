@@ -184,39 +184,33 @@ typedef struct run_list {
 	size_t n, cap;
 } run_list;
 
-/* A small sorted-on-demand set of strings. */
-typedef struct str_set {
-	char **s;
-	size_t n, cap;
-} str_set;
-
-static void set_add(str_set *S, const char *v, size_t len)
+/* Adds v[0..len) to S unless S holds it (S is a set of distinct strings, sorted on demand). */
+static void set_add(strv *S, const char *v, size_t len)
 {
 	for (size_t i = 0; i < S->n; i++)
-		if (strlen(S->s[i]) == len && strncmp(S->s[i], v, len) == 0)
+		if (strlen(S->v[i]) == len && strncmp(S->v[i], v, len) == 0)
 			return;
-	XGROW(S->s, S->n, S->cap);
-	S->s[S->n] = xmalloc(len + 1);
-	memcpy(S->s[S->n], v, len);
-	S->s[S->n++][len] = '\0';
+	XGROW(S->v, S->n, S->cap);
+	S->v[S->n] = xmalloc(len + 1);
+	memcpy(S->v[S->n], v, len);
+	S->v[S->n++][len] = '\0';
 }
 
 /* "a, b, c" of the set, sorted; caller frees. */
-static char *set_join(str_set *S)
+static char *set_join(strv *S)
 {
 	size_t len = 1;
 	char *out;
 
-	if (S->n)
-		qsort(S->s, S->n, sizeof *S->s, strv_cmp);
+	strv_sort(S);
 	for (size_t i = 0; i < S->n; i++)
-		len += strlen(S->s[i]) + 2;
+		len += strlen(S->v[i]) + 2;
 	out = xmalloc(len);
 	out[0] = '\0';
 	for (size_t i = 0; i < S->n; i++) {
 		if (i)
 			strcat(out, ", ");
-		strcat(out, S->s[i]);
+		strcat(out, S->v[i]);
 	}
 	return out;
 }
@@ -512,7 +506,7 @@ static void add_run(run_list *L, char *path, const char *name, size_t stem, int 
  */
 static sr_status bold_wanted(char **names, size_t nn, size_t i, const char *path,
 			     const char *func, const char *subject, const char *session,
-			     const char *task, const bids_src *src, str_set *descs, int *want,
+			     const char *task, const bids_src *src, strv *descs, int *want,
 			     sr_err *e)
 {
 	const char *name = names[i];
@@ -556,7 +550,7 @@ static sr_status bold_wanted(char **names, size_t nn, size_t i, const char *path
 
 /* Adds the matching BOLD files of one func/ folder. */
 static sr_status scan_func(const char *func, const char *subject, const char *session,
-			   const char *task, const bids_src *src, run_list *L, str_set *descs,
+			   const char *task, const bids_src *src, run_list *L, strv *descs,
 			   sr_err *e)
 {
 	size_t nn;
@@ -672,7 +666,7 @@ sr_status bids_find_runs(const bids_src *src, const char *subject, const char *t
 			 bids_run **runs, size_t *n, sr_err *e)
 {
 	run_list L = { NULL, 0, 0 };
-	str_set descs = { NULL, 0, 0 };
+	strv descs = { 0 };
 	const char *root = src->deriv ? src->deriv : src->raw;
 	char *subdir = str_printf("%s/sub-%s", root, subject);
 	char *func;
@@ -700,7 +694,7 @@ sr_status bids_find_runs(const bids_src *src, const char *subject, const char *t
 	if (!st && src->deriv && L.n == 0 && descs.n) {
 		size_t nsp;
 		char **sp = bids_spaces(src->deriv, subject, task, &nsp);
-		str_set S = { sp, nsp, nsp };
+		strv S = { sp, nsp, nsp };
 		char *list = set_join(&S), *dl = set_join(&descs);
 
 		st = sr_fail(e, SR_ESTUDY,
@@ -712,9 +706,9 @@ sr_status bids_find_runs(const bids_src *src, const char *subject, const char *t
 		free(dl);
 		strv_free_array(sp, nsp);
 	}
-	strv_free_array(descs.s, descs.n);
+	strv_free(&descs);
 	if (!st && src->deriv && !src->space) {
-		str_set S = { NULL, 0, 0 };
+		strv S = { 0 };
 
 		for (size_t i = 0; i < L.n; i++)
 			set_add(&S, L.r[i].space ? L.r[i].space : "(none)",
@@ -727,7 +721,7 @@ sr_status bids_find_runs(const bids_src *src, const char *subject, const char *t
 				     subject, task, subdir, list);
 			free(list);
 		}
-		strv_free_array(S.s, S.n);
+		strv_free(&S);
 	}
 	free(subdir);
 	if (!st && L.n)
@@ -774,7 +768,7 @@ sr_status bids_runs(const char *root, const char *subject, const char *task, bid
 	return bids_find_runs(&src, subject, task, runs, n, e);
 }
 
-static void spaces_in(const char *func, const char *task, str_set *S)
+static void spaces_in(const char *func, const char *task, strv *S)
 {
 	DIR *d = opendir(func);
 	struct dirent *de;
@@ -799,7 +793,7 @@ static void spaces_in(const char *func, const char *task, str_set *S)
 
 char **bids_spaces(const char *deriv, const char *subject, const char *task, size_t *n)
 {
-	str_set S = { NULL, 0, 0 };
+	strv S = { 0 };
 	char *subdir = str_printf("%s/sub-%s", deriv, subject), *func;
 	char **ses;
 	size_t nses;
@@ -815,10 +809,9 @@ char **bids_spaces(const char *deriv, const char *subject, const char *task, siz
 	}
 	strv_free_array(ses, nses);
 	free(subdir);
-	if (S.n)
-		qsort(S.s, S.n, sizeof *S.s, strv_cmp);
+	strv_sort(&S);
 	*n = S.n;
-	return S.s;
+	return S.v;
 }
 
 void bids_runs_release(bids_run *runs, size_t n)
