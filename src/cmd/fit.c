@@ -30,7 +30,7 @@ static const cmdline_opt opts[O_N + 1] = {
 	[O_DRIFT] = { "drift-cutoff", "S", "cosine drift cutoff in seconds (default 128), or none" },
 	[O_SLICE] = { "volume-time", "F", "fraction of the TR at which a volume counts as acquired (default 0.5)" },
 	[O_SMOOTH] = { "smoothing-fwhm", "MM", "smooth each volume with a Gaussian of MM mm FWHM inside the data (default none)" },
-	[O_MASK] = { "mask", "FILE", "optional 3-D brain mask on the data grid (non-zero = inside)" },
+	[O_MASK] = { "mask", "FILE", "optional 3-D brain mask on the data grid (finite, non-zero = inside)" },
 	[O_THREADS] = { "threads", "N", "threads (default: the CPU count); results do not depend on N" },
 	[O_QUIET] = { "quiet", NULL, "no summary line (warnings still shown)" },
 	[O_STUDY] = { "study", "STUDY.ini", "take runs, events, TR, confounds, model and effects from a study file" },
