@@ -68,6 +68,7 @@ $(BUILD)/%.o: %.c | need-libs
 # The smoothing passes are plain contiguous loops that pay off only when vectorized
 # (-O2 leaves loops of unknown length scalar); the results do not depend on it.
 $(BUILD)/src/core/smooth.o: CFLAGS_ALL += -O3
+$(BUILD)/src/core/batchsum.o: CFLAGS_ALL += -O3
 
 $(BUILD)/libsplitroi.a: $(LIB_OBJ)
 	@rm -f $@

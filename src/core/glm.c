@@ -19,7 +19,8 @@
  * accurate whatever the conditioning of X itself.
  * Streaming: z_k = y_k - y_0 when the constant is in col(X) (precision; the
  * fit of y is the fit of z plus y_0 pinv(X) 1). U_r'z and l are accumulated
- * for batches of volumes with one dgemm per batch.
+ * for batches of volumes, each voxel's sums read and written once per batch
+ * (batchsum.h fixes the order of the arithmetic).
  */
 #include "glm.h"
 
@@ -31,6 +32,7 @@
 #include <sys/mman.h>
 #include <unistd.h>
 
+#include "batchsum.h"
 #include "mem.h"
 #include "pool.h"
 #include "stats.h"
@@ -38,16 +40,15 @@
 #define GLM_RANK_TOL 1e-10
 #define GLM_ESTIM_TOL 1e-8
 #define GLM_RHO_MAX 0.99
-/* volumes per dgemm: each batch reads and writes the accumulators once; more
- * volumes mean less memory traffic but a larger buffer (batch x nvox doubles) */
+/* volumes per batch, a multiple of BATCHSUM_GROUP: each batch reads and writes
+ * the accumulators once; more volumes mean less memory traffic but a larger
+ * buffer (batch x nvox doubles) */
 #define GLM_BATCH 4
 /*
- * Voxels per product of a batch. A chunk whose pending values are all zero
- * (a zero background, a constant voxel) is skipped: adding A * 0 leaves every
- * sum as it is (the sums start at +0 and never become -0), so the results do
- * not change, and the skipped accumulators' pages are never touched. A
- * multiple of every kernel's column unrolling, so that each voxel's sums are
- * formed by the same kernel code as in one product over all voxels.
+ * Voxels per chunk of a volume. A chunk that has held only +0 so far (a zero
+ * background) is skipped: adding A * 0 would leave every sum as it is (the
+ * sums start at +0 and never become -0), so the results do not change, and
+ * the skipped accumulators' pages are never touched.
  */
 #define ACC_CHUNK 256
 /* grid of the adjusted-rho table: -0.99, -0.98, ..., 0.99 */
@@ -365,7 +366,7 @@ struct glm_acc {
 	size_t acc_bytes;
 	int finished;   /* the sums are consumed by the finish */
 	int acc_mapped; /* acc comes from mmap: finished voxels' pages can be handed back early */
-	double *zbuf;   /* GLM_BATCH x nvox: pending shifted volumes */
+	double *ybuf;   /* GLM_BATCH x nvox: pending volumes (shifted in place at the flush) */
 	double *y0, *zz, *zlag, *zprev;
 	double *zsum;   /* only without a constant column: else 1'z = g1'U_r'z */
 	unsigned char *flag;
@@ -391,7 +392,7 @@ glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
 		a->acc_mapped = 1;
 	}
 	/* zeroed: the rows of chunks that are not live are never written */
-	a->zbuf = xcalloc(n, GLM_BATCH * sizeof(double));
+	a->ybuf = xcalloc(n, GLM_BATCH * sizeof(double));
 	a->y0 = xcalloc(n, sizeof(double));
 	a->zz = xcalloc(n, sizeof(double));
 	a->zlag = xcalloc(n, sizeof(double));
@@ -411,7 +412,7 @@ void glm_acc_free(glm_acc *a)
 		munmap(a->acc, a->acc_bytes);
 	else
 		free(a->acc);
-	free(a->zbuf);
+	free(a->ybuf);
 	free(a->y0);
 	free(a->zz);
 	free(a->zlag);
@@ -420,35 +421,6 @@ void glm_acc_free(glm_acc *a)
 	free(a->flag);
 	free(a->live);
 	free(a);
-}
-
-/* 1 when the nb pending values of voxels v0..v1-1 are all zero. */
-static int batch_zero(const glm_acc *a, int nb, size_t v0, size_t v1)
-{
-	int b;
-	size_t v;
-
-	for (b = 0; b < nb; b++) {
-		const double *z = a->zbuf + (size_t)b * a->nvox;
-
-		for (v = v0; v < v1; v++)
-			if (z[v] != 0.0)
-				return 0;
-	}
-	return 1;
-}
-
-/* acc += A[:, k0:k0+nb] Z' for voxels v0..v1-1 (one chunk): the batch of nb volumes ending at volume k. */
-static void chunk_flush(glm_acc *a, int k, int nb, size_t v0, size_t v1)
-{
-	const glm_model *m = a->m;
-	int r2 = 2 * m->r, k0 = k - nb;
-
-	if (nb == 0 || !a->live[v0 / ACC_CHUNK] || batch_zero(a, nb, v0, v1))
-		return;
-	cblas_dgemm(CblasColMajor, CblasNoTrans, CblasTrans, r2, (int)(v1 - v0), nb, 1.0,
-		    m->A + (size_t)r2 * k0, r2, a->zbuf + v0, (int)a->nvox, 1.0,
-		    a->acc + (size_t)r2 * v0, r2);
 }
 
 /* 1 when voxels v0..v1-1 of vol are all +0 (a -0 is not: it would reach a mean's sign). */
@@ -462,85 +434,86 @@ static int vol_zero(const double *vol, size_t v0, size_t v1)
 	return 1;
 }
 
-/* The first volume, voxels v0..v1-1: y0 and the first shifted values. */
-static void add_first(glm_acc *a, const double *vol, double *zb, size_t v0, size_t v1)
-{
-	int shift = a->m->has_const;
-	size_t v;
-
-	for (v = v0; v < v1; v++) {
-		double y = vol[v], z = shift ? 0.0 : y;
-
-		a->y0[v] = y;
-		if (!isfinite(y)) {
-			a->flag[v] = ACC_BAD;
-			z = 0.0;
-		}
-		zb[v] = z;
-		a->zz[v] = z * z;
-		if (a->zsum)
-			a->zsum[v] = z;
-		a->zprev[v] = z;
-	}
-}
-
-/* A later volume, voxels v0..v1-1. */
-static void add_next(glm_acc *a, const double *vol, double *zb, size_t v0, size_t v1)
+/*
+ * The nb pending volumes k0.. of voxels v0..v1-1 (one chunk), in volume
+ * order per voxel: y0, the flags and the running sums, with each pending
+ * value y replaced by its shifted value z (z = y - y0 with a constant in
+ * col(X); 0 where not finite).
+ */
+static void shift_chunk(glm_acc *a, int k0, int nb, size_t v0, size_t v1)
 {
 	double *y0 = a->y0, *zz = a->zz, *zlag = a->zlag, *zsum = a->zsum, *zp = a->zprev;
 	unsigned char *fl = a->flag;
-	int shift = a->m->has_const;
-	size_t v;
+	int shift = a->m->has_const, b;
+	size_t v, n = a->nvox;
 
 	for (v = v0; v < v1; v++) {
-		double y = vol[v], z = shift ? y - y0[v] : y;
+		double *yb = a->ybuf + v;
 
-		if (!isfinite(z)) {
-			fl[v] |= ACC_BAD;
-			z = 0.0;
+		for (b = 0; b < nb; b++) {
+			double y = yb[n * b], z;
+
+			if (k0 + b == 0) {
+				y0[v] = y;
+				z = shift ? 0.0 : y;
+				if (!isfinite(y)) {
+					fl[v] = ACC_BAD;
+					z = 0.0;
+				}
+				zz[v] = z * z;
+				if (zsum)
+					zsum[v] = z;
+			} else {
+				z = shift ? y - y0[v] : y;
+				if (!isfinite(z)) {
+					fl[v] |= ACC_BAD;
+					z = 0.0;
+				}
+				if (y != y0[v])
+					fl[v] |= ACC_VARIES;
+				zz[v] += z * z;
+				zlag[v] += z * zp[v];
+				if (zsum)
+					zsum[v] += z;
+			}
+			zp[v] = z;
+			yb[n * b] = z;
 		}
-		if (y != y0[v])
-			fl[v] |= ACC_VARIES;
-		zb[v] = z;
-		zz[v] += z * z;
-		zlag[v] += z * zp[v];
-		zp[v] = z;
 	}
-	if (zsum)
-		for (v = v0; v < v1; v++)
-			zsum[v] += zb[v];
 }
 
 /*
  * Adds a volume chunk by chunk. A chunk that has held only +0 in every
  * volume so far is left alone while its values stay +0: its sums, its y0 and
  * its pending rows are all +0, exactly what the updates would have left there
- * (0 - 0, 0 * 0 and 0 + 0 are +0).
+ * (0 - 0, 0 * 0 and 0 + 0 are +0), and adding a chunk of zeros to the sums
+ * leaves them as they are (they start at +0 and never become -0).
  */
 /*
  * The volume's values of voxels v0..v1-1 (one chunk); with flush, the
- * chunk's part of the batch's product too. Chunks are independent, so
- * they can be added by any thread in any order with the same bits.
+ * chunk's part of the whole batch too: the shifted values, the running sums
+ * and acc += A[:, k0..k] Z'. Chunks are independent, so they can be added by
+ * any thread in any order with the same bits.
  */
 static void add_chunk(glm_acc *a, const double *vol, size_t v0, size_t v1, int flush)
 {
-	double *zb = a->zbuf + (size_t)a->nb * a->nvox;
 	unsigned char *live = &a->live[v0 / ACC_CHUNK];
+	int r2 = 2 * a->m->r, nb = a->nb + 1, k0 = a->k + 1 - nb;
 
 	if (!*live) {
 		if (vol_zero(vol, v0, v1))
 			return;
 		*live = 1;
-		/* written before the first dgemm reads them: a read would map the shared
+		/* written before the first product reads them: a read would map the shared
 		   zero page, and the write after it a copy plus a TLB flush on every core */
-		memset(a->acc + (size_t)2 * a->m->r * v0, 0, (size_t)2 * a->m->r * (v1 - v0) * sizeof(double));
+		memset(a->acc + (size_t)r2 * v0, 0, (size_t)r2 * (v1 - v0) * sizeof(double));
 	}
-	if (a->k == 0)
-		add_first(a, vol, zb, v0, v1);
-	else
-		add_next(a, vol, zb, v0, v1);
-	if (flush)
-		chunk_flush(a, a->k + 1, a->nb + 1, v0, v1);
+	memcpy(a->ybuf + (size_t)a->nb * a->nvox + v0, vol + v0, (v1 - v0) * sizeof(double));
+	if (!flush)
+		return;
+	shift_chunk(a, k0, nb, v0, v1);
+	batchsum_add(a->acc + (size_t)r2 * v0, r2, a->m->A + (size_t)r2 * k0, r2, a->ybuf + v0, a->nvox, nb,
+		     v1 - v0);
 }
 
 /* Chunks per pool job of glm_acc_add: enough work to outweigh taking a job. */
@@ -931,8 +904,8 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 		return sr_fail(e, SR_EDIM, "%d volumes added for a design of %d rows", a->k, m->T);
 	if (ncon < 0 || (ncon > 0 && !C))
 		return sr_fail(e, SR_EINVAL, "bad contrast count %d", ncon);
-	free(a->zbuf);   /* not needed any more: lowers the peak while the outputs exist */
-	a->zbuf = NULL;
+	free(a->ybuf);   /* not needed any more: lowers the peak while the outputs exist */
+	a->ybuf = NULL;
 
 	out->nvox = nvox;
 	out->ncon = ncon;
