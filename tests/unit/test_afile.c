@@ -10,25 +10,6 @@
 #include "testlib.h"
 #include "tfiles.h"
 
-/* Entries of folder dir (without . and ..); *tmp counts those that look like our temporaries. */
-static int entries(const char *dir, int *tmp)
-{
-	DIR *d = opendir(dir);
-	struct dirent *de;
-	int n = 0;
-
-	*tmp = 0;
-	if (!d)
-		return -1;
-	while ((de = readdir(d)))
-		if (strcmp(de->d_name, ".") && strcmp(de->d_name, "..")) {
-			n++;
-			*tmp += strstr(de->d_name, ".tmp.") != NULL;
-		}
-	closedir(d);
-	return n;
-}
-
 /* The content of path (static buffer), or NULL when it cannot be read. */
 static const char *slurp(const char *path)
 {
@@ -57,7 +38,7 @@ static void test_commit(const char *dir)
 	snprintf(sub, sizeof sub, "%s/derivatives/sub-01", dir);
 	snprintf(path, sizeof path, "%s/beta.tsv", sub);
 	CHECK(afile_open(&a, path, &e) == SR_OK, "open creates missing folders (%s)", e.msg);
-	n = entries(sub, &t);
+	n = tf_entries(sub, &t);
 	CHECK(n == 1 && t == 1, "while open: only a temporary in the folder (%d entries, %d temporary)",
 	      n, t);
 	CHECK(access(path, F_OK) != 0, "and no target yet");
@@ -67,7 +48,7 @@ static void test_commit(const char *dir)
 	CHECK(afile_commit(&a, &e) == SR_OK, "commit (%s)", e.msg);
 	got = slurp(path);
 	CHECK(got && strcmp(got, "melody\t1.5\n") == 0, "the target has the content written");
-	n = entries(sub, &t);
+	n = tf_entries(sub, &t);
 	CHECK(n == 1 && t == 0, "after commit: the target alone, no temporary (%d, %d)", n, t);
 	CHECK(a.f == NULL && a.tmp == NULL && a.path == NULL, "the afile is released");
 	CHECK(stat(path, &st) == 0 && (st.st_mode & 0777) == 0644,
@@ -84,7 +65,7 @@ static void test_commit(const char *dir)
 	afile_abort(&a);
 	got = slurp(path);
 	CHECK(got && strcmp(got, "melody\t1.5\n") == 0, "after abort the old content is intact");
-	n = entries(sub, &t);
+	n = tf_entries(sub, &t);
 	CHECK(n == 1 && t == 0, "and no temporary is left (%d, %d)", n, t);
 	afile_abort(&a);
 	CHECK(a.tmp == NULL, "a second abort is harmless");
@@ -142,7 +123,7 @@ static void test_failures(const char *dir)
 	CHECK(afile_commit(&a, &e) == SR_EIO && strstr(e.msg, folder) && strstr(e.msg, "rename"),
 	      "commit fails with SR_EIO naming the target: %s", e.msg);
 	snprintf(path, sizeof path, "%s/fail", dir);
-	n = entries(path, &t);
+	n = tf_entries(path, &t);
 	CHECK(n == 2 && t == 0, "no temporary is left beside it (%d entries, %d temporary)", n, t);
 	CHECK(a.tmp == NULL && a.path == NULL, "the afile is released after a failed commit");
 }
@@ -165,7 +146,7 @@ static void test_reserve(const char *dir)
 	CHECK(afile_publish(tmp, path, &e) == SR_OK, "publish (%s)", e.msg);
 	got = slurp(path);
 	CHECK(got && strcmp(got, "gzbytes") == 0, "the target has the bytes");
-	n = entries(sub, &t);
+	n = tf_entries(sub, &t);
 	CHECK(n == 1 && t == 0, "the temporary is gone (%d, %d)", n, t);
 	free(tmp);
 

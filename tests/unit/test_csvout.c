@@ -28,22 +28,6 @@ static char *slurp(const char *path)
 	return b;
 }
 
-/* Number of entries in dir other than . and .. */
-static int count_entries(const char *dir)
-{
-	DIR *d = opendir(dir);
-	struct dirent *de;
-	int n = 0;
-
-	if (!d)
-		return -1;
-	while ((de = readdir(d)) != NULL)
-		if (strcmp(de->d_name, ".") && strcmp(de->d_name, ".."))
-			n++;
-	closedir(d);
-	return n;
-}
-
 static const char *const header[] = { "subject", "parcel", "value", "n_voxels", "note" };
 
 static void test_format(const char *dir)
@@ -97,7 +81,7 @@ static void test_format(const char *dir)
 	CHECK(got && strcmp(got, want) == 0, "bytes as RFC 4180 and %%.9g say");
 	free(got);
 	sprintf(path, "%s/out/sub-01", dir);
-	CHECK(count_entries(path) == 1, "no temporary file left beside it");
+	CHECK(tf_entries(path, NULL) == 1, "no temporary file left beside it");
 
 	/* Read back with our own reader: quoting round-trips. */
 	sprintf(path, "%s/out/sub-01/r.csv", dir);
@@ -129,18 +113,18 @@ static void test_failures(const char *dir)
 	csvout_endrow(&c);
 	CHECK(csvout_commit(&c, &e) == SR_EINVAL && strstr(e.msg, "row 2 has 1 fields"),
 	      "short row fails the commit (%s)", e.msg);
-	CHECK(count_entries(sub) == 0, "and leaves no file at all");
+	CHECK(tf_entries(sub, NULL) == 0, "and leaves no file at all");
 
 	CHECK(csvout_open(&c, path, header, 2, &e) == SR_OK, "open");
 	csvout_str(&c, "a");
 	csvout_str(&c, "b");
 	csvout_str(&c, "c");
 	csvout_endrow(&c);
-	CHECK(csvout_commit(&c, &e) == SR_EINVAL && count_entries(sub) == 0, "long row fails, no file");
+	CHECK(csvout_commit(&c, &e) == SR_EINVAL && tf_entries(sub, NULL) == 0, "long row fails, no file");
 
 	CHECK(csvout_open(&c, path, header, 2, &e) == SR_OK, "open");
 	csvout_str(&c, "a");
-	CHECK(csvout_commit(&c, &e) == SR_EINVAL && count_entries(sub) == 0, "unfinished row fails, no file");
+	CHECK(csvout_commit(&c, &e) == SR_EINVAL && tf_entries(sub, NULL) == 0, "unfinished row fails, no file");
 
 	/* An existing table survives an aborted rewrite and is replaced by a committed one. */
 	free(tf_write(sub, "t.csv", "old\n", 0));
@@ -149,11 +133,11 @@ static void test_failures(const char *dir)
 	csvout_endrow(&c);
 	csvout_abort(&c);
 	got = slurp(path);
-	CHECK(got && strcmp(got, "old\n") == 0 && count_entries(sub) == 1, "abort keeps the old file, no temporary");
+	CHECK(got && strcmp(got, "old\n") == 0 && tf_entries(sub, NULL) == 1, "abort keeps the old file, no temporary");
 	free(got);
 	csvout_abort(&c);
 	got = slurp(path);
-	CHECK(got && strcmp(got, "old\n") == 0 && count_entries(sub) == 1,
+	CHECK(got && strcmp(got, "old\n") == 0 && tf_entries(sub, NULL) == 1,
 	      "a second abort keeps the old file and leaves no temporary");
 	free(got);
 	CHECK(csvout_open(&c, path, header, 1, &e) == SR_OK, "open again");
@@ -189,7 +173,7 @@ static void test_failures(const char *dir)
 			setrlimit(RLIMIT_FSIZE, &old);
 			CHECK(st == SR_EIO && strstr(e.msg, "big.csv") && strstr(e.msg, "write failed"),
 			      "failed write is an i/o error naming the file (%s)", e.msg);
-			CHECK(count_entries(sub) == 1, "and leaves neither the table nor a temporary file");
+			CHECK(tf_entries(sub, NULL) == 1, "and leaves neither the table nor a temporary file");
 		} else {
 			printf("skip - cannot lower the file size limit\n");
 		}

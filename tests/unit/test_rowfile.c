@@ -11,22 +11,6 @@
 
 enum { NROWS = 5000, NCOL = 7 };   /* 5000 rows of 56 bytes: past a page, past a single write's buffer */
 
-/* Entries of dir other than . and .. (-1 when it cannot be read). */
-static int entries(const char *dir)
-{
-	DIR *d = opendir(dir);
-	struct dirent *de;
-	int n = 0;
-
-	if (!d)
-		return -1;
-	while ((de = readdir(d)))
-		if (strcmp(de->d_name, ".") != 0 && strcmp(de->d_name, "..") != 0)
-			n++;
-	closedir(d);
-	return n;
-}
-
 /* Row k's values: distinct in every row and column, and not a pattern a stale or shifted read would repeat. */
 static void fill(double *row, size_t k)
 {
@@ -52,7 +36,8 @@ int main(void)
 		free(dir);
 		return TEST_DONE();
 	}
-	CHECK(entries(dir) == 0, "the file has no name in $TMPDIR once made (%d entries)", entries(dir));
+	CHECK(tf_entries(dir, NULL) == 0, "the file has no name in $TMPDIR once made (%d entries)",
+	      tf_entries(dir, NULL));
 
 	bad = 0;
 	for (k = 0; k < NROWS && !bad; k++) {
@@ -94,7 +79,8 @@ int main(void)
 	      "row 5001 of 5001 rows: SR_EIO naming the folder: %s", e.msg);
 
 	rowfile_free(f);
-	CHECK(entries(dir) == 0, "nothing is left in $TMPDIR after free (%d entries)", entries(dir));
+	CHECK(tf_entries(dir, NULL) == 0, "nothing is left in $TMPDIR after free (%d entries)",
+	      tf_entries(dir, NULL));
 	rowfile_free(NULL);   /* allowed: must not crash */
 
 	/* no usable $TMPDIR: no file, and the caller keeps its rows in memory */

@@ -2,6 +2,7 @@
 #ifndef SR_TFILES_H
 #define SR_TFILES_H
 
+#include <dirent.h>
 #include <stdio.h>
 #include <stdlib.h>
 #include <string.h>
@@ -20,6 +21,30 @@ static inline char *tf_tmpdir(void)
 		exit(2);
 	}
 	return strdup(tmpl);
+}
+
+/*
+ * Entries of folder dir other than . and .. (-1 when it cannot be read);
+ * with tmp, *tmp counts those that look like our temporaries (".tmp." in the name).
+ */
+static inline int tf_entries(const char *dir, int *tmp)
+{
+	DIR *d = opendir(dir);
+	struct dirent *de;
+	int n = 0;
+
+	if (tmp)
+		*tmp = 0;
+	if (!d)
+		return -1;
+	while ((de = readdir(d)))
+		if (strcmp(de->d_name, ".") && strcmp(de->d_name, "..")) {
+			n++;
+			if (tmp)
+				*tmp += strstr(de->d_name, ".tmp.") != NULL;
+		}
+	closedir(d);
+	return n;
 }
 
 /* Writes text (len bytes, or strlen when len is 0) to dir/rel, creating missing folders. */
