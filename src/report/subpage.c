@@ -538,6 +538,20 @@ static int design_onsets(const page *pg, const runrec_run *run, const table *d, 
 	return 1;
 }
 
+/* Reads a table (sep as table_read); when it cannot be read, its message goes into b as a note and -1 is returned. */
+static int read_or_note(const char *path, char sep, table *t, sbuf *b)
+{
+	sr_err e;
+
+	sr_err_init(&e, NULL, NULL);
+	if (table_read(path, sep, t, &e) == SR_OK)
+		return 0;
+	sbuf_puts(b, "<p class=\"note\">");
+	html_esc(b, e.msg);
+	sbuf_puts(b, "</p>\n");
+	return -1;
+}
+
 /* One run's design matrix: a trace per column against time, grouped by kind. */
 static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 {
@@ -549,15 +563,9 @@ static void design_figure(page *pg, sbuf *b, const char *path, const char *name)
 	char **conf;
 	char *text;
 	const runrec_run *run;
-	sr_err e;
 
-	sr_err_init(&e, NULL, NULL);
-	if (table_read(path, ',', &t, &e)) {
-		sbuf_puts(b, "<p class=\"note\">");
-		html_esc(b, e.msg);
-		sbuf_puts(b, "</p>\n");
+	if (read_or_note(path, ',', &t, b) != 0)
 		return;
-	}
 	if (!t.nrows || !t.ncols) {
 		sbuf_puts(b, "<p class=\"note\">");
 		html_esc(b, path);
@@ -689,17 +697,11 @@ static void motion(page *pg, subpage_summary *s, sbuf *b)
 			int ci[6], ok = 1;
 			size_t j, i, nabove = 0;
 			double *mp, *fd, mean, max;
-			sr_err e;
 
 			if (!run->confounds)
 				continue;
-			sr_err_init(&e, NULL, NULL);
-			if (table_read(run->confounds, 0, &t, &e)) {
-				sbuf_puts(&charts, "<p class=\"note\">");
-				html_esc(&charts, e.msg);
-				sbuf_puts(&charts, "</p>\n");
+			if (read_or_note(run->confounds, 0, &t, &charts) != 0)
 				continue;
-			}
 			for (j = 0; j < 6; j++)
 				if ((ci[j] = table_col(&t, cols[j])) < 0 && ok) {
 					ok = 0;
@@ -765,16 +767,10 @@ static void responses(page *pg, sbuf *b)
 	char path[4200];
 	table t;
 	size_t r, c;
-	sr_err e;
 
 	snprintf(path, sizeof path, "%s/responses.csv", pg->dir);
-	sr_err_init(&e, NULL, NULL);
-	if (table_read(path, ',', &t, &e)) {
-		sbuf_puts(b, "<p class=\"note\">");
-		html_esc(b, e.msg);
-		sbuf_puts(b, "</p>\n");
+	if (read_or_note(path, ',', &t, b) != 0)
 		return;
-	}
 	sbuf_puts(b, "<div class=\"wide\"><table id=\"responses\"><thead><tr>");
 	for (c = 0; c < t.ncols; c++) {
 		sbuf_puts(b, "<th>");

@@ -55,6 +55,16 @@ expect_status 1 "a damaged run record makes report fail"
 expect_err "sub-01/run.json: line 3" "the message names the run record and its line"
 grep -q "conf_tones_1.tsv: no column tz" "$TMP/bad/sub-02/report.html" && ok "a confounds file without the motion columns is named on the page" || notok "missing motion columns not reported"
 grep -q "task-tones_run-1.csv: no rows" "$TMP/bad/sub-03/report.html" && ok "an empty design matrix is named on the page" || notok "empty design not reported"
+# a table that cannot be read becomes a note naming the file and line; the rest of the page stays
+printf 'a,b\n"unclosed\n' >"$TMP/bad/sub-02/design/task-tones_run-2.csv"
+printf 'tx\tty\n"1\t2\n' >"$TMP/bad/sub-03/conf_tones_1.tsv"
+printf 'subject,parcel\n"x\n' >"$TMP/bad/sub-03/responses.csv"
+run "$SPLITROI" report "$TMP/bad"
+for f in "sub-02/design/task-tones_run-2.csv" "sub-03/conf_tones_1.tsv" "sub-03/responses.csv"; do
+	grep -q "${f}: line 2: a quoted field is never closed</p>" "$TMP/bad/${f%%/*}/report.html" &&
+		ok "an unreadable $f is a note on its page" || notok "no note for an unreadable $f"
+done
+grep -q "task-tones_run-1.csv: no rows" "$TMP/bad/sub-03/report.html" && ok "the page goes on past an unreadable table" || notok "the page stopped at an unreadable table"
 printf 'subject,parcel\n"unclosed\n' >"$TMP/bad/responses.csv"
 run "$SPLITROI" report "$TMP/bad"
 expect_err "responses.csv: line 2" "a broken responses.csv is named with its line"
