@@ -368,9 +368,11 @@ struct glm_acc {
 	int acc_mapped; /* acc comes from mmap: finished voxels' pages can be handed back early */
 	double *ybuf;   /* GLM_BATCH x nvox: pending volumes (shifted in place at the flush) */
 	double *y0, *zz, *zlag, *zprev;
-	double *zsum;   /* only without a constant column: else 1'z = g1'U_r'z */
+	double *zsum;   /* without a constant column (else 1'z = g1'U_r'z), and for the
+			   voxels glm_acc_fit_only leaves unfitted */
 	unsigned char *flag;
 	unsigned char *live; /* per ACC_CHUNK voxels: a value other than +0 has been added */
+	unsigned char *fitv; /* per voxel: it gets the sums (glm_acc_fit_only); NULL = every voxel */
 	int threads;    /* for glm_acc_add (glm_acc_threads) */
 };
 
@@ -420,7 +422,34 @@ void glm_acc_free(glm_acc *a)
 	free(a->zprev);
 	free(a->flag);
 	free(a->live);
+	free(a->fitv);
 	free(a);
+}
+
+void glm_acc_fit_only(glm_acc *a, const size_t *vox, size_t n)
+{
+	size_t i;
+
+	if (a->k > 0 || a->fitv)
+		return;
+	a->fitv = xcalloc(a->nvox ? a->nvox : 1, 1);
+	for (i = 0; i < n; i++)
+		if (vox[i] < a->nvox)
+			a->fitv[vox[i]] = 1;
+	if (!a->zsum)
+		a->zsum = xcalloc(a->nvox ? a->nvox : 1, sizeof(double));
+}
+
+/* 1 when voxel v gets the sums of the fit. */
+static int fitted(const glm_acc *a, size_t v)
+{
+	return !a->fitv || a->fitv[v];
+}
+
+/* 1 when a voxel of v0..v1-1 gets the sums. */
+static int any_fitted(const glm_acc *a, size_t v0, size_t v1)
+{
+	return !a->fitv || memchr(a->fitv + v0, 1, v1 - v0) != NULL;
 }
 
 /* 1 when voxels v0..v1-1 of vol are all +0 (a -0 is not: it would reach a mean's sign). */
@@ -435,50 +464,100 @@ static int vol_zero(const double *vol, size_t v0, size_t v1)
 }
 
 /*
+ * Volume k's value y of voxel v: y0 and the flags, and its shifted value z
+ * (z = y - y0 with a constant in col(X); 0 where not finite), which is
+ * returned and added to zsum when there is one.
+ */
+static inline double shift_one(glm_acc *a, size_t v, int k, double y)
+{
+	double z;
+
+	if (k == 0) {
+		a->y0[v] = y;
+		z = a->m->has_const ? 0.0 : y;
+		if (!isfinite(y)) {
+			a->flag[v] = ACC_BAD;
+			z = 0.0;
+		}
+		if (a->zsum)
+			a->zsum[v] = z;
+		return z;
+	}
+	z = a->m->has_const ? y - a->y0[v] : y;
+	if (!isfinite(z)) {
+		a->flag[v] |= ACC_BAD;
+		z = 0.0;
+	}
+	if (y != a->y0[v])
+		a->flag[v] |= ACC_VARIES;
+	if (a->zsum)
+		a->zsum[v] += z;
+	return z;
+}
+
+/*
  * The nb pending volumes k0.. of voxels v0..v1-1 (one chunk), in volume
  * order per voxel: y0, the flags and the running sums, with each pending
- * value y replaced by its shifted value z (z = y - y0 with a constant in
- * col(X); 0 where not finite).
+ * value y replaced by its shifted value z.
  */
 static void shift_chunk(glm_acc *a, int k0, int nb, size_t v0, size_t v1)
 {
-	double *y0 = a->y0, *zz = a->zz, *zlag = a->zlag, *zsum = a->zsum, *zp = a->zprev;
-	unsigned char *fl = a->flag;
-	int shift = a->m->has_const, b;
+	double *zz = a->zz, *zlag = a->zlag, *zp = a->zprev;
+	int b;
 	size_t v, n = a->nvox;
 
 	for (v = v0; v < v1; v++) {
 		double *yb = a->ybuf + v;
 
 		for (b = 0; b < nb; b++) {
-			double y = yb[n * b], z;
+			double z = shift_one(a, v, k0 + b, yb[n * b]);
 
 			if (k0 + b == 0) {
-				y0[v] = y;
-				z = shift ? 0.0 : y;
-				if (!isfinite(y)) {
-					fl[v] = ACC_BAD;
-					z = 0.0;
-				}
 				zz[v] = z * z;
-				if (zsum)
-					zsum[v] = z;
 			} else {
-				z = shift ? y - y0[v] : y;
-				if (!isfinite(z)) {
-					fl[v] |= ACC_BAD;
-					z = 0.0;
-				}
-				if (y != y0[v])
-					fl[v] |= ACC_VARIES;
 				zz[v] += z * z;
 				zlag[v] += z * zp[v];
-				if (zsum)
-					zsum[v] += z;
 			}
 			zp[v] = z;
 			yb[n * b] = z;
 		}
+	}
+}
+
+/* The nb pending volumes k0.. of voxels v0..v1-1 that get no sums: their y0, flags and zsum. */
+static void stats_chunk(glm_acc *a, int k0, int nb, size_t v0, size_t v1)
+{
+	size_t v, n = a->nvox;
+	int b;
+
+	for (v = v0; v < v1; v++)
+		for (b = 0; b < nb; b++)
+			shift_one(a, v, k0 + b, a->ybuf[n * b + v]);
+}
+
+/*
+ * add_chunk for a chunk of glm_acc_fit_only: each run of fitted voxels as a
+ * chunk of its own, and the others' means and flags, a batch at a time.
+ */
+static void add_some(glm_acc *a, const double *vol, size_t v0, size_t v1, int flush)
+{
+	int r2 = 2 * a->m->r, nb = a->nb + 1, k0 = a->k + 1 - nb;
+	size_t v = v0, end;
+
+	memcpy(a->ybuf + (size_t)a->nb * a->nvox + v0, vol + v0, (v1 - v0) * sizeof(double));
+	if (!flush)
+		return;
+	while (v < v1) {
+		for (end = v; end < v1 && a->fitv[end] == a->fitv[v]; end++)
+			;
+		if (a->fitv[v]) {
+			shift_chunk(a, k0, nb, v, end);
+			batchsum_add(a->acc + (size_t)r2 * v, r2, a->m->A + (size_t)r2 * k0, r2, a->ybuf + v,
+				     a->nvox, nb, end - v);
+		} else {
+			stats_chunk(a, k0, nb, v, end);
+		}
+		v = end;
 	}
 }
 
@@ -506,7 +585,12 @@ static void add_chunk(glm_acc *a, const double *vol, size_t v0, size_t v1, int f
 		*live = 1;
 		/* written before the first product reads them: a read would map the shared
 		   zero page, and the write after it a copy plus a TLB flush on every core */
-		memset(a->acc + (size_t)r2 * v0, 0, (size_t)r2 * (v1 - v0) * sizeof(double));
+		if (any_fitted(a, v0, v1))
+			memset(a->acc + (size_t)r2 * v0, 0, (size_t)r2 * (v1 - v0) * sizeof(double));
+	}
+	if (a->fitv) {
+		add_some(a, vol, v0, v1, flush);
+		return;
 	}
 	memcpy(a->ybuf + (size_t)a->nb * a->nvox + v0, vol + v0, (v1 - v0) * sizeof(double));
 	if (!flush)
@@ -718,8 +802,10 @@ static void voxel_means(const glm_acc *a, const unsigned char *mask, glm_out *o)
 
 		if (a->flag[v] & ACC_BAD) {
 			mean = NAN;
-		} else if (a->zsum) {
+		} else if (!m->has_const) {
 			mean = a->zsum[v] / T;
+		} else if (!fitted(a, v)) {
+			mean = a->y0[v] + a->zsum[v] / T;
 		} else {
 			double s1 = 0.0;
 
@@ -781,6 +867,8 @@ static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish
 			o->var[(size_t)c * nvox + v] = NAN;
 		}
 		o->rho[v] = NAN;
+		if (!fitted(a, v))
+			o->ok[v] = 0;
 		if (!o->ok[v])
 			continue;
 		sc = 100.0 / mean;

@@ -46,6 +46,20 @@ typedef struct glm_acc glm_acc;
 glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox);
 /* Adds the next volume (nvox values; NaN or inf makes that voxel unanalyzable). */
 sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e);
+/*
+ * Before the first volume: only the n voxels vox[] get the sums of the
+ * fit. Every other voxel gets only what its
+ * temporal mean and the rules of METHODS.md section 3 need, so the finish
+ * still gives every voxel its mean, rule and the run's reference intensity,
+ * but effects, variances and rho (NaN elsewhere) and ok (0 elsewhere) only
+ * at vox[].
+ * For a run of which later steps read only those voxels: the sums and the
+ * per-voxel fit are the bulk of the work. The outputs at the fitted voxels
+ * are the same bits as without it; the means elsewhere are summed in another
+ * order (y0 + sum of the shifted values / T instead of through the basis),
+ * so the reference intensity may differ from the full fit's in its last bits.
+ */
+void glm_acc_fit_only(glm_acc *a, const size_t *vox, size_t n);
 /* Threads glm_acc_add may use (default 1); the sums do not depend on them. */
 void glm_acc_threads(glm_acc *a, int nthreads);
 void glm_acc_free(glm_acc *a);

@@ -426,6 +426,17 @@ static void *gather(const void *a, size_t size, size_t n, int nb, const size_t *
 	return out;
 }
 
+/* 1 when spec keeps a contrast on the whole grid (spec->grid_con). */
+static int grid_con_any(const runfit_spec *spec)
+{
+	int c;
+
+	for (c = 0; spec->grid_con && c < spec->ncon; c++)
+		if (spec->grid_con[c])
+			return 1;
+	return 0;
+}
+
 /*
  * Slims res->out to the kept voxels: a subject keeps every run's results
  * until its fROIs are measured, and only the parcel voxels are read after
@@ -605,6 +616,9 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 	}
 	acc = glm_acc_alloc(m, nvox);
 	glm_acc_threads(acc, nthreads);
+	/* a slim run with nothing kept on the whole grid is read only at the kept voxels */
+	if (spec->slim && spec->keep && spec->nkeep && !spec->grid_mean && !grid_con_any(spec))
+		glm_acc_fit_only(acc, spec->keep, spec->nkeep);
 	q.s = s;
 	q.T = T;
 	q.nvox = nvox;

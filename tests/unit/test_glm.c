@@ -559,6 +559,103 @@ static void test_zero_background(void)
 	zero_background(0); /* no constant: the means are sums, where a -0 would show */
 }
 
+/* zero_layout plus voxels each rule leaves out, among and beside the fitted voxels of fit_only. */
+static void rules_layout(double *vol, int nv, int k)
+{
+	int v;
+
+	zero_layout(vol, nv, k, 0);
+	for (v = 3000; v < 3040; v++) {
+		uint64_t st = (uint64_t)v * 7919u + (uint64_t)k + 1;
+
+		if (v < 3010)
+			vol[v] = k == 5 ? NAN : 450 + nrand(&st);   /* not finite */
+		else if (v < 3020)
+			vol[v] = 400;                               /* constant */
+		else
+			vol[v] = 5 + nrand(&st);                    /* under the intensity floor */
+	}
+	vol[6150] = 410;                                        /* constant, in a fitted chunk */
+	vol[6151] = k == 3 ? INFINITY : vol[6151];              /* not finite, in a fitted chunk */
+}
+
+/*
+ * glm_acc_fit_only: the fitted voxels get the full fit's bits, every voxel
+ * its rule, and the others a mean that agrees to rounding and no fit.
+ */
+static void fit_only(int with_const)
+{
+	enum { T = 37, P = 4, NV = 24000 };
+	static const size_t keep[] = { 6100, 6101, 6143, 6144, 6200, 7000, 17020, 17039, 6150, 6151 };
+	double X[T * P], *vol = xmalloc_array(NV, sizeof(double)), C[P] = { 1, -1, 0, 0 }, worst = 0.0;
+	unsigned char fitv[NV] = { 0 };
+	glm_out o[2];
+	glm_model *m;
+	sr_err e;
+	uint64_t s = 78;
+	int n, k, v, same = 1, rules = 1, none = 1;
+	size_t i;
+
+	sr_err_init(&e, NULL, NULL);
+	random_design(X, T, P, &s);
+	for (k = 0; !with_const && k < T; k++)
+		X[(size_t)3 * T + k] = cos(k * 0.3);
+	glm_model_make(X, T, P, &m, &e);
+	for (n = 0; n < 2; n++) {
+		glm_acc *a = glm_acc_alloc(m, NV);
+
+		glm_acc_threads(a, 2);
+		if (n == 1)
+			glm_acc_fit_only(a, keep, sizeof keep / sizeof *keep);
+		for (k = 0; k < T; k++) {
+			rules_layout(vol, NV, k);
+			glm_acc_add(a, vol, &e);
+		}
+		glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 2, &o[n], &e);
+		glm_acc_free(a);
+	}
+	for (i = 0; i < sizeof keep / sizeof *keep; i++)
+		fitv[keep[i]] = 1;
+	for (v = 0; v < NV; v++) {
+		rules &= o[0].rule[v] == o[1].rule[v];
+		if (fitv[v]) {
+			same &= memcmp(&o[0].effect[v], &o[1].effect[v], sizeof(double)) == 0;
+			same &= memcmp(&o[0].var[v], &o[1].var[v], sizeof(double)) == 0;
+			same &= memcmp(&o[0].rho[v], &o[1].rho[v], sizeof(double)) == 0;
+			same &= memcmp(&o[0].mean[v], &o[1].mean[v], sizeof(double)) == 0;
+			same &= o[0].ok[v] == o[1].ok[v];
+			continue;
+		}
+		none &= isnan(o[1].effect[v]) && isnan(o[1].var[v]) && isnan(o[1].rho[v]) && !o[1].ok[v];
+		if (isnan(o[0].mean[v]) != isnan(o[1].mean[v]))
+			worst = INFINITY;
+		else if (!isnan(o[0].mean[v]))
+			worst = fmax(worst, fabs(o[0].mean[v] - o[1].mean[v]) / fmax(1.0, fabs(o[0].mean[v])));
+	}
+	CHECK(o[0].ok[6100] && o[0].ok[7000] && !o[0].ok[6150] && !o[0].ok[6151] && o[0].ok[6500],
+	      "fit_only layout (constant column %d): the kept series are analyzable, the constant and infinite ones not", with_const);
+	CHECK(same, "fit_only (constant column %d): every fitted voxel has the full fit's effect, var, rho, mean and ok bits", with_const);
+	CHECK(rules && memcmp(o[0].left_out, o[1].left_out, sizeof o[0].left_out) == 0 &&
+	      o[1].left_out[GLM_OUT_NONFINITE] == 11 && o[1].left_out[GLM_OUT_CONSTANT] == 11 &&
+	      o[1].left_out[GLM_OUT_FLOOR] == 20,
+	      "fit_only (constant column %d): every voxel's rule and each rule's count as in the full fit", with_const);
+	CHECK(none, "fit_only (constant column %d): no effect, var or rho at the other voxels, none analyzable", with_const);
+	CHECK(worst < 1e-12, "fit_only (constant column %d): the other voxels' means agree to rounding (worst %.2g)", with_const, worst);
+	CHECK(fabs(o[0].ref_intensity - o[1].ref_intensity) <= 1e-12 * o[0].ref_intensity &&
+	      o[0].ref_intensity > 100, "fit_only (constant column %d): reference intensity %.17g vs %.17g",
+	      with_const, o[0].ref_intensity, o[1].ref_intensity);
+	for (n = 0; n < 2; n++)
+		glm_out_release(&o[n]);
+	glm_model_free(m);
+	free(vol);
+}
+
+static void test_fit_only(void)
+{
+	fit_only(1);
+	fit_only(0);
+}
+
 int main(void)
 {
 	test_longley();
@@ -570,5 +667,6 @@ int main(void)
 	test_ffx();
 	test_threads();
 	test_zero_background();
+	test_fit_only();
 	return TEST_DONE();
 }
