@@ -2,6 +2,28 @@
 #include "batchsum.h"
 
 #include <math.h>
+#include <stdint.h>
+
+#if defined(__x86_64__) && defined(__GNUC__)
+#include <immintrin.h>
+#define BATCHSUM_X86 1
+#endif
+
+static int force_plain;
+
+void batchsum_set_plain(int plain)
+{
+	force_plain = plain;
+}
+
+static int have_avx2_fma(void)
+{
+#ifdef BATCHSUM_X86
+	return !force_plain && __builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma");
+#else
+	return 0;
+#endif
+}
 
 /* One voxel: the groups of columns g, g + 1, ... of A against its values z[b * ldz]. */
 static inline __attribute__((always_inline)) void voxel(double *restrict s, int m,
@@ -52,7 +74,7 @@ static void add_plain(double *S, int m, const double *A, int lda, const double *
 	add_all(S, m, A, lda, z, ldz, n, nv);
 }
 
-#if defined(__x86_64__) && defined(__GNUC__)
+#ifdef BATCHSUM_X86
 /* The same code where fma is one instruction; the bits are the same (fma is exactly rounded). */
 __attribute__((target("avx2,fma"))) static void add_fma(double *S, int m, const double *A, int lda,
 							  const double *z, size_t ldz, int n, size_t nv)
@@ -64,11 +86,111 @@ __attribute__((target("avx2,fma"))) static void add_fma(double *S, int m, const 
 void batchsum_add(double *S, int m, const double *A, int lda, const double *z, size_t ldz, int n,
 		  size_t nv)
 {
-#if defined(__x86_64__) && defined(__GNUC__)
-	if (__builtin_cpu_supports("avx2") && __builtin_cpu_supports("fma")) {
+#ifdef BATCHSUM_X86
+	if (have_avx2_fma()) {
 		add_fma(S, m, A, lda, z, ldz, n, nv);
 		return;
 	}
 #endif
 	add_plain(S, m, A, lda, z, ldz, n, nv);
+}
+
+/* batchsum_shift for voxels v0..v1-1, one at a time. */
+static void shift_plain(const batchsum_run *r, double *Y, size_t ldy, int nb, size_t v0, size_t v1)
+{
+	size_t v;
+	int b;
+
+	for (v = v0; v < v1; v++) {
+		double y0 = r->y0[v];
+		unsigned char f = r->flag[v];
+
+		for (b = 0; b < nb; b++) {
+			double y = Y[ldy * b + v], z = r->shift ? y - y0 : y;
+
+			if (!isfinite(z)) {
+				f |= r->bad;
+				z = 0.0;
+			}
+			if (y != y0)
+				f |= r->varies;
+			if (r->zz) {
+				r->zz[v] += z * z;
+				r->zlag[v] += z * r->zprev[v];
+				r->zprev[v] = z;
+			}
+			if (r->zsum)
+				r->zsum[v] += z;
+			Y[ldy * b + v] = z;
+		}
+		r->flag[v] = f;
+	}
+}
+
+#ifdef BATCHSUM_X86
+/*
+ * Four voxels at a time with the same operations in the same order: a
+ * subtraction, a product and a sum per step, each rounded, as in
+ * shift_plain (a lane's z is zeroed where it is not finite, and NaN or
+ * unequal lanes set the flags).
+ */
+__attribute__((target("avx2,fma"))) static void shift_avx2(const batchsum_run *r, double *Y, size_t ldy,
+							     int nb, size_t nv)
+{
+	const __m256d big = _mm256_set1_pd(1.7976931348623157e308), sign = _mm256_set1_pd(-0.0);
+	size_t v, n4 = nv / 4 * 4;
+	int b, i;
+
+	for (v = 0; v < n4; v += 4) {
+		__m256d y0 = _mm256_loadu_pd(r->y0 + v), zz = _mm256_setzero_pd(), zl = zz, zp = zz, zs = zz;
+		__m256d bad = _mm256_setzero_pd(), var = bad;
+		int mb, mv;
+
+		if (r->zz) {
+			zz = _mm256_loadu_pd(r->zz + v);
+			zl = _mm256_loadu_pd(r->zlag + v);
+			zp = _mm256_loadu_pd(r->zprev + v);
+		}
+		if (r->zsum)
+			zs = _mm256_loadu_pd(r->zsum + v);
+		for (b = 0; b < nb; b++) {
+			double *yp = Y + ldy * b + v;
+			__m256d y = _mm256_loadu_pd(yp), z = r->shift ? _mm256_sub_pd(y, y0) : y;
+			/* finite: |z| <= DBL_MAX, false for NaN and infinities */
+			__m256d fin = _mm256_cmp_pd(_mm256_andnot_pd(sign, z), big, _CMP_LE_OQ);
+
+			bad = _mm256_or_pd(bad, _mm256_xor_pd(fin, _mm256_castsi256_pd(_mm256_set1_epi64x(-1))));
+			z = _mm256_and_pd(z, fin);
+			var = _mm256_or_pd(var, _mm256_cmp_pd(y, y0, _CMP_NEQ_UQ));
+			zz = _mm256_add_pd(zz, _mm256_mul_pd(z, z));
+			zl = _mm256_add_pd(zl, _mm256_mul_pd(z, zp));
+			zp = z;
+			zs = _mm256_add_pd(zs, z);
+			_mm256_storeu_pd(yp, z);
+		}
+		if (r->zz) {
+			_mm256_storeu_pd(r->zz + v, zz);
+			_mm256_storeu_pd(r->zlag + v, zl);
+			_mm256_storeu_pd(r->zprev + v, zp);
+		}
+		if (r->zsum)
+			_mm256_storeu_pd(r->zsum + v, zs);
+		mb = _mm256_movemask_pd(bad);
+		mv = _mm256_movemask_pd(var);
+		for (i = 0; i < 4; i++)
+			r->flag[v + i] |= (unsigned char)(((mb >> i) & 1 ? r->bad : 0) | ((mv >> i) & 1 ? r->varies : 0));
+	}
+	shift_plain(r, Y, ldy, nb, n4, nv);
+}
+#endif
+
+void batchsum_shift(const batchsum_run *r, double *Y, size_t ldy, int nb, size_t nv)
+{
+#ifdef BATCHSUM_X86
+	if (have_avx2_fma()) {
+		shift_avx2(r, Y, ldy, nb, nv);
+		return;
+	}
+#endif
+	shift_plain(r, Y, ldy, nb, 0, nv);
 }

@@ -1,4 +1,4 @@
-/* batchsum.h - per-voxel sums of a batch of volumes against the design's columns, in one fixed order. */
+/* batchsum.h - per-voxel sums of a batch of volumes: against the design's columns, and running sums, in one fixed order. */
 #ifndef SR_BATCHSUM_H
 #define SR_BATCHSUM_H
 
@@ -21,5 +21,31 @@
 
 void batchsum_add(double *S, int m, const double *A, int lda, const double *z, size_t ldz, int n,
 		  size_t nv);
+
+/*
+ * The running sums of a batch of volumes after the first volume of the run,
+ * voxel by voxel, each voxel's values in volume order. For voxel v < nv and
+ * b = 0..nb-1, with y = Y[b * ldy + v]:
+ *   z = shift ? y - y0[v] : y;  if z is not finite: flag[v] |= bad, z = 0;
+ *   if y != y0[v]: flag[v] |= varies;
+ *   with zz: zz[v] += z * z; zlag[v] += z * zprev[v]; zprev[v] = z;
+ *   with zsum: zsum[v] += z;
+ *   Y[b * ldy + v] = z.
+ * zz, zlag and zprev are all given or all NULL; zsum may be NULL. Each
+ * product and sum is rounded on its own (no fused multiply-add), so the bits
+ * are the same on every CPU.
+ */
+typedef struct batchsum_run {
+	const double *y0;
+	double *zz, *zlag, *zprev, *zsum;
+	unsigned char *flag;
+	unsigned char bad, varies;
+	int shift;
+} batchsum_run;
+
+void batchsum_shift(const batchsum_run *r, double *Y, size_t ldy, int nb, size_t nv);
+
+/* Tests only: 1 makes both kernels take their plain C path whatever the CPU has. */
+void batchsum_set_plain(int plain);
 
 #endif

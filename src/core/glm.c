@@ -500,12 +500,35 @@ static inline double shift_one(glm_acc *a, size_t v, int k, double y)
  * order per voxel: y0, the flags and the running sums, with each pending
  * value y replaced by its shifted value z.
  */
+/* What batchsum_shift updates for voxels v0.. (with the fit's running sums when sums is 1). */
+static batchsum_run shift_run(glm_acc *a, size_t v0, int sums)
+{
+	batchsum_run r;
+
+	r.y0 = a->y0 + v0;
+	r.zz = sums ? a->zz + v0 : NULL;
+	r.zlag = sums ? a->zlag + v0 : NULL;
+	r.zprev = sums ? a->zprev + v0 : NULL;
+	r.zsum = a->zsum ? a->zsum + v0 : NULL;
+	r.flag = a->flag + v0;
+	r.bad = ACC_BAD;
+	r.varies = ACC_VARIES;
+	r.shift = a->m->has_const;
+	return r;
+}
+
 static void shift_chunk(glm_acc *a, int k0, int nb, size_t v0, size_t v1)
 {
 	double *zz = a->zz, *zlag = a->zlag, *zp = a->zprev;
 	int b;
 	size_t v, n = a->nvox;
 
+	if (k0 > 0) {
+		batchsum_run r = shift_run(a, v0, 1);
+
+		batchsum_shift(&r, a->ybuf + v0, n, nb, v1 - v0);
+		return;
+	}
 	for (v = v0; v < v1; v++) {
 		double *yb = a->ybuf + v;
 
@@ -530,6 +553,12 @@ static void stats_chunk(glm_acc *a, int k0, int nb, size_t v0, size_t v1)
 	size_t v, n = a->nvox;
 	int b;
 
+	if (k0 > 0) {
+		batchsum_run r = shift_run(a, v0, 0);
+
+		batchsum_shift(&r, a->ybuf + v0, n, nb, v1 - v0);
+		return;
+	}
 	for (v = v0; v < v1; v++)
 		for (b = 0; b < nb; b++)
 			shift_one(a, v, k0 + b, a->ybuf[n * b + v]);

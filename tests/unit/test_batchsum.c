@@ -35,6 +35,101 @@ static double ref_entry(double s, const double *A, int lda, const double *z, siz
 	return s;
 }
 
+/* One voxel of batchsum_shift as batchsum.h states it, step by step. */
+static void ref_shift(int shift, int sums, int with_zsum, double y0, double *zz, double *zlag, double *zprev,
+		      double *zsum, unsigned char *flag, double *y, size_t ldy, int nb)
+{
+	int b;
+
+	for (b = 0; b < nb; b++) {
+		double yy = y[ldy * b], z = shift ? yy - y0 : yy;
+
+		if (!isfinite(z)) {
+			*flag |= 1;
+			z = 0.0;
+		}
+		if (yy != y0)
+			*flag |= 4;
+		if (sums) {
+			*zz += z * z;
+			*zlag += z * *zprev;
+			*zprev = z;
+		}
+		if (with_zsum)
+			*zsum += z;
+		y[ldy * b] = z;
+	}
+}
+
+/* A value for the shift tests: ordinary, equal to y0, NaN, +-inf, -0, huge (its difference overflows). */
+static double shift_value(double y0, unsigned long long k)
+{
+	switch (k % 23) {
+	case 0: return y0;
+	case 1: return NAN;
+	case 2: return INFINITY;
+	case 3: return -INFINITY;
+	case 4: return -0.0;
+	case 5: return k % 2 ? 1.7e308 : -1.7e308;
+	default: return y0 + rnd();
+	}
+}
+
+/* batchsum_shift, vector and plain paths, against ref_shift bit for bit. */
+static void test_shift(void)
+{
+	int plain, shift, sums, zs, nb, bad = 0, cases = 0, flagged = 0;
+
+	for (plain = 0; plain < 2; plain++) {
+		batchsum_set_plain(plain);
+		for (shift = 0; shift < 2; shift++)
+			for (sums = 0; sums < 2; sums++)
+				for (zs = 0; zs < 2; zs++)
+					for (nb = 1; nb <= 9; nb++) {
+						size_t nv = (size_t)(nb * 5 + shift * 3 + sums + zs) % 37 + 1, ldy = nv + 3, v;
+						double y0[40], zz[40], zl[40], zp[40], zsum[40], Y[9 * 43];
+						double rzz[40], rzl[40], rzp[40], rzs[40], RY[9 * 43];
+						unsigned char fl[40], rfl[40];
+						batchsum_run r;
+
+						for (v = 0; v < nv; v++) {
+							y0[v] = v % 11 == 3 ? 1e308 : 500.0 * rnd();
+							rzz[v] = zz[v] = fabs(rnd());
+							rzl[v] = zl[v] = rnd();
+							rzp[v] = zp[v] = rnd();
+							rzs[v] = zsum[v] = rnd();
+							rfl[v] = fl[v] = (unsigned char)(v % 3 == 0 ? 2 : 0);
+						}
+						for (v = 0; v < ldy * (size_t)nb; v++)
+							RY[v] = Y[v] = shift_value(y0[v % ldy < nv ? v % ldy : 0], rng >> 7 ^ v);
+						r.y0 = y0;
+						r.zz = sums ? zz : NULL;
+						r.zlag = sums ? zl : NULL;
+						r.zprev = sums ? zp : NULL;
+						r.zsum = zs ? zsum : NULL;
+						r.flag = fl;
+						r.bad = 1;
+						r.varies = 4;
+						r.shift = shift;
+						batchsum_shift(&r, Y, ldy, nb, nv);
+						for (v = 0; v < nv; v++)
+							ref_shift(shift, sums, zs, y0[v], &rzz[v], &rzl[v], &rzp[v], &rzs[v], &rfl[v],
+								  RY + v, ldy, nb);
+						bad += memcmp(Y, RY, sizeof(double) * ldy * (size_t)nb) != 0;
+						bad += memcmp(zz, rzz, sizeof(double) * nv) || memcmp(zl, rzl, sizeof(double) * nv);
+						bad += memcmp(zp, rzp, sizeof(double) * nv) || memcmp(zsum, rzs, sizeof(double) * nv);
+						bad += memcmp(fl, rfl, nv) != 0;
+						for (v = 0; v < nv; v++)
+							flagged += (fl[v] & 5) == 5;
+						cases++;
+					}
+	}
+	batchsum_set_plain(0);
+	CHECK(bad == 0 && cases == 144, "%d cases (vector and plain paths): shifted values, sums and flags bit for bit as stated (%d differ)",
+	      cases, bad);
+	CHECK(flagged > 50, "the cases hold voxels with both flags set (%d)", flagged);
+}
+
 int main(void)
 {
 	int m, n, bad_order = 0, bad_blas = 0, cases = 0;
@@ -105,5 +200,6 @@ int main(void)
 		CHECK(S[0] == ldexp(1.0, -26) + ldexp(1.0, -54), "the second product is fused into the first (%.17g)",
 		      S[0]);
 	}
+	test_shift();
 	return TEST_DONE();
 }
