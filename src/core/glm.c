@@ -495,11 +495,6 @@ static inline double shift_one(glm_acc *a, size_t v, int k, double y)
 	return z;
 }
 
-/*
- * The nb pending volumes k0.. of voxels v0..v1-1 (one chunk), in volume
- * order per voxel: y0, the flags and the running sums, with each pending
- * value y replaced by its shifted value z.
- */
 /* What batchsum_shift updates for voxels v0.. (with the fit's running sums when sums is 1). */
 static batchsum_run shift_run(glm_acc *a, size_t v0, int sums)
 {
@@ -517,6 +512,11 @@ static batchsum_run shift_run(glm_acc *a, size_t v0, int sums)
 	return r;
 }
 
+/*
+ * The nb pending volumes k0.. of voxels v0..v1-1 (one chunk), in volume
+ * order per voxel: y0, the flags and the running sums, with each pending
+ * value y replaced by its shifted value z.
+ */
 static void shift_chunk(glm_acc *a, int k0, int nb, size_t v0, size_t v1)
 {
 	double *zz = a->zz, *zlag = a->zlag, *zp = a->zprev;
