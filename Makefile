@@ -67,9 +67,10 @@ $(BUILD)/%.o: %.c | need-libs
 
 # The smoothing passes are plain contiguous loops that pay off only when vectorized
 # (-O2 leaves loops of unknown length scalar); the results do not depend on it.
-# batchsum's stated order rounds each product and sum on its own: never fuse them.
+# batchsum's and pwlanes' stated orders round each product and sum on its own: never fuse them.
 $(BUILD)/src/core/smooth.o: CFLAGS_ALL += -O3
 $(BUILD)/src/core/batchsum.o: CFLAGS_ALL += -O3 -ffp-contract=off
+$(BUILD)/src/core/pwlanes.o: CFLAGS_ALL += -O3 -ffp-contract=off
 
 $(BUILD)/libsplitroi.a: $(LIB_OBJ)
 	@rm -f $@

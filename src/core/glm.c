@@ -35,6 +35,7 @@
 #include "batchsum.h"
 #include "mem.h"
 #include "pool.h"
+#include "pwlanes.h"
 #include "stats.h"
 
 #define GLM_RANK_TOL 1e-10
@@ -681,9 +682,9 @@ const char *const glm_out_rule_names[GLM_OUT_NRULES] = {
 	"mask", "nonfinite", "nonpositive_mean", "constant", "intensity_floor"
 };
 
-/* Per-worker scratch of the finish (r x r and r), allocated once per worker. */
+/* Per-worker scratch of the finish (pwlanes_solve' and its ncon x PWLANES_N outputs), allocated once per worker. */
 typedef struct finish_ws {
-	double *G, *h, *w, *dw, *t;
+	double *pw, *ef, *vv;
 } finish_ws;
 
 /* What every voxel of the finish shares; one per glm_acc_finish. */
@@ -693,95 +694,12 @@ typedef struct finish_job {
 	const double *cq;          /* ncon x r */
 	const double *gc;          /* ncon: cq' g1 */
 	const double *cnorm2;      /* ncon: ||cq||^2 */
-	const double *Ls;          /* r x r: Lq + Lq' */
-	const double *Q0;          /* r x r: u_0 u_0' + u_T-1 u_T-1' */
+	pwlanes_model pw;               /* r, Lq + Lq', u_0 u_0' + u_T-1 u_T-1', u_0, u_T-1 */
 	const unsigned char *est;
 	const unsigned char *mask;
 	glm_out *out;
 	finish_ws *ws;             /* one per pool worker */
 } finish_job;
-
-/* In-place Cholesky G = R'R of an n x n column-major matrix (upper part used). Returns 0 when positive definite. */
-static int chol(double *G, int n)
-{
-	int i, j, k;
-
-	for (j = 0; j < n; j++) {
-		double d = G[(size_t)j * n + j];
-
-		for (k = 0; k < j; k++)
-			d -= G[(size_t)j * n + k] * G[(size_t)j * n + k];
-		if (!(d > 0.0))
-			return -1;
-		d = sqrt(d);
-		G[(size_t)j * n + j] = d;
-		for (i = j + 1; i < n; i++) {
-			double s = G[(size_t)i * n + j];
-
-			for (k = 0; k < j; k++)
-				s -= G[(size_t)j * n + k] * G[(size_t)i * n + k];
-			G[(size_t)i * n + j] = s / d;
-		}
-	}
-	return 0;
-}
-
-/* Solves R' w = h (R upper, R[j][i] at G[i*n + j] for j <= i). */
-static void chol_fwd(const double *R, int n, const double *h, double *w)
-{
-	int i, k;
-
-	for (i = 0; i < n; i++) {
-		double s = h[i];
-
-		for (k = 0; k < i; k++)
-			s -= R[(size_t)i * n + k] * w[k];
-		w[i] = s / R[(size_t)i * n + i];
-	}
-}
-
-/* Solves R x = w. */
-static void chol_back(const double *R, int n, const double *w, double *x)
-{
-	int i, k;
-
-	for (i = n - 1; i >= 0; i--) {
-		double s = w[i];
-
-		for (k = i + 1; k < n; k++)
-			s -= R[(size_t)k * n + i] * x[k];
-		x[i] = s / R[(size_t)i * n + i];
-	}
-}
-
-/*
- * The Prais-Winsten refit from the sums (identities in the file comment):
- * G (r x r) gets the Cholesky factor of Xw'Xw, dw the whitened coefficients
- * in the orthonormal basis, w = R^-T h. Returns RSS_w (>= 0), or -1 when G is
- * not positive definite.
- */
-static double pw_solve(const glm_model *m, const double *Ls, const double *Q0, const double *u,
-		       const double *l, double zz, double zlag, double z0, double zl, double rho,
-		       double *G, double *h, double *w, double *dw)
-{
-	int r = m->r, q;
-	double a1 = 1.0 + rho * rho, r2 = rho * rho, rssw;
-
-	for (q = 0; q < r * r; q++)
-		G[q] = -rho * Ls[q] - r2 * Q0[q];
-	for (q = 0; q < r; q++) {
-		G[(size_t)q * r + q] += a1;
-		h[q] = a1 * u[q] - rho * l[q] - r2 * (m->u0[q] * z0 + m->ul[q] * zl);
-	}
-	rssw = a1 * zz - 2.0 * rho * zlag - r2 * (z0 * z0 + zl * zl);
-	if (chol(G, r) != 0)
-		return -1.0;
-	chol_fwd(G, r, h, w);
-	chol_back(G, r, w, dw);
-	for (q = 0; q < r; q++)
-		rssw -= w[q] * w[q];
-	return rssw < 0.0 ? 0.0 : rssw;
-}
 
 /*
  * Hands back the accumulator pages that lie wholly inside voxels [v0, v1),
@@ -873,6 +791,45 @@ static void voxel_means(const glm_acc *a, const unsigned char *mask, glm_out *o)
 /* Voxels per pool job of the finish: large enough that a job's scratch is nothing, small enough to balance. */
 #define FINISH_CHUNK 4096
 
+/* Voxels of the finish waiting for their AR(1) refit, PWLANES_N at a time. */
+typedef struct refit_group {
+	pwlanes_voxel vx[PWLANES_N];
+	size_t v[PWLANES_N];
+	double sc[PWLANES_N], shift[PWLANES_N];
+	int n;
+} refit_group;
+
+/* The refits of the group's voxels (the unused lanes repeat the first voxel), into the outputs. */
+static void refit_flush(const finish_job *j, refit_group *g, const finish_ws *ws)
+{
+	const glm_model *m = j->a->m;
+	size_t nvox = j->a->nvox;
+	int r = m->r, df = m->T - r, c, x;
+	double rssw[PWLANES_N], *ef = ws->ef, *vv = ws->vv;
+	glm_out *o = j->out;
+
+	if (g->n == 0)
+		return;
+	for (x = g->n; x < PWLANES_N; x++)
+		g->vx[x] = g->vx[0];
+	pwlanes_solve(&j->pw, g->vx, j->ncon, j->cq, j->est, ws->pw, rssw, ef, vv, NULL);
+	for (x = 0; x < g->n; x++) {
+		size_t v = g->v[x];
+		double sc = g->sc[x], sig2;
+
+		if (!(rssw[x] >= 0.0))
+			continue;
+		sig2 = rssw[x] / df;
+		for (c = 0; c < j->ncon; c++) {
+			if (!j->est[c])
+				continue;
+			o->effect[(size_t)c * nvox + v] = sc * (ef[c * PWLANES_N + x] + g->shift[x] * j->gc[c]);
+			o->var[(size_t)c * nvox + v] = sc * sc * sig2 * vv[c * PWLANES_N + x];
+		}
+	}
+	g->n = 0;
+}
+
 /* Voxels v0..v1-1 of the finish, with one worker's scratch. */
 static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish_ws *ws)
 {
@@ -881,13 +838,15 @@ static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish
 	int r = m->r, T = m->T, df = T - r, c, q, s;
 	size_t v, nvox = a->nvox;
 	glm_out *o = j->out;
-	double *G = ws->G, *h = ws->h, *w = ws->w, *dw = ws->dw, *t = ws->t;
+	refit_group g;
 
+	g.n = 0;
 	for (v = v0; v < v1; v++) {
 		const double *u = a->acc + (size_t)2 * r * v, *l = u + r;
 		double y0 = a->y0[v], shift = m->has_const ? y0 : 0.0, z0 = m->has_const ? 0.0 : y0;
-		double mean, sc, rss, lag, rho, zl = a->zprev[v], sig2, rssw;
+		double mean, sc, rss, lag, rho, zl = a->zprev[v], sig2;
 		const double *delta = u;
+		pwlanes_voxel *pv;
 
 		mean = o->mean[v];
 		o->ok[v] = o->rule[v] == GLM_OUT_NRULES;
@@ -943,38 +902,34 @@ static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish
 			rho = -GLM_RHO_MAX;
 		o->rho[v] = rho;
 
-		rssw = pw_solve(m, j->Ls, j->Q0, u, l, a->zz[v], a->zlag[v], z0, zl, rho, G, h, w, dw);
-		if (!(rssw >= 0.0))
-			continue;
-		sig2 = rssw / df;
-		for (c = 0; c < j->ncon; c++) {
-			const double *cq = j->cq + (size_t)c * r;
-			double ef = 0.0, vv = 0.0;
-
-			if (!j->est[c])
-				continue;
-			chol_fwd(G, r, cq, t);
-			for (q = 0; q < r; q++) {
-				ef += cq[q] * dw[q];
-				vv += t[q] * t[q];
-			}
-			o->effect[(size_t)c * nvox + v] = sc * (ef + shift * j->gc[c]);
-			o->var[(size_t)c * nvox + v] = sc * sc * sig2 * vv;
-		}
+		/* the Prais-Winsten refit, PWLANES_N voxels at a time */
+		pv = &g.vx[g.n];
+		pv->u = u;
+		pv->l = l;
+		pv->zz = a->zz[v];
+		pv->zlag = a->zlag[v];
+		pv->z0 = z0;
+		pv->zl = zl;
+		pv->rho = rho;
+		g.v[g.n] = v;
+		g.sc[g.n] = sc;
+		g.shift[g.n] = shift;
+		if (++g.n == PWLANES_N)
+			refit_flush(j, &g, ws);
 	}
+	refit_flush(j, &g, ws);
 }
 
-static finish_ws *ws_alloc(int nw, int r)
+static finish_ws *ws_alloc(int nw, int r, int ncon)
 {
 	finish_ws *ws = xcalloc(nw > 0 ? (size_t)nw : 1, sizeof *ws);
+	size_t n = (size_t)(ncon > 0 ? ncon : 1) * PWLANES_N;
 	int i;
 
 	for (i = 0; i < nw; i++) {
-		ws[i].G = dup_zero((size_t)r * r);
-		ws[i].h = dup_zero((size_t)r);
-		ws[i].w = dup_zero((size_t)r);
-		ws[i].dw = dup_zero((size_t)r);
-		ws[i].t = dup_zero((size_t)r);
+		ws[i].pw = dup_zero(pwlanes_ws_size(r));
+		ws[i].ef = dup_zero(n);
+		ws[i].vv = dup_zero(n);
 	}
 	return ws;
 }
@@ -984,11 +939,9 @@ static void ws_free(finish_ws *ws, int nw)
 	int i;
 
 	for (i = 0; i < nw; i++) {
-		free(ws[i].G);
-		free(ws[i].h);
-		free(ws[i].w);
-		free(ws[i].dw);
-		free(ws[i].t);
+		free(ws[i].pw);
+		free(ws[i].ef);
+		free(ws[i].vv);
 	}
 	free(ws);
 }
@@ -1059,15 +1012,18 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 	job.cq = cq;
 	job.gc = gc;
 	job.cnorm2 = cn;
-	job.Ls = Ls;
-	job.Q0 = Q0;
+	job.pw.r = r;
+	job.pw.Ls = Ls;
+	job.pw.Q0 = Q0;
+	job.pw.u0 = m->u0;
+	job.pw.ul = m->ul;
 	job.est = est;
 	job.mask = mask;
 	job.out = out;
 	/* chunks of voxels taken by up to nthreads workers: same numbers for any count */
 	nchunk = (nvox + FINISH_CHUNK - 1) / FINISH_CHUNK;
 	nw = pool_workers(nchunk, nthreads);
-	job.ws = ws_alloc(nw, r);
+	job.ws = ws_alloc(nw, r, ncon);
 	pool_run(nchunk, nthreads, finish_chunk, &job);
 	ws_free(job.ws, nw);
 	free(cq);
@@ -1134,8 +1090,10 @@ sr_status glm_ar1_solve(const glm_model *m, const double *y, double rho, double 
 {
 	int T = m->T, r = m->r, p = m->p, k, q;
 	double *A = dup_zero((size_t)2 * r), *Ls = dup_zero((size_t)r * r), *Q0 = dup_zero((size_t)r * r);
-	double *G = dup_zero((size_t)r * r), *h = dup_zero((size_t)r), *w = dup_zero((size_t)r);
-	double *dw = dup_zero((size_t)r), *ej = dup_zero((size_t)p), zz = 0.0, zlag = 0.0, rs;
+	double *ws = dup_zero(pwlanes_ws_size(r)), *dwl = dup_zero((size_t)r * PWLANES_N);
+	double *dw = dup_zero((size_t)r), *ej = dup_zero((size_t)p), zz = 0.0, zlag = 0.0, rs[PWLANES_N];
+	pwlanes_model pm;
+	pwlanes_voxel vx[PWLANES_N];
 	sr_status st = SR_OK;
 
 	if (!(fabs(rho) < 1.0)) {
@@ -1150,15 +1108,30 @@ sr_status glm_ar1_solve(const glm_model *m, const double *y, double rho, double 
 			zlag += y[k] * y[k - 1];
 	}
 	lag_grams(m, Ls, Q0);
-	rs = pw_solve(m, Ls, Q0, A, A + r, zz, zlag, y[0], y[T - 1], rho, G, h, w, dw);
-	if (rs < 0.0) {
+	pm.r = r;
+	pm.Ls = Ls;
+	pm.Q0 = Q0;
+	pm.u0 = m->u0;
+	pm.ul = m->ul;
+	/* the one series in every lane */
+	for (k = 0; k < PWLANES_N; k++) {
+		vx[k].u = A;
+		vx[k].l = A + r;
+		vx[k].zz = zz;
+		vx[k].zlag = zlag;
+		vx[k].z0 = y[0];
+		vx[k].zl = y[T - 1];
+		vx[k].rho = rho;
+	}
+	pwlanes_solve(&pm, vx, 0, NULL, NULL, ws, rs, NULL, NULL, dwl);
+	if (rs[0] < 0.0) {
 		st = sr_fail(e, SR_ESINGULAR, "whitened design is not positive definite");
 		goto out;
 	}
 	if (rss_w)
-		*rss_w = rs;
+		*rss_w = rs[0];
 	for (q = 0; q < r; q++)
-		dw[q] /= m->sv[q];
+		dw[q] = dwl[(size_t)q * PWLANES_N] / m->sv[q];
 	cblas_dgemv(CblasColMajor, CblasNoTrans, p, r, 1.0, m->V, p, dw, 1, 0.0, beta, 1);
 	for (k = 0; k < p; k++) {
 		memset(ej, 0, (size_t)p * sizeof(double));
@@ -1169,9 +1142,8 @@ out:
 	free(A);
 	free(Ls);
 	free(Q0);
-	free(G);
-	free(h);
-	free(w);
+	free(ws);
+	free(dwl);
 	free(dw);
 	free(ej);
 	return st;
