@@ -33,7 +33,28 @@ static inline __attribute__((always_inline)) void voxel(double *restrict s, int 
 	int g, b, j;
 
 	for (g = 0; g < n; g += BATCHSUM_GROUP) {
-		if (n - g >= 4 && BATCHSUM_GROUP == 4) {
+		if (n - g >= 8 && BATCHSUM_GROUP == 4) {
+			/* two groups in one pass over s: each s[j] is read and written once,
+			   with the same two additions as two passes */
+			const double *a0 = A + (size_t)lda * g, *a1 = a0 + lda, *a2 = a1 + lda, *a3 = a2 + lda;
+			const double *a4 = a3 + lda, *a5 = a4 + lda, *a6 = a5 + lda, *a7 = a6 + lda;
+			double z0 = z[ldz * g], z1 = z[ldz * (g + 1)], z2 = z[ldz * (g + 2)], z3 = z[ldz * (g + 3)];
+			double z4 = z[ldz * (g + 4)], z5 = z[ldz * (g + 5)], z6 = z[ldz * (g + 6)];
+			double z7 = z[ldz * (g + 7)];
+
+			for (j = 0; j < m; j++) {
+				double t = a0[j] * z0, u = a4[j] * z4;
+
+				t = fma(a1[j], z1, t);
+				u = fma(a5[j], z5, u);
+				t = fma(a2[j], z2, t);
+				u = fma(a6[j], z6, u);
+				t = fma(a3[j], z3, t);
+				u = fma(a7[j], z7, u);
+				s[j] = (s[j] + t) + u;
+			}
+			g += BATCHSUM_GROUP;
+		} else if (n - g >= 4 && BATCHSUM_GROUP == 4) {
 			const double *a0 = A + (size_t)lda * g, *a1 = a0 + lda, *a2 = a1 + lda, *a3 = a2 + lda;
 			double z0 = z[ldz * g], z1 = z[ldz * (g + 1)], z2 = z[ldz * (g + 2)], z3 = z[ldz * (g + 3)];
 

@@ -45,6 +45,8 @@
  * the accumulators once; more volumes mean less memory traffic but a larger
  * buffer (batch x nvox doubles) */
 #define GLM_BATCH 4
+/* the batch when the pending volumes are held as float32 (glm_acc_float32): twice the volumes in the same bytes */
+#define GLM_BATCH_F32 (2 * GLM_BATCH)
 /*
  * Voxels per chunk of a volume. A chunk that has held only +0 so far (a zero
  * background) is skipped: adding A * 0 would leave every sum as it is (the
@@ -367,7 +369,9 @@ struct glm_acc {
 	size_t acc_bytes;
 	int finished;   /* the sums are consumed by the finish */
 	int acc_mapped; /* acc comes from mmap: finished voxels' pages can be handed back early */
-	double *ybuf;   /* GLM_BATCH x nvox: pending volumes (shifted in place at the flush) */
+	int batch;      /* volumes per batch: GLM_BATCH, GLM_BATCH_F32 with f32 */
+	int f32;        /* ybuf holds float32 (glm_acc_float32) */
+	void *ybuf;     /* batch x nvox: the pending volumes' values, double or float32 */
 	double *y0, *zz, *zlag, *zprev;
 	double *zsum;   /* without a constant column (else 1'z = g1'U_r'z), and for the
 			   voxels glm_acc_fit_only leaves unfitted */
@@ -395,6 +399,7 @@ glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
 		a->acc_mapped = 1;
 	}
 	/* zeroed: the rows of chunks that are not live are never written */
+	a->batch = GLM_BATCH;
 	a->ybuf = xcalloc(n, GLM_BATCH * sizeof(double));
 	a->y0 = xcalloc(n, sizeof(double));
 	a->zz = xcalloc(n, sizeof(double));
@@ -439,6 +444,18 @@ void glm_acc_fit_only(glm_acc *a, const size_t *vox, size_t n)
 			a->fitv[vox[i]] = 1;
 	if (!a->zsum)
 		a->zsum = xcalloc(a->nvox ? a->nvox : 1, sizeof(double));
+}
+
+void glm_acc_float32(glm_acc *a)
+{
+	size_t n = a->nvox ? a->nvox : 1;
+
+	if (a->k > 0 || a->f32)
+		return;
+	free(a->ybuf);
+	a->f32 = 1;
+	a->batch = GLM_BATCH_F32;
+	a->ybuf = xcalloc(n, GLM_BATCH_F32 * sizeof(float));
 }
 
 /* 1 when voxel v gets the sums of the fit. */
@@ -518,23 +535,23 @@ static batchsum_run shift_run(glm_acc *a, size_t v0, int sums)
  * order per voxel: y0, the flags and the running sums, with each pending
  * value y replaced by its shifted value z.
  */
-static void shift_chunk(glm_acc *a, int k0, int nb, size_t v0, size_t v1)
+static void shift_chunk(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_t v0, size_t v1)
 {
 	double *zz = a->zz, *zlag = a->zlag, *zp = a->zprev;
 	int b;
-	size_t v, n = a->nvox;
+	size_t v;
 
 	if (k0 > 0) {
 		batchsum_run r = shift_run(a, v0, 1);
 
-		batchsum_shift(&r, a->ybuf + v0, n, nb, v1 - v0);
+		batchsum_shift(&r, Y, ldy, nb, v1 - v0);
 		return;
 	}
 	for (v = v0; v < v1; v++) {
-		double *yb = a->ybuf + v;
+		double *yb = Y + (v - v0);
 
 		for (b = 0; b < nb; b++) {
-			double z = shift_one(a, v, k0 + b, yb[n * b]);
+			double z = shift_one(a, v, k0 + b, yb[ldy * b]);
 
 			if (k0 + b == 0) {
 				zz[v] = z * z;
@@ -543,71 +560,78 @@ static void shift_chunk(glm_acc *a, int k0, int nb, size_t v0, size_t v1)
 				zlag[v] += z * zp[v];
 			}
 			zp[v] = z;
-			yb[n * b] = z;
+			yb[ldy * b] = z;
 		}
 	}
 }
 
-/* The nb pending volumes k0.. of voxels v0..v1-1 that get no sums: their y0, flags and zsum. */
-static void stats_chunk(glm_acc *a, int k0, int nb, size_t v0, size_t v1)
+/* The batch's values of voxels v0..v1-1 that get no sums (Y at voxel v0): their y0, flags and zsum. */
+static void stats_chunk(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_t v0, size_t v1)
 {
-	size_t v, n = a->nvox;
+	size_t v;
 	int b;
 
 	if (k0 > 0) {
 		batchsum_run r = shift_run(a, v0, 0);
 
-		batchsum_shift(&r, a->ybuf + v0, n, nb, v1 - v0);
+		batchsum_shift(&r, Y, ldy, nb, v1 - v0);
 		return;
 	}
 	for (v = v0; v < v1; v++)
 		for (b = 0; b < nb; b++)
-			shift_one(a, v, k0 + b, a->ybuf[n * b + v]);
+			shift_one(a, v, k0 + b, Y[ldy * b + (v - v0)]);
 }
 
-/*
- * add_chunk for a chunk of glm_acc_fit_only: each run of fitted voxels as a
- * chunk of its own, and the others' means and flags, a batch at a time.
- */
-static void add_some(glm_acc *a, const double *vol, size_t v0, size_t v1, int flush)
+/* Volume k's values of voxels v0..v1-1 into row b of the pending batch. */
+static void put_row(glm_acc *a, int b, const double *vol, size_t v0, size_t v1)
 {
-	int r2 = 2 * a->m->r, nb = a->nb + 1, k0 = a->k + 1 - nb;
-	size_t v = v0, end;
+	size_t v, at = (size_t)b * a->nvox;
 
-	memcpy(a->ybuf + (size_t)a->nb * a->nvox + v0, vol + v0, (v1 - v0) * sizeof(double));
-	if (!flush)
+	if (!a->f32) {
+		memcpy((double *)a->ybuf + at + v0, vol + v0, (v1 - v0) * sizeof(double));
 		return;
-	while (v < v1) {
-		for (end = v; end < v1 && a->fitv[end] == a->fitv[v]; end++)
-			;
-		if (a->fitv[v]) {
-			shift_chunk(a, k0, nb, v, end);
-			batchsum_add(a->acc + (size_t)r2 * v, r2, a->m->A + (size_t)r2 * k0, r2, a->ybuf + v,
-				     a->nvox, nb, end - v);
-		} else {
-			stats_chunk(a, k0, nb, v, end);
+	}
+	for (v = v0; v < v1; v++)
+		((float *)a->ybuf)[at + v] = (float)vol[v];
+}
+
+/* The batch's nb rows of voxels v0..v1-1 as doubles into Z (row b at Z + ACC_CHUNK b). */
+static void get_rows(const glm_acc *a, int nb, size_t v0, size_t v1, double *Z)
+{
+	size_t v, n = a->nvox;
+	int b;
+
+	for (b = 0; b < nb; b++) {
+		double *zr = Z + (size_t)ACC_CHUNK * b;
+
+		if (!a->f32) {
+			memcpy(zr, (const double *)a->ybuf + n * b + v0, (v1 - v0) * sizeof(double));
+			continue;
 		}
-		v = end;
+		for (v = v0; v < v1; v++)
+			zr[v - v0] = (double)((const float *)a->ybuf)[n * b + v];
 	}
 }
 
 /*
- * Adds a volume chunk by chunk. A chunk that has held only +0 in every
- * volume so far is left alone while its values stay +0: its sums, its y0 and
- * its pending rows are all +0, exactly what the updates would have left there
- * (0 - 0, 0 * 0 and 0 + 0 are +0), and adding a chunk of zeros to the sums
- * leaves them as they are (they start at +0 and never become -0).
- */
-/*
- * The volume's values of voxels v0..v1-1 (one chunk); with flush, the
- * chunk's part of the whole batch too: the shifted values, the running sums
- * and acc += A[:, k0..k] Z'. Chunks are independent, so they can be added by
- * any thread in any order with the same bits.
+ * Adds a volume chunk by chunk: the volume's values of voxels v0..v1-1 go
+ * into the pending batch; with flush, the chunk takes the whole batch: the
+ * shifted values (in a scratch of its own), the running sums and
+ * acc += A[:, k0..k] Z' for each run of voxels that get the sums, the means
+ * and flags for the others (glm_acc_fit_only). A chunk that has held only +0
+ * in every volume so far is left alone while its values stay +0: its sums,
+ * its y0 and its pending rows are all +0, exactly what the updates would
+ * have left there (0 - 0, 0 * 0 and 0 + 0 are +0), and adding a chunk of
+ * zeros to the sums leaves them as they are (they start at +0 and never
+ * become -0). Chunks are independent, so they can be added by any thread in
+ * any order with the same bits.
  */
 static void add_chunk(glm_acc *a, const double *vol, size_t v0, size_t v1, int flush)
 {
 	unsigned char *live = &a->live[v0 / ACC_CHUNK];
 	int r2 = 2 * a->m->r, nb = a->nb + 1, k0 = a->k + 1 - nb;
+	double Z[GLM_BATCH_F32 * ACC_CHUNK];
+	size_t v, end;
 
 	if (!*live) {
 		if (vol_zero(vol, v0, v1))
@@ -618,16 +642,26 @@ static void add_chunk(glm_acc *a, const double *vol, size_t v0, size_t v1, int f
 		if (any_fitted(a, v0, v1))
 			memset(a->acc + (size_t)r2 * v0, 0, (size_t)r2 * (v1 - v0) * sizeof(double));
 	}
-	if (a->fitv) {
-		add_some(a, vol, v0, v1, flush);
-		return;
-	}
-	memcpy(a->ybuf + (size_t)a->nb * a->nvox + v0, vol + v0, (v1 - v0) * sizeof(double));
+	put_row(a, a->nb, vol, v0, v1);
 	if (!flush)
 		return;
-	shift_chunk(a, k0, nb, v0, v1);
-	batchsum_add(a->acc + (size_t)r2 * v0, r2, a->m->A + (size_t)r2 * k0, r2, a->ybuf + v0, a->nvox, nb,
-		     v1 - v0);
+	get_rows(a, nb, v0, v1, Z);
+	for (v = v0; v < v1; v = end) {
+		int fit = fitted(a, v);
+		double *Y = Z + (v - v0);
+
+		if (!a->fitv)
+			end = v1;
+		else
+			for (end = v + 1; end < v1 && fitted(a, end) == fit; end++)
+				;
+		if (!fit) {
+			stats_chunk(a, Y, ACC_CHUNK, k0, nb, v, end);
+			continue;
+		}
+		shift_chunk(a, Y, ACC_CHUNK, k0, nb, v, end);
+		batchsum_add(a->acc + (size_t)r2 * v, r2, a->m->A + (size_t)r2 * k0, r2, Y, ACC_CHUNK, nb, end - v);
+	}
 }
 
 /* Chunks per pool job of glm_acc_add: enough work to outweigh taking a job. */
@@ -667,7 +701,7 @@ sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
 	j.a = a;
 	j.vol = vol;
 	/* the batch is full after this volume: each chunk adds its part of the product at once */
-	j.flush = a->nb + 1 == GLM_BATCH || a->k + 1 == a->m->T;
+	j.flush = a->nb + 1 == a->batch || a->k + 1 == a->m->T;
 	pool_run((nvox + per - 1) / per, a->threads, add_job_run, &j);
 	a->k++;
 	a->nb++;

@@ -21,7 +21,9 @@
 #include "../io/rowfile.h"
 #include "../io/table.h"
 
-#define QUEUE_SLOTS 4
+/* volumes the reader may hold ahead of the fit: one float32 batch of the sums
+   (glm_acc_float32), so it never waits while a batch is added */
+#define QUEUE_SLOTS 8
 
 typedef struct vol_queue {
 	nii_stream *s;
@@ -616,6 +618,9 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 	}
 	acc = glm_acc_alloc(m, nvox);
 	glm_acc_threads(acc, nthreads);
+	/* values read from float32 or small integers, unsmoothed, are float32 exactly */
+	if (!(spec->smoothing_fwhm > 0) && nii_float32_exact(&res->info))
+		glm_acc_float32(acc);
 	/* a slim run with nothing kept on the whole grid is read only at the kept voxels */
 	if (spec->slim && spec->keep && spec->nkeep && !spec->grid_mean && !grid_con_any(spec))
 		glm_acc_fit_only(acc, spec->keep, spec->nkeep);
