@@ -481,6 +481,17 @@ static int vol_zero(const double *vol, size_t v0, size_t v1)
 	return 1;
 }
 
+/* vol_zero for float32 values. */
+static int vol_zero_f32(const float *vol, size_t v0, size_t v1)
+{
+	size_t v;
+
+	for (v = v0; v < v1; v++)
+		if (vol[v] != 0.0f || signbit(vol[v]))
+			return 0;
+	return 1;
+}
+
 /*
  * Volume k's value y of voxel v: y0 and the flags, and its shifted value z
  * (z = y - y0 with a constant in col(X); 0 where not finite), which is
@@ -582,11 +593,15 @@ static void stats_chunk(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_
 			shift_one(a, v, k0 + b, Y[ldy * b + (v - v0)]);
 }
 
-/* Volume k's values of voxels v0..v1-1 into row b of the pending batch. */
-static void put_row(glm_acc *a, int b, const double *vol, size_t v0, size_t v1)
+/* Volume k's values of voxels v0..v1-1 (vol, or volf with f32) into row b of the pending batch. */
+static void put_row(glm_acc *a, int b, const double *vol, const float *volf, size_t v0, size_t v1)
 {
 	size_t v, at = (size_t)b * a->nvox;
 
+	if (volf) {
+		memcpy((float *)a->ybuf + at + v0, volf + v0, (v1 - v0) * sizeof(float));
+		return;
+	}
 	if (!a->f32) {
 		memcpy((double *)a->ybuf + at + v0, vol + v0, (v1 - v0) * sizeof(double));
 		return;
@@ -626,7 +641,7 @@ static void get_rows(const glm_acc *a, int nb, size_t v0, size_t v1, double *Z)
  * become -0). Chunks are independent, so they can be added by any thread in
  * any order with the same bits.
  */
-static void add_chunk(glm_acc *a, const double *vol, size_t v0, size_t v1, int flush)
+static void add_chunk(glm_acc *a, const double *vol, const float *volf, size_t v0, size_t v1, int flush)
 {
 	unsigned char *live = &a->live[v0 / ACC_CHUNK];
 	int r2 = 2 * a->m->r, nb = a->nb + 1, k0 = a->k + 1 - nb;
@@ -634,7 +649,7 @@ static void add_chunk(glm_acc *a, const double *vol, size_t v0, size_t v1, int f
 	size_t v, end;
 
 	if (!*live) {
-		if (vol_zero(vol, v0, v1))
+		if (volf ? vol_zero_f32(volf, v0, v1) : vol_zero(vol, v0, v1))
 			return;
 		*live = 1;
 		/* written before the first product reads them: a read would map the shared
@@ -642,7 +657,7 @@ static void add_chunk(glm_acc *a, const double *vol, size_t v0, size_t v1, int f
 		if (any_fitted(a, v0, v1))
 			memset(a->acc + (size_t)r2 * v0, 0, (size_t)r2 * (v1 - v0) * sizeof(double));
 	}
-	put_row(a, a->nb, vol, v0, v1);
+	put_row(a, a->nb, vol, volf, v0, v1);
 	if (!flush)
 		return;
 	get_rows(a, nb, v0, v1, Z);
@@ -670,6 +685,7 @@ static void add_chunk(glm_acc *a, const double *vol, size_t v0, size_t v1, int f
 typedef struct add_job {
 	glm_acc *a;
 	const double *vol;
+	const float *volf;  /* instead of vol (glm_acc_add_f32) */
 	int flush;
 } add_job;
 
@@ -681,7 +697,7 @@ static void add_job_run(size_t i, int worker, void *arg)
 	(void)worker;
 	end = nvox - v0 < (size_t)ADD_JOB_CHUNKS * ACC_CHUNK ? nvox : v0 + (size_t)ADD_JOB_CHUNKS * ACC_CHUNK;
 	for (; v0 < end; v0 += ACC_CHUNK)
-		add_chunk(j->a, j->vol, v0, end - v0 < ACC_CHUNK ? end : v0 + ACC_CHUNK, j->flush);
+		add_chunk(j->a, j->vol, j->volf, v0, end - v0 < ACC_CHUNK ? end : v0 + ACC_CHUNK, j->flush);
 }
 
 void glm_acc_threads(glm_acc *a, int nthreads)
@@ -689,7 +705,8 @@ void glm_acc_threads(glm_acc *a, int nthreads)
 	a->threads = nthreads < 1 ? 1 : nthreads;
 }
 
-sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
+/* glm_acc_add and glm_acc_add_f32: one of vol and volf. */
+static sr_status add_volume(glm_acc *a, const double *vol, const float *volf, sr_err *e)
 {
 	size_t nvox = a->nvox, per = (size_t)ADD_JOB_CHUNKS * ACC_CHUNK;
 	add_job j;
@@ -700,6 +717,7 @@ sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
 		return sr_fail(e, SR_EDIM, "too many voxels for one fit");
 	j.a = a;
 	j.vol = vol;
+	j.volf = volf;
 	/* the batch is full after this volume: each chunk adds its part of the product at once */
 	j.flush = a->nb + 1 == a->batch || a->k + 1 == a->m->T;
 	pool_run((nvox + per - 1) / per, a->threads, add_job_run, &j);
@@ -708,6 +726,18 @@ sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
 	if (j.flush)
 		a->nb = 0;
 	return SR_OK;
+}
+
+sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e)
+{
+	return add_volume(a, vol, NULL, e);
+}
+
+sr_status glm_acc_add_f32(glm_acc *a, const float *vol, sr_err *e)
+{
+	if (!a->f32)
+		return sr_fail(e, SR_EINVAL, "float32 volumes added to a fit not made for them (glm_acc_float32)");
+	return add_volume(a, NULL, vol, e);
 }
 
 /* ------------------------------------------------------------------ finishing */

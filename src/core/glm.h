@@ -68,6 +68,8 @@ void glm_acc_fit_only(glm_acc *a, const size_t *vox, size_t n);
  * not a float32 would be rounded to one.
  */
 void glm_acc_float32(glm_acc *a);
+/* glm_acc_add for float32 values (nvox of them), after glm_acc_float32; else SR_EINVAL. */
+sr_status glm_acc_add_f32(glm_acc *a, const float *vol, sr_err *e);
 /* Threads glm_acc_add may use (default 1); the sums do not depend on them. */
 void glm_acc_threads(glm_acc *a, int nthreads);
 void glm_acc_free(glm_acc *a);

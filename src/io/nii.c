@@ -545,7 +545,8 @@ static void convert(const unsigned char *b, int dt, size_t n, double *v)
 #undef CONV
 }
 
-sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e)
+/* Reads the next volume's stored bytes into s->buf, byte-swapped to this machine's order. */
+static sr_status read_volume(nii_stream *s, sr_err *e)
 {
 	char what[512];
 	int64_t k;
@@ -594,6 +595,51 @@ sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e)
 	}
 	if (s->swapped && s->bytes > 1)
 		nifti_swap_Nbytes((int64_t)s->nvox, s->bytes, s->buf);
+	return SR_OK;
+}
+
+/* Widens one volume of stored values (float32 or integers of at most 16 bits) to float32, exactly. */
+static void convert_f32(const unsigned char *b, int dt, size_t n, float *v)
+{
+	size_t i;
+
+#define CONV(T)                                       \
+	for (i = 0; i < n; i++) {                     \
+		T t;                                  \
+		memcpy(&t, b + i * sizeof(T), sizeof t); \
+		v[i] = (float)t;                      \
+	}                                             \
+	break
+	switch (dt) {
+	case NIFTI_TYPE_UINT8: CONV(uint8_t);
+	case NIFTI_TYPE_INT8: CONV(int8_t);
+	case NIFTI_TYPE_INT16: CONV(int16_t);
+	case NIFTI_TYPE_UINT16: CONV(uint16_t);
+	case NIFTI_TYPE_FLOAT32: memcpy(v, b, n * sizeof(float)); break;
+	}
+#undef CONV
+}
+
+sr_status nii_stream_next_f32(nii_stream *s, float *vol, sr_err *e)
+{
+	sr_status st;
+
+	if (!nii_float32_exact(&s->info))
+		return sr_fail(e, SR_EINVAL, "%s: its values are not all float32 (stored type %d, or scaled)",
+			       s->path, s->info.datatype);
+	st = read_volume(s, e);
+	if (st != SR_OK)
+		return st;
+	convert_f32(s->buf, s->info.datatype, s->nvox, vol);
+	return SR_OK;
+}
+
+sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e)
+{
+	sr_status st = read_volume(s, e);
+
+	if (st != SR_OK)
+		return st;
 	convert(s->buf, s->info.datatype, s->nvox, vol);
 	if (s->info.slope != 1.0 || s->info.inter != 0.0) {
 		double a = s->info.slope, b = s->info.inter;

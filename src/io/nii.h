@@ -83,6 +83,12 @@ sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e);
  * inter 0 after fill_info's rule; a real slope or inter is applied in double).
  */
 int nii_float32_exact(const nii_info *info);
+/*
+ * nii_stream_next for a header that nii_float32_exact accepts, into nvox
+ * float32 values: the same numbers (each nii_stream_next value is one of
+ * these widened), in half the memory. SR_EINVAL for any other header.
+ */
+sr_status nii_stream_next_f32(nii_stream *s, float *vol, sr_err *e);
 /* Closes; NULL does nothing. */
 void nii_stream_close(nii_stream *s);
 

@@ -31,7 +31,8 @@ typedef struct vol_queue {
 	const unsigned char *mask;
 	int T;
 	size_t nvox;
-	double *slot[QUEUE_SLOTS];
+	int f32;               /* the slots hold float32 (nii_stream_next_f32, glm_acc_add_f32) */
+	void *slot[QUEUE_SLOTS];
 	const size_t *keep;    /* voxels copied into series as volumes are fitted */
 	size_t nkeep;
 	double *series;
@@ -63,7 +64,10 @@ static void *reader_main(void *arg)
 		}
 		pthread_mutex_unlock(&q->mu);
 		/* the slot at tail is free: only this thread writes it until count grows */
-		st = nii_stream_next(q->s, q->slot[tail], &q->err);
+		if (q->f32)
+			st = nii_stream_next_f32(q->s, q->slot[tail], &q->err);
+		else
+			st = nii_stream_next(q->s, q->slot[tail], &q->err);
 		/* smoothing belongs to reading: the fit sees only the smoothed volumes */
 		if (st == SR_OK && q->sm)
 			smooth_support(q->sm, q->slot[tail], q->mask);
@@ -81,6 +85,43 @@ static void *reader_main(void *arg)
 	return NULL;
 }
 
+/* Voxel v of a slot's volume. */
+static inline double slot_value(const vol_queue *q, const void *slot, size_t v)
+{
+	return q->f32 ? (double)((const float *)slot)[v] : ((const double *)slot)[v];
+}
+
+/* Volume k's kept voxels (q->keep), from the slot that holds it, into the series or the spill. */
+static sr_status keep_row(vol_queue *q, int k, const void *slot, sr_err *e)
+{
+	size_t i;
+	sr_status st;
+
+	if (q->spill) {
+		if (q->spill32)
+			for (i = 0; i < q->nkeep; i++)
+				((float *)q->row)[i] = (float)slot_value(q, slot, q->keep[i]);
+		else
+			for (i = 0; i < q->nkeep; i++)
+				((double *)q->row)[i] = slot_value(q, slot, q->keep[i]);
+		st = rowfile_append(q->spill, q->row, e);
+		if (st != SR_OK) {
+			char msg[sizeof e->msg];
+
+			memcpy(msg, e->msg, sizeof msg);
+			sr_fail(e, st, "%s: %s", q->bold, msg);
+		}
+		return st;
+	}
+	if (q->series32)
+		for (i = 0; i < q->nkeep; i++)
+			q->series32[(size_t)k * q->nkeep + i] = (float)slot_value(q, slot, q->keep[i]);
+	else
+		for (i = 0; i < q->nkeep; i++)
+			q->series[(size_t)k * q->nkeep + i] = slot_value(q, slot, q->keep[i]);
+	return SR_OK;
+}
+
 /* Streams every volume of q->s through acc, reading ahead in a second thread. */
 static sr_status stream_fit(vol_queue *q, glm_acc *acc, sr_err *e)
 {
@@ -89,7 +130,7 @@ static sr_status stream_fit(vol_queue *q, glm_acc *acc, sr_err *e)
 	int k, i;
 
 	for (i = 0; i < QUEUE_SLOTS; i++)
-		q->slot[i] = xmalloc_array(q->nvox ? q->nvox : 1, sizeof(double));
+		q->slot[i] = xmalloc_array(q->nvox ? q->nvox : 1, q->f32 ? sizeof(float) : sizeof(double));
 	pthread_mutex_init(&q->mu, NULL);
 	pthread_cond_init(&q->cv, NULL);
 	q->err.warn = e->warn;
@@ -109,29 +150,9 @@ static sr_status stream_fit(vol_queue *q, glm_acc *acc, sr_err *e)
 			break;
 		}
 		pthread_mutex_unlock(&q->mu);
-		if (q->spill) {
-			if (q->spill32)
-				for (size_t i2 = 0; i2 < q->nkeep; i2++)
-					((float *)q->row)[i2] = (float)q->slot[q->head][q->keep[i2]];
-			else
-				for (size_t i2 = 0; i2 < q->nkeep; i2++)
-					((double *)q->row)[i2] = q->slot[q->head][q->keep[i2]];
-			st = rowfile_append(q->spill, q->row, e);
-			if (st != SR_OK) {
-				char msg[sizeof e->msg];
-
-				memcpy(msg, e->msg, sizeof msg);
-				sr_fail(e, st, "%s: %s", q->bold, msg);
-			}
-		} else if (q->series32) {
-			for (size_t i2 = 0; i2 < q->nkeep; i2++)
-				q->series32[(size_t)k * q->nkeep + i2] = (float)q->slot[q->head][q->keep[i2]];
-		} else {
-			for (size_t i2 = 0; i2 < q->nkeep; i2++)
-				q->series[(size_t)k * q->nkeep + i2] = q->slot[q->head][q->keep[i2]];
-		}
+		st = keep_row(q, k, q->slot[q->head], e);
 		if (st == SR_OK)
-			st = glm_acc_add(acc, q->slot[q->head], e);
+			st = q->f32 ? glm_acc_add_f32(acc, q->slot[q->head], e) : glm_acc_add(acc, q->slot[q->head], e);
 		pthread_mutex_lock(&q->mu);
 		q->head = (q->head + 1) % QUEUE_SLOTS;
 		q->count--;
@@ -618,8 +639,10 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 	}
 	acc = glm_acc_alloc(m, nvox);
 	glm_acc_threads(acc, nthreads);
-	/* values read from float32 or small integers, unsmoothed, are float32 exactly */
-	if (!(spec->smoothing_fwhm > 0) && nii_float32_exact(&res->info))
+	/* values read from float32 or small integers, unsmoothed, are float32 exactly:
+	   read, held and summed as such (the same numbers in half the memory) */
+	q.f32 = !(spec->smoothing_fwhm > 0) && nii_float32_exact(&res->info);
+	if (q.f32)
 		glm_acc_float32(acc);
 	/* a slim run with nothing kept on the whole grid is read only at the kept voxels */
 	if (spec->slim && spec->keep && spec->nkeep && !spec->grid_mean && !grid_con_any(spec))

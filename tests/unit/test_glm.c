@@ -667,11 +667,12 @@ static void float32_batches(int with_const)
 	enum { T = 37, P = 4, NV = 24000 };
 	static const size_t keep[] = { 6100, 6101, 6143, 6144, 7000, 17039 };
 	double X[T * P], *vol = xmalloc_array(NV, sizeof(double)), C[P] = { 1, -1, 0, 0 };
-	glm_out o[4];
+	glm_out o[5];
 	glm_model *m;
 	sr_err e;
 	uint64_t s = 79;
-	int n, k, v, same = 1;
+	int n, k, v, same = 1, refused;
+	float *volf = xmalloc_array(NV, sizeof(float));
 
 	sr_err_init(&e, NULL, NULL);
 	random_design(X, T, P, &s);
@@ -695,6 +696,27 @@ static void float32_batches(int with_const)
 		glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 2, &o[n], &e);
 		glm_acc_free(a);
 	}
+	/* 4: float32 volumes given as float32 (glm_acc_add_f32), 3 threads */
+	{
+		glm_acc *a = glm_acc_alloc(m, NV);
+
+		refused = glm_acc_add_f32(a, volf, &e) == SR_EINVAL;
+		glm_acc_threads(a, 3);
+		glm_acc_float32(a);
+		for (k = 0; k < T; k++) {
+			rules_layout(vol, NV, k);
+			for (v = 0; v < NV; v++)
+				volf[v] = (float)vol[v];
+			glm_acc_add_f32(a, volf, &e);
+		}
+		glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 2, &o[4], &e);
+		glm_acc_free(a);
+	}
+	CHECK(refused, "float32 volumes before glm_acc_float32 are refused");
+	same &= memcmp(o[1].effect, o[4].effect, NV * sizeof(double)) == 0;
+	same &= memcmp(o[1].var, o[4].var, NV * sizeof(double)) == 0;
+	same &= memcmp(o[1].mean, o[4].mean, NV * sizeof(double)) == 0;
+	same &= memcmp(o[1].rule, o[4].rule, NV) == 0;
 	for (n = 0; n < 4; n += 2) {
 		same &= memcmp(o[n].effect, o[n + 1].effect, NV * sizeof(double)) == 0;
 		same &= memcmp(o[n].var, o[n + 1].var, NV * sizeof(double)) == 0;
@@ -706,11 +728,12 @@ static void float32_batches(int with_const)
 	}
 	CHECK(o[0].ok[7001] && o[1].ok[7001] && isfinite(o[1].effect[7001]) && o[3].ok[7000] && !o[3].ok[7001],
 	      "float32 batches (constant column %d): the layout's series are fitted", with_const);
-	CHECK(same, "float32 batches of 8 (constant column %d): every voxel's effect, var, rho, mean, rule and the reference intensity bit for bit as double batches of 4, whole and fit_only", with_const);
-	for (n = 0; n < 4; n++)
+	CHECK(same, "float32 batches of 8 (constant column %d): every voxel's effect, var, rho, mean, rule and the reference intensity bit for bit as double batches of 4, whole and fit_only, given as doubles or as float32", with_const);
+	for (n = 0; n < 5; n++)
 		glm_out_release(&o[n]);
 	glm_model_free(m);
 	free(vol);
+	free(volf);
 }
 
 static void test_float32_batches(void)

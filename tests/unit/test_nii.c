@@ -465,6 +465,97 @@ static void test_header_fields(void)
 	}
 }
 
+/* nii_stream_next_f32 gives nii_stream_next's numbers as float32, volume by volume; 1 when every one matched. */
+static int same_f32(const char *p, int *nvol)
+{
+	nii_stream *s, *s2;
+	nii_info info;
+	sr_err e;
+	double *d;
+	float *f;
+	int ok = 1;
+
+	sr_err_init(&e, NULL, NULL);
+	*nvol = 0;
+	if (nii_stream_open(p, &s, &info, &e) != SR_OK)
+		return 0;
+	if (nii_stream_open(p, &s2, &info, &e) != SR_OK) {
+		nii_stream_close(s);
+		return 0;
+	}
+	d = xmalloc_array(nii_nvox(&info.grid), sizeof *d);
+	f = xmalloc_array(nii_nvox(&info.grid), sizeof *f);
+	for (int64_t t = 0; t < info.nt && ok; t++) {
+		ok = nii_stream_next(s, d, &e) == SR_OK && nii_stream_next_f32(s2, f, &e) == SR_OK;
+		for (size_t i = 0; ok && i < nii_nvox(&info.grid); i++) {
+			double w = f[i];
+
+			ok = isnan(d[i]) ? isnan(w) : memcmp(&w, &d[i], sizeof w) == 0;
+		}
+		*nvol += ok;
+	}
+	/* the CRC was checked after the last volume on both */
+	ok = ok && nii_stream_next_f32(s2, f, &e) != SR_OK && strstr(e.msg, "already read");
+	free(d);
+	free(f);
+	nii_stream_close(s);
+	nii_stream_close(s2);
+	return ok;
+}
+
+static void test_stream_f32(void)
+{
+	nii_grid g;
+	nii_writer *w;
+	nii_stream *s;
+	nii_info info;
+	sr_err e;
+	double vol[24];
+	float f[24];
+	int n;
+
+	sr_err_init(&e, NULL, NULL);
+	CHECK(same_f32(tpath("series.nii.gz"), &n) && n == 4, "float32 stream as float32: the same numbers (%d volumes, NaN kept)", n);
+	CHECK(same_f32(tpath("series.nii"), &n) && n == 4, "float32 stream, uncompressed, as float32: the same numbers");
+	nii_grid_make(&g, 4, 3, 2, 2, 2, 2, 0, 0, 0);
+	CHECK(nii_writer_open(tpath("int16u.nii.gz"), &g, 3, 2.0, NIFTI_TYPE_INT16, 1.0, 0.0, &w, &e) == SR_OK,
+	      "int16 writer without scaling");
+	for (int t = 0; t < 3 && w; t++) {
+		for (int i = 0; i < 24; i++)
+			vol[i] = (i * 2731 + t * 977) % 65536 - 32768;
+		nii_writer_put(w, vol, &e);
+	}
+	CHECK(w && nii_writer_commit(w, &e) == SR_OK, "int16 without scaling written (%s)", e.msg);
+	CHECK(same_f32(tpath("int16u.nii.gz"), &n) && n == 3, "int16 stream as float32: the same numbers, -32768 to 32767");
+	/* byte-swapped float32, no scaling */
+	{
+		nifti_1_header h;
+		float data[8];
+		FILE *fp = fopen(tpath("u.nii"), "rb");
+		int ok = fp && fread(&h, 348, 1, fp) == 1 && fseek(fp, 352, SEEK_SET) == 0 &&
+			 fread(data, 4, 8, fp) == 8;
+
+		if (fp)
+			fclose(fp);
+		h.scl_slope = 1.0f, h.scl_inter = 0.0f;
+		swap_nifti_header(&h, 1);
+		nifti_swap_4bytes(8, data);
+		fp = fopen(tpath("swapped1.nii"), "wb");
+		ok = ok && fp && fwrite(&h, 348, 1, fp) == 1 && fwrite("\0\0\0\0", 4, 1, fp) == 1 &&
+		     fwrite(data, 4, 8, fp) == 8;
+		if (fp)
+			fclose(fp);
+		CHECK(ok && same_f32(tpath("swapped1.nii"), &n) && n == 1, "byte-swapped float32 as float32: the same numbers");
+	}
+	/* a scaled int16 run is not float32: refused, naming the file */
+	CHECK(nii_stream_open(tpath("int16.nii.gz"), &s, &info, &e) == SR_OK, "scaled int16 opens");
+	if (s) {
+		CHECK(nii_stream_next_f32(s, f, &e) == SR_EINVAL && strstr(e.msg, "int16.nii.gz") &&
+		      strstr(e.msg, "not all float32"), "a scaled int16 run refused as float32: %s", e.msg);
+		nii_stream_close(s);
+	}
+}
+
 /* Each malformed file must give a non-OK status and a message naming it. */
 static void expect_fail(const char *what, sr_status rc, const sr_err *e, const char *file,
 			const char *needle)
@@ -692,6 +783,7 @@ int main(void)
 	test_int16_writer("int16.nii.gz");
 	test_atomic();
 	test_header_fields();
+	test_stream_f32();
 	test_malformed();
 	rm_tree(dir);
 	return TEST_DONE();
