@@ -25,7 +25,9 @@ PKG_LIBS = $(eval PKG_LIBS := $(shell pkg-config --libs $(PKGS) 2>/dev/null))$(P
 # nifticlib and libcsv ship no pkg-config file on Debian
 NIFTI_CFLAGS = -I/usr/include/nifti
 NIFTI_LIBS = -lnifti2 -lnifticdf -lznz
-CFLAGS_ALL = -std=c11 -D_POSIX_C_SOURCE=200809L -D_DEFAULT_SOURCE $(OPT) $(SAN) $(WARN) \
+# -ffp-contract=off: a product and a sum are rounded apart everywhere (C11's rule, said
+# outright), so no CPU with fused multiply-add changes a result's last bits.
+CFLAGS_ALL = -std=c11 -D_POSIX_C_SOURCE=200809L -D_DEFAULT_SOURCE -ffp-contract=off $(OPT) $(SAN) $(WARN) \
 	$(NIFTI_CFLAGS) $(PKG_CFLAGS) -pthread $(CFLAGS)
 LIBS = $(NIFTI_LIBS) -lcsv $(PKG_LIBS) -lz -lm -pthread
 # ISA-L's igzip inflates .nii.gz about three times faster than zlib (src/io/gzin.c);
@@ -67,10 +69,12 @@ $(BUILD)/%.o: %.c | need-libs
 
 # The smoothing passes are plain contiguous loops that pay off only when vectorized
 # (-O2 leaves loops of unknown length scalar); the results do not depend on it.
-# batchsum's and pwlanes' stated orders round each product and sum on its own: never fuse them.
+# So are glm's copies of the pending volumes (batchsum and pwlanes state their order of
+# operations; -ffp-contract=off above keeps every product and sum apart).
 $(BUILD)/src/core/smooth.o: CFLAGS_ALL += -O3
-$(BUILD)/src/core/batchsum.o: CFLAGS_ALL += -O3 -ffp-contract=off
-$(BUILD)/src/core/pwlanes.o: CFLAGS_ALL += -O3 -ffp-contract=off
+$(BUILD)/src/core/batchsum.o: CFLAGS_ALL += -O3
+$(BUILD)/src/core/pwlanes.o: CFLAGS_ALL += -O3
+$(BUILD)/src/core/glm.o: CFLAGS_ALL += -O3
 
 $(BUILD)/libsplitroi.a: $(LIB_OBJ)
 	@rm -f $@

@@ -545,8 +545,8 @@ static void convert(const unsigned char *b, int dt, size_t n, double *v)
 #undef CONV
 }
 
-/* Reads the next volume's stored bytes into s->buf, byte-swapped to this machine's order. */
-static sr_status read_volume(nii_stream *s, sr_err *e)
+/* Reads the next volume's stored bytes into buf (s->volbytes), byte-swapped to this machine's order. */
+static sr_status read_volume(nii_stream *s, unsigned char *buf, sr_err *e)
 {
 	char what[512];
 	int64_t k;
@@ -558,7 +558,7 @@ static sr_status read_volume(nii_stream *s, sr_err *e)
 		return sr_fail(e, SR_EINVAL, "%s: all %lld volumes already read", s->path,
 			       (long long)s->info.nt);
 	k = s->next + 1;
-	kind = read_exact(s->zf, s->buf, s->volbytes, what, sizeof what);
+	kind = read_exact(s->zf, buf, s->volbytes, what, sizeof what);
 	if (kind != RD_OK) {
 		s->failed = 1;
 		if (kind == RD_SHORT)
@@ -594,11 +594,11 @@ static sr_status read_volume(nii_stream *s, sr_err *e)
 		}
 	}
 	if (s->swapped && s->bytes > 1)
-		nifti_swap_Nbytes((int64_t)s->nvox, s->bytes, s->buf);
+		nifti_swap_Nbytes((int64_t)s->nvox, s->bytes, buf);
 	return SR_OK;
 }
 
-/* Widens one volume of stored values (float32 or integers of at most 16 bits) to float32, exactly. */
+/* Widens one volume of stored integers of at most 16 bits to float32, exactly (float32 is read as it is). */
 static void convert_f32(const unsigned char *b, int dt, size_t n, float *v)
 {
 	size_t i;
@@ -615,7 +615,6 @@ static void convert_f32(const unsigned char *b, int dt, size_t n, float *v)
 	case NIFTI_TYPE_INT8: CONV(int8_t);
 	case NIFTI_TYPE_INT16: CONV(int16_t);
 	case NIFTI_TYPE_UINT16: CONV(uint16_t);
-	case NIFTI_TYPE_FLOAT32: memcpy(v, b, n * sizeof(float)); break;
 	}
 #undef CONV
 }
@@ -627,7 +626,10 @@ sr_status nii_stream_next_f32(nii_stream *s, float *vol, sr_err *e)
 	if (!nii_float32_exact(&s->info))
 		return sr_fail(e, SR_EINVAL, "%s: its values are not all float32 (stored type %d, or scaled)",
 			       s->path, s->info.datatype);
-	st = read_volume(s, e);
+	/* float32 needs no widening: straight into vol */
+	if (s->info.datatype == NIFTI_TYPE_FLOAT32)
+		return read_volume(s, (unsigned char *)vol, e);
+	st = read_volume(s, s->buf, e);
 	if (st != SR_OK)
 		return st;
 	convert_f32(s->buf, s->info.datatype, s->nvox, vol);
@@ -636,7 +638,7 @@ sr_status nii_stream_next_f32(nii_stream *s, float *vol, sr_err *e)
 
 sr_status nii_stream_next(nii_stream *s, double *vol, sr_err *e)
 {
-	sr_status st = read_volume(s, e);
+	sr_status st = read_volume(s, s->buf, e);
 
 	if (st != SR_OK)
 		return st;
