@@ -828,7 +828,7 @@ static void voxel_means(const glm_acc *a, const unsigned char *mask, glm_out *o)
 		if (isfinite(mean) && mean > 0.0 && (!mask || mask[v]))
 			pos[k++] = mean;
 	}
-	o->ref_intensity = k ? stats_quantile(pos, k, GLM_FLOOR_QUANTILE) : NAN;
+	o->ref_intensity = k ? stats_quantile_select(pos, k, GLM_FLOOR_QUANTILE) : NAN;
 	o->floor = k ? GLM_FLOOR_FRACTION * o->ref_intensity : 0.0;
 	free(pos);
 	memset(o->left_out, 0, sizeof o->left_out);

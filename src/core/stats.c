@@ -304,6 +304,69 @@ double stats_quantile(double *x, size_t n, double p)
 	return stats_quantile_sorted(x, n, p);
 }
 
+/*
+ * Moves the k-th smallest of x[0..n-1] (k < n, no NaN) to x[k], with none
+ * larger before it and none smaller after it: Hoare's selection (FIND,
+ * CACM 4:321, 1961), the pivot the median of the first, middle and last.
+ */
+static void select_kth(double *x, size_t n, size_t k)
+{
+	size_t lo = 0, hi = n - 1;
+
+	while (hi > lo) {
+		size_t mid = lo + (hi - lo) / 2, i = lo, j = hi;
+		double a = x[lo], b = x[mid], c = x[hi], piv;
+
+		piv = a < b ? (b < c ? b : (a < c ? c : a)) : (a < c ? a : (b < c ? c : b));
+		/* afterwards x[lo..j] <= piv <= x[i..hi] and every x between j and i equals piv */
+		while (i <= j) {
+			while (x[i] < piv)
+				i++;
+			while (x[j] > piv)
+				j--;
+			if (i <= j) {
+				double t = x[i];
+
+				x[i] = x[j];
+				x[j] = t;
+				i++;
+				if (j == 0)
+					break;
+				j--;
+			}
+		}
+		if (k <= j)
+			hi = j;
+		else if (k >= i)
+			lo = i;
+		else
+			return;
+	}
+}
+
+double stats_quantile_select(double *x, size_t n, double p)
+{
+	double h, f, next;
+	size_t i, k;
+
+	if (n == 0)
+		return NAN;
+	h = p * (double)(n - 1);
+	f = floor(h);
+	i = (size_t)f;
+	if (i + 1 >= n) {
+		select_kth(x, n, n - 1);
+		return x[n - 1];
+	}
+	select_kth(x, n, i);
+	/* the next order statistic is the smallest of what lies above */
+	next = x[i + 1];
+	for (k = i + 2; k < n; k++)
+		if (x[k] < next)
+			next = x[k];
+	return x[i] + (h - f) * (next - x[i]);
+}
+
 void stats_welch(const double *a, size_t na, const double *b, size_t nb, stats_two *out)
 {
 	stats_one sa, sb;

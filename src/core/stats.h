@@ -54,5 +54,10 @@ void stats_bh(const double *p, size_t n, double *q);
 double stats_quantile_sorted(const double *s, size_t n, double p);
 /* Sorts x (n finite values) ascending in place and returns its p quantile as above. */
 double stats_quantile(double *x, size_t n, double p);
+/*
+ * The same number as stats_quantile (the same two order statistics, the same
+ * arithmetic) in O(n) time on average: x is reordered but not sorted.
+ */
+double stats_quantile_select(double *x, size_t n, double p);
 
 #endif
