@@ -470,25 +470,17 @@ static int any_fitted(const glm_acc *a, size_t v0, size_t v1)
 	return !a->fitv || memchr(a->fitv + v0, 1, v1 - v0) != NULL;
 }
 
-/* 1 when voxels v0..v1-1 of vol are all +0 (a -0 is not: it would reach a mean's sign). */
-static int vol_zero(const double *vol, size_t v0, size_t v1)
+/* 1 when voxels v0..v1-1 of vol (or volf) are all +0 (a -0 is not: it would reach a mean's sign). */
+static int vol_zero(const double *vol, const float *volf, size_t v0, size_t v1)
 {
 	size_t v;
 
-	for (v = v0; v < v1; v++)
-		if (vol[v] != 0.0 || signbit(vol[v]))
-			return 0;
-	return 1;
-}
+	for (v = v0; v < v1; v++) {
+		double y = volf ? (double)volf[v] : vol[v];
 
-/* vol_zero for float32 values. */
-static int vol_zero_f32(const float *vol, size_t v0, size_t v1)
-{
-	size_t v;
-
-	for (v = v0; v < v1; v++)
-		if (vol[v] != 0.0f || signbit(vol[v]))
+		if (y != 0.0 || signbit(y))
 			return 0;
+	}
 	return 1;
 }
 
@@ -649,7 +641,7 @@ static void add_chunk(glm_acc *a, const double *vol, const float *volf, size_t v
 	size_t v, end;
 
 	if (!*live) {
-		if (volf ? vol_zero_f32(volf, v0, v1) : vol_zero(vol, v0, v1))
+		if (vol_zero(vol, volf, v0, v1))
 			return;
 		*live = 1;
 		/* written before the first product reads them: a read would map the shared

@@ -518,32 +518,50 @@ sr_status nii_stream_open(const char *path, nii_stream **out, nii_info *info, sr
 	return SR_OK;
 }
 
-/* Widens one volume of stored values to doubles; x86 reads unaligned-safe through memcpy. */
+/*
+ * Widens one volume of stored values (datatype dt) to OUT; x86 reads
+ * unaligned-safe through memcpy. convert gives doubles for every type;
+ * convert_f32 float32 for the integers of at most 16 bits (exact), which is
+ * all it is called for (float32 is read as it is).
+ */
+#define CONV(T, OUT)                                  \
+	for (i = 0; i < n; i++) {                     \
+		T t;                                  \
+		memcpy(&t, b + i * sizeof(T), sizeof t); \
+		v[i] = (OUT)t;                        \
+	}                                             \
+	break
+#define CONVERT_SMALL(OUT)                                      \
+	case NIFTI_TYPE_UINT8: CONV(uint8_t, OUT);              \
+	case NIFTI_TYPE_INT8: CONV(int8_t, OUT);                \
+	case NIFTI_TYPE_INT16: CONV(int16_t, OUT);              \
+	case NIFTI_TYPE_UINT16: CONV(uint16_t, OUT)
+
 static void convert(const unsigned char *b, int dt, size_t n, double *v)
 {
 	size_t i;
 
-#define CONV(T)                                       \
-	for (i = 0; i < n; i++) {                     \
-		T t;                                  \
-		memcpy(&t, b + i * sizeof(T), sizeof t); \
-		v[i] = (double)t;                     \
-	}                                             \
-	break
 	switch (dt) {
-	case NIFTI_TYPE_UINT8: CONV(uint8_t);
-	case NIFTI_TYPE_INT8: CONV(int8_t);
-	case NIFTI_TYPE_INT16: CONV(int16_t);
-	case NIFTI_TYPE_UINT16: CONV(uint16_t);
-	case NIFTI_TYPE_INT32: CONV(int32_t);
-	case NIFTI_TYPE_UINT32: CONV(uint32_t);
-	case NIFTI_TYPE_INT64: CONV(int64_t);
-	case NIFTI_TYPE_UINT64: CONV(uint64_t);
-	case NIFTI_TYPE_FLOAT32: CONV(float);
-	case NIFTI_TYPE_FLOAT64: CONV(double);
+	CONVERT_SMALL(double);
+	case NIFTI_TYPE_INT32: CONV(int32_t, double);
+	case NIFTI_TYPE_UINT32: CONV(uint32_t, double);
+	case NIFTI_TYPE_INT64: CONV(int64_t, double);
+	case NIFTI_TYPE_UINT64: CONV(uint64_t, double);
+	case NIFTI_TYPE_FLOAT32: CONV(float, double);
+	case NIFTI_TYPE_FLOAT64: CONV(double, double);
 	}
-#undef CONV
 }
+
+static void convert_f32(const unsigned char *b, int dt, size_t n, float *v)
+{
+	size_t i;
+
+	switch (dt) {
+	CONVERT_SMALL(float);
+	}
+}
+#undef CONVERT_SMALL
+#undef CONV
 
 /* Reads the next volume's stored bytes into buf (s->volbytes), byte-swapped to this machine's order. */
 static sr_status read_volume(nii_stream *s, unsigned char *buf, sr_err *e)
@@ -598,26 +616,6 @@ static sr_status read_volume(nii_stream *s, unsigned char *buf, sr_err *e)
 	return SR_OK;
 }
 
-/* Widens one volume of stored integers of at most 16 bits to float32, exactly (float32 is read as it is). */
-static void convert_f32(const unsigned char *b, int dt, size_t n, float *v)
-{
-	size_t i;
-
-#define CONV(T)                                       \
-	for (i = 0; i < n; i++) {                     \
-		T t;                                  \
-		memcpy(&t, b + i * sizeof(T), sizeof t); \
-		v[i] = (float)t;                      \
-	}                                             \
-	break
-	switch (dt) {
-	case NIFTI_TYPE_UINT8: CONV(uint8_t);
-	case NIFTI_TYPE_INT8: CONV(int8_t);
-	case NIFTI_TYPE_INT16: CONV(int16_t);
-	case NIFTI_TYPE_UINT16: CONV(uint16_t);
-	}
-#undef CONV
-}
 
 sr_status nii_stream_next_f32(nii_stream *s, float *vol, sr_err *e)
 {

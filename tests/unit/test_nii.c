@@ -379,6 +379,27 @@ static void test_atomic(void)
 	      "afile: mkdirs twice, trailing slash");
 }
 
+/* u.nii (test_header_fields' 2x2x2 float32 image) byte-swapped as name, with this scaling: 1 when written. */
+static int write_swapped(const char *name, float slope, float inter)
+{
+	nifti_1_header h;
+	float data[8];
+	FILE *fp = fopen(tpath("u.nii"), "rb");
+	int ok = fp && fread(&h, 348, 1, fp) == 1 && fseek(fp, 352, SEEK_SET) == 0 && fread(data, 4, 8, fp) == 8;
+
+	if (fp)
+		fclose(fp);
+	h.scl_slope = slope, h.scl_inter = inter;
+	swap_nifti_header(&h, 1);
+	nifti_swap_4bytes(8, data);
+	fp = fopen(tpath(name), "wb");
+	ok = ok && fp && fwrite(&h, 348, 1, fp) == 1 && fwrite("\0\0\0\0", 4, 1, fp) == 1 &&
+	     fwrite(data, 4, 8, fp) == 8;
+	if (fp)
+		fclose(fp);
+	return ok;
+}
+
 /* Units, scaling and byte order through patched headers (offsets from nifti1.h's struct). */
 static void test_header_fields(void)
 {
@@ -442,22 +463,8 @@ static void test_header_fields(void)
 
 	/* byte-swapped: header through nifticlib's swapper, data by hand */
 	{
-		nifti_1_header h;
-		float data[8];
-		FILE *fp = fopen(tpath("u.nii"), "rb");
-		int ok = fp && fread(&h, 348, 1, fp) == 1 && fseek(fp, 352, SEEK_SET) == 0 &&
-			 fread(data, 4, 8, fp) == 8;
+		int ok = write_swapped("swapped.nii", 0.5f, 1.0f);
 
-		if (fp)
-			fclose(fp);
-		h.scl_slope = 0.5f, h.scl_inter = 1.0f;
-		swap_nifti_header(&h, 1);
-		nifti_swap_4bytes(8, data);
-		fp = fopen(tpath("swapped.nii"), "wb");
-		ok = ok && fp && fwrite(&h, 348, 1, fp) == 1 && fwrite("\0\0\0\0", 4, 1, fp) == 1 &&
-		     fwrite(data, 4, 8, fp) == 8;
-		if (fp)
-			fclose(fp);
 		CHECK(ok && nii_read_3d(tpath("swapped.nii"), &info, &d, &e) == SR_OK && d &&
 		      d[0] == 1.5 && d[7] == 5.0 && info.grid.dy == 3,
 		      "byte-swapped header and data read (%s)", e.msg);
@@ -528,25 +535,8 @@ static void test_stream_f32(void)
 	CHECK(w && nii_writer_commit(w, &e) == SR_OK, "int16 without scaling written (%s)", e.msg);
 	CHECK(same_f32(tpath("int16u.nii.gz"), &n) && n == 3, "int16 stream as float32: the same numbers, -32768 to 32767");
 	/* byte-swapped float32, no scaling */
-	{
-		nifti_1_header h;
-		float data[8];
-		FILE *fp = fopen(tpath("u.nii"), "rb");
-		int ok = fp && fread(&h, 348, 1, fp) == 1 && fseek(fp, 352, SEEK_SET) == 0 &&
-			 fread(data, 4, 8, fp) == 8;
-
-		if (fp)
-			fclose(fp);
-		h.scl_slope = 1.0f, h.scl_inter = 0.0f;
-		swap_nifti_header(&h, 1);
-		nifti_swap_4bytes(8, data);
-		fp = fopen(tpath("swapped1.nii"), "wb");
-		ok = ok && fp && fwrite(&h, 348, 1, fp) == 1 && fwrite("\0\0\0\0", 4, 1, fp) == 1 &&
-		     fwrite(data, 4, 8, fp) == 8;
-		if (fp)
-			fclose(fp);
-		CHECK(ok && same_f32(tpath("swapped1.nii"), &n) && n == 1, "byte-swapped float32 as float32: the same numbers");
-	}
+	CHECK(write_swapped("swapped1.nii", 1.0f, 0.0f) && same_f32(tpath("swapped1.nii"), &n) && n == 1,
+	      "byte-swapped float32 as float32: the same numbers");
 	/* a scaled int16 run is not float32: refused, naming the file */
 	CHECK(nii_stream_open(tpath("int16.nii.gz"), &s, &info, &e) == SR_OK, "scaled int16 opens");
 	if (s) {
