@@ -27,7 +27,7 @@
 
 typedef struct vol_queue {
 	nii_stream *s;
-	smooth_plan *sm;       /* NULL = no smoothing; used by the reader thread only */
+	smooth_plan *sm;       /* NULL = no smoothing; used by the fitting thread only */
 	const unsigned char *mask;
 	int T;
 	size_t nvox;
@@ -68,9 +68,6 @@ static void *reader_main(void *arg)
 			st = nii_stream_next_f32(q->s, q->slot[tail], &q->err);
 		else
 			st = nii_stream_next(q->s, q->slot[tail], &q->err);
-		/* smoothing belongs to reading: the fit sees only the smoothed volumes */
-		if (st == SR_OK && q->sm)
-			smooth_support(q->sm, q->slot[tail], q->mask);
 		pthread_mutex_lock(&q->mu);
 		if (st != SR_OK)
 			q->failed = 1;
@@ -150,6 +147,10 @@ static sr_status stream_fit(vol_queue *q, glm_acc *acc, sr_err *e)
 			break;
 		}
 		pthread_mutex_unlock(&q->mu);
+		/* smoothed here, while the reader inflates the next volumes: the fit and the
+		   kept series see only the smoothed volumes */
+		if (q->sm)
+			smooth_support(q->sm, q->slot[q->head], q->mask);
 		st = keep_row(q, k, q->slot[q->head], e);
 		if (st == SR_OK)
 			st = q->f32 ? glm_acc_add_f32(acc, q->slot[q->head], e) : glm_acc_add(acc, q->slot[q->head], e);
