@@ -485,104 +485,50 @@ static int vol_zero(const double *vol, const float *volf, size_t v0, size_t v1)
 }
 
 /*
- * Volume k's value y of voxel v: y0 and the flags, and its shifted value z
- * (z = y - y0 with a constant in col(X); 0 where not finite), which is
- * returned and added to zsum when there is one.
+ * The running sums of the batch's nb volumes k0.. for voxels v0..v1-1 (Y at
+ * voxel v0, volume k0 + b at Y + ldy b), each value replaced by its shifted
+ * value z (z = y - y0 with a constant in col(X); 0 where not finite). sums:
+ * the voxels get the fit's sums, so z'z, the lag-one sum and the previous z
+ * too; zsum only where a mean is read from it (no constant, or no sums). The
+ * run's first volume sets y0; the others go through batchsum_shift, the same
+ * steps in volume order per voxel.
  */
-static inline double shift_one(glm_acc *a, size_t v, int k, double y)
-{
-	double z;
-
-	if (k == 0) {
-		a->y0[v] = y;
-		z = a->m->has_const ? 0.0 : y;
-		if (!isfinite(y)) {
-			a->flag[v] = ACC_BAD;
-			z = 0.0;
-		}
-		if (a->zsum)
-			a->zsum[v] = z;
-		return z;
-	}
-	z = a->m->has_const ? y - a->y0[v] : y;
-	if (!isfinite(z)) {
-		a->flag[v] |= ACC_BAD;
-		z = 0.0;
-	}
-	if (y != a->y0[v])
-		a->flag[v] |= ACC_VARIES;
-	if (a->zsum)
-		a->zsum[v] += z;
-	return z;
-}
-
-/* What batchsum_shift updates for voxels v0.. (with the fit's running sums when sums is 1). */
-static batchsum_run shift_run(glm_acc *a, size_t v0, int sums)
+static void shift_batch(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_t v0, size_t v1, int sums)
 {
 	batchsum_run r;
+	size_t v;
 
 	r.y0 = a->y0 + v0;
 	r.zz = sums ? a->zz + v0 : NULL;
 	r.zlag = sums ? a->zlag + v0 : NULL;
 	r.zprev = sums ? a->zprev + v0 : NULL;
-	r.zsum = a->zsum ? a->zsum + v0 : NULL;
+	r.zsum = a->zsum && !(sums && a->m->has_const) ? a->zsum + v0 : NULL;
 	r.flag = a->flag + v0;
 	r.bad = ACC_BAD;
 	r.varies = ACC_VARIES;
 	r.shift = a->m->has_const;
-	return r;
-}
+	if (k0 == 0) {
+		for (v = v0; v < v1; v++) {
+			double y = Y[v - v0], z = r.shift ? 0.0 : y;
 
-/*
- * The nb pending volumes k0.. of voxels v0..v1-1 (one chunk), in volume
- * order per voxel: y0, the flags and the running sums, with each pending
- * value y replaced by its shifted value z.
- */
-static void shift_chunk(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_t v0, size_t v1)
-{
-	double *zz = a->zz, *zlag = a->zlag, *zp = a->zprev;
-	int b;
-	size_t v;
-
-	if (k0 > 0) {
-		batchsum_run r = shift_run(a, v0, 1);
-
-		batchsum_shift(&r, Y, ldy, nb, v1 - v0);
-		return;
-	}
-	for (v = v0; v < v1; v++) {
-		double *yb = Y + (v - v0);
-
-		for (b = 0; b < nb; b++) {
-			double z = shift_one(a, v, k0 + b, yb[ldy * b]);
-
-			if (k0 + b == 0) {
-				zz[v] = z * z;
-			} else {
-				zz[v] += z * z;
-				zlag[v] += z * zp[v];
+			a->y0[v] = y;
+			if (!isfinite(y)) {
+				a->flag[v] = ACC_BAD;
+				z = 0.0;
 			}
-			zp[v] = z;
-			yb[ldy * b] = z;
+			if (r.zsum)
+				r.zsum[v - v0] = z;
+			if (sums) {
+				a->zz[v] = z * z;
+				a->zprev[v] = z;
+			}
+			Y[v - v0] = z;
 		}
+		Y += ldy;
+		nb--;
 	}
-}
-
-/* The batch's values of voxels v0..v1-1 that get no sums (Y at voxel v0): their y0, flags and zsum. */
-static void stats_chunk(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_t v0, size_t v1)
-{
-	size_t v;
-	int b;
-
-	if (k0 > 0) {
-		batchsum_run r = shift_run(a, v0, 0);
-
+	if (nb > 0)
 		batchsum_shift(&r, Y, ldy, nb, v1 - v0);
-		return;
-	}
-	for (v = v0; v < v1; v++)
-		for (b = 0; b < nb; b++)
-			shift_one(a, v, k0 + b, Y[ldy * b + (v - v0)]);
 }
 
 /* Volume k's values of voxels v0..v1-1 (vol, or volf with f32) into row b of the pending batch. */
@@ -663,10 +609,10 @@ static void add_chunk(glm_acc *a, const double *vol, const float *volf, size_t v
 			for (end = v + 1; end < v1 && fitted(a, end) == fit; end++)
 				;
 		if (!fit) {
-			stats_chunk(a, Y, ACC_CHUNK, k0, nb, v, end);
+			shift_batch(a, Y, ACC_CHUNK, k0, nb, v, end, 0);
 			continue;
 		}
-		shift_chunk(a, Y, ACC_CHUNK, k0, nb, v, end);
+		shift_batch(a, Y, ACC_CHUNK, k0, nb, v, end, 1);
 		batchsum_add(a->acc + (size_t)r2 * v, r2, a->m->A + (size_t)r2 * k0, r2, Y, ACC_CHUNK, nb, end - v);
 	}
 }

@@ -386,6 +386,12 @@ fail:
  * not turn them into doubles. SPLITROI_SERIES_STORE=double (or =float) forces
  * one storage, a test hook for comparing the two.
  */
+/* Whether every value the fit sees is a float32: read as one, and not smoothed into doubles. */
+static int values_float32(const nii_info *info, double smoothing_fwhm)
+{
+	return !(smoothing_fwhm > 0) && nii_float32_exact(info);
+}
+
 static int series_as_float32(const nii_info *info, double smoothing_fwhm)
 {
 	const char *force = getenv("SPLITROI_SERIES_STORE");
@@ -394,7 +400,7 @@ static int series_as_float32(const nii_info *info, double smoothing_fwhm)
 		return 0;
 	if (force && strcmp(force, "float") == 0)
 		return 1;
-	return !(smoothing_fwhm > 0) && nii_float32_exact(info);
+	return values_float32(info, smoothing_fwhm);
 }
 
 /*
@@ -642,7 +648,7 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 	glm_acc_threads(acc, nthreads);
 	/* values read from float32 or small integers, unsmoothed, are float32 exactly:
 	   read, held and summed as such (the same numbers in half the memory) */
-	q.f32 = !(spec->smoothing_fwhm > 0) && nii_float32_exact(&res->info);
+	q.f32 = values_float32(&res->info, spec->smoothing_fwhm);
 	if (q.f32)
 		glm_acc_float32(acc);
 	/* a slim run with nothing kept on the whole grid is read only at the kept voxels */
