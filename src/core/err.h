@@ -13,7 +13,8 @@ typedef enum sr_status {
 	SR_ESINGULAR,  /* a matrix could not be factorized */
 	SR_ENOMEM,     /* an allocation failed (normally fatal in xmalloc) */
 	SR_EINVAL,     /* a bad argument or option value */
-	SR_ESTUDY      /* the study is inconsistent (unknown condition, ...) */
+	SR_ESTUDY,     /* the study is inconsistent (unknown condition, ...) */
+	SR_EREDO       /* a shortcut's guess did not hold: the caller does it again the plain way */
 } sr_status;
 
 /* Receives a warning (lower-case text, no final full stop). */

@@ -55,6 +55,13 @@
  */
 #define ACC_CHUNK 256
 /* grid of the adjusted-rho table: -0.99, -0.98, ..., 0.99 */
+/* glm_acc_defer_dim: a first value below this fraction of the first volume's
+   98th percentile defers the voxel (half the floor's fraction of R) */
+#define GLM_DEFER_FRACTION 0.05
+/* deferral_held's margin, in units of sum |z| + |y0|: a bound on how far two
+   ways of summing a mean can differ, with room to spare (the roundoff is near
+   sqrt(rank) * 1.1e-16 of it) */
+#define GLM_DEFER_TOL 1e-8
 #define GLM_NRHO 199
 #define GLM_RHO_STEP 0.01
 
@@ -365,7 +372,7 @@ struct glm_acc {
 	size_t nvox;
 	int k;          /* volumes added */
 	int nb;         /* volumes in the pending batch */
-	double *acc;    /* 2r x nvox: U_r' z and l per voxel */
+	double *acc;    /* 2r x nvox: U_r' z and l per voxel, the FIT_SUMS voxels' one after another */
 	size_t acc_bytes;
 	int finished;   /* the sums are consumed by the finish */
 	int acc_mapped; /* acc comes from mmap: finished voxels' pages can be handed back early */
@@ -377,9 +384,21 @@ struct glm_acc {
 			   voxels glm_acc_fit_only leaves unfitted */
 	unsigned char *flag;
 	unsigned char *live; /* per ACC_CHUNK voxels: a value other than +0 has been added */
-	unsigned char *fitv; /* per voxel: it gets the sums (glm_acc_fit_only); NULL = every voxel */
+	unsigned char *fitv; /* per voxel FIT_NONE, FIT_SUMS or FIT_DEFERRED; NULL = every voxel FIT_SUMS */
+	size_t *cbase;  /* with fitv, from the first volume: per ACC_CHUNK voxels, the FIT_SUMS voxels
+			   before it (its first row of acc), then their total; NULL: row v for voxel v */
+	int defer;      /* glm_acc_defer_dim: decide at the first volume */
+	size_t ndefer;  /* voxels FIT_DEFERRED */
 	int threads;    /* for glm_acc_add (glm_acc_threads) */
 };
+
+/*
+ * What a voxel gets. FIT_NONE: its mean and the rules (glm_acc_fit_only
+ * left it out). FIT_SUMS: the fit's sums. FIT_DEFERRED: dim in the first
+ * volume (glm_acc_defer_dim), so its mean and running sums but not the sums
+ * against the basis, which the finish must find it never needed.
+ */
+enum { FIT_NONE = 0, FIT_SUMS = 1, FIT_DEFERRED = 2 };
 
 glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
 {
@@ -429,6 +448,7 @@ void glm_acc_free(glm_acc *a)
 	free(a->flag);
 	free(a->live);
 	free(a->fitv);
+	free(a->cbase);
 	free(a);
 }
 
@@ -458,16 +478,93 @@ void glm_acc_float32(glm_acc *a)
 	a->ybuf = xcalloc(n, GLM_BATCH_F32 * sizeof(float));
 }
 
+void glm_acc_defer_dim(glm_acc *a)
+{
+	if (a->k == 0)
+		a->defer = 1;
+}
+
+size_t glm_acc_deferred(const glm_acc *a)
+{
+	return a->ndefer;
+}
+
+/* FIT_NONE, FIT_SUMS or FIT_DEFERRED: what voxel v gets. */
+static int fit_kind(const glm_acc *a, size_t v)
+{
+	return a->fitv ? a->fitv[v] : FIT_SUMS;
+}
+
 /* 1 when voxel v gets the sums of the fit. */
 static int fitted(const glm_acc *a, size_t v)
 {
-	return !a->fitv || a->fitv[v];
+	return fit_kind(a, v) == FIT_SUMS;
 }
 
-/* 1 when a voxel of v0..v1-1 gets the sums. */
-static int any_fitted(const glm_acc *a, size_t v0, size_t v1)
+/*
+ * The FIT_SUMS voxels' sums are stored one after another, so the others'
+ * never take memory: the row of acc of the first such voxel from v on, for v
+ * at the start of a chunk or v = nvox.
+ */
+static size_t acc_row(const glm_acc *a, size_t v)
 {
-	return !a->fitv || memchr(a->fitv + v0, 1, v1 - v0) != NULL;
+	if (!a->cbase)
+		return v;
+	return v >= a->nvox ? a->cbase[(a->nvox + ACC_CHUNK - 1) / ACC_CHUNK] : a->cbase[v / ACC_CHUNK];
+}
+
+/* a->cbase from the final fitv, before the first volume is added. */
+static void chunk_bases(glm_acc *a)
+{
+	size_t nchunk = (a->nvox + ACC_CHUNK - 1) / ACC_CHUNK, c, v, n = 0;
+
+	if (!a->fitv)
+		return;
+	a->cbase = xmalloc_array(nchunk + 1, sizeof *a->cbase);
+	for (c = 0; c < nchunk; c++) {
+		a->cbase[c] = n;
+		for (v = c * ACC_CHUNK; v < a->nvox && v < (c + 1) * ACC_CHUNK; v++)
+			n += a->fitv[v] == FIT_SUMS;
+	}
+	a->cbase[nchunk] = n;
+}
+
+/*
+ * glm_acc_defer_dim's choice, from the run's first volume: a voxel whose
+ * first value is finite and below GLM_DEFER_FRACTION of the 98th percentile
+ * of the volume's positive finite values is FIT_DEFERRED; a voxel whose first
+ * value is not finite is never analyzable and needs no sums (FIT_NONE).
+ */
+static void defer_dim(glm_acc *a, const double *vol, const float *volf)
+{
+	size_t v, k = 0, n = a->nvox;
+	double *pos = xmalloc_array(n ? n : 1, sizeof *pos), lim;
+
+	for (v = 0; v < n; v++) {
+		double y = volf ? (double)volf[v] : vol[v];
+
+		if (fit_kind(a, v) == FIT_SUMS && isfinite(y) && y > 0.0)
+			pos[k++] = y;
+	}
+	lim = k ? GLM_DEFER_FRACTION * stats_quantile_select(pos, k, GLM_FLOOR_QUANTILE) : NAN;
+	free(pos);
+	if (!(lim > 0.0))
+		return;
+	if (!a->fitv)
+		a->fitv = memset(xmalloc(n ? n : 1), FIT_SUMS, n ? n : 1);
+	for (v = 0; v < n; v++) {
+		double y = volf ? (double)volf[v] : vol[v];
+		int kind = a->fitv[v];
+
+		if (kind == FIT_SUMS && !isfinite(y))
+			kind = FIT_NONE;
+		else if (kind == FIT_SUMS && y < lim)
+			kind = FIT_DEFERRED;
+		a->ndefer += kind == FIT_DEFERRED;
+		a->fitv[v] = (unsigned char)kind;
+	}
+	if (!a->zsum)
+		a->zsum = xcalloc(n ? n : 1, sizeof(double));
 }
 
 /* 1 when voxels v0..v1-1 of vol (or volf) are all +0 (a -0 is not: it would reach a mean's sign). */
@@ -487,22 +584,24 @@ static int vol_zero(const double *vol, const float *volf, size_t v0, size_t v1)
 /*
  * The running sums of the batch's nb volumes k0.. for voxels v0..v1-1 (Y at
  * voxel v0, volume k0 + b at Y + ldy b), each value replaced by its shifted
- * value z (z = y - y0 with a constant in col(X); 0 where not finite). sums:
- * the voxels get the fit's sums, so z'z, the lag-one sum and the previous z
- * too; zsum only where a mean is read from it (no constant, or no sums). The
+ * value z (z = y - y0 with a constant in col(X); 0 where not finite). kind
+ * (fit_kind of the voxels): FIT_SUMS and FIT_DEFERRED voxels get z'z, the
+ * lag-one sum and the previous z too; zsum only where a mean is read from it
+ * (no constant, or no sums against the basis). The
  * run's first volume sets y0; the others go through batchsum_shift, the same
  * steps in volume order per voxel.
  */
-static void shift_batch(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_t v0, size_t v1, int sums)
+static void shift_batch(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_t v0, size_t v1, int kind)
 {
 	batchsum_run r;
 	size_t v;
+	int sums = kind != FIT_NONE;
 
 	r.y0 = a->y0 + v0;
 	r.zz = sums ? a->zz + v0 : NULL;
 	r.zlag = sums ? a->zlag + v0 : NULL;
 	r.zprev = sums ? a->zprev + v0 : NULL;
-	r.zsum = a->zsum && !(sums && a->m->has_const) ? a->zsum + v0 : NULL;
+	r.zsum = a->zsum && !(kind == FIT_SUMS && a->m->has_const) ? a->zsum + v0 : NULL;
 	r.flag = a->flag + v0;
 	r.bad = ACC_BAD;
 	r.varies = ACC_VARIES;
@@ -566,12 +665,25 @@ static void get_rows(const glm_acc *a, int nb, size_t v0, size_t v1, double *Z)
 	}
 }
 
+/* The end of the run of voxels from v (before v1) with v's fit_kind. */
+static size_t kind_end(const glm_acc *a, size_t v, size_t v1)
+{
+	size_t end;
+
+	if (!a->fitv)
+		return v1;
+	for (end = v + 1; end < v1 && a->fitv[end] == a->fitv[v]; end++)
+		;
+	return end;
+}
+
 /*
  * Adds a volume chunk by chunk: the volume's values of voxels v0..v1-1 go
  * into the pending batch; with flush, the chunk takes the whole batch: the
  * shifted values (in a scratch of its own), the running sums and
  * acc += A[:, k0..k] Z' for each run of voxels that get the sums, the means
- * and flags for the others (glm_acc_fit_only). A chunk that has held only +0
+ * and flags for the others (glm_acc_fit_only), and the running sums too for
+ * the deferred ones (glm_acc_defer_dim). A chunk that has held only +0
  * in every volume so far is left alone while its values stay +0: its sums,
  * its y0 and its pending rows are all +0, exactly what the updates would
  * have left there (0 - 0, 0 * 0 and 0 + 0 are +0), and adding a chunk of
@@ -584,36 +696,38 @@ static void add_chunk(glm_acc *a, const double *vol, const float *volf, size_t v
 	unsigned char *live = &a->live[v0 / ACC_CHUNK];
 	int r2 = 2 * a->m->r, nb = a->nb + 1, k0 = a->k + 1 - nb;
 	double Z[GLM_BATCH_F32 * ACC_CHUNK];
-	size_t v, end;
+	size_t v, end, row;
 
 	if (!*live) {
 		if (vol_zero(vol, volf, v0, v1))
 			return;
 		*live = 1;
 		/* written before the first product reads them: a read would map the shared
-		   zero page, and the write after it a copy plus a TLB flush on every core */
-		if (any_fitted(a, v0, v1))
-			memset(a->acc + (size_t)r2 * v0, 0, (size_t)r2 * (v1 - v0) * sizeof(double));
+		   zero page, and the write after it a copy plus a TLB flush on every core;
+		   only the voxels that get the sums, so the others' pages stay unmapped */
+		for (v = v0, row = acc_row(a, v0); v < v1; v = end) {
+			end = kind_end(a, v, v1);
+			if (fitted(a, v)) {
+				memset(a->acc + (size_t)r2 * row, 0, (size_t)r2 * (end - v) * sizeof(double));
+				row += end - v;
+			}
+		}
 	}
 	put_row(a, a->nb, vol, volf, v0, v1);
 	if (!flush)
 		return;
 	get_rows(a, nb, v0, v1, Z);
-	for (v = v0; v < v1; v = end) {
-		int fit = fitted(a, v);
+	for (v = v0, row = acc_row(a, v0); v < v1; v = end) {
+		int kind = fit_kind(a, v);
 		double *Y = Z + (v - v0);
 
-		if (!a->fitv)
-			end = v1;
-		else
-			for (end = v + 1; end < v1 && fitted(a, end) == fit; end++)
-				;
-		if (!fit) {
-			shift_batch(a, Y, ACC_CHUNK, k0, nb, v, end, 0);
-			continue;
+		end = kind_end(a, v, v1);
+		shift_batch(a, Y, ACC_CHUNK, k0, nb, v, end, kind);
+		if (kind == FIT_SUMS) {
+			batchsum_add(a->acc + (size_t)r2 * row, r2, a->m->A + (size_t)r2 * k0, r2, Y, ACC_CHUNK,
+				     nb, end - v);
+			row += end - v;
 		}
-		shift_batch(a, Y, ACC_CHUNK, k0, nb, v, end, 1);
-		batchsum_add(a->acc + (size_t)r2 * v, r2, a->m->A + (size_t)r2 * k0, r2, Y, ACC_CHUNK, nb, end - v);
 	}
 }
 
@@ -653,6 +767,10 @@ static sr_status add_volume(glm_acc *a, const double *vol, const float *volf, sr
 		return sr_fail(e, SR_EDIM, "more volumes than the design's %d rows", a->m->T);
 	if (nvox > INT32_MAX)
 		return sr_fail(e, SR_EDIM, "too many voxels for one fit");
+	if (a->k == 0 && a->defer)
+		defer_dim(a, vol, volf);
+	if (a->k == 0)
+		chunk_bases(a);
 	j.a = a;
 	j.vol = vol;
 	j.volf = volf;
@@ -711,7 +829,7 @@ typedef struct finish_job {
 static void acc_release(const glm_acc *a, size_t v0, size_t v1)
 {
 	size_t pg = (size_t)sysconf(_SC_PAGESIZE), per = (size_t)2 * a->m->r * sizeof(double);
-	uintptr_t base = (uintptr_t)a->acc, lo = base + v0 * per, hi = base + v1 * per;
+	uintptr_t base = (uintptr_t)a->acc, lo = base + acc_row(a, v0) * per, hi = base + acc_row(a, v1) * per;
 
 	if (!a->acc_mapped || pg == 0 || (size_t)-1 == pg)
 		return;
@@ -734,21 +852,62 @@ static void lag_grams(const glm_model *m, double *Ls, double *Q0)
 }
 
 /*
+ * 1 when no voxel glm_acc_defer_dim deferred can change the fit: each one's
+ * mean (y0 + zsum / T, which may differ in the last bits from the mean
+ * through the basis that the voxel would have had with its sums) is, by more
+ * than a bound on that difference, below the floor and below the lower of the
+ * two order statistics that give R, and on the same side of 0. Then every rule,
+ * the count of positive means and both order statistics are what the fit
+ * without deferral gives, and so are R and every output but those voxels'
+ * means. pos: the k positive means after stats_quantile_select.
+ */
+static int deferral_held(const glm_acc *a, const unsigned char *mask, const glm_out *o, const double *pos,
+			 size_t k)
+{
+	double lim = INFINITY;
+	size_t v;
+
+	if (!a->ndefer)
+		return 1;
+	if (k) {
+		size_t lo = (size_t)floor(GLM_FLOOR_QUANTILE * (double)(k - 1));
+
+		lim = fmin(o->floor, pos[lo]);
+	}
+	for (v = 0; v < a->nvox; v++) {
+		double mean = o->mean[v], tol;
+
+		if (a->fitv[v] != FIT_DEFERRED || (mask && !mask[v]) || (a->flag[v] & ACC_BAD))
+			continue;
+		/* both means are within a few sqrt(rank) units of roundoff of sum |z| <= sqrt(T z'z), plus |y0|'s */
+		tol = GLM_DEFER_TOL * (sqrt((double)a->m->T * a->zz[v]) + fabs(a->y0[v]));
+		if (tol == 0.0)
+			continue;   /* every z is 0: both means are y0 exactly */
+		if (!(fabs(mean) > tol) || !(mean + tol < lim))
+			return 0;
+	}
+	return 1;
+}
+
+/*
  * Every voxel's temporal mean, the run's reference intensity R and floor,
  * and the count of voxels each rule of METHODS.md section 3 leaves out: a
  * pass before the per-voxel fit, since the floor depends on all the means.
+ * 0 when a deferred voxel may matter (deferral_held), else 1.
  */
-static void voxel_means(const glm_acc *a, const unsigned char *mask, glm_out *o)
+static int voxel_means(const glm_acc *a, const unsigned char *mask, glm_out *o)
 {
+	int held;
 	const glm_model *m = a->m;
 	int r = m->r, T = m->T, q;
-	size_t v, k = 0;
+	size_t v, k = 0, row = 0;
 	double *pos = xmalloc_array(a->nvox ? a->nvox : 1, sizeof *pos);
 
 	for (v = 0; v < a->nvox; v++) {
-		const double *u = a->acc + (size_t)2 * r * v;
+		const double *u = a->acc + (size_t)2 * r * row;
 		double mean;
 
+		row += fitted(a, v);
 		if (a->flag[v] & ACC_BAD) {
 			mean = NAN;
 		} else if (!m->has_const) {
@@ -768,6 +927,7 @@ static void voxel_means(const glm_acc *a, const unsigned char *mask, glm_out *o)
 	}
 	o->ref_intensity = k ? stats_quantile_select(pos, k, GLM_FLOOR_QUANTILE) : NAN;
 	o->floor = k ? GLM_FLOOR_FRACTION * o->ref_intensity : 0.0;
+	held = deferral_held(a, mask, o, pos, k);
 	free(pos);
 	memset(o->left_out, 0, sizeof o->left_out);
 	for (v = 0; v < a->nvox; v++) {
@@ -788,10 +948,13 @@ static void voxel_means(const glm_acc *a, const unsigned char *mask, glm_out *o)
 		if (why < GLM_OUT_NRULES)
 			o->left_out[why]++;
 	}
+	return held;
 }
 
 /* Voxels per pool job of the finish: large enough that a job's scratch is nothing, small enough to balance. */
 #define FINISH_CHUNK 4096
+/* a job's first voxel starts a chunk, where acc_row knows its row */
+_Static_assert(FINISH_CHUNK % ACC_CHUNK == 0, "finish jobs start at accumulator chunks");
 
 /* Voxels of the finish waiting for their AR(1) refit, PWLANES_N at a time. */
 typedef struct refit_group {
@@ -838,13 +1001,13 @@ static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish
 	const glm_acc *a = j->a;
 	const glm_model *m = a->m;
 	int r = m->r, T = m->T, df = T - r, c, q, s;
-	size_t v, nvox = a->nvox;
+	size_t v, nvox = a->nvox, row = acc_row(a, v0);
 	glm_out *o = j->out;
 	refit_group g;
 
 	g.n = 0;
 	for (v = v0; v < v1; v++) {
-		const double *u = a->acc + (size_t)2 * r * v, *l = u + r;
+		const double *u = a->acc + (size_t)2 * r * row, *l = u + r;
 		double y0 = a->y0[v], shift = m->has_const ? y0 : 0.0, z0 = m->has_const ? 0.0 : y0;
 		double mean, sc, rss, lag, rho, zl = a->zprev[v], sig2;
 		const double *delta = u;
@@ -859,6 +1022,8 @@ static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish
 		o->rho[v] = NAN;
 		if (!fitted(a, v))
 			o->ok[v] = 0;
+		else
+			row++;
 		if (!o->ok[v])
 			continue;
 		sc = 100.0 / mean;
@@ -1004,7 +1169,16 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 	Ls = dup_zero((size_t)r * r);
 	Q0 = dup_zero((size_t)r * r);
 	lag_grams(m, Ls, Q0);
-	voxel_means(a, mask, out);
+	if (!voxel_means(a, mask, out)) {
+		free(cq);
+		free(gc);
+		free(cn);
+		free(Ls);
+		free(Q0);
+		glm_out_release(out);
+		return sr_fail(e, SR_EREDO, "a voxel dim in the run's first volume may be analyzable after "
+			       "all: the run must be fitted again without deferral");
+	}
 
 	a->finished = 1;
 	memset(&job, 0, sizeof job);

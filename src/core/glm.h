@@ -70,6 +70,21 @@ void glm_acc_fit_only(glm_acc *a, const size_t *vox, size_t n);
 void glm_acc_float32(glm_acc *a);
 /* glm_acc_add for float32 values (nvox of them), after glm_acc_float32; else SR_EINVAL. */
 sr_status glm_acc_add_f32(glm_acc *a, const float *vol, sr_err *e);
+/*
+ * Before the first volume: voxels dim in the first volume (finite, below
+ * 5% of its 98th percentile of positive values: half the intensity floor
+ * of METHODS.md section 3) get their mean and running sums but not the sums
+ * against the basis, the bulk of the memory (2 rank doubles a voxel) and of
+ * the work. Nearly always they stay far below the floor; glm_acc_finish checks
+ * that each is left out by the same rule, on the same side of 0 and below the
+ * order statistics of the reference intensity, by more than any roundoff of
+ * its mean, and then gives the same bits as without deferral but for those
+ * voxels' means (summed in another order, see glm_acc_fit_only). Otherwise it
+ * fails with SR_EREDO, and the run must be fitted again without it.
+ */
+void glm_acc_defer_dim(glm_acc *a);
+/* Voxels glm_acc_defer_dim deferred (0 before the first volume or without it). */
+size_t glm_acc_deferred(const glm_acc *a);
 /* Threads glm_acc_add may use (default 1); the sums do not depend on them. */
 void glm_acc_threads(glm_acc *a, int nthreads);
 void glm_acc_free(glm_acc *a);

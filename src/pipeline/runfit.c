@@ -17,6 +17,7 @@
 #include "../core/mem.h"
 #include "../core/pool.h"
 #include "../core/smooth.h"
+#include "../core/strv.h"
 #include "../io/events.h"
 #include "../io/rowfile.h"
 #include "../io/table.h"
@@ -417,6 +418,18 @@ static int spill_series(void)
 	return !(v && strcmp(v, "0") == 0);
 }
 
+/*
+ * Voxels dim in a run's first volume are fitted only if they turn out to
+ * need it (glm_acc_defer_dim). SPLITROI_DEFER=0 fits every voxel: a test
+ * hook for comparing the two (same outputs).
+ */
+static int defer_dim(void)
+{
+	const char *v = getenv("SPLITROI_DEFER");
+
+	return !(v && strcmp(v, "0") == 0);
+}
+
 sr_status runfit_series_row(const runfit_result *r, size_t k, double *out, void *scratch, sr_err *e)
 {
 	size_t j, n = r->nkeep;
@@ -549,8 +562,8 @@ static sr_status keep_setup(const runfit_spec *spec, int T, size_t nvox, runfit_
 	return SR_OK;
 }
 
-/* The per-voxel finish is split over nthreads (same results for any count). */
-static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e)
+/* One fit of the run; defer: glm_acc_defer_dim, which may end in SR_EREDO. */
+static sr_status fit_once(const runfit_spec *spec, int nthreads, int defer, runfit_result *res, sr_err *e)
 {
 	vol_queue q;
 	design_event *ev = NULL;
@@ -654,6 +667,9 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 	/* a slim run with nothing kept on the whole grid is read only at the kept voxels */
 	if (spec->slim && spec->keep && spec->nkeep && !spec->grid_mean && !grid_con_any(spec))
 		glm_acc_fit_only(acc, spec->keep, spec->nkeep);
+	/* dim voxels without the fit's sums, unless every voxel's mean is kept (it would differ in its last bits) */
+	if (defer)
+		glm_acc_defer_dim(acc);
 	q.s = s;
 	q.T = T;
 	q.nvox = nvox;
@@ -695,6 +711,56 @@ out:
 	free(Cp);
 	if (st != SR_OK)
 		runfit_result_release(res);
+	return st;
+}
+
+/* Warnings held back while a fit may yet be redone, so that they are said once. */
+typedef struct held_warnings {
+	pthread_mutex_t lock;
+	strv msgs;
+} held_warnings;
+
+static void hold_warning(void *ctx, const char *msg)
+{
+	held_warnings *h = ctx;
+
+	pthread_mutex_lock(&h->lock);
+	strv_push(&h->msgs, msg);
+	pthread_mutex_unlock(&h->lock);
+}
+
+/*
+ * The run's fit, with the voxels dim in the first volume deferred where
+ * nothing reads their means: when the finish finds that one of them may
+ * matter after all (SR_EREDO, rare), the run is read and fitted again
+ * without deferral. Either way the results are the same. The per-voxel
+ * finish is split over nthreads (same results for any count).
+ */
+static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e)
+{
+	held_warnings h;
+	sr_err first;
+	sr_status st;
+	size_t i;
+
+	if (spec->grid_mean || !defer_dim())
+		return fit_once(spec, nthreads, 0, res, e);
+	memset(&h, 0, sizeof h);
+	pthread_mutex_init(&h.lock, NULL);
+	sr_err_init(&first, hold_warning, &h);
+	st = fit_once(spec, nthreads, 1, res, &first);
+	if (st == SR_EREDO) {
+		st = fit_once(spec, nthreads, 0, res, e);
+	} else {
+		for (i = 0; i < h.msgs.n; i++)
+			sr_warnf(e, "%s", h.msgs.v[i]);
+		if (st != SR_OK) {
+			e->code = first.code;
+			memcpy(e->msg, first.msg, sizeof e->msg);
+		}
+	}
+	strv_free(&h.msgs);
+	pthread_mutex_destroy(&h.lock);
 	return st;
 }
 

@@ -742,6 +742,154 @@ static void test_float32_batches(void)
 	float32_batches(0);
 }
 
+/*
+ * A run for glm_acc_defer_dim: a dim noisy background (deferred), a bright
+ * block, -0 and +0 voxels, a dim voxel with a negative mean, a constant
+ * bright voxel, NaN at volume 0 and at volume 5, a dim voxel under the floor.
+ * wake: 100 voxels dark in volume 0 and bright from volume 10 (deferred, then
+ * analyzable). zero: one deferred voxel alternating +1 and -1 and ending at
+ * 0, its mean 0 up to roundoff.
+ */
+static void defer_layout(double *vol, int nv, int k, int wake, int zero)
+{
+	int v;
+
+	for (v = 0; v < nv; v++) {
+		uint64_t st = (uint64_t)v * 1000033u + (uint64_t)k + 1, *s = &st;
+		double y = 0.0;
+
+		if (v < 6000)
+			y = 10 + 2 * nrand(s);
+		else if (v < 9000)
+			y = 500 + v % 7 + nrand(s);
+		else if (v < 12000)
+			y = -0.0;
+		vol[v] = y;
+	}
+	vol[12001] = -3 + nrand(&(uint64_t){ (uint64_t)k + 99 });
+	vol[12002] = 410;
+	vol[12003] = k == 0 ? NAN : 450 + k % 3;
+	vol[12004] = k == 5 ? NAN : 8 + k % 2;
+	vol[7000] = k == 5 ? INFINITY : vol[7000];
+	for (v = 13000; wake && v < 13100; v++)
+		vol[v] = k < 10 ? (double)(v % 2) : 300 + nrand(&(uint64_t){ (uint64_t)v * 31u + (uint64_t)k });
+	if (zero)
+		vol[14000] = k == 36 ? 0.0 : (k % 2 ? -1.0 : 1.0);
+	for (v = 0; v < nv; v++)
+		vol[v] = (float)vol[v]; /* float32 exactly, so that the float32 fit reads the same numbers */
+}
+
+/*
+ * Deferring the voxels dim in the first volume gives every output of the
+ * plain fit bit for bit but the deferred voxels' means (which agree to
+ * rounding), with float32 volumes and 3 threads too; a deferred voxel that
+ * becomes analyzable, or whose mean's sign roundoff could flip, makes the
+ * finish ask for the plain fit (SR_EREDO).
+ */
+static void defer_dim(int with_const)
+{
+	enum { T = 37, P = 4, NV = 24000 };
+	double X[T * P], *vol = xmalloc_array(NV, sizeof(double)), C[P] = { 1, -1, 0, 0 }, worst = 0.0;
+	float *volf = xmalloc_array(NV, sizeof(float));
+	glm_out o[3], w;
+	glm_model *m;
+	sr_err e;
+	uint64_t s = 79;
+	int n, k, v, same = 1, means = 1;
+	size_t expect = 0, ndefer[3] = { 0, 0, 0 };
+	sr_status redo_wake = SR_OK, redo_zero = SR_OK;
+
+	sr_err_init(&e, NULL, NULL);
+	random_design(X, T, P, &s);
+	for (k = 0; !with_const && k < T; k++)
+		X[(size_t)3 * T + k] = cos(k * 0.3);
+	glm_model_make(X, T, P, &m, &e);
+	defer_layout(vol, NV, 0, 0, 0);
+	for (v = 0; v < NV; v++)
+		expect += isfinite(vol[v]) && vol[v] < 100; /* the 98th percentile is near 500: the limit near 25 */
+	/* 0: plain; 1: deferred; 2: deferred, float32 volumes, 3 threads */
+	for (n = 0; n < 3; n++) {
+		glm_acc *a = glm_acc_alloc(m, NV);
+
+		glm_acc_threads(a, n == 2 ? 3 : 1);
+		if (n == 2)
+			glm_acc_float32(a);
+		if (n > 0)
+			glm_acc_defer_dim(a);
+		for (k = 0; k < T; k++) {
+			defer_layout(vol, NV, k, 0, 0);
+			if (n == 2) {
+				for (v = 0; v < NV; v++)
+					volf[v] = (float)vol[v];
+				glm_acc_add_f32(a, volf, &e);
+			} else {
+				glm_acc_add(a, vol, &e);
+			}
+		}
+		ndefer[n] = glm_acc_deferred(a);
+		CHECK(glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 2, &o[n], &e) == SR_OK,
+		      "defer_dim (constant column %d): fit %d finishes", with_const, n);
+		glm_acc_free(a);
+	}
+	for (n = 1; n < 3; n++)
+		for (v = 0; v < NV; v++) {
+			same &= memcmp(&o[0].effect[v], &o[n].effect[v], sizeof(double)) == 0;
+			same &= memcmp(&o[0].var[v], &o[n].var[v], sizeof(double)) == 0;
+			same &= memcmp(&o[0].rho[v], &o[n].rho[v], sizeof(double)) == 0;
+			same &= o[0].ok[v] == o[n].ok[v] && o[0].rule[v] == o[n].rule[v];
+			if (v >= 6000 && v < 9000)
+				means &= memcmp(&o[0].mean[v], &o[n].mean[v], sizeof(double)) == 0;
+			else if (isnan(o[0].mean[v]) != isnan(o[n].mean[v]))
+				worst = INFINITY;
+			else if (!isnan(o[0].mean[v]))
+				worst = fmax(worst, fabs(o[0].mean[v] - o[n].mean[v]) / fmax(1.0, fabs(o[0].mean[v])));
+		}
+	CHECK(ndefer[0] == 0 && ndefer[1] == expect && ndefer[2] == expect && expect > 20000,
+	      "defer_dim (constant column %d): the %zu voxels dim in volume 0 deferred (%zu, %zu)", with_const,
+	      expect, ndefer[1], ndefer[2]);
+	CHECK(o[0].ok[6500] && !o[0].ok[7000] && !o[0].ok[12002] && !o[0].ok[12003] && !o[0].ok[100] &&
+	      o[0].rule[100] == GLM_OUT_FLOOR && o[0].rule[12001] == GLM_OUT_NONPOSITIVE &&
+	      o[0].rule[12004] == GLM_OUT_NONFINITE && o[0].rule[9500] == GLM_OUT_NONPOSITIVE,
+	      "defer_dim layout (constant column %d): bright voxels analyzable, each other kind left out by its rule",
+	      with_const);
+	CHECK(same, "defer_dim (constant column %d): every voxel's effect, var, rho, ok and rule bit for bit as the plain fit (doubles, and float32 with 3 threads)", with_const);
+	CHECK(means && worst < 1e-12, "defer_dim (constant column %d): the fitted voxels' means bit for bit, the deferred ones' to rounding (worst %.2g)", with_const, worst);
+	CHECK(memcmp(&o[0].ref_intensity, &o[1].ref_intensity, sizeof(double)) == 0 &&
+	      memcmp(&o[0].ref_intensity, &o[2].ref_intensity, sizeof(double)) == 0 &&
+	      memcmp(o[0].left_out, o[1].left_out, sizeof o[0].left_out) == 0 &&
+	      memcmp(o[0].left_out, o[2].left_out, sizeof o[0].left_out) == 0,
+	      "defer_dim (constant column %d): the reference intensity bit for bit and every rule's count", with_const);
+	for (n = 0; n < 2; n++) {
+		glm_acc *a = glm_acc_alloc(m, NV);
+
+		glm_acc_defer_dim(a);
+		for (k = 0; k < T; k++) {
+			defer_layout(vol, NV, k, n == 0, n == 1);
+			glm_acc_add(a, vol, &e);
+		}
+		if (n == 0)
+			redo_wake = glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 1, &w, &e);
+		else
+			redo_zero = glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 1, &w, &e);
+		glm_acc_free(a);
+	}
+	CHECK(redo_wake == SR_EREDO && w.ok == NULL,
+	      "defer_dim (constant column %d): voxels dark in volume 0 and bright later ask for the plain fit", with_const);
+	CHECK(redo_zero == SR_EREDO,
+	      "defer_dim (constant column %d): a deferred voxel with a mean of 0 up to roundoff asks for the plain fit", with_const);
+	for (n = 0; n < 3; n++)
+		glm_out_release(&o[n]);
+	glm_model_free(m);
+	free(vol);
+	free(volf);
+}
+
+static void test_defer_dim(void)
+{
+	defer_dim(1);
+	defer_dim(0);
+}
+
 int main(void)
 {
 	test_longley();
@@ -755,5 +903,6 @@ int main(void)
 	test_zero_background();
 	test_fit_only();
 	test_float32_batches();
+	test_defer_dim();
 	return TEST_DONE();
 }
