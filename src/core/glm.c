@@ -378,7 +378,8 @@ struct glm_acc {
 	int acc_mapped; /* acc comes from mmap: finished voxels' pages can be handed back early */
 	int batch;      /* volumes per batch: GLM_BATCH, GLM_BATCH_F32 with f32 */
 	int f32;        /* ybuf holds float32 (glm_acc_float32) */
-	void *ybuf;     /* batch x nvox: the pending volumes' values, double or float32 */
+	void *ybuf;     /* batch x ylen: the pending volumes' values, double or float32 */
+	size_t ylen;    /* a row of ybuf: the FIT_SUMS voxels' values, in the order of their sums */
 	double *y0, *zz, *zlag, *zprev;
 	double *zsum;   /* without a constant column (else 1'z = g1'U_r'z), and for the
 			   voxels glm_acc_fit_only leaves unfitted */
@@ -420,6 +421,7 @@ glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
 	/* zeroed: the rows of chunks that are not live are never written */
 	a->batch = GLM_BATCH;
 	a->ybuf = xcalloc(n, GLM_BATCH * sizeof(double));
+	a->ylen = nvox;
 	a->y0 = xcalloc(n, sizeof(double));
 	a->zz = xcalloc(n, sizeof(double));
 	a->zlag = xcalloc(n, sizeof(double));
@@ -513,7 +515,10 @@ static size_t acc_row(const glm_acc *a, size_t v)
 	return v >= a->nvox ? a->cbase[(a->nvox + ACC_CHUNK - 1) / ACC_CHUNK] : a->cbase[v / ACC_CHUNK];
 }
 
-/* a->cbase from the final fitv, before the first volume is added. */
+/*
+ * a->cbase from the final fitv, before the first volume is added, and the
+ * pending batch for the voxels that get the sums only.
+ */
 static void chunk_bases(glm_acc *a)
 {
 	size_t nchunk = (a->nvox + ACC_CHUNK - 1) / ACC_CHUNK, c, v, n = 0;
@@ -527,6 +532,9 @@ static void chunk_bases(glm_acc *a)
 			n += a->fitv[v] == FIT_SUMS;
 	}
 	a->cbase[nchunk] = n;
+	free(a->ybuf);
+	a->ylen = n;
+	a->ybuf = xcalloc(n ? n : 1, (size_t)a->batch * (a->f32 ? sizeof(float) : sizeof(double)));
 }
 
 /*
@@ -630,39 +638,50 @@ static void shift_batch(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_
 		batchsum_shift(&r, Y, ldy, nb, v1 - v0);
 }
 
-/* Volume k's values of voxels v0..v1-1 (vol, or volf with f32) into row b of the pending batch. */
-static void put_row(glm_acc *a, int b, const double *vol, const float *volf, size_t v0, size_t v1)
+/* Volume k's values of voxels v0..v1-1 (vol, or volf with f32) into row b of the pending batch, from place row on. */
+static void put_row(glm_acc *a, int b, const double *vol, const float *volf, size_t v0, size_t v1, size_t row)
 {
-	size_t v, at = (size_t)b * a->nvox;
+	size_t v, at = (size_t)b * a->ylen + row;
 
 	if (volf) {
-		memcpy((float *)a->ybuf + at + v0, volf + v0, (v1 - v0) * sizeof(float));
+		memcpy((float *)a->ybuf + at, volf + v0, (v1 - v0) * sizeof(float));
 		return;
 	}
 	if (!a->f32) {
-		memcpy((double *)a->ybuf + at + v0, vol + v0, (v1 - v0) * sizeof(double));
+		memcpy((double *)a->ybuf + at, vol + v0, (v1 - v0) * sizeof(double));
 		return;
 	}
 	for (v = v0; v < v1; v++)
-		((float *)a->ybuf)[at + v] = (float)vol[v];
+		((float *)a->ybuf)[at + v - v0] = (float)vol[v];
 }
 
-/* The batch's nb rows of voxels v0..v1-1 as doubles into Z (row b at Z + ACC_CHUNK b). */
-static void get_rows(const glm_acc *a, int nb, size_t v0, size_t v1, double *Z)
+/* The batch's nb rows of n voxels from place row on, as doubles into Z (row b at Z + ACC_CHUNK b). */
+static void get_rows(const glm_acc *a, int nb, size_t row, size_t n, double *Z)
 {
-	size_t v, n = a->nvox;
+	size_t v, len = a->ylen;
 	int b;
 
 	for (b = 0; b < nb; b++) {
 		double *zr = Z + (size_t)ACC_CHUNK * b;
 
 		if (!a->f32) {
-			memcpy(zr, (const double *)a->ybuf + n * b + v0, (v1 - v0) * sizeof(double));
+			memcpy(zr, (const double *)a->ybuf + len * b + row, n * sizeof(double));
 			continue;
 		}
-		for (v = v0; v < v1; v++)
-			zr[v - v0] = (double)((const float *)a->ybuf)[n * b + v];
+		for (v = 0; v < n; v++)
+			zr[v] = (double)((const float *)a->ybuf)[len * b + row + v];
 	}
+}
+
+/* The running sums of one volume (the run's a->k-th) at voxels v0..v1-1 that get no sums against the basis. */
+static void step_now(glm_acc *a, const double *vol, const float *volf, size_t v0, size_t v1, int kind)
+{
+	double Y[ACC_CHUNK];
+	size_t v;
+
+	for (v = v0; v < v1; v++)
+		Y[v - v0] = volf ? (double)volf[v] : a->f32 ? (double)(float)vol[v] : vol[v];
+	shift_batch(a, Y, ACC_CHUNK, a->k, 1, v0, v1, kind);
 }
 
 /* The end of the run of voxels from v (before v1) with v's fit_kind. */
@@ -678,12 +697,13 @@ static size_t kind_end(const glm_acc *a, size_t v, size_t v1)
 }
 
 /*
- * Adds a volume chunk by chunk: the volume's values of voxels v0..v1-1 go
- * into the pending batch; with flush, the chunk takes the whole batch: the
- * shifted values (in a scratch of its own), the running sums and
- * acc += A[:, k0..k] Z' for each run of voxels that get the sums, the means
- * and flags for the others (glm_acc_fit_only), and the running sums too for
- * the deferred ones (glm_acc_defer_dim). A chunk that has held only +0
+ * Adds a volume chunk by chunk: the values of the voxels of v0..v1-1 that
+ * get the sums go into the pending batch; with flush, the chunk takes the
+ * whole batch: the shifted values (in a scratch of its own), the running
+ * sums and acc += A[:, k0..k] Z' for each run of such voxels. The others
+ * take their volume at once: the means and flags (glm_acc_fit_only), and
+ * the running sums too for the deferred ones (glm_acc_defer_dim), the same
+ * steps per voxel as in a batch. A chunk that has held only +0
  * in every volume so far is left alone while its values stay +0: its sums,
  * its y0 and its pending rows are all +0, exactly what the updates would
  * have left there (0 - 0, 0 * 0 and 0 + 0 are +0), and adding a chunk of
@@ -713,21 +733,26 @@ static void add_chunk(glm_acc *a, const double *vol, const float *volf, size_t v
 			}
 		}
 	}
-	put_row(a, a->nb, vol, volf, v0, v1);
+	for (v = v0, row = acc_row(a, v0); v < v1; v = end) {
+		end = kind_end(a, v, v1);
+		if (!fitted(a, v)) {
+			step_now(a, vol, volf, v, end, fit_kind(a, v));
+			continue;
+		}
+		put_row(a, a->nb, vol, volf, v, end, row);
+		row += end - v;
+	}
 	if (!flush)
 		return;
-	get_rows(a, nb, v0, v1, Z);
 	for (v = v0, row = acc_row(a, v0); v < v1; v = end) {
-		int kind = fit_kind(a, v);
-		double *Y = Z + (v - v0);
-
 		end = kind_end(a, v, v1);
-		shift_batch(a, Y, ACC_CHUNK, k0, nb, v, end, kind);
-		if (kind == FIT_SUMS) {
-			batchsum_add(a->acc + (size_t)r2 * row, r2, a->m->A + (size_t)r2 * k0, r2, Y, ACC_CHUNK,
-				     nb, end - v);
-			row += end - v;
-		}
+		if (!fitted(a, v))
+			continue;
+		get_rows(a, nb, row, end - v, Z);
+		shift_batch(a, Z, ACC_CHUNK, k0, nb, v, end, FIT_SUMS);
+		batchsum_add(a->acc + (size_t)r2 * row, r2, a->m->A + (size_t)r2 * k0, r2, Z, ACC_CHUNK, nb,
+			     end - v);
+		row += end - v;
 	}
 }
 
@@ -821,22 +846,37 @@ typedef struct finish_job {
 	finish_ws *ws;             /* one per pool worker */
 } finish_job;
 
-/*
- * Hands back the accumulator pages that lie wholly inside voxels [v0, v1),
- * already finished: the output maps grow while the sums shrink, so the
- * finish does not raise the peak memory of the fit.
- */
-static void acc_release(const glm_acc *a, size_t v0, size_t v1)
+/* Hands back the pages wholly inside bytes [from, to) of p's memory; they read as zeros after. */
+static void pages_release(const void *p, size_t from, size_t to)
 {
-	size_t pg = (size_t)sysconf(_SC_PAGESIZE), per = (size_t)2 * a->m->r * sizeof(double);
-	uintptr_t base = (uintptr_t)a->acc, lo = base + acc_row(a, v0) * per, hi = base + acc_row(a, v1) * per;
+	size_t pg = (size_t)sysconf(_SC_PAGESIZE);
+	uintptr_t lo = (uintptr_t)p + from, hi = (uintptr_t)p + to;
 
-	if (!a->acc_mapped || pg == 0 || (size_t)-1 == pg)
+	if (!p || pg == 0 || (size_t)-1 == pg)
 		return;
 	lo = (lo + pg - 1) / pg * pg;
 	hi = hi / pg * pg;
 	if (hi > lo)
 		madvise((void *)lo, hi - lo, MADV_DONTNEED);
+}
+
+/*
+ * Hands back the accumulator pages and the running sums of voxels [v0, v1),
+ * already finished: the output maps grow while the sums shrink, so the
+ * finish does not raise the peak memory of the fit.
+ */
+static void acc_release(const glm_acc *a, size_t v0, size_t v1)
+{
+	size_t per = (size_t)2 * a->m->r * sizeof(double), d = sizeof(double);
+
+	if (a->acc_mapped)
+		pages_release(a->acc, acc_row(a, v0) * per, acc_row(a, v1) * per);
+	/* the running sums too: anonymous memory either way (malloc's or mmap's), read no more */
+	pages_release(a->y0, v0 * d, v1 * d);
+	pages_release(a->zz, v0 * d, v1 * d);
+	pages_release(a->zlag, v0 * d, v1 * d);
+	pages_release(a->zprev, v0 * d, v1 * d);
+	pages_release(a->zsum, v0 * d, v1 * d);
 }
 
 /* Lq + Lq' and u_0 u_0' + u_T-1 u_T-1', shared by every voxel. */
