@@ -201,6 +201,9 @@ __attribute__((target("avx2,fma"))) static void shift_avx2(const batchsum_run *r
 		for (i = 0; i < 4; i++)
 			r->flag[v + i] |= (unsigned char)(((mb >> i) & 1 ? r->bad : 0) | ((mv >> i) & 1 ? r->varies : 0));
 	}
+	/* the compiler put no vzeroupper before this tail call: without it the upper halves stay
+	   dirty and every SSE instruction after it (the smoothing's, say) ran about 3x slower */
+	_mm256_zeroupper();
 	shift_plain(r, Y, ldy, nb, n4, nv);
 }
 #endif

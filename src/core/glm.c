@@ -45,8 +45,14 @@
  * the accumulators once; more volumes mean less memory traffic but a larger
  * buffer (batch x nvox doubles) */
 #define GLM_BATCH 4
-/* the batch when the pending volumes are held as float32 (glm_acc_float32): twice the volumes in the same bytes */
-#define GLM_BATCH_F32 (2 * GLM_BATCH)
+/*
+ * The batch when the pending volumes are held as float32 (glm_acc_float32).
+ * Twice GLM_BATCH would read and write the sums half as often in the same
+ * bytes, but the sums are no longer what holds the fit back (the inflation
+ * is): GLM_BATCH in half the bytes keeps the bench run's fit under a quarter
+ * of the run's size. Any multiple of BATCHSUM_GROUP gives the same bits.
+ */
+#define GLM_BATCH_F32 GLM_BATCH
 /*
  * Voxels per chunk of a volume. A chunk that has held only +0 so far (a zero
  * background) is skipped: adding A * 0 would leave every sum as it is (the
@@ -365,7 +371,8 @@ void glm_ols_solve(const glm_model *m, const double *y, double *beta)
 
 /* ------------------------------------------------------------------ streaming */
 
-enum { ACC_BAD = 1, ACC_VARIES = 2 };
+/* ACC_SEEN: a voxel without sums against the basis has held a value other than +0 (step_now) */
+enum { ACC_BAD = 1, ACC_VARIES = 2, ACC_SEEN = 4 };
 
 struct glm_acc {
 	const glm_model *m;
@@ -380,11 +387,13 @@ struct glm_acc {
 	int f32;        /* ybuf holds float32 (glm_acc_float32) */
 	void *ybuf;     /* batch x ylen: the pending volumes' values, double or float32 */
 	size_t ylen;    /* a row of ybuf: the FIT_SUMS voxels' values, in the order of their sums */
-	double *y0, *zz, *zlag, *zprev;
+	double *y0, *zz;
+	double *zlag, *zprev; /* the FIT_SUMS voxels' only, one after another as their sums (acc_row) */
 	double *zsum;   /* without a constant column (else 1'z = g1'U_r'z), and for the
 			   voxels glm_acc_fit_only leaves unfitted */
 	unsigned char *flag;
 	unsigned char *live; /* per ACC_CHUNK voxels: a value other than +0 has been added */
+	unsigned char *seen; /* per ACC_CHUNK voxels: step_now has seen one at a voxel without sums */
 	unsigned char *fitv; /* per voxel FIT_NONE, FIT_SUMS or FIT_DEFERRED; NULL = every voxel FIT_SUMS */
 	size_t *cbase;  /* with fitv, from the first volume: per ACC_CHUNK voxels, the FIT_SUMS voxels
 			   before it (its first row of acc), then their total; NULL: row v for voxel v */
@@ -429,6 +438,7 @@ glm_acc *glm_acc_alloc(const glm_model *m, size_t nvox)
 	a->zprev = xcalloc(n, sizeof(double));
 	a->flag = xcalloc(n, 1);
 	a->live = xcalloc(n / ACC_CHUNK + 1, 1);
+	a->seen = xcalloc(n / ACC_CHUNK + 1, 1);
 	a->threads = 1;
 	return a;
 }
@@ -449,6 +459,7 @@ void glm_acc_free(glm_acc *a)
 	free(a->zprev);
 	free(a->flag);
 	free(a->live);
+	free(a->seen);
 	free(a->fitv);
 	free(a->cbase);
 	free(a);
@@ -580,35 +591,49 @@ static int vol_zero(const double *vol, const float *volf, size_t v0, size_t v1)
 {
 	size_t v;
 
-	for (v = v0; v < v1; v++) {
-		double y = volf ? (double)volf[v] : vol[v];
+	/* +0 is the one value whose bits are all 0: an OR over the bits, without a branch per value */
+	if (volf) {
+		uint32_t o = 0, b;
 
-		if (y != 0.0 || signbit(y))
-			return 0;
+		for (v = v0; v < v1; v++) {
+			memcpy(&b, volf + v, sizeof b);
+			o |= b;
+		}
+		return o == 0;
+	} else {
+		uint64_t o = 0, b;
+
+		for (v = v0; v < v1; v++) {
+			memcpy(&b, vol + v, sizeof b);
+			o |= b;
+		}
+		return o == 0;
 	}
-	return 1;
 }
 
 /*
  * The running sums of the batch's nb volumes k0.. for voxels v0..v1-1 (Y at
  * voxel v0, volume k0 + b at Y + ldy b), each value replaced by its shifted
  * value z (z = y - y0 with a constant in col(X); 0 where not finite). kind
- * (fit_kind of the voxels): FIT_SUMS and FIT_DEFERRED voxels get z'z, the
- * lag-one sum and the previous z too; zsum only where a mean is read from it
- * (no constant, or no sums against the basis). The
+ * (fit_kind of the voxels): FIT_SUMS voxels get z'z, the lag-one sum and the
+ * previous z too (the latter two from place row on), FIT_DEFERRED voxels z'z
+ * (their lag-one sums go to a scratch); zsum only where a mean is read from
+ * it (no constant, or no sums against the basis). The
  * run's first volume sets y0; the others go through batchsum_shift, the same
  * steps in volume order per voxel.
  */
-static void shift_batch(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_t v0, size_t v1, int kind)
+static void shift_batch(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_t v0, size_t v1, int kind,
+			size_t row)
 {
+	double lag_scratch[ACC_CHUNK], prev_scratch[ACC_CHUNK];
 	batchsum_run r;
 	size_t v;
 	int sums = kind != FIT_NONE;
 
 	r.y0 = a->y0 + v0;
 	r.zz = sums ? a->zz + v0 : NULL;
-	r.zlag = sums ? a->zlag + v0 : NULL;
-	r.zprev = sums ? a->zprev + v0 : NULL;
+	r.zlag = !sums ? NULL : kind == FIT_SUMS ? a->zlag + row : lag_scratch;
+	r.zprev = !sums ? NULL : kind == FIT_SUMS ? a->zprev + row : prev_scratch;
 	r.zsum = a->zsum && !(kind == FIT_SUMS && a->m->has_const) ? a->zsum + v0 : NULL;
 	r.flag = a->flag + v0;
 	r.bad = ACC_BAD;
@@ -620,14 +645,14 @@ static void shift_batch(glm_acc *a, double *Y, size_t ldy, int k0, int nb, size_
 
 			a->y0[v] = y;
 			if (!isfinite(y)) {
-				a->flag[v] = ACC_BAD;
+				a->flag[v] |= ACC_BAD;
 				z = 0.0;
 			}
 			if (r.zsum)
 				r.zsum[v - v0] = z;
 			if (sums) {
 				a->zz[v] = z * z;
-				a->zprev[v] = z;
+				r.zprev[v - v0] = z;
 			}
 			Y[v - v0] = z;
 		}
@@ -673,15 +698,63 @@ static void get_rows(const glm_acc *a, int nb, size_t row, size_t n, double *Z)
 	}
 }
 
-/* The running sums of one volume (the run's a->k-th) at voxels v0..v1-1 that get no sums against the basis. */
+/*
+ * The running sums of one volume (the run's a->k-th) at voxels v0..v1-1
+ * that get no sums against the basis: the steps of batchsum_shift for one
+ * volume (zsum, and z'z for the deferred ones, whose finish bounds a mean's
+ * roundoff with it), without a batch to hold the values and without the
+ * lag-one sums no one reads. A voxel that has held only +0 (a zero
+ * background beside the data in a chunk) is passed over while it does: its
+ * y0, sums and flags are all +0, what the steps would leave there.
+ */
 static void step_now(glm_acc *a, const double *vol, const float *volf, size_t v0, size_t v1, int kind)
 {
-	double Y[ACC_CHUNK];
+	double *zsum = a->zsum, *zz = kind == FIT_DEFERRED ? a->zz : NULL;
+	const double *y0 = a->y0;
+	unsigned char *flag = a->flag;
+	int shift = a->m->has_const;
+	unsigned char *seen = &a->seen[v0 / ACC_CHUNK];
 	size_t v;
 
-	for (v = v0; v < v1; v++)
-		Y[v - v0] = volf ? (double)volf[v] : a->f32 ? (double)(float)vol[v] : vol[v];
-	shift_batch(a, Y, ACC_CHUNK, a->k, 1, v0, v1, kind);
+	/* no voxel of the chunk without sums has held anything but +0, nor does this volume
+	   here: their state is the +0 it was made with, what the steps would leave there */
+	if (!*seen && vol_zero(vol, volf, v0, v1))
+		return;
+	*seen = 1;
+	if (a->k == 0) {
+		double Y[ACC_CHUNK];
+
+		for (v = v0; v < v1; v++)
+			Y[v - v0] = volf ? (double)volf[v] : a->f32 ? (double)(float)vol[v] : vol[v];
+		for (v = v0; v < v1; v++)
+			if (Y[v - v0] != 0.0 || signbit(Y[v - v0]))
+				flag[v] |= ACC_SEEN;
+		shift_batch(a, Y, ACC_CHUNK, 0, 1, v0, v1, kind, 0);
+		return;
+	}
+	for (v = v0; v < v1; v++) {
+		double y = volf ? (double)volf[v] : a->f32 ? (double)(float)vol[v] : vol[v];
+		double z;
+		unsigned char f = 0;
+
+		if (!(flag[v] & ACC_SEEN)) {
+			if (y == 0.0 && !signbit(y))
+				continue;
+			flag[v] |= ACC_SEEN;
+		}
+		z = shift ? y - y0[v] : y;
+		if (!isfinite(z)) {
+			f = ACC_BAD;
+			z = 0.0;
+		}
+		if (y != y0[v])
+			f |= ACC_VARIES;
+		flag[v] |= f;
+		if (zz)
+			zz[v] += z * z;
+		if (zsum)
+			zsum[v] += z;
+	}
 }
 
 /* The end of the run of voxels from v (before v1) with v's fit_kind. */
@@ -689,9 +762,18 @@ static size_t kind_end(const glm_acc *a, size_t v, size_t v1)
 {
 	size_t end;
 
+	uint64_t same, w;
+
 	if (!a->fitv)
 		return v1;
-	for (end = v + 1; end < v1 && a->fitv[end] == a->fitv[v]; end++)
+	/* eight at a time while all eight are v's kind, then one at a time */
+	same = 0x0101010101010101ULL * a->fitv[v];
+	for (end = v + 1; end + 8 <= v1; end += 8) {
+		memcpy(&w, a->fitv + end, sizeof w);
+		if (w != same)
+			break;
+	}
+	for (; end < v1 && a->fitv[end] == a->fitv[v]; end++)
 		;
 	return end;
 }
@@ -749,7 +831,7 @@ static void add_chunk(glm_acc *a, const double *vol, const float *volf, size_t v
 		if (!fitted(a, v))
 			continue;
 		get_rows(a, nb, row, end - v, Z);
-		shift_batch(a, Z, ACC_CHUNK, k0, nb, v, end, FIT_SUMS);
+		shift_batch(a, Z, ACC_CHUNK, k0, nb, v, end, FIT_SUMS, row);
 		batchsum_add(a->acc + (size_t)r2 * row, r2, a->m->A + (size_t)r2 * k0, r2, Z, ACC_CHUNK, nb,
 			     end - v);
 		row += end - v;
@@ -844,6 +926,7 @@ typedef struct finish_job {
 	const unsigned char *mask;
 	glm_out *out;
 	finish_ws *ws;             /* one per pool worker */
+	const size_t *order;       /* the chunks in the order they are finished (NULL: in turn) */
 } finish_job;
 
 /* Hands back the pages wholly inside bytes [from, to) of p's memory; they read as zeros after. */
@@ -861,22 +944,15 @@ static void pages_release(const void *p, size_t from, size_t to)
 }
 
 /*
- * Hands back the accumulator pages and the running sums of voxels [v0, v1),
- * already finished: the output maps grow while the sums shrink, so the
+ * Hands back the accumulator pages of voxels [v0, v1), already finished: the output maps grow while the sums shrink, so the
  * finish does not raise the peak memory of the fit.
  */
 static void acc_release(const glm_acc *a, size_t v0, size_t v1)
 {
-	size_t per = (size_t)2 * a->m->r * sizeof(double), d = sizeof(double);
+	size_t per = (size_t)2 * a->m->r * sizeof(double);
 
 	if (a->acc_mapped)
 		pages_release(a->acc, acc_row(a, v0) * per, acc_row(a, v1) * per);
-	/* the running sums too: anonymous memory either way (malloc's or mmap's), read no more */
-	pages_release(a->y0, v0 * d, v1 * d);
-	pages_release(a->zz, v0 * d, v1 * d);
-	pages_release(a->zlag, v0 * d, v1 * d);
-	pages_release(a->zprev, v0 * d, v1 * d);
-	pages_release(a->zsum, v0 * d, v1 * d);
 }
 
 /* Lq + Lq' and u_0 u_0' + u_T-1 u_T-1', shared by every voxel. */
@@ -1047,9 +1123,10 @@ static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish
 
 	g.n = 0;
 	for (v = v0; v < v1; v++) {
-		const double *u = a->acc + (size_t)2 * r * row, *l = u + r;
+		size_t at = row;
+		const double *u = a->acc + (size_t)2 * r * at, *l = u + r;
 		double y0 = a->y0[v], shift = m->has_const ? y0 : 0.0, z0 = m->has_const ? 0.0 : y0;
-		double mean, sc, rss, lag, rho, zl = a->zprev[v], sig2;
+		double mean, sc, rss, lag, rho, zl, sig2;
 		const double *delta = u;
 		pwlanes_voxel *pv;
 
@@ -1066,6 +1143,7 @@ static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish
 			row++;
 		if (!o->ok[v])
 			continue;
+		zl = a->zprev[at];
 		sc = 100.0 / mean;
 
 		/* OLS on the orthonormal basis: delta = U_r'z */
@@ -1092,7 +1170,7 @@ static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish
 		}
 
 		/* lag-one product of the OLS residuals */
-		lag = a->zlag[v];
+		lag = a->zlag[at];
 		for (q = 0; q < r; q++) {
 			double lu = 0.0;
 
@@ -1114,7 +1192,7 @@ static void finish_range(const finish_job *j, size_t v0, size_t v1, const finish
 		pv->u = u;
 		pv->l = l;
 		pv->zz = a->zz[v];
-		pv->zlag = a->zlag[v];
+		pv->zlag = a->zlag[at];
 		pv->z0 = z0;
 		pv->zl = zl;
 		pv->rho = rho;
@@ -1153,11 +1231,53 @@ static void ws_free(finish_ws *ws, int nw)
 	free(ws);
 }
 
+/* A chunk of the finish and the rows of sums it hands back, for finish_order. */
+typedef struct chunk_rows {
+	size_t rows, chunk;
+} chunk_rows;
+
+static int more_rows_first(const void *x, const void *y)
+{
+	const chunk_rows *a = x, *b = y;
+
+	if (a->rows != b->rows)
+		return a->rows < b->rows ? 1 : -1;
+	return a->chunk < b->chunk ? -1 : a->chunk > b->chunk;
+}
+
+/*
+ * With the sums stored one after another (acc_row), the chunks that hand
+ * back the most sums go first, so the outputs grow into memory the finish
+ * has already given back, and its peak stays that of the stream. Chunks are
+ * independent: the same numbers in any order. NULL: in turn.
+ */
+static size_t *finish_order(const glm_acc *a, size_t nchunk)
+{
+	chunk_rows *cr;
+	size_t *order, k;
+
+	if (!a->cbase || nchunk < 2)
+		return NULL;
+	cr = xmalloc_array(nchunk, sizeof *cr);
+	for (k = 0; k < nchunk; k++) {
+		size_t v0 = k * FINISH_CHUNK, v1 = v0 + FINISH_CHUNK < a->nvox ? v0 + FINISH_CHUNK : a->nvox;
+
+		cr[k].rows = acc_row(a, v1) - acc_row(a, v0);
+		cr[k].chunk = k;
+	}
+	qsort(cr, nchunk, sizeof *cr, more_rows_first);
+	order = xmalloc_array(nchunk, sizeof *order);
+	for (k = 0; k < nchunk; k++)
+		order[k] = cr[k].chunk;
+	free(cr);
+	return order;
+}
+
 /* Pool job k: voxels k*FINISH_CHUNK.., then their accumulator pages go back to the system. */
 static void finish_chunk(size_t k, int worker, void *ctx)
 {
 	const finish_job *j = ctx;
-	size_t nvox = j->a->nvox, v0 = k * FINISH_CHUNK;
+	size_t nvox = j->a->nvox, v0 = (j->order ? j->order[k] : k) * FINISH_CHUNK;
 	size_t v1 = nvox - v0 > FINISH_CHUNK ? v0 + FINISH_CHUNK : nvox;
 
 	finish_range(j, v0, v1, &j->ws[worker]);
@@ -1240,7 +1360,9 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 	nchunk = (nvox + FINISH_CHUNK - 1) / FINISH_CHUNK;
 	nw = pool_workers(nchunk, nthreads);
 	job.ws = ws_alloc(nw, r, ncon);
+	job.order = finish_order(a, nchunk);
 	pool_run(nchunk, nthreads, finish_chunk, &job);
+	free((size_t *)job.order);
 	ws_free(job.ws, nw);
 	free(cq);
 	free(gc);

@@ -62,10 +62,9 @@ sr_status glm_acc_add(glm_acc *a, const double *vol, sr_err *e);
 void glm_acc_fit_only(glm_acc *a, const size_t *vox, size_t n);
 /*
  * Before the first volume: every value glm_acc_add will be given is a
- * float32 exactly, so the pending volumes are held as float32, twice as
- * many in the same memory, and the sums read and write each voxel's
- * accumulators half as often. The same bits as without it; a value that is
- * not a float32 would be rounded to one.
+ * float32 exactly, so the pending volumes are held as float32, in half the
+ * memory. The same bits as without it; a value that is not a float32 would
+ * be rounded to one.
  */
 void glm_acc_float32(glm_acc *a);
 /* glm_acc_add for float32 values (nvox of them), after glm_acc_float32; else SR_EINVAL. */

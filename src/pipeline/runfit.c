@@ -22,9 +22,10 @@
 #include "../io/rowfile.h"
 #include "../io/table.h"
 
-/* volumes the reader may hold ahead of the fit: one float32 batch of the sums
-   (glm_acc_float32), so it never waits while a batch is added */
-#define QUEUE_SLOTS 8
+/* volumes the reader may hold ahead of the fit: enough that it does not wait
+   while a batch of the sums is added (the bench run is no faster with 8), few
+   because each is a whole volume of memory */
+#define QUEUE_SLOTS 3
 
 typedef struct vol_queue {
 	nii_stream *s;

@@ -657,10 +657,10 @@ static void test_fit_only(void)
 }
 
 /*
- * glm_acc_float32 (float32 pending volumes, batches of 8) gives the bits of
- * the double batches of 4 on float32-exact values: zero background, NaN,
- * constant and dim voxels, a last batch of 5, 3 threads, with and without
- * fit_only.
+ * glm_acc_float32 (float32 pending volumes) gives the bits of the double
+ * batches on float32-exact values: zero background, NaN, constant and dim
+ * voxels, a last batch shorter than the others (37 volumes), 3 threads, with
+ * and without fit_only.
  */
 static void float32_batches(int with_const)
 {
@@ -728,7 +728,7 @@ static void float32_batches(int with_const)
 	}
 	CHECK(o[0].ok[7001] && o[1].ok[7001] && isfinite(o[1].effect[7001]) && o[3].ok[7000] && !o[3].ok[7001],
 	      "float32 batches (constant column %d): the layout's series are fitted", with_const);
-	CHECK(same, "float32 batches of 8 (constant column %d): every voxel's effect, var, rho, mean, rule and the reference intensity bit for bit as double batches of 4, whole and fit_only, given as doubles or as float32", with_const);
+	CHECK(same, "float32 batches (constant column %d): every voxel's effect, var, rho, mean, rule and the reference intensity bit for bit as double batches, whole and fit_only, given as doubles or as float32", with_const);
 	for (n = 0; n < 5; n++)
 		glm_out_release(&o[n]);
 	glm_model_free(m);
