@@ -775,6 +775,14 @@ static void defer_layout(double *vol, int nv, int k, int wake, int zero)
 		vol[v] = k < 10 ? (double)(v % 2) : 300 + nrand(&(uint64_t){ (uint64_t)v * 31u + (uint64_t)k });
 	if (zero)
 		vol[14000] = k == 36 ? 0.0 : (k % 2 ? -1.0 : 1.0);
+	/* deferred voxels that wake, dim, in chunks whose other voxels stay +0: +0 until
+	   volume 20; -0 (not +0) until volume 7; one voxel of an all-zero chunk at volume 30 */
+	for (v = 15000; v < 15010; v++)
+		vol[v] = k < 20 ? 0.0 : 3 + nrand(&(uint64_t){ (uint64_t)v * 17u + (uint64_t)k });
+	for (v = 15500; v < 15506; v++)
+		vol[v] = k < 7 ? -0.0 : 2 + (v + k) % 3;
+	vol[16200] = k < 30 ? 0.0 : 4 + k % 2;
+	vol[16300] = k % 5 == 1 ? 0.0 : 1.5 + 0.25 * (k % 3);  /* back to +0 after other values */
 	for (v = 0; v < nv; v++)
 		vol[v] = (float)vol[v]; /* float32 exactly, so that the float32 fit reads the same numbers */
 }
@@ -847,6 +855,10 @@ static void defer_dim(int with_const)
 	CHECK(ndefer[0] == 0 && ndefer[1] == expect && ndefer[2] == expect && expect > 20000,
 	      "defer_dim (constant column %d): the %zu voxels dim in volume 0 deferred (%zu, %zu)", with_const,
 	      expect, ndefer[1], ndefer[2]);
+	CHECK(isfinite(o[1].mean[15005]) && o[1].mean[15005] > 1 && o[1].mean[15503] > 2 &&
+	      o[1].mean[16200] > 0.5 && o[1].mean[16300] > 1 && o[1].rule[15005] == GLM_OUT_FLOOR && o[1].rule[16200] == GLM_OUT_FLOOR,
+	      "defer_dim (constant column %d): voxels +0 or -0 at first and dim later have their means and the floor rule (%g, %g, %g)",
+	      with_const, o[1].mean[15005], o[1].mean[15503], o[1].mean[16200]);
 	CHECK(o[0].ok[6500] && !o[0].ok[7000] && !o[0].ok[12002] && !o[0].ok[12003] && !o[0].ok[100] &&
 	      o[0].rule[100] == GLM_OUT_FLOOR && o[0].rule[12001] == GLM_OUT_NONPOSITIVE &&
 	      o[0].rule[12004] == GLM_OUT_NONFINITE && o[0].rule[9500] == GLM_OUT_NONPOSITIVE,
