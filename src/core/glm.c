@@ -46,13 +46,19 @@
  * buffer (batch x nvox doubles) */
 #define GLM_BATCH 4
 /*
- * The batch when the pending volumes are held as float32 (glm_acc_float32).
- * Twice GLM_BATCH would read and write the sums half as often in the same
- * bytes, but the sums are no longer what holds the fit back (the inflation
- * is): GLM_BATCH in half the bytes keeps the bench run's fit under a quarter
- * of the run's size. Any multiple of BATCHSUM_GROUP gives the same bits.
+ * The batch when the pending volumes are held as float32 (glm_acc_float32):
+ * GLM_BATCH, in half the bytes, while the sums are no larger than a common
+ * last-level cache, GLM_CACHE_SUMS (reading and writing them once per batch
+ * is then cheap); GLM_BATCH_F32_BIG when they are larger, so that they go
+ * through memory half as often for 16 more bytes a voxel (the standard
+ * grid's 88 MB of sums: about 3% of a subject's CPU). A fixed size, not the
+ * machine's: virtual machines report caches they do not have, and the
+ * batch must not depend on where the run is fitted (it changes no bit, but
+ * the memory would differ). Any multiple of BATCHSUM_GROUP gives the same bits.
  */
 #define GLM_BATCH_F32 GLM_BATCH
+#define GLM_BATCH_F32_BIG (2 * GLM_BATCH)
+#define GLM_CACHE_SUMS ((size_t)32 << 20)
 /*
  * Voxels per chunk of a volume. A chunk that has held only +0 so far (a zero
  * background) is skipped: adding A * 0 would leave every sum as it is (the
@@ -778,6 +784,18 @@ static size_t kind_end(const glm_acc *a, size_t v, size_t v1)
 	return end;
 }
 
+/* Before the first volume: the larger float32 batch when the sums would not stay in the cache. */
+static void batch_size(glm_acc *a)
+{
+	size_t sums = acc_row(a, a->nvox) * (size_t)2 * a->m->r * sizeof(double);
+
+	if (!a->f32 || sums <= GLM_CACHE_SUMS || a->batch == GLM_BATCH_F32_BIG)
+		return;
+	free(a->ybuf);
+	a->batch = GLM_BATCH_F32_BIG;
+	a->ybuf = xcalloc(a->ylen ? a->ylen : 1, (size_t)a->batch * sizeof(float));
+}
+
 /*
  * Adds a volume chunk by chunk: the values of the voxels of v0..v1-1 that
  * get the sums go into the pending batch; with flush, the chunk takes the
@@ -797,7 +815,7 @@ static void add_chunk(glm_acc *a, const double *vol, const float *volf, size_t v
 {
 	unsigned char *live = &a->live[v0 / ACC_CHUNK];
 	int r2 = 2 * a->m->r, nb = a->nb + 1, k0 = a->k + 1 - nb;
-	double Z[GLM_BATCH_F32 * ACC_CHUNK];
+	double Z[GLM_BATCH_F32_BIG * ACC_CHUNK];
 	size_t v, end, row;
 
 	if (!*live) {
@@ -876,8 +894,10 @@ static sr_status add_volume(glm_acc *a, const double *vol, const float *volf, sr
 		return sr_fail(e, SR_EDIM, "too many voxels for one fit");
 	if (a->k == 0 && a->defer)
 		defer_dim(a, vol, volf);
-	if (a->k == 0)
+	if (a->k == 0) {
 		chunk_bases(a);
+		batch_size(a);
+	}
 	j.a = a;
 	j.vol = vol;
 	j.volf = volf;

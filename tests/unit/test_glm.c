@@ -902,6 +902,61 @@ static void test_defer_dim(void)
 	defer_dim(0);
 }
 
+/*
+ * A run whose sums are larger than 32 MB takes float32 batches of 8 instead
+ * of 4 (glm.c's batch_size): the same bits as the double batches of 4.
+ */
+static void test_big_float32(void)
+{
+	enum { T = 21, P = 4, NV = 600000 };
+	double X[T * P], *vol = xmalloc_array(NV, sizeof(double)), C[P] = { 1, -1, 0, 0 };
+	float *volf = xmalloc_array(NV, sizeof(float));
+	glm_out o[2];
+	glm_model *m;
+	sr_err e;
+	uint64_t s = 81;
+	int n, k, v, same = 1, nok = 0;
+
+	sr_err_init(&e, NULL, NULL);
+	random_design(X, T, P, &s);
+	glm_model_make(X, T, P, &m, &e);
+	for (n = 0; n < 2; n++) {
+		glm_acc *a = glm_acc_alloc(m, NV);
+
+		glm_acc_threads(a, 2);
+		if (n == 1)
+			glm_acc_float32(a);
+		for (k = 0; k < T; k++) {
+			for (v = 0; v < NV; v++) {
+				uint64_t st = (uint64_t)v * 7907u + (uint64_t)k + 3;
+
+				vol[v] = (float)(v % 3 == 0 ? 0.0 : 800 + v % 11 + 3 * nrand(&st));
+				volf[v] = (float)vol[v];
+			}
+			if (n == 1)
+				glm_acc_add_f32(a, volf, &e);
+			else
+				glm_acc_add(a, vol, &e);
+		}
+		glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 2, &o[n], &e);
+		glm_acc_free(a);
+	}
+	for (v = 0; v < NV; v++) {
+		same &= memcmp(&o[0].effect[v], &o[1].effect[v], sizeof(double)) == 0;
+		same &= memcmp(&o[0].var[v], &o[1].var[v], sizeof(double)) == 0;
+		same &= memcmp(&o[0].rho[v], &o[1].rho[v], sizeof(double)) == 0;
+		same &= memcmp(&o[0].mean[v], &o[1].mean[v], sizeof(double)) == 0;
+		same &= o[0].ok[v] == o[1].ok[v];
+		nok += o[0].ok[v];
+	}
+	CHECK(same && nok == 400000, "float32 run with sums over 32 MB (batches of 8): every voxel's bits as double batches of 4 (%d analyzable)", nok);
+	for (n = 0; n < 2; n++)
+		glm_out_release(&o[n]);
+	glm_model_free(m);
+	free(vol);
+	free(volf);
+}
+
 int main(void)
 {
 	test_longley();
@@ -916,5 +971,6 @@ int main(void)
 	test_fit_only();
 	test_float32_batches();
 	test_defer_dim();
+	test_big_float32();
 	return TEST_DONE();
 }
