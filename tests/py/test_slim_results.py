@@ -22,6 +22,7 @@ import shutil
 import subprocess
 import sys
 import tempfile
+import outtree
 from tap import done, ok
 
 SPLITROI = os.environ.get("SPLITROI", "build/splitroi")
@@ -40,13 +41,7 @@ VARYING = ("run.json", "tables.json", "dataset_description.json", "report.html")
 
 
 def files(d):
-    out = []
-    for root, _, names in os.walk(d):
-        for n in names:
-            if n in VARYING or n.startswith(".lock"):
-                continue
-            out.append(os.path.relpath(os.path.join(root, n), d))
-    return sorted(out)
+    return outtree.files(d, VARYING)
 
 
 def analyze(study, out, slim):
