@@ -66,7 +66,6 @@
  * the skipped accumulators' pages are never touched.
  */
 #define ACC_CHUNK 256
-/* grid of the adjusted-rho table: -0.99, -0.98, ..., 0.99 */
 /* glm_acc_defer_dim: a first value below this fraction of the first volume's
    98th percentile defers the voxel (half the floor's fraction of R) */
 #define GLM_DEFER_FRACTION 0.05
@@ -74,6 +73,7 @@
    ways of summing a mean can differ, with room to spare (the roundoff is near
    sqrt(rank) * 1.1e-16 of it) */
 #define GLM_DEFER_TOL 1e-8
+/* grid of the adjusted-rho table: -0.99, -0.98, ..., 0.99 */
 #define GLM_NRHO 199
 #define GLM_RHO_STEP 0.01
 
@@ -389,7 +389,7 @@ struct glm_acc {
 	size_t acc_bytes;
 	int finished;   /* the sums are consumed by the finish */
 	int acc_mapped; /* acc comes from mmap: finished voxels' pages can be handed back early */
-	int batch;      /* volumes per batch: GLM_BATCH, GLM_BATCH_F32 with f32 */
+	int batch;      /* volumes per batch: GLM_BATCH; with f32 GLM_BATCH_F32 or GLM_BATCH_F32_BIG (batch_size) */
 	int f32;        /* ybuf holds float32 (glm_acc_float32) */
 	void *ybuf;     /* batch x ylen: the pending volumes' values, double or float32 */
 	size_t ylen;    /* a row of ybuf: the FIT_SUMS voxels' values, in the order of their sums */
@@ -767,7 +767,6 @@ static void step_now(glm_acc *a, const double *vol, const float *volf, size_t v0
 static size_t kind_end(const glm_acc *a, size_t v, size_t v1)
 {
 	size_t end;
-
 	uint64_t same, w;
 
 	if (!a->fitv)
@@ -964,8 +963,9 @@ static void pages_release(const void *p, size_t from, size_t to)
 }
 
 /*
- * Hands back the accumulator pages of voxels [v0, v1), already finished: the output maps grow while the sums shrink, so the
- * finish does not raise the peak memory of the fit.
+ * Hands back the accumulator pages of voxels [v0, v1), already finished:
+ * the output maps grow while the sums shrink, so the finish does not raise
+ * the peak memory of the fit.
  */
 static void acc_release(const glm_acc *a, size_t v0, size_t v1)
 {
