@@ -403,7 +403,7 @@ struct glm_acc {
 	unsigned char *fitv; /* per voxel FIT_NONE, FIT_SUMS or FIT_DEFERRED; NULL = every voxel FIT_SUMS */
 	size_t *cbase;  /* with fitv, from the first volume: per ACC_CHUNK voxels, the FIT_SUMS voxels
 			   before it (its first row of acc), then their total; NULL: row v for voxel v */
-	int defer;      /* glm_acc_defer_dim: decide at the first volume */
+	int defer;      /* DEFER_DIM or DEFER_ZERO: decide at the first volume */
 	size_t ndefer;  /* voxels FIT_DEFERRED */
 	int threads;    /* for glm_acc_add (glm_acc_threads) */
 };
@@ -497,10 +497,19 @@ void glm_acc_float32(glm_acc *a)
 	a->ybuf = xcalloc(n, GLM_BATCH_F32 * sizeof(float));
 }
 
+/* a->defer: glm_acc_defer_dim's voxels, or only those at +0 (glm_acc_defer_zero) */
+enum { DEFER_DIM = 1, DEFER_ZERO = 2 };
+
 void glm_acc_defer_dim(glm_acc *a)
 {
 	if (a->k == 0)
-		a->defer = 1;
+		a->defer = DEFER_DIM;
+}
+
+void glm_acc_defer_zero(glm_acc *a)
+{
+	if (a->k == 0)
+		a->defer = DEFER_ZERO;
 }
 
 size_t glm_acc_deferred(const glm_acc *a)
@@ -557,24 +566,29 @@ static void chunk_bases(glm_acc *a)
 /*
  * glm_acc_defer_dim's choice, from the run's first volume: a voxel whose
  * first value is finite and below GLM_DEFER_FRACTION of the 98th percentile
- * of the volume's positive finite values is FIT_DEFERRED; a voxel whose first
- * value is not finite is never analyzable and needs no sums (FIT_NONE).
+ * of the volume's positive finite values is FIT_DEFERRED (DEFER_ZERO: whose
+ * first value is +0); a voxel whose first value is not finite is never
+ * analyzable and needs no sums (FIT_NONE).
  */
 static void defer_dim(glm_acc *a, const double *vol, const float *volf)
 {
 	size_t v, k = 0, n = a->nvox;
-	double *pos = xmalloc_array(n ? n : 1, sizeof *pos), lim;
+	double lim = 0.0;
 
-	for (v = 0; v < n; v++) {
-		double y = volf ? (double)volf[v] : vol[v];
+	if (a->defer == DEFER_DIM) {
+		double *pos = xmalloc_array(n ? n : 1, sizeof *pos);
 
-		if (fit_kind(a, v) == FIT_SUMS && isfinite(y) && y > 0.0)
-			pos[k++] = y;
+		for (v = 0; v < n; v++) {
+			double y = volf ? (double)volf[v] : vol[v];
+
+			if (fit_kind(a, v) == FIT_SUMS && isfinite(y) && y > 0.0)
+				pos[k++] = y;
+		}
+		lim = k ? GLM_DEFER_FRACTION * stats_quantile_select(pos, k, GLM_FLOOR_QUANTILE) : NAN;
+		free(pos);
+		if (!(lim > 0.0))
+			return;
 	}
-	lim = k ? GLM_DEFER_FRACTION * stats_quantile_select(pos, k, GLM_FLOOR_QUANTILE) : NAN;
-	free(pos);
-	if (!(lim > 0.0))
-		return;
 	if (!a->fitv)
 		a->fitv = memset(xmalloc(n ? n : 1), FIT_SUMS, n ? n : 1);
 	for (v = 0; v < n; v++) {
@@ -583,7 +597,7 @@ static void defer_dim(glm_acc *a, const double *vol, const float *volf)
 
 		if (kind == FIT_SUMS && !isfinite(y))
 			kind = FIT_NONE;
-		else if (kind == FIT_SUMS && y < lim)
+		else if (kind == FIT_SUMS && (a->defer == DEFER_ZERO ? y == 0.0 && !signbit(y) : y < lim))
 			kind = FIT_DEFERRED;
 		a->ndefer += kind == FIT_DEFERRED;
 		a->fitv[v] = (unsigned char)kind;
@@ -995,7 +1009,9 @@ static void lag_grams(const glm_model *m, double *Ls, double *Q0)
  * two order statistics that give R, and on the same side of 0. Then every rule,
  * the count of positive means and both order statistics are what the fit
  * without deferral gives, and so are R and every output but those voxels'
- * means. pos: the k positive means after stats_quantile_select.
+ * means. With DEFER_ZERO: each one held only +0, so that its mean is +0
+ * either way, and every output is the same. pos: the k positive means after
+ * stats_quantile_select.
  */
 static int deferral_held(const glm_acc *a, const unsigned char *mask, const glm_out *o, const double *pos,
 			 size_t k)
@@ -1005,6 +1021,12 @@ static int deferral_held(const glm_acc *a, const unsigned char *mask, const glm_
 
 	if (!a->ndefer)
 		return 1;
+	if (a->defer == DEFER_ZERO) {
+		for (v = 0; v < a->nvox; v++)
+			if (a->fitv[v] == FIT_DEFERRED && (a->flag[v] & ACC_SEEN))
+				return 0;
+		return 1;
+	}
 	if (k) {
 		size_t lo = (size_t)floor(GLM_FLOOR_QUANTILE * (double)(k - 1));
 

@@ -82,6 +82,13 @@ sr_status glm_acc_add_f32(glm_acc *a, const float *vol, sr_err *e);
  * fails with SR_EREDO, and the run must be fitted again without it.
  */
 void glm_acc_defer_dim(glm_acc *a);
+/*
+ * glm_acc_defer_dim for the voxels whose first value is +0 only, and the
+ * finish fails with SR_EREDO unless each stayed +0 in every volume: then its
+ * mean is +0 either way and every output, means included, is the same bits
+ * as without it (for a run whose whole-grid means are kept).
+ */
+void glm_acc_defer_zero(glm_acc *a);
 /* Voxels glm_acc_defer_dim deferred (0 before the first volume or without it). */
 size_t glm_acc_deferred(const glm_acc *a);
 /* Threads glm_acc_add may use (default 1); the sums do not depend on them. */

@@ -563,7 +563,11 @@ static sr_status keep_setup(const runfit_spec *spec, int T, size_t nvox, runfit_
 	return SR_OK;
 }
 
-/* One fit of the run; defer: glm_acc_defer_dim, which may end in SR_EREDO. */
+/*
+ * One fit of the run; defer: glm_acc_defer_dim, or with spec->grid_mean
+ * glm_acc_defer_zero (every voxel's mean is kept, so only voxels whose mean
+ * is +0 either way may wait); either may end in SR_EREDO.
+ */
 static sr_status fit_once(const runfit_spec *spec, int nthreads, int defer, runfit_result *res, sr_err *e)
 {
 	vol_queue q;
@@ -668,8 +672,9 @@ static sr_status fit_once(const runfit_spec *spec, int nthreads, int defer, runf
 	/* a slim run with nothing kept on the whole grid is read only at the kept voxels */
 	if (spec->slim && spec->keep && spec->nkeep && !spec->grid_mean && !grid_con_any(spec))
 		glm_acc_fit_only(acc, spec->keep, spec->nkeep);
-	/* dim voxels without the fit's sums, unless every voxel's mean is kept (it would differ in its last bits) */
-	if (defer)
+	if (defer && spec->grid_mean)
+		glm_acc_defer_zero(acc);
+	else if (defer)
 		glm_acc_defer_dim(acc);
 	q.s = s;
 	q.T = T;
@@ -731,10 +736,10 @@ static void hold_warning(void *ctx, const char *msg)
 }
 
 /*
- * The run's fit, with the voxels dim in the first volume deferred where
- * nothing reads their means: when the finish finds that one of them may
- * matter after all (SR_EREDO, rare), the run is read and fitted again
- * without deferral. Either way the results are the same. The per-voxel
+ * The run's fit, with the voxels dim in the first volume deferred (only
+ * those at +0 where every voxel's mean is kept): when the finish finds that
+ * one of them may matter after all (SR_EREDO, rare), the run is read and
+ * fitted again without deferral. Either way the results are the same. The per-voxel
  * finish is split over nthreads (same results for any count).
  */
 static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfit_result *res, sr_err *e)
@@ -744,7 +749,7 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 	sr_status st;
 	size_t i;
 
-	if (spec->grid_mean || !defer_dim())
+	if (!defer_dim())
 		return fit_once(spec, nthreads, 0, res, e);
 	memset(&h, 0, sizeof h);
 	pthread_mutex_init(&h.lock, NULL);

@@ -896,6 +896,81 @@ static void defer_dim(int with_const)
 	free(volf);
 }
 
+/* defer_layout without the voxels that are +0 first and other values later, unless wake16200. */
+static void zero_stay_layout(double *vol, int nv, int k, int wake16200)
+{
+	int v;
+
+	defer_layout(vol, nv, k, 0, 0);
+	for (v = 15000; v < 15010; v++)
+		vol[v] = 0.0;
+	if (!wake16200)
+		vol[16200] = 0.0;
+}
+
+/*
+ * glm_acc_defer_zero: only voxels +0 in the first volume wait, and when they
+ * stay +0 every output, means included, is the plain fit's bit for bit; one
+ * that wakes makes the finish ask for the plain fit.
+ */
+static void test_defer_zero(void)
+{
+	enum { T = 37, P = 4, NV = 24000 };
+	double X[T * P], *vol = xmalloc_array(NV, sizeof(double)), C[P] = { 1, -1, 0, 0 };
+	glm_out o[2], w;
+	glm_model *m;
+	sr_err e;
+	uint64_t s = 83;
+	int n, k, v, same = 1;
+	size_t expect = 0, ndefer = 0;
+	sr_status wake;
+	glm_acc *a;
+
+	sr_err_init(&e, NULL, NULL);
+	random_design(X, T, P, &s);
+	glm_model_make(X, T, P, &m, &e);
+	zero_stay_layout(vol, NV, 0, 0);
+	for (v = 0; v < NV; v++)
+		expect += vol[v] == 0.0 && !signbit(vol[v]);
+	for (n = 0; n < 2; n++) {
+		a = glm_acc_alloc(m, NV);
+		glm_acc_threads(a, 2);
+		if (n == 1)
+			glm_acc_defer_zero(a);
+		for (k = 0; k < T; k++) {
+			zero_stay_layout(vol, NV, k, 0);
+			glm_acc_add(a, vol, &e);
+		}
+		if (n == 1)
+			ndefer = glm_acc_deferred(a);
+		glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 2, &o[n], &e);
+		glm_acc_free(a);
+	}
+	for (v = 0; v < NV; v++) {
+		same &= memcmp(&o[0].effect[v], &o[1].effect[v], sizeof(double)) == 0;
+		same &= memcmp(&o[0].var[v], &o[1].var[v], sizeof(double)) == 0;
+		same &= memcmp(&o[0].rho[v], &o[1].rho[v], sizeof(double)) == 0;
+		same &= memcmp(&o[0].mean[v], &o[1].mean[v], sizeof(double)) == 0;
+		same &= o[0].ok[v] == o[1].ok[v] && o[0].rule[v] == o[1].rule[v];
+	}
+	CHECK(ndefer == expect && expect > 9000, "defer_zero: the %zu voxels at +0 in volume 0 wait (%zu), the -0 and dim ones do not", expect, ndefer);
+	CHECK(same && memcmp(&o[0].ref_intensity, &o[1].ref_intensity, sizeof(double)) == 0,
+	      "defer_zero: every voxel's effect, var, rho, mean, ok and rule and the reference intensity bit for bit as the plain fit");
+	a = glm_acc_alloc(m, NV);
+	glm_acc_defer_zero(a);
+	for (k = 0; k < T; k++) {
+		zero_stay_layout(vol, NV, k, 1);
+		glm_acc_add(a, vol, &e);
+	}
+	wake = glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 1, &w, &e);
+	glm_acc_free(a);
+	CHECK(wake == SR_EREDO, "defer_zero: a voxel at +0 in volume 0 and 4 from volume 30 asks for the plain fit");
+	for (n = 0; n < 2; n++)
+		glm_out_release(&o[n]);
+	glm_model_free(m);
+	free(vol);
+}
+
 static void test_defer_dim(void)
 {
 	defer_dim(1);
@@ -971,6 +1046,7 @@ int main(void)
 	test_fit_only();
 	test_float32_batches();
 	test_defer_dim();
+	test_defer_zero();
 	test_big_float32();
 	return TEST_DONE();
 }
