@@ -959,34 +959,24 @@ typedef struct finish_job {
 	const unsigned char *mask;
 	glm_out *out;
 	finish_ws *ws;             /* one per pool worker */
-	const size_t *order;       /* the chunks in the order they are finished (NULL: in turn) */
 } finish_job;
 
-/* Hands back the pages wholly inside bytes [from, to) of p's memory; they read as zeros after. */
-static void pages_release(const void *p, size_t from, size_t to)
+/*
+ * Hands back the accumulator pages that lie wholly inside voxels [v0, v1),
+ * already finished: the output maps grow while the sums shrink, so the
+ * finish does not raise the peak memory of the fit.
+ */
+static void acc_release(const glm_acc *a, size_t v0, size_t v1)
 {
-	size_t pg = (size_t)sysconf(_SC_PAGESIZE);
-	uintptr_t lo = (uintptr_t)p + from, hi = (uintptr_t)p + to;
+	size_t pg = (size_t)sysconf(_SC_PAGESIZE), per = (size_t)2 * a->m->r * sizeof(double);
+	uintptr_t base = (uintptr_t)a->acc, lo = base + acc_row(a, v0) * per, hi = base + acc_row(a, v1) * per;
 
-	if (!p || pg == 0 || (size_t)-1 == pg)
+	if (!a->acc_mapped || pg == 0 || (size_t)-1 == pg)
 		return;
 	lo = (lo + pg - 1) / pg * pg;
 	hi = hi / pg * pg;
 	if (hi > lo)
 		madvise((void *)lo, hi - lo, MADV_DONTNEED);
-}
-
-/*
- * Hands back the accumulator pages of voxels [v0, v1), already finished:
- * the output maps grow while the sums shrink, so the finish does not raise
- * the peak memory of the fit.
- */
-static void acc_release(const glm_acc *a, size_t v0, size_t v1)
-{
-	size_t per = (size_t)2 * a->m->r * sizeof(double);
-
-	if (a->acc_mapped)
-		pages_release(a->acc, acc_row(a, v0) * per, acc_row(a, v1) * per);
 }
 
 /* Lq + Lq' and u_0 u_0' + u_T-1 u_T-1', shared by every voxel. */
@@ -1273,53 +1263,11 @@ static void ws_free(finish_ws *ws, int nw)
 	free(ws);
 }
 
-/* A chunk of the finish and the rows of sums it hands back, for finish_order. */
-typedef struct chunk_rows {
-	size_t rows, chunk;
-} chunk_rows;
-
-static int more_rows_first(const void *x, const void *y)
-{
-	const chunk_rows *a = x, *b = y;
-
-	if (a->rows != b->rows)
-		return a->rows < b->rows ? 1 : -1;
-	return a->chunk < b->chunk ? -1 : a->chunk > b->chunk;
-}
-
-/*
- * With the sums stored one after another (acc_row), the chunks that hand
- * back the most sums go first, so the outputs grow into memory the finish
- * has already given back, and its peak stays that of the stream. Chunks are
- * independent: the same numbers in any order. NULL: in turn.
- */
-static size_t *finish_order(const glm_acc *a, size_t nchunk)
-{
-	chunk_rows *cr;
-	size_t *order, k;
-
-	if (!a->cbase || nchunk < 2)
-		return NULL;
-	cr = xmalloc_array(nchunk, sizeof *cr);
-	for (k = 0; k < nchunk; k++) {
-		size_t v0 = k * FINISH_CHUNK, v1 = v0 + FINISH_CHUNK < a->nvox ? v0 + FINISH_CHUNK : a->nvox;
-
-		cr[k].rows = acc_row(a, v1) - acc_row(a, v0);
-		cr[k].chunk = k;
-	}
-	qsort(cr, nchunk, sizeof *cr, more_rows_first);
-	order = xmalloc_array(nchunk, sizeof *order);
-	for (k = 0; k < nchunk; k++)
-		order[k] = cr[k].chunk;
-	free(cr);
-	return order;
-}
-
 /* Pool job k: voxels k*FINISH_CHUNK.., then their accumulator pages go back to the system. */
 static void finish_chunk(size_t k, int worker, void *ctx)
 {
 	const finish_job *j = ctx;
-	size_t nvox = j->a->nvox, v0 = (j->order ? j->order[k] : k) * FINISH_CHUNK;
+	size_t nvox = j->a->nvox, v0 = k * FINISH_CHUNK;
 	size_t v1 = nvox - v0 > FINISH_CHUNK ? v0 + FINISH_CHUNK : nvox;
 
 	finish_range(j, v0, v1, &j->ws[worker]);
@@ -1402,9 +1350,7 @@ sr_status glm_acc_finish(glm_acc *a, int ar1, const double *C, int ncon,
 	nchunk = (nvox + FINISH_CHUNK - 1) / FINISH_CHUNK;
 	nw = pool_workers(nchunk, nthreads);
 	job.ws = ws_alloc(nw, r, ncon);
-	job.order = finish_order(a, nchunk);
 	pool_run(nchunk, nthreads, finish_chunk, &job);
-	free((size_t *)job.order);
 	ws_free(job.ws, nw);
 	free(cq);
 	free(gc);

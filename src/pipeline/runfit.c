@@ -424,7 +424,7 @@ static int spill_series(void)
  * need it (glm_acc_defer_dim). SPLITROI_DEFER=0 fits every voxel: a test
  * hook for comparing the two (same outputs).
  */
-static int defer_dim(void)
+static int defer_wanted(void)
 {
 	const char *v = getenv("SPLITROI_DEFER");
 
@@ -749,7 +749,7 @@ static sr_status runfit_run_threads(const runfit_spec *spec, int nthreads, runfi
 	sr_status st;
 	size_t i;
 
-	if (!defer_dim())
+	if (!defer_wanted())
 		return fit_once(spec, nthreads, 0, res, e);
 	memset(&h, 0, sizeof h);
 	pthread_mutex_init(&h.lock, NULL);

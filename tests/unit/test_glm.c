@@ -742,6 +742,16 @@ static void test_float32_batches(void)
 	float32_batches(0);
 }
 
+/* 1 when voxel v has the same effect, var, rho, ok and rule bits in a and b (one contrast), and the same mean with means. */
+static int same_voxel(const glm_out *a, const glm_out *b, int v, int means)
+{
+	return memcmp(&a->effect[v], &b->effect[v], sizeof(double)) == 0 &&
+	       memcmp(&a->var[v], &b->var[v], sizeof(double)) == 0 &&
+	       memcmp(&a->rho[v], &b->rho[v], sizeof(double)) == 0 &&
+	       (!means || memcmp(&a->mean[v], &b->mean[v], sizeof(double)) == 0) &&
+	       a->ok[v] == b->ok[v] && a->rule[v] == b->rule[v];
+}
+
 /*
  * A run for glm_acc_defer_dim: a dim noisy background (deferred), a bright
  * block, -0 and +0 voxels, a dim voxel with a negative mean, a constant
@@ -841,10 +851,7 @@ static void defer_dim(int with_const)
 	}
 	for (n = 1; n < 3; n++)
 		for (v = 0; v < NV; v++) {
-			same &= memcmp(&o[0].effect[v], &o[n].effect[v], sizeof(double)) == 0;
-			same &= memcmp(&o[0].var[v], &o[n].var[v], sizeof(double)) == 0;
-			same &= memcmp(&o[0].rho[v], &o[n].rho[v], sizeof(double)) == 0;
-			same &= o[0].ok[v] == o[n].ok[v] && o[0].rule[v] == o[n].rule[v];
+			same &= same_voxel(&o[0], &o[n], v, 0);
 			if (v >= 6000 && v < 9000)
 				means &= memcmp(&o[0].mean[v], &o[n].mean[v], sizeof(double)) == 0;
 			else if (isnan(o[0].mean[v]) != isnan(o[n].mean[v]))
@@ -946,13 +953,8 @@ static void test_defer_zero(void)
 		glm_acc_finish(a, GLM_AR1_ADJUSTED, C, 1, NULL, 2, &o[n], &e);
 		glm_acc_free(a);
 	}
-	for (v = 0; v < NV; v++) {
-		same &= memcmp(&o[0].effect[v], &o[1].effect[v], sizeof(double)) == 0;
-		same &= memcmp(&o[0].var[v], &o[1].var[v], sizeof(double)) == 0;
-		same &= memcmp(&o[0].rho[v], &o[1].rho[v], sizeof(double)) == 0;
-		same &= memcmp(&o[0].mean[v], &o[1].mean[v], sizeof(double)) == 0;
-		same &= o[0].ok[v] == o[1].ok[v] && o[0].rule[v] == o[1].rule[v];
-	}
+	for (v = 0; v < NV; v++)
+		same &= same_voxel(&o[0], &o[1], v, 1);
 	CHECK(ndefer == expect && expect > 9000, "defer_zero: the %zu voxels at +0 in volume 0 wait (%zu), the -0 and dim ones do not", expect, ndefer);
 	CHECK(same && memcmp(&o[0].ref_intensity, &o[1].ref_intensity, sizeof(double)) == 0,
 	      "defer_zero: every voxel's effect, var, rho, mean, ok and rule and the reference intensity bit for bit as the plain fit");
@@ -1017,11 +1019,7 @@ static void test_big_float32(void)
 		glm_acc_free(a);
 	}
 	for (v = 0; v < NV; v++) {
-		same &= memcmp(&o[0].effect[v], &o[1].effect[v], sizeof(double)) == 0;
-		same &= memcmp(&o[0].var[v], &o[1].var[v], sizeof(double)) == 0;
-		same &= memcmp(&o[0].rho[v], &o[1].rho[v], sizeof(double)) == 0;
-		same &= memcmp(&o[0].mean[v], &o[1].mean[v], sizeof(double)) == 0;
-		same &= o[0].ok[v] == o[1].ok[v];
+		same &= same_voxel(&o[0], &o[1], v, 1);
 		nok += o[0].ok[v];
 	}
 	CHECK(same && nok == 400000, "float32 run with sums over 32 MB (batches of 8): every voxel's bits as double batches of 4 (%d analyzable)", nok);
